@@ -1,0 +1,39 @@
+//! Shared state handed to every handler.
+
+use std::ops::Deref;
+use std::sync::Arc;
+
+use crate::db::Pool;
+
+/// Settings the running service needs beyond the database.
+#[derive(Debug, Clone)]
+pub struct Settings {
+    /// True when the database holds the invented demo project (pages say so).
+    pub demo: bool,
+}
+
+/// Cheap-to-clone handle on the service's shared parts.
+#[derive(Clone)]
+pub struct AppState(Arc<Inner>);
+
+/// What the state holds.
+pub struct Inner {
+    /// The database pool.
+    pub db: Pool,
+    /// Service settings.
+    pub settings: Settings,
+}
+
+impl AppState {
+    /// Wraps a pool and settings.
+    pub fn new(db: Pool, settings: Settings) -> Self {
+        Self(Arc::new(Inner { db, settings }))
+    }
+}
+
+impl Deref for AppState {
+    type Target = Inner;
+    fn deref(&self) -> &Inner {
+        &self.0
+    }
+}

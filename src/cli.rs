@@ -1,0 +1,47 @@
+//! The command line: `liftledger serve`, `migrate` and `demo`.
+
+use std::net::SocketAddr;
+use std::path::PathBuf;
+
+use clap::{Parser, Subcommand};
+
+/// liftledger: earthworks compaction QC record and calculator.
+#[derive(Debug, Parser)]
+#[command(version, about)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// What to do.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Run the web service.
+    Serve(ServeArgs),
+    /// Create or upgrade the database file and exit.
+    Migrate(DbArgs),
+    /// Load the invented demo project into a database file.
+    Demo(DbArgs),
+}
+
+/// Where the database lives.
+#[derive(Debug, clap::Args)]
+pub struct DbArgs {
+    /// SQLite database file (created when missing).
+    #[arg(long, env = "LIFTLEDGER_DB", default_value = "liftledger.sqlite")]
+    pub db: PathBuf,
+}
+
+/// Options of `serve`.
+#[derive(Debug, clap::Args)]
+pub struct ServeArgs {
+    /// SQLite database file (created when missing); with --demo defaults to liftledger-demo.sqlite.
+    #[arg(long, env = "LIFTLEDGER_DB")]
+    pub db: Option<PathBuf>,
+    /// Address to listen on; port 0 picks a free port.
+    #[arg(long, env = "LIFTLEDGER_ADDR", default_value = "127.0.0.1:8480")]
+    pub addr: SocketAddr,
+    /// Load the invented demo project when the database file does not exist yet.
+    #[arg(long)]
+    pub demo: bool,
+}

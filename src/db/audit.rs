@@ -1,0 +1,82 @@
+//! The append-only audit trail: who changed what, when, before and after.
+
+use serde::Serialize;
+
+use super::{Pool, Tx};
+
+/// One audit row.
+#[derive(Debug, Clone, Serialize, sqlx::FromRow)]
+pub struct AuditEntry {
+    pub id: i64,
+    pub at: String,
+    pub actor: String,
+    pub action: String,
+    pub entity: String,
+    pub entity_id: Option<i64>,
+    pub project_id: Option<i64>,
+    pub before_json: Option<String>,
+    pub after_json: Option<String>,
+    pub origin: String,
+}
+
+/// What is written for one change.
+#[derive(Debug, Clone)]
+pub struct Change<'a> {
+    pub actor: &'a str,
+    pub action: &'a str,
+    pub entity: &'a str,
+    pub entity_id: Option<i64>,
+    pub project_id: Option<i64>,
+    pub before: Option<serde_json::Value>,
+    pub after: Option<serde_json::Value>,
+    pub origin: &'a str,
+}
+
+/// Appends an audit row inside the transaction that makes the change.
+pub async fn record(tx: &mut Tx<'_>, c: &Change<'_>, now: &str) -> sqlx::Result<()> {
+    sqlx::query(
+        "INSERT INTO audit_log (at, actor, action, entity, entity_id, project_id, before_json, after_json, origin)
+         VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
+    )
+    .bind(now)
+    .bind(c.actor)
+    .bind(c.action)
+    .bind(c.entity)
+    .bind(c.entity_id)
+    .bind(c.project_id)
+    .bind(c.before.as_ref().map(|v| v.to_string()))
+    .bind(c.after.as_ref().map(|v| v.to_string()))
+    .bind(c.origin)
+    .execute(&mut **tx)
+    .await?;
+    Ok(())
+}
+
+/// The history of one entity, oldest first.
+pub async fn for_entity(pool: &Pool, entity: &str, entity_id: i64) -> sqlx::Result<Vec<AuditEntry>> {
+    sqlx::query_as::<_, AuditEntry>(
+        "SELECT id, at, actor, action, entity, entity_id, project_id, before_json, after_json, origin
+         FROM audit_log WHERE entity = ? AND entity_id = ? ORDER BY id",
+    )
+    .bind(entity)
+    .bind(entity_id)
+    .fetch_all(pool)
+    .await
+}
+
+/// The newest changes in a project.
+pub async fn recent(pool: &Pool, project_id: i64, limit: i64) -> sqlx::Result<Vec<AuditEntry>> {
+    sqlx::query_as::<_, AuditEntry>(
+        "SELECT id, at, actor, action, entity, entity_id, project_id, before_json, after_json, origin
+         FROM audit_log WHERE project_id = ? ORDER BY id DESC LIMIT ?",
+    )
+    .bind(project_id)
+    .bind(limit)
+    .fetch_all(pool)
+    .await
+}
+
+/// Total number of audit rows (used by tests that prove nothing was written).
+pub async fn count(pool: &Pool) -> sqlx::Result<i64> {
+    sqlx::query_scalar("SELECT COUNT(*) FROM audit_log").fetch_one(pool).await
+}

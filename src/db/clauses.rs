@@ -1,0 +1,79 @@
+//! Spec clauses: what a lot must achieve and how it is judged.
+
+use serde::Serialize;
+
+use super::{Pool, Tx};
+
+/// A stored specification clause.
+#[derive(Debug, Clone, Serialize, sqlx::FromRow)]
+pub struct Clause {
+    pub id: i64,
+    pub project_id: i64,
+    pub code: String,
+    pub title: String,
+    pub rc_min_pct: f64,
+    pub moisture_below_pct: f64,
+    pub moisture_above_pct: f64,
+    pub effort: String,
+    pub rule: String,
+    pub allowance_pct: Option<f64>,
+    pub min_pwl_pct: Option<f64>,
+    pub area_per_test_m2: Option<f64>,
+    pub length_per_test_m: Option<f64>,
+    pub min_tests_per_lot: i64,
+    pub oversize_limit_pct: f64,
+    pub created_at: String,
+}
+
+
+/// Inserts a clause; `c.id` and `c.created_at` are ignored and filled by the database.
+pub async fn insert(tx: &mut Tx<'_>, c: &Clause) -> sqlx::Result<Clause> {
+    sqlx::query_as::<_, Clause>(
+        "INSERT INTO clauses (project_id, code, title, rc_min_pct, moisture_below_pct, moisture_above_pct, effort, rule,
+             allowance_pct, min_pwl_pct, area_per_test_m2, length_per_test_m, min_tests_per_lot, oversize_limit_pct, created_at)
+         VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)
+         RETURNING id, project_id, code, title, rc_min_pct, moisture_below_pct, moisture_above_pct, effort, rule,
+             allowance_pct, min_pwl_pct, area_per_test_m2, length_per_test_m, min_tests_per_lot, oversize_limit_pct, created_at",
+    )
+    .bind(c.project_id)
+    .bind(&c.code)
+    .bind(&c.title)
+    .bind(c.rc_min_pct)
+    .bind(c.moisture_below_pct)
+    .bind(c.moisture_above_pct)
+    .bind(&c.effort)
+    .bind(&c.rule)
+    .bind(c.allowance_pct)
+    .bind(c.min_pwl_pct)
+    .bind(c.area_per_test_m2)
+    .bind(c.length_per_test_m)
+    .bind(c.min_tests_per_lot)
+    .bind(c.oversize_limit_pct)
+    .bind(&c.created_at)
+    .fetch_one(&mut **tx)
+    .await
+}
+
+/// Every clause of a project.
+pub async fn list(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<Clause>> {
+    sqlx::query_as::<_, Clause>(
+        "SELECT id, project_id, code, title, rc_min_pct, moisture_below_pct, moisture_above_pct, effort, rule,
+             allowance_pct, min_pwl_pct, area_per_test_m2, length_per_test_m, min_tests_per_lot, oversize_limit_pct, created_at
+         FROM clauses WHERE project_id = ? ORDER BY code",
+    )
+    .bind(project_id)
+    .fetch_all(pool)
+    .await
+}
+
+/// One clause by id.
+pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Clause>> {
+    sqlx::query_as::<_, Clause>(
+        "SELECT id, project_id, code, title, rc_min_pct, moisture_below_pct, moisture_above_pct, effort, rule,
+             allowance_pct, min_pwl_pct, area_per_test_m2, length_per_test_m, min_tests_per_lot, oversize_limit_pct, created_at
+         FROM clauses WHERE id = ?",
+    )
+    .bind(id)
+    .fetch_optional(pool)
+    .await
+}

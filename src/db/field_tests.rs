@@ -1,0 +1,190 @@
+//! Field density tests: readings exactly as entered, their reduction, retest links and voids.
+
+use serde::Serialize;
+
+use super::{Pool, Tx};
+
+/// A stored field test.
+#[derive(Debug, Clone, Serialize, sqlx::FromRow)]
+pub struct FieldTest {
+    pub id: i64,
+    pub project_id: i64,
+    pub lot_id: i64,
+    pub number: String,
+    pub tested_at: String,
+    pub technician: String,
+    pub method: String,
+    pub instrument_serial: String,
+    pub chainage_m: f64,
+    pub offset_m: f64,
+    pub depth_mm: Option<f64>,
+    pub coarse_pct: Option<f64>,
+    pub coarse_water_content_pct: Option<f64>,
+    pub easting: Option<f64>,
+    pub northing: Option<f64>,
+    pub readings_json: String,
+    pub wet_density_kg_m3: f64,
+    pub water_content_pct: f64,
+    pub dry_density_kg_m3: f64,
+    pub moisture_source: String,
+    pub reduction_version: String,
+    pub retest_of: Option<i64>,
+    pub void_reason: Option<String>,
+    pub voided_by: Option<String>,
+    pub voided_at: Option<String>,
+    pub created_at: String,
+    pub created_by: String,
+}
+
+const COLUMNS: &str = "id, project_id, lot_id, number, tested_at, technician, method, instrument_serial, chainage_m,
+    offset_m, depth_mm, coarse_pct, coarse_water_content_pct, easting, northing, readings_json, wet_density_kg_m3,
+    water_content_pct, dry_density_kg_m3, moisture_source, reduction_version, retest_of, void_reason, voided_by,
+    voided_at, created_at, created_by";
+
+/// Filters for listing tests across a project; `None` means "any".
+#[derive(Debug, Clone, Default)]
+pub struct TestFilter {
+    pub lot_id: Option<i64>,
+    pub layer_id: Option<i64>,
+    pub chainage_from_m: Option<f64>,
+    pub chainage_to_m: Option<f64>,
+    pub tested_from: Option<String>,
+    pub tested_before: Option<String>,
+    pub method: Option<String>,
+    pub limit: i64,
+    pub offset: i64,
+}
+
+/// Inserts a test (`id` ignored) and returns its id.
+pub async fn insert(tx: &mut Tx<'_>, t: &FieldTest) -> sqlx::Result<i64> {
+    sqlx::query_scalar(
+        "INSERT INTO field_tests (project_id, lot_id, number, tested_at, technician, method, instrument_serial,
+             chainage_m, offset_m, depth_mm, coarse_pct, coarse_water_content_pct, easting, northing, readings_json,
+             wet_density_kg_m3, water_content_pct, dry_density_kg_m3, moisture_source, reduction_version, retest_of,
+             void_reason, voided_by, voided_at, created_at, created_by)
+         VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?) RETURNING id",
+    )
+    .bind(t.project_id)
+    .bind(t.lot_id)
+    .bind(&t.number)
+    .bind(&t.tested_at)
+    .bind(&t.technician)
+    .bind(&t.method)
+    .bind(&t.instrument_serial)
+    .bind(t.chainage_m)
+    .bind(t.offset_m)
+    .bind(t.depth_mm)
+    .bind(t.coarse_pct)
+    .bind(t.coarse_water_content_pct)
+    .bind(t.easting)
+    .bind(t.northing)
+    .bind(&t.readings_json)
+    .bind(t.wet_density_kg_m3)
+    .bind(t.water_content_pct)
+    .bind(t.dry_density_kg_m3)
+    .bind(&t.moisture_source)
+    .bind(&t.reduction_version)
+    .bind(t.retest_of)
+    .bind(&t.void_reason)
+    .bind(&t.voided_by)
+    .bind(&t.voided_at)
+    .bind(&t.created_at)
+    .bind(&t.created_by)
+    .fetch_one(&mut **tx)
+    .await
+}
+
+/// One test by id.
+pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<FieldTest>> {
+    sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
+        "SELECT {COLUMNS} FROM field_tests WHERE id = ?"
+    )))
+    .bind(id)
+    .fetch_optional(pool)
+    .await
+}
+
+/// Every test of a lot in the order they were taken.
+pub async fn for_lot(pool: &Pool, lot_id: i64) -> sqlx::Result<Vec<FieldTest>> {
+    sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
+        "SELECT {COLUMNS} FROM field_tests WHERE lot_id = ? ORDER BY tested_at, id"
+    )))
+    .bind(lot_id)
+    .fetch_all(pool)
+    .await
+}
+
+/// Tests of a project matching the filter, newest first.
+pub async fn list(pool: &Pool, project_id: i64, f: &TestFilter) -> sqlx::Result<Vec<FieldTest>> {
+    sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
+        "SELECT {COLUMNS} FROM field_tests t WHERE t.project_id = ?
+           AND (? IS NULL OR t.lot_id = ?)
+           AND (? IS NULL OR t.lot_id IN (SELECT id FROM lots WHERE layer_id = ?))
+           AND (? IS NULL OR t.chainage_m >= ?)
+           AND (? IS NULL OR t.chainage_m <= ?)
+           AND (? IS NULL OR t.tested_at >= ?)
+           AND (? IS NULL OR t.tested_at < ?)
+           AND (? IS NULL OR t.method = ?)
+         ORDER BY t.tested_at DESC, t.id DESC LIMIT ? OFFSET ?"
+    )))
+    .bind(project_id)
+    .bind(f.lot_id)
+    .bind(f.lot_id)
+    .bind(f.layer_id)
+    .bind(f.layer_id)
+    .bind(f.chainage_from_m)
+    .bind(f.chainage_from_m)
+    .bind(f.chainage_to_m)
+    .bind(f.chainage_to_m)
+    .bind(&f.tested_from)
+    .bind(&f.tested_from)
+    .bind(&f.tested_before)
+    .bind(&f.tested_before)
+    .bind(&f.method)
+    .bind(&f.method)
+    .bind(f.limit)
+    .bind(f.offset)
+    .fetch_all(pool)
+    .await
+}
+
+/// Voids a test with a reason; false when it was already void.
+pub async fn void(tx: &mut Tx<'_>, id: i64, reason: &str, actor: &str, now: &str) -> sqlx::Result<bool> {
+    let done = sqlx::query(
+        "UPDATE field_tests SET void_reason = ?, voided_by = ?, voided_at = ? WHERE id = ? AND void_reason IS NULL",
+    )
+    .bind(reason)
+    .bind(actor)
+    .bind(now)
+    .bind(id)
+    .execute(&mut **tx)
+    .await?;
+    Ok(done.rows_affected() == 1)
+}
+
+/// Counts of tests in a project taken at or after each of the given times.
+pub async fn count_since(pool: &Pool, project_id: i64, since: &str) -> sqlx::Result<i64> {
+    sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE project_id = ? AND tested_at >= ?")
+        .bind(project_id)
+        .bind(since)
+        .fetch_one(pool)
+        .await
+}
+
+/// Total number of tests in a project.
+pub async fn count(pool: &Pool, project_id: i64) -> sqlx::Result<i64> {
+    sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE project_id = ?")
+        .bind(project_id)
+        .fetch_one(pool)
+        .await
+}
+
+/// The newest test in a project, if any.
+pub async fn latest(pool: &Pool, project_id: i64) -> sqlx::Result<Option<FieldTest>> {
+    sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
+        "SELECT {COLUMNS} FROM field_tests WHERE project_id = ? ORDER BY created_at DESC, id DESC LIMIT 1"
+    )))
+    .bind(project_id)
+    .fetch_optional(pool)
+    .await
+}

@@ -1,0 +1,99 @@
+//! Zones and layers: the vertical structure lots sit in.
+
+use serde::Serialize;
+
+use super::{Pool, Tx};
+
+/// A zone (embankment fill, subgrade, capping…) in its position from the bottom.
+#[derive(Debug, Clone, Serialize, sqlx::FromRow)]
+pub struct Zone {
+    pub id: i64,
+    pub project_id: i64,
+    pub name: String,
+    pub position: i64,
+}
+
+/// A layer (lift) numbered from the bottom of its zone, with its zone's name.
+#[derive(Debug, Clone, Serialize, sqlx::FromRow)]
+pub struct Layer {
+    pub id: i64,
+    pub project_id: i64,
+    pub zone_id: i64,
+    pub zone_name: String,
+    pub zone_position: i64,
+    pub number: i64,
+    pub thickness_mm: Option<f64>,
+    pub created_at: String,
+}
+
+/// Finds a zone by name or creates it at the next position.
+pub async fn zone_by_name_or_insert(tx: &mut Tx<'_>, project_id: i64, name: &str) -> sqlx::Result<Zone> {
+    if let Some(z) = sqlx::query_as::<_, Zone>(
+        "SELECT id, project_id, name, position FROM zones WHERE project_id = ? AND name = ?",
+    )
+    .bind(project_id)
+    .bind(name)
+    .fetch_optional(&mut **tx)
+    .await?
+    {
+        return Ok(z);
+    }
+    sqlx::query_as::<_, Zone>(
+        "INSERT INTO zones (project_id, name, position)
+         VALUES (?, ?, (SELECT COALESCE(MAX(position), 0) + 1 FROM zones WHERE project_id = ?))
+         RETURNING id, project_id, name, position",
+    )
+    .bind(project_id)
+    .bind(name)
+    .bind(project_id)
+    .fetch_one(&mut **tx)
+    .await
+}
+
+/// Inserts a layer in a zone.
+pub async fn insert(
+    tx: &mut Tx<'_>,
+    project_id: i64,
+    zone_id: i64,
+    number: i64,
+    thickness_mm: Option<f64>,
+    now: &str,
+) -> sqlx::Result<i64> {
+    let id: i64 = sqlx::query_scalar(
+        "INSERT INTO layers (project_id, zone_id, number, thickness_mm, created_at)
+         VALUES (?, ?, ?, ?, ?) RETURNING id",
+    )
+    .bind(project_id)
+    .bind(zone_id)
+    .bind(number)
+    .bind(thickness_mm)
+    .bind(now)
+    .fetch_one(&mut **tx)
+    .await?;
+    Ok(id)
+}
+
+/// Every layer of a project, bottom zone first, bottom layer first.
+pub async fn list(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<Layer>> {
+    sqlx::query_as::<_, Layer>(
+        "SELECT l.id, l.project_id, l.zone_id, z.name AS zone_name, z.position AS zone_position, l.number,
+             l.thickness_mm, l.created_at
+         FROM layers l JOIN zones z ON z.id = l.zone_id
+         WHERE l.project_id = ? ORDER BY z.position, l.number",
+    )
+    .bind(project_id)
+    .fetch_all(pool)
+    .await
+}
+
+/// One layer by id.
+pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Layer>> {
+    sqlx::query_as::<_, Layer>(
+        "SELECT l.id, l.project_id, l.zone_id, z.name AS zone_name, z.position AS zone_position, l.number,
+             l.thickness_mm, l.created_at
+         FROM layers l JOIN zones z ON z.id = l.zone_id WHERE l.id = ?",
+    )
+    .bind(id)
+    .fetch_optional(pool)
+    .await
+}

@@ -1,0 +1,213 @@
+//! Lots: one layer between two chainages, judged as a unit, and their state changes.
+
+use serde::Serialize;
+
+use super::{Pool, Tx};
+
+/// A stored lot joined with the names a reader needs beside it.
+#[derive(Debug, Clone, Serialize, sqlx::FromRow)]
+pub struct Lot {
+    pub id: i64,
+    pub project_id: i64,
+    pub layer_id: i64,
+    pub code: String,
+    pub chainage_from_m: f64,
+    pub chainage_to_m: f64,
+    pub offset_left_m: f64,
+    pub offset_right_m: f64,
+    pub clause_id: i64,
+    pub source_id: i64,
+    pub lab_test_id: i64,
+    pub state: String,
+    pub state_changed_at: String,
+    pub created_at: String,
+    pub created_by: String,
+    pub zone_name: String,
+    pub zone_position: i64,
+    pub layer_number: i64,
+}
+
+/// Fields of a new lot, already validated.
+#[derive(Debug, Clone)]
+pub struct NewLot {
+    pub project_id: i64,
+    pub layer_id: i64,
+    pub code: String,
+    pub chainage_from_m: f64,
+    pub chainage_to_m: f64,
+    pub offset_left_m: f64,
+    pub offset_right_m: f64,
+    pub clause_id: i64,
+    pub source_id: i64,
+    pub lab_test_id: i64,
+}
+
+/// Filters for listing lots; `None` means "any".
+#[derive(Debug, Clone, Default)]
+pub struct LotFilter {
+    pub chainage_from_m: Option<f64>,
+    pub chainage_to_m: Option<f64>,
+    pub layer_id: Option<i64>,
+    pub state: Option<String>,
+    pub changed_since: Option<String>,
+    pub changed_before: Option<String>,
+    pub limit: i64,
+    pub offset: i64,
+}
+
+/// A recorded state change of a lot.
+#[derive(Debug, Clone, Serialize, sqlx::FromRow)]
+pub struct Transition {
+    pub id: i64,
+    pub lot_id: i64,
+    pub from_state: String,
+    pub to_state: String,
+    pub actor: String,
+    pub at: String,
+    pub comment: String,
+}
+
+const SELECT: &str = "SELECT lo.id, lo.project_id, lo.layer_id, lo.code, lo.chainage_from_m, lo.chainage_to_m,
+        lo.offset_left_m, lo.offset_right_m, lo.clause_id, lo.source_id, lo.lab_test_id, lo.state,
+        lo.state_changed_at, lo.created_at, lo.created_by, z.name AS zone_name, z.position AS zone_position,
+        la.number AS layer_number
+     FROM lots lo JOIN layers la ON la.id = lo.layer_id JOIN zones z ON z.id = la.zone_id";
+
+/// Inserts a lot in the open state.
+pub async fn insert(tx: &mut Tx<'_>, new: &NewLot, actor: &str, now: &str) -> sqlx::Result<i64> {
+    sqlx::query_scalar(
+        "INSERT INTO lots (project_id, layer_id, code, chainage_from_m, chainage_to_m, offset_left_m, offset_right_m,
+             clause_id, source_id, lab_test_id, state, state_changed_at, created_at, created_by)
+         VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, 'open', ?, ?, ?) RETURNING id",
+    )
+    .bind(new.project_id)
+    .bind(new.layer_id)
+    .bind(&new.code)
+    .bind(new.chainage_from_m)
+    .bind(new.chainage_to_m)
+    .bind(new.offset_left_m)
+    .bind(new.offset_right_m)
+    .bind(new.clause_id)
+    .bind(new.source_id)
+    .bind(new.lab_test_id)
+    .bind(now)
+    .bind(now)
+    .bind(actor)
+    .fetch_one(&mut **tx)
+    .await
+}
+
+/// One lot by id.
+pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Lot>> {
+    sqlx::query_as::<_, Lot>(sqlx::AssertSqlSafe(format!("{SELECT} WHERE lo.id = ?")))
+        .bind(id)
+        .fetch_optional(pool)
+        .await
+}
+
+/// Lots of a project matching the filter, by layer then chainage.
+pub async fn list(pool: &Pool, project_id: i64, f: &LotFilter) -> sqlx::Result<Vec<Lot>> {
+    sqlx::query_as::<_, Lot>(sqlx::AssertSqlSafe(format!(
+        "{SELECT} WHERE lo.project_id = ?
+           AND (? IS NULL OR lo.chainage_to_m > ?)
+           AND (? IS NULL OR lo.chainage_from_m < ?)
+           AND (? IS NULL OR lo.layer_id = ?)
+           AND (? IS NULL OR lo.state = ?)
+           AND (? IS NULL OR lo.state_changed_at >= ?)
+           AND (? IS NULL OR lo.state_changed_at < ?)
+         ORDER BY z.position, la.number, lo.chainage_from_m, lo.id
+         LIMIT ? OFFSET ?"
+    )))
+    .bind(project_id)
+    .bind(f.chainage_from_m)
+    .bind(f.chainage_from_m)
+    .bind(f.chainage_to_m)
+    .bind(f.chainage_to_m)
+    .bind(f.layer_id)
+    .bind(f.layer_id)
+    .bind(&f.state)
+    .bind(&f.state)
+    .bind(&f.changed_since)
+    .bind(&f.changed_since)
+    .bind(&f.changed_before)
+    .bind(&f.changed_before)
+    .bind(f.limit)
+    .bind(f.offset)
+    .fetch_all(pool)
+    .await
+}
+
+/// Lots in one state across a project, oldest state change first (the review queue).
+pub async fn in_state(pool: &Pool, project_id: i64, state: &str) -> sqlx::Result<Vec<Lot>> {
+    sqlx::query_as::<_, Lot>(sqlx::AssertSqlSafe(format!(
+        "{SELECT} WHERE lo.project_id = ? AND lo.state = ? ORDER BY lo.state_changed_at, lo.id"
+    )))
+    .bind(project_id)
+    .bind(state)
+    .fetch_all(pool)
+    .await
+}
+
+/// Moves a lot from `from` to `to` and records the transition; false when the lot was not in `from`.
+pub async fn transition(
+    tx: &mut Tx<'_>,
+    lot_id: i64,
+    from: &str,
+    to: &str,
+    actor: &str,
+    comment: &str,
+    now: &str,
+) -> sqlx::Result<bool> {
+    let done = sqlx::query("UPDATE lots SET state = ?, state_changed_at = ? WHERE id = ? AND state = ?")
+        .bind(to)
+        .bind(now)
+        .bind(lot_id)
+        .bind(from)
+        .execute(&mut **tx)
+        .await?;
+    if done.rows_affected() != 1 {
+        return Ok(false);
+    }
+    sqlx::query(
+        "INSERT INTO lot_transitions (lot_id, from_state, to_state, actor, at, comment) VALUES (?, ?, ?, ?, ?, ?)",
+    )
+    .bind(lot_id)
+    .bind(from)
+    .bind(to)
+    .bind(actor)
+    .bind(now)
+    .bind(comment)
+    .execute(&mut **tx)
+    .await?;
+    Ok(true)
+}
+
+/// Every state change of a lot, in order.
+pub async fn transitions(pool: &Pool, lot_id: i64) -> sqlx::Result<Vec<Transition>> {
+    sqlx::query_as::<_, Transition>(
+        "SELECT id, lot_id, from_state, to_state, actor, at, comment FROM lot_transitions WHERE lot_id = ? ORDER BY id",
+    )
+    .bind(lot_id)
+    .fetch_all(pool)
+    .await
+}
+
+/// Count of lots per state in a project.
+pub async fn count_by_state(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<(String, i64)>> {
+    sqlx::query_as::<_, (String, i64)>(
+        "SELECT state, COUNT(*) FROM lots WHERE project_id = ? GROUP BY state ORDER BY state",
+    )
+    .bind(project_id)
+    .fetch_all(pool)
+    .await
+}
+
+/// Points every lot judged against lab test `old` at `new`; returns how many moved.
+pub async fn repoint_lab_test(tx: &mut Tx<'_>, old: i64, new: i64) -> sqlx::Result<u64> {
+    let done = sqlx::query("UPDATE lots SET lab_test_id = ? WHERE lab_test_id = ?")
+        .bind(new)
+        .bind(old)
+        .execute(&mut **tx)
+        .await?;
+    Ok(done.rows_affected())
+}

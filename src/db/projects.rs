@@ -1,0 +1,82 @@
+//! Projects: the contract a set of lots and tests belongs to.
+
+use serde::Serialize;
+
+use super::{Pool, Tx};
+
+/// A stored project.
+#[derive(Debug, Clone, Serialize, sqlx::FromRow)]
+pub struct Project {
+    pub id: i64,
+    pub code: String,
+    pub name: String,
+    pub contract: String,
+    pub client: String,
+    pub contractor: String,
+    pub unit_system: String,
+    pub chainage_style: String,
+    pub created_at: String,
+}
+
+/// Fields of a new project, already validated.
+#[derive(Debug, Clone)]
+pub struct NewProject {
+    pub code: String,
+    pub name: String,
+    pub contract: String,
+    pub client: String,
+    pub contractor: String,
+    pub unit_system: String,
+    pub chainage_style: String,
+}
+
+/// Inserts a project and returns it.
+pub async fn insert(tx: &mut Tx<'_>, new: &NewProject, now: &str) -> sqlx::Result<Project> {
+    sqlx::query_as::<_, Project>(
+        "INSERT INTO projects (code, name, contract, client, contractor, unit_system, chainage_style, created_at)
+         VALUES (?, ?, ?, ?, ?, ?, ?, ?)
+         RETURNING id, code, name, contract, client, contractor, unit_system, chainage_style, created_at",
+    )
+    .bind(&new.code)
+    .bind(&new.name)
+    .bind(&new.contract)
+    .bind(&new.client)
+    .bind(&new.contractor)
+    .bind(&new.unit_system)
+    .bind(&new.chainage_style)
+    .bind(now)
+    .fetch_one(&mut **tx)
+    .await
+}
+
+/// Every project, by name.
+pub async fn list(pool: &Pool) -> sqlx::Result<Vec<Project>> {
+    sqlx::query_as::<_, Project>(
+        "SELECT id, code, name, contract, client, contractor, unit_system, chainage_style, created_at
+         FROM projects ORDER BY name, id",
+    )
+    .fetch_all(pool)
+    .await
+}
+
+/// One project by id.
+pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Project>> {
+    sqlx::query_as::<_, Project>(
+        "SELECT id, code, name, contract, client, contractor, unit_system, chainage_style, created_at
+         FROM projects WHERE id = ?",
+    )
+    .bind(id)
+    .fetch_optional(pool)
+    .await
+}
+
+/// One project by its short code.
+pub async fn get_by_code(pool: &Pool, code: &str) -> sqlx::Result<Option<Project>> {
+    sqlx::query_as::<_, Project>(
+        "SELECT id, code, name, contract, client, contractor, unit_system, chainage_style, created_at
+         FROM projects WHERE code = ?",
+    )
+    .bind(code)
+    .fetch_optional(pool)
+    .await
+}

@@ -1,0 +1,125 @@
+//! The one error type of liftledger and how it maps to HTTP.
+//!
+//! Use `Invalid` for a value that breaks a rule (422), `BadRequest` for a body
+//! that cannot be read at all (400), `NotFound` (404), `Conflict` for a request
+//! the current state refuses (409, with the reasons listed), and let anything
+//! else become `Internal`: logged in full, answered with a generic 500.
+
+use axum::Json;
+use axum::http::StatusCode;
+use axum::response::{IntoResponse, Response};
+use serde_json::json;
+
+/// Result with the app's error.
+pub type Result<T, E = AppError> = std::result::Result<T, E>;
+
+/// Every way a request can fail.
+#[derive(Debug, thiserror::Error)]
+pub enum AppError {
+    /// The body could not be parsed as the expected JSON or form.
+    #[error("{field}: {message}")]
+    BadRequest { field: String, message: String },
+    /// A value was read but breaks a rule.
+    #[error("{field}: {message}")]
+    Invalid { field: String, message: String },
+    /// A referenced record does not exist.
+    #[error("{field}: {message}")]
+    NotFound { field: String, message: String },
+    /// The record's current state refuses the request.
+    #[error("{field}: {message}")]
+    Conflict {
+        field: String,
+        message: String,
+        reasons: Vec<String>,
+    },
+    /// A fault of the server, not of the user.
+    #[error(transparent)]
+    Internal(#[from] anyhow::Error),
+}
+
+impl AppError {
+    /// A rule broken by the value of `field`.
+    pub fn invalid(field: impl Into<String>, message: impl Into<String>) -> Self {
+        Self::Invalid {
+            field: field.into(),
+            message: message.into(),
+        }
+    }
+
+    /// A missing record named by `field`.
+    pub fn not_found(field: impl Into<String>, message: impl Into<String>) -> Self {
+        Self::NotFound {
+            field: field.into(),
+            message: message.into(),
+        }
+    }
+
+    /// A refusal by the record's state, with the reasons a user must fix.
+    pub fn conflict(field: impl Into<String>, message: impl Into<String>, reasons: Vec<String>) -> Self {
+        Self::Conflict {
+            field: field.into(),
+            message: message.into(),
+            reasons,
+        }
+    }
+
+    /// The HTTP status for this error.
+    pub fn status(&self) -> StatusCode {
+        match self {
+            Self::BadRequest { .. } => StatusCode::BAD_REQUEST,
+            Self::Invalid { .. } => StatusCode::UNPROCESSABLE_ENTITY,
+            Self::NotFound { .. } => StatusCode::NOT_FOUND,
+            Self::Conflict { .. } => StatusCode::CONFLICT,
+            Self::Internal(_) => StatusCode::INTERNAL_SERVER_ERROR,
+        }
+    }
+
+    /// The field the error names ("" for a server fault).
+    pub fn field(&self) -> &str {
+        match self {
+            Self::BadRequest { field, .. }
+            | Self::Invalid { field, .. }
+            | Self::NotFound { field, .. }
+            | Self::Conflict { field, .. } => field,
+            Self::Internal(_) => "",
+        }
+    }
+
+    /// The message shown to the user; server faults get a generic one.
+    pub fn user_message(&self) -> String {
+        match self {
+            Self::BadRequest { message, .. }
+            | Self::Invalid { message, .. }
+            | Self::NotFound { message, .. }
+            | Self::Conflict { message, .. } => message.clone(),
+            Self::Internal(_) => "internal error; the server log has the details".to_string(),
+        }
+    }
+
+    /// The reasons listed with a refusal.
+    pub fn reasons(&self) -> &[String] {
+        match self {
+            Self::Conflict { reasons, .. } => reasons,
+            _ => &[],
+        }
+    }
+}
+
+impl From<sqlx::Error> for AppError {
+    fn from(err: sqlx::Error) -> Self {
+        Self::Internal(anyhow::Error::new(err).context("database error"))
+    }
+}
+
+impl IntoResponse for AppError {
+    fn into_response(self) -> Response {
+        if let Self::Internal(err) = &self {
+            tracing::error!(error = ?err, "request failed");
+        }
+        let mut body = json!({"field": self.field(), "message": self.user_message()});
+        if !self.reasons().is_empty() {
+            body["reasons"] = json!(self.reasons());
+        }
+        (self.status(), Json(json!({ "error": body }))).into_response()
+    }
+}

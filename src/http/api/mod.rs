@@ -1,0 +1,43 @@
+//! The JSON API, version 1, under `/api/v1`.
+
+mod calc;
+mod certificates;
+mod field_tests;
+pub mod openapi;
+mod projects;
+
+use axum::Router;
+
+use crate::app::AppState;
+
+/// All `/api/v1` routes.
+pub fn router() -> Router<AppState> {
+    Router::new()
+        .merge(projects::router())
+        .merge(field_tests::router())
+        .merge(calc::router())
+        .merge(certificates::router())
+        .merge(openapi::router())
+}
+
+/// Paging parameters shared by every list.
+#[derive(Debug, Clone, Copy, serde::Deserialize)]
+pub struct Page {
+    pub page: Option<i64>,
+    pub per_page: Option<i64>,
+}
+
+impl Page {
+    /// (limit, offset) with `per_page` capped at 1000.
+    pub fn limit_offset(&self) -> crate::error::Result<(i64, i64)> {
+        let per = self.per_page.unwrap_or(100);
+        if !(1..=1000).contains(&per) {
+            return Err(crate::error::AppError::invalid("per_page", "must be between 1 and 1000"));
+        }
+        let page = self.page.unwrap_or(1);
+        if page < 1 {
+            return Err(crate::error::AppError::invalid("page", "must be 1 or more"));
+        }
+        Ok((per, (page - 1) * per))
+    }
+}

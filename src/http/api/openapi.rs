@@ -1,0 +1,156 @@
+//! The OpenAPI 3.1 description of `/api/v1`, built from one table of operations.
+//!
+//! A test compares this table with the routes registered in `src/http/`, so the
+//! document cannot drift from the router.
+
+use axum::routing::get;
+use axum::{Json, Router};
+use serde_json::{Map, Value, json};
+
+use crate::app::AppState;
+
+/// One documented operation: method, path, summary, and whether it takes a JSON body.
+pub struct Operation {
+    pub method: &'static str,
+    pub path: &'static str,
+    pub summary: &'static str,
+    pub body: Option<&'static str>,
+}
+
+const fn op(method: &'static str, path: &'static str, summary: &'static str, body: Option<&'static str>) -> Operation {
+    Operation {
+        method,
+        path,
+        summary,
+        body,
+    }
+}
+
+/// Every operation of the JSON API.
+pub const OPERATIONS: &[Operation] = &[
+    op("get", "/api/v1/projects", "List projects", None),
+    op("post", "/api/v1/projects", "Create a project", Some("ProjectInput")),
+    op("get", "/api/v1/projects/{id}", "One project", None),
+    op("get", "/api/v1/projects/{id}/clauses", "List spec clauses", None),
+    op("post", "/api/v1/projects/{id}/clauses", "Create a spec clause", Some("ClauseInput")),
+    op("get", "/api/v1/projects/{id}/sources", "List borrow sources", None),
+    op("post", "/api/v1/projects/{id}/sources", "Create a borrow source", Some("SourceInput")),
+    op("get", "/api/v1/sources/{id}/lab-tests", "List a source's lab compaction tests", None),
+    op("post", "/api/v1/sources/{id}/lab-tests", "Record a lab compaction test and fit its curve", Some("LabTestInput")),
+    op("get", "/api/v1/lab-tests/{id}", "One lab compaction test", None),
+    op("get", "/api/v1/projects/{id}/layers", "List layers by zone", None),
+    op("post", "/api/v1/projects/{id}/layers", "Create a layer", Some("LayerInput")),
+    op("get", "/api/v1/projects/{id}/lots", "List lots (filters: chainage_from_m, chainage_to_m, layer_id, state, changed_since, changed_before, page, per_page)", None),
+    op("post", "/api/v1/projects/{id}/lots", "Create a lot", Some("LotInput")),
+    op("get", "/api/v1/lots/{id}", "A lot with its tests, verdict, statistics and tests owed", None),
+    op("get", "/api/v1/lots/{id}/history", "A lot's state changes and audit trail", None),
+    op("get", "/api/v1/projects/{id}/review-queue", "Submitted lots, oldest first", None),
+    op("post", "/api/v1/lots/{id}/submit", "Submit a lot for review", Some("ReviewInput")),
+    op("post", "/api/v1/lots/{id}/accept", "Accept a submitted lot and issue its certificate", Some("ReviewInput")),
+    op("post", "/api/v1/lots/{id}/reject", "Reject a submitted lot (comment required)", Some("ReviewInput")),
+    op("get", "/api/v1/lots/{id}/field-tests", "A lot's field tests as judged", None),
+    op("post", "/api/v1/lots/{id}/field-tests", "Record a field test", Some("FieldTestInput")),
+    op("post", "/api/v1/lots/{id}/field-tests/preview", "Reduce and judge a field test without saving", Some("FieldTestInput")),
+    op("get", "/api/v1/projects/{id}/field-tests", "List field tests (filters: lot_id, layer_id, chainage_from_m, chainage_to_m, tested_from, tested_before, method, page, per_page)", None),
+    op("get", "/api/v1/field-tests/{id}", "One field test as judged", None),
+    op("get", "/api/v1/field-tests/{id}/history", "A field test's audit trail", None),
+    op("post", "/api/v1/field-tests/{id}/void", "Void a field test with a reason", Some("VoidInput")),
+    op("post", "/api/v1/field-tests/{id}/retests", "Record a retest of a failed test", Some("FieldTestInput")),
+    op("get", "/api/v1/projects/{id}/certificates", "Certificate revisions of a project", None),
+    op("get", "/api/v1/certificates/{id}", "One certificate revision", None),
+    op("get", "/api/v1/certificates/{id}/pdf", "The issued PDF bytes of a revision", None),
+    op("post", "/api/v1/verify", "Identify a certificate by code, hash or PDF bytes", Some("VerifyInput")),
+    op("post", "/api/v1/calc/lab-curve", "Fit a compaction curve", Some("LabCurveInput")),
+    op("post", "/api/v1/calc/field-density", "Reduce field density readings", Some("FieldDensityInput")),
+    op("post", "/api/v1/calc/oversize", "Oversize-correct a density and water content", Some("OversizeInput")),
+    op("post", "/api/v1/calc/acceptance", "Judge a set of relative compaction values", Some("AcceptanceInput")),
+    op("get", "/api/v1/openapi.json", "This document", None),
+];
+
+/// Routes of this module.
+pub fn router() -> Router<AppState> {
+    Router::new().route("/api/v1/openapi.json", get(|| async { Json(document()) }))
+}
+
+/// The whole OpenAPI document.
+pub fn document() -> Value {
+    let mut paths = Map::new();
+    for o in OPERATIONS {
+        let entry = paths.entry(o.path).or_insert_with(|| json!({}));
+        let mut operation = json!({
+            "summary": o.summary,
+            "responses": {
+                "200": {"description": "Success (201 when something was created)", "content": {"application/json": {}}},
+                "4XX": {"description": "Bad input or refused", "content": {"application/json": {"schema": {"$ref": "#/components/schemas/Error"}}}}
+            }
+        });
+        if o.path.contains("{id}") {
+            operation["parameters"] = json!([{"name": "id", "in": "path", "required": true, "schema": {"type": "integer"}}]);
+        }
+        if let Some(body) = o.body {
+            operation["requestBody"] = json!({
+                "required": true,
+                "content": {"application/json": {"schema": {"$ref": format!("#/components/schemas/{body}")}}}
+            });
+        }
+        entry[o.method] = operation;
+    }
+    json!({
+        "openapi": "3.1.0",
+        "info": {
+            "title": "liftledger API",
+            "version": env!("CARGO_PKG_VERSION"),
+            "description": "Earthworks compaction QC: field density tests, lab curves, lot acceptance and end-of-lift certificates. SI units; field names carry their units."
+        },
+        "paths": paths,
+        "components": {"schemas": schemas()}
+    })
+}
+
+fn obj(required: &[&str], props: Value) -> Value {
+    json!({"type": "object", "required": required, "properties": props})
+}
+
+fn schemas() -> Value {
+    let num = json!({"type": "number"});
+    let s = json!({"type": "string"});
+    let int = json!({"type": "integer"});
+    json!({
+        "Error": obj(&["error"], json!({"error": obj(&["field", "message"], json!({"field": s, "message": s, "reasons": {"type": "array", "items": s}}))})),
+        "ProjectInput": obj(&["code", "name"], json!({"code": s, "name": s, "contract": s, "client": s, "contractor": s,
+            "unit_system": {"enum": ["si", "us"]}, "chainage_style": {"enum": ["km_metre", "feet_station"]}})),
+        "ClauseInput": obj(&["code", "rc_min_pct", "moisture_below_pct", "moisture_above_pct", "effort", "rule", "min_tests_per_lot"],
+            json!({"code": s, "title": s, "rc_min_pct": num, "moisture_below_pct": num, "moisture_above_pct": num, "effort": s,
+                "rule": {"enum": ["every_test", "mean_and_min", "quality_index"]}, "allowance_pct": num, "min_pwl_pct": num,
+                "area_per_test_m2": num, "length_per_test_m": num, "min_tests_per_lot": int, "oversize_limit_pct": num})),
+        "SourceInput": obj(&["code", "name", "gs_fines"], json!({"code": s, "name": s, "description": s, "uscs_class": s,
+            "aashto_class": s, "gs_fines": num, "gs_coarse": num})),
+        "LabTestInput": obj(&["code", "tested_on", "effort", "points"], json!({"code": s, "tested_on": {"type": "string", "format": "date"},
+            "effort": s, "custom_effort": {"type": "object"}, "specific_gravity": num,
+            "points": {"type": "array", "items": {"type": "object", "properties": {"water_content_pct": num, "dry_density_kg_m3": num,
+                "mass_mold_and_soil_g": num, "mass_mold_g": num, "mold_volume_cm3": num, "mass_wet_g": num, "mass_dry_g": num, "mass_tare_g": num}}},
+            "supersedes_lab_test_id": int, "supersede_reason": s})),
+        "LayerInput": obj(&["zone", "number"], json!({"zone": s, "number": int, "thickness_mm": num})),
+        "LotInput": obj(&["code", "layer_id", "chainage_from_m", "chainage_to_m", "offset_left_m", "offset_right_m", "clause_id", "lab_test_id"],
+            json!({"code": s, "layer_id": int, "chainage_from_m": num, "chainage_to_m": num, "offset_left_m": num, "offset_right_m": num,
+                "clause_id": int, "lab_test_id": int})),
+        "ReviewInput": obj(&[], json!({"comment": s})),
+        "VoidInput": obj(&["reason"], json!({"reason": s})),
+        "VerifyInput": obj(&[], json!({"code": s, "sha256": s, "pdf_base64": s})),
+        "Readings": {"type": "object", "required": ["method"], "properties": {"method": {"enum": ["nuclear", "sand_cone", "balloon", "drive_cylinder"]},
+            "wet_density_kg_m3": num, "moisture_density_kg_m3": num, "water_content_pct": num, "oven_water_content_pct": num,
+            "gauge_serial": s, "probe_depth_mm": num, "mass_sand_used_g": num, "mass_sand_in_cone_g": num, "sand_density_kg_m3": num,
+            "mass_wet_soil_g": num, "hole_volume_cm3": num, "cylinder_volume_cm3": num}},
+        "FieldTestInput": obj(&["technician", "readings"], json!({"number": s, "tested_at": {"type": "string", "format": "date-time"},
+            "technician": s, "instrument_serial": s, "chainage_m": num, "offset_m": num, "depth_mm": num, "coarse_pct": num,
+            "coarse_water_content_pct": num, "easting": num, "northing": num, "readings": {"$ref": "#/components/schemas/Readings"}})),
+        "LabCurveInput": obj(&["specific_gravity", "points"], json!({"specific_gravity": num,
+            "points": {"type": "array", "items": obj(&["water_content_pct", "dry_density_kg_m3"], json!({"water_content_pct": num, "dry_density_kg_m3": num}))}})),
+        "FieldDensityInput": {"allOf": [{"$ref": "#/components/schemas/Readings"}, obj(&[], json!({"max_dry_density_kg_m3": num, "optimum_water_content_pct": num}))]},
+        "OversizeInput": obj(&["fine_dry_density_kg_m3", "fine_water_content_pct", "coarse_pct", "coarse_specific_gravity", "coarse_water_content_pct"],
+            json!({"fine_dry_density_kg_m3": num, "fine_water_content_pct": num, "coarse_pct": num, "coarse_specific_gravity": num,
+                "coarse_water_content_pct": num, "limit_pct": num})),
+        "AcceptanceInput": obj(&["rule", "values", "lower_limit"], json!({"rule": {"enum": ["every_test", "mean_and_min", "quality_index"]},
+            "values": {"type": "array", "items": num}, "lower_limit": num, "allowance": num, "min_pwl": num})),
+    })
+}

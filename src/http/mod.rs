@@ -1,0 +1,46 @@
+//! The HTTP edge: routes, extractors and middleware.
+
+pub mod api;
+pub mod extract;
+
+use std::time::Duration;
+
+use axum::Router;
+use axum::http::{HeaderValue, StatusCode, header};
+use tower_http::limit::RequestBodyLimitLayer;
+use tower_http::set_header::SetResponseHeaderLayer;
+use tower_http::timeout::TimeoutLayer;
+use tower_http::trace::TraceLayer;
+
+use crate::app::AppState;
+use crate::error::AppError;
+
+/// Largest request body accepted (an uploaded certificate PDF or a form).
+pub const MAX_BODY_BYTES: usize = 8 * 1024 * 1024;
+
+/// The whole application router with its middleware.
+pub fn router(state: AppState) -> Router {
+    Router::new()
+        .merge(api::router())
+        .fallback(not_found)
+        .with_state(state)
+        .layer(RequestBodyLimitLayer::new(MAX_BODY_BYTES))
+        .layer(TimeoutLayer::with_status_code(StatusCode::REQUEST_TIMEOUT, Duration::from_secs(30)))
+        .layer(SetResponseHeaderLayer::if_not_present(
+            header::X_CONTENT_TYPE_OPTIONS,
+            HeaderValue::from_static("nosniff"),
+        ))
+        .layer(SetResponseHeaderLayer::if_not_present(
+            header::X_FRAME_OPTIONS,
+            HeaderValue::from_static("DENY"),
+        ))
+        .layer(SetResponseHeaderLayer::if_not_present(
+            header::REFERRER_POLICY,
+            HeaderValue::from_static("same-origin"),
+        ))
+        .layer(TraceLayer::new_for_http())
+}
+
+async fn not_found(uri: axum::http::Uri) -> AppError {
+    AppError::not_found("path", format!("no such page or resource: {}", uri.path()))
+}

@@ -1,0 +1,178 @@
+//! Fills the certificate view model from a judged lot.
+
+use super::lot_report::LotReport;
+use crate::clock;
+use crate::pdf::{
+    CertificateDoc, ClauseBlock, LotBlock, MaterialBlock, Paper, ReferenceBlock, SignoffBlock, SummaryBlock,
+    TestRow,
+};
+use crate::present::{self, Units};
+use crate::reduction::lab::EffortPreset;
+
+/// What the issuing step knows beyond the lot report.
+pub struct Issue<'a> {
+    pub number: &'a str,
+    pub revision: i64,
+    pub supersedes: Option<String>,
+    pub verification_code: &'a str,
+    pub issued_at: &'a str,
+    pub submitted_by: &'a str,
+    pub submitted_at: &'a str,
+    pub accepted_by: &'a str,
+    pub comment: &'a str,
+}
+
+/// Builds the certificate content for a lot.
+pub fn build(r: &LotReport, issue: Issue<'_>) -> CertificateDoc {
+    let u = Units::of(&r.project);
+    let effort_label = EffortPreset::parse_code(&r.lab_test.effort)
+        .map(|p| p.label().to_string())
+        .unwrap_or_else(|| r.lab_test.effort.clone());
+    let corrected = r.tests.iter().filter(|t| t.test.coarse_pct.is_some_and(|c| c > 0.0)).count();
+    let tests = r
+        .tests
+        .iter()
+        .map(|t| {
+            let result = match t.standing.as_str() {
+                "voided" => "void",
+                "superseded" => "superseded",
+                _ if t.passed => "pass",
+                _ => "fail",
+            };
+            let mut notes = Vec::new();
+            if let Some(n) = &t.retest_of_number {
+                notes.push(format!("retest of {n}"));
+            }
+            if let Some(reason) = &t.test.void_reason {
+                notes.push(format!("void: {reason}"));
+            }
+            if let Some(by) = &t.superseded_by {
+                notes.push(format!("superseded by {by}"));
+            }
+            if t.test.coarse_pct.is_some_and(|c| c > 0.0) {
+                notes.push(format!("oversize {:.0} %", t.test.coarse_pct.unwrap_or(0.0)));
+            }
+            TestRow {
+                number: t.test.number.clone(),
+                date: clock::date_of(&t.test.tested_at),
+                chainage: u.chainage(t.test.chainage_m),
+                offset: u.offset(t.test.offset_m),
+                method: t.test.method.replace('_', " "),
+                wet_density: u.density(t.test.wet_density_kg_m3),
+                water_content: format!("{:.1}", t.test.water_content_pct),
+                dry_density: u.density(t.test.dry_density_kg_m3),
+                relative_compaction: present::pct(t.relative_compaction_pct),
+                moisture_deviation: present::signed(t.moisture_deviation_pct),
+                result: result.to_string(),
+                note: notes.join("; "),
+                rc_value: if t.standing == "voided" { None } else { t.relative_compaction_pct },
+                counted: t.standing == "counted",
+            }
+        })
+        .collect();
+    let c = &r.clause;
+    let frequency = {
+        let mut parts = vec![format!("at least {} per lot", c.min_tests_per_lot)];
+        if let Some(a) = c.area_per_test_m2 {
+            parts.push(format!("one per {}", u.area(a)));
+        }
+        if let Some(l) = c.length_per_test_m {
+            parts.push(format!("one per {}", u.length(l)));
+        }
+        parts.join(", ")
+    };
+    let v = &r.verdict;
+    CertificateDoc {
+        paper: if u.system == crate::reduction::UnitSystem::Us {
+            Paper::Letter
+        } else {
+            Paper::A4
+        },
+        project_name: r.project.name.clone(),
+        contract: r.project.contract.clone(),
+        client: r.project.client.clone(),
+        contractor: r.project.contractor.clone(),
+        certificate_number: issue.number.to_string(),
+        revision: u32::try_from(issue.revision).unwrap_or(1),
+        supersedes: issue.supersedes,
+        verification_code: issue.verification_code.to_string(),
+        issued_at: clock::display(issue.issued_at),
+        lot: LotBlock {
+            lot_code: r.lot.code.clone(),
+            zone: r.lot.zone_name.clone(),
+            layer: format!("layer {}", r.lot.layer_number),
+            chainage_from: u.chainage(r.lot.chainage_from_m),
+            chainage_to: u.chainage(r.lot.chainage_to_m),
+            offset_band: format!("{} to {}", u.offset(r.lot.offset_left_m), u.offset(r.lot.offset_right_m)),
+            area: u.area(r.area_m2),
+            length: u.length(r.length_m),
+        },
+        material: MaterialBlock {
+            source_name: format!("{} ({})", r.source.name, r.source.code),
+            description: r.source.description.clone(),
+            classification: [r.source.uscs_class.as_str(), r.source.aashto_class.as_str()]
+                .iter()
+                .filter(|s| !s.is_empty())
+                .cloned()
+                .collect::<Vec<_>>()
+                .join(" / "),
+        },
+        reference: ReferenceBlock {
+            lab_test_code: r.lab_test.code.clone(),
+            effort: effort_label,
+            energy: format!("{:.0} kJ/m³", r.lab_test.effort_energy_kj_m3),
+            mdd: u.density_with_unit(r.lab_test.max_dry_density_kg_m3),
+            omc: format!("{:.1} %", r.lab_test.optimum_water_content_pct),
+            specific_gravity: format!("{:.2}", r.lab_test.specific_gravity),
+            fit_method: r.lab_test.fit_method.replace('_', " "),
+            oversize_note: if corrected == 0 {
+                "no oversize correction applied".to_string()
+            } else {
+                format!(
+                    "{corrected} test(s) judged against an oversize-corrected reference (coarse Gs {})",
+                    r.source.gs_coarse.map_or("–".to_string(), |g| format!("{g:.2}"))
+                )
+            },
+        },
+        clause: ClauseBlock {
+            clause_code: format!("{} {}", c.code, c.title).trim().to_string(),
+            rc_min: format!("{:.1} %", c.rc_min_pct),
+            moisture_window: format!("{:.1} to +{:.1} points of OMC", -c.moisture_below_pct, c.moisture_above_pct),
+            rule: v.rule_label.clone(),
+            frequency,
+        },
+        density_unit: u.density_unit().to_string(),
+        offset_unit: String::new(),
+        tests,
+        summary: SummaryBlock {
+            n: v.n.to_string(),
+            mean: present::pct(v.mean),
+            std_dev: v.std_dev.map_or("–".into(), |s| format!("{s:.2}")),
+            min: present::pct(v.min),
+            max: present::pct(v.max),
+            quality_index: v.quality_index.map_or("–".into(), |q| format!("{q:.2}")),
+            pwl: present::pct(v.pwl),
+            verdict: if v.accepted { "MEETS CLAUSE" } else { "DOES NOT MEET CLAUSE" }.to_string(),
+            reasons: v.reasons.clone(),
+            frequency: format!(
+                "{} required, {} counted: {}",
+                r.tests_required,
+                v.n,
+                if r.tests_owed == 0 { "met".to_string() } else { format!("{} owed", r.tests_owed) }
+            ),
+            rc_limit: c.rc_min_pct,
+        },
+        signoff: SignoffBlock {
+            submitted_by: issue.submitted_by.to_string(),
+            submitted_at: if issue.submitted_at.is_empty() {
+                String::new()
+            } else {
+                clock::display(issue.submitted_at)
+            },
+            accepted_by: issue.accepted_by.to_string(),
+            accepted_at: clock::display(issue.issued_at),
+            acceptance_comment: issue.comment.to_string(),
+        },
+        cautions: present::CAUTIONS.iter().map(|s| s.to_string()).collect(),
+    }
+}

@@ -1,0 +1,382 @@
+//! Recording field density tests, voiding them and recording retests.
+
+use serde::Deserialize;
+use serde_json::json;
+
+use super::Actor;
+use super::lot_report;
+use super::validate::{code, number, optional_text, quantity, text, timestamp};
+use crate::clock;
+use crate::db::{self, Pool, audit};
+use crate::error::{AppError, Result};
+use crate::reduction::{self, field::FieldReadings};
+
+/// Body of a new field test (also of a retest, whose location defaults to the failed test's).
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct FieldTestInput {
+    /// Test number, unique in the project; generated when absent.
+    pub number: Option<String>,
+    /// When the test was taken (RFC 3339); now when absent.
+    pub tested_at: Option<String>,
+    pub technician: String,
+    #[serde(default)]
+    pub instrument_serial: String,
+    pub chainage_m: Option<f64>,
+    pub offset_m: Option<f64>,
+    pub depth_mm: Option<f64>,
+    pub coarse_pct: Option<f64>,
+    pub coarse_water_content_pct: Option<f64>,
+    pub easting: Option<f64>,
+    pub northing: Option<f64>,
+    pub readings: FieldReadings,
+}
+
+/// A test checked and reduced, ready to store.
+pub struct CheckedTest {
+    pub record: db::field_tests::FieldTest,
+}
+
+/// Validates and reduces a field test for a lot without writing anything (used for previews too).
+pub async fn check(
+    pool: &Pool,
+    lot: &db::lots::Lot,
+    input: &FieldTestInput,
+    retest_of: Option<&db::field_tests::FieldTest>,
+    actor: &Actor,
+) -> Result<CheckedTest> {
+    let reduced = reduction::field::reduce_field(&input.readings)
+        .map_err(|e| AppError::invalid(format!("readings.{}", e.field()), e.to_string()))?;
+    let chainage_m = input
+        .chainage_m
+        .or(retest_of.map(|t| t.chainage_m))
+        .ok_or_else(|| AppError::invalid("chainage_m", "is required"))?;
+    let chainage = quantity("chainage_m", reduction::Chainage::new(chainage_m))?;
+    // A small tolerance at lot ends: a test on the boundary chainage belongs to either lot.
+    if chainage.metres() < lot.chainage_from_m - 0.5 || chainage.metres() > lot.chainage_to_m + 0.5 {
+        return Err(AppError::invalid(
+            "chainage_m",
+            format!(
+                "{:.3} m is outside lot {} ({:.3}–{:.3} m)",
+                chainage.metres(),
+                lot.code,
+                lot.chainage_from_m,
+                lot.chainage_to_m
+            ),
+        ));
+    }
+    let offset_m = input.offset_m.or(retest_of.map(|t| t.offset_m)).unwrap_or(0.0);
+    let offset = quantity("offset_m", reduction::Offset::new(offset_m))?;
+    if offset.metres() < lot.offset_left_m - 0.01 || offset.metres() > lot.offset_right_m + 0.01 {
+        return Err(AppError::invalid(
+            "offset_m",
+            format!(
+                "{:.2} m is outside the lot's offset band {:.2} to {:.2} m",
+                offset.metres(),
+                lot.offset_left_m,
+                lot.offset_right_m
+            ),
+        ));
+    }
+    let depth = input.depth_mm.map(|d| number("depth_mm", d, 0.0, 1000.0, "mm")).transpose()?;
+    let coarse = input.coarse_pct.map(|c| number("coarse_pct", c, 0.0, 100.0, "%")).transpose()?;
+    let coarse_w = input
+        .coarse_water_content_pct
+        .map(|c| number("coarse_water_content_pct", c, 0.0, 20.0, "%"))
+        .transpose()?;
+    if coarse.is_some_and(|c| c > 0.0) {
+        let clause = db::clauses::get(pool, lot.clause_id)
+            .await?
+            .ok_or_else(|| anyhow::anyhow!("lot {} has no clause", lot.id))?;
+        let source = db::sources::get(pool, lot.source_id)
+            .await?
+            .ok_or_else(|| anyhow::anyhow!("lot {} has no source", lot.id))?;
+        let Some(gs_coarse) = source.gs_coarse else {
+            return Err(AppError::invalid(
+                "coarse_pct",
+                format!("source {} has no coarse-fraction specific gravity to correct with", source.code),
+            ));
+        };
+        let lab = db::lab_tests::get(pool, lot.lab_test_id)
+            .await?
+            .ok_or_else(|| anyhow::anyhow!("lot {} has no lab test", lot.id))?;
+        let reference = lot_report::reference_of(&lab)?;
+        reduction::verdict::reference_for_coarse_fraction(
+            &reference,
+            coarse.unwrap_or(0.0),
+            gs_coarse,
+            coarse_w.unwrap_or(0.0),
+            clause.oversize_limit_pct,
+        )
+        .map_err(|e| AppError::invalid("coarse_pct", e.to_string()))?;
+    }
+    let easting = input.easting.map(|v| number("easting", v, -1.0e8, 1.0e8, "m")).transpose()?;
+    let northing = input.northing.map(|v| number("northing", v, -1.0e8, 1.0e8, "m")).transpose()?;
+    if easting.is_some() != northing.is_some() {
+        return Err(AppError::invalid("northing", "give both easting and northing, or neither"));
+    }
+    let number = match &input.number {
+        Some(n) => code("number", n)?,
+        None => String::new(),
+    };
+    let now = clock::now();
+    let tested_at = match &input.tested_at {
+        Some(t) => timestamp("tested_at", t)?,
+        None => now.clone(),
+    };
+    let instrument = match &input.readings {
+        FieldReadings::Nuclear {
+            gauge_serial: Some(s), ..
+        } if input.instrument_serial.trim().is_empty() => s.clone(),
+        _ => input.instrument_serial.clone(),
+    };
+    let record = db::field_tests::FieldTest {
+        id: 0,
+        project_id: lot.project_id,
+        lot_id: lot.id,
+        number,
+        tested_at,
+        technician: text("technician", &input.technician, 80)?,
+        method: input.readings.method_code().to_string(),
+        instrument_serial: optional_text("instrument_serial", &instrument, 40)?,
+        chainage_m: chainage.metres(),
+        offset_m: offset.metres(),
+        depth_mm: depth,
+        coarse_pct: coarse,
+        coarse_water_content_pct: coarse_w,
+        easting,
+        northing,
+        readings_json: serde_json::to_string(&input.readings).map_err(anyhow::Error::from)?,
+        wet_density_kg_m3: reduced.wet_density.kg_m3(),
+        water_content_pct: reduced.water_content.pct(),
+        dry_density_kg_m3: reduced.dry_density.kg_m3(),
+        moisture_source: reduced.moisture_source.to_string(),
+        reduction_version: reduction::REDUCTION_VERSION.to_string(),
+        retest_of: retest_of.map(|t| t.id),
+        void_reason: None,
+        voided_by: None,
+        voided_at: None,
+        created_at: now,
+        created_by: actor.name.clone(),
+    };
+    Ok(CheckedTest { record })
+}
+
+/// Fails unless the lot accepts new tests (open or rejected for rework).
+fn require_lot_takes_tests(lot: &db::lots::Lot) -> Result<()> {
+    if lot.state == "open" || lot.state == "rejected" {
+        return Ok(());
+    }
+    Err(AppError::conflict(
+        "lot_id",
+        format!("lot {} is {}; tests can be added only while it is open or rejected", lot.code, lot.state),
+        vec![],
+    ))
+}
+
+/// Loads a lot or fails with 404 naming `lot_id`.
+pub async fn require_lot(pool: &Pool, lot_id: i64) -> Result<db::lots::Lot> {
+    db::lots::get(pool, lot_id)
+        .await?
+        .ok_or_else(|| AppError::not_found("lot_id", format!("lot {lot_id} does not exist")))
+}
+
+/// Loads a field test or fails with 404 naming `test_id`.
+pub async fn require_test(pool: &Pool, test_id: i64) -> Result<db::field_tests::FieldTest> {
+    db::field_tests::get(pool, test_id)
+        .await?
+        .ok_or_else(|| AppError::not_found("test_id", format!("field test {test_id} does not exist")))
+}
+
+async fn store(pool: &Pool, checked: CheckedTest, actor: &Actor, action: &str) -> Result<db::field_tests::FieldTest> {
+    let mut record = checked.record;
+    let mut tx = db::begin_write(pool).await?;
+    if record.number.is_empty() {
+        let count: i64 = sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE project_id = ?")
+            .bind(record.project_id)
+            .fetch_one(&mut *tx)
+            .await?;
+        record.number = format!("FT-{:05}", count + 1);
+    }
+    let id = match db::field_tests::insert(&mut tx, &record).await {
+        Ok(id) => id,
+        Err(e) if db::is_unique_violation(&e) => {
+            return Err(AppError::conflict(
+                "number",
+                format!("test number {} is already used in this project", record.number),
+                vec![],
+            ));
+        }
+        Err(e) => return Err(e.into()),
+    };
+    record.id = id;
+    audit::record(
+        &mut tx,
+        &audit::Change {
+            actor: &actor.name,
+            action,
+            entity: "field_test",
+            entity_id: Some(id),
+            project_id: Some(record.project_id),
+            before: None,
+            after: Some(json!(record)),
+            origin: &actor.origin,
+        },
+        &record.created_at,
+    )
+    .await?;
+    tx.commit().await?;
+    Ok(record)
+}
+
+/// Records a new field test on a lot.
+pub async fn record_test(
+    pool: &Pool,
+    lot_id: i64,
+    input: &FieldTestInput,
+    actor: &Actor,
+) -> Result<db::field_tests::FieldTest> {
+    let lot = require_lot(pool, lot_id).await?;
+    require_lot_takes_tests(&lot)?;
+    let checked = check(pool, &lot, input, None, actor).await?;
+    store(pool, checked, actor, "create").await
+}
+
+/// Records a retest of a failed test at the same spot; the failure stays on record.
+pub async fn record_retest(
+    pool: &Pool,
+    failed_id: i64,
+    input: &FieldTestInput,
+    actor: &Actor,
+) -> Result<db::field_tests::FieldTest> {
+    let failed = require_test(pool, failed_id).await?;
+    let lot = require_lot(pool, failed.lot_id).await?;
+    require_lot_takes_tests(&lot)?;
+    if failed.void_reason.is_some() {
+        return Err(AppError::conflict(
+            "test_id",
+            format!("test {} is void; record a new test instead of a retest", failed.number),
+            vec![],
+        ));
+    }
+    let report = lot_report::build(pool, lot.id).await?;
+    let line = report
+        .tests
+        .iter()
+        .find(|l| l.test.id == failed.id)
+        .ok_or_else(|| anyhow::anyhow!("test {} missing from its lot report", failed.id))?;
+    if line.passed {
+        return Err(AppError::conflict(
+            "test_id",
+            format!("test {} passed; a retest is recorded only after a failure", failed.number),
+            vec![],
+        ));
+    }
+    if let Some(existing) = report
+        .tests
+        .iter()
+        .find(|l| l.test.retest_of == Some(failed.id) && l.test.void_reason.is_none())
+    {
+        return Err(AppError::conflict(
+            "test_id",
+            format!(
+                "test {} already has retest {}; retest that one if it failed",
+                failed.number, existing.test.number
+            ),
+            vec![],
+        ));
+    }
+    let checked = check(pool, &lot, input, Some(&failed), actor).await?;
+    store(pool, checked, actor, "retest").await
+}
+
+/// Voids a test with a reason: it leaves every statistic but stays on record.
+pub async fn void_test(
+    pool: &Pool,
+    test_id: i64,
+    reason: &str,
+    actor: &Actor,
+) -> Result<db::field_tests::FieldTest> {
+    let reason = text("reason", reason, 500)?;
+    let test = require_test(pool, test_id).await?;
+    let lot = require_lot(pool, test.lot_id).await?;
+    if lot.state == "submitted" || lot.state == "accepted" {
+        // An accepted lot may still need a correction; that puts its certificate out of date.
+        if lot.state == "submitted" {
+            return Err(AppError::conflict(
+                "test_id",
+                format!("lot {} is under review; ask the reviewer to reject it before voiding tests", lot.code),
+                vec![],
+            ));
+        }
+    }
+    let now = clock::now();
+    let mut tx = db::begin_write(pool).await?;
+    if !db::field_tests::void(&mut tx, test_id, &reason, &actor.name, &now).await? {
+        return Err(AppError::conflict(
+            "test_id",
+            format!("test {} is already void", test.number),
+            vec![],
+        ));
+    }
+    audit::record(
+        &mut tx,
+        &audit::Change {
+            actor: &actor.name,
+            action: "void",
+            entity: "field_test",
+            entity_id: Some(test_id),
+            project_id: Some(test.project_id),
+            before: Some(json!({"void_reason": null})),
+            after: Some(json!({"void_reason": reason, "voided_by": actor.name, "voided_at": now})),
+            origin: &actor.origin,
+        },
+        &now,
+    )
+    .await?;
+    tx.commit().await?;
+    require_test(pool, test_id).await
+}
+
+/// Reduces and judges a field test against its lot without saving it (the site-entry preview).
+pub async fn preview(pool: &Pool, lot_id: i64, input: &FieldTestInput, actor: &Actor) -> Result<serde_json::Value> {
+    let lot = require_lot(pool, lot_id).await?;
+    let checked = check(pool, &lot, input, None, actor).await?;
+    let r = &checked.record;
+    let clause = db::clauses::get(pool, lot.clause_id)
+        .await?
+        .ok_or_else(|| anyhow::anyhow!("lot {} has no clause", lot.id))?;
+    let lab = db::lab_tests::get(pool, lot.lab_test_id)
+        .await?
+        .ok_or_else(|| anyhow::anyhow!("lot {} has no lab test", lot.id))?;
+    let source = db::sources::get(pool, lot.source_id)
+        .await?
+        .ok_or_else(|| anyhow::anyhow!("lot {} has no source", lot.id))?;
+    let mut reference = lot_report::reference_of(&lab)?;
+    if let (Some(c), Some(gs)) = (r.coarse_pct.filter(|c| *c > 0.0), source.gs_coarse) {
+        reference = reduction::verdict::reference_for_coarse_fraction(
+            &reference,
+            c,
+            gs,
+            r.coarse_water_content_pct.unwrap_or(0.0),
+            clause.oversize_limit_pct,
+        )
+        .map_err(|e| AppError::invalid("coarse_pct", e.to_string()))?;
+    }
+    let dry = quantity("readings", reduction::Density::new(r.dry_density_kg_m3))?;
+    let w = quantity("readings", reduction::WaterContent::new(r.water_content_pct))?;
+    let v = reduction::verdict::judge_test(dry, w, &reference, &lot_report::limits_of(&clause));
+    Ok(json!({
+        "wet_density_kg_m3": r.wet_density_kg_m3,
+        "water_content_pct": r.water_content_pct,
+        "dry_density_kg_m3": r.dry_density_kg_m3,
+        "moisture_source": r.moisture_source,
+        "reference_mdd_kg_m3": reference.max_dry_density.kg_m3(),
+        "reference_omc_pct": reference.optimum_water_content.pct(),
+        "relative_compaction_pct": v.relative_compaction_pct,
+        "moisture_deviation_pct": v.moisture_deviation_pct,
+        "passed": v.passed,
+        "reasons": v.reasons,
+        "saved": false,
+    }))
+}

@@ -1,0 +1,339 @@
+//! Everything known about one lot, judged now: every test reduced against the
+//! lot's reference curve and clause, the lot verdict, tests owed, and whether
+//! its certificate still matches the record.
+
+use serde::Serialize;
+use sha2::{Digest, Sha256};
+
+use super::setup::clause_rule;
+use crate::db::{self, Pool};
+use crate::error::{AppError, Result};
+use crate::reduction::acceptance::{LotTestInput, TestStanding, evaluate_lot};
+use crate::reduction::frequency::{FrequencyRule, tests_owed, tests_required};
+use crate::reduction::verdict::{Reference, SpecLimits, judge_test, reference_for_coarse_fraction};
+use crate::reduction::{Density, WaterContent};
+
+/// One test as judged inside its lot.
+#[derive(Debug, Clone, Serialize)]
+pub struct TestLine {
+    pub test: db::field_tests::FieldTest,
+    /// MDD the test was judged against (oversize-corrected when it carries a coarse fraction).
+    pub reference_mdd_kg_m3: Option<f64>,
+    /// OMC the test was judged against.
+    pub reference_omc_pct: Option<f64>,
+    pub relative_compaction_pct: Option<f64>,
+    pub moisture_deviation_pct: Option<f64>,
+    pub passed: bool,
+    /// "counted", "voided" or "superseded".
+    pub standing: String,
+    pub superseded_by: Option<String>,
+    pub retest_of_number: Option<String>,
+    pub reasons: Vec<String>,
+}
+
+/// The statistics and verdict of a lot under its clause's rule.
+#[derive(Debug, Clone, Serialize)]
+pub struct Verdict {
+    pub rule: String,
+    pub rule_label: String,
+    pub n: usize,
+    pub mean: Option<f64>,
+    pub std_dev: Option<f64>,
+    pub min: Option<f64>,
+    pub max: Option<f64>,
+    pub quality_index: Option<f64>,
+    pub pwl: Option<f64>,
+    pub accepted: bool,
+    pub reasons: Vec<String>,
+}
+
+/// A lot and everything judged about it.
+#[derive(Debug, Clone, Serialize)]
+pub struct LotReport {
+    pub lot: db::lots::Lot,
+    pub project: db::projects::Project,
+    pub clause: db::clauses::Clause,
+    pub source: db::sources::Source,
+    pub lab_test: db::lab_tests::LabTest,
+    pub tests: Vec<TestLine>,
+    pub verdict: Verdict,
+    pub length_m: f64,
+    pub width_m: f64,
+    pub area_m2: f64,
+    pub tests_required: u32,
+    pub tests_owed: u32,
+    /// Numbers of failed tests that still need a passing retest.
+    pub failing_without_retest: Vec<String>,
+    /// The state a reader sees: open, owed_tests, failing, submitted, accepted, rejected or certified.
+    pub display_state: String,
+    /// What must happen before the lot can be submitted (empty when it can).
+    pub submit_blockers: Vec<String>,
+    pub certificate: Option<db::certificates::Certificate>,
+    /// False when the record changed after the current certificate was issued.
+    pub certificate_current: bool,
+    /// A hash of everything the verdict depends on; a certificate records it when issued.
+    pub fingerprint: String,
+}
+
+/// The reference (MDD, OMC) of a stored lab test.
+pub fn reference_of(lab: &db::lab_tests::LabTest) -> Result<Reference> {
+    let mdd = Density::new(lab.max_dry_density_kg_m3)
+        .map_err(|e| anyhow::anyhow!("stored MDD of lab test {} is invalid: {e}", lab.id))?;
+    let omc = WaterContent::new(lab.optimum_water_content_pct)
+        .map_err(|e| anyhow::anyhow!("stored OMC of lab test {} is invalid: {e}", lab.id))?;
+    Ok(Reference {
+        max_dry_density: mdd,
+        optimum_water_content: omc,
+    })
+}
+
+/// The limits of a stored clause.
+pub fn limits_of(c: &db::clauses::Clause) -> SpecLimits {
+    SpecLimits {
+        rc_min_pct: c.rc_min_pct,
+        moisture_below_pct: c.moisture_below_pct,
+        moisture_above_pct: c.moisture_above_pct,
+    }
+}
+
+/// Judges one test against the lot's reference and limits.
+fn judge_line(
+    t: &db::field_tests::FieldTest,
+    reference: &Reference,
+    limits: &SpecLimits,
+    source: &db::sources::Source,
+    clause: &db::clauses::Clause,
+) -> (Option<Reference>, Option<crate::reduction::verdict::TestVerdict>, Vec<String>) {
+    let reference = match t.coarse_pct {
+        Some(c) if c > 0.0 => match source.gs_coarse {
+            Some(gs) => match reference_for_coarse_fraction(
+                reference,
+                c,
+                gs,
+                t.coarse_water_content_pct.unwrap_or(0.0),
+                clause.oversize_limit_pct,
+            ) {
+                Ok(r) => r,
+                Err(e) => return (None, None, vec![format!("cannot correct for oversize: {e}")]),
+            },
+            None => {
+                return (
+                    None,
+                    None,
+                    vec!["the source has no coarse-fraction Gs; oversize correction impossible".into()],
+                );
+            }
+        },
+        _ => Reference {
+            max_dry_density: reference.max_dry_density,
+            optimum_water_content: reference.optimum_water_content,
+        },
+    };
+    let (Ok(dry), Ok(w)) = (
+        Density::new(t.dry_density_kg_m3),
+        WaterContent::new(t.water_content_pct),
+    ) else {
+        return (Some(reference), None, vec!["stored reduced values are out of range".into()]);
+    };
+    let v = judge_test(dry, w, &reference, limits);
+    let reasons = v.reasons.clone();
+    (Some(reference), Some(v), reasons)
+}
+
+/// Builds the report of a lot from the store.
+#[tracing::instrument(skip(pool))]
+pub async fn build(pool: &Pool, lot_id: i64) -> Result<LotReport> {
+    let lot = db::lots::get(pool, lot_id)
+        .await?
+        .ok_or_else(|| AppError::not_found("lot_id", format!("lot {lot_id} does not exist")))?;
+    let missing = |what: &str| anyhow::anyhow!("lot {lot_id} refers to a missing {what}");
+    let project = db::projects::get(pool, lot.project_id).await?.ok_or_else(|| missing("project"))?;
+    let clause = db::clauses::get(pool, lot.clause_id).await?.ok_or_else(|| missing("clause"))?;
+    let source = db::sources::get(pool, lot.source_id).await?.ok_or_else(|| missing("source"))?;
+    let lab_test = db::lab_tests::get(pool, lot.lab_test_id).await?.ok_or_else(|| missing("lab test"))?;
+    let tests = db::field_tests::for_lot(pool, lot_id).await?;
+    let certificate = db::certificates::for_lot(pool, lot_id)
+        .await?
+        .into_iter()
+        .find(|c| c.superseded_at.is_none());
+    assemble(lot, project, clause, source, lab_test, tests, certificate)
+}
+
+/// Judges a lot from already-loaded rows (also used for bulk views).
+pub fn assemble(
+    lot: db::lots::Lot,
+    project: db::projects::Project,
+    clause: db::clauses::Clause,
+    source: db::sources::Source,
+    lab_test: db::lab_tests::LabTest,
+    tests: Vec<db::field_tests::FieldTest>,
+    certificate: Option<db::certificates::Certificate>,
+) -> Result<LotReport> {
+    let reference = reference_of(&lab_test)?;
+    let limits = limits_of(&clause);
+    let rule = clause_rule(&clause);
+
+    let judged: Vec<_> = tests
+        .iter()
+        .map(|t| judge_line(t, &reference, &limits, &source, &clause))
+        .collect();
+    let inputs: Vec<LotTestInput> = tests
+        .iter()
+        .zip(&judged)
+        .map(|(t, (_, v, _))| LotTestInput {
+            id: t.id,
+            relative_compaction_pct: v.as_ref().map_or(0.0, |v| v.relative_compaction_pct),
+            moisture_deviation_pct: v.as_ref().map_or(0.0, |v| v.moisture_deviation_pct),
+            passed: v.as_ref().is_some_and(|v| v.passed),
+            voided: t.void_reason.is_some(),
+            retest_of: t.retest_of,
+        })
+        .collect();
+    let lv = evaluate_lot(&inputs, &rule, &limits);
+
+    let number_of = |id: i64| tests.iter().find(|t| t.id == id).map(|t| t.number.clone());
+    let lines: Vec<TestLine> = tests
+        .iter()
+        .zip(judged)
+        .map(|(t, (r, v, reasons))| {
+            let standing = lv.standings.iter().find(|(id, _)| *id == t.id).map(|(_, s)| s);
+            let (standing, superseded_by) = match standing {
+                Some(TestStanding::Voided) => ("voided", None),
+                Some(TestStanding::Superseded { by }) => ("superseded", number_of(*by)),
+                _ if t.void_reason.is_some() => ("voided", None),
+                _ => ("counted", None),
+            };
+            TestLine {
+                test: t.clone(),
+                reference_mdd_kg_m3: r.as_ref().map(|r| r.max_dry_density.kg_m3()),
+                reference_omc_pct: r.as_ref().map(|r| r.optimum_water_content.pct()),
+                relative_compaction_pct: v.as_ref().map(|v| v.relative_compaction_pct),
+                moisture_deviation_pct: v.as_ref().map(|v| v.moisture_deviation_pct),
+                passed: v.as_ref().is_some_and(|v| v.passed),
+                standing: standing.to_string(),
+                superseded_by,
+                retest_of_number: t.retest_of.and_then(number_of),
+                reasons,
+            }
+        })
+        .collect();
+
+    let length_m = lot.chainage_to_m - lot.chainage_from_m;
+    let width_m = lot.offset_right_m - lot.offset_left_m;
+    let frequency = FrequencyRule {
+        min_per_lot: u32::try_from(clause.min_tests_per_lot).unwrap_or(1),
+        area_per_test_m2: clause.area_per_test_m2,
+        length_per_test_m: clause.length_per_test_m,
+    };
+    let required = tests_required(&frequency, length_m, width_m);
+    let owed = tests_owed(required, lv.n);
+    let failing_without_retest: Vec<String> =
+        lv.failing_without_retest.iter().filter_map(|id| number_of(*id)).collect();
+
+    let mut submit_blockers = Vec::new();
+    if owed > 0 {
+        submit_blockers.push(format!(
+            "{owed} more test{} owed: {required} required, {} counted",
+            if owed == 1 { " is" } else { "s are" },
+            lv.n
+        ));
+    }
+    // Under every_test a failure needs its passing retest; the other rules tolerate
+    // some low tests and let the lot verdict decide.
+    let every_test = clause.rule == "every_test";
+    if !failing_without_retest.is_empty() && every_test {
+        submit_blockers.push(format!(
+            "failed test{} without a passing retest: {}",
+            if failing_without_retest.len() == 1 { "" } else { "s" },
+            failing_without_retest.join(", ")
+        ));
+    }
+    if !lv.accepted && lv.n > 0 && owed == 0 {
+        submit_blockers.push(format!("the lot does not meet clause {}", clause.code));
+        submit_blockers.extend(lv.reasons.iter().cloned());
+    } else if lv.n == 0 && owed == 0 {
+        submit_blockers.push("the lot has no counted tests".to_string());
+    }
+
+    let fingerprint = fingerprint(&lot, &clause, &lab_test, &tests);
+    let certificate_current = certificate
+        .as_ref()
+        .is_some_and(|c| c.record_fingerprint == fingerprint);
+    let display_state = match lot.state.as_str() {
+        "accepted" if certificate.is_some() && certificate_current => "certified",
+        "accepted" => "accepted",
+        "open" | "rejected" if !failing_without_retest.is_empty() && (every_test || !lv.accepted) => "failing",
+        "open" if owed > 0 => "owed_tests",
+        s => s,
+    }
+    .to_string();
+
+    let verdict = Verdict {
+        rule: rule.code().to_string(),
+        rule_label: rule.label(),
+        n: lv.n,
+        mean: lv.mean,
+        std_dev: lv.std_dev,
+        min: lv.min,
+        max: lv.max,
+        quality_index: lv.quality_index,
+        pwl: lv.pwl,
+        accepted: lv.accepted,
+        reasons: lv.reasons,
+    };
+    Ok(LotReport {
+        lot,
+        project,
+        clause,
+        source,
+        lab_test,
+        tests: lines,
+        verdict,
+        length_m,
+        width_m,
+        area_m2: length_m * width_m,
+        tests_required: required,
+        tests_owed: owed,
+        failing_without_retest,
+        display_state,
+        submit_blockers,
+        certificate,
+        certificate_current,
+        fingerprint,
+    })
+}
+
+/// A SHA-256 over every input of the verdict, so a later change to the record is noticed.
+fn fingerprint(
+    lot: &db::lots::Lot,
+    clause: &db::clauses::Clause,
+    lab: &db::lab_tests::LabTest,
+    tests: &[db::field_tests::FieldTest],
+) -> String {
+    let mut h = Sha256::new();
+    h.update(format!(
+        "lot {} {} {} {} {}|clause {} {} {} {} {} {:?} {:?}|lab {} {} {}|",
+        lot.id,
+        lot.chainage_from_m,
+        lot.chainage_to_m,
+        lot.offset_left_m,
+        lot.offset_right_m,
+        clause.id,
+        clause.rc_min_pct,
+        clause.moisture_below_pct,
+        clause.moisture_above_pct,
+        clause.rule,
+        clause.allowance_pct,
+        clause.min_pwl_pct,
+        lab.id,
+        lab.max_dry_density_kg_m3,
+        lab.optimum_water_content_pct
+    ));
+    for t in tests {
+        h.update(format!(
+            "t {} {} {} {} {:?} {:?} {:?}|",
+            t.id, t.number, t.dry_density_kg_m3, t.water_content_pct, t.coarse_pct, t.retest_of, t.void_reason
+        ));
+    }
+    hex::encode(h.finalize())
+}

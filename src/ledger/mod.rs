@@ -1,0 +1,33 @@
+//! The ledger: what liftledger does with a request once it is read.
+//!
+//! Each function validates its input into reduction types (naming the field on
+//! failure), reduces through `crate::reduction`, writes through `crate::db` in
+//! one transaction together with its audit row, and returns what was stored.
+//! HTTP handlers, pages, the demo loader and imports all call these functions.
+
+pub mod certificate_doc;
+pub mod field;
+pub mod lot_report;
+pub mod review;
+pub mod setup;
+pub mod validate;
+pub mod verify;
+
+/// Who is making a change and from where; written to every audit row.
+#[derive(Debug, Clone)]
+pub struct Actor {
+    /// The user name (or device token name) recorded as "who".
+    pub name: String,
+    /// Where the request came from (address, token or "cli").
+    pub origin: String,
+}
+
+impl Actor {
+    /// An actor for changes made by the command line or the demo loader.
+    pub fn system(name: &str) -> Self {
+        Self {
+            name: name.to_string(),
+            origin: "cli".to_string(),
+        }
+    }
+}

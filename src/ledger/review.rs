@@ -1,0 +1,219 @@
+//! The life of a lot under review: submit, reject, accept, and the certificate that acceptance issues.
+
+use serde_json::json;
+use sha2::{Digest, Sha256};
+
+use super::Actor;
+use super::certificate_doc;
+use super::lot_report::{self, LotReport};
+use super::validate::optional_text;
+use crate::clock;
+use crate::db::{self, Pool, audit};
+use crate::error::{AppError, Result};
+
+async fn log_transition(
+    tx: &mut db::Tx<'_>,
+    report: &LotReport,
+    from: &str,
+    to: &str,
+    comment: &str,
+    actor: &Actor,
+    now: &str,
+) -> Result<()> {
+    audit::record(
+        tx,
+        &audit::Change {
+            actor: &actor.name,
+            action: "transition",
+            entity: "lot",
+            entity_id: Some(report.lot.id),
+            project_id: Some(report.lot.project_id),
+            before: Some(json!({"state": from})),
+            after: Some(json!({"state": to, "comment": comment, "verdict_accepted": report.verdict.accepted})),
+            origin: &actor.origin,
+        },
+        now,
+    )
+    .await?;
+    Ok(())
+}
+
+fn refused(report: &LotReport, action: &str, reasons: Vec<String>) -> AppError {
+    AppError::conflict(
+        "state",
+        format!("lot {} cannot be {action} while it is {}", report.lot.code, report.lot.state),
+        reasons,
+    )
+}
+
+/// Submits an open or rejected lot for review; refused with reasons while tests are owed or failing.
+pub async fn submit(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> Result<LotReport> {
+    let comment = optional_text("comment", comment, 1000)?;
+    let report = lot_report::build(pool, lot_id).await?;
+    let from = report.lot.state.clone();
+    if from != "open" && from != "rejected" {
+        return Err(refused(&report, "submitted", vec!["only open or rejected lots can be submitted".into()]));
+    }
+    if !report.submit_blockers.is_empty() {
+        return Err(AppError::conflict(
+            "state",
+            format!("lot {} is not ready to submit", report.lot.code),
+            report.submit_blockers.clone(),
+        ));
+    }
+    let now = clock::now();
+    let mut tx = db::begin_write(pool).await?;
+    if !db::lots::transition(&mut tx, lot_id, &from, "submitted", &actor.name, &comment, &now).await? {
+        return Err(refused(&report, "submitted", vec!["the lot changed state meanwhile".into()]));
+    }
+    log_transition(&mut tx, &report, &from, "submitted", &comment, actor, &now).await?;
+    tx.commit().await?;
+    lot_report::build(pool, lot_id).await
+}
+
+/// Rejects a submitted lot; a reason is required.
+pub async fn reject(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> Result<LotReport> {
+    let comment = optional_text("comment", comment, 1000)?;
+    let report = lot_report::build(pool, lot_id).await?;
+    if report.lot.state != "submitted" {
+        return Err(refused(&report, "rejected", vec!["only submitted lots can be rejected".into()]));
+    }
+    if comment.is_empty() {
+        return Err(AppError::invalid("comment", "a rejection needs a reason"));
+    }
+    let now = clock::now();
+    let mut tx = db::begin_write(pool).await?;
+    if !db::lots::transition(&mut tx, lot_id, "submitted", "rejected", &actor.name, &comment, &now).await? {
+        return Err(refused(&report, "rejected", vec!["the lot changed state meanwhile".into()]));
+    }
+    log_transition(&mut tx, &report, "submitted", "rejected", &comment, actor, &now).await?;
+    tx.commit().await?;
+    lot_report::build(pool, lot_id).await
+}
+
+/// Accepts a submitted lot and issues its certificate; on an accepted lot whose record
+/// changed since, issues the next revision.
+pub async fn accept(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> Result<LotReport> {
+    let comment = optional_text("comment", comment, 1000)?;
+    let report = lot_report::build(pool, lot_id).await?;
+    let reissue = report.lot.state == "accepted";
+    if reissue && report.certificate_current {
+        return Err(AppError::conflict(
+            "state",
+            format!("lot {} is accepted and its certificate is current", report.lot.code),
+            vec!["a new revision is issued only after the lot's record changes".into()],
+        ));
+    }
+    if !reissue && report.lot.state != "submitted" {
+        return Err(refused(&report, "accepted", vec!["only submitted lots can be accepted".into()]));
+    }
+    if !report.verdict.accepted {
+        let mut reasons = report.verdict.reasons.clone();
+        reasons.insert(0, format!("the lot does not meet clause {}", report.clause.code));
+        return Err(AppError::conflict(
+            "state",
+            format!("lot {} cannot be accepted", report.lot.code),
+            reasons,
+        ));
+    }
+    let now = clock::now();
+    let mut tx = db::begin_write(pool).await?;
+    if !reissue {
+        if !db::lots::transition(&mut tx, lot_id, "submitted", "accepted", &actor.name, &comment, &now).await? {
+            return Err(refused(&report, "accepted", vec!["the lot changed state meanwhile".into()]));
+        }
+        log_transition(&mut tx, &report, "submitted", "accepted", &comment, actor, &now).await?;
+    }
+    issue_certificate(&mut tx, pool, &report, &comment, actor, &now).await?;
+    tx.commit().await?;
+    lot_report::build(pool, lot_id).await
+}
+
+/// A short code printed on every page: 12 characters from an unambiguous alphabet.
+fn verification_code(seed: &str) -> String {
+    const ALPHABET: &[u8] = b"23456789ABCDEFGHJKLMNPQRSTUVWXYZ";
+    let digest = Sha256::digest(seed.as_bytes());
+    let chars: Vec<char> = digest
+        .iter()
+        .take(12)
+        .map(|b| ALPHABET[usize::from(*b) % ALPHABET.len()] as char)
+        .collect();
+    chars
+        .chunks(4)
+        .map(|c| c.iter().collect::<String>())
+        .collect::<Vec<_>>()
+        .join("-")
+}
+
+async fn issue_certificate(
+    tx: &mut db::Tx<'_>,
+    pool: &Pool,
+    report: &LotReport,
+    comment: &str,
+    actor: &Actor,
+    now: &str,
+) -> Result<()> {
+    let previous = db::certificates::current_for_lot_tx(tx, report.lot.id).await?;
+    let all_for_lot = db::certificates::for_lot(pool, report.lot.id).await?;
+    let (sequence, revision) = match all_for_lot.first() {
+        Some(latest) => (latest.sequence, latest.revision + 1),
+        None => (db::certificates::next_sequence(tx, report.lot.project_id).await?, 1),
+    };
+    let number = format!("{}-EL-{:04}", report.project.code, sequence);
+    let code = verification_code(&format!("{number}|{revision}|{}|{now}", report.fingerprint));
+    let transitions = db::lots::transitions(pool, report.lot.id).await?;
+    let submitted = transitions.iter().rev().find(|t| t.to_state == "submitted");
+    let doc = certificate_doc::build(
+        report,
+        certificate_doc::Issue {
+            number: &number,
+            revision,
+            supersedes: previous.as_ref().map(|p| format!("{} rev {}", p.number, p.revision)),
+            verification_code: &code,
+            issued_at: now,
+            submitted_by: submitted.map(|t| t.actor.as_str()).unwrap_or(""),
+            submitted_at: submitted.map(|t| t.at.as_str()).unwrap_or(""),
+            accepted_by: &actor.name,
+            comment,
+        },
+    );
+    let pdf = crate::pdf::render_certificate(&doc).map_err(|e| anyhow::anyhow!("rendering certificate: {e}"))?;
+    let sha = hex::encode(Sha256::digest(&pdf));
+    if let Some(p) = &previous {
+        db::certificates::supersede(tx, p.id, now).await?;
+    }
+    let id = db::certificates::insert(
+        tx,
+        &db::certificates::NewCertificate {
+            project_id: report.lot.project_id,
+            lot_id: report.lot.id,
+            sequence,
+            revision,
+            number: &number,
+            verification_code: &code,
+            sha256: &sha,
+            record_fingerprint: &report.fingerprint,
+            pdf: &pdf,
+            issued_at: now,
+            issued_by: &actor.name,
+        },
+    )
+    .await?;
+    audit::record(
+        tx,
+        &audit::Change {
+            actor: &actor.name,
+            action: "issue",
+            entity: "certificate",
+            entity_id: Some(id),
+            project_id: Some(report.lot.project_id),
+            before: previous.as_ref().map(|p| json!({"supersedes": p.id, "revision": p.revision})),
+            after: Some(json!({"number": number, "revision": revision, "sha256": sha, "verification_code": code,
+                               "lot_id": report.lot.id})),
+            origin: &actor.origin,
+        },
+        now,
+    )
+    .await?;
+    Ok(())
+}

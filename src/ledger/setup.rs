@@ -1,0 +1,602 @@
+//! Creating the frame that tests are judged in: projects, clauses, sources, lab curves, layers and lots.
+
+use serde::Deserialize;
+use serde_json::json;
+
+use super::Actor;
+use super::validate::{code, date, number, optional_text, quantity, text};
+use crate::clock;
+use crate::db::{self, Pool, audit};
+use crate::error::{AppError, Result};
+use crate::reduction::{self, ChainageStyle, SpecificGravity, UnitSystem, WaterContent};
+use crate::reduction::acceptance::AcceptanceRule;
+use crate::reduction::curve::{CurvePoint, fit_curve};
+use crate::reduction::lab::{Effort, EffortPreset, reduce_specimen};
+
+/// Body of a new project.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ProjectInput {
+    pub code: String,
+    pub name: String,
+    #[serde(default)]
+    pub contract: String,
+    #[serde(default)]
+    pub client: String,
+    #[serde(default)]
+    pub contractor: String,
+    #[serde(default = "default_units")]
+    pub unit_system: String,
+    #[serde(default = "default_chainage_style")]
+    pub chainage_style: String,
+}
+
+fn default_units() -> String {
+    "si".into()
+}
+fn default_chainage_style() -> String {
+    "km_metre".into()
+}
+
+async fn audit_insert(
+    tx: &mut db::Tx<'_>,
+    actor: &Actor,
+    entity: &str,
+    id: i64,
+    project_id: i64,
+    after: serde_json::Value,
+    now: &str,
+) -> Result<()> {
+    audit::record(
+        tx,
+        &audit::Change {
+            actor: &actor.name,
+            action: "create",
+            entity,
+            entity_id: Some(id),
+            project_id: Some(project_id),
+            before: None,
+            after: Some(after),
+            origin: &actor.origin,
+        },
+        now,
+    )
+    .await?;
+    Ok(())
+}
+
+fn unique(field: &str, what: &str) -> impl FnOnce(sqlx::Error) -> AppError {
+    let field = field.to_string();
+    let what = what.to_string();
+    move |e| {
+        if db::is_unique_violation(&e) {
+            AppError::conflict(field, format!("{what} already exists"), vec![])
+        } else {
+            e.into()
+        }
+    }
+}
+
+/// Creates a project.
+pub async fn create_project(pool: &Pool, input: &ProjectInput, actor: &Actor) -> Result<db::projects::Project> {
+    let unit = UnitSystem::parse_code(&input.unit_system)
+        .ok_or_else(|| AppError::invalid("unit_system", "must be \"si\" or \"us\""))?;
+    let style = ChainageStyle::parse_code(&input.chainage_style)
+        .ok_or_else(|| AppError::invalid("chainage_style", "must be \"km_metre\" or \"feet_station\""))?;
+    let new = db::projects::NewProject {
+        code: code("code", &input.code)?.to_ascii_uppercase(),
+        name: text("name", &input.name, 200)?,
+        contract: optional_text("contract", &input.contract, 200)?,
+        client: optional_text("client", &input.client, 200)?,
+        contractor: optional_text("contractor", &input.contractor, 200)?,
+        unit_system: unit.code().to_string(),
+        chainage_style: style.code().to_string(),
+    };
+    let now = clock::now();
+    let mut tx = db::begin_write(pool).await?;
+    let p = db::projects::insert(&mut tx, &new, &now)
+        .await
+        .map_err(unique("code", &format!("a project with code {}", new.code)))?;
+    audit_insert(&mut tx, actor, "project", p.id, p.id, json!(p), &now).await?;
+    tx.commit().await?;
+    Ok(p)
+}
+
+/// Body of a new spec clause.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ClauseInput {
+    pub code: String,
+    #[serde(default)]
+    pub title: String,
+    pub rc_min_pct: f64,
+    pub moisture_below_pct: f64,
+    pub moisture_above_pct: f64,
+    pub effort: String,
+    pub rule: String,
+    pub allowance_pct: Option<f64>,
+    pub min_pwl_pct: Option<f64>,
+    pub area_per_test_m2: Option<f64>,
+    pub length_per_test_m: Option<f64>,
+    pub min_tests_per_lot: i64,
+    pub oversize_limit_pct: Option<f64>,
+}
+
+/// Reads a clause's stored rule back as the reduction's rule.
+pub fn clause_rule(c: &db::clauses::Clause) -> AcceptanceRule {
+    match c.rule.as_str() {
+        "mean_and_min" => AcceptanceRule::MeanAndMin {
+            allowance_pct: c.allowance_pct.unwrap_or(0.0),
+        },
+        "quality_index" => AcceptanceRule::QualityIndex {
+            min_pwl_pct: c.min_pwl_pct.unwrap_or(90.0),
+        },
+        _ => AcceptanceRule::EveryTest,
+    }
+}
+
+/// Creates a spec clause in a project.
+pub async fn create_clause(
+    pool: &Pool,
+    project_id: i64,
+    input: &ClauseInput,
+    actor: &Actor,
+) -> Result<db::clauses::Clause> {
+    require_project(pool, project_id).await?;
+    let effort = input.effort.trim();
+    if effort != "any" && effort != "custom" && EffortPreset::parse_code(effort).is_none() {
+        let known: Vec<&str> = EffortPreset::ALL.iter().map(|p| p.code()).collect();
+        return Err(AppError::invalid(
+            "effort",
+            format!("unknown effort '{effort}'; use one of {}, custom or any", known.join(", ")),
+        ));
+    }
+    let (allowance, min_pwl) = match input.rule.as_str() {
+        "every_test" => (None, None),
+        "mean_and_min" => {
+            let a = input
+                .allowance_pct
+                .ok_or_else(|| AppError::invalid("allowance_pct", "is required for the mean_and_min rule"))?;
+            (Some(number("allowance_pct", a, 0.0, 20.0, "%")?), None)
+        }
+        "quality_index" => {
+            let p = input
+                .min_pwl_pct
+                .ok_or_else(|| AppError::invalid("min_pwl_pct", "is required for the quality_index rule"))?;
+            (None, Some(number("min_pwl_pct", p, 1.0, 100.0, "%")?))
+        }
+        other => {
+            return Err(AppError::invalid(
+                "rule",
+                format!("unknown rule '{other}'; use every_test, mean_and_min or quality_index"),
+            ));
+        }
+    };
+    let positive = |field: &str, v: Option<f64>, max: f64, unit: &str| -> Result<Option<f64>> {
+        v.map(|x| number(field, x, 0.001, max, unit)).transpose()
+    };
+    let clause = db::clauses::Clause {
+        id: 0,
+        project_id,
+        code: code("code", &input.code)?,
+        title: optional_text("title", &input.title, 200)?,
+        rc_min_pct: number("rc_min_pct", input.rc_min_pct, 50.0, 110.0, "%")?,
+        moisture_below_pct: number("moisture_below_pct", input.moisture_below_pct, 0.0, 20.0, "points")?,
+        moisture_above_pct: number("moisture_above_pct", input.moisture_above_pct, 0.0, 20.0, "points")?,
+        effort: effort.to_string(),
+        rule: input.rule.clone(),
+        allowance_pct: allowance,
+        min_pwl_pct: min_pwl,
+        area_per_test_m2: positive("area_per_test_m2", input.area_per_test_m2, 1.0e7, "m²")?,
+        length_per_test_m: positive("length_per_test_m", input.length_per_test_m, 1.0e6, "m")?,
+        min_tests_per_lot: number("min_tests_per_lot", input.min_tests_per_lot as f64, 1.0, 1000.0, "tests")? as i64,
+        oversize_limit_pct: number(
+            "oversize_limit_pct",
+            input
+                .oversize_limit_pct
+                .unwrap_or(reduction::oversize::DEFAULT_OVERSIZE_LIMIT_PCT),
+            0.0,
+            70.0,
+            "%",
+        )?,
+        created_at: clock::now(),
+    };
+    let mut tx = db::begin_write(pool).await?;
+    let c = db::clauses::insert(&mut tx, &clause)
+        .await
+        .map_err(unique("code", &format!("clause {}", clause.code)))?;
+    audit_insert(&mut tx, actor, "clause", c.id, project_id, json!(c), &c.created_at).await?;
+    tx.commit().await?;
+    Ok(c)
+}
+
+/// Body of a new borrow source.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SourceInput {
+    pub code: String,
+    pub name: String,
+    #[serde(default)]
+    pub description: String,
+    #[serde(default)]
+    pub uscs_class: String,
+    #[serde(default)]
+    pub aashto_class: String,
+    pub gs_fines: f64,
+    pub gs_coarse: Option<f64>,
+}
+
+/// Creates a borrow source in a project.
+pub async fn create_source(
+    pool: &Pool,
+    project_id: i64,
+    input: &SourceInput,
+    actor: &Actor,
+) -> Result<db::sources::Source> {
+    require_project(pool, project_id).await?;
+    let gs = quantity("gs_fines", SpecificGravity::new(input.gs_fines))?;
+    let gs_coarse = input
+        .gs_coarse
+        .map(|g| quantity("gs_coarse", SpecificGravity::new(g)).map(|g| g.value()))
+        .transpose()?;
+    let source = db::sources::Source {
+        id: 0,
+        project_id,
+        code: code("code", &input.code)?,
+        name: text("name", &input.name, 200)?,
+        description: optional_text("description", &input.description, 2000)?,
+        uscs_class: optional_text("uscs_class", &input.uscs_class, 20)?,
+        aashto_class: optional_text("aashto_class", &input.aashto_class, 20)?,
+        gs_fines: gs.value(),
+        gs_coarse,
+        created_at: clock::now(),
+    };
+    let mut tx = db::begin_write(pool).await?;
+    let s = db::sources::insert(&mut tx, &source)
+        .await
+        .map_err(unique("code", &format!("source {}", source.code)))?;
+    audit_insert(&mut tx, actor, "source", s.id, project_id, json!(s), &s.created_at).await?;
+    tx.commit().await?;
+    Ok(s)
+}
+
+/// One lab specimen as entered: either reduced values or the masses they come from.
+#[derive(Debug, Clone, Deserialize, serde::Serialize)]
+#[serde(deny_unknown_fields)]
+pub struct LabPointInput {
+    pub water_content_pct: Option<f64>,
+    pub dry_density_kg_m3: Option<f64>,
+    pub mass_mold_and_soil_g: Option<f64>,
+    pub mass_mold_g: Option<f64>,
+    pub mold_volume_cm3: Option<f64>,
+    pub mass_wet_g: Option<f64>,
+    pub mass_dry_g: Option<f64>,
+    pub mass_tare_g: Option<f64>,
+}
+
+/// A custom compaction effort.
+#[derive(Debug, Clone, Deserialize, serde::Serialize)]
+#[serde(deny_unknown_fields)]
+pub struct CustomEffortInput {
+    pub name: String,
+    pub blows_per_layer: u32,
+    pub layers: u32,
+    pub rammer_mass_kg: f64,
+    pub drop_m: f64,
+    pub mold_volume_m3: f64,
+}
+
+/// Body of a new lab compaction test.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct LabTestInput {
+    pub code: String,
+    pub tested_on: String,
+    pub effort: String,
+    pub custom_effort: Option<CustomEffortInput>,
+    pub specific_gravity: Option<f64>,
+    pub points: Vec<LabPointInput>,
+    /// A lab test of the same source that this one replaces.
+    pub supersedes_lab_test_id: Option<i64>,
+    #[serde(default)]
+    pub supersede_reason: String,
+}
+
+/// Reduces one entered lab point to (water content, dry density), naming `points[i].field` on error.
+pub fn reduce_lab_point(i: usize, p: &LabPointInput) -> Result<CurvePoint> {
+    let f = |name: &str| format!("points[{i}].{name}");
+    let water = match (p.water_content_pct, p.mass_wet_g, p.mass_dry_g, p.mass_tare_g) {
+        (Some(w), _, _, _) => quantity(&f("water_content_pct"), WaterContent::new(w))?,
+        (None, Some(wet), Some(dry), Some(tare)) => reduction::water::oven_water_content(wet, dry, tare)
+            .map_err(|e| AppError::invalid(f(e.field()), e.to_string()))?,
+        _ => {
+            return Err(AppError::invalid(
+                f("water_content_pct"),
+                "give water_content_pct, or mass_wet_g, mass_dry_g and mass_tare_g",
+            ));
+        }
+    };
+    let dry = match (p.dry_density_kg_m3, p.mass_mold_and_soil_g, p.mass_mold_g, p.mold_volume_cm3) {
+        (Some(d), _, _, _) => quantity(&f("dry_density_kg_m3"), reduction::Density::new(d))?,
+        (None, Some(total), Some(mold), Some(vol)) => {
+            reduce_specimen(total, mold, vol, water)
+                .map_err(|e| AppError::invalid(f(e.field()), e.to_string()))?
+                .dry_density
+        }
+        _ => {
+            return Err(AppError::invalid(
+                f("dry_density_kg_m3"),
+                "give dry_density_kg_m3, or mass_mold_and_soil_g, mass_mold_g and mold_volume_cm3",
+            ));
+        }
+    };
+    Ok(CurvePoint {
+        water_content_pct: water.pct(),
+        dry_density_kg_m3: dry.kg_m3(),
+    })
+}
+
+/// Resolves the effort named in a lab test body.
+pub fn resolve_effort(effort: &str, custom: Option<&CustomEffortInput>) -> Result<Effort> {
+    if effort == "custom" {
+        let c = custom.ok_or_else(|| AppError::invalid("custom_effort", "is required when effort is custom"))?;
+        return Effort::custom(
+            &c.name,
+            c.blows_per_layer,
+            c.layers,
+            c.rammer_mass_kg,
+            c.drop_m,
+            c.mold_volume_m3,
+        )
+        .map_err(|e| AppError::invalid(format!("custom_effort.{}", e.field()), e.to_string()));
+    }
+    EffortPreset::parse_code(effort).map(EffortPreset::effort).ok_or_else(|| {
+        let known: Vec<&str> = EffortPreset::ALL.iter().map(|p| p.code()).collect();
+        AppError::invalid(
+            "effort",
+            format!("unknown effort '{effort}'; use one of {} or custom", known.join(", ")),
+        )
+    })
+}
+
+/// Creates a lab compaction test for a source, fitting its curve; may supersede an earlier one.
+pub async fn create_lab_test(
+    pool: &Pool,
+    source_id: i64,
+    input: &LabTestInput,
+    actor: &Actor,
+) -> Result<db::lab_tests::LabTest> {
+    let source = db::sources::get(pool, source_id)
+        .await?
+        .ok_or_else(|| AppError::not_found("source_id", format!("source {source_id} does not exist")))?;
+    let effort = resolve_effort(input.effort.trim(), input.custom_effort.as_ref())?;
+    let gs = quantity(
+        "specific_gravity",
+        SpecificGravity::new(input.specific_gravity.unwrap_or(source.gs_fines)),
+    )?;
+    let points = input
+        .points
+        .iter()
+        .enumerate()
+        .map(|(i, p)| reduce_lab_point(i, p))
+        .collect::<Result<Vec<_>>>()?;
+    let fit = fit_curve(&points, Some(gs)).map_err(|e| AppError::invalid("points", e.to_string()))?;
+    let warnings: Vec<_> = fit
+        .warnings
+        .iter()
+        .map(|w| json!({"code": w.code, "message": w.message}))
+        .collect();
+    if let Some(old) = input.supersedes_lab_test_id {
+        let prior = db::lab_tests::get(pool, old).await?;
+        if prior.as_ref().is_none_or(|p| p.source_id != source_id) {
+            return Err(AppError::invalid(
+                "supersedes_lab_test_id",
+                format!("lab test {old} is not a test of source {}", source.code),
+            ));
+        }
+        if input.supersede_reason.trim().is_empty() {
+            return Err(AppError::invalid("supersede_reason", "is required when superseding a lab test"));
+        }
+    }
+    let now = clock::now();
+    let record = db::lab_tests::LabTest {
+        id: 0,
+        source_id,
+        code: code("code", &input.code)?,
+        tested_on: date("tested_on", &input.tested_on)?,
+        effort: if input.effort.trim() == "custom" {
+            format!("custom: {}", effort.name)
+        } else {
+            input.effort.trim().to_string()
+        },
+        effort_energy_kj_m3: effort.energy_kj_m3(),
+        specific_gravity: gs.value(),
+        points_json: serde_json::to_string(&input.points).map_err(anyhow::Error::from)?,
+        max_dry_density_kg_m3: fit.max_dry_density.kg_m3(),
+        optimum_water_content_pct: fit.optimum_water_content.pct(),
+        fit_method: fit.method.code(),
+        warnings_json: serde_json::Value::Array(warnings).to_string(),
+        reduction_version: reduction::REDUCTION_VERSION.to_string(),
+        status: "active".into(),
+        superseded_reason: None,
+        superseded_at: None,
+        created_at: now.clone(),
+        created_by: actor.name.clone(),
+    };
+    let mut tx = db::begin_write(pool).await?;
+    if let Some(old) = input.supersedes_lab_test_id {
+        if !db::lab_tests::supersede(&mut tx, old, input.supersede_reason.trim(), &now).await? {
+            return Err(AppError::conflict(
+                "supersedes_lab_test_id",
+                format!("lab test {old} is already superseded"),
+                vec![],
+            ));
+        }
+    }
+    let t = db::lab_tests::insert(&mut tx, &record)
+        .await
+        .map_err(unique("code", &format!("lab test {}", record.code)))?;
+    if let Some(old) = input.supersedes_lab_test_id {
+        // Lots judged against the old curve are judged against its replacement from now on.
+        let moved = db::lots::repoint_lab_test(&mut tx, old, t.id).await?;
+        audit::record(
+            &mut tx,
+            &audit::Change {
+                actor: &actor.name,
+                action: "supersede",
+                entity: "lab_test",
+                entity_id: Some(old),
+                project_id: Some(source.project_id),
+                before: Some(json!({"status": "active"})),
+                after: Some(json!({"status": "superseded", "replaced_by": t.id, "lots_moved": moved,
+                                   "reason": input.supersede_reason.trim()})),
+                origin: &actor.origin,
+            },
+            &now,
+        )
+        .await?;
+    }
+    audit_insert(&mut tx, actor, "lab_test", t.id, source.project_id, json!(t), &now).await?;
+    tx.commit().await?;
+    Ok(t)
+}
+
+/// Body of a new layer.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct LayerInput {
+    pub zone: String,
+    pub number: i64,
+    pub thickness_mm: Option<f64>,
+}
+
+/// Creates a layer (and its zone when new).
+pub async fn create_layer(pool: &Pool, project_id: i64, input: &LayerInput, actor: &Actor) -> Result<db::layers::Layer> {
+    require_project(pool, project_id).await?;
+    let zone = text("zone", &input.zone, 80)?;
+    let number = number("number", input.number as f64, 1.0, 999.0, "")? as i64;
+    let thickness = input
+        .thickness_mm
+        .map(|t| number_mm("thickness_mm", t))
+        .transpose()?;
+    let now = clock::now();
+    let mut tx = db::begin_write(pool).await?;
+    let z = db::layers::zone_by_name_or_insert(&mut tx, project_id, &zone).await?;
+    let id = db::layers::insert(&mut tx, project_id, z.id, number, thickness, &now)
+        .await
+        .map_err(unique("number", &format!("layer {number} of zone {zone}")))?;
+    audit_insert(
+        &mut tx,
+        actor,
+        "layer",
+        id,
+        project_id,
+        json!({"zone": zone, "number": number, "thickness_mm": thickness}),
+        &now,
+    )
+    .await?;
+    tx.commit().await?;
+    db::layers::get(pool, id)
+        .await?
+        .ok_or_else(|| anyhow::anyhow!("layer {id} vanished after insert").into())
+}
+
+fn number_mm(field: &str, v: f64) -> Result<f64> {
+    number(field, v, 10.0, 2000.0, "mm")
+}
+
+/// Body of a new lot.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct LotInput {
+    pub code: String,
+    pub layer_id: i64,
+    pub chainage_from_m: f64,
+    pub chainage_to_m: f64,
+    pub offset_left_m: f64,
+    pub offset_right_m: f64,
+    pub clause_id: i64,
+    pub lab_test_id: i64,
+}
+
+/// Creates a lot on a layer, judged by a clause against an active lab curve.
+pub async fn create_lot(pool: &Pool, project_id: i64, input: &LotInput, actor: &Actor) -> Result<db::lots::Lot> {
+    require_project(pool, project_id).await?;
+    let layer = db::layers::get(pool, input.layer_id).await?;
+    if layer.as_ref().is_none_or(|l| l.project_id != project_id) {
+        return Err(AppError::invalid(
+            "layer_id",
+            format!("layer {} is not a layer of this project", input.layer_id),
+        ));
+    }
+    let clause = db::clauses::get(pool, input.clause_id).await?;
+    if clause.as_ref().is_none_or(|c| c.project_id != project_id) {
+        return Err(AppError::invalid(
+            "clause_id",
+            format!("clause {} is not a clause of this project", input.clause_id),
+        ));
+    }
+    let lab = db::lab_tests::get(pool, input.lab_test_id)
+        .await?
+        .ok_or_else(|| AppError::invalid("lab_test_id", format!("lab test {} does not exist", input.lab_test_id)))?;
+    let source = db::sources::get(pool, lab.source_id)
+        .await?
+        .filter(|s| s.project_id == project_id)
+        .ok_or_else(|| AppError::invalid("lab_test_id", "the lab test's source is not in this project"))?;
+    if lab.status != "active" {
+        return Err(AppError::invalid(
+            "lab_test_id",
+            format!("lab test {} is superseded; choose its replacement", lab.code),
+        ));
+    }
+    let from = quantity("chainage_from_m", reduction::Chainage::new(input.chainage_from_m))?;
+    let to = quantity("chainage_to_m", reduction::Chainage::new(input.chainage_to_m))?;
+    if to.metres() <= from.metres() {
+        return Err(AppError::invalid("chainage_to_m", "must be greater than chainage_from_m"));
+    }
+    let left = quantity("offset_left_m", reduction::Offset::new(input.offset_left_m))?;
+    let right = quantity("offset_right_m", reduction::Offset::new(input.offset_right_m))?;
+    if right.metres() <= left.metres() {
+        return Err(AppError::invalid("offset_right_m", "must be greater than offset_left_m"));
+    }
+    let new = db::lots::NewLot {
+        project_id,
+        layer_id: input.layer_id,
+        code: code("code", &input.code)?,
+        chainage_from_m: from.metres(),
+        chainage_to_m: to.metres(),
+        offset_left_m: left.metres(),
+        offset_right_m: right.metres(),
+        clause_id: input.clause_id,
+        source_id: source.id,
+        lab_test_id: lab.id,
+    };
+    let now = clock::now();
+    let mut tx = db::begin_write(pool).await?;
+    let id = db::lots::insert(&mut tx, &new, &actor.name, &now)
+        .await
+        .map_err(unique("code", &format!("lot {}", new.code)))?;
+    audit_insert(
+        &mut tx,
+        actor,
+        "lot",
+        id,
+        project_id,
+        json!({"code": new.code, "layer_id": new.layer_id, "chainage_from_m": new.chainage_from_m,
+               "chainage_to_m": new.chainage_to_m, "offset_left_m": new.offset_left_m,
+               "offset_right_m": new.offset_right_m, "clause_id": new.clause_id, "lab_test_id": new.lab_test_id}),
+        &now,
+    )
+    .await?;
+    tx.commit().await?;
+    db::lots::get(pool, id)
+        .await?
+        .ok_or_else(|| anyhow::anyhow!("lot {id} vanished after insert").into())
+}
+
+/// Fails with 404 naming `project_id` when the project does not exist.
+pub async fn require_project(pool: &Pool, project_id: i64) -> Result<db::projects::Project> {
+    db::projects::get(pool, project_id)
+        .await?
+        .ok_or_else(|| AppError::not_found("project_id", format!("project {project_id} does not exist")))
+}

@@ -1,0 +1,18 @@
+//! Pure reduction library: turns lab and field readings into densities, curves,
+//! verdicts and lot decisions. No I/O lives here; every formula names its source.
+
+/// Version of the reduction rules, stored beside every reduced field test.
+pub const REDUCTION_VERSION: &str = "1.0.0";
+
+pub mod acceptance;
+pub mod curve;
+pub mod field;
+pub mod frequency;
+pub mod lab;
+pub mod oversize;
+pub mod quantities;
+pub mod verdict;
+pub mod voids;
+pub mod water;
+
+pub use quantities::*;

@@ -1,0 +1,107 @@
+//! Oversize (rock) correction of a reference dry density and water content
+//! for coarse particles excluded from the lab test (ASTM D4718; AASHTO T 224).
+
+use serde::{Deserialize, Serialize};
+
+use super::quantities::{Density, SPECIFIC_GRAVITY_MAX, SPECIFIC_GRAVITY_MIN, WaterContent, num};
+use super::voids::WATER_DENSITY_KG_M3;
+use super::water::{ReductionError, finite, within};
+
+/// Default upper limit of the coarse fraction for the correction, percent by dry mass (from memory).
+pub const DEFAULT_OVERSIZE_LIMIT_PCT: f64 = 40.0;
+
+/// Inputs to the oversize correction.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct OversizeInput {
+    /// Dry density of the finer fraction (the lab MDD), kg/m³.
+    pub fine_dry_density_kg_m3: f64,
+    /// Water content of the finer fraction (the lab OMC), percent.
+    pub fine_water_content_pct: f64,
+    /// Coarse (oversize) fraction, percent by dry mass (P_c).
+    pub coarse_pct: f64,
+    /// Bulk specific gravity of the coarse particles.
+    pub coarse_specific_gravity: f64,
+    /// Water content of the coarse particles, percent (often about 1–2 %).
+    pub coarse_water_content_pct: f64,
+}
+
+/// Corrected dry density and water content of the whole material.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct OversizeResult {
+    /// Corrected dry density of the total material.
+    pub dry_density: Density,
+    /// Corrected water content of the total material.
+    pub water_content: WaterContent,
+}
+
+/// Applies ASTM D4718: ρd,total = 100 ρd,f k / (ρd,f P_c + k P_f), w_total = (w_f P_f + w_c P_c) / 100, k = Gs,c ρw.
+pub fn correct_for_oversize(
+    input: &OversizeInput,
+    limit_pct: f64,
+) -> Result<OversizeResult, ReductionError> {
+    within(
+        "limit_pct",
+        "coarse-fraction limit",
+        limit_pct,
+        0.0,
+        100.0,
+        "%",
+    )?;
+    let fine = Density::named(
+        "fine-fraction dry density",
+        finite(
+            "fine_dry_density_kg_m3",
+            "fine-fraction dry density",
+            input.fine_dry_density_kg_m3,
+        )?,
+    )
+    .map_err(|e| ReductionError::quantity("fine_dry_density_kg_m3", e))?;
+    let w_fine = WaterContent::named("fine-fraction water content", input.fine_water_content_pct)
+        .map_err(|e| ReductionError::quantity("fine_water_content_pct", e))?;
+    let pc = within(
+        "coarse_pct",
+        "coarse fraction",
+        input.coarse_pct,
+        0.0,
+        100.0,
+        "%",
+    )?;
+    if pc > limit_pct {
+        return Err(ReductionError::OutOfRange {
+            field: "coarse_pct",
+            reason: format!(
+                "coarse fraction {} % is more than the {} % limit for oversize correction; \
+                 the correction does not hold there, so test the whole material another way",
+                num(pc),
+                num(limit_pct)
+            ),
+        });
+    }
+    let gs_c = within(
+        "coarse_specific_gravity",
+        "coarse specific gravity",
+        input.coarse_specific_gravity,
+        SPECIFIC_GRAVITY_MIN,
+        SPECIFIC_GRAVITY_MAX,
+        "",
+    )?;
+    let w_coarse = within(
+        "coarse_water_content_pct",
+        "coarse water content",
+        input.coarse_water_content_pct,
+        0.0,
+        100.0,
+        "%",
+    )?;
+    let pf = 100.0 - pc;
+    let k = gs_c * WATER_DENSITY_KG_M3;
+    let rho_f = fine.kg_m3();
+    let rho_total = 100.0 * rho_f * k / (rho_f * pc + k * pf);
+    let w_total = (w_fine.pct() * pf + w_coarse * pc) / 100.0;
+    Ok(OversizeResult {
+        dry_density: Density::named("corrected dry density", rho_total)
+            .map_err(|e| ReductionError::quantity("fine_dry_density_kg_m3", e))?,
+        water_content: WaterContent::named("corrected water content", w_total)
+            .map_err(|e| ReductionError::quantity("fine_water_content_pct", e))?,
+    })
+}
