@@ -262,7 +262,7 @@ pub fn assemble(
     let display_state = match lot.state.as_str() {
         "accepted" if certificate.is_some() && certificate_current => "certified",
         "accepted" => "accepted",
-        "open" | "rejected" if !failing_without_retest.is_empty() && (every_test || !lv.accepted) => "failing",
+        "open" if !failing_without_retest.is_empty() && (every_test || !lv.accepted) => "failing",
         "open" if owed > 0 => "owed_tests",
         s => s,
     }

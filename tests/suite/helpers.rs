@@ -1,0 +1,224 @@
+//! Spawning a real liftledger server on a random loopback port with a fresh SQLite file.
+
+use std::net::SocketAddr;
+use std::path::PathBuf;
+
+use liftledger::{AppState, Settings, db};
+use serde_json::{Value, json};
+use tokio::sync::oneshot;
+
+/// A running server and what a test needs to talk to it.
+pub struct TestApp {
+    pub addr: SocketAddr,
+    pub client: reqwest::Client,
+    pub pool: db::Pool,
+    pub db_path: PathBuf,
+    _dir: std::sync::Arc<tempfile::TempDir>,
+    stop: Option<oneshot::Sender<()>>,
+    handle: Option<tokio::task::JoinHandle<()>>,
+}
+
+impl TestApp {
+    /// Full URL of a path on this server.
+    pub fn url(&self, path: &str) -> String {
+        format!("http://{}{}", self.addr, path)
+    }
+
+    /// GET a path and return (status, JSON body).
+    pub async fn get(&self, path: &str) -> (u16, Value) {
+        let r = self.client.get(self.url(path)).send().await.expect("GET failed");
+        let status = r.status().as_u16();
+        (status, r.json().await.unwrap_or(Value::Null))
+    }
+
+    /// POST JSON to a path and return (status, JSON body).
+    pub async fn post(&self, path: &str, body: &Value) -> (u16, Value) {
+        let r = self
+            .client
+            .post(self.url(path))
+            .header("x-liftledger-user", "test-runner")
+            .json(body)
+            .send()
+            .await
+            .expect("POST failed");
+        let status = r.status().as_u16();
+        (status, r.json().await.unwrap_or(Value::Null))
+    }
+
+    /// POST raw bytes with a content type.
+    pub async fn post_raw(&self, path: &str, body: &'static str) -> (u16, Value) {
+        let r = self
+            .client
+            .post(self.url(path))
+            .header("content-type", "application/json")
+            .body(body)
+            .send()
+            .await
+            .expect("POST failed");
+        let status = r.status().as_u16();
+        (status, r.json().await.unwrap_or(Value::Null))
+    }
+
+    /// Stops the server and waits for it to finish; the database file stays.
+    pub async fn stop(mut self) -> (std::sync::Arc<tempfile::TempDir>, PathBuf) {
+        if let Some(s) = self.stop.take() {
+            let _ = s.send(());
+        }
+        if let Some(h) = self.handle.take() {
+            let _ = h.await;
+        }
+        self.pool.close().await;
+        (self._dir.clone(), self.db_path.clone())
+    }
+
+    /// Rows in a table, straight from SQLite (to prove refused requests wrote nothing).
+    pub async fn count(&self, table: &str) -> i64 {
+        let sql = format!("SELECT COUNT(*) FROM {table}");
+        sqlx::query_scalar(sqlx::AssertSqlSafe(sql)).fetch_one(&self.pool).await.expect("count")
+    }
+
+    /// Row counts of every table that holds records.
+    pub async fn all_counts(&self) -> Vec<(String, i64)> {
+        let mut out = Vec::new();
+        for t in TABLES {
+            out.push((t.to_string(), self.count(t).await));
+        }
+        out
+    }
+}
+
+/// Every table whose rows a refused request must leave alone.
+pub const TABLES: [&str; 11] = [
+    "projects",
+    "clauses",
+    "sources",
+    "lab_tests",
+    "zones",
+    "layers",
+    "lots",
+    "field_tests",
+    "lot_transitions",
+    "certificates",
+    "audit_log",
+];
+
+/// Starts a server on a fresh database in a new temp dir.
+pub async fn spawn_app() -> TestApp {
+    let dir = std::sync::Arc::new(tempfile::tempdir().expect("tempdir"));
+    let path = dir.path().join("test.sqlite");
+    spawn_on(dir, path).await
+}
+
+/// Starts a server on an existing (or new) database file.
+pub async fn spawn_on(dir: std::sync::Arc<tempfile::TempDir>, path: PathBuf) -> TestApp {
+    if std::env::var("TEST_LOG").is_ok() {
+        let _ = tracing_subscriber::fmt().with_env_filter("info").try_init();
+    }
+    let pool = db::open(&path).await.expect("open db");
+    let listener = tokio::net::TcpListener::bind("127.0.0.1:0").await.expect("bind");
+    let addr = listener.local_addr().expect("addr");
+    let state = AppState::new(pool.clone(), Settings { demo: false });
+    let (tx, rx) = oneshot::channel::<()>();
+    let handle = tokio::spawn(async move {
+        liftledger::serve(listener, state, async {
+            let _ = rx.await;
+        })
+        .await
+        .expect("server failed");
+    });
+    TestApp {
+        addr,
+        client: reqwest::Client::new(),
+        pool,
+        db_path: path,
+        _dir: dir,
+        stop: Some(tx),
+        handle: Some(handle),
+    }
+}
+
+/// Ids of a small project built through the API: a clause, a source, a lab curve, a layer, a lot.
+#[derive(Debug, Clone, Copy)]
+pub struct Frame {
+    pub project: i64,
+    pub clause: i64,
+    pub source: i64,
+    pub lab_test: i64,
+    pub layer: i64,
+    pub lot: i64,
+}
+
+/// The lab points used by `build_frame` (an invented sandy clay, modified effort).
+pub fn lab_points() -> Value {
+    json!([
+        {"water_content_pct": 7.8, "dry_density_kg_m3": 1868.0},
+        {"water_content_pct": 9.7, "dry_density_kg_m3": 1927.0},
+        {"water_content_pct": 11.4, "dry_density_kg_m3": 1958.0},
+        {"water_content_pct": 13.2, "dry_density_kg_m3": 1932.0},
+        {"water_content_pct": 15.1, "dry_density_kg_m3": 1872.0}
+    ])
+}
+
+/// Builds project → clause → source → lab test → layer → lot through the API.
+pub async fn build_frame(app: &TestApp, rule: Value) -> Frame {
+    let (s, p) = app
+        .post("/api/v1/projects", &json!({"code": "TST", "name": "Test Link", "contract": "T-1"}))
+        .await;
+    assert_eq!(s, 201, "{p}");
+    let project = p["id"].as_i64().unwrap();
+    let mut clause = json!({"code": "C1", "rc_min_pct": 95.0, "moisture_below_pct": 2.0, "moisture_above_pct": 2.0,
+        "effort": "astm_d1557_4in", "area_per_test_m2": 500.0, "min_tests_per_lot": 3});
+    for (k, v) in rule.as_object().unwrap() {
+        clause[k] = v.clone();
+    }
+    let (s, c) = app.post(&format!("/api/v1/projects/{project}/clauses"), &clause).await;
+    assert_eq!(s, 201, "{c}");
+    let (s, src) = app
+        .post(
+            &format!("/api/v1/projects/{project}/sources"),
+            &json!({"code": "S1", "name": "Pit one", "gs_fines": 2.68, "gs_coarse": 2.65}),
+        )
+        .await;
+    assert_eq!(s, 201, "{src}");
+    let source = src["id"].as_i64().unwrap();
+    let (s, lab) = app
+        .post(
+            &format!("/api/v1/sources/{source}/lab-tests"),
+            &json!({"code": "L1", "tested_on": "2026-11-02", "effort": "astm_d1557_4in", "points": lab_points()}),
+        )
+        .await;
+    assert_eq!(s, 201, "{lab}");
+    let (s, layer) = app
+        .post(&format!("/api/v1/projects/{project}/layers"), &json!({"zone": "Fill", "number": 1}))
+        .await;
+    assert_eq!(s, 201, "{layer}");
+    let (s, lot) = app
+        .post(
+            &format!("/api/v1/projects/{project}/lots"),
+            &json!({"code": "LOT-1", "layer_id": layer["id"], "chainage_from_m": 1000.0, "chainage_to_m": 1100.0,
+                    "offset_left_m": -5.0, "offset_right_m": 5.0, "clause_id": c["id"], "lab_test_id": lab["id"]}),
+        )
+        .await;
+    assert_eq!(s, 201, "{lot}");
+    Frame {
+        project,
+        clause: c["id"].as_i64().unwrap(),
+        source,
+        lab_test: lab["id"].as_i64().unwrap(),
+        layer: layer["id"].as_i64().unwrap(),
+        lot: lot["id"].as_i64().unwrap(),
+    }
+}
+
+/// A nuclear-gauge test body at a chainage giving the wanted dry density and water content.
+pub fn nuclear_test(number: &str, chainage_m: f64, dry: f64, w_pct: f64) -> Value {
+    json!({
+        "number": number,
+        "tested_at": "2026-11-20T09:00:00Z",
+        "technician": "A. Tester",
+        "chainage_m": chainage_m,
+        "offset_m": 1.5,
+        "readings": {"method": "nuclear", "wet_density_kg_m3": dry * (1.0 + w_pct / 100.0),
+                     "moisture_density_kg_m3": dry * w_pct / 100.0}
+    })
+}

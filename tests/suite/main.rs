@@ -1,0 +1,10 @@
+//! liftledger's integration tests: one binary, real SQLite files, real servers on loopback.
+
+mod helpers;
+
+mod api_flow;
+mod bad_input;
+mod calculators;
+mod concurrency;
+mod openapi;
+mod restart;
