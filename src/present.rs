@@ -103,10 +103,10 @@ pub fn state_label(state: &str) -> &'static str {
         "open" => "open",
         "owed_tests" => "tests owed",
         "failing" => "failing",
-        "submitted" => "under review",
+        "submitted" => "submitted",
         "accepted" => "accepted",
-        "rejected" => "returned",
-        "certified" => "released",
+        "rejected" => "rejected",
+        "certified" => "certified",
         _ => "unknown",
     }
 }

@@ -98,3 +98,16 @@ pub async fn supersede(tx: &mut Tx<'_>, id: i64, reason: &str, now: &str) -> sql
     .await?;
     Ok(done.rows_affected() == 1)
 }
+
+/// Every lab test of a project's sources.
+pub async fn list_for_project(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<LabTest>> {
+    sqlx::query_as::<_, LabTest>(
+        "SELECT t.id, t.source_id, t.code, t.tested_on, t.effort, t.effort_energy_kj_m3, t.specific_gravity, t.points_json,
+             t.max_dry_density_kg_m3, t.optimum_water_content_pct, t.fit_method, t.warnings_json, t.reduction_version,
+             t.status, t.superseded_reason, t.superseded_at, t.created_at, t.created_by
+         FROM lab_tests t JOIN sources s ON s.id = t.source_id WHERE s.project_id = ? ORDER BY s.code, t.tested_on, t.id",
+    )
+    .bind(project_id)
+    .fetch_all(pool)
+    .await
+}

@@ -1,6 +1,7 @@
 //! The HTTP edge: routes, extractors and middleware.
 
 pub mod api;
+pub mod pages;
 pub mod extract;
 
 use std::time::Duration;
@@ -22,6 +23,7 @@ pub const MAX_BODY_BYTES: usize = 8 * 1024 * 1024;
 pub fn router(state: AppState) -> Router {
     Router::new()
         .merge(api::router())
+        .merge(pages::router())
         .fallback(not_found)
         .with_state(state)
         .layer(RequestBodyLimitLayer::new(MAX_BODY_BYTES))

@@ -8,6 +8,7 @@
 pub mod certificate_doc;
 pub mod field;
 pub mod lot_report;
+pub mod overview;
 pub mod review;
 pub mod setup;
 pub mod validate;

@@ -1,8 +1,7 @@
 //! Lot acceptance: which tests count (voids and superseded failures are out),
 //! the lot statistics, and the decision under one of three rules with reasons
-//! a reviewer reads. Also the percent-within-limits estimate of the quality-index
-//! method (AASHTO R 9; FHWA quality-assurance practice) and the regularised
-//! incomplete beta function it rests on.
+//! a reviewer reads. The percent-within-limits estimate of the quality-index
+//! method lives in [`super::pwl`] and is re-exported here.
 //!
 //! Moisture: under `every_test` and `mean_and_min` a counted test outside the
 //! moisture window fails the lot and the reasons say so. Under `quality_index`
@@ -15,6 +14,7 @@ use std::collections::{HashMap, HashSet, VecDeque};
 
 use serde::{Deserialize, Serialize};
 
+pub use super::pwl::{ln_gamma, percent_within_limits, regularized_incomplete_beta};
 use super::verdict::{COMPARE_EPS, SpecLimits, deviation_words};
 use super::water::ReductionError;
 
@@ -241,6 +241,7 @@ fn decide_density(
     lower: f64,
     rule: &AcceptanceRule,
     summary: &Summary,
+    noun: &str,
 ) -> DensityDecision {
     let mut reasons = Vec::new();
     let mut accepted = true;
@@ -253,7 +254,7 @@ fn decide_density(
                 labelled.iter().filter(|(_, v)| !meets(*v, lower)).collect();
             if below.is_empty() {
                 reasons.push(format!(
-                    "all {} counted are at or above the {lower:.1} % minimum (lowest {:.1} %)",
+                    "all {} counted {noun}s are at or above the {lower:.1} % minimum (lowest {:.1} %)",
                     summary.n, summary.min
                 ));
             } else {
@@ -293,7 +294,7 @@ fn decide_density(
                 labelled.iter().filter(|(_, v)| !meets(*v, floor)).collect();
             if below.is_empty() {
                 reasons.push(format!(
-                    "every counted test is at or above the {floor:.1} % floor ({lower:.1} % less {allowance_pct:.1} allowance); lowest {:.1} %",
+                    "every counted {noun} is at or above the {floor:.1} % floor ({lower:.1} % less {allowance_pct:.1} allowance); lowest {:.1} %",
                     summary.min
                 ));
             } else {
@@ -310,7 +311,7 @@ fn decide_density(
                 return DensityDecision {
                     accepted: false,
                     reasons: vec![format!(
-                        "the quality-index rule needs at least 3 counted tests; there {} {}",
+                        "the quality-index rule needs at least 3 counted {noun}s; there {} {}",
                         if summary.n == 1 { "is" } else { "are" },
                         summary.n
                     )],
@@ -327,7 +328,7 @@ fn decide_density(
                     0.0
                 };
                 reasons.push(format!(
-                    "all {} counted tests read {:.1} %: with no spread the percent within limits is {p:.0} %",
+                    "all {} counted {noun}s read {:.1} %: with no spread the percent within limits is {p:.0} %",
                     summary.n, summary.mean
                 ));
                 p
@@ -335,7 +336,7 @@ fn decide_density(
                 let q = (summary.mean - lower) / s;
                 quality_index = Some(q);
                 reasons.push(format!(
-                    "quality index {q:.2} = (mean {:.2} % − limit {lower:.1} %) / standard deviation {s:.2} over {} tests",
+                    "quality index {q:.2} = (mean {:.2} % − limit {lower:.1} %) / standard deviation {s:.2} over {} {noun}s",
                     summary.mean, summary.n
                 ));
                 percent_within_limits(summary.n, q).unwrap_or(0.0)
@@ -427,7 +428,7 @@ pub fn evaluate_lot(
         .iter()
         .map(|t| (format!("test {}", t.id), t.relative_compaction_pct))
         .collect();
-    let density = decide_density(&labelled, limits.rc_min_pct, rule, &summary);
+    let density = decide_density(&labelled, limits.rc_min_pct, rule, &summary, "test");
     let mut accepted = density.accepted;
     let mut reasons = density.reasons;
 
@@ -549,7 +550,7 @@ pub fn evaluate_values(
         .enumerate()
         .map(|(i, v)| (format!("value {}", i + 1), *v))
         .collect();
-    let d = decide_density(&labelled, lower_limit, rule, &summary);
+    let d = decide_density(&labelled, lower_limit, rule, &summary, "value");
     Ok(ValuesSummary {
         n: summary.n,
         mean: summary.mean,
@@ -561,112 +562,382 @@ pub fn evaluate_values(
     })
 }
 
-/// Estimated percent within limits from the quality index (AASHTO R 9): 100 (1 − I_x(a, a)),
-/// a = (n − 2)/2, x = clamp(1/2 − Q √n / (2(n − 1)), 0, 1). None for n < 3 or Q not a number.
-pub fn percent_within_limits(n: usize, quality_index: f64) -> Option<f64> {
-    if n < 3 || quality_index.is_nan() {
-        return None;
-    }
-    let nf = n as f64;
-    let a = (nf - 2.0) / 2.0;
-    let x = (0.5 - quality_index * nf.sqrt() / (2.0 * (nf - 1.0))).clamp(0.0, 1.0);
-    let pwl = 100.0 * (1.0 - regularized_incomplete_beta(x, a, a));
-    Some(pwl.clamp(0.0, 100.0))
-}
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use proptest::prelude::*;
 
-/// Natural log of the gamma function for x > 0 (Lanczos, g = 7, nine terms; reflection below 1/2).
-pub fn ln_gamma(x: f64) -> f64 {
-    const G: f64 = 7.0;
-    const COEFFS: [f64; 9] = [
-        0.999_999_999_999_809_9,
-        676.520_368_121_885_1,
-        -1_259.139_216_722_402_8,
-        771.323_428_777_653_1,
-        -176.615_029_162_140_6,
-        12.507_343_278_686_905,
-        -0.138_571_095_265_720_12,
-        9.984_369_578_019_572e-6,
-        1.505_632_735_149_311_6e-7,
-    ];
-    if x < 0.5 {
-        // Γ(x) Γ(1 − x) = π / sin(π x)
-        let s = (std::f64::consts::PI * x).sin().abs();
-        return std::f64::consts::PI.ln() - s.ln() - ln_gamma(1.0 - x);
-    }
-    let x = x - 1.0;
-    let mut sum = COEFFS[0];
-    for (i, c) in COEFFS.iter().enumerate().skip(1) {
-        sum += c / (x + i as f64);
-    }
-    let t = x + G + 0.5;
-    0.5 * (2.0 * std::f64::consts::PI).ln() + (x + 0.5) * t.ln() - t + sum.ln()
-}
-
-/// Continued fraction for the incomplete beta by the modified Lentz method (Numerical Recipes, betacf).
-fn beta_continued_fraction(x: f64, a: f64, b: f64) -> f64 {
-    const MAX_ITER: usize = 500;
-    const EPS: f64 = 1e-15;
-    const TINY: f64 = 1e-300;
-    let qab = a + b;
-    let qap = a + 1.0;
-    let qam = a - 1.0;
-    let mut c = 1.0;
-    let mut d = 1.0 - qab * x / qap;
-    if d.abs() < TINY {
-        d = TINY;
-    }
-    d = 1.0 / d;
-    let mut h = d;
-    for m in 1..=MAX_ITER {
-        let m = m as f64;
-        let m2 = 2.0 * m;
-        let aa = m * (b - m) * x / ((qam + m2) * (a + m2));
-        d = 1.0 + aa * d;
-        if d.abs() < TINY {
-            d = TINY;
-        }
-        c = 1.0 + aa / c;
-        if c.abs() < TINY {
-            c = TINY;
-        }
-        d = 1.0 / d;
-        h *= d * c;
-        let aa = -(a + m) * (qab + m) * x / ((a + m2) * (qap + m2));
-        d = 1.0 + aa * d;
-        if d.abs() < TINY {
-            d = TINY;
-        }
-        c = 1.0 + aa / c;
-        if c.abs() < TINY {
-            c = TINY;
-        }
-        d = 1.0 / d;
-        let del = d * c;
-        h *= del;
-        if (del - 1.0).abs() < EPS {
-            break;
-        }
-    }
-    h
-}
-
-/// Regularised incomplete beta I_x(a, b) (Numerical Recipes betai); NaN for a, b ≤ 0 or x not a number.
-pub fn regularized_incomplete_beta(x: f64, a: f64, b: f64) -> f64 {
-    if x.is_nan() || a.is_nan() || b.is_nan() || a <= 0.0 || b <= 0.0 {
-        return f64::NAN;
-    }
-    if x <= 0.0 {
-        return 0.0;
-    }
-    if x >= 1.0 {
-        return 1.0;
-    }
-    let ln_front = ln_gamma(a + b) - ln_gamma(a) - ln_gamma(b) + a * x.ln() + b * (1.0 - x).ln();
-    let front = ln_front.exp();
-    let value = if x < (a + 1.0) / (a + b + 2.0) {
-        front * beta_continued_fraction(x, a, b) / a
-    } else {
-        1.0 - front * beta_continued_fraction(1.0 - x, b, a) / b
+    const LIMITS: SpecLimits = SpecLimits {
+        rc_min_pct: 95.0,
+        moisture_below_pct: 2.0,
+        moisture_above_pct: 2.0,
     };
-    value.clamp(0.0, 1.0)
+
+    fn t(id: i64, rc: f64, dev: f64) -> LotTestInput {
+        LotTestInput {
+            id,
+            relative_compaction_pct: rc,
+            moisture_deviation_pct: dev,
+            passed: rc >= 95.0 && dev.abs() <= 2.0,
+            voided: false,
+            retest_of: None,
+        }
+    }
+
+    #[test]
+    fn sample_statistics_use_n_minus_one() {
+        // Sample standard deviation of 1, 2, 3, 4 = √(5/3) = 1.290994 (n − 1 divisor).
+        let s = summarize(&[1.0, 2.0, 3.0, 4.0]).unwrap();
+        assert!((s.std_dev.unwrap() - 1.290_994_448_7).abs() < 1e-9);
+        assert_eq!((s.n, s.mean, s.min, s.max), (4, 2.5, 1.0, 4.0));
+        assert_eq!(summarize(&[7.0]).unwrap().std_dev, None);
+        assert!(summarize(&[]).is_none());
+    }
+
+    #[test]
+    fn mean_and_min_reads_as_a_reviewer_expects() {
+        let tests = [
+            t(11, 97.0, 0.5),
+            t(12, 96.5, -0.5),
+            t(14, 91.8, 0.0),
+            t(15, 98.0, 1.0),
+            t(16, 97.7, -1.0),
+        ];
+        let v = evaluate_lot(
+            &tests,
+            &AcceptanceRule::MeanAndMin { allowance_pct: 2.0 },
+            &LIMITS,
+        );
+        assert!(!v.accepted);
+        assert_eq!(v.n, 5);
+        assert!((v.mean.unwrap() - 96.2).abs() < 1e-9);
+        assert_eq!((v.min, v.max), (Some(91.8), Some(98.0)));
+        assert!(
+            v.reasons
+                .contains(&"mean relative compaction 96.2 % meets the 95.0 % minimum".to_string()),
+            "{:?}",
+            v.reasons
+        );
+        assert!(v.reasons.contains(
+            &"test 14 at 91.8 % is below the 93.0 % floor (95.0 % less 2.0 allowance)".to_string()
+        ));
+        assert_eq!(v.failing_without_retest, vec![14]);
+        // Raise test 14 to 93.5 %: above the floor, lot accepted although one test is below 95.
+        let mut tests = tests;
+        tests[2].relative_compaction_pct = 93.5;
+        let v = evaluate_lot(
+            &tests,
+            &AcceptanceRule::MeanAndMin { allowance_pct: 2.0 },
+            &LIMITS,
+        );
+        assert!(v.accepted, "{:?}", v.reasons);
+        assert!(v.reasons[1].starts_with("every counted test is at or above the 93.0 % floor"));
+    }
+
+    #[test]
+    fn every_test_rule_lists_each_failure() {
+        let tests = [t(1, 96.0, 0.0), t(2, 94.1, 0.0), t(3, 97.0, 2.6)];
+        let v = evaluate_lot(&tests, &AcceptanceRule::EveryTest, &LIMITS);
+        assert!(!v.accepted);
+        assert!(
+            v.reasons
+                .contains(&"test 2 at 94.1 % is below the 95.0 % minimum".to_string()),
+            "{:?}",
+            v.reasons
+        );
+        assert!(
+            v.reasons.iter().any(|r| r
+                .starts_with("test 3 at 2.6 points wet of optimum is outside the moisture window")
+                && r.ends_with("under this rule that fails the lot"))
+        );
+        let ok = [t(1, 96.0, 0.0), t(2, 95.0, -2.0), t(3, 97.0, 1.9)];
+        let v = evaluate_lot(&ok, &AcceptanceRule::EveryTest, &LIMITS);
+        assert!(v.accepted, "{:?}", v.reasons);
+        assert_eq!(
+            v.reasons[0],
+            "all 3 counted tests are at or above the 95.0 % minimum (lowest 95.0 %)"
+        );
+        // A test judged failed when reduced fails the lot even if these limits would pass it.
+        let mut odd = ok;
+        odd[0].passed = false;
+        let v = evaluate_lot(&odd, &AcceptanceRule::EveryTest, &LIMITS);
+        assert!(
+            !v.accepted
+                && v.reasons
+                    .iter()
+                    .any(|r| r.contains("test 1 was judged failed"))
+        );
+    }
+
+    #[test]
+    fn moisture_fails_mean_and_min_but_only_notes_under_quality_index() {
+        let tests = [
+            t(1, 97.0, 0.0),
+            t(2, 98.0, -2.5),
+            t(3, 99.0, 0.5),
+            t(4, 98.5, 1.0),
+        ];
+        let mm = evaluate_lot(
+            &tests,
+            &AcceptanceRule::MeanAndMin { allowance_pct: 2.0 },
+            &LIMITS,
+        );
+        assert!(!mm.accepted);
+        assert!(
+            mm.reasons
+                .iter()
+                .any(|r| r.contains("test 2 at 2.5 points dry of optimum")
+                    && r.contains("fails the lot"))
+        );
+        let qi = evaluate_lot(
+            &tests,
+            &AcceptanceRule::QualityIndex { min_pwl_pct: 90.0 },
+            &LIMITS,
+        );
+        assert!(qi.accepted, "{:?}", qi.reasons);
+        assert!(
+            qi.reasons
+                .iter()
+                .any(|r| r.contains("test 2") && r.contains("the density statistic decides"))
+        );
+    }
+
+    #[test]
+    fn quality_index_figures() {
+        let tests = [
+            t(1, 96.0, 0.0),
+            t(2, 97.5, 0.0),
+            t(3, 95.5, 0.0),
+            t(4, 94.5, 0.0),
+            t(5, 98.0, 0.0),
+        ];
+        let v = evaluate_lot(
+            &tests,
+            &AcceptanceRule::QualityIndex { min_pwl_pct: 90.0 },
+            &LIMITS,
+        );
+        // x̄ = 96.3, s = 1.4405 (n − 1), Q_L = 1.3/1.4405 = 0.9025; PWL from the beta formula (AASHTO R 9).
+        assert!((v.mean.unwrap() - 96.3).abs() < 1e-9);
+        assert!((v.std_dev.unwrap() - 1.440_486_0).abs() < 1e-6);
+        let q = v.quality_index.unwrap();
+        assert!((q - 0.902_473_8).abs() < 1e-6, "{q}");
+        assert!((v.pwl.unwrap() - percent_within_limits(5, q).unwrap()).abs() < 1e-12);
+        assert!(!v.accepted, "{:?}", v.reasons);
+        assert!(
+            v.reasons
+                .iter()
+                .any(|r| r.contains("is below the 90.0 % required"))
+        );
+        let v = evaluate_lot(
+            &tests,
+            &AcceptanceRule::QualityIndex { min_pwl_pct: 75.0 },
+            &LIMITS,
+        );
+        assert!(
+            v.accepted
+                && v.reasons
+                    .iter()
+                    .any(|r| r.contains("meets the 75.0 % required"))
+        );
+    }
+
+    #[test]
+    fn no_spread_is_all_or_nothing() {
+        let rule = AcceptanceRule::QualityIndex { min_pwl_pct: 90.0 };
+        let high = [t(1, 96.0, 0.0), t(2, 96.0, 0.0), t(3, 96.0, 0.0)];
+        let v = evaluate_lot(&high, &rule, &LIMITS);
+        assert_eq!(
+            (v.pwl, v.quality_index, v.accepted),
+            (Some(100.0), None, true)
+        );
+        assert!(v.reasons[0].contains("with no spread the percent within limits is 100 %"));
+        let low = [t(1, 94.0, 0.0), t(2, 94.0, 0.0), t(3, 94.0, 0.0)];
+        let v = evaluate_lot(&low, &rule, &LIMITS);
+        assert_eq!((v.pwl, v.accepted), (Some(0.0), false));
+        let two = [t(1, 96.0, 0.0), t(2, 97.0, 0.0)];
+        let v = evaluate_lot(&two, &rule, &LIMITS);
+        assert!(
+            !v.accepted && v.reasons[0].contains("needs at least 3 counted tests; there are 2")
+        );
+    }
+
+    #[test]
+    fn voided_and_superseded_tests_are_out_of_the_statistics() {
+        let mut a = t(1, 90.0, 0.0); // failed
+        let mut b = t(2, 92.0, 0.0); // failed retest of 1
+        b.retest_of = Some(1);
+        let mut c = t(3, 96.0, 0.0); // passing retest of 2: supersedes 1 and 2
+        c.retest_of = Some(2);
+        let mut v_ = t(4, 80.0, 0.0);
+        v_.voided = true;
+        let d = t(5, 97.0, 0.0);
+        let e = t(6, 93.0, 0.0); // failed, retest voided: still owed
+        let mut f = t(7, 99.0, 0.0);
+        f.retest_of = Some(6);
+        f.voided = true;
+        let tests = [a.clone(), b.clone(), c, v_, d, e, f];
+        let v = evaluate_lot(&tests, &AcceptanceRule::EveryTest, &LIMITS);
+        assert_eq!(
+            v.standings,
+            vec![
+                (1, TestStanding::Superseded { by: 3 }),
+                (2, TestStanding::Superseded { by: 3 }),
+                (3, TestStanding::Counted),
+                (4, TestStanding::Voided),
+                (5, TestStanding::Counted),
+                (6, TestStanding::Counted),
+                (7, TestStanding::Voided),
+            ]
+        );
+        assert_eq!(v.n, 3);
+        assert_eq!(v.min, Some(93.0));
+        assert_eq!(v.failing_without_retest, vec![6]);
+        assert!(
+            v.reasons.iter().any(|r| r
+                == "2 voided and 2 superseded test(s) are on record but out of the statistics")
+        );
+        // A cycle in retest links (bad data) neither hangs nor supersedes anything.
+        a.retest_of = Some(2);
+        b.retest_of = Some(1);
+        let s = standings(&[a, b]);
+        assert_eq!(
+            s,
+            vec![(1, TestStanding::Counted), (2, TestStanding::Counted)]
+        );
+        assert_eq!(TestStanding::Superseded { by: 3 }.code(), "superseded");
+    }
+
+    #[test]
+    fn empty_lot_is_not_accepted() {
+        let v = evaluate_lot(&[], &AcceptanceRule::EveryTest, &LIMITS);
+        assert!(!v.accepted && v.n == 0 && v.mean.is_none());
+        assert!(v.reasons[0].starts_with("no counted tests in the lot"));
+        let mut only = t(1, 99.0, 0.0);
+        only.voided = true;
+        let v = evaluate_lot(
+            &[only],
+            &AcceptanceRule::MeanAndMin { allowance_pct: 2.0 },
+            &LIMITS,
+        );
+        assert!(!v.accepted && v.reasons[0].contains("1 voided"));
+        let v = evaluate_lot(&[t(1, f64::NAN, 0.0)], &AcceptanceRule::EveryTest, &LIMITS);
+        assert!(!v.accepted && v.reasons[0].contains("no usable relative compaction"));
+    }
+
+    #[test]
+    fn values_calculator() {
+        let s = evaluate_values(
+            &[96.0, 97.5, 95.5, 94.5, 98.0],
+            95.0,
+            &AcceptanceRule::QualityIndex { min_pwl_pct: 75.0 },
+        )
+        .unwrap();
+        assert!(s.accepted && s.n == 5 && s.pwl.is_some());
+        let s = evaluate_values(
+            &[96.0, 94.0],
+            95.0,
+            &AcceptanceRule::MeanAndMin { allowance_pct: 2.0 },
+        )
+        .unwrap();
+        assert!(
+            s.accepted
+                && s.reasons[0] == "mean relative compaction 95.0 % meets the 95.0 % minimum"
+        );
+        let s = evaluate_values(&[96.0, 94.0], 95.0, &AcceptanceRule::EveryTest).unwrap();
+        assert!(!s.accepted && s.reasons[0] == "value 2 at 94.0 % is below the 95.0 % minimum");
+        let bad = [
+            (
+                evaluate_values(&[], 95.0, &AcceptanceRule::EveryTest),
+                "values",
+            ),
+            (
+                evaluate_values(&[96.0, f64::NAN], 95.0, &AcceptanceRule::EveryTest),
+                "values",
+            ),
+            (
+                evaluate_values(
+                    &[96.0, 97.0],
+                    95.0,
+                    &AcceptanceRule::QualityIndex { min_pwl_pct: 90.0 },
+                ),
+                "values",
+            ),
+            (
+                evaluate_values(&[96.0], f64::INFINITY, &AcceptanceRule::EveryTest),
+                "lower_limit",
+            ),
+            (
+                evaluate_values(
+                    &[96.0],
+                    95.0,
+                    &AcceptanceRule::MeanAndMin {
+                        allowance_pct: -1.0,
+                    },
+                ),
+                "allowance_pct",
+            ),
+            (
+                evaluate_values(
+                    &[96.0; 4],
+                    95.0,
+                    &AcceptanceRule::QualityIndex { min_pwl_pct: 190.0 },
+                ),
+                "min_pwl_pct",
+            ),
+        ];
+        for (result, field) in bad {
+            assert_eq!(result.unwrap_err().field(), field);
+        }
+    }
+
+    #[test]
+    fn rule_codes_labels_and_json() {
+        let rules = [
+            (
+                AcceptanceRule::EveryTest,
+                "every_test",
+                serde_json::json!({"rule": "every_test"}),
+            ),
+            (
+                AcceptanceRule::MeanAndMin { allowance_pct: 2.0 },
+                "mean_and_min",
+                serde_json::json!({"rule": "mean_and_min", "allowance_pct": 2.0}),
+            ),
+            (
+                AcceptanceRule::QualityIndex { min_pwl_pct: 90.0 },
+                "quality_index",
+                serde_json::json!({"rule": "quality_index", "min_pwl_pct": 90.0}),
+            ),
+        ];
+        for (rule, code, json) in rules {
+            assert_eq!(rule.code(), code);
+            assert_eq!(serde_json::to_value(rule).unwrap(), json);
+            assert_eq!(
+                serde_json::from_value::<AcceptanceRule>(json).unwrap(),
+                rule
+            );
+            assert!(!rule.label().is_empty());
+        }
+    }
+
+    proptest! {
+        #[test]
+        fn lot_evaluation_never_panics(
+            raw in proptest::collection::vec((0i64..12, 60.0f64..110.0, -5.0f64..5.0, any::<bool>(), any::<bool>(), proptest::option::of(0i64..12)), 0..14),
+            rule_kind in 0u8..3,
+        ) {
+            let tests: Vec<LotTestInput> = raw.iter().map(|&(id, rc, dev, passed, voided, retest_of)| LotTestInput {
+                id, relative_compaction_pct: rc, moisture_deviation_pct: dev, passed, voided, retest_of,
+            }).collect();
+            let rule = match rule_kind {
+                0 => AcceptanceRule::EveryTest,
+                1 => AcceptanceRule::MeanAndMin { allowance_pct: 2.0 },
+                _ => AcceptanceRule::QualityIndex { min_pwl_pct: 90.0 },
+            };
+            let v = evaluate_lot(&tests, &rule, &LIMITS);
+            prop_assert_eq!(v.standings.len(), tests.len());
+            prop_assert!(v.n <= tests.len());
+            prop_assert!(!v.reasons.is_empty());
+        }
+    }
 }

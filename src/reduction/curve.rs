@@ -505,3 +505,274 @@ fn fit(
         rms_residual_kg_m3,
     })
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use proptest::prelude::*;
+
+    fn pts(v: &[(f64, f64)]) -> Vec<CurvePoint> {
+        v.iter()
+            .map(|&(w, d)| CurvePoint {
+                water_content_pct: w,
+                dry_density_kg_m3: d,
+            })
+            .collect()
+    }
+
+    fn gs(v: f64) -> Option<SpecificGravity> {
+        Some(SpecificGravity::new(v).unwrap())
+    }
+
+    /// An invented, realistic standard-effort curve of a silty clay.
+    fn realistic() -> Vec<CurvePoint> {
+        pts(&[
+            (10.0, 1720.0),
+            (12.0, 1765.0),
+            (14.0, 1790.0),
+            (16.0, 1772.0),
+            (18.0, 1730.0),
+        ])
+    }
+
+    #[test]
+    fn realistic_curve_fits_with_cubic_and_no_warnings() {
+        let f = fit_curve(&realistic(), gs(2.70)).unwrap();
+        assert_eq!(f.method, FitMethod::Polynomial { degree: 3 });
+        assert_eq!(f.method.code(), "polynomial_3");
+        assert_eq!(f.method.label(), "least-squares cubic polynomial");
+        assert!(f.warnings.is_empty(), "{:?}", f.warnings);
+        // The peak lies between the measured points, close to the best one.
+        let omc = f.optimum_water_content.pct();
+        assert!(omc > 13.0 && omc < 15.0, "{omc}");
+        let mdd = f.max_dry_density.kg_m3();
+        assert!(mdd > 1780.0 && mdd < 1800.0, "{mdd}");
+        assert!((f.density_at(omc) - f.max_dry_density.kg_m3()).abs() < 1e-9);
+        assert_eq!(f.curve.len(), CURVE_SAMPLES);
+        assert_eq!(f.curve[0].water_content_pct, 10.0);
+        assert!((f.curve[CURVE_SAMPLES - 1].water_content_pct - 18.0).abs() < 1e-12);
+        assert!(
+            f.curve
+                .iter()
+                .all(|p| p.dry_density_kg_m3 <= f.max_dry_density.kg_m3() + 1e-9)
+        );
+        assert!(f.r_squared > 0.99 && f.rms_residual_kg_m3 < 5.0);
+        assert!(!f.has_warning("above_zero_air_voids"));
+    }
+
+    #[test]
+    fn no_achieved_point_lies_on_or_above_zav() {
+        // Das (compaction chapter): no real point lies above the ZAV line; check the invented data at Gs 2.70.
+        let gs = SpecificGravity::new(2.70).unwrap();
+        for p in realistic() {
+            assert!(p.dry_density_kg_m3 < zero_air_voids_density(gs, p.water_content_pct));
+        }
+        let f = fit_curve(&realistic(), Some(gs)).unwrap();
+        assert!(
+            f.curve
+                .iter()
+                .all(|p| p.dry_density_kg_m3 < zero_air_voids_density(gs, p.water_content_pct))
+        );
+    }
+
+    #[test]
+    fn four_points_use_a_quadratic() {
+        let f = fit_curve(&realistic()[..4], None).unwrap();
+        assert_eq!(f.method.code(), "polynomial_2");
+        assert_eq!(f.method.label(), "least-squares quadratic polynomial");
+        // Only one point wetter than the peak: flagged (from memory: two each side wanted).
+        assert!(f.has_warning("peak_not_bracketed"), "{:?}", f.warnings);
+    }
+
+    #[test]
+    fn refuses_too_few_points() {
+        let e = fit_curve(&realistic()[..3], None).unwrap_err();
+        assert_eq!(e, CurveError::TooFewPoints { got: 3, needed: 4 });
+        assert_eq!(e.code(), "too_few_points");
+        assert_eq!(
+            e.to_string(),
+            "a compaction curve needs at least 4 points; 3 given"
+        );
+        assert_eq!(fit_curve(&[], None).unwrap_err().code(), "too_few_points");
+    }
+
+    #[test]
+    fn refuses_degenerate_water_contents_without_panicking() {
+        let same = pts(&[
+            (12.0, 1700.0),
+            (12.0, 1750.0),
+            (12.0, 1800.0),
+            (12.0, 1760.0),
+        ]);
+        let e = fit_curve(&same, None).unwrap_err();
+        assert_eq!(e.code(), "same_water_content");
+        assert!(e.to_string().contains("same water content (12 %)"), "{e}");
+        let two = pts(&[
+            (12.0, 1700.0),
+            (12.0, 1750.0),
+            (14.0, 1800.0),
+            (14.0, 1760.0),
+        ]);
+        assert_eq!(
+            fit_curve(&two, None).unwrap_err(),
+            CurveError::TooFewDistinctWaterContents { distinct: 2 }
+        );
+    }
+
+    #[test]
+    fn refuses_bad_points_by_index() {
+        let mut p = realistic();
+        p[2].dry_density_kg_m3 = f64::NAN;
+        let e = fit_curve(&p, None).unwrap_err();
+        assert_eq!(e.code(), "invalid_point");
+        assert!(matches!(e, CurveError::InvalidPoint { index: 2, .. }));
+        assert!(
+            e.to_string()
+                .starts_with("point 3 dry density is not a finite number"),
+            "{e}"
+        );
+        let mut p = realistic();
+        p[0].water_content_pct = -4.0;
+        assert!(
+            fit_curve(&p, None)
+                .unwrap_err()
+                .to_string()
+                .contains("outside 0–100 %")
+        );
+        let mut p = realistic();
+        p[4].dry_density_kg_m3 = 17_300.0;
+        assert!(matches!(
+            fit_curve(&p, None),
+            Err(CurveError::InvalidPoint { index: 4, .. })
+        ));
+    }
+
+    #[test]
+    fn refuses_a_curve_without_interior_peak() {
+        // Straight line upwards: no peak anywhere in range.
+        let rising = pts(&[
+            (8.0, 1700.0),
+            (10.0, 1720.0),
+            (12.0, 1740.0),
+            (14.0, 1760.0),
+            (16.0, 1780.0),
+        ]);
+        let e = fit_curve(&rising, None).unwrap_err();
+        assert_eq!(e.code(), "no_interior_peak");
+        assert!(
+            e.to_string().contains("rising towards the wettest point"),
+            "{e}"
+        );
+        assert!(e.to_string().contains("between 8.0 % and 16.0 %"), "{e}");
+        let falling = pts(&[
+            (8.0, 1800.0),
+            (10.0, 1780.0),
+            (12.0, 1750.0),
+            (14.0, 1700.0),
+        ]);
+        let e = fit_curve(&falling, None).unwrap_err();
+        assert!(e.to_string().contains("drier than the driest point"), "{e}");
+    }
+
+    #[test]
+    fn cubic_without_peak_falls_back_to_quadratic_with_warnings() {
+        let p = pts(&[
+            (10.0, 1800.0),
+            (12.0, 1850.0),
+            (14.0, 1870.0),
+            (16.0, 1872.0),
+            (18.0, 1875.0),
+        ]);
+        let f = fit_curve(&p, None).unwrap();
+        assert_eq!(f.method.code(), "polynomial_2");
+        assert!(f.has_warning("fit_degree_reduced"));
+        assert!(f.has_warning("peak_not_bracketed"));
+    }
+
+    #[test]
+    fn warns_of_points_above_zav_and_repeated_water_contents() {
+        // At Gs 2.60 and 18 %: ZAV = 2600 / (1 + 0.18 × 2.6) = 1771.1 kg/m³ (Das formula); 1800 lies above.
+        let p = pts(&[
+            (10.0, 1720.0),
+            (12.0, 1765.0),
+            (14.0, 1790.0),
+            (14.02, 1788.0),
+            (18.0, 1800.0),
+            (16.0, 1800.0),
+        ]);
+        let f = fit_curve(&p, gs(2.60)).unwrap();
+        let above: Vec<&CurveWarning> = f
+            .warnings
+            .iter()
+            .filter(|w| w.code == "above_zero_air_voids")
+            .collect();
+        assert_eq!(above.len(), 1, "{:?}", f.warnings);
+        assert!(
+            above[0].message.contains("18.0 % and 1800 kg/m³"),
+            "{}",
+            above[0].message
+        );
+        assert!(
+            above[0].message.contains("1771 kg/m³"),
+            "{}",
+            above[0].message
+        );
+        let repeated: Vec<&CurveWarning> = f
+            .warnings
+            .iter()
+            .filter(|w| w.code == "repeated_water_content")
+            .collect();
+        assert_eq!(repeated.len(), 1);
+        assert!(repeated[0].message.contains("14.0 %"));
+        // Without Gs, no ZAV check is possible.
+        assert!(
+            !fit_curve(&p, None)
+                .unwrap()
+                .has_warning("above_zero_air_voids")
+        );
+    }
+
+    #[test]
+    fn forced_degree_is_recorded() {
+        let f = fit_curve_with_degree(&realistic(), None, 2).unwrap();
+        assert_eq!(f.method, FitMethod::Polynomial { degree: 2 });
+        assert_eq!(
+            fit_curve_with_degree(&realistic(), None, 9)
+                .unwrap()
+                .method
+                .code(),
+            "polynomial_3"
+        );
+        let json = serde_json::to_value(f.method).unwrap();
+        assert_eq!(json, serde_json::json!({"kind": "polynomial", "degree": 2}));
+    }
+
+    proptest! {
+        #[test]
+        fn noise_free_parabola_vertex_is_recovered(
+            omc in 6.0f64..25.0,
+            mdd in 1500.0f64..2200.0,
+            k in 1.0f64..15.0,
+            step in 1.0f64..2.5,
+            shift in -0.9f64..0.9,
+            n in 4usize..8,
+        ) {
+            // ρd = MDD − k (w − OMC)²: spread the points around the vertex, at least two each side.
+            let start = omc - step * ((n as f64 - 1.0) / 2.0) + shift * step * 0.4;
+            let p: Vec<CurvePoint> = (0..n).map(|i| {
+                let w = start + step * i as f64;
+                CurvePoint { water_content_pct: w, dry_density_kg_m3: mdd - k * (w - omc).powi(2) }
+            }).collect();
+            prop_assume!(p.iter().all(|q| q.dry_density_kg_m3 >= 500.0 && q.water_content_pct >= 0.0));
+            let f = fit_curve(&p, None).unwrap();
+            prop_assert!((f.optimum_water_content.pct() - omc).abs() < 1e-6, "{} vs {omc}", f.optimum_water_content.pct());
+            prop_assert!((f.max_dry_density.kg_m3() - mdd).abs() < 1e-6);
+        }
+
+        #[test]
+        fn fit_never_panics(raw in proptest::collection::vec((-5.0f64..120.0, 0.0f64..4000.0), 0..9)) {
+            let p: Vec<CurvePoint> = raw.iter().map(|&(w, d)| CurvePoint { water_content_pct: w, dry_density_kg_m3: d }).collect();
+            let _ = fit_curve(&p, gs(2.65));
+        }
+    }
+}

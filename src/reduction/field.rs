@@ -107,12 +107,12 @@ fn wet_from_mass_volume(
     mass_field: &'static str,
 ) -> Result<Density, ReductionError> {
     let rho = mass_g / volume_cm3 * 1000.0;
-    Density::named("wet density", rho).map_err(|e| ReductionError::Inconsistent {
+    Density::named("wet density", rho).map_err(|_| ReductionError::Inconsistent {
         field: mass_field,
         reason: format!(
-            "{} g of soil in {} cm³ gives {e}",
+            "{} g of wet soil in a volume of {:.1} cm³ gives a wet density of {rho:.0} kg/m³, outside 500–3000 kg/m³; check the masses and the volume",
             num(mass_g),
-            num((volume_cm3 * 10.0).round() / 10.0)
+            volume_cm3
         ),
     })
 }
@@ -322,4 +322,302 @@ fn reduce_nuclear(
         reason: "a nuclear test needs the gauge moisture density, the gauge water content or an oven water content"
             .to_string(),
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn nuclear(moisture: Option<f64>, gauge_w: Option<f64>, oven: Option<f64>) -> FieldReadings {
+        FieldReadings::Nuclear {
+            wet_density_kg_m3: 2100.0,
+            moisture_density_kg_m3: moisture,
+            water_content_pct: gauge_w,
+            oven_water_content_pct: oven,
+            gauge_serial: Some("G-1042".to_string()),
+            probe_depth_mm: Some(200.0),
+        }
+    }
+
+    fn sand_cone() -> FieldReadings {
+        FieldReadings::SandCone {
+            mass_sand_used_g: 6000.0,
+            mass_sand_in_cone_g: 1600.0,
+            sand_density_kg_m3: 1500.0,
+            mass_wet_soil_g: 5900.0,
+            water_content_pct: 10.0,
+        }
+    }
+
+    #[test]
+    fn nuclear_from_moisture_density() {
+        // ASTM D6938: ρd = ρ − ρm = 2100 − 200 = 1900; w = 200 / 1900 × 100 = 10.526 %.
+        let r = reduce_field(&nuclear(Some(200.0), Some(9.0), None)).unwrap();
+        assert_eq!(r.dry_density.kg_m3(), 1900.0);
+        assert!((r.water_content.pct() - 10.526_315_8).abs() < 1e-6);
+        assert_eq!(r.wet_density.kg_m3(), 2100.0);
+        assert_eq!(r.moisture_source, "gauge");
+    }
+
+    #[test]
+    fn nuclear_from_gauge_water_content() {
+        // ρd = ρ / (1 + w) = 2100 / 1.10 = 1909.09 kg/m³ (ASTM D6938).
+        let r = reduce_field(&nuclear(None, Some(10.0), None)).unwrap();
+        assert!((r.dry_density.kg_m3() - 1909.090909).abs() < 1e-5);
+        assert_eq!(r.moisture_source, "gauge");
+    }
+
+    #[test]
+    fn oven_moisture_overrides_the_gauge() {
+        // ASTM D6938 with an ASTM D2216 moisture: ρd = 2100 / 1.12 = 1875 kg/m³.
+        let r = reduce_field(&nuclear(Some(200.0), Some(10.5), Some(12.0))).unwrap();
+        assert!((r.dry_density.kg_m3() - 1875.0).abs() < 1e-9);
+        assert_eq!(r.water_content.pct(), 12.0);
+        assert_eq!(r.moisture_source, "oven");
+    }
+
+    #[test]
+    fn sand_cone_reduction() {
+        // ASTM D1556: sand in hole 6000 − 1600 = 4400 g; V = 4400 / 1.500 = 2933.33 cm³;
+        // ρ = 5900 / 2933.33 = 2011.36 kg/m³; ρd = 2011.36 / 1.10 = 1828.51 kg/m³.
+        let r = reduce_field(&sand_cone()).unwrap();
+        assert!((r.wet_density.kg_m3() - 2011.363636).abs() < 1e-5);
+        assert!((r.dry_density.kg_m3() - 1828.512397).abs() < 1e-5);
+        assert_eq!(r.moisture_source, "entered");
+    }
+
+    #[test]
+    fn balloon_and_drive_cylinder_reductions() {
+        // ASTM D2167: 2050 g in 1000 cm³ → 2050 kg/m³; / 1.08 = 1898.15 kg/m³.
+        let b = FieldReadings::Balloon {
+            hole_volume_cm3: 1000.0,
+            mass_wet_soil_g: 2050.0,
+            water_content_pct: 8.0,
+        };
+        let r = reduce_field(&b).unwrap();
+        assert_eq!(r.wet_density.kg_m3(), 2050.0);
+        assert!((r.dry_density.kg_m3() - 1898.148148).abs() < 1e-5);
+        // ASTM D2937: 1850 g in 943.9 cm³ → 1959.95 kg/m³; / 1.15 = 1704.30 kg/m³.
+        let d = FieldReadings::DriveCylinder {
+            cylinder_volume_cm3: 943.9,
+            mass_wet_soil_g: 1850.0,
+            water_content_pct: 15.0,
+        };
+        let r = reduce_field(&d).unwrap();
+        assert!((r.wet_density.kg_m3() - 1959.953385).abs() < 1e-5);
+        assert!((r.dry_density.kg_m3() - 1704.307291).abs() < 1e-5);
+    }
+
+    #[test]
+    fn cone_sand_heavier_than_sand_used_is_refused_in_words() {
+        let r = FieldReadings::SandCone {
+            mass_sand_used_g: 1900.0,
+            mass_sand_in_cone_g: 2100.0,
+            sand_density_kg_m3: 1500.0,
+            mass_wet_soil_g: 3000.0,
+            water_content_pct: 10.0,
+        };
+        let e = reduce_field(&r).unwrap_err();
+        assert_eq!(e.field(), "mass_sand_in_cone_g");
+        assert_eq!(
+            e.to_string(),
+            "cone sand mass 2100 g is not less than sand used 1900 g"
+        );
+    }
+
+    #[test]
+    fn every_field_method_error_names_its_field() {
+        let sc = |f: &dyn Fn(&mut [f64; 5])| {
+            let mut v = [6000.0, 1600.0, 1500.0, 5900.0, 10.0];
+            f(&mut v);
+            FieldReadings::SandCone {
+                mass_sand_used_g: v[0],
+                mass_sand_in_cone_g: v[1],
+                sand_density_kg_m3: v[2],
+                mass_wet_soil_g: v[3],
+                water_content_pct: v[4],
+            }
+        };
+        let nuc =
+            |wet: f64, m: Option<f64>, w: Option<f64>, oven: Option<f64>, depth: Option<f64>| {
+                FieldReadings::Nuclear {
+                    wet_density_kg_m3: wet,
+                    moisture_density_kg_m3: m,
+                    water_content_pct: w,
+                    oven_water_content_pct: oven,
+                    gauge_serial: None,
+                    probe_depth_mm: depth,
+                }
+            };
+        let cases: Vec<(FieldReadings, &str)> = vec![
+            (
+                nuc(f64::NAN, Some(200.0), None, None, None),
+                "wet_density_kg_m3",
+            ),
+            (
+                nuc(4200.0, Some(200.0), None, None, None),
+                "wet_density_kg_m3",
+            ),
+            (
+                nuc(2100.0, Some(-1.0), None, None, None),
+                "moisture_density_kg_m3",
+            ),
+            (
+                nuc(2100.0, Some(2100.0), None, None, None),
+                "moisture_density_kg_m3",
+            ),
+            (
+                nuc(2100.0, Some(f64::NAN), None, None, None),
+                "moisture_density_kg_m3",
+            ),
+            (
+                nuc(2100.0, Some(1700.0), None, None, None),
+                "moisture_density_kg_m3",
+            ),
+            (
+                nuc(2100.0, None, Some(140.0), None, None),
+                "water_content_pct",
+            ),
+            (
+                nuc(2100.0, None, None, Some(-2.0), None),
+                "oven_water_content_pct",
+            ),
+            (
+                nuc(2100.0, None, None, None, None),
+                "moisture_density_kg_m3",
+            ),
+            (
+                nuc(2100.0, Some(200.0), None, None, Some(900.0)),
+                "probe_depth_mm",
+            ),
+            (sc(&|v| v[0] = 0.0), "mass_sand_used_g"),
+            (sc(&|v| v[1] = -3.0), "mass_sand_in_cone_g"),
+            (sc(&|v| v[1] = f64::NAN), "mass_sand_in_cone_g"),
+            (sc(&|v| v[2] = 3100.0), "sand_density_kg_m3"),
+            (sc(&|v| v[3] = -5.0), "mass_wet_soil_g"),
+            (sc(&|v| v[3] = 59_000.0), "mass_wet_soil_g"),
+            (sc(&|v| v[4] = f64::INFINITY), "water_content_pct"),
+            (
+                FieldReadings::Balloon {
+                    hole_volume_cm3: 0.0,
+                    mass_wet_soil_g: 2000.0,
+                    water_content_pct: 8.0,
+                },
+                "hole_volume_cm3",
+            ),
+            (
+                FieldReadings::Balloon {
+                    hole_volume_cm3: 1000.0,
+                    mass_wet_soil_g: f64::NAN,
+                    water_content_pct: 8.0,
+                },
+                "mass_wet_soil_g",
+            ),
+            (
+                FieldReadings::Balloon {
+                    hole_volume_cm3: 1000.0,
+                    mass_wet_soil_g: 2000.0,
+                    water_content_pct: 101.0,
+                },
+                "water_content_pct",
+            ),
+            (
+                FieldReadings::DriveCylinder {
+                    cylinder_volume_cm3: -9.0,
+                    mass_wet_soil_g: 1800.0,
+                    water_content_pct: 8.0,
+                },
+                "cylinder_volume_cm3",
+            ),
+            (
+                FieldReadings::DriveCylinder {
+                    cylinder_volume_cm3: 944.0,
+                    mass_wet_soil_g: 100.0,
+                    water_content_pct: 8.0,
+                },
+                "mass_wet_soil_g",
+            ),
+            (
+                FieldReadings::DriveCylinder {
+                    cylinder_volume_cm3: 944.0,
+                    mass_wet_soil_g: 1800.0,
+                    water_content_pct: -8.0,
+                },
+                "water_content_pct",
+            ),
+        ];
+        for (readings, field) in cases {
+            let e = reduce_field(&readings).unwrap_err();
+            assert_eq!(e.field(), field, "{readings:?}: {e}");
+            assert!(!e.to_string().is_empty());
+        }
+        let e = reduce_field(&sc(&|v| v[2] = 3100.0)).unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            "sand density 3100 kg/m³ is outside 1000–2000 kg/m³"
+        );
+        let e = reduce_field(&nuc(2100.0, None, None, None, None)).unwrap_err();
+        assert!(
+            e.to_string().contains("needs the gauge moisture density"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn json_shape_is_tagged_by_method() {
+        let json = r#"{"method":"sand_cone","mass_sand_used_g":6000,"mass_sand_in_cone_g":1600,
+            "sand_density_kg_m3":1500,"mass_wet_soil_g":5900,"water_content_pct":10}"#;
+        let r: FieldReadings = serde_json::from_str(json).unwrap();
+        assert_eq!(r, sand_cone());
+        assert_eq!(r.method_code(), "sand_cone");
+        let n: FieldReadings = serde_json::from_str(
+            r#"{"method":"nuclear","wet_density_kg_m3":2100,"moisture_density_kg_m3":200}"#,
+        )
+        .unwrap();
+        assert_eq!(n.method_code(), "nuclear");
+        assert_eq!(serde_json::to_value(&n).unwrap()["method"], "nuclear");
+        for (r, code) in [
+            (
+                FieldReadings::Balloon {
+                    hole_volume_cm3: 1.0,
+                    mass_wet_soil_g: 1.0,
+                    water_content_pct: 1.0,
+                },
+                "balloon",
+            ),
+            (
+                FieldReadings::DriveCylinder {
+                    cylinder_volume_cm3: 1.0,
+                    mass_wet_soil_g: 1.0,
+                    water_content_pct: 1.0,
+                },
+                "drive_cylinder",
+            ),
+        ] {
+            assert_eq!(r.method_code(), code);
+            assert_eq!(serde_json::to_value(&r).unwrap()["method"], code);
+            assert!(!r.method_label().is_empty());
+        }
+    }
+
+    proptest::proptest! {
+        #[test]
+        fn reduction_never_panics_and_results_stay_in_bounds(
+            a in proptest::num::f64::ANY, b in proptest::num::f64::ANY, c in -10.0f64..4000.0,
+            m in proptest::num::f64::ANY, w in -5.0f64..120.0, kind in 0u8..4,
+        ) {
+            let r = match kind {
+                0 => FieldReadings::Nuclear { wet_density_kg_m3: c, moisture_density_kg_m3: Some(a), water_content_pct: None,
+                    oven_water_content_pct: (b > 0.0).then_some(w), gauge_serial: None, probe_depth_mm: None },
+                1 => FieldReadings::SandCone { mass_sand_used_g: a, mass_sand_in_cone_g: b, sand_density_kg_m3: c,
+                    mass_wet_soil_g: m, water_content_pct: w },
+                2 => FieldReadings::Balloon { hole_volume_cm3: a, mass_wet_soil_g: m, water_content_pct: w },
+                _ => FieldReadings::DriveCylinder { cylinder_volume_cm3: b, mass_wet_soil_g: m, water_content_pct: w },
+            };
+            if let Ok(fd) = reduce_field(&r) {
+                proptest::prop_assert!(fd.dry_density <= fd.wet_density);
+                proptest::prop_assert!((500.0..=3000.0).contains(&fd.dry_density.kg_m3()));
+            }
+        }
+    }
 }

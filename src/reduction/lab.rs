@@ -113,27 +113,36 @@ impl Effort {
 
 /// The published compaction efforts the service offers by name.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]
-#[serde(rename_all = "snake_case")]
 pub enum EffortPreset {
     /// ASTM D698 standard effort, 4-in mold.
+    #[serde(rename = "astm_d698_4in")]
     AstmD698Mold4in,
     /// ASTM D698 standard effort, 6-in mold.
+    #[serde(rename = "astm_d698_6in")]
     AstmD698Mold6in,
     /// ASTM D1557 modified effort, 4-in mold.
+    #[serde(rename = "astm_d1557_4in")]
     AstmD1557Mold4in,
     /// ASTM D1557 modified effort, 6-in mold.
+    #[serde(rename = "astm_d1557_6in")]
     AstmD1557Mold6in,
     /// AASHTO T 99 standard effort, 4-in mold.
+    #[serde(rename = "aashto_t99")]
     AashtoT99,
     /// AASHTO T 180 modified effort, 4-in mold.
+    #[serde(rename = "aashto_t180")]
     AashtoT180,
     /// BS 1377-4 light compaction, 2.5 kg rammer, 1 L mold.
+    #[serde(rename = "bs1377_light")]
     Bs1377Light,
     /// BS 1377-4 heavy compaction, 4.5 kg rammer, 1 L mold.
+    #[serde(rename = "bs1377_heavy")]
     Bs1377Heavy,
     /// IS 2720 part 7 light compaction, 1000 ml mold.
+    #[serde(rename = "is2720_light")]
     Is2720Light,
     /// IS 2720 part 8 heavy compaction, 1000 ml mold.
+    #[serde(rename = "is2720_heavy")]
     Is2720Heavy,
 }
 
@@ -368,4 +377,257 @@ pub fn reduce_specimen(
         wet_density,
         dry_density,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::reduction::curve::{CurvePoint, fit_curve};
+    use crate::reduction::quantities::SpecificGravity;
+
+    fn within_pct(value: f64, target: f64, pct: f64) -> bool {
+        ((value - target) / target).abs() * 100.0 <= pct
+    }
+
+    #[test]
+    fn modified_4in_preset_matches_the_standard() {
+        // ASTM D1557: 10 lb rammer, 18 in drop, 5 layers × 25 blows, 4 in mold of 1/30 ft³ (4.584 in high).
+        let d = EffortPreset::AstmD1557Mold4in.data();
+        assert!(
+            (d.rammer_mass_kg - 4.535_923_7).abs() < 1e-9,
+            "10 lb (ASTM D1557)"
+        );
+        assert!((d.drop_m - 0.4572).abs() < 1e-12, "18 in (ASTM D1557)");
+        assert_eq!(
+            (d.layers, d.blows_per_layer),
+            (5, 25),
+            "5 × 25 (ASTM D1557)"
+        );
+        assert!(
+            (d.mold_diameter_mm - 101.6).abs() < 1e-9,
+            "4 in mold (ASTM D1557)"
+        );
+        assert!(
+            (d.mold_height_mm - 116.4336).abs() < 1e-9,
+            "4.584 in (ASTM D1557)"
+        );
+        // π/4 × 4² × 4.584 in³ = 57.60 in³ = 1/30 ft³ (ASTM D1557) within 0.1 %.
+        let dims_m3 =
+            std::f64::consts::PI / 4.0 * (d.mold_diameter_mm / 1000.0).powi(2) * d.mold_height_mm
+                / 1000.0;
+        assert!(within_pct(dims_m3, d.mold_volume_m3, 0.1));
+        assert!(within_pct(d.mold_volume_m3, 0.028_316_846_592 / 30.0, 1e-9));
+    }
+
+    #[test]
+    fn heavy_is2720_preset_matches_the_standard() {
+        // IS 2720-8: 1,000 ml mold 100 mm dia × 127.3 mm, 4.9 kg rammer, 450 mm drop, 5 × 25.
+        let d = EffortPreset::Is2720Heavy.data();
+        assert_eq!(
+            (d.mold_diameter_mm, d.mold_height_mm),
+            (100.0, 127.3),
+            "IS 2720-8"
+        );
+        assert_eq!((d.rammer_mass_kg, d.drop_m), (4.9, 0.450), "IS 2720-8");
+        assert_eq!((d.layers, d.blows_per_layer), (5, 25), "IS 2720-8");
+        let dims_ml = std::f64::consts::PI / 4.0 * 10.0f64.powi(2) * 12.73;
+        assert!(
+            within_pct(dims_ml, 1000.0, 0.1),
+            "100 mm × 127.3 mm ≈ 1,000 ml (IS 2720-8): {dims_ml}"
+        );
+        assert!(within_pct(d.mold_volume_m3, 0.001, 1e-9));
+    }
+
+    #[test]
+    fn standard_and_modified_energies_match_the_published_figures() {
+        // ASTM D698: 12,400 ft·lbf/ft³ (600 kN·m/m³); ASTM D1557: 56,000 ft·lbf/ft³ (2,700 kN·m/m³).
+        for p in [EffortPreset::AstmD698Mold4in, EffortPreset::AstmD698Mold6in] {
+            let e = p.effort();
+            assert!(
+                within_pct(e.energy_kj_m3(), 600.0, 3.0),
+                "{} (ASTM D698): {}",
+                p.code(),
+                e.energy_kj_m3()
+            );
+            assert!(
+                within_pct(e.energy_ft_lbf_ft3(), 12_400.0, 3.0),
+                "{} (ASTM D698): {}",
+                p.code(),
+                e.energy_ft_lbf_ft3()
+            );
+        }
+        for p in [
+            EffortPreset::AstmD1557Mold4in,
+            EffortPreset::AstmD1557Mold6in,
+        ] {
+            let e = p.effort();
+            assert!(
+                within_pct(e.energy_kj_m3(), 2700.0, 3.0),
+                "{} (ASTM D1557): {}",
+                p.code(),
+                e.energy_kj_m3()
+            );
+            assert!(
+                within_pct(e.energy_ft_lbf_ft3(), 56_000.0, 3.0),
+                "{} (ASTM D1557): {}",
+                p.code(),
+                e.energy_ft_lbf_ft3()
+            );
+        }
+        // The other families land on the same two figures (from memory: about 596 and 2,680 kJ/m³).
+        for p in EffortPreset::ALL {
+            let target = if p.is_heavy() { 2700.0 } else { 600.0 };
+            assert!(
+                within_pct(p.effort().energy_kj_m3(), target, 3.0),
+                "{}: {}",
+                p.code(),
+                p.effort().energy_kj_m3()
+            );
+        }
+        // Unit check: 1 ft·lbf/ft³ = 47.880 J/m³ (1.3558179 J over 0.0283168 m³).
+        assert!((J_M3_PER_FT_LBF_FT3 - 47.880_259).abs() < 1e-5);
+    }
+
+    #[test]
+    fn modified_effort_is_about_four_and_a_half_times_standard() {
+        // ASTM D1557 / D698: modified effort ≈ 4.5 × standard effort.
+        let pairs = [
+            (
+                EffortPreset::AstmD698Mold4in,
+                EffortPreset::AstmD1557Mold4in,
+            ),
+            (
+                EffortPreset::AstmD698Mold6in,
+                EffortPreset::AstmD1557Mold6in,
+            ),
+            (EffortPreset::AashtoT99, EffortPreset::AashtoT180),
+            (EffortPreset::Bs1377Light, EffortPreset::Bs1377Heavy),
+            (EffortPreset::Is2720Light, EffortPreset::Is2720Heavy),
+        ];
+        for (light, heavy) in pairs {
+            let ratio = heavy.effort().energy_kj_m3() / light.effort().energy_kj_m3();
+            assert!(
+                (ratio - 4.5).abs() < 0.15,
+                "{} / {} = {ratio}",
+                heavy.code(),
+                light.code()
+            );
+            assert!(heavy.is_heavy() && !light.is_heavy());
+        }
+    }
+
+    #[test]
+    fn preset_codes_are_unique_and_round_trip() {
+        let mut codes: Vec<&str> = EffortPreset::ALL.iter().map(|p| p.code()).collect();
+        for p in EffortPreset::ALL {
+            assert_eq!(EffortPreset::parse_code(p.code()), Some(p));
+            assert_eq!(
+                serde_json::to_string(&p).unwrap(),
+                format!("\"{}\"", p.code())
+            );
+            assert_eq!(p.effort().name, p.label());
+        }
+        codes.sort_unstable();
+        codes.dedup();
+        assert_eq!(codes.len(), 10);
+        assert_eq!(
+            EffortPreset::AstmD1557Mold4in.label(),
+            "ASTM D1557 modified, 4-in mold"
+        );
+        assert_eq!(EffortPreset::parse_code("proctor"), None);
+        assert_eq!(EffortPreset::ALL.iter().filter(|p| p.is_heavy()).count(), 5);
+    }
+
+    #[test]
+    fn custom_effort_is_checked_field_by_field() {
+        let e = Effort::custom("Site trial", 40, 4, 4.5, 0.45, 0.001).unwrap();
+        // E = 40 × 4 × 4.5 × 9.80665 × 0.45 / 0.001 / 1000 = 3177.35 kJ/m³ (the standards' definition).
+        assert!((e.energy_kj_m3() - 3177.3546).abs() < 1e-3);
+        let cases = [
+            (Effort::custom("", 25, 3, 2.5, 0.3, 0.001), "name"),
+            (
+                Effort::custom("x", 0, 3, 2.5, 0.3, 0.001),
+                "blows_per_layer",
+            ),
+            (Effort::custom("x", 25, 0, 2.5, 0.3, 0.001), "layers"),
+            (
+                Effort::custom("x", 25, 3, -2.5, 0.3, 0.001),
+                "rammer_mass_kg",
+            ),
+            (Effort::custom("x", 25, 3, 2.5, f64::NAN, 0.001), "drop_m"),
+            (Effort::custom("x", 25, 3, 2.5, 0.3, 0.0), "mold_volume_m3"),
+            (Effort::custom("x", 25, 3, 2.5, 0.3, 5.0), "mold_volume_m3"),
+        ];
+        for (result, field) in cases {
+            assert_eq!(result.unwrap_err().field(), field);
+        }
+    }
+
+    #[test]
+    fn specimen_reduces_to_wet_and_dry_density() {
+        // Worked by hand from ρ = (m₂ − m₁)/V and ρd = ρ/(1 + w): 1900 g / 944 cm³ = 2012.71 kg/m³; / 1.12 = 1797.06.
+        let w = WaterContent::new(12.0).unwrap();
+        let s = reduce_specimen(6000.0, 4100.0, 944.0, w).unwrap();
+        assert!((s.wet_density.kg_m3() - 2012.71186).abs() < 1e-4);
+        assert!((s.dry_density.kg_m3() - 1797.06416).abs() < 1e-4);
+        let e = reduce_specimen(4000.0, 4100.0, 944.0, w).unwrap_err();
+        assert_eq!(e.field(), "mass_mold_and_soil_g");
+        assert!(
+            e.to_string()
+                .contains("not more than the mold alone 4100 g")
+        );
+        assert_eq!(
+            reduce_specimen(6000.0, 4100.0, 0.0, w).unwrap_err().field(),
+            "mold_volume_cm3"
+        );
+        assert_eq!(
+            reduce_specimen(9000.0, 4100.0, 944.0, w)
+                .unwrap_err()
+                .field(),
+            "mass_mold_and_soil_g"
+        );
+    }
+
+    #[test]
+    fn heavier_effort_raises_mdd_and_lowers_omc() {
+        // Common practice: more effort packs denser at less water. Two invented datasets of one soil.
+        let pts = |v: &[(f64, f64)]| -> Vec<CurvePoint> {
+            v.iter()
+                .map(|&(w, d)| CurvePoint {
+                    water_content_pct: w,
+                    dry_density_kg_m3: d,
+                })
+                .collect()
+        };
+        let gs = Some(SpecificGravity::new(2.70).unwrap());
+        let standard = pts(&[
+            (10.0, 1720.0),
+            (12.0, 1765.0),
+            (14.0, 1790.0),
+            (16.0, 1772.0),
+            (18.0, 1730.0),
+        ]);
+        let modified = pts(&[
+            (7.0, 1880.0),
+            (9.0, 1935.0),
+            (11.0, 1958.0),
+            (13.0, 1942.0),
+            (15.0, 1890.0),
+        ]);
+        let s = fit_curve(&standard, gs).unwrap();
+        let m = fit_curve(&modified, gs).unwrap();
+        assert!(
+            m.max_dry_density > s.max_dry_density,
+            "{:?} vs {:?}",
+            m.max_dry_density,
+            s.max_dry_density
+        );
+        assert!(m.optimum_water_content < s.optimum_water_content);
+        assert!(
+            s.warnings.is_empty() && m.warnings.is_empty(),
+            "{:?} {:?}",
+            s.warnings,
+            m.warnings
+        );
+    }
 }

@@ -10,6 +10,7 @@ pub mod field;
 pub mod frequency;
 pub mod lab;
 pub mod oversize;
+pub mod pwl;
 pub mod quantities;
 pub mod verdict;
 pub mod voids;

@@ -51,21 +51,26 @@ pub(crate) fn num(v: f64) -> String {
 fn bounded(
     quantity: &'static str,
     value: f64,
-    min: f64,
-    max: f64,
+    (min, max): (f64, f64),
     unit: &str,
+    bound_decimals: usize,
 ) -> Result<f64, QuantityError> {
-    let sep = if unit.is_empty() || unit == "%" {
-        ""
-    } else {
-        " "
+    let sep = if unit.is_empty() { "" } else { " " };
+    let bound = |b: f64| {
+        if bound_decimals == 0 {
+            num(b)
+        } else {
+            format!("{b:.bound_decimals$}")
+        }
     };
     if !value.is_finite() {
         return Err(QuantityError {
             quantity,
             value,
             reason: format!(
-                "must be a finite number (got {value}); allowed {min}–{max}{sep}{unit}"
+                "must be a finite number (got {value}); allowed {}–{}{sep}{unit}",
+                bound(min),
+                bound(max)
             ),
         });
     }
@@ -76,8 +81,8 @@ fn bounded(
             reason: format!(
                 "{}{sep}{unit} is outside {}–{}{sep}{unit}",
                 num(value),
-                num(min),
-                num(max)
+                bound(min),
+                bound(max)
             ),
         });
     }
@@ -115,9 +120,9 @@ impl Density {
         bounded(
             quantity,
             kg_m3,
-            DENSITY_MIN_KG_M3,
-            DENSITY_MAX_KG_M3,
+            (DENSITY_MIN_KG_M3, DENSITY_MAX_KG_M3),
             "kg/m³",
+            0,
         )
         .map(Self)
     }
@@ -167,7 +172,7 @@ impl WaterContent {
     }
     /// Builds a water content whose error names the given quantity.
     pub fn named(quantity: &'static str, pct: f64) -> Result<Self, QuantityError> {
-        bounded(quantity, pct, 0.0, 100.0, "%").map(Self)
+        bounded(quantity, pct, (0.0, 100.0), "%", 0).map(Self)
     }
     /// The water content in percent.
     pub fn pct(self) -> f64 {
@@ -192,7 +197,14 @@ impl SpecificGravity {
     }
     /// Builds a specific gravity whose error names the given quantity.
     pub fn named(quantity: &'static str, v: f64) -> Result<Self, QuantityError> {
-        bounded(quantity, v, SPECIFIC_GRAVITY_MIN, SPECIFIC_GRAVITY_MAX, "").map(Self)
+        bounded(
+            quantity,
+            v,
+            (SPECIFIC_GRAVITY_MIN, SPECIFIC_GRAVITY_MAX),
+            "",
+            1,
+        )
+        .map(Self)
     }
     /// The dimensionless value.
     pub fn value(self) -> f64 {
@@ -254,7 +266,7 @@ fn unsigned_decimal(s: &str) -> Option<f64> {
 impl Chainage {
     /// Builds a chainage from metres, refusing NaN, infinities, negatives and more than 10,000 km.
     pub fn new(m: f64) -> Result<Self, QuantityError> {
-        bounded("chainage", m, 0.0, CHAINAGE_MAX_M, "m").map(Self)
+        bounded("chainage", m, (0.0, CHAINAGE_MAX_M), "m", 0).map(Self)
     }
     /// The chainage in metres.
     pub fn metres(self) -> f64 {
@@ -366,7 +378,7 @@ pub struct Offset(f64);
 impl Offset {
     /// Builds an offset from metres, refusing NaN, infinities and more than 1000 m either side.
     pub fn new(m: f64) -> Result<Self, QuantityError> {
-        bounded("offset", m, -OFFSET_MAX_M, OFFSET_MAX_M, "m").map(Self)
+        bounded("offset", m, (-OFFSET_MAX_M, OFFSET_MAX_M), "m", 0).map(Self)
     }
     /// The offset in metres (negative = left).
     pub fn metres(self) -> f64 {
@@ -387,7 +399,7 @@ impl Percent {
     }
     /// Builds a percentage whose error names the given quantity.
     pub fn named(quantity: &'static str, v: f64) -> Result<Self, QuantityError> {
-        bounded(quantity, v, 0.0, 100.0, "%").map(Self)
+        bounded(quantity, v, (0.0, 100.0), "%", 0).map(Self)
     }
     /// The value in percent.
     pub fn value(self) -> f64 {
@@ -427,6 +439,282 @@ impl UnitSystem {
         match self {
             Self::Si => ChainageStyle::KmMetre,
             Self::Us => ChainageStyle::FeetStation,
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use proptest::prelude::*;
+
+    fn close(a: f64, b: f64, tol: f64) -> bool {
+        (a - b).abs() <= tol
+    }
+
+    #[test]
+    fn density_converts_between_units() {
+        let d = Density::new(2000.0).unwrap();
+        assert_eq!(d.kg_m3(), 2000.0);
+        // 1 Mg/m³ = 1000 kg/m³ (SI definition).
+        assert!(close(d.mg_m3(), 2.0, 1e-12));
+        // γ = ρ g / 1000 with g = 9.80665 m/s² (CGPM conventional gravity): 19.6133 kN/m³.
+        assert!(close(d.kn_m3(), 19.6133, 1e-9));
+        // 1 lb/ft³ = 16.018463 kg/m³ (international pound and foot): 2000 / 16.018463 = 124.8559.
+        assert!(close(d.lb_ft3(), 124.8559, 1e-4));
+        // 120 lb/ft³ × 16.018463 = 1922.2156 kg/m³ (same definition).
+        assert!(close(
+            Density::from_lb_ft3(120.0).unwrap().kg_m3(),
+            1922.2156,
+            1e-4
+        ));
+        assert!(close(
+            Density::from_mg_m3(1.85).unwrap().kg_m3(),
+            1850.0,
+            1e-9
+        ));
+    }
+
+    #[test]
+    fn density_refuses_nonsense_naming_quantity_and_bound() {
+        let e = Density::new(4200.0).unwrap_err();
+        assert_eq!(e.quantity, "density");
+        assert_eq!(e.value, 4200.0);
+        assert_eq!(
+            e.to_string(),
+            "density 4200 kg/m³ is outside 500–3000 kg/m³"
+        );
+        let e = Density::named("dry density", 4200.0).unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            "dry density 4200 kg/m³ is outside 500–3000 kg/m³"
+        );
+        for bad in [
+            f64::NAN,
+            f64::INFINITY,
+            f64::NEG_INFINITY,
+            -1.0,
+            0.0,
+            499.9,
+            3000.1,
+        ] {
+            let e = Density::new(bad).unwrap_err();
+            assert_eq!(e.quantity, "density", "value {bad}");
+            assert!(e.to_string().contains("500–3000 kg/m³"), "value {bad}: {e}");
+        }
+        assert!(Density::from_lb_ft3(f64::NAN).is_err());
+        assert!(Density::new(500.0).is_ok() && Density::new(3000.0).is_ok());
+    }
+
+    #[test]
+    fn water_content_and_gravity_refuse_with_bounds() {
+        let e = WaterContent::new(101.0).unwrap_err();
+        assert_eq!(e.quantity, "water content");
+        assert_eq!(e.to_string(), "water content 101 % is outside 0–100 %");
+        assert!(WaterContent::new(-0.1).is_err());
+        assert!(
+            WaterContent::new(f64::NAN)
+                .unwrap_err()
+                .to_string()
+                .contains("0–100 %")
+        );
+        let w = WaterContent::new(12.5).unwrap();
+        assert!(close(w.fraction(), 0.125, 1e-15));
+        let e = SpecificGravity::new(3.5).unwrap_err();
+        assert_eq!(e.quantity, "specific gravity");
+        assert_eq!(e.to_string(), "specific gravity 3.5 is outside 2.0–3.2");
+        assert!(SpecificGravity::new(1.99).is_err());
+        assert_eq!(SpecificGravity::new(2.65).unwrap().value(), 2.65);
+    }
+
+    #[test]
+    fn offset_percent_and_chainage_bounds() {
+        assert_eq!(Offset::new(-12.5).unwrap().metres(), -12.5);
+        let e = Offset::new(1000.5).unwrap_err();
+        assert_eq!(e.quantity, "offset");
+        assert!(e.to_string().contains("−1000") || e.to_string().contains("-1000"));
+        assert!(
+            Percent::new(100.1)
+                .unwrap_err()
+                .to_string()
+                .contains("0–100 %")
+        );
+        assert_eq!(Percent::new(40.0).unwrap().value(), 40.0);
+        let e = Chainage::new(-1.0).unwrap_err();
+        assert_eq!(e.quantity, "chainage");
+        assert!(e.to_string().contains("is outside 0–10000000 m"), "{e}");
+        assert!(Chainage::new(f64::INFINITY).is_err());
+    }
+
+    #[test]
+    fn chainage_reads_and_writes_km_metre() {
+        let c = Chainage::parse("12+345.600", ChainageStyle::KmMetre).unwrap();
+        assert!(close(c.metres(), 12_345.6, 1e-9));
+        assert_eq!(c.format(ChainageStyle::KmMetre), "12+345.600");
+        assert_eq!(
+            Chainage::new(0.0).unwrap().format(ChainageStyle::KmMetre),
+            "0+000.000"
+        );
+        assert_eq!(
+            Chainage::new(5.0).unwrap().format(ChainageStyle::KmMetre),
+            "0+005.000"
+        );
+        // Rounding to the millimetre carries into the next kilometre.
+        assert_eq!(
+            Chainage::new(1999.9996)
+                .unwrap()
+                .format(ChainageStyle::KmMetre),
+            "2+000.000"
+        );
+        // Plain metres are read too, with or without a unit.
+        assert!(close(
+            Chainage::parse("12345.6", ChainageStyle::KmMetre)
+                .unwrap()
+                .metres(),
+            12_345.6,
+            1e-9
+        ));
+        assert!(close(
+            Chainage::parse(" 12345.6 m ", ChainageStyle::FeetStation)
+                .unwrap()
+                .metres(),
+            12_345.6,
+            1e-9
+        ));
+        assert!(close(
+            Chainage::parse("0+000", ChainageStyle::KmMetre)
+                .unwrap()
+                .metres(),
+            0.0,
+            0.0
+        ));
+    }
+
+    #[test]
+    fn chainage_reads_and_writes_feet_stations() {
+        // 123+45.67 = 12,345.67 ft × 0.3048 m/ft (international foot) = 3762.9602 m.
+        let c = Chainage::parse("123+45.67", ChainageStyle::FeetStation).unwrap();
+        assert!(close(c.metres(), 3762.960216, 1e-6));
+        assert_eq!(c.format(ChainageStyle::FeetStation), "123+45.67");
+        assert!(close(c.feet(), 12_345.67, 1e-9));
+        // A plain number in station style is feet; "ft" says so explicitly.
+        assert!(close(
+            Chainage::parse("12345.67", ChainageStyle::FeetStation)
+                .unwrap()
+                .metres(),
+            3762.960216,
+            1e-6
+        ));
+        assert!(close(
+            Chainage::parse("100 ft", ChainageStyle::KmMetre)
+                .unwrap()
+                .metres(),
+            30.48,
+            1e-9
+        ));
+        assert_eq!(
+            Chainage::new(30.48)
+                .unwrap()
+                .format(ChainageStyle::FeetStation),
+            "1+00.00"
+        );
+    }
+
+    #[test]
+    fn chainage_refuses_garbage_with_a_reason() {
+        let cases = [
+            ("", ChainageStyle::KmMetre, "is empty"),
+            ("abc", ChainageStyle::KmMetre, "is not readable"),
+            (
+                "12+34",
+                ChainageStyle::KmMetre,
+                "expected 3 digits of metres",
+            ),
+            ("12+3x5.600", ChainageStyle::KmMetre, "expected 3 digits"),
+            ("12+345.6.7", ChainageStyle::KmMetre, "expected 3 digits"),
+            ("+345.600", ChainageStyle::KmMetre, "before \"+\""),
+            ("1a+345.600", ChainageStyle::KmMetre, "before \"+\""),
+            ("12+-45.600", ChainageStyle::KmMetre, "expected 3 digits"),
+            (
+                "123+456.7",
+                ChainageStyle::FeetStation,
+                "expected 2 digits of feet",
+            ),
+            ("-5", ChainageStyle::KmMetre, "is not readable"),
+            ("1e5", ChainageStyle::KmMetre, "is not readable"),
+            ("nan", ChainageStyle::KmMetre, "is not readable"),
+            ("inf", ChainageStyle::KmMetre, "is not readable"),
+            ("99999999", ChainageStyle::KmMetre, "is outside"),
+        ];
+        for (text, style, expected) in cases {
+            let e = Chainage::parse(text, style).unwrap_err();
+            assert_eq!(e.quantity, "chainage", "{text}");
+            assert!(e.to_string().contains(expected), "{text}: {e}");
+        }
+    }
+
+    #[test]
+    fn codes_round_trip_and_serde_is_plain() {
+        for s in [ChainageStyle::KmMetre, ChainageStyle::FeetStation] {
+            assert_eq!(ChainageStyle::parse_code(s.code()), Some(s));
+            assert_eq!(
+                serde_json::to_string(&s).unwrap(),
+                format!("\"{}\"", s.code())
+            );
+        }
+        for u in [UnitSystem::Si, UnitSystem::Us] {
+            assert_eq!(UnitSystem::parse_code(u.code()), Some(u));
+            assert_eq!(
+                serde_json::to_string(&u).unwrap(),
+                format!("\"{}\"", u.code())
+            );
+        }
+        assert_eq!(UnitSystem::Us.chainage_style(), ChainageStyle::FeetStation);
+        assert_eq!(ChainageStyle::parse_code("miles"), None);
+        let d = Density::new(1850.5).unwrap();
+        assert_eq!(serde_json::to_string(&d).unwrap(), "1850.5");
+        assert_eq!(serde_json::from_str::<Density>("1850.5").unwrap(), d);
+        assert!(serde_json::from_str::<Density>("4200").is_err());
+        assert!(serde_json::from_str::<WaterContent>("-3").is_err());
+    }
+
+    proptest! {
+        #[test]
+        fn km_metre_format_parse_round_trips(m in 0.0f64..5_000_000.0) {
+            let c = Chainage::new(m).unwrap();
+            let text = c.format(ChainageStyle::KmMetre);
+            let back = Chainage::parse(&text, ChainageStyle::KmMetre).unwrap();
+            prop_assert!((back.metres() - m).abs() <= 0.000_500_1, "{m} -> {text}");
+            prop_assert_eq!(back.format(ChainageStyle::KmMetre), text);
+        }
+
+        #[test]
+        fn feet_station_format_parse_round_trips(m in 0.0f64..1_500_000.0) {
+            let c = Chainage::new(m).unwrap();
+            let text = c.format(ChainageStyle::FeetStation);
+            let back = Chainage::parse(&text, ChainageStyle::FeetStation).unwrap();
+            prop_assert!((back.metres() - m).abs() <= 0.005 * METRES_PER_FOOT + 1e-9, "{m} -> {text}");
+            prop_assert_eq!(back.format(ChainageStyle::FeetStation), text);
+        }
+
+        #[test]
+        fn density_never_holds_out_of_bounds(v in proptest::num::f64::ANY) {
+            match Density::new(v) {
+                Ok(d) => prop_assert!((500.0..=3000.0).contains(&d.kg_m3())),
+                Err(e) => prop_assert_eq!(e.quantity, "density"),
+            }
+        }
+    }
+
+    proptest! {
+        #[test]
+        fn chainage_parse_never_panics(text in "\\PC{0,16}", plus in "[0-9]{0,4}\\+[0-9.]{0,7}") {
+            for style in [ChainageStyle::KmMetre, ChainageStyle::FeetStation] {
+                if let Ok(c) = Chainage::parse(&text, style) {
+                    prop_assert!(c.metres().is_finite() && c.metres() >= 0.0);
+                }
+                let _ = Chainage::parse(&plus, style);
+            }
         }
     }
 }

@@ -160,3 +160,102 @@ pub fn reference_for_coarse_fraction(
         optimum_water_content: corrected.water_content,
     })
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use proptest::prelude::*;
+
+    fn d(v: f64) -> Density {
+        Density::new(v).unwrap()
+    }
+    fn w(v: f64) -> WaterContent {
+        WaterContent::new(v).unwrap()
+    }
+    fn reference() -> Reference {
+        Reference {
+            max_dry_density: d(1900.0),
+            optimum_water_content: w(12.0),
+        }
+    }
+    const LIMITS: SpecLimits = SpecLimits {
+        rc_min_pct: 95.0,
+        moisture_below_pct: 2.0,
+        moisture_above_pct: 2.0,
+    };
+
+    #[test]
+    fn relative_compaction_and_moisture_deviation() {
+        // RC = ρd / MDD × 100 (definition): 1805 / 1900 = 95.0 %.
+        assert!((relative_compaction_pct(d(1805.0), d(1900.0)) - 95.0).abs() < 1e-12);
+        assert!((moisture_deviation_pct(w(10.5), w(12.0)) + 1.5).abs() < 1e-12);
+    }
+
+    #[test]
+    fn judge_passes_on_the_boundary_and_fails_just_below() {
+        let v = judge_test(d(1805.0), w(10.0), &reference(), &LIMITS);
+        assert!(v.passed && v.density_ok && v.moisture_ok, "{v:?}");
+        assert_eq!(
+            v.reasons[0],
+            "relative compaction 95.0 % meets the 95.0 % minimum"
+        );
+        assert_eq!(
+            v.reasons[1],
+            "water content 10.0 % is 2.0 points dry of optimum (12.0 %), inside the window of −2.0 to +2.0 points of optimum"
+        );
+        let v = judge_test(d(1804.0), w(12.0), &reference(), &LIMITS);
+        assert!(!v.passed && !v.density_ok && v.moisture_ok);
+        assert_eq!(
+            v.reasons[0],
+            "relative compaction 94.9 % is below the 95.0 % minimum"
+        );
+        assert!(v.reasons[1].contains("at optimum"));
+        let v = judge_test(d(1850.0), w(14.2), &reference(), &LIMITS);
+        assert!(!v.passed && v.density_ok && !v.moisture_ok);
+        assert!(
+            v.reasons[1].contains("2.2 points wet of optimum (12.0 %), outside the window"),
+            "{}",
+            v.reasons[1]
+        );
+    }
+
+    #[test]
+    fn asymmetric_moisture_window() {
+        let limits = SpecLimits {
+            rc_min_pct: 90.0,
+            moisture_below_pct: 1.0,
+            moisture_above_pct: 3.0,
+        };
+        assert!(judge_test(d(1800.0), w(14.5), &reference(), &limits).moisture_ok);
+        assert!(!judge_test(d(1800.0), w(10.5), &reference(), &limits).moisture_ok);
+        assert_eq!(
+            limits.moisture_window_words(),
+            "−1.0 to +3.0 points of optimum"
+        );
+    }
+
+    #[test]
+    fn coarse_fraction_corrects_the_reference() {
+        // ASTM D4718 worked by hand: 1900 kg/m³ / 12 % with 20 % coarse of Gs 2.65 at 1 % → 2014.0 / 9.8 %.
+        let r = reference_for_coarse_fraction(&reference(), 20.0, 2.65, 1.0, 40.0).unwrap();
+        assert!((r.max_dry_density.kg_m3() - 2014.0).abs() < 1e-9);
+        assert!((r.optimum_water_content.pct() - 9.8).abs() < 1e-12);
+        // 1950 kg/m³ is 102.6 % of the fine MDD but only 96.8 % of the corrected one.
+        let v = judge_test(d(1950.0), w(10.0), &r, &LIMITS);
+        assert!((v.relative_compaction_pct - 96.822_244).abs() < 1e-5);
+        let e = reference_for_coarse_fraction(&reference(), 45.0, 2.65, 1.0, 40.0).unwrap_err();
+        assert_eq!(e.field(), "coarse_pct");
+    }
+
+    proptest! {
+        #[test]
+        fn rc_is_unchanged_when_both_densities_scale_alike(
+            field in 1000.0f64..2400.0, mdd in 1500.0f64..2400.0, k in 0.5f64..1.2,
+        ) {
+            prop_assume!((500.0..=3000.0).contains(&(field * k)) && (500.0..=3000.0).contains(&(mdd * k)));
+            let a = relative_compaction_pct(d(field), d(mdd));
+            let b = relative_compaction_pct(d(field * k), d(mdd * k));
+            prop_assert!((a - b).abs() < 1e-9 * a.max(1.0));
+        }
+    }
+}

@@ -137,11 +137,7 @@ pub(crate) fn within(
 ) -> Result<f64, ReductionError> {
     finite(field, what, value)?;
     if value < min || value > max {
-        let sep = if unit.is_empty() || unit == "%" {
-            ""
-        } else {
-            " "
-        };
+        let sep = if unit.is_empty() { "" } else { " " };
         return Err(ReductionError::OutOfRange {
             field,
             reason: format!(
@@ -198,4 +194,69 @@ pub fn oven_water_content(
     }
     let w = (mass_wet_g - mass_dry_g) / (mass_dry_g - mass_tare_g) * 100.0;
     WaterContent::new(w).map_err(|e| ReductionError::quantity("mass_wet_g", e))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn oven_water_content_from_masses() {
+        // ASTM D2216 formula, worked by hand: (250 − 220) / (220 − 50) × 100 = 17.647 %.
+        let w = oven_water_content(250.0, 220.0, 50.0).unwrap();
+        assert!((w.pct() - 17.647_058_8).abs() < 1e-6);
+        // Oven-dry soil with no water: 0 % (same formula).
+        assert_eq!(oven_water_content(120.0, 120.0, 20.0).unwrap().pct(), 0.0);
+        // Zero tare is allowed (same formula): (115 − 100) / 100 × 100 = 15 %.
+        assert!((oven_water_content(115.0, 100.0, 0.0).unwrap().pct() - 15.0).abs() < 1e-12);
+    }
+
+    #[test]
+    fn oven_water_content_errors_name_their_field() {
+        let cases = [
+            (
+                (f64::NAN, 220.0, 50.0),
+                "mass_wet_g",
+                "wet mass must be a finite number",
+            ),
+            (
+                (250.0, f64::INFINITY, 50.0),
+                "mass_dry_g",
+                "dry mass must be a finite number",
+            ),
+            (
+                (250.0, 220.0, -1.0),
+                "mass_tare_g",
+                "tare mass -1 g must not be negative",
+            ),
+            (
+                (250.0, 40.0, 50.0),
+                "mass_dry_g",
+                "dry mass 40 g is not more than tare 50 g",
+            ),
+            (
+                (200.0, 220.0, 50.0),
+                "mass_wet_g",
+                "wet mass 200 g is less than dry mass 220 g",
+            ),
+            (
+                (500.0, 100.0, 50.0),
+                "mass_wet_g",
+                "water content 800 % is outside 0–100 %",
+            ),
+        ];
+        for ((wet, dry, tare), field, message) in cases {
+            let e = oven_water_content(wet, dry, tare).unwrap_err();
+            assert_eq!(e.field(), field, "{wet} {dry} {tare}");
+            assert!(e.to_string().contains(message), "{e}");
+        }
+    }
+
+    #[test]
+    fn error_codes_are_stable() {
+        let e = oven_water_content(250.0, 40.0, 50.0).unwrap_err();
+        assert_eq!(e.code(), "inconsistent");
+        let e = oven_water_content(f64::NAN, 40.0, 50.0).unwrap_err();
+        assert_eq!(e.code(), "not_finite");
+    }
 }

@@ -1,0 +1,624 @@
+//! The compaction curve sheet: lab points, fitted curve, optimum, zero-air-voids and saturation lines,
+//! and field tests plotted against the curve.
+
+use super::Series;
+use super::axis::{self, LinearScale};
+use super::frame::{self, AxisFonts, Plot, TextStyle};
+use super::legend::{self, LegendItem, Swatch};
+use super::marks::{self, Paint, Shape};
+use super::palette;
+use super::placement::{self, Obstacles, Spot};
+use super::svg::{self, SvgWriter, fit_text, text_width};
+
+/// Compaction curve sheet: lab points, fitted curve, MDD/OMC marker, ZAV and saturation lines, field tests.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct CurveChartInput {
+    /// Heading drawn above the plot and used as the accessible name.
+    pub title: String,
+    /// X axis title with its unit in parentheses, e.g. "Water content (%)".
+    pub x_label: String,
+    /// Y axis title with its unit in parentheses, e.g. "Dry density (kg/m³)".
+    pub y_label: String,
+    /// Lab specimens as (water content, dry density).
+    pub lab_points: Vec<(f64, f64)>,
+    /// The fitted curve, sampled densely enough to look smooth.
+    pub fitted: Vec<(f64, f64)>,
+    /// (OMC, MDD) of the fitted curve.
+    pub optimum: (f64, f64),
+    /// The zero-air-voids line for the stated Gs.
+    pub zero_air_voids: Vec<(f64, f64)>,
+    /// Lines of constant saturation, each labelled, e.g. "S = 80 %".
+    pub saturation_lines: Vec<Series>,
+    /// Field tests judged against this curve.
+    pub field_points: Vec<FieldMark>,
+    /// Annotation at the optimum, e.g. "MDD 1 985 kg/m³ at OMC 11.2 %"; when empty it is built from
+    /// `optimum` and the units in the axis titles.
+    pub optimum_label: String,
+}
+
+/// A field test drawn on the curve sheet.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct FieldMark {
+    /// Test number as shown to people.
+    pub label: String,
+    /// Water content.
+    pub x: f64,
+    /// Dry density.
+    pub y: f64,
+    /// Whether the test met the clause.
+    pub passed: bool,
+}
+
+const WIDTH: f64 = 460.0;
+const PLOT_HEIGHT: f64 = 250.0;
+const FONT_TITLE: f64 = 16.0;
+const FONT_TICK: f64 = 13.0;
+const FONT_AXIS: f64 = 13.0;
+const FONT_NOTE: f64 = 12.5;
+const FONT_LINE_LABEL: f64 = 11.5;
+const FONT_FIELD_LABEL: f64 = 10.5;
+const ZAV_LABEL: &str = "zero air voids";
+/// Up to this many field tests their numbers are written beside the markers.
+const MAX_FIELD_LABELS: usize = 10;
+
+/// Draws the compaction curve sheet.
+pub fn curve_chart(input: &CurveChartInput) -> String {
+    let lab = finite_points(&input.lab_points);
+    let fitted = sorted_by_x(finite_points(&input.fitted));
+    let zav = sorted_by_x(finite_points(&input.zero_air_voids));
+    let field: Vec<&FieldMark> = input
+        .field_points
+        .iter()
+        .filter(|f| f.x.is_finite() && f.y.is_finite())
+        .collect();
+    let optimum = Some(input.optimum).filter(|(x, y)| x.is_finite() && y.is_finite());
+
+    let mut fit_points: Vec<(f64, f64)> = lab.clone();
+    fit_points.extend(field.iter().map(|f| (f.x, f.y)));
+    fit_points.extend(optimum);
+    if fit_points.is_empty() {
+        fit_points = fitted.clone();
+    }
+    let (x_min, x_max, y_min, y_max) = bounds(&fit_points).unwrap_or((0.0, 25.0, 1600.0, 2200.0));
+    let (x_lo, x_hi) = axis::padded(x_min, x_max, 0.06, 2.0);
+    let (x_lo, x_hi, x_step) = axis::nice_extent(x_lo, x_hi, 6);
+    let y_min_span = ((y_min + y_max).abs() / 2.0 * 0.03).max(1e-6);
+    let (y_lo, y_hi) = axis::padded(y_min, y_max, 0.08, y_min_span);
+    let (y_lo, mut y_hi, y_step) = axis::nice_extent(y_lo, y_hi, 5);
+
+    let top = if input.title.trim().is_empty() { 14.0 } else { 40.0 };
+    let plot = Plot {
+        left: 68.0,
+        top,
+        right: WIDTH - 16.0,
+        bottom: top + PLOT_HEIGHT,
+    };
+    let x_scale = LinearScale::new((x_lo, x_hi), (plot.left, plot.right));
+    let mut y_scale = LinearScale::new((y_lo, y_hi), (plot.bottom, plot.top));
+    if let Some((_, mdd)) = optimum {
+        // Leave room above the optimum for its annotation.
+        for _ in 0..4 {
+            if y_scale.map(mdd) - plot.top >= 38.0 {
+                break;
+            }
+            y_hi += y_step;
+            y_scale = LinearScale::new((y_lo, y_hi), (plot.bottom, plot.top));
+        }
+    }
+    let x_ticks = axis::ticks_with_step(x_lo, x_hi, x_step);
+    let y_ticks = axis::ticks_with_step(y_lo, y_hi, y_step);
+
+    let x_unit = non_empty_or(axis::unit_of(&input.x_label), "%");
+    let y_unit = axis::unit_of(&input.y_label);
+    let y_decimals = density_decimals(y_max.max(y_min.abs()));
+    let fonts = AxisFonts {
+        tick: FONT_TICK,
+        title: FONT_AXIS,
+    };
+    let shown = Shown {
+        lab: !lab.is_empty(),
+        fitted: fitted.len() >= 2,
+        optimum: optimum.is_some(),
+        zav: zav.len() >= 2,
+        field_pass: field.iter().any(|f| f.passed),
+        field_fail: field.iter().any(|f| !f.passed),
+    };
+    let legend_items = legend_items(shown);
+    let legend_top = plot.bottom + frame::x_axis_depth(fonts, true) + 4.0;
+    let legend_rows = legend::layout(&legend_items, WIDTH - 24.0, FONT_NOTE).rows;
+    let height = legend_top + legend_rows as f64 * legend::row_height(FONT_NOTE) + 8.0;
+
+    let title = if input.title.trim().is_empty() {
+        "Compaction curve"
+    } else {
+        input.title.as_str()
+    };
+    let optimum_text = optimum.map(|(omc, mdd)| {
+        if input.optimum_label.trim().is_empty() {
+            format!(
+                "MDD {}{} at OMC {}{}",
+                axis::format_number(mdd, y_decimals),
+                spaced_unit(y_unit),
+                axis::format_number(omc, 1),
+                spaced_unit(x_unit)
+            )
+        } else {
+            input.optimum_label.clone()
+        }
+    });
+    let desc = describe(lab.len(), optimum_text.as_deref(), &field);
+
+    let seed = format!("{title}|{}|{}|{}", lab.len(), field.len(), fitted.len());
+    let ids = svg::id_prefix("c", &seed);
+    let clip_id = format!("{ids}-plot");
+
+    let mut w = SvgWriter::with_capacity(8192 + 64 * (fitted.len() + lab.len() + field.len()));
+    frame::open_root(&mut w, WIDTH, height, title, &desc, "ll-chart ll-curve-chart");
+    w.start("defs").open();
+    w.start("clipPath").attr("id", &clip_id).open();
+    w.start("rect")
+        .num("x", plot.left)
+        .num("y", plot.top)
+        .num("width", plot.width())
+        .num("height", plot.height())
+        .leaf();
+    w.close().close();
+    if !input.title.trim().is_empty() {
+        let heading = fit_text(&input.title, FONT_TITLE, WIDTH - 24.0);
+        frame::text(&mut w, 12.0, 24.0, &heading, TextStyle::new(FONT_TITLE).bold());
+    }
+    frame::y_grid(&mut w, &plot, &y_scale, &y_ticks);
+    frame::x_grid(&mut w, &plot, &x_scale, &x_ticks);
+
+    let to_px = |p: &(f64, f64)| (x_scale.map(p.0), y_scale.map(p.1));
+    let saturation_px: Vec<Vec<(f64, f64)>> = input
+        .saturation_lines
+        .iter()
+        .map(|series| sorted_by_x(finite_points(&series.points)).iter().map(to_px).collect())
+        .collect();
+    let zav_px: Vec<(f64, f64)> = zav.iter().map(to_px).collect();
+    let fitted_px: Vec<(f64, f64)> = fitted.iter().map(to_px).collect();
+    let lab_px: Vec<(f64, f64)> = lab.iter().map(to_px).collect();
+    let field_px: Vec<(f64, f64)> = field.iter().map(|f| to_px(&(f.x, f.y))).collect();
+    let optimum_px = optimum.map(|p| to_px(&p));
+
+    // Everything a label must keep clear of; line ids: saturation lines 0.., ZAV, fitted curve.
+    let zav_id = saturation_px.len();
+    let fitted_id = zav_id + 1;
+    let mut obstacles = Obstacles::default();
+    for p in &lab_px {
+        obstacles.add_point(*p, 5.0);
+    }
+    for p in &field_px {
+        obstacles.add_point(*p, 5.5);
+    }
+    if let Some(p) = optimum_px {
+        obstacles.add_point(p, 9.0);
+    }
+    for (i, pts) in saturation_px.iter().enumerate() {
+        obstacles.add_line(i, pts);
+    }
+    obstacles.add_line(zav_id, &zav_px);
+    obstacles.add_line(fitted_id, &fitted_px);
+    let field_label_spots: Vec<Spot> = if field.len() <= MAX_FIELD_LABELS {
+        field
+            .iter()
+            .zip(&field_px)
+            .filter(|(f, _)| !f.label.is_empty())
+            .map(|(f, p)| {
+                let text = fit_text(&f.label, FONT_FIELD_LABEL, 60.0);
+                let width = text_width(&text, FONT_FIELD_LABEL);
+                let spot = placement::horizontal(p.0 + 7.0, p.1 + 3.8, width, FONT_FIELD_LABEL, "start");
+                obstacles.add_box(spot.area);
+                spot
+            })
+            .collect()
+    } else {
+        Vec::new()
+    };
+    let annotation = match (optimum_px, optimum_text.as_deref()) {
+        (Some(p), Some(text)) => place_annotation(&plot, p, text, &mut obstacles),
+        _ => None,
+    };
+    let mut line_labels: Vec<(Spot, String)> = Vec::new();
+    for (i, pts) in saturation_px.iter().enumerate() {
+        let label = input.saturation_lines[i].label.trim();
+        if let Some(spot) = place_line_label(&plot, pts, i, label, &mut obstacles) {
+            line_labels.push((spot, label.to_string()));
+        }
+    }
+    if let Some(spot) = place_line_label(&plot, &zav_px, zav_id, ZAV_LABEL, &mut obstacles) {
+        line_labels.push((spot, ZAV_LABEL.to_string()));
+    }
+
+    w.start("g")
+        .attr("class", "ll-lines")
+        .attr("clip-path", &format!("url(#{clip_id})"))
+        .attr("fill", "none")
+        .open();
+    for (i, pts) in saturation_px.iter().enumerate() {
+        let dash = palette::SATURATION_DASHES[i % palette::SATURATION_DASHES.len()];
+        line(&mut w, pts, palette::REFERENCE, 1.1, Some(dash), "ll-saturation");
+    }
+    line(&mut w, &zav_px, palette::INK, 1.5, Some(palette::ZAV_DASH), "ll-zav");
+    line(&mut w, &fitted_px, palette::BLUE, 2.2, None, "ll-fitted");
+    w.close();
+
+    if let Some(p) = optimum_px {
+        draw_crosshair(&mut w, &plot, p);
+    }
+    w.start("g").attr("class", "ll-line-labels").open();
+    for (spot, label) in &line_labels {
+        spot_text(&mut w, spot, label, FONT_LINE_LABEL, false);
+    }
+    w.close();
+    if let (Some(spot), Some(text)) = (annotation, optimum_text.as_deref()) {
+        w.start("g").attr("class", "ll-optimum-label").open();
+        spot_text(&mut w, &spot, &fit_text(text, FONT_NOTE, plot.width() - 8.0), FONT_NOTE, true);
+        w.close();
+    }
+
+    // Markers last, so nothing is ever drawn over data.
+    w.start("g").attr("class", "ll-lab-points").open();
+    for ((x, y), p) in lab.iter().zip(&lab_px) {
+        w.start("g").attr("class", "ll-lab").open();
+        w.simple(
+            "title",
+            &format!(
+                "Lab specimen: water content {}{}, dry density {}{}",
+                axis::format_number(*x, 1),
+                spaced_unit(x_unit),
+                axis::format_number(*y, y_decimals),
+                spaced_unit(y_unit)
+            ),
+        );
+        let paint = Paint {
+            fill: palette::PAPER,
+            stroke: palette::INK,
+            stroke_width: 1.6,
+        };
+        marks::draw(&mut w, Shape::Circle, p.0, p.1, 4.2, paint);
+        w.close();
+    }
+    w.close();
+
+    w.start("g").attr("class", "ll-field-points").open();
+    for (mark, p) in field.iter().zip(&field_px) {
+        let (shape, paint, verdict, class) = field_style(mark.passed);
+        w.start("g").attr("class", class).open();
+        w.simple(
+            "title",
+            &format!(
+                "{}: water content {}{}, dry density {}{}, {verdict}",
+                mark.label,
+                axis::format_number(mark.x, 1),
+                spaced_unit(x_unit),
+                axis::format_number(mark.y, y_decimals),
+                spaced_unit(y_unit)
+            ),
+        );
+        marks::draw(&mut w, shape, p.0, p.1, 4.6, paint);
+        w.close();
+    }
+    w.close();
+    if !field_label_spots.is_empty() {
+        w.start("g").attr("class", "ll-field-labels").open();
+        let named = field.iter().filter(|f| !f.label.is_empty());
+        for (spot, mark) in field_label_spots.iter().zip(named) {
+            let text = fit_text(&mark.label, FONT_FIELD_LABEL, 60.0);
+            frame::text(
+                &mut w,
+                spot.x,
+                spot.y,
+                &text,
+                TextStyle::new(FONT_FIELD_LABEL).fill(palette::MUTED).halo(),
+            );
+        }
+        w.close();
+    }
+
+    frame::y_axis(&mut w, &plot, &y_scale, &y_ticks, &input.y_label, fonts, &|v| {
+        axis::format_tick(v, y_step)
+    });
+    frame::x_axis(&mut w, &plot, &x_scale, &x_ticks, &input.x_label, fonts, WIDTH, &|v| {
+        axis::format_tick(v, x_step)
+    });
+    if lab.is_empty() && field.is_empty() {
+        frame::empty_note(&mut w, &plot, "no lab points yet", 15.0);
+    }
+    legend::draw(&mut w, &legend_items, 12.0, legend_top, WIDTH - 24.0, FONT_NOTE);
+    w.finish()
+}
+
+fn field_style(passed: bool) -> (Shape, Paint<'static>, &'static str, &'static str) {
+    if passed {
+        (
+            Shape::Square,
+            Paint {
+                fill: palette::BLUISH_GREEN,
+                stroke: palette::INK,
+                stroke_width: 0.9,
+            },
+            "pass",
+            "ll-field ll-pass",
+        )
+    } else {
+        (
+            Shape::TriangleDown,
+            Paint {
+                fill: palette::VERMILLION,
+                stroke: palette::INK,
+                stroke_width: 0.9,
+            },
+            "fail",
+            "ll-field ll-fail",
+        )
+    }
+}
+
+/// Which kinds of things the chart draws, so the legend lists only those.
+#[derive(Clone, Copy)]
+struct Shown {
+    lab: bool,
+    fitted: bool,
+    optimum: bool,
+    zav: bool,
+    field_pass: bool,
+    field_fail: bool,
+}
+
+fn legend_items(shown: Shown) -> Vec<LegendItem> {
+    let mut items = Vec::new();
+    if shown.lab {
+        items.push(LegendItem {
+            swatch: Swatch::Mark {
+                shape: Shape::Circle,
+                fill: palette::PAPER,
+                stroke: palette::INK,
+                stroke_width: 1.6,
+            },
+            label: "lab specimen".to_string(),
+        });
+    }
+    if shown.fitted {
+        items.push(LegendItem {
+            swatch: Swatch::Line {
+                stroke: palette::BLUE,
+                dash: None,
+                width: 2.2,
+            },
+            label: "fitted curve".to_string(),
+        });
+    }
+    if shown.optimum {
+        items.push(LegendItem {
+            swatch: Swatch::Mark {
+                shape: Shape::Crosshair,
+                fill: "none",
+                stroke: palette::INK,
+                stroke_width: 1.3,
+            },
+            label: "optimum".to_string(),
+        });
+    }
+    if shown.zav {
+        items.push(LegendItem {
+            swatch: Swatch::Line {
+                stroke: palette::INK,
+                dash: Some(palette::ZAV_DASH),
+                width: 1.5,
+            },
+            label: "zero air voids".to_string(),
+        });
+    }
+    for (present, passed) in [(shown.field_pass, true), (shown.field_fail, false)] {
+        if !present {
+            continue;
+        }
+        let (shape, paint, verdict, _) = field_style(passed);
+        items.push(LegendItem {
+            swatch: Swatch::Mark {
+                shape,
+                fill: paint.fill,
+                stroke: paint.stroke,
+                stroke_width: paint.stroke_width,
+            },
+            label: format!("field test, {verdict}"),
+        });
+    }
+    items
+}
+
+fn describe(lab: usize, optimum: Option<&str>, field: &[&FieldMark]) -> String {
+    let mut text = format!("Compaction curve from {lab} lab specimen{}", if lab == 1 { "" } else { "s" });
+    if let Some(optimum) = optimum {
+        text.push_str(&format!(", {optimum}"));
+    }
+    let failing = field.iter().filter(|f| !f.passed).count();
+    text.push_str(&format!(
+        "; {} field test{}, {failing} failing.",
+        field.len(),
+        if field.len() == 1 { "" } else { "s" }
+    ));
+    text
+}
+
+/// Guide lines from the optimum to both axes and a crosshair on it.
+fn draw_crosshair(w: &mut SvgWriter, plot: &Plot, (x, y): (f64, f64)) {
+    w.start("g").attr("class", "ll-optimum").open();
+    let mut d = String::new();
+    d.push('M');
+    svg::push_num(&mut d, plot.left);
+    d.push(' ');
+    svg::push_num(&mut d, y);
+    d.push('H');
+    svg::push_num(&mut d, x);
+    d.push('V');
+    svg::push_num(&mut d, plot.bottom);
+    w.start("path")
+        .attr("d", &d)
+        .attr("fill", "none")
+        .attr("stroke", palette::MUTED)
+        .num("stroke-width", 1.0)
+        .attr("stroke-dasharray", palette::GUIDE_DASH)
+        .leaf();
+    let paint = Paint {
+        fill: "none",
+        stroke: palette::INK,
+        stroke_width: 1.4,
+    };
+    marks::draw(w, Shape::Crosshair, x, y, 5.5, paint);
+    w.close();
+}
+
+/// Picks where the optimum annotation covers least: above, higher above, right, left, below.
+fn place_annotation(plot: &Plot, (x, y): (f64, f64), label: &str, obstacles: &mut Obstacles) -> Option<Spot> {
+    let label = fit_text(label, FONT_NOTE, plot.width() - 8.0);
+    let width = text_width(&label, FONT_NOTE);
+    let inside = |left: f64| left.clamp(plot.left + 4.0, (plot.right - 4.0 - width).max(plot.left + 4.0));
+    let candidates: Vec<(Spot, Option<usize>)> = [
+        (x - width / 2.0, y - 16.0),
+        (x - width / 2.0, y - 30.0),
+        (x + 14.0, y + 4.5),
+        (x - 14.0 - width, y + 4.5),
+        (x + 12.0, y + 24.0),
+        (x - width / 2.0, y + 30.0),
+    ]
+    .iter()
+    .map(|(left, baseline)| {
+        (placement::horizontal(inside(*left), *baseline, width, FONT_NOTE, "start"), None)
+    })
+    .collect();
+    let spot = placement::best(&candidates, obstacles, plot)?;
+    obstacles.add_box(spot.area);
+    Some(spot)
+}
+
+/// Picks a spot near a line's visible end for its label: beside it, or along it.
+fn place_line_label(
+    plot: &Plot,
+    pts: &[(f64, f64)],
+    id: usize,
+    label: &str,
+    obstacles: &mut Obstacles,
+) -> Option<Spot> {
+    if label.is_empty() || pts.len() < 2 {
+        return None;
+    }
+    let width = text_width(label, FONT_LINE_LABEL);
+    let size = FONT_LINE_LABEL;
+    let mut candidates = Vec::new();
+    for (p, angle) in placement::back_from_end(pts, plot, &[4.0, 24.0, 48.0, 76.0, 110.0, 150.0]) {
+        candidates.push((placement::horizontal(p.0 - 6.0, p.1 + 4.0, width, size, "end"), Some(id)));
+        candidates.push((placement::horizontal(p.0 + 6.0, p.1 + 4.0, width, size, "start"), Some(id)));
+        if angle.abs() <= 60.0 {
+            candidates.push((placement::along(p.0, p.1, angle, width, size), Some(id)));
+        }
+    }
+    let spot = placement::best(&candidates, obstacles, plot)?;
+    obstacles.add_box(spot.area);
+    Some(spot)
+}
+
+/// Writes text at a chosen spot, with a halo so lines behind it stay readable.
+fn spot_text(w: &mut SvgWriter, spot: &Spot, text: &str, size: f64, bold: bool) {
+    w.start("text").num("x", spot.x).num("y", spot.y);
+    if spot.dy != 0.0 {
+        w.num("dy", spot.dy);
+    }
+    if spot.angle != 0.0 {
+        let rotate = format!(
+            "rotate({} {} {})",
+            svg::num(spot.angle),
+            svg::num(spot.x),
+            svg::num(spot.y)
+        );
+        w.attr("transform", &rotate);
+    }
+    w.num("font-size", size).attr("fill", palette::INK);
+    if spot.anchor != "start" {
+        w.attr("text-anchor", spot.anchor);
+    }
+    if bold {
+        w.attr("font-weight", "600");
+    }
+    w.attr("stroke", palette::PAPER)
+        .num("stroke-width", 3.0)
+        .attr("stroke-linejoin", "round")
+        .attr("paint-order", "stroke")
+        .open()
+        .text(text)
+        .close();
+}
+
+fn line(w: &mut SvgWriter, pts: &[(f64, f64)], colour: &str, width: f64, dash: Option<&str>, class: &str) {
+    if pts.len() < 2 {
+        return;
+    }
+    w.start("path")
+        .attr("class", class)
+        .attr("d", &marks::polyline(pts))
+        .attr("stroke", colour)
+        .num("stroke-width", width)
+        .attr("stroke-linejoin", "round");
+    if let Some(dash) = dash {
+        w.attr("stroke-dasharray", dash);
+    }
+    w.leaf();
+}
+
+fn finite_points(points: &[(f64, f64)]) -> Vec<(f64, f64)> {
+    points
+        .iter()
+        .copied()
+        .filter(|(x, y)| x.is_finite() && y.is_finite())
+        .collect()
+}
+
+fn sorted_by_x(mut points: Vec<(f64, f64)>) -> Vec<(f64, f64)> {
+    points.sort_by(|a, b| a.0.total_cmp(&b.0));
+    points
+}
+
+fn bounds(points: &[(f64, f64)]) -> Option<(f64, f64, f64, f64)> {
+    let first = points.first()?;
+    Some(points.iter().fold(
+        (first.0, first.0, first.1, first.1),
+        |(x0, x1, y0, y1), (x, y)| (x0.min(*x), x1.max(*x), y0.min(*y), y1.max(*y)),
+    ))
+}
+
+/// Decimals for a density: none for kg/m³ or lb/ft³, one for kN/m³, three for Mg/m³ (common practice).
+fn density_decimals(magnitude: f64) -> usize {
+    if magnitude >= 100.0 {
+        0
+    } else if magnitude >= 10.0 {
+        1
+    } else {
+        3
+    }
+}
+
+fn non_empty_or<'a>(value: &'a str, fallback: &'a str) -> &'a str {
+    if value.is_empty() { fallback } else { value }
+}
+
+fn spaced_unit(unit: &str) -> String {
+    if unit.is_empty() {
+        String::new()
+    } else {
+        format!(" {unit}")
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn density_decimals_follow_the_unit_size() {
+        assert_eq!(density_decimals(1985.0), 0);
+        assert_eq!(density_decimals(19.5), 1);
+        assert_eq!(density_decimals(1.985), 3);
+    }
+}

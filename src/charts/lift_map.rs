@@ -1,0 +1,851 @@
+//! The lift map: chainage along x, layers stacked bottom-up and grouped by zone, one rectangle per lot
+//! painted by its state (colour + texture + text mark), with its own legend.
+//!
+//! Lots narrower than [`MIN_LOT_PX`] at the requested width are gathered into cells, one per bucket of
+//! about two pixels per row; a cell shows the worst state inside it (see [`MapState::severity`]), its
+//! tooltip counts the lots of each state, and it links to a zoomed map of its chainage range.
+
+use std::collections::BTreeMap;
+
+use super::axis::{self, LinearScale};
+use super::frame::{self, AxisFonts, Plot, TextStyle};
+use super::legend::{self, LegendItem, Swatch};
+use super::palette::{self, state_style};
+use super::svg::{self, SvgWriter, fit_text, text_width, wrap_text};
+
+/// Lift map: chainage along x, layers stacked by zone along y, one rectangle per lot, filled by state.
+pub struct LiftMapInput {
+    /// Start of the chainage shown, in metres.
+    pub chainage_from_m: f64,
+    /// End of the chainage shown, in metres.
+    pub chainage_to_m: f64,
+    /// Layers to draw; `row` 0 is the bottom one.
+    pub rows: Vec<MapRow>,
+    /// Lots to place on the rows.
+    pub lots: Vec<MapLot>,
+    /// Formats a chainage in the project style, e.g. 12345.6 → "12+345.6".
+    pub chainage_label: Box<dyn Fn(f64) -> String + Send + Sync>,
+    /// Width the map is drawn for, in CSS pixels (also the viewBox width); 0 means 960.
+    pub width_px: u32,
+    /// Builds the link of an aggregated cell: a zoomed map from..to (metres). No link when `None`.
+    pub zoom_href: Option<Box<dyn Fn(f64, f64) -> String + Send + Sync>>,
+}
+
+/// One layer of the map.
+#[derive(Clone, Debug, Default, PartialEq, Eq)]
+pub struct MapRow {
+    /// Zone the layer belongs to (embankment fill, subgrade, capping…).
+    pub zone: String,
+    /// Layer name shown on the left.
+    pub layer: String,
+    /// Position from the bottom, 0 = bottom.
+    pub row: usize,
+}
+
+/// One lot of the map.
+#[derive(Clone, Debug, PartialEq)]
+pub struct MapLot {
+    /// The [`MapRow::row`] it lies on.
+    pub row: usize,
+    /// Start chainage in metres.
+    pub from_m: f64,
+    /// End chainage in metres.
+    pub to_m: f64,
+    /// Where it stands in its life.
+    pub state: MapState,
+    /// Tooltip text describing the lot.
+    pub title: String,
+    /// Link to the lot's page.
+    pub href: String,
+}
+
+/// Where a lot stands, as the map shows it.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+pub enum MapState {
+    /// Being built and tested.
+    Open,
+    /// Built, but fewer tests than the clause asks for.
+    OwedTests,
+    /// At least one counted test fails the clause.
+    Failing,
+    /// Handed to the client engineer for review.
+    Submitted,
+    /// Accepted by the client engineer.
+    Accepted,
+    /// Sent back for rework.
+    Rejected,
+    /// End-of-lift certificate issued.
+    Certified,
+}
+
+impl MapState {
+    /// Every state, in the order a lot usually passes through them (legend order).
+    pub const ALL: [MapState; 7] = [
+        MapState::Open,
+        MapState::OwedTests,
+        MapState::Failing,
+        MapState::Submitted,
+        MapState::Accepted,
+        MapState::Rejected,
+        MapState::Certified,
+    ];
+
+    /// Stable token for ids, classes and URLs.
+    pub fn code(self) -> &'static str {
+        match self {
+            MapState::Open => "open",
+            MapState::OwedTests => "owed",
+            MapState::Failing => "failing",
+            MapState::Submitted => "submitted",
+            MapState::Accepted => "accepted",
+            MapState::Rejected => "rejected",
+            MapState::Certified => "certified",
+        }
+    }
+
+    /// Words shown to people.
+    pub fn label(self) -> &'static str {
+        match self {
+            MapState::Open => "open",
+            MapState::OwedTests => "tests owed",
+            MapState::Failing => "failing",
+            MapState::Submitted => "submitted",
+            MapState::Accepted => "accepted",
+            MapState::Rejected => "rejected",
+            MapState::Certified => "certified",
+        }
+    }
+
+    /// One-letter mark drawn on wide enough lots so the state reads without colour.
+    pub fn mark(self) -> &'static str {
+        match self {
+            MapState::Open => "O",
+            MapState::OwedTests => "T",
+            MapState::Failing => "F",
+            MapState::Submitted => "S",
+            MapState::Accepted => "A",
+            MapState::Rejected => "R",
+            MapState::Certified => "C",
+        }
+    }
+
+    /// How much a state needs attention, used to pick what an aggregated cell shows:
+    /// failing (6) > rejected (5) > tests owed (4) > open (3) > submitted (2) > accepted (1) > certified (0).
+    pub fn severity(self) -> u8 {
+        match self {
+            MapState::Failing => 6,
+            MapState::Rejected => 5,
+            MapState::OwedTests => 4,
+            MapState::Open => 3,
+            MapState::Submitted => 2,
+            MapState::Accepted => 1,
+            MapState::Certified => 0,
+        }
+    }
+
+    fn index(self) -> usize {
+        match self {
+            MapState::Open => 0,
+            MapState::OwedTests => 1,
+            MapState::Failing => 2,
+            MapState::Submitted => 3,
+            MapState::Accepted => 4,
+            MapState::Rejected => 5,
+            MapState::Certified => 6,
+        }
+    }
+}
+
+/// Lots narrower than this (CSS px) are aggregated into cells.
+pub const MIN_LOT_PX: f64 = 2.0;
+/// Most lots drawn one by one; past it the narrowest are aggregated too, keeping the SVG small.
+pub const MAX_SEPARATE_LOTS: usize = 6000;
+/// Most aggregated cells; past it buckets widen beyond two pixels.
+pub const MAX_CELLS: usize = 6000;
+/// Neighbouring buckets with the same worst state merge into one cell up to this width (px).
+const MAX_CELL_PX: f64 = 16.0;
+const FONT: f64 = 12.0;
+const FONT_SMALL: f64 = 11.0;
+const ZONE_BAND: f64 = 17.0;
+const MARGIN: f64 = 8.0;
+
+struct Placed<'a> {
+    lot: &'a MapLot,
+    rank: usize,
+    from: f64,
+    to: f64,
+    x0: f64,
+    x1: f64,
+}
+
+#[derive(Clone, Copy)]
+struct Bucket {
+    counts: [u32; 7],
+    from: f64,
+    to: f64,
+}
+
+impl Bucket {
+    fn worst(&self) -> MapState {
+        MapState::ALL
+            .iter()
+            .copied()
+            .filter(|s| self.counts[s.index()] > 0)
+            .max_by_key(|s| s.severity())
+            .unwrap_or(MapState::Certified)
+    }
+
+    fn add(&mut self, other: &Bucket) {
+        for (a, b) in self.counts.iter_mut().zip(other.counts) {
+            *a += b;
+        }
+        self.from = self.from.min(other.from);
+        self.to = self.to.max(other.to);
+    }
+}
+
+struct Cell {
+    rank: usize,
+    x0: f64,
+    x1: f64,
+    bucket: Bucket,
+}
+
+/// Draws the lift map with its legend; narrow lots are aggregated (see the module docs).
+pub fn lift_map(input: &LiftMapInput) -> String {
+    let width = if input.width_px == 0 {
+        960.0
+    } else {
+        f64::from(input.width_px).clamp(280.0, 8000.0)
+    };
+    let rows = ordered_rows(&input.rows);
+    let rank_of: BTreeMap<usize, usize> = rows.iter().enumerate().map(|(i, r)| (r.row, i)).collect();
+    let (from_m, to_m) = chainage_range(input);
+    let label = &input.chainage_label;
+
+    let layer_labels: Vec<&str> = rows.iter().map(|r| r.layer.as_str()).collect();
+    let widest_layer = layer_labels
+        .iter()
+        .map(|l| text_width(l, FONT_SMALL))
+        .fold(0.0, f64::max);
+    let left = (widest_layer + 16.0).clamp(36.0, width * 0.3);
+    let row_h = row_height(rows.len());
+    let groups = zone_groups(&rows);
+
+    // Vertical layout, top-down: a band per zone group, then its rows.
+    let mut row_top = vec![0.0; rows.len()];
+    let mut band_tops = Vec::with_capacity(groups.len());
+    let mut y = MARGIN;
+    for (zone, ranks) in &groups {
+        band_tops.push((y, zone.clone()));
+        y += ZONE_BAND;
+        for rank in ranks {
+            row_top[*rank] = y;
+            y += row_h;
+        }
+    }
+    let plot = Plot {
+        left,
+        top: MARGIN,
+        right: width - 12.0,
+        bottom: y.max(MARGIN + 40.0),
+    };
+    let x_scale = LinearScale::new((from_m, to_m), (plot.left, plot.right));
+    let tick_room = text_width(&label(from_m), FONT_SMALL).max(text_width(&label(to_m), FONT_SMALL)) + 28.0;
+    let target = (plot.width() / tick_room).floor().clamp(2.0, 12.0) as usize;
+    let ticks = axis::ticks(from_m, to_m, target);
+
+    let placed = place_lots(input, &rank_of, from_m, to_m, &x_scale);
+    let (separate, cells) = split_and_aggregate(placed, &plot, rows.len());
+    let aggregated: usize = cells
+        .iter()
+        .map(|c| c.bucket.counts.iter().sum::<u32>() as usize)
+        .sum();
+
+    let ids = svg::id_prefix(
+        "m",
+        &format!("{from_m}|{to_m}|{width}|{}|{}", rows.len(), input.lots.len()),
+    );
+    let pattern_id = |s: MapState| format!("{ids}-{}", s.code());
+
+    let fonts = AxisFonts {
+        tick: FONT_SMALL,
+        title: FONT,
+    };
+    let legend_items = legend_items(&pattern_id);
+    let legend_top = plot.bottom + frame::x_axis_depth(fonts, true) + 6.0;
+    let legend_width = width - 2.0 * MARGIN;
+    let legend_rows = legend::layout(&legend_items, legend_width, FONT_SMALL).rows;
+    let note = if cells.is_empty() {
+        Vec::new()
+    } else {
+        wrap_text(
+            "Lots too narrow to draw one by one are grouped into cells that show the most urgent state \
+             inside (failing, rejected, tests owed, open, submitted, accepted, certified); \
+             hover a cell for its lot counts, open it to zoom in.",
+            FONT_SMALL,
+            legend_width,
+        )
+    };
+    let legend_h = legend_rows as f64 * legend::row_height(FONT_SMALL);
+    let note_top = legend_top + legend_h + 4.0;
+    let height = note_top + note.len() as f64 * (FONT_SMALL * 1.4) + MARGIN;
+
+    let lot_count = separate.len() + aggregated;
+    let mut w = SvgWriter::with_capacity(4096 + separate.len() * 170 + cells.len() * 170);
+    let title = format!(
+        "Lift map, {} to {}: {lot_count} lot{} on {} layer{}",
+        label(from_m),
+        label(to_m),
+        if lot_count == 1 { "" } else { "s" },
+        rows.len(),
+        if rows.len() == 1 { "" } else { "s" }
+    );
+    frame::open_root(
+        &mut w,
+        width,
+        height,
+        &title,
+        &describe(input, &separate, &cells),
+        "ll-chart ll-lift-map",
+    );
+    w.start("defs").open();
+    for state in MapState::ALL {
+        palette::write_pattern(&mut w, &pattern_id(state), &state_style(state));
+    }
+    w.close();
+
+    if rows.is_empty() {
+        frame::empty_note(&mut w, &plot, "no layers yet", 14.0);
+    } else {
+        draw_rows(&mut w, &plot, &rows, &row_top, row_h, &band_tops);
+        frame::x_grid(&mut w, &plot, &x_scale, &ticks);
+        draw_cells(&mut w, input, &cells, &row_top, row_h, &pattern_id);
+        draw_separate(&mut w, &separate, &row_top, row_h, &pattern_id);
+        if lot_count == 0 {
+            frame::empty_note(&mut w, &plot, "no lots yet", 14.0);
+        }
+    }
+    frame::x_axis(&mut w, &plot, &x_scale, &ticks, "Chainage", fonts, width, &|v| label(v));
+    legend::draw(&mut w, &legend_items, MARGIN, legend_top, legend_width, FONT_SMALL);
+    if !note.is_empty() {
+        w.start("g").attr("class", "ll-note").open();
+        for (i, line) in note.iter().enumerate() {
+            let y = note_top + FONT_SMALL + i as f64 * FONT_SMALL * 1.4;
+            frame::text(&mut w, MARGIN, y, line, TextStyle::new(FONT_SMALL).fill(palette::MUTED));
+        }
+        w.close();
+    }
+    w.finish()
+}
+
+fn ordered_rows(rows: &[MapRow]) -> Vec<&MapRow> {
+    let mut sorted: Vec<&MapRow> = rows.iter().collect();
+    sorted.sort_by_key(|r| r.row);
+    sorted.dedup_by_key(|r| r.row);
+    sorted
+}
+
+fn chainage_range(input: &LiftMapInput) -> (f64, f64) {
+    let (a, b) = (input.chainage_from_m, input.chainage_to_m);
+    if a.is_finite() && b.is_finite() && a != b {
+        return (a.min(b), a.max(b));
+    }
+    let ends = input
+        .lots
+        .iter()
+        .flat_map(|l| [l.from_m, l.to_m])
+        .filter(|v| v.is_finite());
+    let (lo, hi) = ends.fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), v| (lo.min(v), hi.max(v)));
+    if lo < hi {
+        (lo, hi)
+    } else if a.is_finite() {
+        (a - 50.0, a + 50.0)
+    } else {
+        (0.0, 1000.0)
+    }
+}
+
+/// Row height in px: generous for a few layers, tighter for many, never below 3 px.
+fn row_height(rows: usize) -> f64 {
+    match rows {
+        0..=10 => 22.0,
+        11..=20 => 18.0,
+        21..=40 => 15.0,
+        41..=80 => 10.0,
+        n => (800.0 / n as f64).max(3.0),
+    }
+}
+
+/// Contiguous runs of rows of one zone, from the top row down; each run lists display ranks.
+fn zone_groups(rows: &[&MapRow]) -> Vec<(String, Vec<usize>)> {
+    let mut groups: Vec<(String, Vec<usize>)> = Vec::new();
+    for rank in (0..rows.len()).rev() {
+        let zone = &rows[rank].zone;
+        match groups.last_mut() {
+            Some((name, ranks)) if name == zone => ranks.push(rank),
+            _ => groups.push((zone.clone(), vec![rank])),
+        }
+    }
+    groups
+}
+
+fn place_lots<'a>(
+    input: &'a LiftMapInput,
+    rank_of: &BTreeMap<usize, usize>,
+    from_m: f64,
+    to_m: f64,
+    x_scale: &LinearScale,
+) -> Vec<Placed<'a>> {
+    let mut placed: Vec<Placed<'a>> = input
+        .lots
+        .iter()
+        .filter_map(|lot| {
+            let rank = *rank_of.get(&lot.row)?;
+            if !lot.from_m.is_finite() || !lot.to_m.is_finite() {
+                return None;
+            }
+            let (a, b) = (lot.from_m.min(lot.to_m), lot.from_m.max(lot.to_m));
+            let (from, to) = (a.max(from_m), b.min(to_m));
+            if from > to {
+                return None;
+            }
+            Some(Placed {
+                lot,
+                rank,
+                from,
+                to,
+                x0: x_scale.map(from),
+                x1: x_scale.map(to),
+            })
+        })
+        .collect();
+    placed.sort_by(|p, q| p.rank.cmp(&q.rank).then(p.from.total_cmp(&q.from)).then(p.to.total_cmp(&q.to)));
+    placed
+}
+
+/// Splits lots into those drawn one by one and cells aggregating the narrow rest.
+fn split_and_aggregate<'a>(placed: Vec<Placed<'a>>, plot: &Plot, rows: usize) -> (Vec<Placed<'a>>, Vec<Cell>) {
+    let mut wide: Vec<f64> = placed
+        .iter()
+        .map(|p| p.x1 - p.x0)
+        .filter(|w| *w >= MIN_LOT_PX)
+        .collect();
+    let cutoff = if wide.len() > MAX_SEPARATE_LOTS {
+        wide.sort_by(|a, b| b.total_cmp(a));
+        wide[MAX_SEPARATE_LOTS]
+    } else {
+        f64::NEG_INFINITY
+    };
+    let (separate, narrow): (Vec<Placed<'a>>, Vec<Placed<'a>>) = placed.into_iter().partition(|p| {
+        let w = p.x1 - p.x0;
+        w >= MIN_LOT_PX && w > cutoff
+    });
+    if narrow.is_empty() {
+        return (separate, Vec::new());
+    }
+    let rows_with_narrow = {
+        let mut ranks: Vec<usize> = narrow.iter().map(|p| p.rank).collect();
+        ranks.dedup();
+        ranks.len().max(1).min(rows.max(1))
+    };
+    let bucket_px = MIN_LOT_PX.max(plot.width() * rows_with_narrow as f64 / MAX_CELLS as f64);
+    let mut buckets: BTreeMap<(usize, i64), Bucket> = BTreeMap::new();
+    for p in &narrow {
+        let centre = (p.x0 + p.x1) / 2.0 - plot.left;
+        let index = (centre / bucket_px).floor().max(0.0) as i64;
+        let bucket = buckets.entry((p.rank, index)).or_insert(Bucket {
+            counts: [0; 7],
+            from: p.from,
+            to: p.to,
+        });
+        bucket.counts[p.lot.state.index()] += 1;
+        bucket.from = bucket.from.min(p.from);
+        bucket.to = bucket.to.max(p.to);
+    }
+    let max_span = (MAX_CELL_PX / bucket_px).floor().max(1.0) as i64;
+    let mut cells = Vec::new();
+    let mut run: Option<(usize, i64, i64, Bucket)> = None;
+    for ((rank, index), bucket) in buckets {
+        if let Some((r, start, end, acc)) = run.as_mut()
+            && *r == rank
+            && index == *end + 1
+            && index - *start < max_span
+            && acc.worst() == bucket.worst()
+        {
+            acc.add(&bucket);
+            *end = index;
+            continue;
+        }
+        if let Some(done) = run.take() {
+            cells.push(make_cell(done, plot, bucket_px));
+        }
+        run = Some((rank, index, index, bucket));
+    }
+    if let Some(done) = run {
+        cells.push(make_cell(done, plot, bucket_px));
+    }
+    (separate, cells)
+}
+
+fn make_cell((rank, start, end, bucket): (usize, i64, i64, Bucket), plot: &Plot, bucket_px: f64) -> Cell {
+    let x0 = (plot.left + start as f64 * bucket_px).min(plot.right);
+    let x1 = (plot.left + (end + 1) as f64 * bucket_px).min(plot.right);
+    Cell {
+        rank,
+        x0: x0.min(x1 - 0.5),
+        x1,
+        bucket,
+    }
+}
+
+fn draw_rows(
+    w: &mut SvgWriter,
+    plot: &Plot,
+    rows: &[&MapRow],
+    row_top: &[f64],
+    row_h: f64,
+    bands: &[(f64, String)],
+) {
+    let inset = if row_h >= 8.0 { 1.0 } else { 0.0 };
+    let mut d = String::new();
+    for top in row_top {
+        d.push('M');
+        svg::push_num(&mut d, plot.left);
+        d.push(' ');
+        svg::push_num(&mut d, top + inset);
+        d.push('h');
+        svg::push_num(&mut d, plot.width());
+        d.push('v');
+        svg::push_num(&mut d, row_h - 2.0 * inset);
+        d.push('h');
+        svg::push_num(&mut d, -plot.width());
+        d.push('z');
+    }
+    w.start("path")
+        .attr("class", "ll-row-background")
+        .attr("d", &d)
+        .attr("fill", palette::EMPTY_ROW)
+        .leaf();
+
+    w.start("g").attr("class", "ll-zones").open();
+    for (top, zone) in bands {
+        let name = fit_text(zone, FONT_SMALL, plot.right - MARGIN - 40.0);
+        let baseline = top + ZONE_BAND - 5.0;
+        frame::text(w, MARGIN, baseline, &name, TextStyle::new(FONT_SMALL).bold().fill(palette::INK));
+        let rule_x = MARGIN + text_width(&name, FONT_SMALL) + 8.0;
+        if rule_x < plot.right {
+            w.start("line")
+                .num("x1", rule_x)
+                .num("y1", baseline - 3.5)
+                .num("x2", plot.right)
+                .num("y2", baseline - 3.5)
+                .attr("stroke", "#c9c9c9")
+                .num("stroke-width", 1.0)
+                .leaf();
+        }
+    }
+    w.close();
+
+    let size = (row_h * 0.8).min(FONT_SMALL);
+    let every = if row_h >= 8.0 { 1 } else { (9.0 / row_h).ceil() as usize };
+    w.start("g")
+        .attr("class", "ll-layers")
+        .num("font-size", size)
+        .attr("fill", palette::INK)
+        .attr("text-anchor", "end")
+        .open();
+    for (rank, row) in rows.iter().enumerate() {
+        if rank % every != 0 {
+            continue;
+        }
+        let text = fit_text(&row.layer, size, plot.left - 10.0);
+        w.start("text")
+            .num("x", plot.left - 6.0)
+            .num("y", row_top[rank] + row_h / 2.0 + size * 0.36)
+            .open()
+            .text(&text)
+            .close();
+    }
+    w.close();
+}
+
+fn draw_cells(
+    w: &mut SvgWriter,
+    input: &LiftMapInput,
+    cells: &[Cell],
+    row_top: &[f64],
+    row_h: f64,
+    pattern_id: &dyn Fn(MapState) -> String,
+) {
+    if cells.is_empty() {
+        return;
+    }
+    let label = &input.chainage_label;
+    let (y_off, h) = if row_h >= 8.0 { (1.0, row_h - 2.0) } else { (0.0, row_h) };
+    w.start("g").attr("class", "ll-cells").open();
+    for state in MapState::ALL {
+        let mine: Vec<&Cell> = cells.iter().filter(|c| c.bucket.worst() == state).collect();
+        if mine.is_empty() {
+            continue;
+        }
+        w.start("g")
+            .attr("class", &format!("ll-{}", state.code()))
+            .attr("fill", &format!("url(#{})", pattern_id(state)))
+            .open();
+        for cell in mine {
+            let counts = &cell.bucket.counts;
+            let total: u32 = counts.iter().sum();
+            let mut by_severity: Vec<MapState> = MapState::ALL.to_vec();
+            by_severity.sort_by_key(|s| std::cmp::Reverse(s.severity()));
+            let parts: Vec<String> = by_severity
+                .iter()
+                .filter(|s| counts[s.index()] > 0)
+                .map(|s| format!("{} {}", counts[s.index()], s.label()))
+                .collect();
+            let title = format!(
+                "{} to {}: {total} lot{} ({})",
+                label(cell.bucket.from),
+                label(cell.bucket.to),
+                if total == 1 { "" } else { "s" },
+                parts.join(", ")
+            );
+            let href = input.zoom_href.as_ref().map(|f| f(cell.bucket.from, cell.bucket.to));
+            match href.as_deref().and_then(svg::safe_href) {
+                Some(href) => w.start("a").attr("href", href),
+                None => w.start("g"),
+            };
+            w.open();
+            w.simple("title", &title);
+            w.start("rect")
+                .num("x", cell.x0)
+                .num("y", row_top[cell.rank] + y_off)
+                .num("width", cell.x1 - cell.x0)
+                .num("height", h)
+                .leaf();
+            w.close();
+        }
+        w.close();
+    }
+    w.close();
+}
+
+fn draw_separate(
+    w: &mut SvgWriter,
+    lots: &[Placed<'_>],
+    row_top: &[f64],
+    row_h: f64,
+    pattern_id: &dyn Fn(MapState) -> String,
+) {
+    if lots.is_empty() {
+        return;
+    }
+    let (y_off, h) = if row_h >= 8.0 { (1.0, row_h - 2.0) } else { (0.0, row_h) };
+    w.start("g").attr("class", "ll-lots").open();
+    for state in MapState::ALL {
+        let mine: Vec<&Placed<'_>> = lots.iter().filter(|p| p.lot.state == state).collect();
+        if mine.is_empty() {
+            continue;
+        }
+        w.start("g")
+            .attr("class", &format!("ll-{}", state.code()))
+            .attr("fill", &format!("url(#{})", pattern_id(state)))
+            .open();
+        for p in mine {
+            let lot_w = p.x1 - p.x0;
+            // A hairline gap shows where one lot ends and the next begins.
+            let gap = if lot_w >= 4.0 { 0.6 } else { 0.0 };
+            match svg::safe_href(&p.lot.href) {
+                Some(href) => w.start("a").attr("href", href),
+                None => w.start("g"),
+            };
+            w.open();
+            w.simple("title", &lot_title(p.lot));
+            w.start("rect")
+                .num("x", p.x0 + gap / 2.0)
+                .num("y", row_top[p.rank] + y_off)
+                .num("width", lot_w - gap)
+                .num("height", h)
+                .leaf();
+            w.close();
+        }
+        w.close();
+    }
+    w.close();
+
+    // Text marks on lots wide enough to hold them; clicks pass through to the lot below.
+    let size = (row_h * 0.62).min(10.5);
+    if size < 6.0 {
+        return;
+    }
+    w.start("g")
+        .attr("class", "ll-marks")
+        .attr("pointer-events", "none")
+        .num("font-size", size)
+        .attr("font-weight", "700")
+        .attr("text-anchor", "middle")
+        .open();
+    for state in MapState::ALL {
+        let mark = state.mark();
+        let room = text_width(mark, size) + 6.0;
+        let mine: Vec<&Placed<'_>> = lots
+            .iter()
+            .filter(|p| p.lot.state == state && p.x1 - p.x0 >= room)
+            .collect();
+        if mine.is_empty() {
+            continue;
+        }
+        let style = state_style(state);
+        w.start("g")
+            .attr("fill", style.mark_ink)
+            .attr("stroke", style.fill)
+            .num("stroke-width", 2.5)
+            .attr("stroke-linejoin", "round")
+            .attr("paint-order", "stroke")
+            .open();
+        for p in mine {
+            w.start("text")
+                .num("x", (p.x0 + p.x1) / 2.0)
+                .num("y", row_top[p.rank] + row_h / 2.0 + size * 0.36)
+                .open()
+                .text(mark)
+                .close();
+        }
+        w.close();
+    }
+    w.close();
+}
+
+/// The lot's own tooltip, with its state added when the text does not already name it.
+fn lot_title(lot: &MapLot) -> String {
+    let label = lot.state.label();
+    if lot.title.trim().is_empty() {
+        return format!("Lot ({label})");
+    }
+    if lot.title.to_lowercase().contains(label) {
+        lot.title.clone()
+    } else {
+        format!("{} ({label})", lot.title)
+    }
+}
+
+fn legend_items(pattern_id: &dyn Fn(MapState) -> String) -> Vec<LegendItem> {
+    let mut items: Vec<LegendItem> = MapState::ALL
+        .iter()
+        .map(|s| LegendItem {
+            swatch: Swatch::Fill {
+                fill: format!("url(#{})", pattern_id(*s)),
+                mark: Some((s.mark().to_string(), state_style(*s).mark_ink)),
+            },
+            label: format!("{} {}", s.mark(), s.label()),
+        })
+        .collect();
+    items.push(LegendItem {
+        swatch: Swatch::Fill {
+            fill: palette::EMPTY_ROW.to_string(),
+            mark: None,
+        },
+        label: "no lot yet".to_string(),
+    });
+    items
+}
+
+fn describe(input: &LiftMapInput, separate: &[Placed<'_>], cells: &[Cell]) -> String {
+    let mut counts = [0u32; 7];
+    for p in separate {
+        counts[p.lot.state.index()] += 1;
+    }
+    for c in cells {
+        for (a, b) in counts.iter_mut().zip(c.bucket.counts) {
+            *a += b;
+        }
+    }
+    let parts: Vec<String> = MapState::ALL
+        .iter()
+        .filter(|s| counts[s.index()] > 0)
+        .map(|s| format!("{} {}", counts[s.index()], s.label()))
+        .collect();
+    let mut text = if parts.is_empty() {
+        "No lots placed yet.".to_string()
+    } else {
+        format!("Lots by state: {}.", parts.join(", "))
+    };
+    if !cells.is_empty() {
+        text.push_str(&format!(
+            " Narrow lots are grouped into {} cells showing the most urgent state inside.",
+            cells.len()
+        ));
+    }
+    let skipped = input.lots.len() - separate.len() - counts_total(cells);
+    if skipped > 0 {
+        text.push_str(&format!(" {skipped} lots lie outside the rows or chainage shown."));
+    }
+    text
+}
+
+fn counts_total(cells: &[Cell]) -> usize {
+    cells
+        .iter()
+        .map(|c| c.bucket.counts.iter().sum::<u32>() as usize)
+        .sum()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn severity_orders_states_as_documented() {
+        let mut states = MapState::ALL.to_vec();
+        states.sort_by_key(|s| std::cmp::Reverse(s.severity()));
+        assert_eq!(
+            states,
+            vec![
+                MapState::Failing,
+                MapState::Rejected,
+                MapState::OwedTests,
+                MapState::Open,
+                MapState::Submitted,
+                MapState::Accepted,
+                MapState::Certified
+            ]
+        );
+    }
+
+    #[test]
+    fn marks_and_codes_are_unique() {
+        for (i, a) in MapState::ALL.iter().enumerate() {
+            for b in &MapState::ALL[i + 1..] {
+                assert_ne!(a.mark(), b.mark());
+                assert_ne!(a.code(), b.code());
+                assert_ne!(a.label(), b.label());
+            }
+            assert!((1..=2).contains(&a.mark().chars().count()));
+        }
+    }
+
+    #[test]
+    fn bucket_shows_worst_state() {
+        let mut counts = [0; 7];
+        counts[MapState::Certified.index()] = 9;
+        counts[MapState::OwedTests.index()] = 1;
+        let b = Bucket {
+            counts,
+            from: 0.0,
+            to: 1.0,
+        };
+        assert_eq!(b.worst(), MapState::OwedTests);
+    }
+
+    #[test]
+    fn zone_groups_run_top_down() {
+        let rows = [
+            MapRow { zone: "fill".into(), layer: "1".into(), row: 0 },
+            MapRow { zone: "fill".into(), layer: "2".into(), row: 1 },
+            MapRow { zone: "capping".into(), layer: "3".into(), row: 2 },
+        ];
+        let refs: Vec<&MapRow> = rows.iter().collect();
+        let groups = zone_groups(&refs);
+        assert_eq!(groups, vec![("capping".to_string(), vec![2]), ("fill".to_string(), vec![1, 0])]);
+    }
+}

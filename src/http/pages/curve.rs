@@ -1,0 +1,173 @@
+//! The curve sheet of a lab compaction test, with the field tests judged against it.
+
+use askama::Template;
+use axum::Router;
+use axum::extract::{Path, State};
+use axum::routing::get;
+
+use super::{PageResult, ProjectNav, render};
+use crate::app::AppState;
+use crate::charts::{CurveChartInput, FieldMark, Series, curve_chart};
+use crate::db;
+use crate::error::AppError;
+use crate::ledger::setup::{LabPointInput, reduce_lab_point, resolve_effort};
+use crate::present::Units;
+use crate::reduction::SpecificGravity;
+use crate::reduction::curve::fit_curve;
+use crate::reduction::lab::EffortPreset;
+use crate::reduction::voids::{degree_of_saturation_pct, saturation_line, zero_air_voids_line};
+
+/// Routes of this module.
+pub fn router() -> Router<AppState> {
+    Router::new().route("/lab-tests/{id}", get(sheet))
+}
+
+/// One lab point on the sheet.
+struct PointRow {
+    water: String,
+    dry: String,
+    saturation: String,
+}
+
+#[derive(Template)]
+#[template(path = "curve.html")]
+struct CurvePage {
+    nav: ProjectNav,
+    code: String,
+    source: String,
+    tested_on: String,
+    status: String,
+    superseded_reason: String,
+    effort: String,
+    energy: String,
+    mdd: String,
+    omc: String,
+    gs: String,
+    fit_method: String,
+    density_unit: String,
+    points: Vec<PointRow>,
+    warnings: Vec<String>,
+    chart: String,
+    field_count: usize,
+    field_fail: usize,
+    cautions: Vec<String>,
+}
+
+async fn sheet(State(s): State<AppState>, Path(id): Path<i64>) -> PageResult {
+    let lab = db::lab_tests::get(&s.db, id)
+        .await?
+        .ok_or_else(|| AppError::not_found("lab_test_id", format!("lab test {id} does not exist")))?;
+    let source = db::sources::get(&s.db, lab.source_id)
+        .await?
+        .ok_or_else(|| anyhow::anyhow!("lab test {id} has no source"))
+        .map_err(AppError::from)?;
+    let project = crate::ledger::setup::require_project(&s.db, source.project_id).await?;
+    let u = Units::of(&project);
+    let entered: Vec<LabPointInput> = serde_json::from_str(&lab.points_json).map_err(anyhow::Error::from).map_err(AppError::from)?;
+    let points = entered
+        .iter()
+        .enumerate()
+        .map(|(i, p)| reduce_lab_point(i, p))
+        .collect::<crate::error::Result<Vec<_>>>()?;
+    let gs = SpecificGravity::new(lab.specific_gravity).map_err(|e| AppError::Internal(anyhow::anyhow!("{e}")))?;
+    let fit = fit_curve(&points, Some(gs)).map_err(|e| AppError::Internal(anyhow::anyhow!("stored curve no longer fits: {e}")))?;
+
+    // Field tests judged against this curve: plotted as they were measured (no oversize adjustment).
+    let field = db::field_tests::for_lab_test(&s.db, id).await?;
+    let counted: Vec<_> = field.iter().filter(|t| t.void_reason.is_none()).collect();
+    let limits = {
+        let lots = db::lots::list(&s.db, project.id, &db::lots::LotFilter { limit: i64::MAX, ..Default::default() }).await?;
+        let clause_ids: std::collections::HashMap<i64, i64> = lots.iter().map(|l| (l.id, l.clause_id)).collect();
+        let clauses: std::collections::HashMap<i64, db::clauses::Clause> =
+            db::clauses::list(&s.db, project.id).await?.into_iter().map(|c| (c.id, c)).collect();
+        move |lot_id: i64| clause_ids.get(&lot_id).and_then(|c| clauses.get(c)).map(crate::ledger::lot_report::limits_of)
+    };
+    let reference = crate::ledger::lot_report::reference_of(&lab)?;
+    let marks: Vec<FieldMark> = counted
+        .iter()
+        .filter_map(|t| {
+            let l = limits(t.lot_id)?;
+            let dry = crate::reduction::Density::new(t.dry_density_kg_m3).ok()?;
+            let w = crate::reduction::WaterContent::new(t.water_content_pct).ok()?;
+            let v = crate::reduction::verdict::judge_test(dry, w, &reference, &l);
+            Some(FieldMark {
+                label: format!("{} · RC {:.1} %", t.number, v.relative_compaction_pct),
+                x: t.water_content_pct,
+                y: t.dry_density_kg_m3,
+                passed: v.passed,
+            })
+        })
+        .collect();
+    let field_fail = marks.iter().filter(|m| !m.passed).count();
+    let (lo, hi) = points
+        .iter()
+        .map(|p| p.water_content_pct)
+        .chain(marks.iter().map(|m| m.x))
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), w| (a.min(w), b.max(w)));
+    let (lo, hi) = ((lo - 1.5).max(0.0), hi + 1.5);
+    let pairs = |v: Vec<crate::reduction::curve::CurvePoint>| -> Vec<(f64, f64)> {
+        v.into_iter().map(|p| (p.water_content_pct, p.dry_density_kg_m3)).collect()
+    };
+    let chart = curve_chart(&CurveChartInput {
+        title: format!("Compaction curve {} ({})", lab.code, source.code),
+        x_label: "Water content (%)".into(),
+        y_label: "Dry density (kg/m³)".into(),
+        lab_points: points.iter().map(|p| (p.water_content_pct, p.dry_density_kg_m3)).collect(),
+        fitted: pairs(fit.curve.clone()),
+        optimum: (fit.optimum_water_content.pct(), fit.max_dry_density.kg_m3()),
+        zero_air_voids: pairs(zero_air_voids_line(gs, lo, hi, 40)),
+        saturation_lines: [90.0, 80.0]
+            .iter()
+            .map(|sat| Series {
+                label: format!("S = {sat:.0} %"),
+                points: pairs(saturation_line(gs, *sat, lo, hi, 40)),
+            })
+            .collect(),
+        field_points: marks,
+        optimum_label: format!(
+            "MDD {:.0} kg/m³ at OMC {:.1} %",
+            fit.max_dry_density.kg_m3(),
+            fit.optimum_water_content.pct()
+        ),
+    });
+    let effort = resolve_effort(&lab.effort, None).ok();
+    let warnings: Vec<String> = serde_json::from_str::<Vec<serde_json::Value>>(&lab.warnings_json)
+        .unwrap_or_default()
+        .iter()
+        .filter_map(|w| w["message"].as_str().map(str::to_string))
+        .collect();
+    render(&CurvePage {
+        nav: ProjectNav {
+            id: project.id,
+            name: project.code.clone(),
+        },
+        code: lab.code.clone(),
+        source: format!("{} ({})", source.name, source.code),
+        tested_on: lab.tested_on.clone(),
+        status: lab.status.clone(),
+        superseded_reason: lab.superseded_reason.clone().unwrap_or_default(),
+        effort: EffortPreset::parse_code(&lab.effort).map_or(lab.effort.clone(), |e| e.label().to_string()),
+        energy: match &effort {
+            Some(e) => format!("{:.0} kJ/m³ ({:.0} ft·lbf/ft³)", e.energy_kj_m3(), e.energy_ft_lbf_ft3()),
+            None => format!("{:.0} kJ/m³", lab.effort_energy_kj_m3),
+        },
+        mdd: u.density_with_unit(lab.max_dry_density_kg_m3),
+        omc: format!("{:.1} %", lab.optimum_water_content_pct),
+        gs: format!("{:.2}", lab.specific_gravity),
+        fit_method: fit.method.label(),
+        density_unit: u.density_unit().to_string(),
+        points: points
+            .iter()
+            .map(|p| PointRow {
+                water: format!("{:.1}", p.water_content_pct),
+                dry: u.density(p.dry_density_kg_m3),
+                saturation: format!("{:.0}", degree_of_saturation_pct(gs, p.water_content_pct, p.dry_density_kg_m3)),
+            })
+            .collect(),
+        warnings,
+        chart,
+        field_count: counted.len(),
+        field_fail,
+        cautions: super::cautions(),
+    })
+}

@@ -1,0 +1,258 @@
+//! The projects list and a project's home page.
+
+use askama::Template;
+use axum::Router;
+use axum::extract::{Path, State};
+use axum::routing::get;
+
+use super::{PageResult, ProjectNav, render};
+use crate::app::AppState;
+use crate::db;
+use crate::ledger::{overview, setup};
+use crate::present::{self, Units};
+
+/// Routes of this module.
+pub fn router() -> Router<AppState> {
+    Router::new()
+        .route("/", get(projects))
+        .route("/projects/{id}", get(project_home))
+        .route("/projects/{id}/sources", get(sources))
+}
+
+/// One row of the projects list.
+struct ProjectRow {
+    id: i64,
+    code: String,
+    name: String,
+    contract: String,
+    client: String,
+}
+
+#[derive(Template)]
+#[template(path = "projects.html")]
+struct ProjectsPage {
+    projects: Vec<ProjectRow>,
+    demo: bool,
+}
+
+async fn projects(State(s): State<AppState>) -> PageResult {
+    let projects = db::projects::list(&s.db)
+        .await?
+        .into_iter()
+        .map(|p| ProjectRow {
+            id: p.id,
+            code: p.code,
+            name: p.name,
+            contract: p.contract,
+            client: p.client,
+        })
+        .collect();
+    render(&ProjectsPage {
+        projects,
+        demo: s.settings.demo,
+    })
+}
+
+/// A lot named in a home-page list.
+pub struct LotLink {
+    pub id: i64,
+    pub code: String,
+    pub place: String,
+    pub note: String,
+}
+
+/// A state and how many lots are in it.
+pub struct StateCount {
+    pub code: String,
+    pub label: String,
+    pub count: usize,
+}
+
+/// A line of recent activity.
+pub struct Activity {
+    pub at: String,
+    pub actor: String,
+    pub what: String,
+}
+
+#[derive(Template)]
+#[template(path = "project.html")]
+struct ProjectPage {
+    nav: ProjectNav,
+    code: String,
+    name: String,
+    contract: String,
+    client: String,
+    contractor: String,
+    states: Vec<StateCount>,
+    total_lots: usize,
+    tests_today: i64,
+    tests_week: i64,
+    tests_total: i64,
+    failing: Vec<LotLink>,
+    owed: Vec<LotLink>,
+    queue: Vec<LotLink>,
+    activity: Vec<Activity>,
+}
+
+async fn project_home(State(s): State<AppState>, Path(id): Path<i64>) -> PageResult {
+    let p = setup::require_project(&s.db, id).await?;
+    let u = Units::of(&p);
+    let reports = overview::project_reports(&s.db, id).await?;
+    let states = ["open", "owed_tests", "failing", "submitted", "rejected", "accepted", "certified"]
+        .iter()
+        .map(|code| StateCount {
+            code: code.to_string(),
+            label: present::state_label(code).to_string(),
+            count: reports.iter().filter(|r| r.display_state == *code).count(),
+        })
+        .collect();
+    let place = |r: &crate::ledger::lot_report::LotReport| {
+        format!(
+            "{} layer {}, {} to {}",
+            r.lot.zone_name,
+            r.lot.layer_number,
+            u.chainage(r.lot.chainage_from_m),
+            u.chainage(r.lot.chainage_to_m)
+        )
+    };
+    let failing = reports
+        .iter()
+        .filter(|r| !r.failing_without_retest.is_empty() && (r.lot.state == "open" || r.lot.state == "rejected"))
+        .map(|r| LotLink {
+            id: r.lot.id,
+            code: r.lot.code.clone(),
+            place: place(r),
+            note: format!("awaiting retest: {}", r.failing_without_retest.join(", ")),
+        })
+        .collect();
+    let owed = reports
+        .iter()
+        .filter(|r| r.tests_owed > 0 && (r.lot.state == "open" || r.lot.state == "rejected"))
+        .map(|r| LotLink {
+            id: r.lot.id,
+            code: r.lot.code.clone(),
+            place: place(r),
+            note: format!("{} of {} tests still owed", r.tests_owed, r.tests_required),
+        })
+        .collect();
+    let mut queue: Vec<_> = reports.iter().filter(|r| r.lot.state == "submitted").collect();
+    queue.sort_by(|a, b| a.lot.state_changed_at.cmp(&b.lot.state_changed_at));
+    let queue = queue
+        .into_iter()
+        .map(|r| LotLink {
+            id: r.lot.id,
+            code: r.lot.code.clone(),
+            place: place(r),
+            note: format!("submitted {}", crate::clock::display(&r.lot.state_changed_at)),
+        })
+        .collect();
+    let now = time::OffsetDateTime::now_utc();
+    let today = crate::clock::format(now.replace_time(time::Time::MIDNIGHT));
+    let week = crate::clock::format(now.replace_time(time::Time::MIDNIGHT) - time::Duration::days(6));
+    let activity = db::audit::recent(&s.db, id, 12)
+        .await?
+        .into_iter()
+        .map(|a| Activity {
+            at: crate::clock::display(&a.at),
+            actor: a.actor,
+            what: format!("{} {} #{}", a.action, a.entity.replace('_', " "), a.entity_id.unwrap_or(0)),
+        })
+        .collect();
+    render(&ProjectPage {
+        nav: ProjectNav {
+            id,
+            name: p.code.clone(),
+        },
+        total_lots: reports.len(),
+        states,
+        tests_today: db::field_tests::count_since(&s.db, id, &today).await?,
+        tests_week: db::field_tests::count_since(&s.db, id, &week).await?,
+        tests_total: db::field_tests::count(&s.db, id).await?,
+        failing,
+        owed,
+        queue,
+        activity,
+        code: p.code,
+        name: p.name,
+        contract: p.contract,
+        client: p.client,
+        contractor: p.contractor,
+    })
+}
+
+/// A lab test line on the sources page.
+struct LabRow {
+    id: i64,
+    code: String,
+    effort: String,
+    mdd: String,
+    omc: String,
+    status: String,
+    tested_on: String,
+}
+
+/// A source with its lab tests.
+struct SourceBlock {
+    code: String,
+    name: String,
+    description: String,
+    classification: String,
+    gs: String,
+    labs: Vec<LabRow>,
+}
+
+#[derive(Template)]
+#[template(path = "sources.html")]
+struct SourcesPage {
+    nav: ProjectNav,
+    name: String,
+    density_unit: String,
+    sources: Vec<SourceBlock>,
+}
+
+async fn sources(State(s): State<AppState>, Path(id): Path<i64>) -> PageResult {
+    let p = setup::require_project(&s.db, id).await?;
+    let u = Units::of(&p);
+    let mut blocks = Vec::new();
+    for src in db::sources::list(&s.db, id).await? {
+        let labs = db::lab_tests::list_for_source(&s.db, src.id)
+            .await?
+            .into_iter()
+            .map(|l| LabRow {
+                id: l.id,
+                code: l.code,
+                effort: crate::reduction::lab::EffortPreset::parse_code(&l.effort)
+                    .map_or(l.effort.clone(), |e| e.label().to_string()),
+                mdd: u.density(l.max_dry_density_kg_m3),
+                omc: format!("{:.1}", l.optimum_water_content_pct),
+                status: l.status,
+                tested_on: l.tested_on,
+            })
+            .collect();
+        blocks.push(SourceBlock {
+            code: src.code,
+            name: src.name,
+            description: src.description,
+            classification: [src.uscs_class, src.aashto_class]
+                .into_iter()
+                .filter(|s| !s.is_empty())
+                .collect::<Vec<_>>()
+                .join(" / "),
+            gs: match src.gs_coarse {
+                Some(c) => format!("{:.2} (fines), {:.2} (coarse)", src.gs_fines, c),
+                None => format!("{:.2}", src.gs_fines),
+            },
+            labs,
+        });
+    }
+    render(&SourcesPage {
+        nav: ProjectNav {
+            id,
+            name: p.code.clone(),
+        },
+        name: p.name,
+        density_unit: u.density_unit().to_string(),
+        sources: blocks,
+    })
+}

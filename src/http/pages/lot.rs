@@ -1,0 +1,362 @@
+//! The lot sheet, and the form actions a lot allows (submit, accept, reject, void).
+
+use askama::Template;
+use axum::Router;
+use axum::extract::{Path, State};
+use axum::http::StatusCode;
+use axum::routing::{get, post};
+
+use super::{PageError, PageResult, ProjectNav, cautions, see_other};
+use crate::app::AppState;
+use crate::charts::{RcBar, RcChartInput, RcStatus, rc_chart};
+use crate::db;
+use crate::error::AppError;
+use crate::http::extract::{RequestActor, parse_form};
+use crate::ledger::lot_report::LotReport;
+use crate::ledger::{self, lot_report};
+use crate::present::{self, Units};
+
+/// Routes of this module.
+pub fn router() -> Router<AppState> {
+    Router::new()
+        .route("/lots/{id}", get(sheet))
+        .route("/lots/{id}/submit", post(submit))
+        .route("/lots/{id}/accept", post(accept))
+        .route("/lots/{id}/reject", post(reject))
+        .route("/field-tests/{id}/void", post(void))
+}
+
+/// A test row on the sheet, already formatted.
+pub struct Row {
+    pub id: i64,
+    pub number: String,
+    pub date: String,
+    pub chainage: String,
+    pub offset: String,
+    pub method: String,
+    pub wet: String,
+    pub water: String,
+    pub dry: String,
+    pub rc: String,
+    pub dev: String,
+    pub result: String,
+    pub struck: bool,
+    pub note: String,
+    pub can_retest: bool,
+    pub can_void: bool,
+}
+
+/// Formats a lot's tests as sheet rows.
+pub fn rows(r: &LotReport, u: &Units) -> Vec<Row> {
+    let takes_changes = r.lot.state != "submitted";
+    r.tests
+        .iter()
+        .map(|t| {
+            let result = match t.standing.as_str() {
+                "voided" => "void",
+                "superseded" => "superseded",
+                _ if t.passed => "pass",
+                _ => "fail",
+            };
+            let mut notes = Vec::new();
+            if let Some(n) = &t.retest_of_number {
+                notes.push(format!("retest of {n}"));
+            }
+            if let Some(v) = &t.test.void_reason {
+                notes.push(format!(
+                    "void: {v} ({})",
+                    t.test.voided_by.clone().unwrap_or_default()
+                ));
+            }
+            if let Some(b) = &t.superseded_by {
+                notes.push(format!("superseded by {b}"));
+            }
+            if t.standing == "counted" && !t.passed {
+                notes.extend(t.reasons.iter().cloned());
+            }
+            if let Some(c) = t.test.coarse_pct.filter(|c| *c > 0.0) {
+                notes.push(format!("oversize {c:.0} %, reference {}", u.density_with_unit(t.reference_mdd_kg_m3.unwrap_or(0.0))));
+            }
+            let has_live_retest = r
+                .tests
+                .iter()
+                .any(|o| o.test.retest_of == Some(t.test.id) && o.test.void_reason.is_none());
+            Row {
+                id: t.test.id,
+                number: t.test.number.clone(),
+                date: crate::clock::display(&t.test.tested_at),
+                chainage: u.chainage(t.test.chainage_m),
+                offset: u.offset(t.test.offset_m),
+                method: t.test.method.replace('_', " "),
+                wet: u.density(t.test.wet_density_kg_m3),
+                water: format!("{:.1}", t.test.water_content_pct),
+                dry: u.density(t.test.dry_density_kg_m3),
+                rc: present::pct(t.relative_compaction_pct),
+                dev: present::signed(t.moisture_deviation_pct),
+                result: result.to_string(),
+                struck: t.standing != "counted",
+                note: notes.join("; "),
+                can_retest: takes_changes && !t.passed && t.test.void_reason.is_none() && !has_live_retest,
+                can_void: takes_changes && t.test.void_reason.is_none(),
+            }
+        })
+        .collect()
+}
+
+/// The RC-per-test chart of a lot.
+pub fn chart(r: &LotReport) -> String {
+    let tests = r
+        .tests
+        .iter()
+        .filter_map(|t| {
+            let rc = t.relative_compaction_pct?;
+            let status = match t.standing.as_str() {
+                "voided" => RcStatus::Voided,
+                "superseded" => RcStatus::Superseded,
+                _ if t.passed => RcStatus::Pass,
+                _ => RcStatus::Fail,
+            };
+            Some(RcBar {
+                label: t.test.number.clone(),
+                rc_pct: rc,
+                status,
+                href: None,
+            })
+        })
+        .collect();
+    rc_chart(&RcChartInput {
+        title: format!("Relative compaction per test, lot {}", r.lot.code),
+        tests,
+        limit_pct: r.clause.rc_min_pct,
+        mean_pct: r.verdict.mean,
+    })
+}
+
+/// A certificate revision listed on the sheet.
+struct CertLine {
+    id: i64,
+    number: String,
+    revision: i64,
+    issued: String,
+    current: bool,
+}
+
+/// A state change listed on the sheet.
+struct HistoryLine {
+    at: String,
+    actor: String,
+    what: String,
+}
+
+#[derive(Template)]
+#[template(path = "lot.html")]
+struct LotPage {
+    nav: ProjectNav,
+    id: i64,
+    code: String,
+    state: String,
+    state_label: String,
+    zone: String,
+    layer: i64,
+    from: String,
+    to: String,
+    band: String,
+    length: String,
+    area: String,
+    clause: String,
+    clause_title: String,
+    rc_min: String,
+    window: String,
+    rule: String,
+    frequency: String,
+    lab_id: i64,
+    lab_code: String,
+    source: String,
+    mdd: String,
+    omc: String,
+    gs: String,
+    effort: String,
+    density_unit: String,
+    rows: Vec<Row>,
+    accepted: bool,
+    n: usize,
+    mean: String,
+    sd: String,
+    min: String,
+    max: String,
+    q: String,
+    pwl: String,
+    reasons: Vec<String>,
+    required: u32,
+    owed: u32,
+    blockers: Vec<String>,
+    chart: String,
+    can_add: bool,
+    can_submit: bool,
+    can_review: bool,
+    can_reissue: bool,
+    cert_stale: bool,
+    certs: Vec<CertLine>,
+    history: Vec<HistoryLine>,
+    message: String,
+    cautions: Vec<String>,
+}
+
+async fn sheet(State(s): State<AppState>, Path(id): Path<i64>) -> PageResult {
+    sheet_with(&s, id, String::new(), StatusCode::OK).await
+}
+
+async fn sheet_with(s: &AppState, id: i64, message: String, status: StatusCode) -> PageResult {
+    let r = lot_report::build(&s.db, id).await?;
+    let u = Units::of(&r.project);
+    let certs = db::certificates::for_lot(&s.db, id)
+        .await?
+        .into_iter()
+        .map(|c| CertLine {
+            id: c.id,
+            number: c.number,
+            revision: c.revision,
+            issued: crate::clock::display(&c.issued_at),
+            current: c.superseded_at.is_none(),
+        })
+        .collect();
+    let history = db::lots::transitions(&s.db, id)
+        .await?
+        .into_iter()
+        .map(|t| HistoryLine {
+            at: crate::clock::display(&t.at),
+            actor: t.actor,
+            what: if t.comment.is_empty() {
+                format!("{} → {}", t.from_state, t.to_state)
+            } else {
+                format!("{} → {}: {}", t.from_state, t.to_state, t.comment)
+            },
+        })
+        .collect();
+    let c = &r.clause;
+    let mut frequency = vec![format!("at least {} per lot", c.min_tests_per_lot)];
+    if let Some(a) = c.area_per_test_m2 {
+        frequency.push(format!("one per {}", u.area(a)));
+    }
+    if let Some(l) = c.length_per_test_m {
+        frequency.push(format!("one per {}", u.length(l)));
+    }
+    let v = &r.verdict;
+    let page = LotPage {
+        nav: ProjectNav {
+            id: r.project.id,
+            name: r.project.code.clone(),
+        },
+        id,
+        code: r.lot.code.clone(),
+        state: r.display_state.clone(),
+        state_label: present::state_label(&r.display_state).to_string(),
+        zone: r.lot.zone_name.clone(),
+        layer: r.lot.layer_number,
+        from: u.chainage(r.lot.chainage_from_m),
+        to: u.chainage(r.lot.chainage_to_m),
+        band: format!("{} to {}", u.offset(r.lot.offset_left_m), u.offset(r.lot.offset_right_m)),
+        length: u.length(r.length_m),
+        area: u.area(r.area_m2),
+        clause: c.code.clone(),
+        clause_title: c.title.clone(),
+        rc_min: format!("{:.1} %", c.rc_min_pct),
+        window: format!("−{:.1} to +{:.1} points of OMC", c.moisture_below_pct, c.moisture_above_pct),
+        rule: v.rule_label.clone(),
+        frequency: frequency.join(", "),
+        lab_id: r.lab_test.id,
+        lab_code: r.lab_test.code.clone(),
+        source: format!("{} ({})", r.source.name, r.source.code),
+        mdd: u.density_with_unit(r.lab_test.max_dry_density_kg_m3),
+        omc: format!("{:.1} %", r.lab_test.optimum_water_content_pct),
+        gs: format!("{:.2}", r.lab_test.specific_gravity),
+        effort: crate::reduction::lab::EffortPreset::parse_code(&r.lab_test.effort)
+            .map_or(r.lab_test.effort.clone(), |e| e.label().to_string()),
+        density_unit: u.density_unit().to_string(),
+        rows: rows(&r, &u),
+        accepted: v.accepted,
+        n: v.n,
+        mean: present::pct(v.mean),
+        sd: v.std_dev.map_or("–".into(), |x| format!("{x:.2}")),
+        min: present::pct(v.min),
+        max: present::pct(v.max),
+        q: v.quality_index.map_or("–".into(), |x| format!("{x:.2}")),
+        pwl: present::pct(v.pwl),
+        reasons: v.reasons.clone(),
+        required: r.tests_required,
+        owed: r.tests_owed,
+        blockers: r.submit_blockers.clone(),
+        chart: chart(&r),
+        can_add: r.lot.state == "open" || r.lot.state == "rejected",
+        can_submit: (r.lot.state == "open" || r.lot.state == "rejected") && r.submit_blockers.is_empty(),
+        can_review: r.lot.state == "submitted",
+        can_reissue: r.lot.state == "accepted" && !r.certificate_current,
+        cert_stale: r.lot.state == "accepted" && r.certificate.is_some() && !r.certificate_current,
+        certs,
+        history,
+        message,
+        cautions: cautions(),
+    };
+    super::render_status(status, &page)
+}
+
+/// The comment box of a review form.
+#[derive(serde::Deserialize)]
+struct CommentForm {
+    #[serde(default)]
+    comment: String,
+}
+
+/// Runs a lot action; on refusal, re-renders the sheet with the reasons and the right status.
+async fn act<F, Fut>(s: &AppState, id: i64, body: &[u8], f: F) -> PageResult
+where
+    F: FnOnce(String) -> Fut,
+    Fut: std::future::Future<Output = crate::error::Result<LotReport>>,
+{
+    let form: CommentForm = parse_form(body).map_err(PageError)?;
+    match f(form.comment).await {
+        Ok(_) => Ok(see_other(&format!("/lots/{id}"))),
+        Err(e @ (AppError::Conflict { .. } | AppError::Invalid { .. })) => {
+            let mut msg = e.user_message();
+            if !e.reasons().is_empty() {
+                msg = format!("{msg}: {}", e.reasons().join("; "));
+            }
+            sheet_with(s, id, msg, e.status()).await
+        }
+        Err(e) => Err(e.into()),
+    }
+}
+
+async fn submit(State(s): State<AppState>, Path(id): Path<i64>, RequestActor(a): RequestActor, body: axum::body::Bytes) -> PageResult {
+    let db = s.db.clone();
+    act(&s, id, &body, |c| async move { ledger::review::submit(&db, id, &c, &a).await }).await
+}
+
+async fn accept(State(s): State<AppState>, Path(id): Path<i64>, RequestActor(a): RequestActor, body: axum::body::Bytes) -> PageResult {
+    let db = s.db.clone();
+    act(&s, id, &body, |c| async move { ledger::review::accept(&db, id, &c, &a).await }).await
+}
+
+async fn reject(State(s): State<AppState>, Path(id): Path<i64>, RequestActor(a): RequestActor, body: axum::body::Bytes) -> PageResult {
+    let db = s.db.clone();
+    act(&s, id, &body, |c| async move { ledger::review::reject(&db, id, &c, &a).await }).await
+}
+
+/// The reason box of the void form.
+#[derive(serde::Deserialize)]
+struct VoidForm {
+    #[serde(default)]
+    reason: String,
+}
+
+async fn void(State(s): State<AppState>, Path(id): Path<i64>, RequestActor(a): RequestActor, body: axum::body::Bytes) -> PageResult {
+    let form: VoidForm = parse_form(&body).map_err(PageError)?;
+    let test = ledger::field::require_test(&s.db, id).await?;
+    match ledger::field::void_test(&s.db, id, &form.reason, &a).await {
+        Ok(_) => Ok(see_other(&format!("/lots/{}", test.lot_id))),
+        Err(e @ (AppError::Conflict { .. } | AppError::Invalid { .. })) => {
+            sheet_with(&s, test.lot_id, format!("void {}: {}", test.number, e.user_message()), e.status()).await
+        }
+        Err(e) => Err(e.into()),
+    }
+}

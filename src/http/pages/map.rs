@@ -1,0 +1,202 @@
+//! The lift map: chainage along x, layers stacked by zone along y, one rectangle per lot.
+
+use askama::Template;
+use axum::Router;
+use axum::extract::{Path, State};
+use axum::routing::get;
+use serde::Deserialize;
+
+use super::{PageResult, ProjectNav, render};
+use crate::app::AppState;
+use crate::charts::{LiftMapInput, MapLot, MapRow, MapState, lift_map};
+use crate::db;
+use crate::error::AppError;
+use crate::http::extract::ApiQuery;
+use crate::ledger::{overview, setup};
+use crate::present::{self, Units};
+use crate::reduction::Chainage;
+
+/// Routes of this module.
+pub fn router() -> Router<AppState> {
+    Router::new().route("/projects/{id}/map", get(map))
+}
+
+/// Zoom: a chainage range in the project's style (`0+400`) or metres.
+#[derive(Debug, Deserialize)]
+struct MapQuery {
+    from: Option<String>,
+    to: Option<String>,
+}
+
+/// The map's state for a judged lot.
+pub fn map_state(display_state: &str) -> MapState {
+    match display_state {
+        "owed_tests" => MapState::OwedTests,
+        "failing" => MapState::Failing,
+        "submitted" => MapState::Submitted,
+        "accepted" => MapState::Accepted,
+        "rejected" => MapState::Rejected,
+        "certified" => MapState::Certified,
+        _ => MapState::Open,
+    }
+}
+
+/// A row of the lot table under the map.
+struct LotRow {
+    id: i64,
+    code: String,
+    zone: String,
+    layer: i64,
+    from: String,
+    to: String,
+    state_code: String,
+    state: String,
+    mark: String,
+    tests: usize,
+    owed: u32,
+}
+
+/// A state in the legend list.
+struct StateKey {
+    code: String,
+    label: String,
+    mark: String,
+    count: usize,
+}
+
+#[derive(Template)]
+#[template(path = "map.html")]
+struct MapPage {
+    nav: ProjectNav,
+    name: String,
+    svg: String,
+    range: String,
+    zoomed: bool,
+    from_value: String,
+    to_value: String,
+    lots: Vec<LotRow>,
+    states: Vec<StateKey>,
+}
+
+fn encode(s: &str) -> String {
+    form_urlencoded::byte_serialize(s.as_bytes()).collect()
+}
+
+async fn map(State(s): State<AppState>, Path(id): Path<i64>, ApiQuery(q): ApiQuery<MapQuery>) -> PageResult {
+    let p = setup::require_project(&s.db, id).await?;
+    let u = Units::of(&p);
+    let parse = |field: &str, v: &Option<String>| -> Result<Option<f64>, AppError> {
+        match v.as_deref().map(str::trim).filter(|v| !v.is_empty()) {
+            None => Ok(None),
+            Some(t) => Chainage::parse(t, u.chainage)
+                .map(|c| Some(c.metres()))
+                .map_err(|e| AppError::invalid(field, e.to_string())),
+        }
+    };
+    let from = parse("from", &q.from)?;
+    let to = parse("to", &q.to)?;
+    let reports = overview::project_reports(&s.db, id).await?;
+    let layers = db::layers::list(&s.db, id).await?;
+    let extent_from = reports.iter().map(|r| r.lot.chainage_from_m).fold(f64::INFINITY, f64::min);
+    let extent_to = reports.iter().map(|r| r.lot.chainage_to_m).fold(f64::NEG_INFINITY, f64::max);
+    let (extent_from, extent_to) = if extent_from.is_finite() { (extent_from, extent_to) } else { (0.0, 1000.0) };
+    let view_from = from.unwrap_or(extent_from);
+    let view_to = to.unwrap_or(extent_to);
+    if view_to <= view_from {
+        return Err(AppError::invalid("to", "must be a chainage after from").into());
+    }
+    let rows: Vec<MapRow> = layers
+        .iter()
+        .enumerate()
+        .map(|(i, l)| MapRow {
+            zone: l.zone_name.clone(),
+            layer: format!("layer {}", l.number),
+            row: i,
+        })
+        .collect();
+    let row_of = |layer_id: i64| layers.iter().position(|l| l.id == layer_id).unwrap_or(0);
+    let visible: Vec<_> = reports
+        .iter()
+        .filter(|r| r.lot.chainage_to_m > view_from && r.lot.chainage_from_m < view_to)
+        .collect();
+    let lots = visible
+        .iter()
+        .map(|r| MapLot {
+            row: row_of(r.lot.layer_id),
+            from_m: r.lot.chainage_from_m,
+            to_m: r.lot.chainage_to_m,
+            state: map_state(&r.display_state),
+            title: format!(
+                "{} · {} layer {} · {} to {} · {} · {} tests, {} owed",
+                r.lot.code,
+                r.lot.zone_name,
+                r.lot.layer_number,
+                u.chainage(r.lot.chainage_from_m),
+                u.chainage(r.lot.chainage_to_m),
+                present::state_label(&r.display_state),
+                r.verdict.n,
+                r.tests_owed
+            ),
+            href: format!("/lots/{}", r.lot.id),
+        })
+        .collect();
+    let style = u.chainage;
+    let zoom_units = u;
+    let svg = lift_map(&LiftMapInput {
+        chainage_from_m: view_from,
+        chainage_to_m: view_to,
+        rows,
+        lots,
+        chainage_label: Box::new(move |m| Chainage::new(m).map_or(format!("{m:.0}"), |c| c.format(style))),
+        width_px: 1100,
+        zoom_href: Some(Box::new(move |a, b| {
+            format!(
+                "/projects/{id}/map?from={}&to={}",
+                encode(&zoom_units.chainage(a)),
+                encode(&zoom_units.chainage(b))
+            )
+        })),
+    });
+    let states = MapState::ALL
+        .iter()
+        .map(|st| StateKey {
+            code: st.code().to_string(),
+            label: st.label().to_string(),
+            mark: st.mark().to_string(),
+            count: visible.iter().filter(|r| map_state(&r.display_state) == *st).count(),
+        })
+        .collect();
+    let rows = visible
+        .iter()
+        .map(|r| {
+            let st = map_state(&r.display_state);
+            LotRow {
+                id: r.lot.id,
+                code: r.lot.code.clone(),
+                zone: r.lot.zone_name.clone(),
+                layer: r.lot.layer_number,
+                from: u.chainage(r.lot.chainage_from_m),
+                to: u.chainage(r.lot.chainage_to_m),
+                state_code: st.code().to_string(),
+                state: st.label().to_string(),
+                mark: st.mark().to_string(),
+                tests: r.tests.len(),
+                owed: r.tests_owed,
+            }
+        })
+        .collect();
+    render(&MapPage {
+        nav: ProjectNav {
+            id,
+            name: p.code.clone(),
+        },
+        name: p.name.clone(),
+        svg,
+        range: format!("{} to {}", u.chainage(view_from), u.chainage(view_to)),
+        zoomed: from.is_some() || to.is_some(),
+        from_value: q.from.clone().unwrap_or_default(),
+        to_value: q.to.clone().unwrap_or_default(),
+        lots: rows,
+        states,
+    })
+}

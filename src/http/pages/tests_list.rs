@@ -1,0 +1,294 @@
+//! The test list with filters, and a CSV download of exactly what is shown.
+
+use askama::Template;
+use axum::Router;
+use axum::extract::{Path, State};
+use axum::http::header;
+use axum::response::IntoResponse;
+use axum::routing::get;
+use serde::Deserialize;
+
+use super::{PageError, PageResult, ProjectNav, render};
+use crate::app::AppState;
+use crate::error::AppError;
+use crate::http::extract::ApiQuery;
+use crate::ledger::lot_report::{LotReport, TestLine};
+use crate::ledger::{overview, setup};
+use crate::present::{self, Units};
+use crate::reduction::Chainage;
+
+/// Routes of this module.
+pub fn router() -> Router<AppState> {
+    Router::new()
+        .route("/projects/{id}/tests", get(list))
+        .route("/projects/{id}/tests.csv", get(csv))
+}
+
+/// The filters as typed (all optional).
+#[derive(Debug, Default, Clone, Deserialize)]
+#[serde(default)]
+pub struct Filters {
+    pub from: String,
+    pub to: String,
+    pub layer: String,
+    pub date_from: String,
+    pub date_to: String,
+    pub method: String,
+    pub verdict: String,
+}
+
+impl Filters {
+    /// The query string that reproduces these filters.
+    fn query(&self) -> String {
+        let mut s = form_urlencoded::Serializer::new(String::new());
+        for (k, v) in [
+            ("from", &self.from),
+            ("to", &self.to),
+            ("layer", &self.layer),
+            ("date_from", &self.date_from),
+            ("date_to", &self.date_to),
+            ("method", &self.method),
+            ("verdict", &self.verdict),
+        ] {
+            if !v.is_empty() {
+                s.append_pair(k, v);
+            }
+        }
+        s.finish()
+    }
+}
+
+/// A test with its lot, as listed.
+pub struct Listed<'a> {
+    pub report: &'a LotReport,
+    pub line: &'a TestLine,
+}
+
+fn result_of(l: &TestLine) -> &'static str {
+    match l.standing.as_str() {
+        "voided" => "void",
+        "superseded" => "superseded",
+        _ if l.passed => "pass",
+        _ => "fail",
+    }
+}
+
+/// Applies the filters to every judged test of the project.
+fn select<'a>(reports: &'a [LotReport], f: &Filters, u: &Units) -> Result<Vec<Listed<'a>>, AppError> {
+    let ch = |field: &str, v: &str| -> Result<Option<f64>, AppError> {
+        if v.trim().is_empty() {
+            return Ok(None);
+        }
+        Chainage::parse(v.trim(), u.chainage)
+            .map(|c| Some(c.metres()))
+            .map_err(|e| AppError::invalid(field, e.to_string()))
+    };
+    let from = ch("from", &f.from)?;
+    let to = ch("to", &f.to)?;
+    let date = |field: &str, v: &str| -> Result<Option<String>, AppError> {
+        if v.trim().is_empty() {
+            Ok(None)
+        } else {
+            crate::ledger::validate::date(field, v).map(Some)
+        }
+    };
+    let d_from = date("date_from", &f.date_from)?;
+    let d_to = date("date_to", &f.date_to)?;
+    let layer: Option<i64> = if f.layer.is_empty() {
+        None
+    } else {
+        Some(f.layer.parse().map_err(|_| AppError::invalid("layer", "choose a layer from the list"))?)
+    };
+    let mut out = Vec::new();
+    for r in reports {
+        if layer.is_some_and(|l| l != r.lot.layer_id) {
+            continue;
+        }
+        for line in &r.tests {
+            let t = &line.test;
+            let day = crate::clock::date_of(&t.tested_at);
+            if from.is_some_and(|m| t.chainage_m < m)
+                || to.is_some_and(|m| t.chainage_m > m)
+                || d_from.as_ref().is_some_and(|d| day < *d)
+                || d_to.as_ref().is_some_and(|d| day > *d)
+                || (!f.method.is_empty() && t.method != f.method)
+                || (!f.verdict.is_empty() && result_of(line) != f.verdict)
+            {
+                continue;
+            }
+            out.push(Listed { report: r, line });
+        }
+    }
+    out.sort_by(|a, b| b.line.test.tested_at.cmp(&a.line.test.tested_at).then(b.line.test.id.cmp(&a.line.test.id)));
+    Ok(out)
+}
+
+/// A formatted row.
+struct Row {
+    lot_id: i64,
+    lot: String,
+    number: String,
+    taken: String,
+    layer: String,
+    chainage: String,
+    offset: String,
+    method: String,
+    dry: String,
+    water: String,
+    rc: String,
+    dev: String,
+    result: String,
+}
+
+/// A layer choice in the filter.
+struct LayerOption {
+    id: i64,
+    label: String,
+    selected: bool,
+}
+
+#[derive(Template)]
+#[template(path = "tests.html")]
+struct TestsPage {
+    nav: ProjectNav,
+    name: String,
+    f: Filters,
+    layers: Vec<LayerOption>,
+    rows: Vec<Row>,
+    total: usize,
+    shown: usize,
+    csv_url: String,
+    density_unit: String,
+    error: String,
+}
+
+const PAGE_ROWS: usize = 500;
+
+async fn list(State(s): State<AppState>, Path(id): Path<i64>, ApiQuery(f): ApiQuery<Filters>) -> PageResult {
+    let p = setup::require_project(&s.db, id).await?;
+    let u = Units::of(&p);
+    let reports = overview::project_reports(&s.db, id).await?;
+    let (selected, error) = match select(&reports, &f, &u) {
+        Ok(v) => (v, String::new()),
+        Err(e) => (Vec::new(), format!("{}: {}", e.field(), e.user_message())),
+    };
+    let layers = crate::db::layers::list(&s.db, id)
+        .await?
+        .into_iter()
+        .map(|l| LayerOption {
+            selected: f.layer == l.id.to_string(),
+            id: l.id,
+            label: format!("{} layer {}", l.zone_name, l.number),
+        })
+        .collect();
+    let rows = selected
+        .iter()
+        .take(PAGE_ROWS)
+        .map(|x| {
+            let t = &x.line.test;
+            Row {
+                lot_id: x.report.lot.id,
+                lot: x.report.lot.code.clone(),
+                number: t.number.clone(),
+                taken: crate::clock::display(&t.tested_at),
+                layer: format!("{} {}", x.report.lot.zone_name, x.report.lot.layer_number),
+                chainage: u.chainage(t.chainage_m),
+                offset: u.offset(t.offset_m),
+                method: t.method.replace('_', " "),
+                dry: u.density(t.dry_density_kg_m3),
+                water: format!("{:.1}", t.water_content_pct),
+                rc: present::pct(x.line.relative_compaction_pct),
+                dev: present::signed(x.line.moisture_deviation_pct),
+                result: result_of(x.line).to_string(),
+            }
+        })
+        .collect();
+    let q = f.query();
+    render(&TestsPage {
+        nav: ProjectNav {
+            id,
+            name: p.code.clone(),
+        },
+        name: p.name.clone(),
+        total: selected.len(),
+        shown: selected.len().min(PAGE_ROWS),
+        csv_url: if q.is_empty() {
+            format!("/projects/{id}/tests.csv")
+        } else {
+            format!("/projects/{id}/tests.csv?{q}")
+        },
+        f,
+        layers,
+        rows,
+        density_unit: u.density_unit().to_string(),
+        error,
+    })
+}
+
+async fn csv(State(s): State<AppState>, Path(id): Path<i64>, ApiQuery(f): ApiQuery<Filters>) -> Result<impl IntoResponse, PageError> {
+    let p = setup::require_project(&s.db, id).await?;
+    let u = Units::of(&p);
+    let reports = overview::project_reports(&s.db, id).await?;
+    let selected = select(&reports, &f, &u)?;
+    let mut w = csv::WriterBuilder::new().from_writer(Vec::new());
+    let du = u.density_unit();
+    let header = [
+        "test".to_string(),
+        "lot".into(),
+        "zone".into(),
+        "layer".into(),
+        "tested_at_utc".into(),
+        "technician".into(),
+        "method".into(),
+        "chainage".into(),
+        "chainage_m".into(),
+        "offset_m".into(),
+        format!("wet_density_{}", du.replace('/', "_per_").replace('³', "3")),
+        "water_content_pct".into(),
+        format!("dry_density_{}", du.replace('/', "_per_").replace('³', "3")),
+        "relative_compaction_pct".into(),
+        "moisture_deviation_pct".into(),
+        "result".into(),
+        "retest_of".into(),
+        "void_reason".into(),
+        "reduction_version".into(),
+    ];
+    let io = |e: csv::Error| PageError(AppError::Internal(anyhow::Error::new(e)));
+    w.write_record(&header).map_err(io)?;
+    for x in &selected {
+        let t = &x.line.test;
+        w.write_record([
+            t.number.clone(),
+            x.report.lot.code.clone(),
+            x.report.lot.zone_name.clone(),
+            x.report.lot.layer_number.to_string(),
+            t.tested_at.clone(),
+            t.technician.clone(),
+            t.method.clone(),
+            u.chainage(t.chainage_m),
+            format!("{:.3}", t.chainage_m),
+            format!("{:.2}", t.offset_m),
+            u.density(t.wet_density_kg_m3),
+            format!("{:.2}", t.water_content_pct),
+            u.density(t.dry_density_kg_m3),
+            x.line.relative_compaction_pct.map_or(String::new(), |v| format!("{v:.2}")),
+            x.line.moisture_deviation_pct.map_or(String::new(), |v| format!("{v:.2}")),
+            result_of(x.line).to_string(),
+            x.line.retest_of_number.clone().unwrap_or_default(),
+            t.void_reason.clone().unwrap_or_default(),
+            t.reduction_version.clone(),
+        ])
+        .map_err(io)?;
+    }
+    let body = w.into_inner().map_err(|e| PageError(AppError::Internal(anyhow::anyhow!("{e}"))))?;
+    // A UTF-8 byte-order mark makes spreadsheet programs read the units correctly.
+    let mut bytes = vec![0xEF, 0xBB, 0xBF];
+    bytes.extend(body);
+    Ok((
+        [
+            (header::CONTENT_TYPE, "text/csv; charset=utf-8".to_string()),
+            (header::CONTENT_DISPOSITION, format!("attachment; filename=\"{}-field-tests.csv\"", p.code)),
+        ],
+        bytes,
+    ))
+}
