@@ -267,7 +267,10 @@ mod tests {
         ];
         for (span, target, want) in cases {
             let got = nice_step(span, target);
-            assert!((got - want).abs() < 1e-9, "span {span} target {target}: {got}");
+            assert!(
+                (got - want).abs() < 1e-9,
+                "span {span} target {target}: {got}"
+            );
         }
     }
 
@@ -285,7 +288,10 @@ mod tests {
         assert_eq!(t.values, vec![0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7]);
         let t = ticks(1862.0, 1993.0, 5);
         assert_eq!(t.step, 20.0);
-        assert_eq!(t.values, vec![1880.0, 1900.0, 1920.0, 1940.0, 1960.0, 1980.0]);
+        assert_eq!(
+            t.values,
+            vec![1880.0, 1900.0, 1920.0, 1940.0, 1960.0, 1980.0]
+        );
     }
 
     #[test]

@@ -8,7 +8,7 @@ use super::legend::{self, LegendItem, Swatch};
 use super::marks::{self, Paint, Shape};
 use super::palette;
 use super::placement::{self, Obstacles, Spot};
-use super::svg::{self, SvgWriter, fit_text, text_width};
+use super::svg::{self, SvgWriter, bold_text_width, fit_text, text_width};
 
 /// Compaction curve sheet: lab points, fitted curve, MDD/OMC marker, ZAV and saturation lines, field tests.
 #[derive(Clone, Debug, Default, PartialEq)]
@@ -55,8 +55,8 @@ const FONT_TITLE: f64 = 16.0;
 const FONT_TICK: f64 = 13.0;
 const FONT_AXIS: f64 = 13.0;
 const FONT_NOTE: f64 = 12.5;
-const FONT_LINE_LABEL: f64 = 11.5;
-const FONT_FIELD_LABEL: f64 = 10.5;
+const FONT_LINE_LABEL: f64 = 12.0;
+const FONT_FIELD_LABEL: f64 = 11.0;
 const ZAV_LABEL: &str = "zero air voids";
 /// Up to this many field tests their numbers are written beside the markers.
 const MAX_FIELD_LABELS: usize = 10;
@@ -71,7 +71,9 @@ pub fn curve_chart(input: &CurveChartInput) -> String {
         .iter()
         .filter(|f| f.x.is_finite() && f.y.is_finite())
         .collect();
-    let optimum = Some(input.optimum).filter(|(x, y)| x.is_finite() && y.is_finite());
+    // No curve yet arrives as (0, 0): water content and density are positive, so treat it as absent.
+    let optimum =
+        Some(input.optimum).filter(|(x, y)| x.is_finite() && y.is_finite() && *x > 0.0 && *y > 0.0);
 
     let mut fit_points: Vec<(f64, f64)> = lab.clone();
     fit_points.extend(field.iter().map(|f| (f.x, f.y)));
@@ -79,14 +81,22 @@ pub fn curve_chart(input: &CurveChartInput) -> String {
     if fit_points.is_empty() {
         fit_points = fitted.clone();
     }
-    let (x_min, x_max, y_min, y_max) = bounds(&fit_points).unwrap_or((0.0, 25.0, 1600.0, 2200.0));
+    let (x_min, x_max, y_min, y_max) =
+        bounds(&fit_points).unwrap_or_else(|| default_extent(axis::unit_of(&input.y_label)));
+    // Padding never pushes a non-negative quantity (water content, density) below zero.
+    let floor_at_zero = |lo: f64, data_min: f64| if data_min >= 0.0 { lo.max(0.0) } else { lo };
     let (x_lo, x_hi) = axis::padded(x_min, x_max, 0.06, 2.0);
-    let (x_lo, x_hi, x_step) = axis::nice_extent(x_lo, x_hi, 6);
+    let (x_lo, x_hi, x_step) = axis::nice_extent(floor_at_zero(x_lo, x_min), x_hi, 6);
     let y_min_span = ((y_min + y_max).abs() / 2.0 * 0.03).max(1e-6);
     let (y_lo, y_hi) = axis::padded(y_min, y_max, 0.08, y_min_span);
+    let y_lo = floor_at_zero(y_lo, y_min);
     let (y_lo, mut y_hi, y_step) = axis::nice_extent(y_lo, y_hi, 5);
 
-    let top = if input.title.trim().is_empty() { 14.0 } else { 40.0 };
+    let top = if input.title.trim().is_empty() {
+        14.0
+    } else {
+        40.0
+    };
     let plot = Plot {
         left: 68.0,
         top,
@@ -153,7 +163,14 @@ pub fn curve_chart(input: &CurveChartInput) -> String {
     let clip_id = format!("{ids}-plot");
 
     let mut w = SvgWriter::with_capacity(8192 + 64 * (fitted.len() + lab.len() + field.len()));
-    frame::open_root(&mut w, WIDTH, height, title, &desc, "ll-chart ll-curve-chart");
+    frame::open_root(
+        &mut w,
+        WIDTH,
+        height,
+        title,
+        &desc,
+        "ll-chart ll-curve-chart",
+    );
     w.start("defs").open();
     w.start("clipPath").attr("id", &clip_id).open();
     w.start("rect")
@@ -164,8 +181,14 @@ pub fn curve_chart(input: &CurveChartInput) -> String {
         .leaf();
     w.close().close();
     if !input.title.trim().is_empty() {
-        let heading = fit_text(&input.title, FONT_TITLE, WIDTH - 24.0);
-        frame::text(&mut w, 12.0, 24.0, &heading, TextStyle::new(FONT_TITLE).bold());
+        let heading = fit_text(&input.title, FONT_TITLE * 1.1, WIDTH - 24.0);
+        frame::text(
+            &mut w,
+            12.0,
+            24.0,
+            &heading,
+            TextStyle::new(FONT_TITLE).bold(),
+        );
     }
     frame::y_grid(&mut w, &plot, &y_scale, &y_ticks);
     frame::x_grid(&mut w, &plot, &x_scale, &x_ticks);
@@ -174,7 +197,12 @@ pub fn curve_chart(input: &CurveChartInput) -> String {
     let saturation_px: Vec<Vec<(f64, f64)>> = input
         .saturation_lines
         .iter()
-        .map(|series| sorted_by_x(finite_points(&series.points)).iter().map(to_px).collect())
+        .map(|series| {
+            sorted_by_x(finite_points(&series.points))
+                .iter()
+                .map(to_px)
+                .collect()
+        })
         .collect();
     let zav_px: Vec<(f64, f64)> = zav.iter().map(to_px).collect();
     let fitted_px: Vec<(f64, f64)> = fitted.iter().map(to_px).collect();
@@ -208,7 +236,8 @@ pub fn curve_chart(input: &CurveChartInput) -> String {
             .map(|(f, p)| {
                 let text = fit_text(&f.label, FONT_FIELD_LABEL, 60.0);
                 let width = text_width(&text, FONT_FIELD_LABEL);
-                let spot = placement::horizontal(p.0 + 7.0, p.1 + 3.8, width, FONT_FIELD_LABEL, "start");
+                let spot =
+                    placement::horizontal(p.0 + 7.0, p.1 + 3.8, width, FONT_FIELD_LABEL, "start");
                 obstacles.add_box(spot.area);
                 spot
             })
@@ -238,9 +267,23 @@ pub fn curve_chart(input: &CurveChartInput) -> String {
         .open();
     for (i, pts) in saturation_px.iter().enumerate() {
         let dash = palette::SATURATION_DASHES[i % palette::SATURATION_DASHES.len()];
-        line(&mut w, pts, palette::REFERENCE, 1.1, Some(dash), "ll-saturation");
+        line(
+            &mut w,
+            pts,
+            palette::REFERENCE,
+            1.1,
+            Some(dash),
+            "ll-saturation",
+        );
     }
-    line(&mut w, &zav_px, palette::INK, 1.5, Some(palette::ZAV_DASH), "ll-zav");
+    line(
+        &mut w,
+        &zav_px,
+        palette::INK,
+        1.5,
+        Some(palette::ZAV_DASH),
+        "ll-zav",
+    );
     line(&mut w, &fitted_px, palette::BLUE, 2.2, None, "ll-fitted");
     w.close();
 
@@ -254,7 +297,13 @@ pub fn curve_chart(input: &CurveChartInput) -> String {
     w.close();
     if let (Some(spot), Some(text)) = (annotation, optimum_text.as_deref()) {
         w.start("g").attr("class", "ll-optimum-label").open();
-        spot_text(&mut w, &spot, &fit_text(text, FONT_NOTE, plot.width() - 8.0), FONT_NOTE, true);
+        spot_text(
+            &mut w,
+            &spot,
+            &fit_text(text, FONT_NOTE, plot.width() - 8.0),
+            FONT_NOTE,
+            true,
+        );
         w.close();
     }
 
@@ -317,16 +366,36 @@ pub fn curve_chart(input: &CurveChartInput) -> String {
         w.close();
     }
 
-    frame::y_axis(&mut w, &plot, &y_scale, &y_ticks, &input.y_label, fonts, &|v| {
-        axis::format_tick(v, y_step)
-    });
-    frame::x_axis(&mut w, &plot, &x_scale, &x_ticks, &input.x_label, fonts, WIDTH, &|v| {
-        axis::format_tick(v, x_step)
-    });
+    frame::y_axis(
+        &mut w,
+        &plot,
+        &y_scale,
+        &y_ticks,
+        &input.y_label,
+        fonts,
+        &|v| axis::format_tick(v, y_step),
+    );
+    frame::x_axis(
+        &mut w,
+        &plot,
+        &x_scale,
+        &x_ticks,
+        &input.x_label,
+        fonts,
+        WIDTH,
+        &|v| axis::format_tick(v, x_step),
+    );
     if lab.is_empty() && field.is_empty() {
         frame::empty_note(&mut w, &plot, "no lab points yet", 15.0);
     }
-    legend::draw(&mut w, &legend_items, 12.0, legend_top, WIDTH - 24.0, FONT_NOTE);
+    legend::draw(
+        &mut w,
+        &legend_items,
+        12.0,
+        legend_top,
+        WIDTH - 24.0,
+        FONT_NOTE,
+    );
     w.finish()
 }
 
@@ -430,7 +499,10 @@ fn legend_items(shown: Shown) -> Vec<LegendItem> {
 }
 
 fn describe(lab: usize, optimum: Option<&str>, field: &[&FieldMark]) -> String {
-    let mut text = format!("Compaction curve from {lab} lab specimen{}", if lab == 1 { "" } else { "s" });
+    let mut text = format!(
+        "Compaction curve from {lab} lab specimen{}",
+        if lab == 1 { "" } else { "s" }
+    );
     if let Some(optimum) = optimum {
         text.push_str(&format!(", {optimum}"));
     }
@@ -472,10 +544,20 @@ fn draw_crosshair(w: &mut SvgWriter, plot: &Plot, (x, y): (f64, f64)) {
 }
 
 /// Picks where the optimum annotation covers least: above, higher above, right, left, below.
-fn place_annotation(plot: &Plot, (x, y): (f64, f64), label: &str, obstacles: &mut Obstacles) -> Option<Spot> {
-    let label = fit_text(label, FONT_NOTE, plot.width() - 8.0);
-    let width = text_width(&label, FONT_NOTE);
-    let inside = |left: f64| left.clamp(plot.left + 4.0, (plot.right - 4.0 - width).max(plot.left + 4.0));
+fn place_annotation(
+    plot: &Plot,
+    (x, y): (f64, f64),
+    label: &str,
+    obstacles: &mut Obstacles,
+) -> Option<Spot> {
+    let label = fit_text(label, FONT_NOTE * 1.1, plot.width() - 8.0);
+    let width = bold_text_width(&label, FONT_NOTE);
+    let inside = |left: f64| {
+        left.clamp(
+            plot.left + 4.0,
+            (plot.right - 4.0 - width).max(plot.left + 4.0),
+        )
+    };
     let candidates: Vec<(Spot, Option<usize>)> = [
         (x - width / 2.0, y - 16.0),
         (x - width / 2.0, y - 30.0),
@@ -486,7 +568,10 @@ fn place_annotation(plot: &Plot, (x, y): (f64, f64), label: &str, obstacles: &mu
     ]
     .iter()
     .map(|(left, baseline)| {
-        (placement::horizontal(inside(*left), *baseline, width, FONT_NOTE, "start"), None)
+        (
+            placement::horizontal(inside(*left), *baseline, width, FONT_NOTE, "start"),
+            None,
+        )
     })
     .collect();
     let spot = placement::best(&candidates, obstacles, plot)?;
@@ -509,8 +594,14 @@ fn place_line_label(
     let size = FONT_LINE_LABEL;
     let mut candidates = Vec::new();
     for (p, angle) in placement::back_from_end(pts, plot, &[4.0, 24.0, 48.0, 76.0, 110.0, 150.0]) {
-        candidates.push((placement::horizontal(p.0 - 6.0, p.1 + 4.0, width, size, "end"), Some(id)));
-        candidates.push((placement::horizontal(p.0 + 6.0, p.1 + 4.0, width, size, "start"), Some(id)));
+        candidates.push((
+            placement::horizontal(p.0 - 6.0, p.1 + 4.0, width, size, "end"),
+            Some(id),
+        ));
+        candidates.push((
+            placement::horizontal(p.0 + 6.0, p.1 + 4.0, width, size, "start"),
+            Some(id),
+        ));
         if angle.abs() <= 60.0 {
             candidates.push((placement::along(p.0, p.1, angle, width, size), Some(id)));
         }
@@ -551,7 +642,14 @@ fn spot_text(w: &mut SvgWriter, spot: &Spot, text: &str, size: f64, bold: bool) 
         .close();
 }
 
-fn line(w: &mut SvgWriter, pts: &[(f64, f64)], colour: &str, width: f64, dash: Option<&str>, class: &str) {
+fn line(
+    w: &mut SvgWriter,
+    pts: &[(f64, f64)],
+    colour: &str,
+    width: f64,
+    dash: Option<&str>,
+    class: &str,
+) {
     if pts.len() < 2 {
         return;
     }
@@ -588,6 +686,22 @@ fn bounds(points: &[(f64, f64)]) -> Option<(f64, f64, f64, f64)> {
     ))
 }
 
+/// Axis extent with nothing to fit: water content 0–25 % and a usual fill density range in the y unit
+/// (1 600–2 200 kg/m³, common practice).
+fn default_extent(y_unit: &str) -> (f64, f64, f64, f64) {
+    let unit = y_unit.to_ascii_lowercase();
+    let (lo, hi) = if unit.starts_with("mg") || unit.starts_with("g/") || unit.starts_with("t/") {
+        (1.6, 2.2)
+    } else if unit.starts_with("kn") {
+        (15.7, 21.6)
+    } else if unit.starts_with("lb") || unit.starts_with("pcf") {
+        (100.0, 137.0)
+    } else {
+        (1600.0, 2200.0)
+    };
+    (0.0, 25.0, lo, hi)
+}
+
 /// Decimals for a density: none for kg/m³ or lb/ft³, one for kN/m³, three for Mg/m³ (common practice).
 fn density_decimals(magnitude: f64) -> usize {
     if magnitude >= 100.0 {
@@ -614,6 +728,13 @@ fn spaced_unit(unit: &str) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn empty_sheet_uses_the_unit_of_the_axis() {
+        assert_eq!(default_extent("kg/m³"), (0.0, 25.0, 1600.0, 2200.0));
+        assert_eq!(default_extent("Mg/m³"), (0.0, 25.0, 1.6, 2.2));
+        assert_eq!(default_extent("lb/ft³").2, 100.0);
+    }
 
     #[test]
     fn density_decimals_follow_the_unit_size() {

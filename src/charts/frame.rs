@@ -119,19 +119,8 @@ fn write_text_style(w: &mut SvgWriter, style: TextStyle<'_>) {
 }
 
 /// Opens the root `<svg>` (viewBox, 100 % width, `role="img"`), with `<title>`, `<desc>` and a paper background.
-pub fn open_root(
-    w: &mut SvgWriter,
-    width: f64,
-    height: f64,
-    title: &str,
-    desc: &str,
-    class: &str,
-) {
-    let view_box = format!(
-        "0 0 {} {}",
-        super::svg::num(width),
-        super::svg::num(height)
-    );
+pub fn open_root(w: &mut SvgWriter, width: f64, height: f64, title: &str, desc: &str, class: &str) {
+    let view_box = format!("0 0 {} {}", super::svg::num(width), super::svg::num(height));
     w.start("svg")
         .attr("xmlns", "http://www.w3.org/2000/svg")
         .attr("viewBox", &view_box)
@@ -239,11 +228,7 @@ pub fn y_axis(
             .num("y", y)
             .attr(
                 "transform",
-                &format!(
-                    "rotate(-90 {} {})",
-                    super::svg::num(x),
-                    super::svg::num(y)
-                ),
+                &format!("rotate(-90 {} {})", super::svg::num(x), super::svg::num(y)),
             );
         write_text_style(
             w,
@@ -287,7 +272,9 @@ pub fn x_axis(
     for v in &ticks.values {
         let text_value = label(*v);
         let half = text_width(&text_value, fonts.tick) / 2.0;
-        let x = scale.map(*v).clamp(half + 2.0, (chart_width - half - 2.0).max(half + 2.0));
+        let x = scale
+            .map(*v)
+            .clamp(half + 2.0, (chart_width - half - 2.0).max(half + 2.0));
         text(
             w,
             x,

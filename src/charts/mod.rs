@@ -15,13 +15,16 @@ pub mod svg;
 
 mod curve_chart;
 mod lift_map;
+mod map_cells;
+mod map_state;
 mod rc_chart;
 
-#[cfg(any())]
+#[cfg(test)]
 mod tests;
 
 pub use curve_chart::{CurveChartInput, FieldMark, curve_chart};
 pub use lift_map::{LiftMapInput, MapLot, MapRow, MapState, lift_map};
+pub use map_cells::{MAX_CELLS, MIN_LOT_PX, cell_width_px};
 pub use rc_chart::{RcBar, RcChartInput, RcStatus, rc_chart};
 
 /// A labelled line of (x, y) points, e.g. a saturation line "S = 80 %".

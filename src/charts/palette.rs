@@ -1,11 +1,11 @@
 //! Colours, dash patterns and lot-state fills shared by the charts.
 //!
-//! Hues come from the Okabe–Ito palette (Okabe & Ito, "Color Universal Design", 2008), chosen because
-//! its eight colours stay distinct for the common forms of colour-vision deficiency. Colour is never the
+//! Hues come from the Okabe–Ito palette, whose eight colours stay distinct for the common forms of
+//! colour-vision deficiency. Colour is never the
 //! only cue: lines also differ by dash pattern, markers by shape and fill, lot states by a hatch pattern
 //! and a text mark, so every chart also reads when printed in black and white.
 
-use super::lift_map::MapState;
+use super::map_state::MapState;
 use super::svg::SvgWriter;
 
 /// Okabe–Ito orange.
@@ -170,6 +170,11 @@ mod tests {
         write_pattern(&mut w, "p1", &state_style(MapState::Failing));
         let out = w.finish();
         let doc = roxmltree::Document::parse(&out).expect("well-formed");
-        assert_eq!(doc.descendants().filter(|n| n.has_tag_name("pattern")).count(), 1);
+        assert_eq!(
+            doc.descendants()
+                .filter(|n| n.has_tag_name("pattern"))
+                .count(),
+            1
+        );
     }
 }

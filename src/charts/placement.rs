@@ -3,6 +3,9 @@
 
 use super::frame::Plot;
 
+/// What crossing one line segment costs, in square pixels of covered marker.
+const LINE_CROSSING_COST: f64 = 30.0;
+
 /// A line segment in pixels, tagged with the line it belongs to.
 type Segment = (usize, (f64, f64), (f64, f64));
 
@@ -35,15 +38,16 @@ impl Obstacles {
             .extend(pts.windows(2).map(|p| (id, p[0], p[1])));
     }
 
-    /// A cost for covering `area`: boxes weigh more than line crossings.
-    pub fn cost(&self, area: &Plot, own_line: Option<usize>) -> usize {
-        let boxes = self.boxes.iter().filter(|b| overlaps(b, area)).count();
+    /// A cost for covering `area`: the square pixels of boxes covered, plus a fixed price per line
+    /// segment crossed, so a label that grazes a marker beats one that sits on it.
+    pub fn cost(&self, area: &Plot, own_line: Option<usize>) -> f64 {
+        let boxes: f64 = self.boxes.iter().map(|b| overlap_area(b, area)).sum();
         let lines = self
             .segments
             .iter()
             .filter(|(id, a, b)| Some(*id) != own_line && clip_segment(*a, *b, area).is_some())
             .count();
-        boxes * 4 + lines
+        boxes + LINE_CROSSING_COST * lines as f64
     }
 }
 
@@ -122,18 +126,26 @@ pub fn along(x: f64, y: f64, angle: f64, width: f64, size: f64) -> Spot {
 }
 
 /// The cheapest candidate that lies inside `bounds`; earlier candidates win ties.
-pub fn best(candidates: &[(Spot, Option<usize>)], obstacles: &Obstacles, bounds: &Plot) -> Option<Spot> {
-    let mut chosen: Option<(usize, Spot)> = None;
+pub fn best(
+    candidates: &[(Spot, Option<usize>)],
+    obstacles: &Obstacles,
+    bounds: &Plot,
+) -> Option<Spot> {
+    let mut chosen: Option<(f64, Spot)> = None;
     for (spot, own_line) in candidates {
         let a = &spot.area;
-        if a.left < bounds.left || a.right > bounds.right || a.top < bounds.top || a.bottom > bounds.bottom {
+        if a.left < bounds.left
+            || a.right > bounds.right
+            || a.top < bounds.top
+            || a.bottom > bounds.bottom
+        {
             continue;
         }
         let cost = obstacles.cost(a, *own_line);
         if chosen.is_none_or(|(c, _)| cost < c) {
             chosen = Some((cost, *spot));
         }
-        if cost == 0 {
+        if cost <= 0.0 {
             break;
         }
     }
@@ -197,11 +209,16 @@ pub fn clip_segment(a: (f64, f64), b: (f64, f64), area: &Plot) -> Option<((f64, 
     if t0 > t1 {
         return None;
     }
-    Some(((a.0 + t0 * dx, a.1 + t0 * dy), (a.0 + t1 * dx, a.1 + t1 * dy)))
+    Some((
+        (a.0 + t0 * dx, a.1 + t0 * dy),
+        (a.0 + t1 * dx, a.1 + t1 * dy),
+    ))
 }
 
-fn overlaps(a: &Plot, b: &Plot) -> bool {
-    a.left < b.right && a.right > b.left && a.top < b.bottom && a.bottom > b.top
+fn overlap_area(a: &Plot, b: &Plot) -> f64 {
+    let w = a.right.min(b.right) - a.left.max(b.left);
+    let h = a.bottom.min(b.bottom) - a.top.max(b.top);
+    if w > 0.0 && h > 0.0 { w * h } else { 0.0 }
 }
 
 #[cfg(test)]

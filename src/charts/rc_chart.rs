@@ -5,7 +5,8 @@ use super::frame::{self, AxisFonts, Plot, TextStyle};
 use super::legend::{self, LegendItem, Swatch};
 use super::marks::{self, Paint, Shape};
 use super::palette;
-use super::svg::{self, SvgWriter, fit_text, text_width};
+use super::placement::{self, Obstacles, Spot};
+use super::svg::{self, SvgWriter, bold_text_width, fit_text, text_width};
 
 /// Relative compaction per test against the limit (lot sheet).
 #[derive(Clone, Debug, Default, PartialEq)]
@@ -116,7 +117,8 @@ const FONT_TITLE: f64 = 16.0;
 const FONT_TICK: f64 = 13.0;
 const FONT_AXIS: f64 = 13.0;
 const FONT_NOTE: f64 = 12.5;
-const FONT_VALUE: f64 = 11.5;
+const FONT_VALUE: f64 = 12.0;
+const FONT_EMPTY: f64 = 15.0;
 /// Up to this many tests the RC value is printed over each marker.
 const MAX_VALUE_LABELS: usize = 15;
 /// Up to this many tests a thin stem joins each marker to the limit line.
@@ -125,7 +127,8 @@ const MAX_STEMS: usize = 60;
 /// Draws relative compaction per test against the limit, with an optional mean line and a legend.
 pub fn rc_chart(input: &RcChartInput) -> String {
     let n = input.tests.len();
-    let limit = Some(input.limit_pct).filter(|v| v.is_finite());
+    // A minimum of 0 % (or less) is no minimum: it is what an unset limit looks like.
+    let limit = Some(input.limit_pct).filter(|v| v.is_finite() && *v > 0.0);
     let mean = input.mean_pct.filter(|v| v.is_finite());
     let values: Vec<f64> = input
         .tests
@@ -146,7 +149,11 @@ pub fn rc_chart(input: &RcChartInput) -> String {
     let (lo, hi) = axis::padded(lo, hi, 0.08, 4.0);
     let (y_lo, mut y_hi, step) = axis::nice_extent(lo, hi, 5);
 
-    let top = if input.title.trim().is_empty() { 14.0 } else { 40.0 };
+    let top = if input.title.trim().is_empty() {
+        14.0
+    } else {
+        40.0
+    };
     let plot = Plot {
         left: 54.0,
         top,
@@ -191,7 +198,7 @@ pub fn rc_chart(input: &RcChartInput) -> String {
         "ll-chart ll-rc-chart",
     );
     if !input.title.trim().is_empty() {
-        let heading = fit_text(&input.title, FONT_TITLE, WIDTH - 24.0);
+        let heading = fit_text(&input.title, FONT_TITLE * 1.1, WIDTH - 24.0);
         frame::text(
             &mut w,
             12.0,
@@ -204,10 +211,24 @@ pub fn rc_chart(input: &RcChartInput) -> String {
 
     let x_of = |i: usize| plot.left + (i as f64 + 0.5) * slot;
     if let Some(limit) = limit {
-        reference_line(&mut w, &plot, y_scale.map(limit), palette::VERMILLION, palette::LIMIT_DASH, "ll-limit");
+        reference_line(
+            &mut w,
+            &plot,
+            y_scale.map(limit),
+            palette::VERMILLION,
+            palette::LIMIT_DASH,
+            "ll-limit",
+        );
     }
     if let Some(mean) = mean {
-        reference_line(&mut w, &plot, y_scale.map(mean), palette::INK, palette::MEAN_DASH, "ll-mean");
+        reference_line(
+            &mut w,
+            &plot,
+            y_scale.map(mean),
+            palette::INK,
+            palette::MEAN_DASH,
+            "ll-mean",
+        );
     }
     if n <= MAX_STEMS
         && let Some(limit) = limit
@@ -216,12 +237,6 @@ pub fn rc_chart(input: &RcChartInput) -> String {
     }
 
     let radius = (slot * 0.3).clamp(1.6, 5.0);
-    w.start("g").attr("class", "ll-tests").open();
-    for (i, test) in input.tests.iter().enumerate() {
-        draw_test(&mut w, test, x_of(i), slot, radius, &plot, &y_scale, show_values);
-    }
-    w.close();
-
     frame::y_axis(
         &mut w,
         &plot,
@@ -233,19 +248,134 @@ pub fn rc_chart(input: &RcChartInput) -> String {
     );
     ordinal_axis(&mut w, input, &plot, slot, &x_of);
 
-    let line_font = FONT_NOTE;
-    if let Some(limit) = limit {
-        let label = format!("minimum {} %", axis::format_number(limit, 1));
-        line_label(&mut w, &plot, y_scale.map(limit), &label, "end", palette::VERMILLION, line_font);
+    // Line labels go where they cover the fewest markers, value labels and each other.
+    let mut obstacles = Obstacles::default();
+    for (i, test) in input.tests.iter().enumerate() {
+        if test.rc_pct.is_finite() {
+            let y = y_scale.map(test.rc_pct).clamp(plot.top, plot.bottom);
+            obstacles.add_point((x_of(i), y), radius + 1.0);
+            if show_values {
+                obstacles.add_point((x_of(i), y - radius - 10.0), 12.0);
+            }
+        }
     }
-    if let Some(mean) = mean {
-        let label = format!("mean {} %", axis::format_number(mean, 1));
-        line_label(&mut w, &plot, y_scale.map(mean), &label, "start", palette::INK, line_font);
+    let lines: Vec<(f64, String, &str, [&str; 2])> = limit
+        .map(|v| {
+            (
+                y_scale.map(v),
+                format!("minimum {} %", axis::format_number(v, 1)),
+                palette::VERMILLION,
+                ["end", "start"],
+            )
+        })
+        .into_iter()
+        .chain(mean.map(|v| {
+            (
+                y_scale.map(v),
+                format!("mean {} %", axis::format_number(v, 1)),
+                palette::INK,
+                ["start", "end"],
+            )
+        }))
+        .collect();
+    for (id, (y, _, _, _)) in lines.iter().enumerate() {
+        obstacles.add_line(id, &[(plot.left, *y), (plot.right, *y)]);
     }
+    for (id, (y, label, colour, sides)) in lines.iter().enumerate() {
+        let width = bold_text_width(label, FONT_NOTE);
+        let mut candidates = Vec::new();
+        for side in sides {
+            let x = if *side == "end" {
+                plot.right - 4.0
+            } else {
+                plot.left + 6.0
+            };
+            candidates.push((
+                placement::horizontal(x, y - 5.0, width, FONT_NOTE, side),
+                Some(id),
+            ));
+            candidates.push((
+                placement::horizontal(x, y + 5.0 + FONT_NOTE * 0.8, width, FONT_NOTE, side),
+                Some(id),
+            ));
+        }
+        for fraction in [0.5, 0.25, 0.75] {
+            let x = plot.left + plot.width() * fraction;
+            candidates.push((
+                placement::horizontal(x, y - 5.0, width, FONT_NOTE, "middle"),
+                Some(id),
+            ));
+            candidates.push((
+                placement::horizontal(x, y + 5.0 + FONT_NOTE * 0.8, width, FONT_NOTE, "middle"),
+                Some(id),
+            ));
+        }
+        if let Some(spot) = placement::best(&candidates, &obstacles, &plot) {
+            obstacles.add_box(spot.area);
+            frame::text(
+                &mut w,
+                spot.x,
+                spot.y,
+                label,
+                TextStyle::new(FONT_NOTE)
+                    .anchor(spot.anchor)
+                    .fill(colour)
+                    .bold()
+                    .halo(),
+            );
+        }
+    }
+    // Markers after the labels, so a label never hides a test.
+    w.start("g").attr("class", "ll-tests").open();
+    for (i, test) in input.tests.iter().enumerate() {
+        draw_test(
+            &mut w,
+            test,
+            x_of(i),
+            slot,
+            radius,
+            &plot,
+            &y_scale,
+            show_values,
+        );
+    }
+    w.close();
+
     if n == 0 {
-        frame::empty_note(&mut w, &plot, "no tests yet", 15.0);
+        let message = "no tests yet";
+        let width = text_width(message, FONT_EMPTY);
+        let candidates: Vec<(Spot, Option<usize>)> = [0.5, 0.3, 0.7, 0.15, 0.85]
+            .iter()
+            .map(|f| {
+                let y = plot.top + plot.height() * f + FONT_EMPTY * 0.35;
+                (
+                    placement::horizontal(plot.mid_x(), y, width, FONT_EMPTY, "middle"),
+                    None,
+                )
+            })
+            .collect();
+        if let Some(spot) = placement::best(&candidates, &obstacles, &plot) {
+            w.start("g").attr("class", "ll-empty").open();
+            frame::text(
+                &mut w,
+                spot.x,
+                spot.y,
+                message,
+                TextStyle::new(FONT_EMPTY)
+                    .anchor("middle")
+                    .fill(palette::MUTED),
+            );
+            w.close();
+        }
     }
-    legend::draw(&mut w, &legend_items, 12.0, legend_top, WIDTH - 24.0, FONT_NOTE);
+    legend::draw(
+        &mut w,
+        &legend_items,
+        12.0,
+        legend_top,
+        WIDTH - 24.0,
+        FONT_NOTE,
+    );
     w.finish()
 }
 
@@ -254,7 +384,10 @@ fn describe(input: &RcChartInput, limit: Option<f64>, mean: Option<f64>) -> Stri
     if n == 0 {
         return "No tests yet.".to_string();
     }
-    let mut text = format!("{n} test{} in order of testing", if n == 1 { "" } else { "s" });
+    let mut text = format!(
+        "{n} test{} in order of testing",
+        if n == 1 { "" } else { "s" }
+    );
     let fails = input
         .tests
         .iter()
@@ -307,27 +440,6 @@ fn reference_line(w: &mut SvgWriter, plot: &Plot, y: f64, colour: &str, dash: &s
         .num("stroke-width", 1.6)
         .attr("stroke-dasharray", dash)
         .leaf();
-}
-
-fn line_label(w: &mut SvgWriter, plot: &Plot, y: f64, label: &str, anchor: &str, colour: &str, font: f64) {
-    let above = y - 5.0;
-    let baseline = if above - font < plot.top {
-        y + 5.0 + font * 0.8
-    } else {
-        above
-    };
-    let x = if anchor == "end" {
-        plot.right - 4.0
-    } else {
-        plot.left + 6.0
-    };
-    frame::text(
-        w,
-        x,
-        baseline,
-        label,
-        TextStyle::new(font).anchor(anchor).fill(colour).bold().halo(),
-    );
 }
 
 fn draw_stems(
@@ -406,7 +518,10 @@ fn draw_test(
                 x,
                 y - radius - 6.0,
                 &axis::format_number(test.rc_pct, 1),
-                TextStyle::new(FONT_VALUE).anchor("middle").fill(palette::MUTED),
+                TextStyle::new(FONT_VALUE)
+                    .anchor("middle")
+                    .fill(palette::MUTED)
+                    .halo(),
             );
         }
     } else {
@@ -415,7 +530,14 @@ fn draw_test(
             stroke: palette::MUTED,
             stroke_width: 1.0,
         };
-        marks::draw(w, Shape::Square, x, plot.bottom - radius - 2.0, radius, paint);
+        marks::draw(
+            w,
+            Shape::Square,
+            x,
+            plot.bottom - radius - 2.0,
+            radius,
+            paint,
+        );
     }
     w.close();
 }
@@ -447,7 +569,11 @@ fn ordinal_axis(
     );
     let shown: Vec<usize> = (0..labels.len()).filter(|i| i % every == 0).collect();
     for i in &shown {
-        d.push_str(&format!("M{} {}v5", svg::num(x_of(*i)), svg::num(plot.bottom)));
+        d.push_str(&format!(
+            "M{} {}v5",
+            svg::num(x_of(*i)),
+            svg::num(plot.bottom)
+        ));
     }
     w.start("path")
         .attr("d", &d)
@@ -471,7 +597,9 @@ fn ordinal_axis(
         plot.mid_x(),
         plot.bottom + 14.0 + FONT_TICK + FONT_AXIS,
         "Test, in order taken",
-        TextStyle::new(FONT_AXIS).anchor("middle").fill(palette::MUTED),
+        TextStyle::new(FONT_AXIS)
+            .anchor("middle")
+            .fill(palette::MUTED),
     );
     w.close();
 }

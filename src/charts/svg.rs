@@ -145,7 +145,11 @@ fn escape_into(out: &mut String, text: &str, in_attribute: bool) {
 
 /// Writes a coordinate with at most two decimals, no trailing zeros, no "-0"; non-finite becomes 0.
 pub fn push_num(out: &mut String, value: f64) {
-    let v = if value.is_finite() { value.clamp(-1e9, 1e9) } else { 0.0 };
+    let v = if value.is_finite() {
+        value.clamp(-1e9, 1e9)
+    } else {
+        0.0
+    };
     let hundredths = (v * 100.0).round() as i64;
     if hundredths < 0 {
         out.push('-');
@@ -155,7 +159,7 @@ pub fn push_num(out: &mut String, value: f64) {
     let frac = abs % 100;
     let _ = write!(out, "{whole}");
     if frac != 0 {
-        if frac % 10 == 0 {
+        if frac.is_multiple_of(10) {
             let _ = write!(out, ".{}", frac / 10);
         } else {
             let _ = write!(out, ".{frac:02}");
@@ -185,6 +189,11 @@ pub fn text_width(text: &str, font_size: f64) -> f64 {
         })
         .sum();
     em * font_size
+}
+
+/// Rough advance width of bold text, which runs about a tenth wider than regular.
+pub fn bold_text_width(text: &str, font_size: f64) -> f64 {
+    text_width(text, font_size) * 1.1
 }
 
 /// Shortens `text` with an ellipsis so it fits in `max_width` at `font_size`.
@@ -266,9 +275,15 @@ mod tests {
     #[test]
     fn escapes_markup_in_text_and_attributes() {
         let mut w = SvgWriter::default();
-        w.start("text").attr("data-x", "a\"<&>").open().text("<&>\"");
+        w.start("text")
+            .attr("data-x", "a\"<&>")
+            .open()
+            .text("<&>\"");
         let out = w.finish();
-        assert_eq!(out, "<text data-x=\"a&quot;&lt;&amp;&gt;\">&lt;&amp;&gt;\"</text>");
+        assert_eq!(
+            out,
+            "<text data-x=\"a&quot;&lt;&amp;&gt;\">&lt;&amp;&gt;\"</text>"
+        );
         assert!(roxmltree::Document::parse(&out).is_ok());
     }
 
@@ -280,7 +295,12 @@ mod tests {
     #[test]
     fn finish_closes_open_elements() {
         let mut w = SvgWriter::default();
-        w.start("svg").open().start("g").open().start("rect").num("x", 1.0);
+        w.start("svg")
+            .open()
+            .start("g")
+            .open()
+            .start("rect")
+            .num("x", 1.0);
         assert_eq!(w.finish(), "<svg><g><rect x=\"1\"/></g></svg>");
     }
 

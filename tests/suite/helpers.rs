@@ -222,3 +222,43 @@ pub fn nuclear_test(number: &str, chainage_m: f64, dry: f64, w_pct: f64) -> Valu
                      "moisture_density_kg_m3": dry * w_pct / 100.0}
     })
 }
+
+/// Starts a server on a fresh database holding the invented demo project.
+pub async fn spawn_demo() -> TestApp {
+    let dir = std::sync::Arc::new(tempfile::tempdir().expect("tempdir"));
+    let path = dir.path().join("demo.sqlite");
+    {
+        let pool = db::open(&path).await.expect("open db");
+        liftledger::demo::load(&pool).await.expect("demo loads");
+        pool.close().await;
+    }
+    spawn_on(dir, path).await
+}
+
+/// GET a page and return (status, body text).
+pub async fn page(app: &TestApp, path: &str) -> (u16, String) {
+    let r = app.client.get(app.url(path)).send().await.expect("GET failed");
+    let status = r.status().as_u16();
+    (status, r.text().await.unwrap_or_default())
+}
+
+/// Every inline `<svg>…</svg>` in a page.
+pub fn svgs(html: &str) -> Vec<&str> {
+    let mut out = Vec::new();
+    let mut rest = html;
+    while let Some(start) = rest.find("<svg") {
+        let Some(end) = rest[start..].find("</svg>") else { break };
+        out.push(&rest[start..start + end + 6]);
+        rest = &rest[start + end + 6..];
+    }
+    out
+}
+
+/// Text of every page of a PDF, read back with lopdf.
+pub fn pdf_pages(bytes: &[u8]) -> Vec<String> {
+    let doc = lopdf::Document::load_mem(bytes).expect("PDF parses");
+    doc.get_pages()
+        .keys()
+        .map(|p| doc.extract_text(&[*p]).expect("page text"))
+        .collect()
+}

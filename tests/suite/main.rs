@@ -7,4 +7,5 @@ mod bad_input;
 mod calculators;
 mod concurrency;
 mod openapi;
+mod pages;
 mod restart;
