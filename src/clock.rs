@@ -11,7 +11,8 @@ pub fn now() -> String {
 /// Formats a timestamp the way every stored time is written.
 pub fn format(t: OffsetDateTime) -> String {
     let t = t.replace_nanosecond(0).unwrap_or(t);
-    t.format(&Rfc3339).unwrap_or_else(|_| t.unix_timestamp().to_string())
+    t.format(&Rfc3339)
+        .unwrap_or_else(|_| t.unix_timestamp().to_string())
 }
 
 /// Parses an RFC 3339 time (as entered or stored) into UTC.

@@ -37,17 +37,24 @@ fn user_error(e: crate::error::AppError) -> anyhow::Error {
     match e {
         crate::error::AppError::Internal(inner) => inner,
         e if e.reasons().is_empty() => anyhow!("{}: {}", e.field(), e.user_message()),
-        e => anyhow!("{}: {} ({})", e.field(), e.user_message(), e.reasons().join("; ")),
+        e => anyhow!(
+            "{}: {} ({})",
+            e.field(),
+            e.user_message(),
+            e.reasons().join("; ")
+        ),
     }
 }
 
 /// Loads the demo project; returns a one-line summary of what was created.
 pub async fn load(pool: &Pool) -> anyhow::Result<String> {
     let setup_actor = Actor::system("D. Achterberg (QC manager)");
-    let mut frame: Value = serde_json::from_str(PROJECT).context("reading demo-data/project.json")?;
-    let project = ledger::setup::create_project(pool, &parse(frame["project"].take())?, &setup_actor)
-        .await
-        .map_err(user_error)?;
+    let mut frame: Value =
+        serde_json::from_str(PROJECT).context("reading demo-data/project.json")?;
+    let project =
+        ledger::setup::create_project(pool, &parse(frame["project"].take())?, &setup_actor)
+            .await
+            .map_err(user_error)?;
     let pid = project.id;
 
     let mut clauses = HashMap::new();
@@ -67,7 +74,9 @@ pub async fn load(pool: &Pool) -> anyhow::Result<String> {
     let mut labs = HashMap::new();
     for t in frame["lab_tests"].as_array_mut().into_iter().flatten() {
         let source = take_str(t, "source")?;
-        let sid = *sources.get(&source).ok_or_else(|| anyhow!("unknown source {source}"))?;
+        let sid = *sources
+            .get(&source)
+            .ok_or_else(|| anyhow!("unknown source {source}"))?;
         let lab = ledger::setup::create_lab_test(pool, sid, &parse(t.take())?, &setup_actor)
             .await
             .map_err(user_error)?;
@@ -86,7 +95,9 @@ pub async fn load(pool: &Pool) -> anyhow::Result<String> {
         let number = take_i64(l, "layer")?;
         let clause = take_str(l, "clause")?;
         let lab = take_str(l, "lab_test")?;
-        let obj = l.as_object_mut().ok_or_else(|| anyhow!("lot is not an object"))?;
+        let obj = l
+            .as_object_mut()
+            .ok_or_else(|| anyhow!("lot is not an object"))?;
         obj.insert("layer_id".into(), layers[&(zone.clone(), number)].into());
         obj.insert("clause_id".into(), clauses[&clause].into());
         obj.insert("lab_test_id".into(), labs[&lab].into());
@@ -96,7 +107,8 @@ pub async fn load(pool: &Pool) -> anyhow::Result<String> {
         lots.insert(lot.code.clone(), lot.id);
     }
 
-    let mut tests: Vec<Value> = serde_json::from_str(FIELD_TESTS).context("reading demo-data/field-tests.json")?;
+    let mut tests: Vec<Value> =
+        serde_json::from_str(FIELD_TESTS).context("reading demo-data/field-tests.json")?;
     let mut numbers = HashMap::new();
     for t in &mut tests {
         let lot = take_str(t, "lot")?;
@@ -105,7 +117,9 @@ pub async fn load(pool: &Pool) -> anyhow::Result<String> {
         let actor = Actor::system(&input.technician);
         let stored = match retest_of.as_ref().and_then(Value::as_str) {
             Some(failed) => {
-                let failed_id = *numbers.get(failed).ok_or_else(|| anyhow!("retest of unknown {failed}"))?;
+                let failed_id = *numbers
+                    .get(failed)
+                    .ok_or_else(|| anyhow!("retest of unknown {failed}"))?;
                 ledger::field::record_retest(pool, failed_id, &input, &actor).await
             }
             None => ledger::field::record_test(pool, lots[&lot], &input, &actor).await,
@@ -115,7 +129,8 @@ pub async fn load(pool: &Pool) -> anyhow::Result<String> {
         numbers.insert(stored.number.clone(), stored.id);
     }
 
-    let actions: Vec<Value> = serde_json::from_str(ACTIONS).context("reading demo-data/actions.json")?;
+    let actions: Vec<Value> =
+        serde_json::from_str(ACTIONS).context("reading demo-data/actions.json")?;
     for a in &actions {
         let by = a["by"].as_str().unwrap_or("demo");
         let comment = a["comment"].as_str().unwrap_or("");
@@ -123,19 +138,33 @@ pub async fn load(pool: &Pool) -> anyhow::Result<String> {
         let what = a["action"].as_str().unwrap_or("");
         let result = if what == "void" {
             let num = a["test"].as_str().unwrap_or("");
-            let id = *numbers.get(num).ok_or_else(|| anyhow!("void of unknown test {num}"))?;
-            ledger::field::void_test(pool, id, comment, &actor).await.map(|_| ())
+            let id = *numbers
+                .get(num)
+                .ok_or_else(|| anyhow!("void of unknown test {num}"))?;
+            ledger::field::void_test(pool, id, comment, &actor)
+                .await
+                .map(|_| ())
         } else {
             let code = a["lot"].as_str().unwrap_or("");
-            let id = *lots.get(code).ok_or_else(|| anyhow!("action on unknown lot {code}"))?;
+            let id = *lots
+                .get(code)
+                .ok_or_else(|| anyhow!("action on unknown lot {code}"))?;
             match what {
-                "submit" => ledger::review::submit(pool, id, comment, &actor).await.map(|_| ()),
-                "accept" => ledger::review::accept(pool, id, comment, &actor).await.map(|_| ()),
-                "reject" => ledger::review::reject(pool, id, comment, &actor).await.map(|_| ()),
+                "submit" => ledger::review::submit(pool, id, comment, &actor)
+                    .await
+                    .map(|_| ()),
+                "accept" => ledger::review::accept(pool, id, comment, &actor)
+                    .await
+                    .map(|_| ()),
+                "reject" => ledger::review::reject(pool, id, comment, &actor)
+                    .await
+                    .map(|_| ()),
                 other => return Err(anyhow!("unknown demo action {other}")),
             }
         };
-        result.map_err(user_error).with_context(|| format!("demo action {a}"))?;
+        result
+            .map_err(user_error)
+            .with_context(|| format!("demo action {a}"))?;
     }
     Ok(format!(
         "project {} with {} lots, {} field tests, {} review actions",

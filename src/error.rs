@@ -55,7 +55,11 @@ impl AppError {
     }
 
     /// A refusal by the record's state, with the reasons a user must fix.
-    pub fn conflict(field: impl Into<String>, message: impl Into<String>, reasons: Vec<String>) -> Self {
+    pub fn conflict(
+        field: impl Into<String>,
+        message: impl Into<String>,
+        reasons: Vec<String>,
+    ) -> Self {
         Self::Conflict {
             field: field.into(),
             message: message.into(),

@@ -9,7 +9,9 @@ use tracing_subscriber::EnvFilter;
 #[tokio::main]
 async fn main() -> anyhow::Result<()> {
     tracing_subscriber::fmt()
-        .with_env_filter(EnvFilter::try_from_default_env().unwrap_or_else(|_| EnvFilter::new("info")))
+        .with_env_filter(
+            EnvFilter::try_from_default_env().unwrap_or_else(|_| EnvFilter::new("info")),
+        )
         .init();
     match Cli::parse().command {
         Command::Migrate(a) => {
@@ -23,12 +25,19 @@ async fn main() -> anyhow::Result<()> {
         }
         Command::Serve(a) => {
             let path = a.db.clone().unwrap_or_else(|| {
-                if a.demo { "liftledger-demo.sqlite" } else { "liftledger.sqlite" }.into()
+                if a.demo {
+                    "liftledger-demo.sqlite"
+                } else {
+                    "liftledger.sqlite"
+                }
+                .into()
             });
             let fresh = !path.exists();
             let pool = db::open(&path).await?;
             if a.demo && fresh {
-                let summary = demo::load(&pool).await.context("loading the demo project")?;
+                let summary = demo::load(&pool)
+                    .await
+                    .context("loading the demo project")?;
                 println!("demo project loaded into {} ({summary})", path.display());
             }
             let listener = tokio::net::TcpListener::bind(a.addr)
@@ -52,7 +61,8 @@ async fn shutdown_signal() {
     };
     #[cfg(unix)]
     let term = async {
-        if let Ok(mut s) = tokio::signal::unix::signal(tokio::signal::unix::SignalKind::terminate()) {
+        if let Ok(mut s) = tokio::signal::unix::signal(tokio::signal::unix::SignalKind::terminate())
+        {
             s.recv().await;
         }
     };

@@ -15,7 +15,8 @@ impl Units {
     pub fn of(project: &crate::db::projects::Project) -> Self {
         Self {
             system: UnitSystem::parse_code(&project.unit_system).unwrap_or(UnitSystem::Si),
-            chainage: ChainageStyle::parse_code(&project.chainage_style).unwrap_or(ChainageStyle::KmMetre),
+            chainage: ChainageStyle::parse_code(&project.chainage_style)
+                .unwrap_or(ChainageStyle::KmMetre),
         }
     }
 
@@ -64,13 +65,33 @@ impl Units {
         }
     }
 
+    /// The offset unit label.
+    pub fn offset_unit(&self) -> &'static str {
+        match self.system {
+            UnitSystem::Si => "m",
+            UnitSystem::Us => "ft",
+        }
+    }
+
+    /// An offset without its unit, for narrow columns: `5.6 L`, `CL`, `2.0 R`.
+    pub fn offset_short(&self, metres: f64) -> String {
+        let full = self.offset(metres);
+        full.replace(" m ", " ").replace(" ft ", " ")
+    }
+
     /// A signed offset: negative is left of the centreline.
     pub fn offset(&self, metres: f64) -> String {
         let (v, u) = match self.system {
             UnitSystem::Si => (metres, "m"),
             UnitSystem::Us => (metres / 0.3048, "ft"),
         };
-        let side = if v < 0.0 { "L" } else if v > 0.0 { "R" } else { "CL" };
+        let side = if v < 0.0 {
+            "L"
+        } else if v > 0.0 {
+            "R"
+        } else {
+            "CL"
+        };
         if side == "CL" {
             "CL".to_string()
         } else {

@@ -53,7 +53,11 @@ pub async fn record(tx: &mut Tx<'_>, c: &Change<'_>, now: &str) -> sqlx::Result<
 }
 
 /// The history of one entity, oldest first.
-pub async fn for_entity(pool: &Pool, entity: &str, entity_id: i64) -> sqlx::Result<Vec<AuditEntry>> {
+pub async fn for_entity(
+    pool: &Pool,
+    entity: &str,
+    entity_id: i64,
+) -> sqlx::Result<Vec<AuditEntry>> {
     sqlx::query_as::<_, AuditEntry>(
         "SELECT id, at, actor, action, entity, entity_id, project_id, before_json, after_json, origin
          FROM audit_log WHERE entity = ? AND entity_id = ? ORDER BY id",
@@ -78,5 +82,7 @@ pub async fn recent(pool: &Pool, project_id: i64, limit: i64) -> sqlx::Result<Ve
 
 /// Total number of audit rows (used by tests that prove nothing was written).
 pub async fn count(pool: &Pool) -> sqlx::Result<i64> {
-    sqlx::query_scalar("SELECT COUNT(*) FROM audit_log").fetch_one(pool).await
+    sqlx::query_scalar("SELECT COUNT(*) FROM audit_log")
+        .fetch_one(pool)
+        .await
 }

@@ -42,10 +42,12 @@ pub struct NewCertificate<'a> {
 
 /// The next free certificate sequence number of a project (inside the issuing transaction).
 pub async fn next_sequence(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<i64> {
-    sqlx::query_scalar("SELECT COALESCE(MAX(sequence), 0) + 1 FROM certificates WHERE project_id = ?")
-        .bind(project_id)
-        .fetch_one(&mut **tx)
-        .await
+    sqlx::query_scalar(
+        "SELECT COALESCE(MAX(sequence), 0) + 1 FROM certificates WHERE project_id = ?",
+    )
+    .bind(project_id)
+    .fetch_one(&mut **tx)
+    .await
 }
 
 /// The current (not superseded) certificate of a lot, read inside a transaction.
@@ -112,10 +114,12 @@ pub async fn for_project(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<Certi
 
 /// One revision by id.
 pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Certificate>> {
-    sqlx::query_as::<_, Certificate>(sqlx::AssertSqlSafe(format!("SELECT {COLUMNS} FROM certificates WHERE id = ?")))
-        .bind(id)
-        .fetch_optional(pool)
-        .await
+    sqlx::query_as::<_, Certificate>(sqlx::AssertSqlSafe(format!(
+        "SELECT {COLUMNS} FROM certificates WHERE id = ?"
+    )))
+    .bind(id)
+    .fetch_optional(pool)
+    .await
 }
 
 /// The stored PDF bytes of a revision.

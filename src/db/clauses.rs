@@ -25,7 +25,6 @@ pub struct Clause {
     pub created_at: String,
 }
 
-
 /// Inserts a clause; `c.id` and `c.created_at` are ignored and filled by the database.
 pub async fn insert(tx: &mut Tx<'_>, c: &Clause) -> sqlx::Result<Clause> {
     sqlx::query_as::<_, Clause>(

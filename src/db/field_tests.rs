@@ -149,7 +149,13 @@ pub async fn list(pool: &Pool, project_id: i64, f: &TestFilter) -> sqlx::Result<
 }
 
 /// Voids a test with a reason; false when it was already void.
-pub async fn void(tx: &mut Tx<'_>, id: i64, reason: &str, actor: &str, now: &str) -> sqlx::Result<bool> {
+pub async fn void(
+    tx: &mut Tx<'_>,
+    id: i64,
+    reason: &str,
+    actor: &str,
+    now: &str,
+) -> sqlx::Result<bool> {
     let done = sqlx::query(
         "UPDATE field_tests SET void_reason = ?, voided_by = ?, voided_at = ? WHERE id = ? AND void_reason IS NULL",
     )

@@ -27,7 +27,11 @@ pub struct Layer {
 }
 
 /// Finds a zone by name or creates it at the next position.
-pub async fn zone_by_name_or_insert(tx: &mut Tx<'_>, project_id: i64, name: &str) -> sqlx::Result<Zone> {
+pub async fn zone_by_name_or_insert(
+    tx: &mut Tx<'_>,
+    project_id: i64,
+    name: &str,
+) -> sqlx::Result<Zone> {
     if let Some(z) = sqlx::query_as::<_, Zone>(
         "SELECT id, project_id, name, position FROM zones WHERE project_id = ? AND name = ?",
     )

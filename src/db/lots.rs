@@ -158,13 +158,14 @@ pub async fn transition(
     comment: &str,
     now: &str,
 ) -> sqlx::Result<bool> {
-    let done = sqlx::query("UPDATE lots SET state = ?, state_changed_at = ? WHERE id = ? AND state = ?")
-        .bind(to)
-        .bind(now)
-        .bind(lot_id)
-        .bind(from)
-        .execute(&mut **tx)
-        .await?;
+    let done =
+        sqlx::query("UPDATE lots SET state = ?, state_changed_at = ? WHERE id = ? AND state = ?")
+            .bind(to)
+            .bind(now)
+            .bind(lot_id)
+            .bind(from)
+            .execute(&mut **tx)
+            .await?;
     if done.rows_affected() != 1 {
         return Ok(false);
     }

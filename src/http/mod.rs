@@ -1,8 +1,8 @@
 //! The HTTP edge: routes, extractors and middleware.
 
 pub mod api;
-pub mod pages;
 pub mod extract;
+pub mod pages;
 
 use std::time::Duration;
 
@@ -27,7 +27,10 @@ pub fn router(state: AppState) -> Router {
         .fallback(not_found)
         .with_state(state)
         .layer(RequestBodyLimitLayer::new(MAX_BODY_BYTES))
-        .layer(TimeoutLayer::with_status_code(StatusCode::REQUEST_TIMEOUT, Duration::from_secs(30)))
+        .layer(TimeoutLayer::with_status_code(
+            StatusCode::REQUEST_TIMEOUT,
+            Duration::from_secs(30),
+        ))
         .layer(SetResponseHeaderLayer::if_not_present(
             header::X_CONTENT_TYPE_OPTIONS,
             HeaderValue::from_static("nosniff"),

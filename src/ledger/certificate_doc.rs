@@ -3,8 +3,8 @@
 use super::lot_report::LotReport;
 use crate::clock;
 use crate::pdf::{
-    CertificateDoc, ClauseBlock, LotBlock, MaterialBlock, Paper, ReferenceBlock, SignoffBlock, SummaryBlock,
-    TestRow,
+    CertificateDoc, ClauseBlock, LotBlock, MaterialBlock, Paper, ReferenceBlock, SignoffBlock,
+    SummaryBlock, TestRow,
 };
 use crate::present::{self, Units};
 use crate::reduction::lab::EffortPreset;
@@ -28,7 +28,11 @@ pub fn build(r: &LotReport, issue: Issue<'_>) -> CertificateDoc {
     let effort_label = EffortPreset::parse_code(&r.lab_test.effort)
         .map(|p| p.label().to_string())
         .unwrap_or_else(|| r.lab_test.effort.clone());
-    let corrected = r.tests.iter().filter(|t| t.test.coarse_pct.is_some_and(|c| c > 0.0)).count();
+    let corrected = r
+        .tests
+        .iter()
+        .filter(|t| t.test.coarse_pct.is_some_and(|c| c > 0.0))
+        .count();
     let tests = r
         .tests
         .iter()
@@ -50,13 +54,16 @@ pub fn build(r: &LotReport, issue: Issue<'_>) -> CertificateDoc {
                 notes.push(format!("superseded by {by}"));
             }
             if t.test.coarse_pct.is_some_and(|c| c > 0.0) {
-                notes.push(format!("oversize {:.0} %", t.test.coarse_pct.unwrap_or(0.0)));
+                notes.push(format!(
+                    "oversize {:.0} %",
+                    t.test.coarse_pct.unwrap_or(0.0)
+                ));
             }
             TestRow {
                 number: t.test.number.clone(),
                 date: clock::date_of(&t.test.tested_at),
                 chainage: u.chainage(t.test.chainage_m),
-                offset: u.offset(t.test.offset_m),
+                offset: u.offset_short(t.test.offset_m),
                 method: t.test.method.replace('_', " "),
                 wet_density: u.density(t.test.wet_density_kg_m3),
                 water_content: format!("{:.1}", t.test.water_content_pct),
@@ -65,7 +72,11 @@ pub fn build(r: &LotReport, issue: Issue<'_>) -> CertificateDoc {
                 moisture_deviation: present::signed(t.moisture_deviation_pct),
                 result: result.to_string(),
                 note: notes.join("; "),
-                rc_value: if t.standing == "voided" { None } else { t.relative_compaction_pct },
+                rc_value: if t.standing == "voided" {
+                    None
+                } else {
+                    t.relative_compaction_pct
+                },
                 counted: t.standing == "counted",
             }
         })
@@ -103,7 +114,11 @@ pub fn build(r: &LotReport, issue: Issue<'_>) -> CertificateDoc {
             layer: format!("layer {}", r.lot.layer_number),
             chainage_from: u.chainage(r.lot.chainage_from_m),
             chainage_to: u.chainage(r.lot.chainage_to_m),
-            offset_band: format!("{} to {}", u.offset(r.lot.offset_left_m), u.offset(r.lot.offset_right_m)),
+            offset_band: format!(
+                "{} to {}",
+                u.offset(r.lot.offset_left_m),
+                u.offset(r.lot.offset_right_m)
+            ),
             area: u.area(r.area_m2),
             length: u.length(r.length_m),
         },
@@ -130,19 +145,24 @@ pub fn build(r: &LotReport, issue: Issue<'_>) -> CertificateDoc {
             } else {
                 format!(
                     "{corrected} test(s) judged against an oversize-corrected reference (coarse Gs {})",
-                    r.source.gs_coarse.map_or("–".to_string(), |g| format!("{g:.2}"))
+                    r.source
+                        .gs_coarse
+                        .map_or("–".to_string(), |g| format!("{g:.2}"))
                 )
             },
         },
         clause: ClauseBlock {
             clause_code: format!("{} {}", c.code, c.title).trim().to_string(),
             rc_min: format!("{:.1} %", c.rc_min_pct),
-            moisture_window: format!("{:.1} to +{:.1} points of OMC", -c.moisture_below_pct, c.moisture_above_pct),
+            moisture_window: format!(
+                "{:.1} to +{:.1} points of OMC",
+                -c.moisture_below_pct, c.moisture_above_pct
+            ),
             rule: v.rule_label.clone(),
             frequency,
         },
         density_unit: u.density_unit().to_string(),
-        offset_unit: String::new(),
+        offset_unit: u.offset_unit().to_string(),
         tests,
         summary: SummaryBlock {
             n: v.n.to_string(),
@@ -152,13 +172,22 @@ pub fn build(r: &LotReport, issue: Issue<'_>) -> CertificateDoc {
             max: present::pct(v.max),
             quality_index: v.quality_index.map_or("–".into(), |q| format!("{q:.2}")),
             pwl: present::pct(v.pwl),
-            verdict: if v.accepted { "MEETS CLAUSE" } else { "DOES NOT MEET CLAUSE" }.to_string(),
+            verdict: if v.accepted {
+                "MEETS CLAUSE"
+            } else {
+                "DOES NOT MEET CLAUSE"
+            }
+            .to_string(),
             reasons: v.reasons.clone(),
             frequency: format!(
                 "{} required, {} counted: {}",
                 r.tests_required,
                 v.n,
-                if r.tests_owed == 0 { "met".to_string() } else { format!("{} owed", r.tests_owed) }
+                if r.tests_owed == 0 {
+                    "met".to_string()
+                } else {
+                    format!("{} owed", r.tests_owed)
+                }
             ),
             rc_limit: c.rc_min_pct,
         },

@@ -53,7 +53,8 @@ pub async fn check(
         .ok_or_else(|| AppError::invalid("chainage_m", "is required"))?;
     let chainage = quantity("chainage_m", reduction::Chainage::new(chainage_m))?;
     // A small tolerance at lot ends: a test on the boundary chainage belongs to either lot.
-    if chainage.metres() < lot.chainage_from_m - 0.5 || chainage.metres() > lot.chainage_to_m + 0.5 {
+    if chainage.metres() < lot.chainage_from_m - 0.5 || chainage.metres() > lot.chainage_to_m + 0.5
+    {
         return Err(AppError::invalid(
             "chainage_m",
             format!(
@@ -65,7 +66,10 @@ pub async fn check(
             ),
         ));
     }
-    let offset_m = input.offset_m.or(retest_of.map(|t| t.offset_m)).unwrap_or(0.0);
+    let offset_m = input
+        .offset_m
+        .or(retest_of.map(|t| t.offset_m))
+        .unwrap_or(0.0);
     let offset = quantity("offset_m", reduction::Offset::new(offset_m))?;
     if offset.metres() < lot.offset_left_m - 0.01 || offset.metres() > lot.offset_right_m + 0.01 {
         return Err(AppError::invalid(
@@ -78,8 +82,14 @@ pub async fn check(
             ),
         ));
     }
-    let depth = input.depth_mm.map(|d| number("depth_mm", d, 0.0, 1000.0, "mm")).transpose()?;
-    let coarse = input.coarse_pct.map(|c| number("coarse_pct", c, 0.0, 100.0, "%")).transpose()?;
+    let depth = input
+        .depth_mm
+        .map(|d| number("depth_mm", d, 0.0, 1000.0, "mm"))
+        .transpose()?;
+    let coarse = input
+        .coarse_pct
+        .map(|c| number("coarse_pct", c, 0.0, 100.0, "%"))
+        .transpose()?;
     let coarse_w = input
         .coarse_water_content_pct
         .map(|c| number("coarse_water_content_pct", c, 0.0, 20.0, "%"))
@@ -94,7 +104,10 @@ pub async fn check(
         let Some(gs_coarse) = source.gs_coarse else {
             return Err(AppError::invalid(
                 "coarse_pct",
-                format!("source {} has no coarse-fraction specific gravity to correct with", source.code),
+                format!(
+                    "source {} has no coarse-fraction specific gravity to correct with",
+                    source.code
+                ),
             ));
         };
         let lab = db::lab_tests::get(pool, lot.lab_test_id)
@@ -110,10 +123,19 @@ pub async fn check(
         )
         .map_err(|e| AppError::invalid("coarse_pct", e.to_string()))?;
     }
-    let easting = input.easting.map(|v| number("easting", v, -1.0e8, 1.0e8, "m")).transpose()?;
-    let northing = input.northing.map(|v| number("northing", v, -1.0e8, 1.0e8, "m")).transpose()?;
+    let easting = input
+        .easting
+        .map(|v| number("easting", v, -1.0e8, 1.0e8, "m"))
+        .transpose()?;
+    let northing = input
+        .northing
+        .map(|v| number("northing", v, -1.0e8, 1.0e8, "m"))
+        .transpose()?;
     if easting.is_some() != northing.is_some() {
-        return Err(AppError::invalid("northing", "give both easting and northing, or neither"));
+        return Err(AppError::invalid(
+            "northing",
+            "give both easting and northing, or neither",
+        ));
     }
     let number = match &input.number {
         Some(n) => code("number", n)?,
@@ -126,7 +148,8 @@ pub async fn check(
     };
     let instrument = match &input.readings {
         FieldReadings::Nuclear {
-            gauge_serial: Some(s), ..
+            gauge_serial: Some(s),
+            ..
         } if input.instrument_serial.trim().is_empty() => s.clone(),
         _ => input.instrument_serial.clone(),
     };
@@ -169,7 +192,10 @@ fn require_lot_takes_tests(lot: &db::lots::Lot) -> Result<()> {
     }
     Err(AppError::conflict(
         "lot_id",
-        format!("lot {} is {}; tests can be added only while it is open or rejected", lot.code, lot.state),
+        format!(
+            "lot {} is {}; tests can be added only while it is open or rejected",
+            lot.code, lot.state
+        ),
         vec![],
     ))
 }
@@ -183,27 +209,36 @@ pub async fn require_lot(pool: &Pool, lot_id: i64) -> Result<db::lots::Lot> {
 
 /// Loads a field test or fails with 404 naming `test_id`.
 pub async fn require_test(pool: &Pool, test_id: i64) -> Result<db::field_tests::FieldTest> {
-    db::field_tests::get(pool, test_id)
-        .await?
-        .ok_or_else(|| AppError::not_found("test_id", format!("field test {test_id} does not exist")))
+    db::field_tests::get(pool, test_id).await?.ok_or_else(|| {
+        AppError::not_found("test_id", format!("field test {test_id} does not exist"))
+    })
 }
 
-async fn store(pool: &Pool, checked: CheckedTest, actor: &Actor, action: &str) -> Result<db::field_tests::FieldTest> {
+async fn store(
+    pool: &Pool,
+    checked: CheckedTest,
+    actor: &Actor,
+    action: &str,
+) -> Result<db::field_tests::FieldTest> {
     let mut record = checked.record;
     let mut tx = db::begin_write(pool).await?;
     if record.number.is_empty() {
-        let count: i64 = sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE project_id = ?")
-            .bind(record.project_id)
-            .fetch_one(&mut *tx)
-            .await?;
-        record.number = format!("FT-{:05}", count + 1);
+        let count: i64 =
+            sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE project_id = ?")
+                .bind(record.project_id)
+                .fetch_one(&mut *tx)
+                .await?;
+        record.number = format!("T-{:05}", count + 1);
     }
     let id = match db::field_tests::insert(&mut tx, &record).await {
         Ok(id) => id,
         Err(e) if db::is_unique_violation(&e) => {
             return Err(AppError::conflict(
                 "number",
-                format!("test number {} is already used in this project", record.number),
+                format!(
+                    "test number {} is already used in this project",
+                    record.number
+                ),
                 vec![],
             ));
         }
@@ -255,7 +290,10 @@ pub async fn record_retest(
     if failed.void_reason.is_some() {
         return Err(AppError::conflict(
             "test_id",
-            format!("test {} is void; record a new test instead of a retest", failed.number),
+            format!(
+                "test {} is void; record a new test instead of a retest",
+                failed.number
+            ),
             vec![],
         ));
     }
@@ -268,7 +306,10 @@ pub async fn record_retest(
     if line.passed {
         return Err(AppError::conflict(
             "test_id",
-            format!("test {} passed; a retest is recorded only after a failure", failed.number),
+            format!(
+                "test {} passed; a retest is recorded only after a failure",
+                failed.number
+            ),
             vec![],
         ));
     }
@@ -305,7 +346,10 @@ pub async fn void_test(
         if lot.state == "submitted" {
             return Err(AppError::conflict(
                 "test_id",
-                format!("lot {} is under review; ask the reviewer to reject it before voiding tests", lot.code),
+                format!(
+                    "lot {} is under review; ask the reviewer to reject it before voiding tests",
+                    lot.code
+                ),
                 vec![],
             ));
         }
@@ -339,7 +383,12 @@ pub async fn void_test(
 }
 
 /// Reduces and judges a field test against its lot without saving it (the site-entry preview).
-pub async fn preview(pool: &Pool, lot_id: i64, input: &FieldTestInput, actor: &Actor) -> Result<serde_json::Value> {
+pub async fn preview(
+    pool: &Pool,
+    lot_id: i64,
+    input: &FieldTestInput,
+    actor: &Actor,
+) -> Result<serde_json::Value> {
     let lot = require_lot(pool, lot_id).await?;
     let checked = check(pool, &lot, input, None, actor).await?;
     let r = &checked.record;
@@ -364,7 +413,10 @@ pub async fn preview(pool: &Pool, lot_id: i64, input: &FieldTestInput, actor: &A
         .map_err(|e| AppError::invalid("coarse_pct", e.to_string()))?;
     }
     let dry = quantity("readings", reduction::Density::new(r.dry_density_kg_m3))?;
-    let w = quantity("readings", reduction::WaterContent::new(r.water_content_pct))?;
+    let w = quantity(
+        "readings",
+        reduction::WaterContent::new(r.water_content_pct),
+    )?;
     let v = reduction::verdict::judge_test(dry, w, &reference, &lot_report::limits_of(&clause));
     Ok(json!({
         "wet_density_kg_m3": r.wet_density_kg_m3,

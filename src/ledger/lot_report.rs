@@ -103,7 +103,11 @@ fn judge_line(
     limits: &SpecLimits,
     source: &db::sources::Source,
     clause: &db::clauses::Clause,
-) -> (Option<Reference>, Option<crate::reduction::verdict::TestVerdict>, Vec<String>) {
+) -> (
+    Option<Reference>,
+    Option<crate::reduction::verdict::TestVerdict>,
+    Vec<String>,
+) {
     let reference = match t.coarse_pct {
         Some(c) if c > 0.0 => match source.gs_coarse {
             Some(gs) => match reference_for_coarse_fraction(
@@ -114,13 +118,22 @@ fn judge_line(
                 clause.oversize_limit_pct,
             ) {
                 Ok(r) => r,
-                Err(e) => return (None, None, vec![format!("cannot correct for oversize: {e}")]),
+                Err(e) => {
+                    return (
+                        None,
+                        None,
+                        vec![format!("cannot correct for oversize: {e}")],
+                    );
+                }
             },
             None => {
                 return (
                     None,
                     None,
-                    vec!["the source has no coarse-fraction Gs; oversize correction impossible".into()],
+                    vec![
+                        "the source has no coarse-fraction Gs; oversize correction impossible"
+                            .into(),
+                    ],
                 );
             }
         },
@@ -133,7 +146,11 @@ fn judge_line(
         Density::new(t.dry_density_kg_m3),
         WaterContent::new(t.water_content_pct),
     ) else {
-        return (Some(reference), None, vec!["stored reduced values are out of range".into()]);
+        return (
+            Some(reference),
+            None,
+            vec!["stored reduced values are out of range".into()],
+        );
     };
     let v = judge_test(dry, w, &reference, limits);
     let reasons = v.reasons.clone();
@@ -147,10 +164,18 @@ pub async fn build(pool: &Pool, lot_id: i64) -> Result<LotReport> {
         .await?
         .ok_or_else(|| AppError::not_found("lot_id", format!("lot {lot_id} does not exist")))?;
     let missing = |what: &str| anyhow::anyhow!("lot {lot_id} refers to a missing {what}");
-    let project = db::projects::get(pool, lot.project_id).await?.ok_or_else(|| missing("project"))?;
-    let clause = db::clauses::get(pool, lot.clause_id).await?.ok_or_else(|| missing("clause"))?;
-    let source = db::sources::get(pool, lot.source_id).await?.ok_or_else(|| missing("source"))?;
-    let lab_test = db::lab_tests::get(pool, lot.lab_test_id).await?.ok_or_else(|| missing("lab test"))?;
+    let project = db::projects::get(pool, lot.project_id)
+        .await?
+        .ok_or_else(|| missing("project"))?;
+    let clause = db::clauses::get(pool, lot.clause_id)
+        .await?
+        .ok_or_else(|| missing("clause"))?;
+    let source = db::sources::get(pool, lot.source_id)
+        .await?
+        .ok_or_else(|| missing("source"))?;
+    let lab_test = db::lab_tests::get(pool, lot.lab_test_id)
+        .await?
+        .ok_or_else(|| missing("lab test"))?;
     let tests = db::field_tests::for_lot(pool, lot_id).await?;
     let certificate = db::certificates::for_lot(pool, lot_id)
         .await?
@@ -196,7 +221,11 @@ pub fn assemble(
         .iter()
         .zip(judged)
         .map(|(t, (r, v, reasons))| {
-            let standing = lv.standings.iter().find(|(id, _)| *id == t.id).map(|(_, s)| s);
+            let standing = lv
+                .standings
+                .iter()
+                .find(|(id, _)| *id == t.id)
+                .map(|(_, s)| s);
             let (standing, superseded_by) = match standing {
                 Some(TestStanding::Voided) => ("voided", None),
                 Some(TestStanding::Superseded { by }) => ("superseded", number_of(*by)),
@@ -227,8 +256,11 @@ pub fn assemble(
     };
     let required = tests_required(&frequency, length_m, width_m);
     let owed = tests_owed(required, lv.n);
-    let failing_without_retest: Vec<String> =
-        lv.failing_without_retest.iter().filter_map(|id| number_of(*id)).collect();
+    let failing_without_retest: Vec<String> = lv
+        .failing_without_retest
+        .iter()
+        .filter_map(|id| number_of(*id))
+        .collect();
 
     let mut submit_blockers = Vec::new();
     if owed > 0 {
@@ -244,7 +276,11 @@ pub fn assemble(
     if !failing_without_retest.is_empty() && every_test {
         submit_blockers.push(format!(
             "failed test{} without a passing retest: {}",
-            if failing_without_retest.len() == 1 { "" } else { "s" },
+            if failing_without_retest.len() == 1 {
+                ""
+            } else {
+                "s"
+            },
             failing_without_retest.join(", ")
         ));
     }
@@ -332,7 +368,13 @@ fn fingerprint(
     for t in tests {
         h.update(format!(
             "t {} {} {} {} {:?} {:?} {:?}|",
-            t.id, t.number, t.dry_density_kg_m3, t.water_content_pct, t.coarse_pct, t.retest_of, t.void_reason
+            t.id,
+            t.number,
+            t.dry_density_kg_m3,
+            t.water_content_pct,
+            t.coarse_pct,
+            t.retest_of,
+            t.void_reason
         ));
     }
     hex::encode(h.finalize())

@@ -41,7 +41,10 @@ async fn log_transition(
 fn refused(report: &LotReport, action: &str, reasons: Vec<String>) -> AppError {
     AppError::conflict(
         "state",
-        format!("lot {} cannot be {action} while it is {}", report.lot.code, report.lot.state),
+        format!(
+            "lot {} cannot be {action} while it is {}",
+            report.lot.code, report.lot.state
+        ),
         reasons,
     )
 }
@@ -52,7 +55,11 @@ pub async fn submit(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> R
     let report = lot_report::build(pool, lot_id).await?;
     let from = report.lot.state.clone();
     if from != "open" && from != "rejected" {
-        return Err(refused(&report, "submitted", vec!["only open or rejected lots can be submitted".into()]));
+        return Err(refused(
+            &report,
+            "submitted",
+            vec!["only open or rejected lots can be submitted".into()],
+        ));
     }
     if !report.submit_blockers.is_empty() {
         return Err(AppError::conflict(
@@ -63,8 +70,22 @@ pub async fn submit(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> R
     }
     let now = clock::now();
     let mut tx = db::begin_write(pool).await?;
-    if !db::lots::transition(&mut tx, lot_id, &from, "submitted", &actor.name, &comment, &now).await? {
-        return Err(refused(&report, "submitted", vec!["the lot changed state meanwhile".into()]));
+    if !db::lots::transition(
+        &mut tx,
+        lot_id,
+        &from,
+        "submitted",
+        &actor.name,
+        &comment,
+        &now,
+    )
+    .await?
+    {
+        return Err(refused(
+            &report,
+            "submitted",
+            vec!["the lot changed state meanwhile".into()],
+        ));
     }
     log_transition(&mut tx, &report, &from, "submitted", &comment, actor, &now).await?;
     tx.commit().await?;
@@ -76,17 +97,44 @@ pub async fn reject(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> R
     let comment = optional_text("comment", comment, 1000)?;
     let report = lot_report::build(pool, lot_id).await?;
     if report.lot.state != "submitted" {
-        return Err(refused(&report, "rejected", vec!["only submitted lots can be rejected".into()]));
+        return Err(refused(
+            &report,
+            "rejected",
+            vec!["only submitted lots can be rejected".into()],
+        ));
     }
     if comment.is_empty() {
         return Err(AppError::invalid("comment", "a rejection needs a reason"));
     }
     let now = clock::now();
     let mut tx = db::begin_write(pool).await?;
-    if !db::lots::transition(&mut tx, lot_id, "submitted", "rejected", &actor.name, &comment, &now).await? {
-        return Err(refused(&report, "rejected", vec!["the lot changed state meanwhile".into()]));
+    if !db::lots::transition(
+        &mut tx,
+        lot_id,
+        "submitted",
+        "rejected",
+        &actor.name,
+        &comment,
+        &now,
+    )
+    .await?
+    {
+        return Err(refused(
+            &report,
+            "rejected",
+            vec!["the lot changed state meanwhile".into()],
+        ));
     }
-    log_transition(&mut tx, &report, "submitted", "rejected", &comment, actor, &now).await?;
+    log_transition(
+        &mut tx,
+        &report,
+        "submitted",
+        "rejected",
+        &comment,
+        actor,
+        &now,
+    )
+    .await?;
     tx.commit().await?;
     lot_report::build(pool, lot_id).await
 }
@@ -100,16 +148,26 @@ pub async fn accept(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> R
     if reissue && report.certificate_current {
         return Err(AppError::conflict(
             "state",
-            format!("lot {} is accepted and its certificate is current", report.lot.code),
+            format!(
+                "lot {} is accepted and its certificate is current",
+                report.lot.code
+            ),
             vec!["a new revision is issued only after the lot's record changes".into()],
         ));
     }
     if !reissue && report.lot.state != "submitted" {
-        return Err(refused(&report, "accepted", vec!["only submitted lots can be accepted".into()]));
+        return Err(refused(
+            &report,
+            "accepted",
+            vec!["only submitted lots can be accepted".into()],
+        ));
     }
     if !report.verdict.accepted {
         let mut reasons = report.verdict.reasons.clone();
-        reasons.insert(0, format!("the lot does not meet clause {}", report.clause.code));
+        reasons.insert(
+            0,
+            format!("the lot does not meet clause {}", report.clause.code),
+        );
         return Err(AppError::conflict(
             "state",
             format!("lot {} cannot be accepted", report.lot.code),
@@ -119,10 +177,33 @@ pub async fn accept(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> R
     let now = clock::now();
     let mut tx = db::begin_write(pool).await?;
     if !reissue {
-        if !db::lots::transition(&mut tx, lot_id, "submitted", "accepted", &actor.name, &comment, &now).await? {
-            return Err(refused(&report, "accepted", vec!["the lot changed state meanwhile".into()]));
+        if !db::lots::transition(
+            &mut tx,
+            lot_id,
+            "submitted",
+            "accepted",
+            &actor.name,
+            &comment,
+            &now,
+        )
+        .await?
+        {
+            return Err(refused(
+                &report,
+                "accepted",
+                vec!["the lot changed state meanwhile".into()],
+            ));
         }
-        log_transition(&mut tx, &report, "submitted", "accepted", &comment, actor, &now).await?;
+        log_transition(
+            &mut tx,
+            &report,
+            "submitted",
+            "accepted",
+            &comment,
+            actor,
+            &now,
+        )
+        .await?;
     }
     issue_certificate(&mut tx, pool, &report, &comment, actor, &now).await?;
     tx.commit().await?;
@@ -157,7 +238,10 @@ async fn issue_certificate(
     let all_for_lot = db::certificates::for_lot(pool, report.lot.id).await?;
     let (sequence, revision) = match all_for_lot.first() {
         Some(latest) => (latest.sequence, latest.revision + 1),
-        None => (db::certificates::next_sequence(tx, report.lot.project_id).await?, 1),
+        None => (
+            db::certificates::next_sequence(tx, report.lot.project_id).await?,
+            1,
+        ),
     };
     let number = format!("{}-EL-{:04}", report.project.code, sequence);
     let code = verification_code(&format!("{number}|{revision}|{}|{now}", report.fingerprint));
@@ -168,7 +252,9 @@ async fn issue_certificate(
         certificate_doc::Issue {
             number: &number,
             revision,
-            supersedes: previous.as_ref().map(|p| format!("{} rev {}", p.number, p.revision)),
+            supersedes: previous
+                .as_ref()
+                .map(|p| format!("{} rev {}", p.number, p.revision)),
             verification_code: &code,
             issued_at: now,
             submitted_by: submitted.map(|t| t.actor.as_str()).unwrap_or(""),
@@ -177,7 +263,8 @@ async fn issue_certificate(
             comment,
         },
     );
-    let pdf = crate::pdf::render_certificate(&doc).map_err(|e| anyhow::anyhow!("rendering certificate: {e}"))?;
+    let pdf = crate::pdf::render_certificate(&doc)
+        .map_err(|e| anyhow::anyhow!("rendering certificate: {e}"))?;
     let sha = hex::encode(Sha256::digest(&pdf));
     if let Some(p) = &previous {
         db::certificates::supersede(tx, p.id, now).await?;

@@ -8,10 +8,10 @@ use super::validate::{code, date, number, optional_text, quantity, text};
 use crate::clock;
 use crate::db::{self, Pool, audit};
 use crate::error::{AppError, Result};
-use crate::reduction::{self, ChainageStyle, SpecificGravity, UnitSystem, WaterContent};
 use crate::reduction::acceptance::AcceptanceRule;
 use crate::reduction::curve::{CurvePoint, fit_curve};
 use crate::reduction::lab::{Effort, EffortPreset, reduce_specimen};
+use crate::reduction::{self, ChainageStyle, SpecificGravity, UnitSystem, WaterContent};
 
 /// Body of a new project.
 #[derive(Debug, Clone, Deserialize)]
@@ -78,11 +78,16 @@ fn unique(field: &str, what: &str) -> impl FnOnce(sqlx::Error) -> AppError {
 }
 
 /// Creates a project.
-pub async fn create_project(pool: &Pool, input: &ProjectInput, actor: &Actor) -> Result<db::projects::Project> {
+pub async fn create_project(
+    pool: &Pool,
+    input: &ProjectInput,
+    actor: &Actor,
+) -> Result<db::projects::Project> {
     let unit = UnitSystem::parse_code(&input.unit_system)
         .ok_or_else(|| AppError::invalid("unit_system", "must be \"si\" or \"us\""))?;
-    let style = ChainageStyle::parse_code(&input.chainage_style)
-        .ok_or_else(|| AppError::invalid("chainage_style", "must be \"km_metre\" or \"feet_station\""))?;
+    let style = ChainageStyle::parse_code(&input.chainage_style).ok_or_else(|| {
+        AppError::invalid("chainage_style", "must be \"km_metre\" or \"feet_station\"")
+    })?;
     let new = db::projects::NewProject {
         code: code("code", &input.code)?.to_ascii_uppercase(),
         name: text("name", &input.name, 200)?,
@@ -148,21 +153,24 @@ pub async fn create_clause(
         let known: Vec<&str> = EffortPreset::ALL.iter().map(|p| p.code()).collect();
         return Err(AppError::invalid(
             "effort",
-            format!("unknown effort '{effort}'; use one of {}, custom or any", known.join(", ")),
+            format!(
+                "unknown effort '{effort}'; use one of {}, custom or any",
+                known.join(", ")
+            ),
         ));
     }
     let (allowance, min_pwl) = match input.rule.as_str() {
         "every_test" => (None, None),
         "mean_and_min" => {
-            let a = input
-                .allowance_pct
-                .ok_or_else(|| AppError::invalid("allowance_pct", "is required for the mean_and_min rule"))?;
+            let a = input.allowance_pct.ok_or_else(|| {
+                AppError::invalid("allowance_pct", "is required for the mean_and_min rule")
+            })?;
             (Some(number("allowance_pct", a, 0.0, 20.0, "%")?), None)
         }
         "quality_index" => {
-            let p = input
-                .min_pwl_pct
-                .ok_or_else(|| AppError::invalid("min_pwl_pct", "is required for the quality_index rule"))?;
+            let p = input.min_pwl_pct.ok_or_else(|| {
+                AppError::invalid("min_pwl_pct", "is required for the quality_index rule")
+            })?;
             (None, Some(number("min_pwl_pct", p, 1.0, 100.0, "%")?))
         }
         other => {
@@ -181,15 +189,33 @@ pub async fn create_clause(
         code: code("code", &input.code)?,
         title: optional_text("title", &input.title, 200)?,
         rc_min_pct: number("rc_min_pct", input.rc_min_pct, 50.0, 110.0, "%")?,
-        moisture_below_pct: number("moisture_below_pct", input.moisture_below_pct, 0.0, 20.0, "points")?,
-        moisture_above_pct: number("moisture_above_pct", input.moisture_above_pct, 0.0, 20.0, "points")?,
+        moisture_below_pct: number(
+            "moisture_below_pct",
+            input.moisture_below_pct,
+            0.0,
+            20.0,
+            "points",
+        )?,
+        moisture_above_pct: number(
+            "moisture_above_pct",
+            input.moisture_above_pct,
+            0.0,
+            20.0,
+            "points",
+        )?,
         effort: effort.to_string(),
         rule: input.rule.clone(),
         allowance_pct: allowance,
         min_pwl_pct: min_pwl,
         area_per_test_m2: positive("area_per_test_m2", input.area_per_test_m2, 1.0e7, "m²")?,
         length_per_test_m: positive("length_per_test_m", input.length_per_test_m, 1.0e6, "m")?,
-        min_tests_per_lot: number("min_tests_per_lot", input.min_tests_per_lot as f64, 1.0, 1000.0, "tests")? as i64,
+        min_tests_per_lot: number(
+            "min_tests_per_lot",
+            input.min_tests_per_lot as f64,
+            1.0,
+            1000.0,
+            "tests",
+        )? as i64,
         oversize_limit_pct: number(
             "oversize_limit_pct",
             input
@@ -205,7 +231,16 @@ pub async fn create_clause(
     let c = db::clauses::insert(&mut tx, &clause)
         .await
         .map_err(unique("code", &format!("clause {}", clause.code)))?;
-    audit_insert(&mut tx, actor, "clause", c.id, project_id, json!(c), &c.created_at).await?;
+    audit_insert(
+        &mut tx,
+        actor,
+        "clause",
+        c.id,
+        project_id,
+        json!(c),
+        &c.created_at,
+    )
+    .await?;
     tx.commit().await?;
     Ok(c)
 }
@@ -255,7 +290,16 @@ pub async fn create_source(
     let s = db::sources::insert(&mut tx, &source)
         .await
         .map_err(unique("code", &format!("source {}", source.code)))?;
-    audit_insert(&mut tx, actor, "source", s.id, project_id, json!(s), &s.created_at).await?;
+    audit_insert(
+        &mut tx,
+        actor,
+        "source",
+        s.id,
+        project_id,
+        json!(s),
+        &s.created_at,
+    )
+    .await?;
     tx.commit().await?;
     Ok(s)
 }
@@ -305,10 +349,17 @@ pub struct LabTestInput {
 /// Reduces one entered lab point to (water content, dry density), naming `points[i].field` on error.
 pub fn reduce_lab_point(i: usize, p: &LabPointInput) -> Result<CurvePoint> {
     let f = |name: &str| format!("points[{i}].{name}");
-    let water = match (p.water_content_pct, p.mass_wet_g, p.mass_dry_g, p.mass_tare_g) {
+    let water = match (
+        p.water_content_pct,
+        p.mass_wet_g,
+        p.mass_dry_g,
+        p.mass_tare_g,
+    ) {
         (Some(w), _, _, _) => quantity(&f("water_content_pct"), WaterContent::new(w))?,
-        (None, Some(wet), Some(dry), Some(tare)) => reduction::water::oven_water_content(wet, dry, tare)
-            .map_err(|e| AppError::invalid(f(e.field()), e.to_string()))?,
+        (None, Some(wet), Some(dry), Some(tare)) => {
+            reduction::water::oven_water_content(wet, dry, tare)
+                .map_err(|e| AppError::invalid(f(e.field()), e.to_string()))?
+        }
         _ => {
             return Err(AppError::invalid(
                 f("water_content_pct"),
@@ -316,7 +367,12 @@ pub fn reduce_lab_point(i: usize, p: &LabPointInput) -> Result<CurvePoint> {
             ));
         }
     };
-    let dry = match (p.dry_density_kg_m3, p.mass_mold_and_soil_g, p.mass_mold_g, p.mold_volume_cm3) {
+    let dry = match (
+        p.dry_density_kg_m3,
+        p.mass_mold_and_soil_g,
+        p.mass_mold_g,
+        p.mold_volume_cm3,
+    ) {
         (Some(d), _, _, _) => quantity(&f("dry_density_kg_m3"), reduction::Density::new(d))?,
         (None, Some(total), Some(mold), Some(vol)) => {
             reduce_specimen(total, mold, vol, water)
@@ -339,7 +395,9 @@ pub fn reduce_lab_point(i: usize, p: &LabPointInput) -> Result<CurvePoint> {
 /// Resolves the effort named in a lab test body.
 pub fn resolve_effort(effort: &str, custom: Option<&CustomEffortInput>) -> Result<Effort> {
     if effort == "custom" {
-        let c = custom.ok_or_else(|| AppError::invalid("custom_effort", "is required when effort is custom"))?;
+        let c = custom.ok_or_else(|| {
+            AppError::invalid("custom_effort", "is required when effort is custom")
+        })?;
         return Effort::custom(
             &c.name,
             c.blows_per_layer,
@@ -350,13 +408,18 @@ pub fn resolve_effort(effort: &str, custom: Option<&CustomEffortInput>) -> Resul
         )
         .map_err(|e| AppError::invalid(format!("custom_effort.{}", e.field()), e.to_string()));
     }
-    EffortPreset::parse_code(effort).map(EffortPreset::effort).ok_or_else(|| {
-        let known: Vec<&str> = EffortPreset::ALL.iter().map(|p| p.code()).collect();
-        AppError::invalid(
-            "effort",
-            format!("unknown effort '{effort}'; use one of {} or custom", known.join(", ")),
-        )
-    })
+    EffortPreset::parse_code(effort)
+        .map(EffortPreset::effort)
+        .ok_or_else(|| {
+            let known: Vec<&str> = EffortPreset::ALL.iter().map(|p| p.code()).collect();
+            AppError::invalid(
+                "effort",
+                format!(
+                    "unknown effort '{effort}'; use one of {} or custom",
+                    known.join(", ")
+                ),
+            )
+        })
 }
 
 /// Creates a lab compaction test for a source, fitting its curve; may supersede an earlier one.
@@ -366,9 +429,9 @@ pub async fn create_lab_test(
     input: &LabTestInput,
     actor: &Actor,
 ) -> Result<db::lab_tests::LabTest> {
-    let source = db::sources::get(pool, source_id)
-        .await?
-        .ok_or_else(|| AppError::not_found("source_id", format!("source {source_id} does not exist")))?;
+    let source = db::sources::get(pool, source_id).await?.ok_or_else(|| {
+        AppError::not_found("source_id", format!("source {source_id} does not exist"))
+    })?;
     let effort = resolve_effort(input.effort.trim(), input.custom_effort.as_ref())?;
     let gs = quantity(
         "specific_gravity",
@@ -380,7 +443,8 @@ pub async fn create_lab_test(
         .enumerate()
         .map(|(i, p)| reduce_lab_point(i, p))
         .collect::<Result<Vec<_>>>()?;
-    let fit = fit_curve(&points, Some(gs)).map_err(|e| AppError::invalid("points", e.to_string()))?;
+    let fit =
+        fit_curve(&points, Some(gs)).map_err(|e| AppError::invalid("points", e.to_string()))?;
     let warnings: Vec<_> = fit
         .warnings
         .iter()
@@ -395,7 +459,10 @@ pub async fn create_lab_test(
             ));
         }
         if input.supersede_reason.trim().is_empty() {
-            return Err(AppError::invalid("supersede_reason", "is required when superseding a lab test"));
+            return Err(AppError::invalid(
+                "supersede_reason",
+                "is required when superseding a lab test",
+            ));
         }
     }
     let now = clock::now();
@@ -424,14 +491,14 @@ pub async fn create_lab_test(
         created_by: actor.name.clone(),
     };
     let mut tx = db::begin_write(pool).await?;
-    if let Some(old) = input.supersedes_lab_test_id {
-        if !db::lab_tests::supersede(&mut tx, old, input.supersede_reason.trim(), &now).await? {
-            return Err(AppError::conflict(
-                "supersedes_lab_test_id",
-                format!("lab test {old} is already superseded"),
-                vec![],
-            ));
-        }
+    if let Some(old) = input.supersedes_lab_test_id
+        && !db::lab_tests::supersede(&mut tx, old, input.supersede_reason.trim(), &now).await?
+    {
+        return Err(AppError::conflict(
+            "supersedes_lab_test_id",
+            format!("lab test {old} is already superseded"),
+            vec![],
+        ));
     }
     let t = db::lab_tests::insert(&mut tx, &record)
         .await
@@ -448,15 +515,26 @@ pub async fn create_lab_test(
                 entity_id: Some(old),
                 project_id: Some(source.project_id),
                 before: Some(json!({"status": "active"})),
-                after: Some(json!({"status": "superseded", "replaced_by": t.id, "lots_moved": moved,
-                                   "reason": input.supersede_reason.trim()})),
+                after: Some(
+                    json!({"status": "superseded", "replaced_by": t.id, "lots_moved": moved,
+                                   "reason": input.supersede_reason.trim()}),
+                ),
                 origin: &actor.origin,
             },
             &now,
         )
         .await?;
     }
-    audit_insert(&mut tx, actor, "lab_test", t.id, source.project_id, json!(t), &now).await?;
+    audit_insert(
+        &mut tx,
+        actor,
+        "lab_test",
+        t.id,
+        source.project_id,
+        json!(t),
+        &now,
+    )
+    .await?;
     tx.commit().await?;
     Ok(t)
 }
@@ -471,7 +549,12 @@ pub struct LayerInput {
 }
 
 /// Creates a layer (and its zone when new).
-pub async fn create_layer(pool: &Pool, project_id: i64, input: &LayerInput, actor: &Actor) -> Result<db::layers::Layer> {
+pub async fn create_layer(
+    pool: &Pool,
+    project_id: i64,
+    input: &LayerInput,
+    actor: &Actor,
+) -> Result<db::layers::Layer> {
     require_project(pool, project_id).await?;
     let zone = text("zone", &input.zone, 80)?;
     let number = number("number", input.number as f64, 1.0, 999.0, "")? as i64;
@@ -520,7 +603,12 @@ pub struct LotInput {
 }
 
 /// Creates a lot on a layer, judged by a clause against an active lab curve.
-pub async fn create_lot(pool: &Pool, project_id: i64, input: &LotInput, actor: &Actor) -> Result<db::lots::Lot> {
+pub async fn create_lot(
+    pool: &Pool,
+    project_id: i64,
+    input: &LotInput,
+    actor: &Actor,
+) -> Result<db::lots::Lot> {
     require_project(pool, project_id).await?;
     let layer = db::layers::get(pool, input.layer_id).await?;
     if layer.as_ref().is_none_or(|l| l.project_id != project_id) {
@@ -538,26 +626,54 @@ pub async fn create_lot(pool: &Pool, project_id: i64, input: &LotInput, actor: &
     }
     let lab = db::lab_tests::get(pool, input.lab_test_id)
         .await?
-        .ok_or_else(|| AppError::invalid("lab_test_id", format!("lab test {} does not exist", input.lab_test_id)))?;
+        .ok_or_else(|| {
+            AppError::invalid(
+                "lab_test_id",
+                format!("lab test {} does not exist", input.lab_test_id),
+            )
+        })?;
     let source = db::sources::get(pool, lab.source_id)
         .await?
         .filter(|s| s.project_id == project_id)
-        .ok_or_else(|| AppError::invalid("lab_test_id", "the lab test's source is not in this project"))?;
+        .ok_or_else(|| {
+            AppError::invalid(
+                "lab_test_id",
+                "the lab test's source is not in this project",
+            )
+        })?;
     if lab.status != "active" {
         return Err(AppError::invalid(
             "lab_test_id",
-            format!("lab test {} is superseded; choose its replacement", lab.code),
+            format!(
+                "lab test {} is superseded; choose its replacement",
+                lab.code
+            ),
         ));
     }
-    let from = quantity("chainage_from_m", reduction::Chainage::new(input.chainage_from_m))?;
-    let to = quantity("chainage_to_m", reduction::Chainage::new(input.chainage_to_m))?;
+    let from = quantity(
+        "chainage_from_m",
+        reduction::Chainage::new(input.chainage_from_m),
+    )?;
+    let to = quantity(
+        "chainage_to_m",
+        reduction::Chainage::new(input.chainage_to_m),
+    )?;
     if to.metres() <= from.metres() {
-        return Err(AppError::invalid("chainage_to_m", "must be greater than chainage_from_m"));
+        return Err(AppError::invalid(
+            "chainage_to_m",
+            "must be greater than chainage_from_m",
+        ));
     }
     let left = quantity("offset_left_m", reduction::Offset::new(input.offset_left_m))?;
-    let right = quantity("offset_right_m", reduction::Offset::new(input.offset_right_m))?;
+    let right = quantity(
+        "offset_right_m",
+        reduction::Offset::new(input.offset_right_m),
+    )?;
     if right.metres() <= left.metres() {
-        return Err(AppError::invalid("offset_right_m", "must be greater than offset_left_m"));
+        return Err(AppError::invalid(
+            "offset_right_m",
+            "must be greater than offset_left_m",
+        ));
     }
     let new = db::lots::NewLot {
         project_id,
@@ -596,7 +712,7 @@ pub async fn create_lot(pool: &Pool, project_id: i64, input: &LotInput, actor: &
 
 /// Fails with 404 naming `project_id` when the project does not exist.
 pub async fn require_project(pool: &Pool, project_id: i64) -> Result<db::projects::Project> {
-    db::projects::get(pool, project_id)
-        .await?
-        .ok_or_else(|| AppError::not_found("project_id", format!("project {project_id} does not exist")))
+    db::projects::get(pool, project_id).await?.ok_or_else(|| {
+        AppError::not_found("project_id", format!("project {project_id} does not exist"))
+    })
 }

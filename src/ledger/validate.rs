@@ -21,7 +21,10 @@ pub fn text(field: &str, value: &str, max: usize) -> Result<String, AppError> {
 pub fn optional_text(field: &str, value: &str, max: usize) -> Result<String, AppError> {
     let v = value.trim();
     if v.chars().count() > max {
-        return Err(AppError::invalid(field, format!("is longer than {max} characters")));
+        return Err(AppError::invalid(
+            field,
+            format!("is longer than {max} characters"),
+        ));
     }
     if v.chars().any(|c| c.is_control() && c != '\n') {
         return Err(AppError::invalid(field, "contains control characters"));
@@ -32,7 +35,10 @@ pub fn optional_text(field: &str, value: &str, max: usize) -> Result<String, App
 /// A short identifier: letters, digits, `-`, `_`, `.` and `/`, 1 to 24 characters.
 pub fn code(field: &str, value: &str) -> Result<String, AppError> {
     let v = text(field, value, 24)?;
-    if !v.chars().all(|c| c.is_ascii_alphanumeric() || "-_./".contains(c)) {
+    if !v
+        .chars()
+        .all(|c| c.is_ascii_alphanumeric() || "-_./".contains(c))
+    {
         return Err(AppError::invalid(
             field,
             format!("'{v}' may only hold letters, digits and - _ . /"),
@@ -80,5 +86,10 @@ pub fn date(field: &str, value: &str) -> Result<String, AppError> {
     let fmt = time::macros::format_description!("[year]-[month]-[day]");
     time::Date::parse(value.trim(), &fmt)
         .map(|d| d.to_string())
-        .map_err(|_| AppError::invalid(field, format!("'{}' is not a date like 2026-12-01", value.trim())))
+        .map_err(|_| {
+            AppError::invalid(
+                field,
+                format!("'{}' is not a date like 2026-12-01", value.trim()),
+            )
+        })
 }

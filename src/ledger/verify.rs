@@ -18,9 +18,9 @@ pub enum Query {
 
 /// Loads a certificate or fails with 404 naming `certificate_id`.
 pub async fn require_certificate(pool: &Pool, id: i64) -> Result<db::certificates::Certificate> {
-    db::certificates::get(pool, id)
-        .await?
-        .ok_or_else(|| AppError::not_found("certificate_id", format!("certificate {id} does not exist")))
+    db::certificates::get(pool, id).await?.ok_or_else(|| {
+        AppError::not_found("certificate_id", format!("certificate {id} does not exist"))
+    })
 }
 
 /// Finds the certificate a query names and says whether it is current.

@@ -39,11 +39,17 @@ async fn full_flow_reaches_a_verdict_that_follows_the_tests() {
         let rc = t["relative_compaction_pct"].as_f64().unwrap();
         assert!((rc - 98.0).abs() < 0.01, "rc {rc}");
         assert_eq!(t["passed"], true);
-        assert_eq!(t["reduction_version"], liftledger::reduction::REDUCTION_VERSION);
+        assert_eq!(
+            t["reduction_version"],
+            liftledger::reduction::REDUCTION_VERSION
+        );
     }
     // A failing test at 91 %.
     let (s, failed) = app
-        .post(&format!("/api/v1/lots/{}/field-tests", f.lot), &nuclear_test("T-3", 1070.0, 0.91 * mdd, omc))
+        .post(
+            &format!("/api/v1/lots/{}/field-tests", f.lot),
+            &nuclear_test("T-3", 1070.0, 0.91 * mdd, omc),
+        )
         .await;
     assert_eq!(s, 201);
     assert_eq!(failed["passed"], false);
@@ -53,7 +59,9 @@ async fn full_flow_reaches_a_verdict_that_follows_the_tests() {
     assert_eq!(lot["failing_without_retest"], json!(["T-3"]));
 
     // Submitting now is refused, with the failing test named.
-    let (s, e) = app.post(&format!("/api/v1/lots/{}/submit", f.lot), &json!({})).await;
+    let (s, e) = app
+        .post(&format!("/api/v1/lots/{}/submit", f.lot), &json!({}))
+        .await;
     assert_eq!(s, 409, "{e}");
     let reasons = e["error"]["reasons"].to_string();
     assert!(reasons.contains("T-3"), "{reasons}");
@@ -62,26 +70,51 @@ async fn full_flow_reaches_a_verdict_that_follows_the_tests() {
     let mut body = nuclear_test("T-3R", 0.0, 0.975 * mdd, omc + 0.5);
     body.as_object_mut().unwrap().remove("chainage_m");
     let (s, retest) = app
-        .post(&format!("/api/v1/field-tests/{}/retests", failed["id"]), &body)
+        .post(
+            &format!("/api/v1/field-tests/{}/retests", failed["id"]),
+            &body,
+        )
         .await;
     assert_eq!(s, 201, "{retest}");
-    assert_eq!(retest["chainage_m"], 1070.0, "a retest defaults to the failed test's spot");
+    assert_eq!(
+        retest["chainage_m"], 1070.0,
+        "a retest defaults to the failed test's spot"
+    );
     assert_eq!(retest["retest_of"], failed["id"]);
 
     let (_, lot) = app.get(&format!("/api/v1/lots/{}", f.lot)).await;
     assert_eq!(lot["verdict"]["n"], 3);
     assert_eq!(lot["verdict"]["accepted"], true, "{}", lot["verdict"]);
     assert_eq!(lot["tests_owed"], 0);
-    let standings: Vec<_> = lot["tests"].as_array().unwrap().iter().map(|t| t["standing"].clone()).collect();
-    assert_eq!(standings, vec![json!("counted"), json!("counted"), json!("superseded"), json!("counted")]);
+    let standings: Vec<_> = lot["tests"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|t| t["standing"].clone())
+        .collect();
+    assert_eq!(
+        standings,
+        vec![
+            json!("counted"),
+            json!("counted"),
+            json!("superseded"),
+            json!("counted")
+        ]
+    );
     assert_eq!(lot["tests"][2]["superseded_by"], "T-3R");
     // mean of 98, 98, 97.5 (the retest replaces the failure)
     let mean = lot["verdict"]["mean"].as_f64().unwrap();
-    assert!((mean - (98.0 + 98.0 + 97.5) / 3.0).abs() < 0.01, "mean {mean}");
+    assert!(
+        (mean - (98.0 + 98.0 + 97.5) / 3.0).abs() < 0.01,
+        "mean {mean}"
+    );
 
     // Voiding a test takes it out of the statistics and brings back a test owed.
     let (s, v) = app
-        .post(&format!("/api/v1/field-tests/{}/void", lot["tests"][0]["test"]["id"]), &json!({"reason": "wrong layer"}))
+        .post(
+            &format!("/api/v1/field-tests/{}/void", lot["tests"][0]["test"]["id"]),
+            &json!({"reason": "wrong layer"}),
+        )
         .await;
     assert_eq!(s, 200, "{v}");
     assert_eq!(v["void_reason"], "wrong layer");
@@ -92,21 +125,51 @@ async fn full_flow_reaches_a_verdict_that_follows_the_tests() {
 
     // Lists filter by chainage and page.
     let (s, list) = app
-        .get(&format!("/api/v1/projects/{}/field-tests?chainage_from_m=1030&chainage_to_m=1080", f.project))
+        .get(&format!(
+            "/api/v1/projects/{}/field-tests?chainage_from_m=1030&chainage_to_m=1080",
+            f.project
+        ))
         .await;
     assert_eq!(s, 200);
-    let numbers: Vec<_> = list["field_tests"].as_array().unwrap().iter().map(|t| t["number"].clone()).collect();
+    let numbers: Vec<_> = list["field_tests"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|t| t["number"].clone())
+        .collect();
     assert_eq!(numbers.len(), 3, "{numbers:?}");
-    let (_, page) = app.get(&format!("/api/v1/projects/{}/field-tests?per_page=2&page=2", f.project)).await;
+    let (_, page) = app
+        .get(&format!(
+            "/api/v1/projects/{}/field-tests?per_page=2&page=2",
+            f.project
+        ))
+        .await;
     assert_eq!(page["field_tests"].as_array().unwrap().len(), 2);
-    let (_, lots) = app.get(&format!("/api/v1/projects/{}/lots?state=open", f.project)).await;
+    let (_, lots) = app
+        .get(&format!("/api/v1/projects/{}/lots?state=open", f.project))
+        .await;
     assert_eq!(lots["lots"].as_array().unwrap().len(), 1);
-    let (_, none) = app.get(&format!("/api/v1/projects/{}/lots?state=accepted", f.project)).await;
+    let (_, none) = app
+        .get(&format!(
+            "/api/v1/projects/{}/lots?state=accepted",
+            f.project
+        ))
+        .await;
     assert_eq!(none["lots"].as_array().unwrap().len(), 0);
 
     // Every change left an audit row.
-    let (_, hist) = app.get(&format!("/api/v1/field-tests/{}/history", lot["tests"][0]["test"]["id"])).await;
-    let actions: Vec<_> = hist.as_array().unwrap().iter().map(|h| h["action"].clone()).collect();
+    let (_, hist) = app
+        .get(&format!(
+            "/api/v1/field-tests/{}/history",
+            lot["tests"][0]["test"]["id"]
+        ))
+        .await;
+    let actions: Vec<_> = hist
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|h| h["action"].clone())
+        .collect();
     assert_eq!(actions, vec![json!("create"), json!("void")]);
     assert_eq!(hist[1]["actor"], "test-runner");
 }

@@ -22,10 +22,23 @@ async fn field_density_nuclear_sand_cone_balloon_and_cylinder() {
         .await;
     assert_eq!(s, 200, "{r}");
     assert!(close(&r["dry_density_kg_m3"], 1890.0, 1e-6), "{r}");
-    assert!(close(&r["water_content_pct"], 210.0 / 1890.0 * 100.0, 1e-6), "{r}");
+    assert!(
+        close(&r["water_content_pct"], 210.0 / 1890.0 * 100.0, 1e-6),
+        "{r}"
+    );
     // RC = 1890 / 1950 × 100 = 96.92 %; deviation = 11.11 − 12 = −0.89 points.
-    assert!(close(&r["relative_compaction_pct"], 1890.0 / 1950.0 * 100.0, 1e-6), "{r}");
-    assert!(close(&r["moisture_deviation_pct"], 210.0 / 1890.0 * 100.0 - 12.0, 1e-6), "{r}");
+    assert!(
+        close(&r["relative_compaction_pct"], 1890.0 / 1950.0 * 100.0, 1e-6),
+        "{r}"
+    );
+    assert!(
+        close(
+            &r["moisture_deviation_pct"],
+            210.0 / 1890.0 * 100.0 - 12.0,
+            1e-6
+        ),
+        "{r}"
+    );
 
     // ASTM D6938 with an oven moisture (ASTM D2216) replacing the gauge's: ρd = ρ / (1 + w/100).
     let (_, r) = app
@@ -51,7 +64,10 @@ async fn field_density_nuclear_sand_cone_balloon_and_cylinder() {
     let rho = 4800.0 / (3400.0 / 1.4) * 1000.0;
     assert!(close(&r["wet_density_kg_m3"], rho, 1e-6), "{r}");
     assert!(close(&r["dry_density_kg_m3"], rho / 1.1, 1e-6), "{r}");
-    assert!(r.get("relative_compaction_pct").is_none(), "no reference given, no RC");
+    assert!(
+        r.get("relative_compaction_pct").is_none(),
+        "no reference given, no RC"
+    );
 
     // ASTM D2167: ρ = 4000 g / 2000 cm³ = 2000 kg/m³; ρd = 2000 / 1.08.
     let (_, r) = app
@@ -69,7 +85,10 @@ async fn field_density_nuclear_sand_cone_balloon_and_cylinder() {
             &json!({"method": "drive_cylinder", "cylinder_volume_cm3": 944.0, "mass_wet_soil_g": 1900.0, "water_content_pct": 15.0}),
         )
         .await;
-    assert!(close(&r["wet_density_kg_m3"], 1900.0 / 944.0 * 1000.0, 1e-6), "{r}");
+    assert!(
+        close(&r["wet_density_kg_m3"], 1900.0 / 944.0 * 1000.0, 1e-6),
+        "{r}"
+    );
     assert_eq!(app.all_counts().await, before, "calculators store nothing");
 }
 
@@ -123,7 +142,11 @@ async fn acceptance_quality_index_cross_checked_with_statrs() {
     let x = 0.5 - q * n.sqrt() / (2.0 * (n - 1.0));
     let a = (n - 2.0) / 2.0;
     let expected = 100.0 * (1.0 - statrs::function::beta::beta_reg(a, a, x));
-    assert!(close(&r["pwl"], expected, 1e-6), "pwl {} vs {expected}", r["pwl"]);
+    assert!(
+        close(&r["pwl"], expected, 1e-6),
+        "pwl {} vs {expected}",
+        r["pwl"]
+    );
     assert_eq!(r["accepted"], expected >= 90.0);
     assert!(!r["reasons"].as_array().unwrap().is_empty());
 
@@ -154,7 +177,14 @@ async fn lab_curve_returns_fit_curve_and_zero_air_voids() {
         )
         .await;
     assert_eq!(s, 200, "{r}");
-    for key in ["max_dry_density_kg_m3", "optimum_water_content_pct", "fit_method", "warnings", "curve", "zero_air_voids"] {
+    for key in [
+        "max_dry_density_kg_m3",
+        "optimum_water_content_pct",
+        "fit_method",
+        "warnings",
+        "curve",
+        "zero_air_voids",
+    ] {
         assert!(r.get(key).is_some(), "missing {key} in {r}");
     }
     assert!(r["curve"].as_array().unwrap().len() >= 20);

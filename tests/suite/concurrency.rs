@@ -15,11 +15,18 @@ async fn sixteen_concurrent_writers_all_succeed() {
             let mut statuses = Vec::new();
             for i in 0..10 {
                 // Half give a number, half let the server number them.
-                let mut body = nuclear_test(&format!("W{w}-{i}"), 1000.0 + f64::from(w * 6 + i % 6), 1900.0, 11.0);
+                let mut body = nuclear_test(
+                    &format!("W{w}-{i}"),
+                    1000.0 + f64::from(w * 6 + i % 6),
+                    1900.0,
+                    11.0,
+                );
                 if w % 2 == 0 {
                     body.as_object_mut().unwrap().remove("number");
                 }
-                let (s, b) = app.post(&format!("/api/v1/lots/{}/field-tests", f.lot), &body).await;
+                let (s, b) = app
+                    .post(&format!("/api/v1/lots/{}/field-tests", f.lot), &body)
+                    .await;
                 statuses.push((s, b));
             }
             statuses
@@ -39,9 +46,10 @@ async fn sixteen_concurrent_writers_all_succeed() {
         .await
         .unwrap();
     assert_eq!(distinct, 160);
-    let audit: i64 = sqlx::query_scalar("SELECT COUNT(*) FROM audit_log WHERE entity = 'field_test'")
-        .fetch_one(&app.pool)
-        .await
-        .unwrap();
+    let audit: i64 =
+        sqlx::query_scalar("SELECT COUNT(*) FROM audit_log WHERE entity = 'field_test'")
+            .fetch_one(&app.pool)
+            .await
+            .unwrap();
     assert_eq!(audit, 160);
 }

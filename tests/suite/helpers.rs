@@ -26,7 +26,12 @@ impl TestApp {
 
     /// GET a path and return (status, JSON body).
     pub async fn get(&self, path: &str) -> (u16, Value) {
-        let r = self.client.get(self.url(path)).send().await.expect("GET failed");
+        let r = self
+            .client
+            .get(self.url(path))
+            .send()
+            .await
+            .expect("GET failed");
         let status = r.status().as_u16();
         (status, r.json().await.unwrap_or(Value::Null))
     }
@@ -74,7 +79,10 @@ impl TestApp {
     /// Rows in a table, straight from SQLite (to prove refused requests wrote nothing).
     pub async fn count(&self, table: &str) -> i64 {
         let sql = format!("SELECT COUNT(*) FROM {table}");
-        sqlx::query_scalar(sqlx::AssertSqlSafe(sql)).fetch_one(&self.pool).await.expect("count")
+        sqlx::query_scalar(sqlx::AssertSqlSafe(sql))
+            .fetch_one(&self.pool)
+            .await
+            .expect("count")
     }
 
     /// Row counts of every table that holds records.
@@ -115,7 +123,9 @@ pub async fn spawn_on(dir: std::sync::Arc<tempfile::TempDir>, path: PathBuf) -> 
         let _ = tracing_subscriber::fmt().with_env_filter("info").try_init();
     }
     let pool = db::open(&path).await.expect("open db");
-    let listener = tokio::net::TcpListener::bind("127.0.0.1:0").await.expect("bind");
+    let listener = tokio::net::TcpListener::bind("127.0.0.1:0")
+        .await
+        .expect("bind");
     let addr = listener.local_addr().expect("addr");
     let state = AppState::new(pool.clone(), Settings { demo: false });
     let (tx, rx) = oneshot::channel::<()>();
@@ -162,7 +172,10 @@ pub fn lab_points() -> Value {
 /// Builds project → clause → source → lab test → layer → lot through the API.
 pub async fn build_frame(app: &TestApp, rule: Value) -> Frame {
     let (s, p) = app
-        .post("/api/v1/projects", &json!({"code": "TST", "name": "Test Link", "contract": "T-1"}))
+        .post(
+            "/api/v1/projects",
+            &json!({"code": "TST", "name": "Test Link", "contract": "T-1"}),
+        )
         .await;
     assert_eq!(s, 201, "{p}");
     let project = p["id"].as_i64().unwrap();
@@ -171,7 +184,9 @@ pub async fn build_frame(app: &TestApp, rule: Value) -> Frame {
     for (k, v) in rule.as_object().unwrap() {
         clause[k] = v.clone();
     }
-    let (s, c) = app.post(&format!("/api/v1/projects/{project}/clauses"), &clause).await;
+    let (s, c) = app
+        .post(&format!("/api/v1/projects/{project}/clauses"), &clause)
+        .await;
     assert_eq!(s, 201, "{c}");
     let (s, src) = app
         .post(
@@ -189,7 +204,10 @@ pub async fn build_frame(app: &TestApp, rule: Value) -> Frame {
         .await;
     assert_eq!(s, 201, "{lab}");
     let (s, layer) = app
-        .post(&format!("/api/v1/projects/{project}/layers"), &json!({"zone": "Fill", "number": 1}))
+        .post(
+            &format!("/api/v1/projects/{project}/layers"),
+            &json!({"zone": "Fill", "number": 1}),
+        )
         .await;
     assert_eq!(s, 201, "{layer}");
     let (s, lot) = app
@@ -237,7 +255,12 @@ pub async fn spawn_demo() -> TestApp {
 
 /// GET a page and return (status, body text).
 pub async fn page(app: &TestApp, path: &str) -> (u16, String) {
-    let r = app.client.get(app.url(path)).send().await.expect("GET failed");
+    let r = app
+        .client
+        .get(app.url(path))
+        .send()
+        .await
+        .expect("GET failed");
     let status = r.status().as_u16();
     (status, r.text().await.unwrap_or_default())
 }
@@ -247,7 +270,9 @@ pub fn svgs(html: &str) -> Vec<&str> {
     let mut out = Vec::new();
     let mut rest = html;
     while let Some(start) = rest.find("<svg") {
-        let Some(end) = rest[start..].find("</svg>") else { break };
+        let Some(end) = rest[start..].find("</svg>") else {
+            break;
+        };
         out.push(&rest[start..start + end + 6]);
         rest = &rest[start + end + 6..];
     }

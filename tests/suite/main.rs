@@ -5,6 +5,7 @@ mod helpers;
 mod api_flow;
 mod bad_input;
 mod calculators;
+mod certificates;
 mod concurrency;
 mod openapi;
 mod pages;

@@ -27,7 +27,12 @@ async fn crawling_the_demo_finds_no_broken_page() {
         let r = app.client.get(app.url(&path)).send().await.unwrap();
         let status = r.status().as_u16();
         assert_eq!(status, 200, "{path} answered {status}");
-        let kind = r.headers().get("content-type").and_then(|v| v.to_str().ok()).unwrap_or("").to_string();
+        let kind = r
+            .headers()
+            .get("content-type")
+            .and_then(|v| v.to_str().ok())
+            .unwrap_or("")
+            .to_string();
         if kind.starts_with("application/pdf") {
             pdfs += 1;
             continue;
@@ -35,7 +40,8 @@ async fn crawling_the_demo_finds_no_broken_page() {
         let body = r.text().await.unwrap();
         if kind.starts_with("text/html") {
             for svg in svgs(&body) {
-                roxmltree::Document::parse(svg).unwrap_or_else(|e| panic!("bad SVG on {path}: {e}"));
+                roxmltree::Document::parse(svg)
+                    .unwrap_or_else(|e| panic!("bad SVG on {path}: {e}"));
             }
             for l in links(&body) {
                 if !seen.contains(&l) {
@@ -45,7 +51,13 @@ async fn crawling_the_demo_finds_no_broken_page() {
         }
     }
     // 38 lots, 3 lab curves and the certificates are all reachable from the projects list.
-    assert!(seen.iter().filter(|p| p.starts_with("/lots/") && !p.contains("entry")).count() >= 38, "{seen:?}");
+    assert!(
+        seen.iter()
+            .filter(|p| p.starts_with("/lots/") && !p.contains("entry"))
+            .count()
+            >= 38,
+        "{seen:?}"
+    );
     assert!(seen.iter().any(|p| p.starts_with("/lab-tests/")));
     // 19 certified lots plus one lot reissued as revision 2.
     assert_eq!(pdfs, 20, "certificate PDFs reachable");
@@ -63,10 +75,15 @@ async fn lot_sheet_shows_every_test_and_the_numbers_of_the_api() {
         assert!(html.contains(&format!("Lot {}", lot["code"].as_str().unwrap())));
         for t in report["tests"].as_array().unwrap() {
             let number = t["test"]["number"].as_str().unwrap();
-            let row_start = html.find(&format!("id=\"test-{number}\"")).unwrap_or_else(|| panic!("{number} missing"));
+            let row_start = html
+                .find(&format!("id=\"test-{number}\""))
+                .unwrap_or_else(|| panic!("{number} missing"));
             let row = &html[row_start..row_start + html[row_start..].find("</tr>").unwrap()];
             if let Some(rc) = t["relative_compaction_pct"].as_f64() {
-                assert!(row.contains(&format!("{rc:.1}")), "RC {rc:.1} of {number} not in {row}");
+                assert!(
+                    row.contains(&format!("{rc:.1}")),
+                    "RC {rc:.1} of {number} not in {row}"
+                );
             }
             let expected = match t["standing"].as_str().unwrap() {
                 "voided" => "void",
@@ -74,16 +91,29 @@ async fn lot_sheet_shows_every_test_and_the_numbers_of_the_api() {
                 _ if t["passed"].as_bool().unwrap() => "pass",
                 _ => "fail",
             };
-            assert!(row.contains(&format!("data-result=\"{expected}\"")), "{number}: {row}");
+            assert!(
+                row.contains(&format!("data-result=\"{expected}\"")),
+                "{number}: {row}"
+            );
             if expected == "void" || expected == "superseded" {
-                assert!(row.contains("class=\"struck\""), "{number} should be struck through");
+                assert!(
+                    row.contains("class=\"struck\""),
+                    "{number} should be struck through"
+                );
             }
         }
         let accepted = report["verdict"]["accepted"].as_bool().unwrap();
         let clause = report["clause"]["code"].as_str().unwrap();
-        let words = if accepted { format!("Meets clause {clause}") } else { format!("Does not meet clause {clause}") };
+        let words = if accepted {
+            format!("Meets clause {clause}")
+        } else {
+            format!("Does not meet clause {clause}")
+        };
         assert!(html.contains(&words), "verdict words for lot {id}");
-        assert!(html.contains("Results describe the tested points only."), "cautions on lot {id}");
+        assert!(
+            html.contains("Results describe the tested points only."),
+            "cautions on lot {id}"
+        );
         assert_eq!(svgs(&html).len(), 1, "one RC chart on lot {id}");
     }
 }
@@ -97,14 +127,25 @@ async fn lift_map_lists_every_lot_with_a_state_mark_and_zooms() {
     let svg = svgs(&html)[0];
     let doc = roxmltree::Document::parse(svg).unwrap();
     let links: Vec<_> = doc.descendants().filter(|n| n.has_tag_name("a")).collect();
-    assert!(links.len() >= 38, "each lot is a link ({} found)", links.len());
+    assert!(
+        links.len() >= 38,
+        "each lot is a link ({} found)",
+        links.len()
+    );
     for state in ["failing", "submitted", "rejected", "certified", "owed"] {
-        assert!(html.contains(&format!("data-state=\"{state}\"")), "no lot in state {state}");
+        assert!(
+            html.contains(&format!("data-state=\"{state}\"")),
+            "no lot in state {state}"
+        );
     }
     // Zoom to the first 400 m: only the lots that reach into it remain.
     let (s, zoomed) = page(&app, "/projects/1/map?from=0%2B000&to=0%2B400").await;
     assert_eq!(s, 200);
-    assert_eq!(zoomed.matches("<tr data-state=").count(), 8 + 3, "8 fill lots and 3 capping lots start at 0+000");
+    assert_eq!(
+        zoomed.matches("<tr data-state=").count(),
+        8 + 3,
+        "8 fill lots and 3 capping lots start at 0+000"
+    );
     let (s, _) = page(&app, "/projects/1/map?from=later").await;
     assert_eq!(s, 422);
 }
@@ -121,7 +162,9 @@ async fn curve_sheet_plots_lab_points_and_field_tests() {
     assert!(html.contains("S = 90 %"));
     let svg = svgs(&html)[0];
     roxmltree::Document::parse(svg).unwrap();
-    let (_, tests) = app.get("/api/v1/projects/1/field-tests?per_page=1000").await;
+    let (_, tests) = app
+        .get("/api/v1/projects/1/field-tests?per_page=1000")
+        .await;
     let on_curve = tests["field_tests"]
         .as_array()
         .unwrap()
@@ -137,13 +180,39 @@ async fn curve_sheet_plots_lab_points_and_field_tests() {
 async fn test_list_filters_and_downloads_what_it_shows() {
     let app = spawn_demo().await;
     let (_, all) = page(&app, "/projects/1/tests").await;
-    let total: usize = all.split("id=\"total\">").nth(1).unwrap().split('<').next().unwrap().parse().unwrap();
+    let total: usize = all
+        .split("id=\"total\">")
+        .nth(1)
+        .unwrap()
+        .split('<')
+        .next()
+        .unwrap()
+        .parse()
+        .unwrap();
     assert_eq!(total, 449);
     let (_, failed) = page(&app, "/projects/1/tests?verdict=fail").await;
-    let n_fail: usize = failed.split("id=\"total\">").nth(1).unwrap().split('<').next().unwrap().parse().unwrap();
+    let n_fail: usize = failed
+        .split("id=\"total\">")
+        .nth(1)
+        .unwrap()
+        .split('<')
+        .next()
+        .unwrap()
+        .parse()
+        .unwrap();
     assert!(n_fail > 0 && n_fail < total);
-    let r = app.client.get(app.url("/projects/1/tests.csv?verdict=fail")).send().await.unwrap();
-    assert!(r.headers()["content-type"].to_str().unwrap().starts_with("text/csv"));
+    let r = app
+        .client
+        .get(app.url("/projects/1/tests.csv?verdict=fail"))
+        .send()
+        .await
+        .unwrap();
+    assert!(
+        r.headers()["content-type"]
+            .to_str()
+            .unwrap()
+            .starts_with("text/csv")
+    );
     let bytes = r.bytes().await.unwrap();
     assert_eq!(&bytes[..3], b"\xEF\xBB\xBF", "UTF-8 BOM for spreadsheets");
     let mut reader = csv::Reader::from_reader(&bytes[3..]);
@@ -151,7 +220,15 @@ async fn test_list_filters_and_downloads_what_it_shows() {
     assert_eq!(rows.len(), n_fail, "CSV holds exactly the filtered rows");
     assert!(rows.iter().all(|r| &r[15] == "fail"));
     let (_, ch) = page(&app, "/projects/1/tests?from=0%2B100&to=0%2B200").await;
-    let n_ch: usize = ch.split("id=\"total\">").nth(1).unwrap().split('<').next().unwrap().parse().unwrap();
+    let n_ch: usize = ch
+        .split("id=\"total\">")
+        .nth(1)
+        .unwrap()
+        .split('<')
+        .next()
+        .unwrap()
+        .parse()
+        .unwrap();
     assert!(n_ch > 0 && n_ch < total);
     let (_, bad) = page(&app, "/projects/1/tests?from=soon").await;
     assert!(bad.contains("from:"), "bad filter is named");
@@ -162,12 +239,22 @@ async fn site_entry_without_javascript_previews_then_saves() {
     let app = spawn_demo().await;
     // An open lot still owed tests: lot EF07-1.
     let (_, lots) = app.get("/api/v1/projects/1/lots?per_page=100").await;
-    let lot = lots["lots"].as_array().unwrap().iter().find(|l| l["code"] == "EF07-1").unwrap().clone();
+    let lot = lots["lots"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|l| l["code"] == "EF07-1")
+        .unwrap()
+        .clone();
     let id = lot["id"].as_i64().unwrap();
     let (_, before) = app.get(&format!("/api/v1/lots/{id}")).await;
     let n_before = before["tests"].as_array().unwrap().len();
-    let mdd = before["lab_test"]["max_dry_density_kg_m3"].as_f64().unwrap();
-    let omc = before["lab_test"]["optimum_water_content_pct"].as_f64().unwrap();
+    let mdd = before["lab_test"]["max_dry_density_kg_m3"]
+        .as_f64()
+        .unwrap();
+    let omc = before["lab_test"]["optimum_water_content_pct"]
+        .as_f64()
+        .unwrap();
     let dry = 0.985 * mdd;
     let form = |action: &str, wet: String| {
         vec![
@@ -181,25 +268,63 @@ async fn site_entry_without_javascript_previews_then_saves() {
         ]
     };
     let wet = format!("{:.1}", dry * (1.0 + omc / 100.0));
-    let r = app.client.post(app.url(&format!("/lots/{id}/entry"))).form(&form("check", wet.clone())).send().await.unwrap();
+    let r = app
+        .client
+        .post(app.url(&format!("/lots/{id}/entry")))
+        .form(&form("check", wet.clone()))
+        .send()
+        .await
+        .unwrap();
     assert_eq!(r.status().as_u16(), 200);
     let html = r.text().await.unwrap();
-    assert!(html.contains("This test passes (not saved yet)"), "preview shown");
+    assert!(
+        html.contains("This test passes (not saved yet)"),
+        "preview shown"
+    );
     assert!(html.contains("98.5 %"), "RC previewed");
     let (_, mid) = app.get(&format!("/api/v1/lots/{id}")).await;
-    assert_eq!(mid["tests"].as_array().unwrap().len(), n_before, "check saves nothing");
+    assert_eq!(
+        mid["tests"].as_array().unwrap().len(),
+        n_before,
+        "check saves nothing"
+    );
 
     // Bad value: 422, error beside the field, nothing saved.
-    let r = app.client.post(app.url(&format!("/lots/{id}/entry"))).form(&form("save", "heavy".into())).send().await.unwrap();
+    let r = app
+        .client
+        .post(app.url(&format!("/lots/{id}/entry")))
+        .form(&form("save", "heavy".into()))
+        .send()
+        .await
+        .unwrap();
     assert_eq!(r.status().as_u16(), 422);
     let html = r.text().await.unwrap();
-    let err = html.split("id=\"wet_density-err\" role=\"status\">").nth(1).unwrap().split('<').next().unwrap();
+    let err = html
+        .split("id=\"wet_density-err\" role=\"status\">")
+        .nth(1)
+        .unwrap()
+        .split('<')
+        .next()
+        .unwrap();
     assert!(err.contains("not a number"), "inline error: {err}");
 
-    let client = reqwest::Client::builder().redirect(reqwest::redirect::Policy::none()).build().unwrap();
-    let r = client.post(app.url(&format!("/lots/{id}/entry"))).form(&form("save", wet)).send().await.unwrap();
+    let client = reqwest::Client::builder()
+        .redirect(reqwest::redirect::Policy::none())
+        .build()
+        .unwrap();
+    let r = client
+        .post(app.url(&format!("/lots/{id}/entry")))
+        .form(&form("save", wet))
+        .send()
+        .await
+        .unwrap();
     assert_eq!(r.status().as_u16(), 303);
-    assert!(r.headers()["location"].to_str().unwrap().starts_with(&format!("/lots/{id}#test-")));
+    assert!(
+        r.headers()["location"]
+            .to_str()
+            .unwrap()
+            .starts_with(&format!("/lots/{id}#test-"))
+    );
     let (_, after) = app.get(&format!("/api/v1/lots/{id}")).await;
     assert_eq!(after["tests"].as_array().unwrap().len(), n_before + 1);
 }

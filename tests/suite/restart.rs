@@ -12,7 +12,12 @@ async fn restart_keeps_every_record() {
         let (s, _) = app
             .post(
                 &format!("/api/v1/lots/{}/field-tests", f.lot),
-                &nuclear_test(&format!("R-{i}"), 1005.0 + 10.0 * f64::from(i), 1900.0, 11.0),
+                &nuclear_test(
+                    &format!("R-{i}"),
+                    1005.0 + 10.0 * f64::from(i),
+                    1900.0,
+                    11.0,
+                ),
             )
             .await;
         assert_eq!(s, 201);
@@ -27,10 +32,19 @@ async fn restart_keeps_every_record() {
     assert_eq!(s, 200);
     assert_eq!(report_after["verdict"], report_before["verdict"]);
     assert_eq!(report_after["tests"], report_before["tests"]);
-    let mode: String = sqlx::query_scalar("PRAGMA journal_mode").fetch_one(&app.pool).await.unwrap();
+    let mode: String = sqlx::query_scalar("PRAGMA journal_mode")
+        .fetch_one(&app.pool)
+        .await
+        .unwrap();
     assert_eq!(mode, "wal");
-    let fk: i64 = sqlx::query_scalar("PRAGMA foreign_keys").fetch_one(&app.pool).await.unwrap();
+    let fk: i64 = sqlx::query_scalar("PRAGMA foreign_keys")
+        .fetch_one(&app.pool)
+        .await
+        .unwrap();
     assert_eq!(fk, 1);
-    let sync: i64 = sqlx::query_scalar("PRAGMA synchronous").fetch_one(&app.pool).await.unwrap();
+    let sync: i64 = sqlx::query_scalar("PRAGMA synchronous")
+        .fetch_one(&app.pool)
+        .await
+        .unwrap();
     assert_eq!(sync, 2, "synchronous=FULL");
 }

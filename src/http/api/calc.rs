@@ -35,7 +35,10 @@ struct LabCurveInput {
 }
 
 async fn lab_curve(ApiJson(input): ApiJson<LabCurveInput>) -> Result<Json<Value>> {
-    let gs = quantity("specific_gravity", SpecificGravity::new(input.specific_gravity))?;
+    let gs = quantity(
+        "specific_gravity",
+        SpecificGravity::new(input.specific_gravity),
+    )?;
     for (i, p) in input.points.iter().enumerate() {
         quantity(
             &format!("points[{i}].water_content_pct"),
@@ -46,7 +49,8 @@ async fn lab_curve(ApiJson(input): ApiJson<LabCurveInput>) -> Result<Json<Value>
             Density::new(p.dry_density_kg_m3),
         )?;
     }
-    let fit = fit_curve(&input.points, Some(gs)).map_err(|e| AppError::invalid("points", e.to_string()))?;
+    let fit = fit_curve(&input.points, Some(gs))
+        .map_err(|e| AppError::invalid("points", e.to_string()))?;
     let (lo, hi) = input
         .points
         .iter()
@@ -74,7 +78,8 @@ struct FieldDensityInput {
 }
 
 async fn field_density(ApiJson(input): ApiJson<FieldDensityInput>) -> Result<Json<Value>> {
-    let d = reduce_field(&input.readings).map_err(|e| AppError::invalid(e.field(), e.to_string()))?;
+    let d =
+        reduce_field(&input.readings).map_err(|e| AppError::invalid(e.field(), e.to_string()))?;
     let mut out = json!({
         "wet_density_kg_m3": d.wet_density.kg_m3(),
         "water_content_pct": d.water_content.pct(),
@@ -135,14 +140,14 @@ async fn acceptance(ApiJson(b): ApiJson<AcceptanceBody>) -> Result<Json<Value>> 
     let rule = match b.rule.as_str() {
         "every_test" => AcceptanceRule::EveryTest,
         "mean_and_min" => AcceptanceRule::MeanAndMin {
-            allowance_pct: b
-                .allowance
-                .ok_or_else(|| AppError::invalid("allowance", "is required for the mean_and_min rule"))?,
+            allowance_pct: b.allowance.ok_or_else(|| {
+                AppError::invalid("allowance", "is required for the mean_and_min rule")
+            })?,
         },
         "quality_index" => AcceptanceRule::QualityIndex {
-            min_pwl_pct: b
-                .min_pwl
-                .ok_or_else(|| AppError::invalid("min_pwl", "is required for the quality_index rule"))?,
+            min_pwl_pct: b.min_pwl.ok_or_else(|| {
+                AppError::invalid("min_pwl", "is required for the quality_index rule")
+            })?,
         },
         other => {
             return Err(AppError::invalid(
@@ -156,10 +161,14 @@ async fn acceptance(ApiJson(b): ApiJson<AcceptanceBody>) -> Result<Json<Value>> 
     }
     for (i, v) in b.values.iter().enumerate() {
         if !v.is_finite() || *v < 0.0 || *v > 200.0 {
-            return Err(AppError::invalid(format!("values[{i}]"), "must be a relative compaction between 0 and 200 %"));
+            return Err(AppError::invalid(
+                format!("values[{i}]"),
+                "must be a relative compaction between 0 and 200 %",
+            ));
         }
     }
-    let s = evaluate_values(&b.values, b.lower_limit, &rule).map_err(|e| AppError::invalid(e.field(), e.to_string()))?;
+    let s = evaluate_values(&b.values, b.lower_limit, &rule)
+        .map_err(|e| AppError::invalid(e.field(), e.to_string()))?;
     Ok(Json(json!({
         "n": s.n,
         "mean": s.mean,

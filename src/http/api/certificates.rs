@@ -23,27 +23,38 @@ pub fn router() -> Router<AppState> {
         .route("/api/v1/verify", post(verify_body))
 }
 
-async fn list(State(s): State<AppState>, Path(id): Path<i64>) -> Result<Json<Vec<db::certificates::Certificate>>> {
+async fn list(
+    State(s): State<AppState>,
+    Path(id): Path<i64>,
+) -> Result<Json<Vec<db::certificates::Certificate>>> {
     ledger::setup::require_project(&s.db, id).await?;
     Ok(Json(db::certificates::for_project(&s.db, id).await?))
 }
 
 async fn get_one(State(s): State<AppState>, Path(id): Path<i64>) -> Result<Json<Value>> {
     let c = verify::require_certificate(&s.db, id).await?;
-    Ok(Json(json!({"certificate": c, "current": c.superseded_at.is_none()})))
+    Ok(Json(
+        json!({"certificate": c, "current": c.superseded_at.is_none()}),
+    ))
 }
 
 async fn pdf(State(s): State<AppState>, Path(id): Path<i64>) -> Result<impl IntoResponse> {
     let c = verify::require_certificate(&s.db, id).await?;
-    let bytes = db::certificates::pdf(&s.db, id)
-        .await?
-        .ok_or_else(|| AppError::not_found("certificate_id", format!("certificate {id} has no PDF")))?;
+    let bytes = db::certificates::pdf(&s.db, id).await?.ok_or_else(|| {
+        AppError::not_found("certificate_id", format!("certificate {id} has no PDF"))
+    })?;
     let name = format!("{}-rev{}.pdf", c.number, c.revision);
     Ok((
         [
             (header::CONTENT_TYPE, "application/pdf".to_string()),
-            (header::CONTENT_DISPOSITION, format!("inline; filename=\"{name}\"")),
-            (header::CACHE_CONTROL, "private, max-age=31536000, immutable".to_string()),
+            (
+                header::CONTENT_DISPOSITION,
+                format!("inline; filename=\"{name}\""),
+            ),
+            (
+                header::CACHE_CONTROL,
+                "private, max-age=31536000, immutable".to_string(),
+            ),
         ],
         bytes,
     ))
@@ -58,14 +69,23 @@ struct VerifyInput {
     pdf_base64: Option<String>,
 }
 
-async fn verify_body(State(s): State<AppState>, ApiJson(input): ApiJson<VerifyInput>) -> Result<Json<Value>> {
+async fn verify_body(
+    State(s): State<AppState>,
+    ApiJson(input): ApiJson<VerifyInput>,
+) -> Result<Json<Value>> {
     let query = match (input.code, input.sha256, input.pdf_base64) {
         (Some(c), None, None) => verify::Query::Code(c),
         (None, Some(h), None) => verify::Query::Hash(h),
         (None, None, Some(b)) => verify::Query::Pdf(
-            verify::decode_base64(&b).ok_or_else(|| AppError::invalid("pdf_base64", "is not valid base64"))?,
+            verify::decode_base64(&b)
+                .ok_or_else(|| AppError::invalid("pdf_base64", "is not valid base64"))?,
         ),
-        _ => return Err(AppError::invalid("body", "give exactly one of code, sha256 or pdf_base64")),
+        _ => {
+            return Err(AppError::invalid(
+                "body",
+                "give exactly one of code, sha256 or pdf_base64",
+            ));
+        }
     };
     Ok(Json(verify::verify(&s.db, query).await?))
 }

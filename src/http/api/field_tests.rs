@@ -17,7 +17,10 @@ use crate::ledger::{self, field::FieldTestInput};
 /// Routes of this module.
 pub fn router() -> Router<AppState> {
     Router::new()
-        .route("/api/v1/lots/{id}/field-tests", get(list_for_lot).post(create))
+        .route(
+            "/api/v1/lots/{id}/field-tests",
+            get(list_for_lot).post(create),
+        )
         .route("/api/v1/lots/{id}/field-tests/preview", post(preview))
         .route("/api/v1/projects/{id}/field-tests", get(list_for_project))
         .route("/api/v1/field-tests/{id}", get(get_one))
@@ -27,7 +30,10 @@ pub fn router() -> Router<AppState> {
 }
 
 /// A stored test with its readings expanded and, when known, its line in the lot report.
-pub fn test_json(t: &db::field_tests::FieldTest, line: Option<&ledger::lot_report::TestLine>) -> Value {
+pub fn test_json(
+    t: &db::field_tests::FieldTest,
+    line: Option<&ledger::lot_report::TestLine>,
+) -> Value {
     let mut v = json!(t);
     v["readings"] = serde_json::from_str(&t.readings_json).unwrap_or(Value::Null);
     if let Some(o) = v.as_object_mut() {
@@ -48,12 +54,21 @@ pub fn test_json(t: &db::field_tests::FieldTest, line: Option<&ledger::lot_repor
 
 async fn with_line(s: &AppState, t: &db::field_tests::FieldTest) -> Result<Value> {
     let report = ledger::lot_report::build(&s.db, t.lot_id).await?;
-    Ok(test_json(t, report.tests.iter().find(|l| l.test.id == t.id)))
+    Ok(test_json(
+        t,
+        report.tests.iter().find(|l| l.test.id == t.id),
+    ))
 }
 
 async fn list_for_lot(State(s): State<AppState>, Path(id): Path<i64>) -> Result<Json<Vec<Value>>> {
     let report = ledger::lot_report::build(&s.db, id).await?;
-    Ok(Json(report.tests.iter().map(|l| test_json(&l.test, Some(l))).collect()))
+    Ok(Json(
+        report
+            .tests
+            .iter()
+            .map(|l| test_json(&l.test, Some(l)))
+            .collect(),
+    ))
 }
 
 async fn create(
@@ -72,7 +87,9 @@ async fn preview(
     RequestActor(actor): RequestActor,
     ApiJson(input): ApiJson<FieldTestInput>,
 ) -> Result<Json<Value>> {
-    Ok(Json(ledger::field::preview(&s.db, id, &input, &actor).await?))
+    Ok(Json(
+        ledger::field::preview(&s.db, id, &input, &actor).await?,
+    ))
 }
 
 /// Filters of the project test list.
@@ -119,7 +136,9 @@ async fn list_for_project(
     };
     let tests = db::field_tests::list(&s.db, id, &filter).await?;
     let rows: Vec<Value> = tests.iter().map(|t| test_json(t, None)).collect();
-    Ok(Json(json!({"field_tests": rows, "limit": limit, "offset": offset})))
+    Ok(Json(
+        json!({"field_tests": rows, "limit": limit, "offset": offset}),
+    ))
 }
 
 async fn get_one(State(s): State<AppState>, Path(id): Path<i64>) -> Result<Json<Value>> {
@@ -127,7 +146,10 @@ async fn get_one(State(s): State<AppState>, Path(id): Path<i64>) -> Result<Json<
     Ok(Json(with_line(&s, &t).await?))
 }
 
-async fn history(State(s): State<AppState>, Path(id): Path<i64>) -> Result<Json<Vec<db::audit::AuditEntry>>> {
+async fn history(
+    State(s): State<AppState>,
+    Path(id): Path<i64>,
+) -> Result<Json<Vec<db::audit::AuditEntry>>> {
     ledger::field::require_test(&s.db, id).await?;
     Ok(Json(db::audit::for_entity(&s.db, "field_test", id).await?))
 }
@@ -158,4 +180,3 @@ async fn retest(
     let t = ledger::field::record_retest(&s.db, id, &input, &actor).await?;
     Ok((StatusCode::CREATED, Json(with_line(&s, &t).await?)))
 }
-

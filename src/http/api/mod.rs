@@ -32,7 +32,10 @@ impl Page {
     pub fn limit_offset(&self) -> crate::error::Result<(i64, i64)> {
         let per = self.per_page.unwrap_or(100);
         if !(1..=1000).contains(&per) {
-            return Err(crate::error::AppError::invalid("per_page", "must be between 1 and 1000"));
+            return Err(crate::error::AppError::invalid(
+                "per_page",
+                "must be between 1 and 1000",
+            ));
         }
         let page = self.page.unwrap_or(1);
         if page < 1 {

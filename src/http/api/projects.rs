@@ -19,12 +19,27 @@ pub fn router() -> Router<AppState> {
     Router::new()
         .route("/api/v1/projects", get(list_projects).post(create_project))
         .route("/api/v1/projects/{id}", get(get_project))
-        .route("/api/v1/projects/{id}/clauses", get(list_clauses).post(create_clause))
-        .route("/api/v1/projects/{id}/sources", get(list_sources).post(create_source))
-        .route("/api/v1/sources/{id}/lab-tests", get(list_lab_tests).post(create_lab_test))
+        .route(
+            "/api/v1/projects/{id}/clauses",
+            get(list_clauses).post(create_clause),
+        )
+        .route(
+            "/api/v1/projects/{id}/sources",
+            get(list_sources).post(create_source),
+        )
+        .route(
+            "/api/v1/sources/{id}/lab-tests",
+            get(list_lab_tests).post(create_lab_test),
+        )
         .route("/api/v1/lab-tests/{id}", get(get_lab_test))
-        .route("/api/v1/projects/{id}/layers", get(list_layers).post(create_layer))
-        .route("/api/v1/projects/{id}/lots", get(list_lots).post(create_lot))
+        .route(
+            "/api/v1/projects/{id}/layers",
+            get(list_layers).post(create_layer),
+        )
+        .route(
+            "/api/v1/projects/{id}/lots",
+            get(list_lots).post(create_lot),
+        )
         .route("/api/v1/lots/{id}", get(get_lot))
         .route("/api/v1/lots/{id}/history", get(lot_history))
         .route("/api/v1/projects/{id}/review-queue", get(review_queue))
@@ -48,11 +63,17 @@ async fn create_project(
     Ok((StatusCode::CREATED, Json(p)))
 }
 
-async fn get_project(State(s): State<AppState>, Path(id): Path<i64>) -> Result<Json<db::projects::Project>> {
+async fn get_project(
+    State(s): State<AppState>,
+    Path(id): Path<i64>,
+) -> Result<Json<db::projects::Project>> {
     Ok(Json(setup::require_project(&s.db, id).await?))
 }
 
-async fn list_clauses(State(s): State<AppState>, Path(id): Path<i64>) -> Result<Json<Vec<db::clauses::Clause>>> {
+async fn list_clauses(
+    State(s): State<AppState>,
+    Path(id): Path<i64>,
+) -> Result<Json<Vec<db::clauses::Clause>>> {
     setup::require_project(&s.db, id).await?;
     Ok(Json(db::clauses::list(&s.db, id).await?))
 }
@@ -63,10 +84,16 @@ async fn create_clause(
     RequestActor(actor): RequestActor,
     ApiJson(input): ApiJson<setup::ClauseInput>,
 ) -> Result<Created<db::clauses::Clause>> {
-    Ok((StatusCode::CREATED, Json(setup::create_clause(&s.db, id, &input, &actor).await?)))
+    Ok((
+        StatusCode::CREATED,
+        Json(setup::create_clause(&s.db, id, &input, &actor).await?),
+    ))
 }
 
-async fn list_sources(State(s): State<AppState>, Path(id): Path<i64>) -> Result<Json<Vec<db::sources::Source>>> {
+async fn list_sources(
+    State(s): State<AppState>,
+    Path(id): Path<i64>,
+) -> Result<Json<Vec<db::sources::Source>>> {
     setup::require_project(&s.db, id).await?;
     Ok(Json(db::sources::list(&s.db, id).await?))
 }
@@ -77,10 +104,16 @@ async fn create_source(
     RequestActor(actor): RequestActor,
     ApiJson(input): ApiJson<setup::SourceInput>,
 ) -> Result<Created<db::sources::Source>> {
-    Ok((StatusCode::CREATED, Json(setup::create_source(&s.db, id, &input, &actor).await?)))
+    Ok((
+        StatusCode::CREATED,
+        Json(setup::create_source(&s.db, id, &input, &actor).await?),
+    ))
 }
 
-async fn list_lab_tests(State(s): State<AppState>, Path(id): Path<i64>) -> Result<Json<Vec<Value>>> {
+async fn list_lab_tests(
+    State(s): State<AppState>,
+    Path(id): Path<i64>,
+) -> Result<Json<Vec<Value>>> {
     db::sources::get(&s.db, id)
         .await?
         .ok_or_else(|| AppError::not_found("source_id", format!("source {id} does not exist")))?;
@@ -111,13 +144,16 @@ async fn create_lab_test(
 }
 
 async fn get_lab_test(State(s): State<AppState>, Path(id): Path<i64>) -> Result<Json<Value>> {
-    let t = db::lab_tests::get(&s.db, id)
-        .await?
-        .ok_or_else(|| AppError::not_found("lab_test_id", format!("lab test {id} does not exist")))?;
+    let t = db::lab_tests::get(&s.db, id).await?.ok_or_else(|| {
+        AppError::not_found("lab_test_id", format!("lab test {id} does not exist"))
+    })?;
     Ok(Json(lab_test_json(&t)))
 }
 
-async fn list_layers(State(s): State<AppState>, Path(id): Path<i64>) -> Result<Json<Vec<db::layers::Layer>>> {
+async fn list_layers(
+    State(s): State<AppState>,
+    Path(id): Path<i64>,
+) -> Result<Json<Vec<db::layers::Layer>>> {
     setup::require_project(&s.db, id).await?;
     Ok(Json(db::layers::list(&s.db, id).await?))
 }
@@ -128,7 +164,10 @@ async fn create_layer(
     RequestActor(actor): RequestActor,
     ApiJson(input): ApiJson<setup::LayerInput>,
 ) -> Result<Created<db::layers::Layer>> {
-    Ok((StatusCode::CREATED, Json(setup::create_layer(&s.db, id, &input, &actor).await?)))
+    Ok((
+        StatusCode::CREATED,
+        Json(setup::create_layer(&s.db, id, &input, &actor).await?),
+    ))
 }
 
 /// Filters of the lot list.
@@ -159,7 +198,10 @@ async fn list_lots(
     if let Some(st) = &q.state
         && !["open", "submitted", "accepted", "rejected"].contains(&st.as_str())
     {
-        return Err(AppError::invalid("state", "must be open, submitted, accepted or rejected"));
+        return Err(AppError::invalid(
+            "state",
+            "must be open, submitted, accepted or rejected",
+        ));
     }
     let filter = db::lots::LotFilter {
         chainage_from_m: q.chainage_from_m,
@@ -180,7 +222,9 @@ async fn list_lots(
         offset,
     };
     let lots = db::lots::list(&s.db, id, &filter).await?;
-    Ok(Json(json!({"lots": lots, "limit": limit, "offset": offset})))
+    Ok(Json(
+        json!({"lots": lots, "limit": limit, "offset": offset}),
+    ))
 }
 
 async fn create_lot(
@@ -189,10 +233,16 @@ async fn create_lot(
     RequestActor(actor): RequestActor,
     ApiJson(input): ApiJson<setup::LotInput>,
 ) -> Result<Created<db::lots::Lot>> {
-    Ok((StatusCode::CREATED, Json(setup::create_lot(&s.db, id, &input, &actor).await?)))
+    Ok((
+        StatusCode::CREATED,
+        Json(setup::create_lot(&s.db, id, &input, &actor).await?),
+    ))
 }
 
-async fn get_lot(State(s): State<AppState>, Path(id): Path<i64>) -> Result<Json<ledger::lot_report::LotReport>> {
+async fn get_lot(
+    State(s): State<AppState>,
+    Path(id): Path<i64>,
+) -> Result<Json<ledger::lot_report::LotReport>> {
     Ok(Json(ledger::lot_report::build(&s.db, id).await?))
 }
 
@@ -203,7 +253,10 @@ async fn lot_history(State(s): State<AppState>, Path(id): Path<i64>) -> Result<J
     Ok(Json(json!({"transitions": transitions, "audit": audit})))
 }
 
-async fn review_queue(State(s): State<AppState>, Path(id): Path<i64>) -> Result<Json<Vec<db::lots::Lot>>> {
+async fn review_queue(
+    State(s): State<AppState>,
+    Path(id): Path<i64>,
+) -> Result<Json<Vec<db::lots::Lot>>> {
     setup::require_project(&s.db, id).await?;
     Ok(Json(db::lots::in_state(&s.db, id, "submitted").await?))
 }
@@ -222,7 +275,9 @@ async fn submit_lot(
     RequestActor(actor): RequestActor,
     ApiJson(input): ApiJson<ReviewInput>,
 ) -> Result<Json<ledger::lot_report::LotReport>> {
-    Ok(Json(ledger::review::submit(&s.db, id, &input.comment, &actor).await?))
+    Ok(Json(
+        ledger::review::submit(&s.db, id, &input.comment, &actor).await?,
+    ))
 }
 
 async fn accept_lot(
@@ -231,7 +286,9 @@ async fn accept_lot(
     RequestActor(actor): RequestActor,
     ApiJson(input): ApiJson<ReviewInput>,
 ) -> Result<Json<ledger::lot_report::LotReport>> {
-    Ok(Json(ledger::review::accept(&s.db, id, &input.comment, &actor).await?))
+    Ok(Json(
+        ledger::review::accept(&s.db, id, &input.comment, &actor).await?,
+    ))
 }
 
 async fn reject_lot(
@@ -240,5 +297,7 @@ async fn reject_lot(
     RequestActor(actor): RequestActor,
     ApiJson(input): ApiJson<ReviewInput>,
 ) -> Result<Json<ledger::lot_report::LotReport>> {
-    Ok(Json(ledger::review::reject(&s.db, id, &input.comment, &actor).await?))
+    Ok(Json(
+        ledger::review::reject(&s.db, id, &input.comment, &actor).await?,
+    ))
 }

@@ -54,33 +54,55 @@ struct CurvePage {
 }
 
 async fn sheet(State(s): State<AppState>, Path(id): Path<i64>) -> PageResult {
-    let lab = db::lab_tests::get(&s.db, id)
-        .await?
-        .ok_or_else(|| AppError::not_found("lab_test_id", format!("lab test {id} does not exist")))?;
+    let lab = db::lab_tests::get(&s.db, id).await?.ok_or_else(|| {
+        AppError::not_found("lab_test_id", format!("lab test {id} does not exist"))
+    })?;
     let source = db::sources::get(&s.db, lab.source_id)
         .await?
         .ok_or_else(|| anyhow::anyhow!("lab test {id} has no source"))
         .map_err(AppError::from)?;
     let project = crate::ledger::setup::require_project(&s.db, source.project_id).await?;
     let u = Units::of(&project);
-    let entered: Vec<LabPointInput> = serde_json::from_str(&lab.points_json).map_err(anyhow::Error::from).map_err(AppError::from)?;
+    let entered: Vec<LabPointInput> = serde_json::from_str(&lab.points_json)
+        .map_err(anyhow::Error::from)
+        .map_err(AppError::from)?;
     let points = entered
         .iter()
         .enumerate()
         .map(|(i, p)| reduce_lab_point(i, p))
         .collect::<crate::error::Result<Vec<_>>>()?;
-    let gs = SpecificGravity::new(lab.specific_gravity).map_err(|e| AppError::Internal(anyhow::anyhow!("{e}")))?;
-    let fit = fit_curve(&points, Some(gs)).map_err(|e| AppError::Internal(anyhow::anyhow!("stored curve no longer fits: {e}")))?;
+    let gs = SpecificGravity::new(lab.specific_gravity)
+        .map_err(|e| AppError::Internal(anyhow::anyhow!("{e}")))?;
+    let fit = fit_curve(&points, Some(gs))
+        .map_err(|e| AppError::Internal(anyhow::anyhow!("stored curve no longer fits: {e}")))?;
 
     // Field tests judged against this curve: plotted as they were measured (no oversize adjustment).
     let field = db::field_tests::for_lab_test(&s.db, id).await?;
     let counted: Vec<_> = field.iter().filter(|t| t.void_reason.is_none()).collect();
     let limits = {
-        let lots = db::lots::list(&s.db, project.id, &db::lots::LotFilter { limit: i64::MAX, ..Default::default() }).await?;
-        let clause_ids: std::collections::HashMap<i64, i64> = lots.iter().map(|l| (l.id, l.clause_id)).collect();
+        let lots = db::lots::list(
+            &s.db,
+            project.id,
+            &db::lots::LotFilter {
+                limit: i64::MAX,
+                ..Default::default()
+            },
+        )
+        .await?;
+        let clause_ids: std::collections::HashMap<i64, i64> =
+            lots.iter().map(|l| (l.id, l.clause_id)).collect();
         let clauses: std::collections::HashMap<i64, db::clauses::Clause> =
-            db::clauses::list(&s.db, project.id).await?.into_iter().map(|c| (c.id, c)).collect();
-        move |lot_id: i64| clause_ids.get(&lot_id).and_then(|c| clauses.get(c)).map(crate::ledger::lot_report::limits_of)
+            db::clauses::list(&s.db, project.id)
+                .await?
+                .into_iter()
+                .map(|c| (c.id, c))
+                .collect();
+        move |lot_id: i64| {
+            clause_ids
+                .get(&lot_id)
+                .and_then(|c| clauses.get(c))
+                .map(crate::ledger::lot_report::limits_of)
+        }
     };
     let reference = crate::ledger::lot_report::reference_of(&lab)?;
     let marks: Vec<FieldMark> = counted
@@ -103,16 +125,23 @@ async fn sheet(State(s): State<AppState>, Path(id): Path<i64>) -> PageResult {
         .iter()
         .map(|p| p.water_content_pct)
         .chain(marks.iter().map(|m| m.x))
-        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), w| (a.min(w), b.max(w)));
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), w| {
+            (a.min(w), b.max(w))
+        });
     let (lo, hi) = ((lo - 1.5).max(0.0), hi + 1.5);
     let pairs = |v: Vec<crate::reduction::curve::CurvePoint>| -> Vec<(f64, f64)> {
-        v.into_iter().map(|p| (p.water_content_pct, p.dry_density_kg_m3)).collect()
+        v.into_iter()
+            .map(|p| (p.water_content_pct, p.dry_density_kg_m3))
+            .collect()
     };
     let chart = curve_chart(&CurveChartInput {
         title: format!("Compaction curve {} ({})", lab.code, source.code),
         x_label: "Water content (%)".into(),
         y_label: "Dry density (kg/m³)".into(),
-        lab_points: points.iter().map(|p| (p.water_content_pct, p.dry_density_kg_m3)).collect(),
+        lab_points: points
+            .iter()
+            .map(|p| (p.water_content_pct, p.dry_density_kg_m3))
+            .collect(),
         fitted: pairs(fit.curve.clone()),
         optimum: (fit.optimum_water_content.pct(), fit.max_dry_density.kg_m3()),
         zero_air_voids: pairs(zero_air_voids_line(gs, lo, hi, 40)),
@@ -146,9 +175,14 @@ async fn sheet(State(s): State<AppState>, Path(id): Path<i64>) -> PageResult {
         tested_on: lab.tested_on.clone(),
         status: lab.status.clone(),
         superseded_reason: lab.superseded_reason.clone().unwrap_or_default(),
-        effort: EffortPreset::parse_code(&lab.effort).map_or(lab.effort.clone(), |e| e.label().to_string()),
+        effort: EffortPreset::parse_code(&lab.effort)
+            .map_or(lab.effort.clone(), |e| e.label().to_string()),
         energy: match &effort {
-            Some(e) => format!("{:.0} kJ/m³ ({:.0} ft·lbf/ft³)", e.energy_kj_m3(), e.energy_ft_lbf_ft3()),
+            Some(e) => format!(
+                "{:.0} kJ/m³ ({:.0} ft·lbf/ft³)",
+                e.energy_kj_m3(),
+                e.energy_ft_lbf_ft3()
+            ),
             None => format!("{:.0} kJ/m³", lab.effort_energy_kj_m3),
         },
         mdd: u.density_with_unit(lab.max_dry_density_kg_m3),
@@ -161,7 +195,10 @@ async fn sheet(State(s): State<AppState>, Path(id): Path<i64>) -> PageResult {
             .map(|p| PointRow {
                 water: format!("{:.1}", p.water_content_pct),
                 dry: u.density(p.dry_density_kg_m3),
-                saturation: format!("{:.0}", degree_of_saturation_pct(gs, p.water_content_pct, p.dry_density_kg_m3)),
+                saturation: format!(
+                    "{:.0}",
+                    degree_of_saturation_pct(gs, p.water_content_pct, p.dry_density_kg_m3)
+                ),
             })
             .collect(),
         warnings,

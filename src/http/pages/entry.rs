@@ -30,7 +30,10 @@ pub fn router() -> Router<AppState> {
     Router::new()
         .route("/lots/{id}/entry", get(new_form).post(new_post))
         .route("/lots/{id}/entry/preview", post(live_preview))
-        .route("/field-tests/{id}/retest", get(retest_form).post(retest_post))
+        .route(
+            "/field-tests/{id}/retest",
+            get(retest_form).post(retest_post),
+        )
 }
 
 /// The form exactly as typed; every value is text until parsed.
@@ -113,15 +116,37 @@ pub fn parse_entry(f: &EntryForm, u: &Units, retest: bool) -> Result<FieldTestIn
     let offset = num(&mut e, "offset_m", &f.offset_m, !retest);
     let depth = num(&mut e, "depth_mm", &f.depth_mm, false);
     let coarse = num(&mut e, "coarse_pct", &f.coarse_pct, false);
-    let coarse_w = num(&mut e, "coarse_water_content_pct", &f.coarse_water_content_pct, false);
+    let coarse_w = num(
+        &mut e,
+        "coarse_water_content_pct",
+        &f.coarse_water_content_pct,
+        false,
+    );
     let readings = match f.method.as_str() {
         "nuclear" => {
             let wet = density_in(&mut e, u, "wet_density", &f.wet_density, true);
             let md = density_in(&mut e, u, "moisture_density", &f.moisture_density, false);
-            let gw = num(&mut e, "gauge_water_content_pct", &f.gauge_water_content_pct, false);
-            let oven = num(&mut e, "oven_water_content_pct", &f.oven_water_content_pct, false);
-            if md.is_none() && gw.is_none() && !e.contains_key("moisture_density") && !e.contains_key("gauge_water_content_pct") {
-                e.insert("moisture_density".into(), "give the gauge's moisture density or its water content".into());
+            let gw = num(
+                &mut e,
+                "gauge_water_content_pct",
+                &f.gauge_water_content_pct,
+                false,
+            );
+            let oven = num(
+                &mut e,
+                "oven_water_content_pct",
+                &f.oven_water_content_pct,
+                false,
+            );
+            if md.is_none()
+                && gw.is_none()
+                && !e.contains_key("moisture_density")
+                && !e.contains_key("gauge_water_content_pct")
+            {
+                e.insert(
+                    "moisture_density".into(),
+                    "give the gauge's moisture density or its water content".into(),
+                );
             }
             wet.map(|wet| FieldReadings::Nuclear {
                 wet_density_kg_m3: wet,
@@ -233,7 +258,11 @@ fn preview_view(v: &serde_json::Value, u: &Units) -> PreviewView {
     let passed = v["passed"].as_bool().unwrap_or(false);
     PreviewView {
         wet: u.density_with_unit(f("wet_density_kg_m3")),
-        water: format!("{:.1} % ({})", f("water_content_pct"), v["moisture_source"].as_str().unwrap_or("")),
+        water: format!(
+            "{:.1} % ({})",
+            f("water_content_pct"),
+            v["moisture_source"].as_str().unwrap_or("")
+        ),
         dry: u.density_with_unit(f("dry_density_kg_m3")),
         rc: format!("{:.1} %", f("relative_compaction_pct")),
         dev: format!("{:+.1} points", f("moisture_deviation_pct")),
@@ -246,7 +275,11 @@ fn preview_view(v: &serde_json::Value, u: &Units) -> PreviewView {
         verdict: if passed { "passes" } else { "fails" }.to_string(),
         reasons: v["reasons"]
             .as_array()
-            .map(|a| a.iter().filter_map(|r| r.as_str().map(str::to_string)).collect())
+            .map(|a| {
+                a.iter()
+                    .filter_map(|r| r.as_str().map(str::to_string))
+                    .collect()
+            })
             .unwrap_or_default(),
     }
 }
@@ -276,11 +309,19 @@ impl EntryPage {
     }
     /// "has-error" when the field has a message.
     fn cls(&self, field: &str) -> &'static str {
-        if self.errors.contains_key(field) { "field has-error" } else { "field" }
+        if self.errors.contains_key(field) {
+            "field has-error"
+        } else {
+            "field"
+        }
     }
     /// "selected" when the method is chosen.
     fn sel(&self, method: &str) -> &'static str {
-        if self.form.method == method { "selected" } else { "" }
+        if self.form.method == method {
+            "selected"
+        } else {
+            ""
+        }
     }
 }
 
@@ -291,12 +332,19 @@ struct Context {
     retest_of: Option<db::field_tests::FieldTest>,
 }
 
-async fn context(s: &AppState, lot_id: i64, retest_of: Option<db::field_tests::FieldTest>) -> Result<Context, PageError> {
+async fn context(
+    s: &AppState,
+    lot_id: i64,
+    retest_of: Option<db::field_tests::FieldTest>,
+) -> Result<Context, PageError> {
     let lot = ledger::field::require_lot(&s.db, lot_id).await?;
     let p = ledger::setup::require_project(&s.db, lot.project_id).await?;
     Ok(Context {
         units: Units::of(&p),
-        nav: ProjectNav { id: p.id, name: p.code },
+        nav: ProjectNav {
+            id: p.id,
+            name: p.code,
+        },
         lot,
         retest_of,
     })
@@ -353,27 +401,41 @@ fn default_form(c: &Context) -> EntryForm {
 
 async fn new_form(State(s): State<AppState>, Path(id): Path<i64>) -> PageResult {
     let c = context(&s, id, None).await?;
-    render_status(StatusCode::OK, &page(&c, default_form(&c), Errors::new(), None))
+    render_status(
+        StatusCode::OK,
+        &page(&c, default_form(&c), Errors::new(), None),
+    )
 }
 
 async fn retest_form(State(s): State<AppState>, Path(id): Path<i64>) -> PageResult {
     let failed = ledger::field::require_test(&s.db, id).await?;
     let c = context(&s, failed.lot_id, Some(failed)).await?;
-    render_status(StatusCode::OK, &page(&c, default_form(&c), Errors::new(), None))
+    render_status(
+        StatusCode::OK,
+        &page(&c, default_form(&c), Errors::new(), None),
+    )
 }
 
 /// Checks or saves; re-renders with errors beside fields (422) or the preview (200).
 async fn handle(s: &AppState, c: Context, form: EntryForm, actor: Actor) -> PageResult {
     let input = match parse_entry(&form, &c.units, c.retest_of.is_some()) {
         Ok(i) => i,
-        Err(errors) => return render_status(StatusCode::UNPROCESSABLE_ENTITY, &page(&c, form, errors, None)),
+        Err(errors) => {
+            return render_status(
+                StatusCode::UNPROCESSABLE_ENTITY,
+                &page(&c, form, errors, None),
+            );
+        }
     };
     let preview = match ledger::field::preview(&s.db, c.lot.id, &input, &actor).await {
         Ok(v) => preview_view(&v, &c.units),
         Err(e) => return field_error(&c, form, e),
     };
     if form.action != "save" {
-        return render_status(StatusCode::OK, &page(&c, form, Errors::new(), Some(preview)));
+        return render_status(
+            StatusCode::OK,
+            &page(&c, form, Errors::new(), Some(preview)),
+        );
     }
     let saved = match &c.retest_of {
         Some(t) => ledger::field::record_retest(&s.db, t.id, &input, &actor).await,
@@ -395,17 +457,34 @@ fn field_error(c: &Context, form: EntryForm, e: AppError) -> PageResult {
     if !e.reasons().is_empty() {
         msg = format!("{msg}: {}", e.reasons().join("; "));
     }
-    errors.insert(if field.is_empty() { "form".into() } else { field }, msg);
+    errors.insert(
+        if field.is_empty() {
+            "form".into()
+        } else {
+            field
+        },
+        msg,
+    );
     render_status(e.status(), &page(c, form, errors, None))
 }
 
-async fn new_post(State(s): State<AppState>, Path(id): Path<i64>, RequestActor(a): RequestActor, body: axum::body::Bytes) -> PageResult {
+async fn new_post(
+    State(s): State<AppState>,
+    Path(id): Path<i64>,
+    RequestActor(a): RequestActor,
+    body: axum::body::Bytes,
+) -> PageResult {
     let form: EntryForm = parse_form(&body).map_err(PageError)?;
     let c = context(&s, id, None).await?;
     handle(&s, c, form, a).await
 }
 
-async fn retest_post(State(s): State<AppState>, Path(id): Path<i64>, RequestActor(a): RequestActor, body: axum::body::Bytes) -> PageResult {
+async fn retest_post(
+    State(s): State<AppState>,
+    Path(id): Path<i64>,
+    RequestActor(a): RequestActor,
+    body: axum::body::Bytes,
+) -> PageResult {
     let form: EntryForm = parse_form(&body).map_err(PageError)?;
     let failed = ledger::field::require_test(&s.db, id).await?;
     let c = context(&s, failed.lot_id, Some(failed)).await?;
@@ -430,9 +509,12 @@ async fn live_preview(
     };
     match ledger::field::preview(&s.db, id, &input, &a).await {
         Ok(v) => Ok(Json(json!({"errors": {}, "preview": preview_view(&v, &u)}))),
-        Err(e @ (AppError::Invalid { .. } | AppError::Conflict { .. } | AppError::BadRequest { .. })) => {
-            Ok(Json(json!({"errors": {form_field(e.field(), &form.method): e.user_message()}})))
-        }
+        Err(
+            e
+            @ (AppError::Invalid { .. } | AppError::Conflict { .. } | AppError::BadRequest { .. }),
+        ) => Ok(Json(
+            json!({"errors": {form_field(e.field(), &form.method): e.user_message()}}),
+        )),
         Err(e) => Err(e),
     }
 }
@@ -458,7 +540,13 @@ mod tests {
             ..Default::default()
         };
         let e = parse_entry(&f, &si(), false).unwrap_err();
-        for k in ["chainage", "offset_m", "wet_density", "technician", "moisture_density"] {
+        for k in [
+            "chainage",
+            "offset_m",
+            "wet_density",
+            "technician",
+            "moisture_density",
+        ] {
             assert!(e.contains_key(k), "{k} missing from {e:?}");
         }
     }
@@ -481,9 +569,18 @@ mod tests {
 
     #[test]
     fn api_fields_map_to_form_inputs() {
-        assert_eq!(form_field("readings.wet_density_kg_m3", "nuclear"), "wet_density");
-        assert_eq!(form_field("readings.water_content_pct", "nuclear"), "gauge_water_content_pct");
-        assert_eq!(form_field("readings.water_content_pct", "balloon"), "water_content_pct");
+        assert_eq!(
+            form_field("readings.wet_density_kg_m3", "nuclear"),
+            "wet_density"
+        );
+        assert_eq!(
+            form_field("readings.water_content_pct", "nuclear"),
+            "gauge_water_content_pct"
+        );
+        assert_eq!(
+            form_field("readings.water_content_pct", "balloon"),
+            "water_content_pct"
+        );
         assert_eq!(form_field("chainage_m", "balloon"), "chainage");
     }
 }

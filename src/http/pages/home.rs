@@ -99,14 +99,22 @@ async fn project_home(State(s): State<AppState>, Path(id): Path<i64>) -> PageRes
     let p = setup::require_project(&s.db, id).await?;
     let u = Units::of(&p);
     let reports = overview::project_reports(&s.db, id).await?;
-    let states = ["open", "owed_tests", "failing", "submitted", "rejected", "accepted", "certified"]
-        .iter()
-        .map(|code| StateCount {
-            code: code.to_string(),
-            label: present::state_label(code).to_string(),
-            count: reports.iter().filter(|r| r.display_state == *code).count(),
-        })
-        .collect();
+    let states = [
+        "open",
+        "owed_tests",
+        "failing",
+        "submitted",
+        "rejected",
+        "accepted",
+        "certified",
+    ]
+    .iter()
+    .map(|code| StateCount {
+        code: code.to_string(),
+        label: present::state_label(code).to_string(),
+        count: reports.iter().filter(|r| r.display_state == *code).count(),
+    })
+    .collect();
     let place = |r: &crate::ledger::lot_report::LotReport| {
         format!(
             "{} layer {}, {} to {}",
@@ -118,7 +126,10 @@ async fn project_home(State(s): State<AppState>, Path(id): Path<i64>) -> PageRes
     };
     let failing = reports
         .iter()
-        .filter(|r| !r.failing_without_retest.is_empty() && (r.lot.state == "open" || r.lot.state == "rejected"))
+        .filter(|r| {
+            !r.failing_without_retest.is_empty()
+                && (r.lot.state == "open" || r.lot.state == "rejected")
+        })
         .map(|r| LotLink {
             id: r.lot.id,
             code: r.lot.code.clone(),
@@ -136,7 +147,10 @@ async fn project_home(State(s): State<AppState>, Path(id): Path<i64>) -> PageRes
             note: format!("{} of {} tests still owed", r.tests_owed, r.tests_required),
         })
         .collect();
-    let mut queue: Vec<_> = reports.iter().filter(|r| r.lot.state == "submitted").collect();
+    let mut queue: Vec<_> = reports
+        .iter()
+        .filter(|r| r.lot.state == "submitted")
+        .collect();
     queue.sort_by(|a, b| a.lot.state_changed_at.cmp(&b.lot.state_changed_at));
     let queue = queue
         .into_iter()
@@ -144,19 +158,28 @@ async fn project_home(State(s): State<AppState>, Path(id): Path<i64>) -> PageRes
             id: r.lot.id,
             code: r.lot.code.clone(),
             place: place(r),
-            note: format!("submitted {}", crate::clock::display(&r.lot.state_changed_at)),
+            note: format!(
+                "submitted {}",
+                crate::clock::display(&r.lot.state_changed_at)
+            ),
         })
         .collect();
     let now = time::OffsetDateTime::now_utc();
     let today = crate::clock::format(now.replace_time(time::Time::MIDNIGHT));
-    let week = crate::clock::format(now.replace_time(time::Time::MIDNIGHT) - time::Duration::days(6));
+    let week =
+        crate::clock::format(now.replace_time(time::Time::MIDNIGHT) - time::Duration::days(6));
     let activity = db::audit::recent(&s.db, id, 12)
         .await?
         .into_iter()
         .map(|a| Activity {
             at: crate::clock::display(&a.at),
             actor: a.actor,
-            what: format!("{} {} #{}", a.action, a.entity.replace('_', " "), a.entity_id.unwrap_or(0)),
+            what: format!(
+                "{} {} #{}",
+                a.action,
+                a.entity.replace('_', " "),
+                a.entity_id.unwrap_or(0)
+            ),
         })
         .collect();
     render(&ProjectPage {

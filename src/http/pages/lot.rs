@@ -75,7 +75,10 @@ pub fn rows(r: &LotReport, u: &Units) -> Vec<Row> {
                 notes.extend(t.reasons.iter().cloned());
             }
             if let Some(c) = t.test.coarse_pct.filter(|c| *c > 0.0) {
-                notes.push(format!("oversize {c:.0} %, reference {}", u.density_with_unit(t.reference_mdd_kg_m3.unwrap_or(0.0))));
+                notes.push(format!(
+                    "oversize {c:.0} %, reference {}",
+                    u.density_with_unit(t.reference_mdd_kg_m3.unwrap_or(0.0))
+                ));
             }
             let has_live_retest = r
                 .tests
@@ -96,7 +99,10 @@ pub fn rows(r: &LotReport, u: &Units) -> Vec<Row> {
                 result: result.to_string(),
                 struck: t.standing != "counted",
                 note: notes.join("; "),
-                can_retest: takes_changes && !t.passed && t.test.void_reason.is_none() && !has_live_retest,
+                can_retest: takes_changes
+                    && !t.passed
+                    && t.test.void_reason.is_none()
+                    && !has_live_retest,
                 can_void: takes_changes && t.test.void_reason.is_none(),
             }
         })
@@ -255,13 +261,20 @@ async fn sheet_with(s: &AppState, id: i64, message: String, status: StatusCode) 
         layer: r.lot.layer_number,
         from: u.chainage(r.lot.chainage_from_m),
         to: u.chainage(r.lot.chainage_to_m),
-        band: format!("{} to {}", u.offset(r.lot.offset_left_m), u.offset(r.lot.offset_right_m)),
+        band: format!(
+            "{} to {}",
+            u.offset(r.lot.offset_left_m),
+            u.offset(r.lot.offset_right_m)
+        ),
         length: u.length(r.length_m),
         area: u.area(r.area_m2),
         clause: c.code.clone(),
         clause_title: c.title.clone(),
         rc_min: format!("{:.1} %", c.rc_min_pct),
-        window: format!("−{:.1} to +{:.1} points of OMC", c.moisture_below_pct, c.moisture_above_pct),
+        window: format!(
+            "−{:.1} to +{:.1} points of OMC",
+            c.moisture_below_pct, c.moisture_above_pct
+        ),
         rule: v.rule_label.clone(),
         frequency: frequency.join(", "),
         lab_id: r.lab_test.id,
@@ -288,7 +301,8 @@ async fn sheet_with(s: &AppState, id: i64, message: String, status: StatusCode) 
         blockers: r.submit_blockers.clone(),
         chart: chart(&r),
         can_add: r.lot.state == "open" || r.lot.state == "rejected",
-        can_submit: (r.lot.state == "open" || r.lot.state == "rejected") && r.submit_blockers.is_empty(),
+        can_submit: (r.lot.state == "open" || r.lot.state == "rejected")
+            && r.submit_blockers.is_empty(),
         can_review: r.lot.state == "submitted",
         can_reissue: r.lot.state == "accepted" && !r.certificate_current,
         cert_stale: r.lot.state == "accepted" && r.certificate.is_some() && !r.certificate_current,
@@ -327,19 +341,43 @@ where
     }
 }
 
-async fn submit(State(s): State<AppState>, Path(id): Path<i64>, RequestActor(a): RequestActor, body: axum::body::Bytes) -> PageResult {
+async fn submit(
+    State(s): State<AppState>,
+    Path(id): Path<i64>,
+    RequestActor(a): RequestActor,
+    body: axum::body::Bytes,
+) -> PageResult {
     let db = s.db.clone();
-    act(&s, id, &body, |c| async move { ledger::review::submit(&db, id, &c, &a).await }).await
+    act(&s, id, &body, |c| async move {
+        ledger::review::submit(&db, id, &c, &a).await
+    })
+    .await
 }
 
-async fn accept(State(s): State<AppState>, Path(id): Path<i64>, RequestActor(a): RequestActor, body: axum::body::Bytes) -> PageResult {
+async fn accept(
+    State(s): State<AppState>,
+    Path(id): Path<i64>,
+    RequestActor(a): RequestActor,
+    body: axum::body::Bytes,
+) -> PageResult {
     let db = s.db.clone();
-    act(&s, id, &body, |c| async move { ledger::review::accept(&db, id, &c, &a).await }).await
+    act(&s, id, &body, |c| async move {
+        ledger::review::accept(&db, id, &c, &a).await
+    })
+    .await
 }
 
-async fn reject(State(s): State<AppState>, Path(id): Path<i64>, RequestActor(a): RequestActor, body: axum::body::Bytes) -> PageResult {
+async fn reject(
+    State(s): State<AppState>,
+    Path(id): Path<i64>,
+    RequestActor(a): RequestActor,
+    body: axum::body::Bytes,
+) -> PageResult {
     let db = s.db.clone();
-    act(&s, id, &body, |c| async move { ledger::review::reject(&db, id, &c, &a).await }).await
+    act(&s, id, &body, |c| async move {
+        ledger::review::reject(&db, id, &c, &a).await
+    })
+    .await
 }
 
 /// The reason box of the void form.
@@ -349,13 +387,24 @@ struct VoidForm {
     reason: String,
 }
 
-async fn void(State(s): State<AppState>, Path(id): Path<i64>, RequestActor(a): RequestActor, body: axum::body::Bytes) -> PageResult {
+async fn void(
+    State(s): State<AppState>,
+    Path(id): Path<i64>,
+    RequestActor(a): RequestActor,
+    body: axum::body::Bytes,
+) -> PageResult {
     let form: VoidForm = parse_form(&body).map_err(PageError)?;
     let test = ledger::field::require_test(&s.db, id).await?;
     match ledger::field::void_test(&s.db, id, &form.reason, &a).await {
         Ok(_) => Ok(see_other(&format!("/lots/{}", test.lot_id))),
         Err(e @ (AppError::Conflict { .. } | AppError::Invalid { .. })) => {
-            sheet_with(&s, test.lot_id, format!("void {}: {}", test.number, e.user_message()), e.status()).await
+            sheet_with(
+                &s,
+                test.lot_id,
+                format!("void {}: {}", test.number, e.user_message()),
+                e.status(),
+            )
+            .await
         }
         Err(e) => Err(e.into()),
     }

@@ -82,7 +82,11 @@ fn encode(s: &str) -> String {
     form_urlencoded::byte_serialize(s.as_bytes()).collect()
 }
 
-async fn map(State(s): State<AppState>, Path(id): Path<i64>, ApiQuery(q): ApiQuery<MapQuery>) -> PageResult {
+async fn map(
+    State(s): State<AppState>,
+    Path(id): Path<i64>,
+    ApiQuery(q): ApiQuery<MapQuery>,
+) -> PageResult {
     let p = setup::require_project(&s.db, id).await?;
     let u = Units::of(&p);
     let parse = |field: &str, v: &Option<String>| -> Result<Option<f64>, AppError> {
@@ -97,9 +101,19 @@ async fn map(State(s): State<AppState>, Path(id): Path<i64>, ApiQuery(q): ApiQue
     let to = parse("to", &q.to)?;
     let reports = overview::project_reports(&s.db, id).await?;
     let layers = db::layers::list(&s.db, id).await?;
-    let extent_from = reports.iter().map(|r| r.lot.chainage_from_m).fold(f64::INFINITY, f64::min);
-    let extent_to = reports.iter().map(|r| r.lot.chainage_to_m).fold(f64::NEG_INFINITY, f64::max);
-    let (extent_from, extent_to) = if extent_from.is_finite() { (extent_from, extent_to) } else { (0.0, 1000.0) };
+    let extent_from = reports
+        .iter()
+        .map(|r| r.lot.chainage_from_m)
+        .fold(f64::INFINITY, f64::min);
+    let extent_to = reports
+        .iter()
+        .map(|r| r.lot.chainage_to_m)
+        .fold(f64::NEG_INFINITY, f64::max);
+    let (extent_from, extent_to) = if extent_from.is_finite() {
+        (extent_from, extent_to)
+    } else {
+        (0.0, 1000.0)
+    };
     let view_from = from.unwrap_or(extent_from);
     let view_to = to.unwrap_or(extent_to);
     if view_to <= view_from {
@@ -147,7 +161,9 @@ async fn map(State(s): State<AppState>, Path(id): Path<i64>, ApiQuery(q): ApiQue
         chainage_to_m: view_to,
         rows,
         lots,
-        chainage_label: Box::new(move |m| Chainage::new(m).map_or(format!("{m:.0}"), |c| c.format(style))),
+        chainage_label: Box::new(move |m| {
+            Chainage::new(m).map_or(format!("{m:.0}"), |c| c.format(style))
+        }),
         width_px: 1100,
         zoom_href: Some(Box::new(move |a, b| {
             format!(
@@ -163,7 +179,10 @@ async fn map(State(s): State<AppState>, Path(id): Path<i64>, ApiQuery(q): ApiQue
             code: st.code().to_string(),
             label: st.label().to_string(),
             mark: st.mark().to_string(),
-            count: visible.iter().filter(|r| map_state(&r.display_state) == *st).count(),
+            count: visible
+                .iter()
+                .filter(|r| map_state(&r.display_state) == *st)
+                .count(),
         })
         .collect();
     let rows = visible

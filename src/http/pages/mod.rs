@@ -4,13 +4,13 @@
 //! `present`, draw charts through `charts`, and render. Every page works without
 //! JavaScript; `static/entry.js` only adds the live preview on the site-entry form.
 
+mod curve;
 mod entry;
 mod home;
 mod lot;
 mod map;
 mod review;
 mod tests_list;
-mod curve;
 
 use askama::Template;
 use axum::Router;
@@ -37,7 +37,10 @@ pub fn router() -> Router<AppState> {
 
 async fn style() -> impl IntoResponse {
     (
-        [(header::CONTENT_TYPE, "text/css; charset=utf-8"), (header::CACHE_CONTROL, "public, max-age=300")],
+        [
+            (header::CONTENT_TYPE, "text/css; charset=utf-8"),
+            (header::CACHE_CONTROL, "public, max-age=300"),
+        ],
         include_str!("../../../static/style.css"),
     )
 }
@@ -111,9 +114,11 @@ pub fn render(t: &impl Template) -> PageResult {
 
 /// Renders a template with a status (422 for a form with errors).
 pub fn render_status(status: StatusCode, t: &impl Template) -> PageResult {
-    let html = t
-        .render()
-        .map_err(|e| PageError(AppError::Internal(anyhow::Error::new(e).context("rendering template"))))?;
+    let html = t.render().map_err(|e| {
+        PageError(AppError::Internal(
+            anyhow::Error::new(e).context("rendering template"),
+        ))
+    })?;
     Ok((status, Html(html)).into_response())
 }
 
@@ -131,5 +136,8 @@ pub struct ProjectNav {
 
 /// The cautions as owned strings for templates.
 pub fn cautions() -> Vec<String> {
-    crate::present::CAUTIONS.iter().map(|s| s.to_string()).collect()
+    crate::present::CAUTIONS
+        .iter()
+        .map(|s| s.to_string())
+        .collect()
 }

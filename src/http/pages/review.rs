@@ -98,7 +98,10 @@ async fn certificates(State(s): State<AppState>, Path(id): Path<i64>) -> PageRes
     let p = setup::require_project(&s.db, id).await?;
     let mut rows = Vec::new();
     for c in db::certificates::for_project(&s.db, id).await? {
-        let lot = db::lots::get(&s.db, c.lot_id).await?.map(|l| l.code).unwrap_or_default();
+        let lot = db::lots::get(&s.db, c.lot_id)
+            .await?
+            .map(|l| l.code)
+            .unwrap_or_default();
         rows.push(CertRow {
             id: c.id,
             number: c.number,
@@ -141,7 +144,10 @@ struct CertificatePage {
 async fn certificate(State(s): State<AppState>, Path(id): Path<i64>) -> PageResult {
     let c = verify::require_certificate(&s.db, id).await?;
     let p = setup::require_project(&s.db, c.project_id).await?;
-    let lot = db::lots::get(&s.db, c.lot_id).await?.map(|l| l.code).unwrap_or_default();
+    let lot = db::lots::get(&s.db, c.lot_id)
+        .await?
+        .map(|l| l.code)
+        .unwrap_or_default();
     let others = db::certificates::for_lot(&s.db, c.lot_id)
         .await?
         .into_iter()
@@ -172,7 +178,10 @@ async fn certificate(State(s): State<AppState>, Path(id): Path<i64>) -> PageResu
         sha256: c.sha256,
         code: c.verification_code,
         current: c.superseded_at.is_none(),
-        superseded: c.superseded_at.map(|t| crate::clock::display(&t)).unwrap_or_default(),
+        superseded: c
+            .superseded_at
+            .map(|t| crate::clock::display(&t))
+            .unwrap_or_default(),
         others,
     })
 }
@@ -202,7 +211,12 @@ async fn verify_form() -> PageResult {
 }
 
 async fn verify_post(State(s): State<AppState>, mut form: Multipart) -> PageResult {
-    let bad = |m: String| PageError(AppError::BadRequest { field: "form".into(), message: m });
+    let bad = |m: String| {
+        PageError(AppError::BadRequest {
+            field: "form".into(),
+            message: m,
+        })
+    };
     let mut code = String::new();
     let mut hash = String::new();
     let mut pdf: Vec<u8> = Vec::new();
@@ -210,7 +224,13 @@ async fn verify_post(State(s): State<AppState>, mut form: Multipart) -> PageResu
         match field.name().unwrap_or("") {
             "code" => code = field.text().await.map_err(|e| bad(e.to_string()))?,
             "sha256" => hash = field.text().await.map_err(|e| bad(e.to_string()))?,
-            "pdf" => pdf = field.bytes().await.map_err(|e| bad(e.to_string()))?.to_vec(),
+            "pdf" => {
+                pdf = field
+                    .bytes()
+                    .await
+                    .map_err(|e| bad(e.to_string()))?
+                    .to_vec()
+            }
             _ => {}
         }
     }

@@ -74,7 +74,11 @@ fn result_of(l: &TestLine) -> &'static str {
 }
 
 /// Applies the filters to every judged test of the project.
-fn select<'a>(reports: &'a [LotReport], f: &Filters, u: &Units) -> Result<Vec<Listed<'a>>, AppError> {
+fn select<'a>(
+    reports: &'a [LotReport],
+    f: &Filters,
+    u: &Units,
+) -> Result<Vec<Listed<'a>>, AppError> {
     let ch = |field: &str, v: &str| -> Result<Option<f64>, AppError> {
         if v.trim().is_empty() {
             return Ok(None);
@@ -97,7 +101,11 @@ fn select<'a>(reports: &'a [LotReport], f: &Filters, u: &Units) -> Result<Vec<Li
     let layer: Option<i64> = if f.layer.is_empty() {
         None
     } else {
-        Some(f.layer.parse().map_err(|_| AppError::invalid("layer", "choose a layer from the list"))?)
+        Some(
+            f.layer
+                .parse()
+                .map_err(|_| AppError::invalid("layer", "choose a layer from the list"))?,
+        )
     };
     let mut out = Vec::new();
     for r in reports {
@@ -119,7 +127,13 @@ fn select<'a>(reports: &'a [LotReport], f: &Filters, u: &Units) -> Result<Vec<Li
             out.push(Listed { report: r, line });
         }
     }
-    out.sort_by(|a, b| b.line.test.tested_at.cmp(&a.line.test.tested_at).then(b.line.test.id.cmp(&a.line.test.id)));
+    out.sort_by(|a, b| {
+        b.line
+            .test
+            .tested_at
+            .cmp(&a.line.test.tested_at)
+            .then(b.line.test.id.cmp(&a.line.test.id))
+    });
     Ok(out)
 }
 
@@ -164,7 +178,11 @@ struct TestsPage {
 
 const PAGE_ROWS: usize = 500;
 
-async fn list(State(s): State<AppState>, Path(id): Path<i64>, ApiQuery(f): ApiQuery<Filters>) -> PageResult {
+async fn list(
+    State(s): State<AppState>,
+    Path(id): Path<i64>,
+    ApiQuery(f): ApiQuery<Filters>,
+) -> PageResult {
     let p = setup::require_project(&s.db, id).await?;
     let u = Units::of(&p);
     let reports = overview::project_reports(&s.db, id).await?;
@@ -225,7 +243,11 @@ async fn list(State(s): State<AppState>, Path(id): Path<i64>, ApiQuery(f): ApiQu
     })
 }
 
-async fn csv(State(s): State<AppState>, Path(id): Path<i64>, ApiQuery(f): ApiQuery<Filters>) -> Result<impl IntoResponse, PageError> {
+async fn csv(
+    State(s): State<AppState>,
+    Path(id): Path<i64>,
+    ApiQuery(f): ApiQuery<Filters>,
+) -> Result<impl IntoResponse, PageError> {
     let p = setup::require_project(&s.db, id).await?;
     let u = Units::of(&p);
     let reports = overview::project_reports(&s.db, id).await?;
@@ -271,8 +293,12 @@ async fn csv(State(s): State<AppState>, Path(id): Path<i64>, ApiQuery(f): ApiQue
             u.density(t.wet_density_kg_m3),
             format!("{:.2}", t.water_content_pct),
             u.density(t.dry_density_kg_m3),
-            x.line.relative_compaction_pct.map_or(String::new(), |v| format!("{v:.2}")),
-            x.line.moisture_deviation_pct.map_or(String::new(), |v| format!("{v:.2}")),
+            x.line
+                .relative_compaction_pct
+                .map_or(String::new(), |v| format!("{v:.2}")),
+            x.line
+                .moisture_deviation_pct
+                .map_or(String::new(), |v| format!("{v:.2}")),
             result_of(x.line).to_string(),
             x.line.retest_of_number.clone().unwrap_or_default(),
             t.void_reason.clone().unwrap_or_default(),
@@ -280,14 +306,19 @@ async fn csv(State(s): State<AppState>, Path(id): Path<i64>, ApiQuery(f): ApiQue
         ])
         .map_err(io)?;
     }
-    let body = w.into_inner().map_err(|e| PageError(AppError::Internal(anyhow::anyhow!("{e}"))))?;
+    let body = w
+        .into_inner()
+        .map_err(|e| PageError(AppError::Internal(anyhow::anyhow!("{e}"))))?;
     // A UTF-8 byte-order mark makes spreadsheet programs read the units correctly.
     let mut bytes = vec![0xEF, 0xBB, 0xBF];
     bytes.extend(body);
     Ok((
         [
             (header::CONTENT_TYPE, "text/csv; charset=utf-8".to_string()),
-            (header::CONTENT_DISPOSITION, format!("attachment; filename=\"{}-field-tests.csv\"", p.code)),
+            (
+                header::CONTENT_DISPOSITION,
+                format!("attachment; filename=\"{}-field-tests.csv\"", p.code),
+            ),
         ],
         bytes,
     ))
