@@ -10,6 +10,8 @@ use crate::db::Pool;
 pub struct Settings {
     /// True when the database holds the invented demo project (pages say so).
     pub demo: bool,
+    /// Mark the session cookie `Secure` (set when served over TLS, directly or behind a proxy).
+    pub secure_cookies: bool,
 }
 
 /// Cheap-to-clone handle on the service's shared parts.

@@ -22,6 +22,40 @@ pub enum Command {
     Migrate(DbArgs),
     /// Load the invented demo project into a database file.
     Demo(DbArgs),
+    /// Manage users: add one, or give one a role in a project.
+    #[command(subcommand)]
+    User(UserCommand),
+}
+
+/// `liftledger user …`
+#[derive(Debug, Subcommand)]
+pub enum UserCommand {
+    /// Add a user; the password is read from standard input (one line).
+    Add {
+        #[command(flatten)]
+        db: DbArgs,
+        /// Sign-in name.
+        #[arg(long)]
+        username: String,
+        /// Name shown in the record, e.g. "D. Achterberg".
+        #[arg(long)]
+        name: String,
+        /// Make the user an administrator (projects, users, memberships).
+        #[arg(long)]
+        admin: bool,
+    },
+    /// Give a user a role in a project (technician, qc_manager, client_engineer, viewer).
+    Grant {
+        #[command(flatten)]
+        db: DbArgs,
+        #[arg(long)]
+        username: String,
+        /// Project code, e.g. MLR.
+        #[arg(long)]
+        project: String,
+        #[arg(long)]
+        role: String,
+    },
 }
 
 /// Where the database lives.
@@ -44,4 +78,7 @@ pub struct ServeArgs {
     /// Load the invented demo project when the database file does not exist yet.
     #[arg(long)]
     pub demo: bool,
+    /// Mark the session cookie Secure (set this when users reach the service over HTTPS).
+    #[arg(long, env = "LIFTLEDGER_SECURE_COOKIES")]
+    pub secure_cookies: bool,
 }

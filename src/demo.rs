@@ -48,14 +48,30 @@ fn user_error(e: crate::error::AppError) -> anyhow::Error {
 
 /// Loads the demo project; returns a one-line summary of what was created.
 pub async fn load(pool: &Pool) -> anyhow::Result<String> {
-    let setup_actor = Actor::system("D. Achterberg (QC manager)");
-    let mut frame: Value =
-        serde_json::from_str(PROJECT).context("reading demo-data/project.json")?;
-    let project =
-        ledger::setup::create_project(pool, &parse(frame["project"].take())?, &setup_actor)
+    let admin = Actor::system("Site Administrator (admin)");
+    let setup_actor = Actor::system("D. Achterberg (achterberg)");
+    let entry_actor = Actor::system("R. Okafor (okafor)");
+    let mut frame: Value = serde_json::from_str(PROJECT).context("reading demo-data/project.json")?;
+    let project = ledger::setup::create_project(pool, &parse(frame["project"].take())?, &admin)
+        .await
+        .map_err(user_error)?;
+    let pid = project.id;
+    for (username, display, role, password) in ledger::accounts::DEMO_USERS {
+        let input = ledger::accounts::UserInput {
+            username: username.into(),
+            display_name: display.into(),
+            password: password.into(),
+            is_admin: role == "admin",
+        };
+        ledger::accounts::create_user(pool, &input, true, &admin)
             .await
             .map_err(user_error)?;
-    let pid = project.id;
+        if role != "admin" {
+            ledger::accounts::grant(pool, username, pid, role, &admin)
+                .await
+                .map_err(user_error)?;
+        }
+    }
 
     let mut clauses = HashMap::new();
     for c in frame["clauses"].as_array_mut().into_iter().flatten() {
@@ -114,7 +130,7 @@ pub async fn load(pool: &Pool) -> anyhow::Result<String> {
         let lot = take_str(t, "lot")?;
         let retest_of = t.as_object_mut().and_then(|o| o.remove("retest_of"));
         let input: ledger::field::FieldTestInput = parse(t.take())?;
-        let actor = Actor::system(&input.technician);
+        let actor = entry_actor.clone();
         let stored = match retest_of.as_ref().and_then(Value::as_str) {
             Some(failed) => {
                 let failed_id = *numbers

@@ -25,6 +25,15 @@ pub enum AppError {
     /// A referenced record does not exist.
     #[error("{field}: {message}")]
     NotFound { field: String, message: String },
+    /// No valid session or token was presented.
+    #[error("{message}")]
+    Unauthorized { message: String },
+    /// The caller is known but their role does not allow this.
+    #[error("{message}")]
+    Forbidden { message: String },
+    /// Too many attempts; try again after `retry_after_secs`.
+    #[error("{message}")]
+    TooManyRequests { message: String, retry_after_secs: u64 },
     /// The record's current state refuses the request.
     #[error("{field}: {message}")]
     Conflict {
@@ -54,6 +63,20 @@ impl AppError {
         }
     }
 
+    /// A refusal for lack of rights, naming what the role cannot do.
+    pub fn forbidden(message: impl Into<String>) -> Self {
+        Self::Forbidden {
+            message: message.into(),
+        }
+    }
+
+    /// A request without a valid session or token.
+    pub fn unauthorized(message: impl Into<String>) -> Self {
+        Self::Unauthorized {
+            message: message.into(),
+        }
+    }
+
     /// A refusal by the record's state, with the reasons a user must fix.
     pub fn conflict(
         field: impl Into<String>,
@@ -74,6 +97,9 @@ impl AppError {
             Self::Invalid { .. } => StatusCode::UNPROCESSABLE_ENTITY,
             Self::NotFound { .. } => StatusCode::NOT_FOUND,
             Self::Conflict { .. } => StatusCode::CONFLICT,
+            Self::Unauthorized { .. } => StatusCode::UNAUTHORIZED,
+            Self::Forbidden { .. } => StatusCode::FORBIDDEN,
+            Self::TooManyRequests { .. } => StatusCode::TOO_MANY_REQUESTS,
             Self::Internal(_) => StatusCode::INTERNAL_SERVER_ERROR,
         }
     }
@@ -85,7 +111,7 @@ impl AppError {
             | Self::Invalid { field, .. }
             | Self::NotFound { field, .. }
             | Self::Conflict { field, .. } => field,
-            Self::Internal(_) => "",
+            Self::Unauthorized { .. } | Self::Forbidden { .. } | Self::TooManyRequests { .. } | Self::Internal(_) => "",
         }
     }
 
@@ -95,7 +121,10 @@ impl AppError {
             Self::BadRequest { message, .. }
             | Self::Invalid { message, .. }
             | Self::NotFound { message, .. }
-            | Self::Conflict { message, .. } => message.clone(),
+            | Self::Conflict { message, .. }
+            | Self::Unauthorized { message }
+            | Self::Forbidden { message }
+            | Self::TooManyRequests { message, .. } => message.clone(),
             Self::Internal(_) => "internal error; the server log has the details".to_string(),
         }
     }
@@ -124,6 +153,12 @@ impl IntoResponse for AppError {
         if !self.reasons().is_empty() {
             body["reasons"] = json!(self.reasons());
         }
-        (self.status(), Json(json!({ "error": body }))).into_response()
+        let mut response = (self.status(), Json(json!({ "error": body }))).into_response();
+        if let Self::TooManyRequests { retry_after_secs, .. } = &self
+            && let Ok(v) = axum::http::HeaderValue::from_str(&retry_after_secs.to_string())
+        {
+            response.headers_mut().insert(axum::http::header::RETRY_AFTER, v);
+        }
+        response
     }
 }

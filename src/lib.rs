@@ -4,6 +4,7 @@
 //! request does; `http` the routes; `pdf` and `charts` render what people read.
 
 pub mod app;
+pub mod auth;
 pub mod charts;
 pub mod cli;
 pub mod clock;

@@ -2,7 +2,10 @@
 
 use anyhow::Context;
 use clap::Parser;
-use liftledger::cli::{Cli, Command};
+use std::io::BufRead;
+
+use liftledger::cli::{Cli, Command, UserCommand};
+use liftledger::ledger::{Actor, accounts};
 use liftledger::{AppState, Settings, db, demo};
 use tracing_subscriber::EnvFilter;
 
@@ -23,6 +26,31 @@ async fn main() -> anyhow::Result<()> {
             let summary = demo::load(&pool).await?;
             println!("loaded demo project into {}: {summary}", a.db.display());
         }
+        Command::User(UserCommand::Add { db, username, name, admin }) => {
+            let pool = db::open(&db.db).await?;
+            let mut password = String::new();
+            std::io::stdin().lock().read_line(&mut password)?;
+            let input = accounts::UserInput {
+                username,
+                display_name: name,
+                password: password.trim_end_matches(['\r', '\n']).to_string(),
+                is_admin: admin,
+            };
+            let u = accounts::create_user(&pool, &input, false, &Actor::system("cli"))
+                .await
+                .map_err(|e| anyhow::anyhow!("{}: {}", e.field(), e.user_message()))?;
+            println!("user {} created{}", u.username, if u.is_admin { " (administrator)" } else { "" });
+        }
+        Command::User(UserCommand::Grant { db, username, project, role }) => {
+            let pool = db::open(&db.db).await?;
+            let p = db::projects::get_by_code(&pool, &project.to_ascii_uppercase())
+                .await?
+                .ok_or_else(|| anyhow::anyhow!("no project with code {project}"))?;
+            accounts::grant(&pool, &username, p.id, &role, &Actor::system("cli"))
+                .await
+                .map_err(|e| anyhow::anyhow!("{}: {}", e.field(), e.user_message()))?;
+            println!("{username} is now {role} in {}", p.code);
+        }
         Command::Serve(a) => {
             let path = a.db.clone().unwrap_or_else(|| {
                 if a.demo {
@@ -40,12 +68,26 @@ async fn main() -> anyhow::Result<()> {
                     .context("loading the demo project")?;
                 println!("demo project loaded into {} ({summary})", path.display());
             }
+            if a.demo {
+                println!("demo sign-ins (invented people; demo use only):");
+                for (user, _, role, password) in accounts::DEMO_USERS {
+                    println!("  {user:<12} {role:<16} password {password}");
+                }
+            } else if let Some(password) = accounts::ensure_first_admin(&pool)
+                .await
+                .map_err(|e| anyhow::anyhow!("creating the first admin: {}", e.user_message()))?
+            {
+                println!("new database: sign in as 'admin' with password {password} (shown once; change it)");
+            }
             let listener = tokio::net::TcpListener::bind(a.addr)
                 .await
                 .with_context(|| format!("binding {}", a.addr))?;
             let addr = listener.local_addr()?;
             println!("liftledger is serving {} at http://{addr}/", path.display());
-            let state = AppState::new(pool.clone(), Settings { demo: a.demo });
+            let state = AppState::new(pool.clone(), Settings {
+                    demo: a.demo,
+                    secure_cookies: a.secure_cookies,
+                });
             liftledger::serve(listener, state, shutdown_signal()).await?;
             pool.close().await;
             println!("liftledger stopped");

@@ -12,7 +12,9 @@ pub mod lab_tests;
 pub mod layers;
 pub mod lots;
 pub mod projects;
+pub mod scope;
 pub mod sources;
+pub mod users;
 
 use std::path::Path;
 use std::str::FromStr;

@@ -9,6 +9,7 @@ use super::validate::{code, number, optional_text, quantity, text, timestamp};
 use crate::clock;
 use crate::db::{self, Pool, audit};
 use crate::error::{AppError, Result};
+use crate::reduction::verdict::{Reference, TestVerdict};
 use crate::reduction::{self, field::FieldReadings};
 
 /// Body of a new field test (also of a retest, whose location defaults to the failed test's).
@@ -37,6 +38,94 @@ pub struct CheckedTest {
     pub record: db::field_tests::FieldTest,
 }
 
+/// Everything a test on one lot is checked and judged against, loaded once.
+///
+/// The single-test path loads it per request; the bulk path loads it once per
+/// lot and checks every row of a file against it with [`check_loaded`].
+#[derive(Debug, Clone)]
+pub struct LotContext {
+    pub lot: db::lots::Lot,
+    pub clause: db::clauses::Clause,
+    pub source: db::sources::Source,
+    pub lab: db::lab_tests::LabTest,
+    /// The lab curve's MDD and OMC (before any oversize correction).
+    pub reference: Reference,
+}
+
+impl LotContext {
+    /// Builds the context from already-loaded rows (no database access).
+    pub fn new(
+        lot: db::lots::Lot,
+        clause: db::clauses::Clause,
+        source: db::sources::Source,
+        lab: db::lab_tests::LabTest,
+    ) -> Result<Self> {
+        let reference = lot_report::reference_of(&lab)?;
+        Ok(Self {
+            lot,
+            clause,
+            source,
+            lab,
+            reference,
+        })
+    }
+
+    /// Loads the clause, source and lab test a lot is judged by.
+    pub async fn load(pool: &Pool, lot: &db::lots::Lot) -> Result<Self> {
+        let clause = db::clauses::get(pool, lot.clause_id)
+            .await?
+            .ok_or_else(|| anyhow::anyhow!("lot {} has no clause", lot.id))?;
+        let source = db::sources::get(pool, lot.source_id)
+            .await?
+            .ok_or_else(|| anyhow::anyhow!("lot {} has no source", lot.id))?;
+        let lab = db::lab_tests::get(pool, lot.lab_test_id)
+            .await?
+            .ok_or_else(|| anyhow::anyhow!("lot {} has no lab test", lot.id))?;
+        Self::new(lot.clone(), clause, source, lab)
+    }
+
+    /// The reference a test with this coarse fraction is judged against (ASTM D4718 when coarse).
+    pub fn reference_for(&self, coarse_pct: Option<f64>, coarse_w_pct: Option<f64>) -> Result<Reference> {
+        let Some(coarse) = coarse_pct.filter(|c| *c > 0.0) else {
+            return Ok(self.reference);
+        };
+        let Some(gs_coarse) = self.source.gs_coarse else {
+            return Err(AppError::invalid(
+                "coarse_pct",
+                format!(
+                    "source {} has no coarse-fraction specific gravity to correct with",
+                    self.source.code
+                ),
+            ));
+        };
+        reduction::verdict::reference_for_coarse_fraction(
+            &self.reference,
+            coarse,
+            gs_coarse,
+            coarse_w_pct.unwrap_or(0.0),
+            self.clause.oversize_limit_pct,
+        )
+        .map_err(|e| AppError::invalid("coarse_pct", e.to_string()))
+    }
+}
+
+/// Where a test was taken; a retest falls back on its failed test's spot.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Spot {
+    pub chainage_m: f64,
+    pub offset_m: f64,
+}
+
+impl Spot {
+    /// The spot of a stored test.
+    pub fn of(t: &db::field_tests::FieldTest) -> Self {
+        Self {
+            chainage_m: t.chainage_m,
+            offset_m: t.offset_m,
+        }
+    }
+}
+
 /// Validates and reduces a field test for a lot without writing anything (used for previews too).
 pub async fn check(
     pool: &Pool,
@@ -45,11 +134,35 @@ pub async fn check(
     retest_of: Option<&db::field_tests::FieldTest>,
     actor: &Actor,
 ) -> Result<CheckedTest> {
+    let ctx = LotContext::load(pool, lot).await?;
+    let mut checked = check_loaded(
+        &ctx,
+        input,
+        retest_of.map(Spot::of),
+        actor,
+        &clock::now(),
+    )?;
+    checked.record.retest_of = retest_of.map(|t| t.id);
+    Ok(checked)
+}
+
+/// Validates and reduces one field test against an already-loaded lot: the one set of
+/// rules for single entry, previews and bulk imports. Pure: no database, no clock
+/// (`now` stands in for a missing `tested_at` and is the creation time). The caller
+/// sets `retest_of` and, when absent from the input, the number.
+pub fn check_loaded(
+    ctx: &LotContext,
+    input: &FieldTestInput,
+    fallback: Option<Spot>,
+    actor: &Actor,
+    now: &str,
+) -> Result<CheckedTest> {
+    let lot = &ctx.lot;
     let reduced = reduction::field::reduce_field(&input.readings)
         .map_err(|e| AppError::invalid(format!("readings.{}", e.field()), e.to_string()))?;
     let chainage_m = input
         .chainage_m
-        .or(retest_of.map(|t| t.chainage_m))
+        .or(fallback.map(|s| s.chainage_m))
         .ok_or_else(|| AppError::invalid("chainage_m", "is required"))?;
     let chainage = quantity("chainage_m", reduction::Chainage::new(chainage_m))?;
     // A small tolerance at lot ends: a test on the boundary chainage belongs to either lot.
@@ -68,7 +181,7 @@ pub async fn check(
     }
     let offset_m = input
         .offset_m
-        .or(retest_of.map(|t| t.offset_m))
+        .or(fallback.map(|s| s.offset_m))
         .unwrap_or(0.0);
     let offset = quantity("offset_m", reduction::Offset::new(offset_m))?;
     if offset.metres() < lot.offset_left_m - 0.01 || offset.metres() > lot.offset_right_m + 0.01 {
@@ -94,35 +207,7 @@ pub async fn check(
         .coarse_water_content_pct
         .map(|c| number("coarse_water_content_pct", c, 0.0, 20.0, "%"))
         .transpose()?;
-    if coarse.is_some_and(|c| c > 0.0) {
-        let clause = db::clauses::get(pool, lot.clause_id)
-            .await?
-            .ok_or_else(|| anyhow::anyhow!("lot {} has no clause", lot.id))?;
-        let source = db::sources::get(pool, lot.source_id)
-            .await?
-            .ok_or_else(|| anyhow::anyhow!("lot {} has no source", lot.id))?;
-        let Some(gs_coarse) = source.gs_coarse else {
-            return Err(AppError::invalid(
-                "coarse_pct",
-                format!(
-                    "source {} has no coarse-fraction specific gravity to correct with",
-                    source.code
-                ),
-            ));
-        };
-        let lab = db::lab_tests::get(pool, lot.lab_test_id)
-            .await?
-            .ok_or_else(|| anyhow::anyhow!("lot {} has no lab test", lot.id))?;
-        let reference = lot_report::reference_of(&lab)?;
-        reduction::verdict::reference_for_coarse_fraction(
-            &reference,
-            coarse.unwrap_or(0.0),
-            gs_coarse,
-            coarse_w.unwrap_or(0.0),
-            clause.oversize_limit_pct,
-        )
-        .map_err(|e| AppError::invalid("coarse_pct", e.to_string()))?;
-    }
+    ctx.reference_for(coarse, coarse_w)?;
     let easting = input
         .easting
         .map(|v| number("easting", v, -1.0e8, 1.0e8, "m"))
@@ -141,10 +226,9 @@ pub async fn check(
         Some(n) => code("number", n)?,
         None => String::new(),
     };
-    let now = clock::now();
     let tested_at = match &input.tested_at {
         Some(t) => timestamp("tested_at", t)?,
-        None => now.clone(),
+        None => now.to_string(),
     };
     let instrument = match &input.readings {
         FieldReadings::Nuclear {
@@ -175,18 +259,68 @@ pub async fn check(
         dry_density_kg_m3: reduced.dry_density.kg_m3(),
         moisture_source: reduced.moisture_source.to_string(),
         reduction_version: reduction::REDUCTION_VERSION.to_string(),
-        retest_of: retest_of.map(|t| t.id),
+        retest_of: None,
         void_reason: None,
         voided_by: None,
         voided_at: None,
-        created_at: now,
+        created_at: now.to_string(),
         created_by: actor.name.clone(),
     };
     Ok(CheckedTest { record })
 }
 
+/// Judges a checked or stored test against its lot's reference (oversize-corrected when
+/// coarse) and clause: the verdict a preview shows and a retest decision rests on.
+pub fn judge(ctx: &LotContext, r: &db::field_tests::FieldTest) -> Result<TestVerdict> {
+    let reference = ctx.reference_for(r.coarse_pct, r.coarse_water_content_pct)?;
+    let dry = quantity("readings", reduction::Density::new(r.dry_density_kg_m3))?;
+    let w = quantity(
+        "readings",
+        reduction::WaterContent::new(r.water_content_pct),
+    )?;
+    Ok(reduction::verdict::judge_test(
+        dry,
+        w,
+        &reference,
+        &lot_report::limits_of(&ctx.clause),
+    ))
+}
+
+/// What is known of a test someone wants to retest.
+#[derive(Debug, Clone, Copy)]
+pub struct RetestTarget<'a> {
+    pub number: &'a str,
+    pub voided: bool,
+    pub passed: bool,
+    /// The number of its live (not void) retest, if it has one.
+    pub existing_retest: Option<&'a str>,
+}
+
+/// Why a test may not be retested, if it may not (the one rule for single and bulk entry).
+pub fn retest_refusal(t: RetestTarget<'_>) -> Option<AppError> {
+    let reason = if t.voided {
+        format!(
+            "test {} is void; record a new test instead of a retest",
+            t.number
+        )
+    } else if t.passed {
+        format!(
+            "test {} passed; a retest is recorded only after a failure",
+            t.number
+        )
+    } else if let Some(existing) = t.existing_retest {
+        format!(
+            "test {} already has retest {existing}; retest that one if it failed",
+            t.number
+        )
+    } else {
+        return None;
+    };
+    Some(AppError::conflict("test_id", reason, vec![]))
+}
+
 /// Fails unless the lot accepts new tests (open or rejected for rework).
-fn require_lot_takes_tests(lot: &db::lots::Lot) -> Result<()> {
+pub fn require_lot_takes_tests(lot: &db::lots::Lot) -> Result<()> {
     if lot.state == "open" || lot.state == "rejected" {
         return Ok(());
     }
@@ -287,45 +421,23 @@ pub async fn record_retest(
     let failed = require_test(pool, failed_id).await?;
     let lot = require_lot(pool, failed.lot_id).await?;
     require_lot_takes_tests(&lot)?;
-    if failed.void_reason.is_some() {
-        return Err(AppError::conflict(
-            "test_id",
-            format!(
-                "test {} is void; record a new test instead of a retest",
-                failed.number
-            ),
-            vec![],
-        ));
-    }
     let report = lot_report::build(pool, lot.id).await?;
     let line = report
         .tests
         .iter()
         .find(|l| l.test.id == failed.id)
         .ok_or_else(|| anyhow::anyhow!("test {} missing from its lot report", failed.id))?;
-    if line.passed {
-        return Err(AppError::conflict(
-            "test_id",
-            format!(
-                "test {} passed; a retest is recorded only after a failure",
-                failed.number
-            ),
-            vec![],
-        ));
-    }
-    if let Some(existing) = report
+    let existing = report
         .tests
         .iter()
-        .find(|l| l.test.retest_of == Some(failed.id) && l.test.void_reason.is_none())
-    {
-        return Err(AppError::conflict(
-            "test_id",
-            format!(
-                "test {} already has retest {}; retest that one if it failed",
-                failed.number, existing.test.number
-            ),
-            vec![],
-        ));
+        .find(|l| l.test.retest_of == Some(failed.id) && l.test.void_reason.is_none());
+    if let Some(refusal) = retest_refusal(RetestTarget {
+        number: &failed.number,
+        voided: failed.void_reason.is_some(),
+        passed: line.passed,
+        existing_retest: existing.map(|l| l.test.number.as_str()),
+    }) {
+        return Err(refusal);
     }
     let checked = check(pool, &lot, input, Some(&failed), actor).await?;
     store(pool, checked, actor, "retest").await
@@ -390,34 +502,11 @@ pub async fn preview(
     actor: &Actor,
 ) -> Result<serde_json::Value> {
     let lot = require_lot(pool, lot_id).await?;
-    let checked = check(pool, &lot, input, None, actor).await?;
+    let ctx = LotContext::load(pool, &lot).await?;
+    let checked = check_loaded(&ctx, input, None, actor, &clock::now())?;
     let r = &checked.record;
-    let clause = db::clauses::get(pool, lot.clause_id)
-        .await?
-        .ok_or_else(|| anyhow::anyhow!("lot {} has no clause", lot.id))?;
-    let lab = db::lab_tests::get(pool, lot.lab_test_id)
-        .await?
-        .ok_or_else(|| anyhow::anyhow!("lot {} has no lab test", lot.id))?;
-    let source = db::sources::get(pool, lot.source_id)
-        .await?
-        .ok_or_else(|| anyhow::anyhow!("lot {} has no source", lot.id))?;
-    let mut reference = lot_report::reference_of(&lab)?;
-    if let (Some(c), Some(gs)) = (r.coarse_pct.filter(|c| *c > 0.0), source.gs_coarse) {
-        reference = reduction::verdict::reference_for_coarse_fraction(
-            &reference,
-            c,
-            gs,
-            r.coarse_water_content_pct.unwrap_or(0.0),
-            clause.oversize_limit_pct,
-        )
-        .map_err(|e| AppError::invalid("coarse_pct", e.to_string()))?;
-    }
-    let dry = quantity("readings", reduction::Density::new(r.dry_density_kg_m3))?;
-    let w = quantity(
-        "readings",
-        reduction::WaterContent::new(r.water_content_pct),
-    )?;
-    let v = reduction::verdict::judge_test(dry, w, &reference, &lot_report::limits_of(&clause));
+    let reference = ctx.reference_for(r.coarse_pct, r.coarse_water_content_pct)?;
+    let v = judge(&ctx, r)?;
     Ok(json!({
         "wet_density_kg_m3": r.wet_density_kg_m3,
         "water_content_pct": r.water_content_pct,

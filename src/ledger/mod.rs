@@ -5,6 +5,7 @@
 //! one transaction together with its audit row, and returns what was stored.
 //! HTTP handlers, pages, the demo loader and imports all call these functions.
 
+pub mod accounts;
 pub mod certificate_doc;
 pub mod field;
 pub mod lot_report;

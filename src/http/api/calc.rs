@@ -7,6 +7,7 @@ use serde_json::{Value, json};
 
 use crate::app::AppState;
 use crate::error::{AppError, Result};
+use crate::http::caller::Caller;
 use crate::http::extract::ApiJson;
 use crate::ledger::validate::quantity;
 use crate::reduction::acceptance::{AcceptanceRule, evaluate_values};
@@ -34,7 +35,7 @@ struct LabCurveInput {
     points: Vec<CurvePoint>,
 }
 
-async fn lab_curve(ApiJson(input): ApiJson<LabCurveInput>) -> Result<Json<Value>> {
+async fn lab_curve(_caller: Caller, ApiJson(input): ApiJson<LabCurveInput>) -> Result<Json<Value>> {
     let gs = quantity(
         "specific_gravity",
         SpecificGravity::new(input.specific_gravity),
@@ -77,7 +78,7 @@ struct FieldDensityInput {
     optimum_water_content_pct: Option<f64>,
 }
 
-async fn field_density(ApiJson(input): ApiJson<FieldDensityInput>) -> Result<Json<Value>> {
+async fn field_density(_caller: Caller, ApiJson(input): ApiJson<FieldDensityInput>) -> Result<Json<Value>> {
     let d =
         reduce_field(&input.readings).map_err(|e| AppError::invalid(e.field(), e.to_string()))?;
     let mut out = json!({
@@ -109,7 +110,7 @@ struct OversizeBody {
     limit_pct: Option<f64>,
 }
 
-async fn oversize(ApiJson(b): ApiJson<OversizeBody>) -> Result<Json<Value>> {
+async fn oversize(_caller: Caller, ApiJson(b): ApiJson<OversizeBody>) -> Result<Json<Value>> {
     let input = OversizeInput {
         fine_dry_density_kg_m3: b.fine_dry_density_kg_m3,
         fine_water_content_pct: b.fine_water_content_pct,
@@ -136,7 +137,7 @@ struct AcceptanceBody {
     min_pwl: Option<f64>,
 }
 
-async fn acceptance(ApiJson(b): ApiJson<AcceptanceBody>) -> Result<Json<Value>> {
+async fn acceptance(_caller: Caller, ApiJson(b): ApiJson<AcceptanceBody>) -> Result<Json<Value>> {
     let rule = match b.rule.as_str() {
         "every_test" => AcceptanceRule::EveryTest,
         "mean_and_min" => AcceptanceRule::MeanAndMin {

@@ -9,6 +9,8 @@ use serde::Deserialize;
 use serde_json::{Value, json};
 
 use crate::app::AppState;
+use crate::auth::Action;
+use crate::http::caller::{Caller, Scope, require};
 use crate::db;
 use crate::error::{AppError, Result};
 use crate::http::extract::ApiJson;
@@ -25,20 +27,29 @@ pub fn router() -> Router<AppState> {
 
 async fn list(
     State(s): State<AppState>,
+    caller: Caller,
     Path(id): Path<i64>,
 ) -> Result<Json<Vec<db::certificates::Certificate>>> {
+    require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
+
     ledger::setup::require_project(&s.db, id).await?;
     Ok(Json(db::certificates::for_project(&s.db, id).await?))
 }
 
-async fn get_one(State(s): State<AppState>, Path(id): Path<i64>) -> Result<Json<Value>> {
+async fn get_one(State(s): State<AppState>,
+    caller: Caller, Path(id): Path<i64>) -> Result<Json<Value>> {
+    require(&s.db, &caller, Scope::Certificate(id), Action::Read).await?;
+
     let c = verify::require_certificate(&s.db, id).await?;
     Ok(Json(
         json!({"certificate": c, "current": c.superseded_at.is_none()}),
     ))
 }
 
-async fn pdf(State(s): State<AppState>, Path(id): Path<i64>) -> Result<impl IntoResponse> {
+async fn pdf(State(s): State<AppState>,
+    caller: Caller, Path(id): Path<i64>) -> Result<impl IntoResponse> {
+    require(&s.db, &caller, Scope::Certificate(id), Action::Read).await?;
+
     let c = verify::require_certificate(&s.db, id).await?;
     let bytes = db::certificates::pdf(&s.db, id).await?.ok_or_else(|| {
         AppError::not_found("certificate_id", format!("certificate {id} has no PDF"))

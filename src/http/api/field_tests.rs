@@ -9,9 +9,11 @@ use serde_json::{Value, json};
 
 use super::Page;
 use crate::app::AppState;
+use crate::auth::Action;
+use crate::http::caller::{Caller, Scope, require};
 use crate::db;
 use crate::error::Result;
-use crate::http::extract::{ApiJson, ApiQuery, RequestActor};
+use crate::http::extract::{ApiJson, ApiQuery};
 use crate::ledger::{self, field::FieldTestInput};
 
 /// Routes of this module.
@@ -60,7 +62,10 @@ async fn with_line(s: &AppState, t: &db::field_tests::FieldTest) -> Result<Value
     ))
 }
 
-async fn list_for_lot(State(s): State<AppState>, Path(id): Path<i64>) -> Result<Json<Vec<Value>>> {
+async fn list_for_lot(State(s): State<AppState>,
+    caller: Caller, Path(id): Path<i64>) -> Result<Json<Vec<Value>>> {
+    require(&s.db, &caller, Scope::Lot(id), Action::Read).await?;
+
     let report = ledger::lot_report::build(&s.db, id).await?;
     Ok(Json(
         report
@@ -74,9 +79,11 @@ async fn list_for_lot(State(s): State<AppState>, Path(id): Path<i64>) -> Result<
 async fn create(
     State(s): State<AppState>,
     Path(id): Path<i64>,
-    RequestActor(actor): RequestActor,
+    caller: Caller,
     ApiJson(input): ApiJson<FieldTestInput>,
 ) -> Result<(StatusCode, Json<Value>)> {
+    let actor = require(&s.db, &caller, Scope::Lot(id), Action::EnterTests).await?;
+
     let t = ledger::field::record_test(&s.db, id, &input, &actor).await?;
     Ok((StatusCode::CREATED, Json(with_line(&s, &t).await?)))
 }
@@ -84,9 +91,11 @@ async fn create(
 async fn preview(
     State(s): State<AppState>,
     Path(id): Path<i64>,
-    RequestActor(actor): RequestActor,
+    caller: Caller,
     ApiJson(input): ApiJson<FieldTestInput>,
 ) -> Result<Json<Value>> {
+    let actor = require(&s.db, &caller, Scope::Lot(id), Action::EnterTests).await?;
+
     Ok(Json(
         ledger::field::preview(&s.db, id, &input, &actor).await?,
     ))
@@ -109,9 +118,12 @@ struct TestQuery {
 
 async fn list_for_project(
     State(s): State<AppState>,
+    caller: Caller,
     Path(id): Path<i64>,
     ApiQuery(q): ApiQuery<TestQuery>,
 ) -> Result<Json<Value>> {
+    require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
+
     ledger::setup::require_project(&s.db, id).await?;
     let (limit, offset) = Page {
         page: q.page,
@@ -141,15 +153,21 @@ async fn list_for_project(
     ))
 }
 
-async fn get_one(State(s): State<AppState>, Path(id): Path<i64>) -> Result<Json<Value>> {
+async fn get_one(State(s): State<AppState>,
+    caller: Caller, Path(id): Path<i64>) -> Result<Json<Value>> {
+    require(&s.db, &caller, Scope::Test(id), Action::Read).await?;
+
     let t = ledger::field::require_test(&s.db, id).await?;
     Ok(Json(with_line(&s, &t).await?))
 }
 
 async fn history(
     State(s): State<AppState>,
+    caller: Caller,
     Path(id): Path<i64>,
 ) -> Result<Json<Vec<db::audit::AuditEntry>>> {
+    require(&s.db, &caller, Scope::Test(id), Action::Read).await?;
+
     ledger::field::require_test(&s.db, id).await?;
     Ok(Json(db::audit::for_entity(&s.db, "field_test", id).await?))
 }
@@ -164,9 +182,11 @@ struct VoidInput {
 async fn void(
     State(s): State<AppState>,
     Path(id): Path<i64>,
-    RequestActor(actor): RequestActor,
+    caller: Caller,
     ApiJson(input): ApiJson<VoidInput>,
 ) -> Result<Json<Value>> {
+    let actor = require(&s.db, &caller, Scope::Test(id), Action::VoidTest).await?;
+
     let t = ledger::field::void_test(&s.db, id, &input.reason, &actor).await?;
     Ok(Json(with_line(&s, &t).await?))
 }
@@ -174,9 +194,11 @@ async fn void(
 async fn retest(
     State(s): State<AppState>,
     Path(id): Path<i64>,
-    RequestActor(actor): RequestActor,
+    caller: Caller,
     ApiJson(input): ApiJson<FieldTestInput>,
 ) -> Result<(StatusCode, Json<Value>)> {
+    let actor = require(&s.db, &caller, Scope::Test(id), Action::EnterTests).await?;
+
     let t = ledger::field::record_retest(&s.db, id, &input, &actor).await?;
     Ok((StatusCode::CREATED, Json(with_line(&s, &t).await?)))
 }

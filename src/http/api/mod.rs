@@ -1,5 +1,6 @@
 //! The JSON API, version 1, under `/api/v1`.
 
+mod accounts;
 mod calc;
 mod certificates;
 mod field_tests;
@@ -13,6 +14,7 @@ use crate::app::AppState;
 /// All `/api/v1` routes.
 pub fn router() -> Router<AppState> {
     Router::new()
+        .merge(accounts::router())
         .merge(projects::router())
         .merge(field_tests::router())
         .merge(calc::router())

@@ -239,6 +239,14 @@ pub const OPERATIONS: &[Operation] = &[
         "Judge a set of relative compaction values",
         Some("AcceptanceInput"),
     ),
+    op("get", "/api/v1/me", "Who the caller is and which projects they see", None),
+    op("get", "/api/v1/users", "List users (admin)", None),
+    op("post", "/api/v1/users", "Create a user (admin)", Some("UserInput")),
+    op("get", "/api/v1/projects/{id}/members", "Members of a project and their roles", None),
+    op("post", "/api/v1/projects/{id}/members", "Give a user a role in a project (admin)", Some("GrantInput")),
+    op("get", "/api/v1/projects/{id}/tokens", "API tokens of a project (admin or QC manager)", None),
+    op("post", "/api/v1/projects/{id}/tokens", "Create an API token; the secret is shown once", Some("TokenInput")),
+    op("post", "/api/v1/tokens/{id}/revoke", "Revoke an API token", None),
     op("get", "/api/v1/openapi.json", "This document", None),
 ];
 
@@ -272,13 +280,20 @@ pub fn document() -> Value {
     }
     json!({
         "openapi": "3.1.0",
+        "security": [{"session": []}, {"token": []}],
         "info": {
             "title": "liftledger API",
             "version": env!("CARGO_PKG_VERSION"),
             "description": "Earthworks compaction QC: field density tests, lab curves, lot acceptance and end-of-lift certificates. SI units; field names carry their units."
         },
         "paths": paths,
-        "components": {"schemas": schemas()}
+        "components": {
+            "schemas": schemas(),
+            "securitySchemes": {
+                "session": {"type": "apiKey", "in": "cookie", "name": "liftledger_session"},
+                "token": {"type": "http", "scheme": "bearer", "description": "a project-scoped API token (llt_…)"}
+            }
+        }
     })
 }
 
@@ -311,6 +326,9 @@ fn schemas() -> Value {
                 "clause_id": int, "lab_test_id": int})),
         "ReviewInput": obj(&[], json!({"comment": s})),
         "VoidInput": obj(&["reason"], json!({"reason": s})),
+        "UserInput": obj(&["username", "display_name", "password"], json!({"username": s, "display_name": s, "password": s, "is_admin": {"type": "boolean"}})),
+        "GrantInput": obj(&["username", "role"], json!({"username": s, "role": {"enum": ["technician", "qc_manager", "client_engineer", "viewer"]}})),
+        "TokenInput": obj(&["name", "role"], json!({"name": s, "role": {"enum": ["technician", "qc_manager", "client_engineer", "viewer"]}})),
         "VerifyInput": obj(&[], json!({"code": s, "sha256": s, "pdf_base64": s})),
         "Readings": {"type": "object", "required": ["method"], "properties": {"method": {"enum": ["nuclear", "sand_cone", "balloon", "drive_cylinder"]},
             "wet_density_kg_m3": num, "moisture_density_kg_m3": num, "water_content_pct": num, "oven_water_content_pct": num,

@@ -9,9 +9,11 @@ use serde_json::{Value, json};
 
 use super::Page;
 use crate::app::AppState;
+use crate::auth::Action;
+use crate::http::caller::{Caller, Scope, require, require_admin};
 use crate::db;
 use crate::error::{AppError, Result};
-use crate::http::extract::{ApiJson, ApiQuery, RequestActor};
+use crate::http::extract::{ApiJson, ApiQuery};
 use crate::ledger::{self, setup};
 
 /// Routes of this module.
@@ -50,30 +52,42 @@ pub fn router() -> Router<AppState> {
 
 type Created<T> = (StatusCode, Json<T>);
 
-async fn list_projects(State(s): State<AppState>) -> Result<Json<Vec<db::projects::Project>>> {
-    Ok(Json(db::projects::list(&s.db).await?))
+async fn list_projects(State(s): State<AppState>, caller: Caller) -> Result<Json<Vec<db::projects::Project>>> {
+    let all = db::projects::list(&s.db).await?;
+    Ok(Json(match caller.visible_projects(&s.db).await? {
+        None => all,
+        Some(ids) => all.into_iter().filter(|p| ids.contains(&p.id)).collect(),
+    }))
 }
 
 async fn create_project(
     State(s): State<AppState>,
-    RequestActor(actor): RequestActor,
+    caller: Caller,
     ApiJson(input): ApiJson<setup::ProjectInput>,
 ) -> Result<Created<db::projects::Project>> {
+    let actor = require_admin(&caller)?;
+
     let p = setup::create_project(&s.db, &input, &actor).await?;
     Ok((StatusCode::CREATED, Json(p)))
 }
 
 async fn get_project(
     State(s): State<AppState>,
+    caller: Caller,
     Path(id): Path<i64>,
 ) -> Result<Json<db::projects::Project>> {
+    require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
+
     Ok(Json(setup::require_project(&s.db, id).await?))
 }
 
 async fn list_clauses(
     State(s): State<AppState>,
+    caller: Caller,
     Path(id): Path<i64>,
 ) -> Result<Json<Vec<db::clauses::Clause>>> {
+    require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
+
     setup::require_project(&s.db, id).await?;
     Ok(Json(db::clauses::list(&s.db, id).await?))
 }
@@ -81,9 +95,11 @@ async fn list_clauses(
 async fn create_clause(
     State(s): State<AppState>,
     Path(id): Path<i64>,
-    RequestActor(actor): RequestActor,
+    caller: Caller,
     ApiJson(input): ApiJson<setup::ClauseInput>,
 ) -> Result<Created<db::clauses::Clause>> {
+    let actor = require(&s.db, &caller, Scope::Project(id), Action::ManageSetup).await?;
+
     Ok((
         StatusCode::CREATED,
         Json(setup::create_clause(&s.db, id, &input, &actor).await?),
@@ -92,8 +108,11 @@ async fn create_clause(
 
 async fn list_sources(
     State(s): State<AppState>,
+    caller: Caller,
     Path(id): Path<i64>,
 ) -> Result<Json<Vec<db::sources::Source>>> {
+    require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
+
     setup::require_project(&s.db, id).await?;
     Ok(Json(db::sources::list(&s.db, id).await?))
 }
@@ -101,9 +120,11 @@ async fn list_sources(
 async fn create_source(
     State(s): State<AppState>,
     Path(id): Path<i64>,
-    RequestActor(actor): RequestActor,
+    caller: Caller,
     ApiJson(input): ApiJson<setup::SourceInput>,
 ) -> Result<Created<db::sources::Source>> {
+    let actor = require(&s.db, &caller, Scope::Project(id), Action::ManageSetup).await?;
+
     Ok((
         StatusCode::CREATED,
         Json(setup::create_source(&s.db, id, &input, &actor).await?),
@@ -112,8 +133,11 @@ async fn create_source(
 
 async fn list_lab_tests(
     State(s): State<AppState>,
+    caller: Caller,
     Path(id): Path<i64>,
 ) -> Result<Json<Vec<Value>>> {
+    require(&s.db, &caller, Scope::Source(id), Action::Read).await?;
+
     db::sources::get(&s.db, id)
         .await?
         .ok_or_else(|| AppError::not_found("source_id", format!("source {id} does not exist")))?;
@@ -136,14 +160,19 @@ fn lab_test_json(t: &db::lab_tests::LabTest) -> Value {
 async fn create_lab_test(
     State(s): State<AppState>,
     Path(id): Path<i64>,
-    RequestActor(actor): RequestActor,
+    caller: Caller,
     ApiJson(input): ApiJson<setup::LabTestInput>,
 ) -> Result<Created<Value>> {
+    let actor = require(&s.db, &caller, Scope::Source(id), Action::ManageSetup).await?;
+
     let t = setup::create_lab_test(&s.db, id, &input, &actor).await?;
     Ok((StatusCode::CREATED, Json(lab_test_json(&t))))
 }
 
-async fn get_lab_test(State(s): State<AppState>, Path(id): Path<i64>) -> Result<Json<Value>> {
+async fn get_lab_test(State(s): State<AppState>,
+    caller: Caller, Path(id): Path<i64>) -> Result<Json<Value>> {
+    require(&s.db, &caller, Scope::LabTest(id), Action::Read).await?;
+
     let t = db::lab_tests::get(&s.db, id).await?.ok_or_else(|| {
         AppError::not_found("lab_test_id", format!("lab test {id} does not exist"))
     })?;
@@ -152,8 +181,11 @@ async fn get_lab_test(State(s): State<AppState>, Path(id): Path<i64>) -> Result<
 
 async fn list_layers(
     State(s): State<AppState>,
+    caller: Caller,
     Path(id): Path<i64>,
 ) -> Result<Json<Vec<db::layers::Layer>>> {
+    require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
+
     setup::require_project(&s.db, id).await?;
     Ok(Json(db::layers::list(&s.db, id).await?))
 }
@@ -161,9 +193,11 @@ async fn list_layers(
 async fn create_layer(
     State(s): State<AppState>,
     Path(id): Path<i64>,
-    RequestActor(actor): RequestActor,
+    caller: Caller,
     ApiJson(input): ApiJson<setup::LayerInput>,
 ) -> Result<Created<db::layers::Layer>> {
+    let actor = require(&s.db, &caller, Scope::Project(id), Action::ManageSetup).await?;
+
     Ok((
         StatusCode::CREATED,
         Json(setup::create_layer(&s.db, id, &input, &actor).await?),
@@ -186,9 +220,12 @@ struct LotQuery {
 
 async fn list_lots(
     State(s): State<AppState>,
+    caller: Caller,
     Path(id): Path<i64>,
     ApiQuery(q): ApiQuery<LotQuery>,
 ) -> Result<Json<Value>> {
+    require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
+
     setup::require_project(&s.db, id).await?;
     let (limit, offset) = Page {
         page: q.page,
@@ -230,9 +267,11 @@ async fn list_lots(
 async fn create_lot(
     State(s): State<AppState>,
     Path(id): Path<i64>,
-    RequestActor(actor): RequestActor,
+    caller: Caller,
     ApiJson(input): ApiJson<setup::LotInput>,
 ) -> Result<Created<db::lots::Lot>> {
+    let actor = require(&s.db, &caller, Scope::Project(id), Action::ManageSetup).await?;
+
     Ok((
         StatusCode::CREATED,
         Json(setup::create_lot(&s.db, id, &input, &actor).await?),
@@ -241,12 +280,18 @@ async fn create_lot(
 
 async fn get_lot(
     State(s): State<AppState>,
+    caller: Caller,
     Path(id): Path<i64>,
 ) -> Result<Json<ledger::lot_report::LotReport>> {
+    require(&s.db, &caller, Scope::Lot(id), Action::Read).await?;
+
     Ok(Json(ledger::lot_report::build(&s.db, id).await?))
 }
 
-async fn lot_history(State(s): State<AppState>, Path(id): Path<i64>) -> Result<Json<Value>> {
+async fn lot_history(State(s): State<AppState>,
+    caller: Caller, Path(id): Path<i64>) -> Result<Json<Value>> {
+    require(&s.db, &caller, Scope::Lot(id), Action::Read).await?;
+
     ledger::field::require_lot(&s.db, id).await?;
     let transitions = db::lots::transitions(&s.db, id).await?;
     let audit = db::audit::for_entity(&s.db, "lot", id).await?;
@@ -255,8 +300,11 @@ async fn lot_history(State(s): State<AppState>, Path(id): Path<i64>) -> Result<J
 
 async fn review_queue(
     State(s): State<AppState>,
+    caller: Caller,
     Path(id): Path<i64>,
 ) -> Result<Json<Vec<db::lots::Lot>>> {
+    require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
+
     setup::require_project(&s.db, id).await?;
     Ok(Json(db::lots::in_state(&s.db, id, "submitted").await?))
 }
@@ -272,9 +320,11 @@ struct ReviewInput {
 async fn submit_lot(
     State(s): State<AppState>,
     Path(id): Path<i64>,
-    RequestActor(actor): RequestActor,
+    caller: Caller,
     ApiJson(input): ApiJson<ReviewInput>,
 ) -> Result<Json<ledger::lot_report::LotReport>> {
+    let actor = require(&s.db, &caller, Scope::Lot(id), Action::SubmitLot).await?;
+
     Ok(Json(
         ledger::review::submit(&s.db, id, &input.comment, &actor).await?,
     ))
@@ -283,9 +333,11 @@ async fn submit_lot(
 async fn accept_lot(
     State(s): State<AppState>,
     Path(id): Path<i64>,
-    RequestActor(actor): RequestActor,
+    caller: Caller,
     ApiJson(input): ApiJson<ReviewInput>,
 ) -> Result<Json<ledger::lot_report::LotReport>> {
+    let actor = require(&s.db, &caller, Scope::Lot(id), Action::ReviewLot).await?;
+
     Ok(Json(
         ledger::review::accept(&s.db, id, &input.comment, &actor).await?,
     ))
@@ -294,9 +346,11 @@ async fn accept_lot(
 async fn reject_lot(
     State(s): State<AppState>,
     Path(id): Path<i64>,
-    RequestActor(actor): RequestActor,
+    caller: Caller,
     ApiJson(input): ApiJson<ReviewInput>,
 ) -> Result<Json<ledger::lot_report::LotReport>> {
+    let actor = require(&s.db, &caller, Scope::Lot(id), Action::ReviewLot).await?;
+
     Ok(Json(
         ledger::review::reject(&s.db, id, &input.comment, &actor).await?,
     ))

@@ -6,6 +6,8 @@ use axum::extract::{Path, State};
 use axum::routing::get;
 
 use super::{PageResult, ProjectNav, render};
+use crate::auth::Action;
+use crate::http::caller::{Caller, Scope, require};
 use crate::app::AppState;
 use crate::charts::{CurveChartInput, FieldMark, Series, curve_chart};
 use crate::db;
@@ -53,7 +55,9 @@ struct CurvePage {
     cautions: Vec<String>,
 }
 
-async fn sheet(State(s): State<AppState>, Path(id): Path<i64>) -> PageResult {
+async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
+    require(&s.db, &caller, Scope::LabTest(id), Action::Read).await?;
+
     let lab = db::lab_tests::get(&s.db, id).await?.ok_or_else(|| {
         AppError::not_found("lab_test_id", format!("lab test {id} does not exist"))
     })?;

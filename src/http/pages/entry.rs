@@ -15,10 +15,12 @@ use serde::Deserialize;
 use serde_json::json;
 
 use super::{PageError, PageResult, ProjectNav, cautions, render_status, see_other};
+use crate::auth::Action;
+use crate::http::caller::{Caller, Scope, require};
 use crate::app::AppState;
 use crate::db;
 use crate::error::AppError;
-use crate::http::extract::{RequestActor, parse_form};
+use crate::http::extract::parse_form;
 use crate::ledger::field::FieldTestInput;
 use crate::ledger::{self, Actor};
 use crate::present::Units;
@@ -399,7 +401,9 @@ fn default_form(c: &Context) -> EntryForm {
     f
 }
 
-async fn new_form(State(s): State<AppState>, Path(id): Path<i64>) -> PageResult {
+async fn new_form(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
+    require(&s.db, &caller, Scope::Lot(id), Action::EnterTests).await?;
+
     let c = context(&s, id, None).await?;
     render_status(
         StatusCode::OK,
@@ -407,7 +411,9 @@ async fn new_form(State(s): State<AppState>, Path(id): Path<i64>) -> PageResult 
     )
 }
 
-async fn retest_form(State(s): State<AppState>, Path(id): Path<i64>) -> PageResult {
+async fn retest_form(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
+    require(&s.db, &caller, Scope::Test(id), Action::EnterTests).await?;
+
     let failed = ledger::field::require_test(&s.db, id).await?;
     let c = context(&s, failed.lot_id, Some(failed)).await?;
     render_status(
@@ -471,9 +477,11 @@ fn field_error(c: &Context, form: EntryForm, e: AppError) -> PageResult {
 async fn new_post(
     State(s): State<AppState>,
     Path(id): Path<i64>,
-    RequestActor(a): RequestActor,
+    caller: Caller,
     body: axum::body::Bytes,
 ) -> PageResult {
+    let a = require(&s.db, &caller, Scope::Lot(id), Action::EnterTests).await?;
+
     let form: EntryForm = parse_form(&body).map_err(PageError)?;
     let c = context(&s, id, None).await?;
     handle(&s, c, form, a).await
@@ -482,9 +490,11 @@ async fn new_post(
 async fn retest_post(
     State(s): State<AppState>,
     Path(id): Path<i64>,
-    RequestActor(a): RequestActor,
+    caller: Caller,
     body: axum::body::Bytes,
 ) -> PageResult {
+    let a = require(&s.db, &caller, Scope::Test(id), Action::EnterTests).await?;
+
     let form: EntryForm = parse_form(&body).map_err(PageError)?;
     let failed = ledger::field::require_test(&s.db, id).await?;
     let c = context(&s, failed.lot_id, Some(failed)).await?;
@@ -495,9 +505,11 @@ async fn retest_post(
 async fn live_preview(
     State(s): State<AppState>,
     Path(id): Path<i64>,
-    RequestActor(a): RequestActor,
+    caller: Caller,
     body: axum::body::Bytes,
 ) -> Result<Json<serde_json::Value>, AppError> {
+    let a = require(&s.db, &caller, Scope::Lot(id), Action::EnterTests).await?;
+
     let form: EntryForm = parse_form(&body)?;
     let lot = ledger::field::require_lot(&s.db, id).await?;
     let p = ledger::setup::require_project(&s.db, lot.project_id).await?;

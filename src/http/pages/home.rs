@@ -6,6 +6,8 @@ use axum::extract::{Path, State};
 use axum::routing::get;
 
 use super::{PageResult, ProjectNav, render};
+use crate::auth::Action;
+use crate::http::caller::{Caller, Scope, require};
 use crate::app::AppState;
 use crate::db;
 use crate::ledger::{overview, setup};
@@ -33,12 +35,15 @@ struct ProjectRow {
 struct ProjectsPage {
     projects: Vec<ProjectRow>,
     demo: bool,
+    who: String,
 }
 
-async fn projects(State(s): State<AppState>) -> PageResult {
+async fn projects(State(s): State<AppState>, caller: Caller) -> PageResult {
+    let visible = caller.visible_projects(&s.db).await?;
     let projects = db::projects::list(&s.db)
         .await?
         .into_iter()
+        .filter(|p| visible.as_ref().is_none_or(|ids| ids.contains(&p.id)))
         .map(|p| ProjectRow {
             id: p.id,
             code: p.code,
@@ -50,6 +55,7 @@ async fn projects(State(s): State<AppState>) -> PageResult {
     render(&ProjectsPage {
         projects,
         demo: s.settings.demo,
+        who: caller.actor().name,
     })
 }
 
@@ -95,7 +101,9 @@ struct ProjectPage {
     activity: Vec<Activity>,
 }
 
-async fn project_home(State(s): State<AppState>, Path(id): Path<i64>) -> PageResult {
+async fn project_home(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
+    require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
+
     let p = setup::require_project(&s.db, id).await?;
     let u = Units::of(&p);
     let reports = overview::project_reports(&s.db, id).await?;
@@ -234,7 +242,9 @@ struct SourcesPage {
     sources: Vec<SourceBlock>,
 }
 
-async fn sources(State(s): State<AppState>, Path(id): Path<i64>) -> PageResult {
+async fn sources(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
+    require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
+
     let p = setup::require_project(&s.db, id).await?;
     let u = Units::of(&p);
     let mut blocks = Vec::new();

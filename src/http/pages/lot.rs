@@ -7,11 +7,13 @@ use axum::http::StatusCode;
 use axum::routing::{get, post};
 
 use super::{PageError, PageResult, ProjectNav, cautions, see_other};
+use crate::auth::{Action, allows};
+use crate::http::caller::{Caller, Scope, require};
 use crate::app::AppState;
 use crate::charts::{RcBar, RcChartInput, RcStatus, rc_chart};
 use crate::db;
 use crate::error::AppError;
-use crate::http::extract::{RequestActor, parse_form};
+use crate::http::extract::parse_form;
 use crate::ledger::lot_report::LotReport;
 use crate::ledger::{self, lot_report};
 use crate::present::{self, Units};
@@ -47,7 +49,7 @@ pub struct Row {
 }
 
 /// Formats a lot's tests as sheet rows.
-pub fn rows(r: &LotReport, u: &Units) -> Vec<Row> {
+pub fn rows(r: &LotReport, u: &Units, may_retest: bool, may_void: bool) -> Vec<Row> {
     let takes_changes = r.lot.state != "submitted";
     r.tests
         .iter()
@@ -99,11 +101,12 @@ pub fn rows(r: &LotReport, u: &Units) -> Vec<Row> {
                 result: result.to_string(),
                 struck: t.standing != "counted",
                 note: notes.join("; "),
-                can_retest: takes_changes
+                can_retest: may_retest
+                    && takes_changes
                     && !t.passed
                     && t.test.void_reason.is_none()
                     && !has_live_retest,
-                can_void: takes_changes && t.test.void_reason.is_none(),
+                can_void: may_void && takes_changes && t.test.void_reason.is_none(),
             }
         })
         .collect()
@@ -199,6 +202,8 @@ struct LotPage {
     chart: String,
     can_add: bool,
     can_submit: bool,
+    show_blockers: bool,
+    role: String,
     can_review: bool,
     can_reissue: bool,
     cert_stale: bool,
@@ -208,12 +213,15 @@ struct LotPage {
     cautions: Vec<String>,
 }
 
-async fn sheet(State(s): State<AppState>, Path(id): Path<i64>) -> PageResult {
-    sheet_with(&s, id, String::new(), StatusCode::OK).await
+async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
+    require(&s.db, &caller, Scope::Lot(id), Action::Read).await?;
+    sheet_with(&s, &caller, id, String::new(), StatusCode::OK).await
 }
 
-async fn sheet_with(s: &AppState, id: i64, message: String, status: StatusCode) -> PageResult {
+async fn sheet_with(s: &AppState, caller: &Caller, id: i64, message: String, status: StatusCode) -> PageResult {
     let r = lot_report::build(&s.db, id).await?;
+    let role = caller.role_in(&s.db, r.project.id).await?;
+    let may = |a: Action| role.is_some_and(|r| allows(r, a));
     let u = Units::of(&r.project);
     let certs = db::certificates::for_lot(&s.db, id)
         .await?
@@ -286,7 +294,7 @@ async fn sheet_with(s: &AppState, id: i64, message: String, status: StatusCode) 
         effort: crate::reduction::lab::EffortPreset::parse_code(&r.lab_test.effort)
             .map_or(r.lab_test.effort.clone(), |e| e.label().to_string()),
         density_unit: u.density_unit().to_string(),
-        rows: rows(&r, &u),
+        rows: rows(&r, &u, may(Action::EnterTests), may(Action::VoidTest)),
         accepted: v.accepted,
         n: v.n,
         mean: present::pct(v.mean),
@@ -300,11 +308,14 @@ async fn sheet_with(s: &AppState, id: i64, message: String, status: StatusCode) 
         owed: r.tests_owed,
         blockers: r.submit_blockers.clone(),
         chart: chart(&r),
-        can_add: r.lot.state == "open" || r.lot.state == "rejected",
-        can_submit: (r.lot.state == "open" || r.lot.state == "rejected")
+        can_add: may(Action::EnterTests) && (r.lot.state == "open" || r.lot.state == "rejected"),
+        can_submit: may(Action::SubmitLot)
+            && (r.lot.state == "open" || r.lot.state == "rejected")
             && r.submit_blockers.is_empty(),
-        can_review: r.lot.state == "submitted",
-        can_reissue: r.lot.state == "accepted" && !r.certificate_current,
+        show_blockers: r.lot.state == "open" || r.lot.state == "rejected",
+        can_review: may(Action::ReviewLot) && r.lot.state == "submitted",
+        can_reissue: may(Action::ReviewLot) && r.lot.state == "accepted" && !r.certificate_current,
+        role: role.map_or("no project role".to_string(), |r| r.label().to_string()),
         cert_stale: r.lot.state == "accepted" && r.certificate.is_some() && !r.certificate_current,
         certs,
         history,
@@ -322,7 +333,7 @@ struct CommentForm {
 }
 
 /// Runs a lot action; on refusal, re-renders the sheet with the reasons and the right status.
-async fn act<F, Fut>(s: &AppState, id: i64, body: &[u8], f: F) -> PageResult
+async fn act<F, Fut>(s: &AppState, caller: &Caller, id: i64, body: &[u8], f: F) -> PageResult
 where
     F: FnOnce(String) -> Fut,
     Fut: std::future::Future<Output = crate::error::Result<LotReport>>,
@@ -335,7 +346,7 @@ where
             if !e.reasons().is_empty() {
                 msg = format!("{msg}: {}", e.reasons().join("; "));
             }
-            sheet_with(s, id, msg, e.status()).await
+            sheet_with(s, caller, id, msg, e.status()).await
         }
         Err(e) => Err(e.into()),
     }
@@ -344,11 +355,13 @@ where
 async fn submit(
     State(s): State<AppState>,
     Path(id): Path<i64>,
-    RequestActor(a): RequestActor,
+    caller: Caller,
     body: axum::body::Bytes,
 ) -> PageResult {
+    let a = require(&s.db, &caller, Scope::Lot(id), Action::SubmitLot).await?;
+
     let db = s.db.clone();
-    act(&s, id, &body, |c| async move {
+    act(&s, &caller, id, &body, |c| async move {
         ledger::review::submit(&db, id, &c, &a).await
     })
     .await
@@ -357,11 +370,13 @@ async fn submit(
 async fn accept(
     State(s): State<AppState>,
     Path(id): Path<i64>,
-    RequestActor(a): RequestActor,
+    caller: Caller,
     body: axum::body::Bytes,
 ) -> PageResult {
+    let a = require(&s.db, &caller, Scope::Lot(id), Action::ReviewLot).await?;
+
     let db = s.db.clone();
-    act(&s, id, &body, |c| async move {
+    act(&s, &caller, id, &body, |c| async move {
         ledger::review::accept(&db, id, &c, &a).await
     })
     .await
@@ -370,11 +385,13 @@ async fn accept(
 async fn reject(
     State(s): State<AppState>,
     Path(id): Path<i64>,
-    RequestActor(a): RequestActor,
+    caller: Caller,
     body: axum::body::Bytes,
 ) -> PageResult {
+    let a = require(&s.db, &caller, Scope::Lot(id), Action::ReviewLot).await?;
+
     let db = s.db.clone();
-    act(&s, id, &body, |c| async move {
+    act(&s, &caller, id, &body, |c| async move {
         ledger::review::reject(&db, id, &c, &a).await
     })
     .await
@@ -390,9 +407,11 @@ struct VoidForm {
 async fn void(
     State(s): State<AppState>,
     Path(id): Path<i64>,
-    RequestActor(a): RequestActor,
+    caller: Caller,
     body: axum::body::Bytes,
 ) -> PageResult {
+    let a = require(&s.db, &caller, Scope::Test(id), Action::VoidTest).await?;
+
     let form: VoidForm = parse_form(&body).map_err(PageError)?;
     let test = ledger::field::require_test(&s.db, id).await?;
     match ledger::field::void_test(&s.db, id, &form.reason, &a).await {
@@ -400,6 +419,7 @@ async fn void(
         Err(e @ (AppError::Conflict { .. } | AppError::Invalid { .. })) => {
             sheet_with(
                 &s,
+                &caller,
                 test.lot_id,
                 format!("void {}: {}", test.number, e.user_message()),
                 e.status(),

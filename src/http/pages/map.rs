@@ -7,6 +7,8 @@ use axum::routing::get;
 use serde::Deserialize;
 
 use super::{PageResult, ProjectNav, render};
+use crate::auth::Action;
+use crate::http::caller::{Caller, Scope, require};
 use crate::app::AppState;
 use crate::charts::{LiftMapInput, MapLot, MapRow, MapState, lift_map};
 use crate::db;
@@ -83,10 +85,12 @@ fn encode(s: &str) -> String {
 }
 
 async fn map(
-    State(s): State<AppState>,
+    State(s): State<AppState>, caller: Caller,
     Path(id): Path<i64>,
     ApiQuery(q): ApiQuery<MapQuery>,
 ) -> PageResult {
+    require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
+
     let p = setup::require_project(&s.db, id).await?;
     let u = Units::of(&p);
     let parse = |field: &str, v: &Option<String>| -> Result<Option<f64>, AppError> {

@@ -10,6 +10,7 @@ mod home;
 mod lot;
 mod map;
 mod review;
+pub mod session;
 mod tests_list;
 
 use askama::Template;
@@ -33,6 +34,7 @@ pub fn router() -> Router<AppState> {
         .merge(entry::router())
         .merge(tests_list::router())
         .merge(review::router())
+        .merge(session::router())
 }
 
 async fn style() -> impl IntoResponse {
@@ -83,6 +85,9 @@ struct ErrorPage {
 impl IntoResponse for PageError {
     fn into_response(self) -> Response {
         let e = self.0;
+        if matches!(e, AppError::Unauthorized { .. }) {
+            return session::to_sign_in();
+        }
         if let AppError::Internal(err) = &e {
             tracing::error!(error = ?err, "page failed");
         }

@@ -6,6 +6,8 @@ use axum::extract::{Multipart, Path, State};
 use axum::routing::get;
 
 use super::{PageError, PageResult, ProjectNav, render};
+use crate::auth::Action;
+use crate::http::caller::{Caller, Scope, require};
 use crate::app::AppState;
 use crate::db;
 use crate::error::AppError;
@@ -38,7 +40,9 @@ struct QueuePage {
     rows: Vec<QueueRow>,
 }
 
-async fn queue(State(s): State<AppState>, Path(id): Path<i64>) -> PageResult {
+async fn queue(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
+    require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
+
     let p = setup::require_project(&s.db, id).await?;
     let u = Units::of(&p);
     let mut rows = Vec::new();
@@ -94,7 +98,9 @@ struct CertificatesPage {
     rows: Vec<CertRow>,
 }
 
-async fn certificates(State(s): State<AppState>, Path(id): Path<i64>) -> PageResult {
+async fn certificates(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
+    require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
+
     let p = setup::require_project(&s.db, id).await?;
     let mut rows = Vec::new();
     for c in db::certificates::for_project(&s.db, id).await? {
@@ -141,7 +147,9 @@ struct CertificatePage {
     others: Vec<CertRow>,
 }
 
-async fn certificate(State(s): State<AppState>, Path(id): Path<i64>) -> PageResult {
+async fn certificate(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
+    require(&s.db, &caller, Scope::Certificate(id), Action::Read).await?;
+
     let c = verify::require_certificate(&s.db, id).await?;
     let p = setup::require_project(&s.db, c.project_id).await?;
     let lot = db::lots::get(&s.db, c.lot_id)

@@ -9,6 +9,8 @@ use axum::routing::get;
 use serde::Deserialize;
 
 use super::{PageError, PageResult, ProjectNav, render};
+use crate::auth::Action;
+use crate::http::caller::{Caller, Scope, require};
 use crate::app::AppState;
 use crate::error::AppError;
 use crate::http::extract::ApiQuery;
@@ -179,10 +181,12 @@ struct TestsPage {
 const PAGE_ROWS: usize = 500;
 
 async fn list(
-    State(s): State<AppState>,
+    State(s): State<AppState>, caller: Caller,
     Path(id): Path<i64>,
     ApiQuery(f): ApiQuery<Filters>,
 ) -> PageResult {
+    require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
+
     let p = setup::require_project(&s.db, id).await?;
     let u = Units::of(&p);
     let reports = overview::project_reports(&s.db, id).await?;
@@ -244,10 +248,12 @@ async fn list(
 }
 
 async fn csv(
-    State(s): State<AppState>,
+    State(s): State<AppState>, caller: Caller,
     Path(id): Path<i64>,
     ApiQuery(f): ApiQuery<Filters>,
 ) -> Result<impl IntoResponse, PageError> {
+    require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
+
     let p = setup::require_project(&s.db, id).await?;
     let u = Units::of(&p);
     let reports = overview::project_reports(&s.db, id).await?;

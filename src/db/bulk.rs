@@ -1,0 +1,275 @@
+//! Bulk reads and writes for imports, exports and the large-project generator:
+//! multi-row inserts inside one transaction, lookups of many test numbers at once,
+//! and the saved column mappings of a project.
+//!
+//! Functions take a plain connection (`&mut **tx` of a transaction, or a pooled
+//! connection) so an import reads and writes through the one transaction it commits.
+
+use serde::Serialize;
+use sqlx::SqliteConnection;
+
+use super::Tx;
+use super::field_tests::FieldTest;
+use super::Pool;
+
+/// Columns of `field_tests` in the order of [`FieldTest`].
+const TEST_COLUMNS: &str = "id, project_id, lot_id, number, tested_at, technician, method, instrument_serial, chainage_m,
+    offset_m, depth_mm, coarse_pct, coarse_water_content_pct, easting, northing, readings_json, wet_density_kg_m3,
+    water_content_pct, dry_density_kg_m3, moisture_source, reduction_version, retest_of, void_reason, voided_by,
+    voided_at, created_at, created_by";
+
+const INSERT_WIDTH: usize = 27;
+
+/// Rows per multi-row INSERT: 64 × 27 parameters stays far below SQLite's 32,766 limit.
+pub const INSERT_ROWS: usize = 64;
+
+/// Largest id used so far in `field_tests` (0 when empty).
+///
+/// An import holds the write lock for its whole transaction, so it can number its rows
+/// from here and know every id before it inserts (retests within a file point at ids
+/// inserted in the same statement batch).
+pub async fn max_field_test_id(conn: &mut SqliteConnection) -> sqlx::Result<i64> {
+    sqlx::query_scalar("SELECT COALESCE(MAX(id), 0) FROM field_tests")
+        .fetch_one(conn)
+        .await
+}
+
+/// Placeholder counts for number look-ups; a query is padded up to one of these so that
+/// few distinct statements are prepared and cached.
+const LOOKUP_SIZES: [usize; 5] = [8, 32, 128, 512, 2048];
+
+/// Tests of a project whose numbers are among `numbers` (any order; missing numbers are absent).
+pub async fn tests_by_numbers(
+    conn: &mut SqliteConnection,
+    project_id: i64,
+    numbers: &[&str],
+) -> sqlx::Result<Vec<FieldTest>> {
+    let mut out = Vec::new();
+    let max = LOOKUP_SIZES[LOOKUP_SIZES.len() - 1];
+    for part in numbers.chunks(max) {
+        let Some(last) = part.last() else {
+            continue;
+        };
+        let size = LOOKUP_SIZES
+            .iter()
+            .copied()
+            .find(|s| *s >= part.len())
+            .unwrap_or(max);
+        let marks = vec!["?"; size].join(", ");
+        let sql = format!(
+            "SELECT {TEST_COLUMNS} FROM field_tests WHERE project_id = ? AND number IN ({marks})"
+        );
+        let mut q = sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(sql)).bind(project_id);
+        for n in part {
+            q = q.bind(*n);
+        }
+        for _ in part.len()..size {
+            q = q.bind(*last);
+        }
+        out.extend(q.fetch_all(&mut *conn).await?);
+    }
+    Ok(out)
+}
+
+/// Number of the live (not void) retest of a test, if it has one.
+pub async fn live_retest_number(
+    conn: &mut SqliteConnection,
+    failed_id: i64,
+) -> sqlx::Result<Option<String>> {
+    sqlx::query_scalar(
+        "SELECT number FROM field_tests WHERE retest_of = ? AND void_reason IS NULL ORDER BY id LIMIT 1",
+    )
+    .bind(failed_id)
+    .fetch_optional(conn)
+    .await
+}
+
+fn insert_sql(rows: usize) -> String {
+    let one = format!("({})", vec!["?"; INSERT_WIDTH].join(", "));
+    let values = vec![one.as_str(); rows].join(", ");
+    format!("INSERT INTO field_tests ({TEST_COLUMNS}) VALUES {values}")
+}
+
+/// Inserts tests with the ids they carry, [`INSERT_ROWS`] to a statement.
+///
+/// Statements are prepared once per connection and reused (sqlx caches them by text),
+/// so a long import pays for two statement shapes at most.
+pub async fn insert_field_tests(conn: &mut SqliteConnection, rows: &[FieldTest]) -> sqlx::Result<()> {
+    for part in rows.chunks(INSERT_ROWS) {
+        let sql = insert_sql(part.len());
+        let mut q = sqlx::query(sqlx::AssertSqlSafe(sql));
+        for t in part {
+            q = q
+                .bind(t.id)
+                .bind(t.project_id)
+                .bind(t.lot_id)
+                .bind(&t.number)
+                .bind(&t.tested_at)
+                .bind(&t.technician)
+                .bind(&t.method)
+                .bind(&t.instrument_serial)
+                .bind(t.chainage_m)
+                .bind(t.offset_m)
+                .bind(t.depth_mm)
+                .bind(t.coarse_pct)
+                .bind(t.coarse_water_content_pct)
+                .bind(t.easting)
+                .bind(t.northing)
+                .bind(&t.readings_json)
+                .bind(t.wet_density_kg_m3)
+                .bind(t.water_content_pct)
+                .bind(t.dry_density_kg_m3)
+                .bind(&t.moisture_source)
+                .bind(&t.reduction_version)
+                .bind(t.retest_of)
+                .bind(&t.void_reason)
+                .bind(&t.voided_by)
+                .bind(&t.voided_at)
+                .bind(&t.created_at)
+                .bind(&t.created_by);
+        }
+        q.execute(&mut *conn).await?;
+    }
+    Ok(())
+}
+
+/// One audit row to append in bulk (the same columns [`audit::record`] writes).
+#[derive(Debug, Clone)]
+pub struct AuditRow {
+    pub at: String,
+    pub actor: String,
+    pub action: String,
+    pub entity: String,
+    pub entity_id: Option<i64>,
+    pub project_id: Option<i64>,
+    pub before_json: Option<String>,
+    pub after_json: Option<String>,
+    pub origin: String,
+}
+
+/// Rows per multi-row audit INSERT.
+const AUDIT_ROWS: usize = 128;
+
+/// Appends many audit rows inside the transaction that makes the changes.
+pub async fn insert_audit_rows(conn: &mut SqliteConnection, rows: &[AuditRow]) -> sqlx::Result<()> {
+    for part in rows.chunks(AUDIT_ROWS) {
+        let values = vec!["(?, ?, ?, ?, ?, ?, ?, ?, ?)"; part.len()].join(", ");
+        let sql = format!(
+            "INSERT INTO audit_log (at, actor, action, entity, entity_id, project_id, before_json, after_json, origin)
+             VALUES {values}"
+        );
+        let mut q = sqlx::query(sqlx::AssertSqlSafe(sql));
+        for a in part {
+            q = q
+                .bind(&a.at)
+                .bind(&a.actor)
+                .bind(&a.action)
+                .bind(&a.entity)
+                .bind(a.entity_id)
+                .bind(a.project_id)
+                .bind(&a.before_json)
+                .bind(&a.after_json)
+                .bind(&a.origin);
+        }
+        q.execute(&mut *conn).await?;
+    }
+    Ok(())
+}
+
+/// The columns of a test the lot verdict and the whole-project views need.
+///
+/// Same as [`FieldTest`] without `readings_json`, the one large text no whole-project
+/// view shows; see [`tests_for_project_views`].
+pub const VIEW_COLUMNS: &str = "id, project_id, lot_id, number, tested_at, technician, method, instrument_serial, chainage_m,
+    offset_m, depth_mm, coarse_pct, coarse_water_content_pct, easting, northing, '' AS readings_json, wet_density_kg_m3,
+    water_content_pct, dry_density_kg_m3, moisture_source, reduction_version, retest_of, void_reason, voided_by,
+    voided_at, created_at, created_by";
+
+/// Every test of a project by lot then time, with `readings_json` left empty: what the
+/// project overview needs, at a fraction of the bytes of a full read.
+pub async fn tests_for_project_views(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<FieldTest>> {
+    sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
+        "SELECT {VIEW_COLUMNS} FROM field_tests WHERE project_id = ? ORDER BY lot_id, tested_at, id"
+    )))
+    .bind(project_id)
+    .fetch_all(pool)
+    .await
+}
+
+/// A saved column mapping of a project.
+#[derive(Debug, Clone, Serialize, sqlx::FromRow)]
+pub struct SavedMapping {
+    pub id: i64,
+    pub project_id: i64,
+    pub name: String,
+    pub mapping_json: String,
+    pub created_at: String,
+    pub created_by: String,
+}
+
+/// Saves a new named mapping; fails with a unique violation when the name is taken.
+pub async fn insert_mapping(
+    tx: &mut Tx<'_>,
+    project_id: i64,
+    name: &str,
+    mapping_json: &str,
+    actor: &str,
+    now: &str,
+) -> sqlx::Result<i64> {
+    sqlx::query_scalar(
+        "INSERT INTO import_mappings (project_id, name, mapping_json, created_at, created_by)
+         VALUES (?, ?, ?, ?, ?) RETURNING id",
+    )
+    .bind(project_id)
+    .bind(name)
+    .bind(mapping_json)
+    .bind(now)
+    .bind(actor)
+    .fetch_one(&mut **tx)
+    .await
+}
+
+/// Replaces the content of a named mapping; false when there is none by that name.
+pub async fn update_mapping(
+    tx: &mut Tx<'_>,
+    project_id: i64,
+    name: &str,
+    mapping_json: &str,
+) -> sqlx::Result<bool> {
+    let done = sqlx::query(
+        "UPDATE import_mappings SET mapping_json = ? WHERE project_id = ? AND name = ?",
+    )
+    .bind(mapping_json)
+    .bind(project_id)
+    .bind(name)
+    .execute(&mut **tx)
+    .await?;
+    Ok(done.rows_affected() == 1)
+}
+
+/// One saved mapping by name.
+pub async fn get_mapping(
+    pool: &Pool,
+    project_id: i64,
+    name: &str,
+) -> sqlx::Result<Option<SavedMapping>> {
+    sqlx::query_as::<_, SavedMapping>(
+        "SELECT id, project_id, name, mapping_json, created_at, created_by
+         FROM import_mappings WHERE project_id = ? AND name = ?",
+    )
+    .bind(project_id)
+    .bind(name)
+    .fetch_optional(pool)
+    .await
+}
+
+/// Every saved mapping of a project, by name.
+pub async fn list_mappings(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<SavedMapping>> {
+    sqlx::query_as::<_, SavedMapping>(
+        "SELECT id, project_id, name, mapping_json, created_at, created_by
+         FROM import_mappings WHERE project_id = ? ORDER BY name",
+    )
+    .bind(project_id)
+    .fetch_all(pool)
+    .await
+}

@@ -1,0 +1,282 @@
+//! Users, memberships, sessions, API tokens and failed sign-ins.
+
+use serde::Serialize;
+
+use super::{Pool, Tx};
+
+/// A stored user (the password hash never leaves this module's callers in responses).
+#[derive(Debug, Clone, Serialize, sqlx::FromRow)]
+pub struct User {
+    pub id: i64,
+    pub username: String,
+    pub display_name: String,
+    #[serde(skip)]
+    pub password_hash: String,
+    pub is_admin: bool,
+    pub is_demo: bool,
+    pub disabled_at: Option<String>,
+    pub created_at: String,
+}
+
+const USER: &str = "SELECT id, username, display_name, password_hash, is_admin, is_demo, disabled_at, created_at FROM users";
+
+/// Inserts a user.
+pub async fn insert(
+    tx: &mut Tx<'_>,
+    username: &str,
+    display_name: &str,
+    password_hash: &str,
+    is_admin: bool,
+    is_demo: bool,
+    now: &str,
+) -> sqlx::Result<i64> {
+    sqlx::query_scalar(
+        "INSERT INTO users (username, display_name, password_hash, is_admin, is_demo, created_at)
+         VALUES (?, ?, ?, ?, ?, ?) RETURNING id",
+    )
+    .bind(username)
+    .bind(display_name)
+    .bind(password_hash)
+    .bind(is_admin)
+    .bind(is_demo)
+    .bind(now)
+    .fetch_one(&mut **tx)
+    .await
+}
+
+/// A user by name.
+pub async fn by_username(pool: &Pool, username: &str) -> sqlx::Result<Option<User>> {
+    sqlx::query_as::<_, User>(sqlx::AssertSqlSafe(format!("{USER} WHERE username = ?")))
+        .bind(username)
+        .fetch_optional(pool)
+        .await
+}
+
+/// A user by id.
+pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<User>> {
+    sqlx::query_as::<_, User>(sqlx::AssertSqlSafe(format!("{USER} WHERE id = ?")))
+        .bind(id)
+        .fetch_optional(pool)
+        .await
+}
+
+/// How many users exist (zero on a new database).
+pub async fn count(pool: &Pool) -> sqlx::Result<i64> {
+    sqlx::query_scalar("SELECT COUNT(*) FROM users").fetch_one(pool).await
+}
+
+/// Every user, by name.
+pub async fn list(pool: &Pool) -> sqlx::Result<Vec<User>> {
+    sqlx::query_as::<_, User>(sqlx::AssertSqlSafe(format!("{USER} ORDER BY username")))
+        .fetch_all(pool)
+        .await
+}
+
+/// Grants (or changes) a user's role in a project.
+pub async fn grant(tx: &mut Tx<'_>, user_id: i64, project_id: i64, role: &str, now: &str) -> sqlx::Result<()> {
+    sqlx::query(
+        "INSERT INTO memberships (user_id, project_id, role, created_at) VALUES (?, ?, ?, ?)
+         ON CONFLICT (user_id, project_id) DO UPDATE SET role = excluded.role",
+    )
+    .bind(user_id)
+    .bind(project_id)
+    .bind(role)
+    .bind(now)
+    .execute(&mut **tx)
+    .await?;
+    Ok(())
+}
+
+/// A user's role in a project, if a member.
+pub async fn role_in(pool: &Pool, user_id: i64, project_id: i64) -> sqlx::Result<Option<String>> {
+    sqlx::query_scalar("SELECT role FROM memberships WHERE user_id = ? AND project_id = ?")
+        .bind(user_id)
+        .bind(project_id)
+        .fetch_optional(pool)
+        .await
+}
+
+/// Ids of the projects a user belongs to.
+pub async fn project_ids(pool: &Pool, user_id: i64) -> sqlx::Result<Vec<i64>> {
+    sqlx::query_scalar("SELECT project_id FROM memberships WHERE user_id = ? ORDER BY project_id")
+        .bind(user_id)
+        .fetch_all(pool)
+        .await
+}
+
+/// Members of a project with their roles.
+pub async fn members(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<(String, String, String)>> {
+    sqlx::query_as(
+        "SELECT u.username, u.display_name, m.role FROM memberships m JOIN users u ON u.id = m.user_id
+         WHERE m.project_id = ? ORDER BY u.username",
+    )
+    .bind(project_id)
+    .fetch_all(pool)
+    .await
+}
+
+/// A live session found by its token hash.
+#[derive(Debug, Clone, sqlx::FromRow)]
+pub struct Session {
+    pub id: i64,
+    pub user_id: i64,
+    pub created_at: String,
+    pub last_seen_at: String,
+}
+
+/// Starts a session.
+pub async fn start_session(tx: &mut Tx<'_>, token_hash: &str, user_id: i64, now: &str) -> sqlx::Result<i64> {
+    sqlx::query_scalar(
+        "INSERT INTO sessions (token_hash, user_id, created_at, last_seen_at) VALUES (?, ?, ?, ?) RETURNING id",
+    )
+    .bind(token_hash)
+    .bind(user_id)
+    .bind(now)
+    .bind(now)
+    .fetch_one(&mut **tx)
+    .await
+}
+
+/// The live session with this token hash.
+pub async fn session(pool: &Pool, token_hash: &str) -> sqlx::Result<Option<Session>> {
+    sqlx::query_as::<_, Session>(
+        "SELECT id, user_id, created_at, last_seen_at FROM sessions WHERE token_hash = ? AND ended_at IS NULL",
+    )
+    .bind(token_hash)
+    .fetch_optional(pool)
+    .await
+}
+
+/// Records that a session was used now.
+pub async fn touch_session(pool: &Pool, id: i64, now: &str) -> sqlx::Result<()> {
+    sqlx::query("UPDATE sessions SET last_seen_at = ? WHERE id = ?")
+        .bind(now)
+        .bind(id)
+        .execute(pool)
+        .await?;
+    Ok(())
+}
+
+/// Ends a session (sign-out, idle expiry or rotation).
+pub async fn end_session(pool: &Pool, id: i64, now: &str) -> sqlx::Result<()> {
+    sqlx::query("UPDATE sessions SET ended_at = ? WHERE id = ? AND ended_at IS NULL")
+        .bind(now)
+        .bind(id)
+        .execute(pool)
+        .await?;
+    Ok(())
+}
+
+/// A stored API token (without its secret).
+#[derive(Debug, Clone, Serialize, sqlx::FromRow)]
+pub struct ApiToken {
+    pub id: i64,
+    pub project_id: i64,
+    pub role: String,
+    pub name: String,
+    pub created_by: String,
+    pub created_at: String,
+    pub last_used_at: Option<String>,
+    pub revoked_at: Option<String>,
+}
+
+const TOKEN: &str =
+    "SELECT id, project_id, role, name, created_by, created_at, last_used_at, revoked_at FROM api_tokens";
+
+/// Stores a new token's hash.
+pub async fn insert_token(
+    tx: &mut Tx<'_>,
+    project_id: i64,
+    role: &str,
+    name: &str,
+    token_hash: &str,
+    created_by: &str,
+    now: &str,
+) -> sqlx::Result<i64> {
+    sqlx::query_scalar(
+        "INSERT INTO api_tokens (project_id, role, name, token_hash, created_by, created_at)
+         VALUES (?, ?, ?, ?, ?, ?) RETURNING id",
+    )
+    .bind(project_id)
+    .bind(role)
+    .bind(name)
+    .bind(token_hash)
+    .bind(created_by)
+    .bind(now)
+    .fetch_one(&mut **tx)
+    .await
+}
+
+/// A live (not revoked) token by the hash of its secret.
+pub async fn token_by_hash(pool: &Pool, token_hash: &str) -> sqlx::Result<Option<ApiToken>> {
+    sqlx::query_as::<_, ApiToken>(sqlx::AssertSqlSafe(format!(
+        "{TOKEN} WHERE token_hash = ? AND revoked_at IS NULL"
+    )))
+    .bind(token_hash)
+    .fetch_optional(pool)
+    .await
+}
+
+/// One token by id.
+pub async fn token(pool: &Pool, id: i64) -> sqlx::Result<Option<ApiToken>> {
+    sqlx::query_as::<_, ApiToken>(sqlx::AssertSqlSafe(format!("{TOKEN} WHERE id = ?")))
+        .bind(id)
+        .fetch_optional(pool)
+        .await
+}
+
+/// Tokens of a project.
+pub async fn tokens(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<ApiToken>> {
+    sqlx::query_as::<_, ApiToken>(sqlx::AssertSqlSafe(format!("{TOKEN} WHERE project_id = ? ORDER BY id")))
+        .bind(project_id)
+        .fetch_all(pool)
+        .await
+}
+
+/// Records a token's use.
+pub async fn touch_token(pool: &Pool, id: i64, now: &str) -> sqlx::Result<()> {
+    sqlx::query("UPDATE api_tokens SET last_used_at = ? WHERE id = ?")
+        .bind(now)
+        .bind(id)
+        .execute(pool)
+        .await?;
+    Ok(())
+}
+
+/// Revokes a token; false when it was already revoked.
+pub async fn revoke_token(tx: &mut Tx<'_>, id: i64, now: &str) -> sqlx::Result<bool> {
+    let done = sqlx::query("UPDATE api_tokens SET revoked_at = ? WHERE id = ? AND revoked_at IS NULL")
+        .bind(now)
+        .bind(id)
+        .execute(&mut **tx)
+        .await?;
+    Ok(done.rows_affected() == 1)
+}
+
+/// Records a failed sign-in under a key (`user:…` or `addr:…`).
+pub async fn record_failure(pool: &Pool, key: &str, now: &str) -> sqlx::Result<()> {
+    sqlx::query("INSERT INTO sign_in_failures (key, at) VALUES (?, ?)")
+        .bind(key)
+        .bind(now)
+        .execute(pool)
+        .await?;
+    Ok(())
+}
+
+/// Failures under a key since a time, and the latest of them.
+pub async fn failures_since(pool: &Pool, key: &str, since: &str) -> sqlx::Result<(i64, Option<String>)> {
+    sqlx::query_as("SELECT COUNT(*), MAX(at) FROM sign_in_failures WHERE key = ? AND at >= ?")
+        .bind(key)
+        .bind(since)
+        .fetch_one(pool)
+        .await
+}
+
+/// Forgets a user name's failures after a successful sign-in.
+pub async fn clear_failures(pool: &Pool, key: &str) -> sqlx::Result<()> {
+    sqlx::query("DELETE FROM sign_in_failures WHERE key = ?")
+        .bind(key)
+        .execute(pool)
+        .await?;
+    Ok(())
+}
