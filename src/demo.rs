@@ -51,7 +51,8 @@ pub async fn load(pool: &Pool) -> anyhow::Result<String> {
     let admin = Actor::system("Site Administrator (admin)");
     let setup_actor = Actor::system("D. Achterberg (achterberg)");
     let entry_actor = Actor::system("R. Okafor (okafor)");
-    let mut frame: Value = serde_json::from_str(PROJECT).context("reading demo-data/project.json")?;
+    let mut frame: Value =
+        serde_json::from_str(PROJECT).context("reading demo-data/project.json")?;
     let project = ledger::setup::create_project(pool, &parse(frame["project"].take())?, &admin)
         .await
         .map_err(user_error)?;

@@ -33,7 +33,10 @@ pub enum AppError {
     Forbidden { message: String },
     /// Too many attempts; try again after `retry_after_secs`.
     #[error("{message}")]
-    TooManyRequests { message: String, retry_after_secs: u64 },
+    TooManyRequests {
+        message: String,
+        retry_after_secs: u64,
+    },
     /// The record's current state refuses the request.
     #[error("{field}: {message}")]
     Conflict {
@@ -111,7 +114,10 @@ impl AppError {
             | Self::Invalid { field, .. }
             | Self::NotFound { field, .. }
             | Self::Conflict { field, .. } => field,
-            Self::Unauthorized { .. } | Self::Forbidden { .. } | Self::TooManyRequests { .. } | Self::Internal(_) => "",
+            Self::Unauthorized { .. }
+            | Self::Forbidden { .. }
+            | Self::TooManyRequests { .. }
+            | Self::Internal(_) => "",
         }
     }
 
@@ -154,10 +160,14 @@ impl IntoResponse for AppError {
             body["reasons"] = json!(self.reasons());
         }
         let mut response = (self.status(), Json(json!({ "error": body }))).into_response();
-        if let Self::TooManyRequests { retry_after_secs, .. } = &self
+        if let Self::TooManyRequests {
+            retry_after_secs, ..
+        } = &self
             && let Ok(v) = axum::http::HeaderValue::from_str(&retry_after_secs.to_string())
         {
-            response.headers_mut().insert(axum::http::header::RETRY_AFTER, v);
+            response
+                .headers_mut()
+                .insert(axum::http::header::RETRY_AFTER, v);
         }
         response
     }

@@ -16,6 +16,8 @@ pub mod ledger;
 pub mod pdf;
 pub mod present;
 pub mod reduction;
+pub mod scale;
+pub mod transfer;
 
 use std::net::SocketAddr;
 

@@ -26,7 +26,12 @@ async fn main() -> anyhow::Result<()> {
             let summary = demo::load(&pool).await?;
             println!("loaded demo project into {}: {summary}", a.db.display());
         }
-        Command::User(UserCommand::Add { db, username, name, admin }) => {
+        Command::User(UserCommand::Add {
+            db,
+            username,
+            name,
+            admin,
+        }) => {
             let pool = db::open(&db.db).await?;
             let mut password = String::new();
             std::io::stdin().lock().read_line(&mut password)?;
@@ -39,9 +44,18 @@ async fn main() -> anyhow::Result<()> {
             let u = accounts::create_user(&pool, &input, false, &Actor::system("cli"))
                 .await
                 .map_err(|e| anyhow::anyhow!("{}: {}", e.field(), e.user_message()))?;
-            println!("user {} created{}", u.username, if u.is_admin { " (administrator)" } else { "" });
+            println!(
+                "user {} created{}",
+                u.username,
+                if u.is_admin { " (administrator)" } else { "" }
+            );
         }
-        Command::User(UserCommand::Grant { db, username, project, role }) => {
+        Command::User(UserCommand::Grant {
+            db,
+            username,
+            project,
+            role,
+        }) => {
             let pool = db::open(&db.db).await?;
             let p = db::projects::get_by_code(&pool, &project.to_ascii_uppercase())
                 .await?
@@ -77,17 +91,22 @@ async fn main() -> anyhow::Result<()> {
                 .await
                 .map_err(|e| anyhow::anyhow!("creating the first admin: {}", e.user_message()))?
             {
-                println!("new database: sign in as 'admin' with password {password} (shown once; change it)");
+                println!(
+                    "new database: sign in as 'admin' with password {password} (shown once; change it)"
+                );
             }
             let listener = tokio::net::TcpListener::bind(a.addr)
                 .await
                 .with_context(|| format!("binding {}", a.addr))?;
             let addr = listener.local_addr()?;
             println!("liftledger is serving {} at http://{addr}/", path.display());
-            let state = AppState::new(pool.clone(), Settings {
+            let state = AppState::new(
+                pool.clone(),
+                Settings {
                     demo: a.demo,
                     secure_cookies: a.secure_cookies,
-                });
+                },
+            );
             liftledger::serve(listener, state, shutdown_signal()).await?;
             pool.close().await;
             println!("liftledger stopped");

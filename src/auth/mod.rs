@@ -26,7 +26,12 @@ pub enum Role {
 
 impl Role {
     /// Every role, for forms and tests.
-    pub const ALL: [Role; 4] = [Role::Technician, Role::QcManager, Role::ClientEngineer, Role::Viewer];
+    pub const ALL: [Role; 4] = [
+        Role::Technician,
+        Role::QcManager,
+        Role::ClientEngineer,
+        Role::Viewer,
+    ];
 
     /// Stored code.
     pub fn code(self) -> &'static str {

@@ -15,7 +15,11 @@ pub fn hash(password: &str) -> anyhow::Result<String> {
 /// True when `password` matches the stored PHC string.
 pub fn verify(password: &str, stored: &str) -> bool {
     PasswordHash::new(stored)
-        .map(|h| Argon2::default().verify_password(password.as_bytes(), &h).is_ok())
+        .map(|h| {
+            Argon2::default()
+                .verify_password(password.as_bytes(), &h)
+                .is_ok()
+        })
         .unwrap_or(false)
 }
 

@@ -8,9 +8,9 @@
 use serde::Serialize;
 use sqlx::SqliteConnection;
 
+use super::Pool;
 use super::Tx;
 use super::field_tests::FieldTest;
-use super::Pool;
 
 /// Columns of `field_tests` in the order of [`FieldTest`].
 const TEST_COLUMNS: &str = "id, project_id, lot_id, number, tested_at, technician, method, instrument_serial, chainage_m,
@@ -71,6 +71,16 @@ pub async fn tests_by_numbers(
     Ok(out)
 }
 
+/// Smallest and largest id of a project's tests (None when it has none).
+pub async fn test_id_range(pool: &Pool, project_id: i64) -> sqlx::Result<Option<(i64, i64)>> {
+    let r: (Option<i64>, Option<i64>) =
+        sqlx::query_as("SELECT MIN(id), MAX(id) FROM field_tests WHERE project_id = ?")
+            .bind(project_id)
+            .fetch_one(pool)
+            .await?;
+    Ok(r.0.zip(r.1))
+}
+
 /// Number of the live (not void) retest of a test, if it has one.
 pub async fn live_retest_number(
     conn: &mut SqliteConnection,
@@ -94,7 +104,10 @@ fn insert_sql(rows: usize) -> String {
 ///
 /// Statements are prepared once per connection and reused (sqlx caches them by text),
 /// so a long import pays for two statement shapes at most.
-pub async fn insert_field_tests(conn: &mut SqliteConnection, rows: &[FieldTest]) -> sqlx::Result<()> {
+pub async fn insert_field_tests(
+    conn: &mut SqliteConnection,
+    rows: &[FieldTest],
+) -> sqlx::Result<()> {
     for part in rows.chunks(INSERT_ROWS) {
         let sql = insert_sql(part.len());
         let mut q = sqlx::query(sqlx::AssertSqlSafe(sql));
@@ -133,7 +146,7 @@ pub async fn insert_field_tests(conn: &mut SqliteConnection, rows: &[FieldTest])
     Ok(())
 }
 
-/// One audit row to append in bulk (the same columns [`audit::record`] writes).
+/// One audit row to append in bulk (the columns `audit::record` writes).
 #[derive(Debug, Clone)]
 pub struct AuditRow {
     pub at: String,

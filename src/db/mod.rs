@@ -5,6 +5,7 @@
 //! engine can be added behind the same functions.
 
 pub mod audit;
+pub mod bulk;
 pub mod certificates;
 pub mod clauses;
 pub mod field_tests;

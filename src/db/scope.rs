@@ -4,38 +4,58 @@ use super::Pool;
 
 /// The project of a lot.
 pub async fn project_of_lot(pool: &Pool, id: i64) -> sqlx::Result<Option<i64>> {
-    sqlx::query_scalar("SELECT project_id FROM lots WHERE id = ?").bind(id).fetch_optional(pool).await
-}
-
-/// The project of a field test.
-pub async fn project_of_test(pool: &Pool, id: i64) -> sqlx::Result<Option<i64>> {
-    sqlx::query_scalar("SELECT project_id FROM field_tests WHERE id = ?").bind(id).fetch_optional(pool).await
-}
-
-/// The project of a borrow source.
-pub async fn project_of_source(pool: &Pool, id: i64) -> sqlx::Result<Option<i64>> {
-    sqlx::query_scalar("SELECT project_id FROM sources WHERE id = ?").bind(id).fetch_optional(pool).await
-}
-
-/// The project of a lab test.
-pub async fn project_of_lab_test(pool: &Pool, id: i64) -> sqlx::Result<Option<i64>> {
-    sqlx::query_scalar("SELECT s.project_id FROM lab_tests t JOIN sources s ON s.id = t.source_id WHERE t.id = ?")
+    sqlx::query_scalar("SELECT project_id FROM lots WHERE id = ?")
         .bind(id)
         .fetch_optional(pool)
         .await
 }
 
+/// The project of a field test.
+pub async fn project_of_test(pool: &Pool, id: i64) -> sqlx::Result<Option<i64>> {
+    sqlx::query_scalar("SELECT project_id FROM field_tests WHERE id = ?")
+        .bind(id)
+        .fetch_optional(pool)
+        .await
+}
+
+/// The project of a borrow source.
+pub async fn project_of_source(pool: &Pool, id: i64) -> sqlx::Result<Option<i64>> {
+    sqlx::query_scalar("SELECT project_id FROM sources WHERE id = ?")
+        .bind(id)
+        .fetch_optional(pool)
+        .await
+}
+
+/// The project of a lab test.
+pub async fn project_of_lab_test(pool: &Pool, id: i64) -> sqlx::Result<Option<i64>> {
+    sqlx::query_scalar(
+        "SELECT s.project_id FROM lab_tests t JOIN sources s ON s.id = t.source_id WHERE t.id = ?",
+    )
+    .bind(id)
+    .fetch_optional(pool)
+    .await
+}
+
 /// The project of a certificate.
 pub async fn project_of_certificate(pool: &Pool, id: i64) -> sqlx::Result<Option<i64>> {
-    sqlx::query_scalar("SELECT project_id FROM certificates WHERE id = ?").bind(id).fetch_optional(pool).await
+    sqlx::query_scalar("SELECT project_id FROM certificates WHERE id = ?")
+        .bind(id)
+        .fetch_optional(pool)
+        .await
 }
 
 /// Whether a project exists.
 pub async fn project_exists(pool: &Pool, id: i64) -> sqlx::Result<Option<i64>> {
-    sqlx::query_scalar("SELECT id FROM projects WHERE id = ?").bind(id).fetch_optional(pool).await
+    sqlx::query_scalar("SELECT id FROM projects WHERE id = ?")
+        .bind(id)
+        .fetch_optional(pool)
+        .await
 }
 
 /// The project of an API token.
 pub async fn project_of_token(pool: &Pool, id: i64) -> sqlx::Result<Option<i64>> {
-    sqlx::query_scalar("SELECT project_id FROM api_tokens WHERE id = ?").bind(id).fetch_optional(pool).await
+    sqlx::query_scalar("SELECT project_id FROM api_tokens WHERE id = ?")
+        .bind(id)
+        .fetch_optional(pool)
+        .await
 }

@@ -62,7 +62,9 @@ pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<User>> {
 
 /// How many users exist (zero on a new database).
 pub async fn count(pool: &Pool) -> sqlx::Result<i64> {
-    sqlx::query_scalar("SELECT COUNT(*) FROM users").fetch_one(pool).await
+    sqlx::query_scalar("SELECT COUNT(*) FROM users")
+        .fetch_one(pool)
+        .await
 }
 
 /// Every user, by name.
@@ -73,7 +75,13 @@ pub async fn list(pool: &Pool) -> sqlx::Result<Vec<User>> {
 }
 
 /// Grants (or changes) a user's role in a project.
-pub async fn grant(tx: &mut Tx<'_>, user_id: i64, project_id: i64, role: &str, now: &str) -> sqlx::Result<()> {
+pub async fn grant(
+    tx: &mut Tx<'_>,
+    user_id: i64,
+    project_id: i64,
+    role: &str,
+    now: &str,
+) -> sqlx::Result<()> {
     sqlx::query(
         "INSERT INTO memberships (user_id, project_id, role, created_at) VALUES (?, ?, ?, ?)
          ON CONFLICT (user_id, project_id) DO UPDATE SET role = excluded.role",
@@ -125,7 +133,12 @@ pub struct Session {
 }
 
 /// Starts a session.
-pub async fn start_session(tx: &mut Tx<'_>, token_hash: &str, user_id: i64, now: &str) -> sqlx::Result<i64> {
+pub async fn start_session(
+    tx: &mut Tx<'_>,
+    token_hash: &str,
+    user_id: i64,
+    now: &str,
+) -> sqlx::Result<i64> {
     sqlx::query_scalar(
         "INSERT INTO sessions (token_hash, user_id, created_at, last_seen_at) VALUES (?, ?, ?, ?) RETURNING id",
     )
@@ -180,8 +193,7 @@ pub struct ApiToken {
     pub revoked_at: Option<String>,
 }
 
-const TOKEN: &str =
-    "SELECT id, project_id, role, name, created_by, created_at, last_used_at, revoked_at FROM api_tokens";
+const TOKEN: &str = "SELECT id, project_id, role, name, created_by, created_at, last_used_at, revoked_at FROM api_tokens";
 
 /// Stores a new token's hash.
 pub async fn insert_token(
@@ -227,10 +239,12 @@ pub async fn token(pool: &Pool, id: i64) -> sqlx::Result<Option<ApiToken>> {
 
 /// Tokens of a project.
 pub async fn tokens(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<ApiToken>> {
-    sqlx::query_as::<_, ApiToken>(sqlx::AssertSqlSafe(format!("{TOKEN} WHERE project_id = ? ORDER BY id")))
-        .bind(project_id)
-        .fetch_all(pool)
-        .await
+    sqlx::query_as::<_, ApiToken>(sqlx::AssertSqlSafe(format!(
+        "{TOKEN} WHERE project_id = ? ORDER BY id"
+    )))
+    .bind(project_id)
+    .fetch_all(pool)
+    .await
 }
 
 /// Records a token's use.
@@ -245,11 +259,12 @@ pub async fn touch_token(pool: &Pool, id: i64, now: &str) -> sqlx::Result<()> {
 
 /// Revokes a token; false when it was already revoked.
 pub async fn revoke_token(tx: &mut Tx<'_>, id: i64, now: &str) -> sqlx::Result<bool> {
-    let done = sqlx::query("UPDATE api_tokens SET revoked_at = ? WHERE id = ? AND revoked_at IS NULL")
-        .bind(now)
-        .bind(id)
-        .execute(&mut **tx)
-        .await?;
+    let done =
+        sqlx::query("UPDATE api_tokens SET revoked_at = ? WHERE id = ? AND revoked_at IS NULL")
+            .bind(now)
+            .bind(id)
+            .execute(&mut **tx)
+            .await?;
     Ok(done.rows_affected() == 1)
 }
 
@@ -264,7 +279,11 @@ pub async fn record_failure(pool: &Pool, key: &str, now: &str) -> sqlx::Result<(
 }
 
 /// Failures under a key since a time, and the latest of them.
-pub async fn failures_since(pool: &Pool, key: &str, since: &str) -> sqlx::Result<(i64, Option<String>)> {
+pub async fn failures_since(
+    pool: &Pool,
+    key: &str,
+    since: &str,
+) -> sqlx::Result<(i64, Option<String>)> {
     sqlx::query_as("SELECT COUNT(*), MAX(at) FROM sign_in_failures WHERE key = ? AND at >= ?")
         .bind(key)
         .bind(since)

@@ -92,13 +92,43 @@ impl Caller {
 pub async fn project_of(pool: &db::Pool, scope: Scope) -> Result<i64> {
     use db::scope as s;
     let (found, field, what, id) = match scope {
-        Scope::Project(id) => (s::project_exists(pool, id).await?, "project_id", "project", id),
+        Scope::Project(id) => (
+            s::project_exists(pool, id).await?,
+            "project_id",
+            "project",
+            id,
+        ),
         Scope::Lot(id) => (s::project_of_lot(pool, id).await?, "lot_id", "lot", id),
-        Scope::Test(id) => (s::project_of_test(pool, id).await?, "test_id", "field test", id),
-        Scope::Source(id) => (s::project_of_source(pool, id).await?, "source_id", "source", id),
-        Scope::LabTest(id) => (s::project_of_lab_test(pool, id).await?, "lab_test_id", "lab test", id),
-        Scope::Certificate(id) => (s::project_of_certificate(pool, id).await?, "certificate_id", "certificate", id),
-        Scope::Token(id) => (s::project_of_token(pool, id).await?, "token_id", "token", id),
+        Scope::Test(id) => (
+            s::project_of_test(pool, id).await?,
+            "test_id",
+            "field test",
+            id,
+        ),
+        Scope::Source(id) => (
+            s::project_of_source(pool, id).await?,
+            "source_id",
+            "source",
+            id,
+        ),
+        Scope::LabTest(id) => (
+            s::project_of_lab_test(pool, id).await?,
+            "lab_test_id",
+            "lab test",
+            id,
+        ),
+        Scope::Certificate(id) => (
+            s::project_of_certificate(pool, id).await?,
+            "certificate_id",
+            "certificate",
+            id,
+        ),
+        Scope::Token(id) => (
+            s::project_of_token(pool, id).await?,
+            "token_id",
+            "token",
+            id,
+        ),
     };
     found.ok_or_else(|| AppError::not_found(field, format!("{what} {id} does not exist")))
 }
@@ -106,18 +136,30 @@ pub async fn project_of(pool: &db::Pool, scope: Scope) -> Result<i64> {
 /// The check of every route: may this caller do `action` on the record `scope` names?
 ///
 /// A record the caller may not even read answers 404, so ids of other projects are not revealed.
-pub async fn require(pool: &db::Pool, caller: &Caller, scope: Scope, action: Action) -> Result<Actor> {
+pub async fn require(
+    pool: &db::Pool,
+    caller: &Caller,
+    scope: Scope,
+    action: Action,
+) -> Result<Actor> {
     let project_id = project_of(pool, scope).await?;
     let role = caller.role_in(pool, project_id).await?;
     match role {
         Some(r) if allows(r, action) => Ok(caller.actor()),
-        Some(r) => Err(AppError::forbidden(format!("a {} may not {}", r.label(), action.label()))),
+        Some(r) => Err(AppError::forbidden(format!(
+            "a {} may not {}",
+            r.label(),
+            action.label()
+        ))),
         None if caller.is_admin() && action == Action::Read => Ok(caller.actor()),
         None if caller.is_admin() => Err(AppError::forbidden(format!(
             "an administrator manages projects and people but may not {} without a project role",
             action.label()
         ))),
-        None => Err(AppError::not_found("project_id", "no such record in your projects")),
+        None => Err(AppError::not_found(
+            "project_id",
+            "no such record in your projects",
+        )),
     }
 }
 
@@ -158,10 +200,14 @@ pub async fn identify(state: &AppState, parts: &Parts) -> Result<Option<Caller>>
     if let Some(auth) = parts.headers.get(axum::http::header::AUTHORIZATION) {
         let value = auth.to_str().unwrap_or("");
         let Some(token) = value.strip_prefix("Bearer ") else {
-            return Err(AppError::unauthorized("Authorization must be 'Bearer <token>'"));
+            return Err(AppError::unauthorized(
+                "Authorization must be 'Bearer <token>'",
+            ));
         };
         let Some(t) = users::token_by_hash(&state.db, &secret::digest(token.trim())).await? else {
-            return Err(AppError::unauthorized("the API token is unknown or revoked"));
+            return Err(AppError::unauthorized(
+                "the API token is unknown or revoked",
+            ));
         };
         users::touch_token(&state.db, t.id, &now).await?;
         return Ok(Some(Caller {
@@ -184,7 +230,10 @@ pub async fn identify(state: &AppState, parts: &Parts) -> Result<Option<Caller>>
         users::end_session(&state.db, session.id, &now).await?;
         return Ok(None);
     }
-    let Some(user) = users::get(&state.db, session.user_id).await?.filter(|u| u.disabled_at.is_none()) else {
+    let Some(user) = users::get(&state.db, session.user_id)
+        .await?
+        .filter(|u| u.disabled_at.is_none())
+    else {
         return Ok(None);
     };
     // Write at most once a minute per session.
@@ -199,12 +248,22 @@ pub async fn identify(state: &AppState, parts: &Parts) -> Result<Option<Caller>>
 }
 
 impl FromRequestParts<AppState> for Caller {
-    type Rejection = AppError;
+    /// API routes answer 401 JSON; pages send the browser to the sign-in page.
+    type Rejection = axum::response::Response;
 
-    async fn from_request_parts(parts: &mut Parts, state: &AppState) -> Result<Self, Self::Rejection> {
-        identify(state, parts)
-            .await?
-            .ok_or_else(|| AppError::unauthorized("sign in first, or send an API token"))
+    async fn from_request_parts(
+        parts: &mut Parts,
+        state: &AppState,
+    ) -> Result<Self, Self::Rejection> {
+        use axum::response::IntoResponse;
+        let found = identify(state, parts).await.and_then(|c| {
+            c.ok_or_else(|| AppError::unauthorized("sign in first, or send an API token"))
+        });
+        match found {
+            Ok(c) => Ok(c),
+            Err(e) if parts.uri.path().starts_with("/api/") => Err(e.into_response()),
+            Err(e) => Err(crate::http::pages::PageError(e).into_response()),
+        }
     }
 }
 
@@ -214,7 +273,10 @@ pub struct MaybeCaller(pub Option<Caller>);
 impl FromRequestParts<AppState> for MaybeCaller {
     type Rejection = AppError;
 
-    async fn from_request_parts(parts: &mut Parts, state: &AppState) -> Result<Self, Self::Rejection> {
+    async fn from_request_parts(
+        parts: &mut Parts,
+        state: &AppState,
+    ) -> Result<Self, Self::Rejection> {
         Ok(MaybeCaller(identify(state, parts).await.unwrap_or(None)))
     }
 }

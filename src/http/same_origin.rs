@@ -29,11 +29,17 @@ pub async fn check(req: Request, next: Next) -> Response {
         .get_all(header::COOKIE)
         .iter()
         .filter_map(|v| v.to_str().ok())
-        .any(|v| v.split(';').any(|kv| kv.trim().starts_with(&format!("{SESSION_COOKIE}="))));
+        .any(|v| {
+            v.split(';')
+                .any(|kv| kv.trim().starts_with(&format!("{SESSION_COOKIE}=")))
+        });
     if safe || !has_session || h.contains_key(header::AUTHORIZATION) {
         return next.run(req).await;
     }
-    let host = h.get(header::HOST).and_then(|v| v.to_str().ok()).unwrap_or("");
+    let host = h
+        .get(header::HOST)
+        .and_then(|v| v.to_str().ok())
+        .unwrap_or("");
     let from = h
         .get(header::ORIGIN)
         .or_else(|| h.get(header::REFERER))
@@ -41,7 +47,10 @@ pub async fn check(req: Request, next: Next) -> Response {
         .and_then(authority);
     match from {
         Some(a) if !host.is_empty() && a.eq_ignore_ascii_case(host) => next.run(req).await,
-        _ => AppError::forbidden("cross-site request refused: the Origin or Referer must be this site").into_response(),
+        _ => AppError::forbidden(
+            "cross-site request refused: the Origin or Referer must be this site",
+        )
+        .into_response(),
     }
 }
 
@@ -52,7 +61,10 @@ mod tests {
     #[test]
     fn authority_takes_host_and_port() {
         assert_eq!(authority("http://127.0.0.1:8480"), Some("127.0.0.1:8480"));
-        assert_eq!(authority("https://site.example/lots/3?x=1"), Some("site.example"));
+        assert_eq!(
+            authority("https://site.example/lots/3?x=1"),
+            Some("site.example")
+        );
         assert_eq!(authority("null"), None);
     }
 }

@@ -21,13 +21,14 @@ pub struct UserInput {
     pub is_admin: bool,
 }
 
+/// Which record a change touched: (entity, id, project).
+type Target<'a> = (&'a str, i64, Option<i64>);
+
 async fn audit_change(
     tx: &mut db::Tx<'_>,
     actor: &Actor,
     action: &str,
-    entity: &str,
-    id: i64,
-    project_id: Option<i64>,
+    (entity, id, project_id): Target<'_>,
     after: serde_json::Value,
     now: &str,
 ) -> Result<()> {
@@ -50,32 +51,49 @@ async fn audit_change(
 }
 
 /// Creates a user with an argon2id password hash.
-pub async fn create_user(pool: &Pool, input: &UserInput, demo: bool, actor: &Actor) -> Result<users::User> {
+pub async fn create_user(
+    pool: &Pool,
+    input: &UserInput,
+    demo: bool,
+    actor: &Actor,
+) -> Result<users::User> {
     let username = text("username", &input.username, 40)?.to_ascii_lowercase();
-    if !username.chars().all(|c| c.is_ascii_alphanumeric() || "._-".contains(c)) {
-        return Err(AppError::invalid("username", "may only hold letters, digits and . _ -"));
+    if !username
+        .chars()
+        .all(|c| c.is_ascii_alphanumeric() || "._-".contains(c))
+    {
+        return Err(AppError::invalid(
+            "username",
+            "may only hold letters, digits and . _ -",
+        ));
     }
     let display = text("display_name", &input.display_name, 80)?;
     password::check_strength(&input.password).map_err(|m| AppError::invalid("password", m))?;
     let hash = password::hash(&input.password)?;
     let now = clock::now();
     let mut tx = db::begin_write(pool).await?;
-    let id = users::insert(&mut tx, &username, &display, &hash, input.is_admin, demo, &now)
-        .await
-        .map_err(|e| {
-            if db::is_unique_violation(&e) {
-                AppError::conflict("username", format!("user {username} already exists"), vec![])
-            } else {
-                e.into()
-            }
-        })?;
-    audit_change(
+    let id = users::insert(
         &mut tx,
-        actor,
-        "create",
-        "user",
-        id,
-        None,
+        &username,
+        &display,
+        &hash,
+        input.is_admin,
+        demo,
+        &now,
+    )
+    .await
+    .map_err(|e| {
+        if db::is_unique_violation(&e) {
+            AppError::conflict(
+                "username",
+                format!("user {username} already exists"),
+                vec![],
+            )
+        } else {
+            e.into()
+        }
+    })?;
+    audit_change(&mut tx, actor, "create", ("user", id, None),
         json!({"username": username, "display_name": display, "is_admin": input.is_admin, "is_demo": demo}),
         &now,
     )
@@ -87,9 +105,18 @@ pub async fn create_user(pool: &Pool, input: &UserInput, demo: bool, actor: &Act
 }
 
 /// Gives a user a role in a project (or changes it).
-pub async fn grant(pool: &Pool, username: &str, project_id: i64, role: &str, actor: &Actor) -> Result<()> {
+pub async fn grant(
+    pool: &Pool,
+    username: &str,
+    project_id: i64,
+    role: &str,
+    actor: &Actor,
+) -> Result<()> {
     let role = Role::parse_code(role).ok_or_else(|| {
-        AppError::invalid("role", "must be technician, qc_manager, client_engineer or viewer")
+        AppError::invalid(
+            "role",
+            "must be technician, qc_manager, client_engineer or viewer",
+        )
     })?;
     let user = users::by_username(pool, &username.trim().to_ascii_lowercase())
         .await?
@@ -102,9 +129,7 @@ pub async fn grant(pool: &Pool, username: &str, project_id: i64, role: &str, act
         &mut tx,
         actor,
         "grant",
-        "user",
-        user.id,
-        Some(project_id),
+        ("user", user.id, Some(project_id)),
         json!({"username": user.username, "project_id": project_id, "role": role.code()}),
         &now,
     )
@@ -126,7 +151,8 @@ fn minus_secs(now: &str, secs: i64) -> String {
 }
 
 async fn wait_for(pool: &Pool, key: &str, now: &str) -> Result<i64> {
-    let (n, last) = users::failures_since(pool, key, &minus_secs(now, throttle::WINDOW_SECS)).await?;
+    let (n, last) =
+        users::failures_since(pool, key, &minus_secs(now, throttle::WINDOW_SECS)).await?;
     let wait = throttle::wait_after(n);
     let Some(last) = last.and_then(|l| clock::parse(&l)) else {
         return Ok(0);
@@ -137,12 +163,19 @@ async fn wait_for(pool: &Pool, key: &str, now: &str) -> Result<i64> {
 }
 
 /// Checks a user name and password; slows repeated failures per user and per address.
-pub async fn sign_in(pool: &Pool, username: &str, password: &str, address: &str) -> Result<SignedIn> {
+pub async fn sign_in(
+    pool: &Pool,
+    username: &str,
+    password: &str,
+    address: &str,
+) -> Result<SignedIn> {
     let username = username.trim().to_ascii_lowercase();
     let now = clock::now();
     let user_key = format!("user:{username}");
     let addr_key = format!("addr:{address}");
-    let wait = wait_for(pool, &user_key, &now).await?.max(wait_for(pool, &addr_key, &now).await?);
+    let wait = wait_for(pool, &user_key, &now)
+        .await?
+        .max(wait_for(pool, &addr_key, &now).await?);
     if wait > 0 {
         return Err(AppError::TooManyRequests {
             message: format!("too many failed sign-ins; try again in {wait} s"),
@@ -154,7 +187,10 @@ pub async fn sign_in(pool: &Pool, username: &str, password: &str, address: &str)
         Some(u) if u.disabled_at.is_none() => password::verify(password, &u.password_hash),
         _ => {
             // Spend the same time as a real check so a missing name is not revealed by timing.
-            let _ = password::verify(password, "$argon2id$v=19$m=19456,t=2,p=1$c2FsdHNhbHQ$aGFzaGhhc2hoYXNoaGFzaA");
+            let _ = password::verify(
+                password,
+                "$argon2id$v=19$m=19456,t=2,p=1$c2FsdHNhbHQ$aGFzaGhhc2hoYXNoaGFzaA",
+            );
             false
         }
     };
@@ -225,20 +261,29 @@ pub async fn create_token(
 ) -> Result<(String, users::ApiToken)> {
     let name = text("name", &input.name, 80)?;
     let role = Role::parse_code(&input.role).ok_or_else(|| {
-        AppError::invalid("role", "must be technician, qc_manager, client_engineer or viewer")
+        AppError::invalid(
+            "role",
+            "must be technician, qc_manager, client_engineer or viewer",
+        )
     })?;
     let secret = secret::new("llt_")?;
     let now = clock::now();
     let mut tx = db::begin_write(pool).await?;
-    let id = users::insert_token(&mut tx, project_id, role.code(), &name, &secret::digest(&secret), &actor.name, &now)
-        .await?;
+    let id = users::insert_token(
+        &mut tx,
+        project_id,
+        role.code(),
+        &name,
+        &secret::digest(&secret),
+        &actor.name,
+        &now,
+    )
+    .await?;
     audit_change(
         &mut tx,
         actor,
         "create",
-        "api_token",
-        id,
-        Some(project_id),
+        ("api_token", id, Some(project_id)),
         json!({"name": name, "role": role.code()}),
         &now,
     )
@@ -258,9 +303,21 @@ pub async fn revoke_token(pool: &Pool, id: i64, actor: &Actor) -> Result<users::
     let now = clock::now();
     let mut tx = db::begin_write(pool).await?;
     if !users::revoke_token(&mut tx, id, &now).await? {
-        return Err(AppError::conflict("token_id", format!("token {} is already revoked", t.name), vec![]));
+        return Err(AppError::conflict(
+            "token_id",
+            format!("token {} is already revoked", t.name),
+            vec![],
+        ));
     }
-    audit_change(&mut tx, actor, "revoke", "api_token", id, Some(t.project_id), json!({"name": t.name}), &now).await?;
+    audit_change(
+        &mut tx,
+        actor,
+        "revoke",
+        ("api_token", id, Some(t.project_id)),
+        json!({"name": t.name}),
+        &now,
+    )
+    .await?;
     tx.commit().await?;
     users::token(pool, id)
         .await?
@@ -293,6 +350,11 @@ pub const DEMO_USERS: [(&str, &str, &str, &str); 5] = [
     ("admin", "Site Administrator", "admin", "demo-admin-pass"),
     ("achterberg", "D. Achterberg", "qc_manager", "demo-qc-pass"),
     ("okafor", "R. Okafor", "technician", "demo-tech-pass"),
-    ("ferreira", "L. Ferreira", "client_engineer", "demo-engineer-pass"),
+    (
+        "ferreira",
+        "L. Ferreira",
+        "client_engineer",
+        "demo-engineer-pass",
+    ),
     ("ng", "V. Ng", "viewer", "demo-viewer-pass"),
 ];

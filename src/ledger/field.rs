@@ -85,7 +85,11 @@ impl LotContext {
     }
 
     /// The reference a test with this coarse fraction is judged against (ASTM D4718 when coarse).
-    pub fn reference_for(&self, coarse_pct: Option<f64>, coarse_w_pct: Option<f64>) -> Result<Reference> {
+    pub fn reference_for(
+        &self,
+        coarse_pct: Option<f64>,
+        coarse_w_pct: Option<f64>,
+    ) -> Result<Reference> {
         let Some(coarse) = coarse_pct.filter(|c| *c > 0.0) else {
             return Ok(self.reference);
         };
@@ -135,13 +139,7 @@ pub async fn check(
     actor: &Actor,
 ) -> Result<CheckedTest> {
     let ctx = LotContext::load(pool, lot).await?;
-    let mut checked = check_loaded(
-        &ctx,
-        input,
-        retest_of.map(Spot::of),
-        actor,
-        &clock::now(),
-    )?;
+    let mut checked = check_loaded(&ctx, input, retest_of.map(Spot::of), actor, &clock::now())?;
     checked.record.retest_of = retest_of.map(|t| t.id);
     Ok(checked)
 }

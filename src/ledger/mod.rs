@@ -8,6 +8,7 @@
 pub mod accounts;
 pub mod certificate_doc;
 pub mod field;
+pub mod import;
 pub mod lot_report;
 pub mod overview;
 pub mod review;

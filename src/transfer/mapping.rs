@@ -231,10 +231,7 @@ impl ImportMapping {
     /// A mapping from (column, target) pairs with default format (SI, km+m, auto separator).
     pub fn new<'a>(pairs: impl IntoIterator<Item = (&'a str, Target)>) -> Self {
         Self {
-            columns: pairs
-                .into_iter()
-                .map(|(c, t)| (c.to_string(), t))
-                .collect(),
+            columns: pairs.into_iter().map(|(c, t)| (c.to_string(), t)).collect(),
             method: None,
             units: default_units(),
             chainage: default_chainage(),
@@ -399,7 +396,9 @@ mod tests {
         let p = m.problems();
         assert!(p.iter().any(|p| p.contains("tested_at")), "{p:?}");
         assert!(!p.iter().any(|p| p.contains("method")), "{p:?}");
-        assert!(serde_json::from_str::<ImportMapping>(r#"{"columns": {"a": "nonsense"}}"#).is_err());
+        assert!(
+            serde_json::from_str::<ImportMapping>(r#"{"columns": {"a": "nonsense"}}"#).is_err()
+        );
     }
 
     #[test]

@@ -171,7 +171,7 @@ async fn full_flow_reaches_a_verdict_that_follows_the_tests() {
         .map(|h| h["action"].clone())
         .collect();
     assert_eq!(actions, vec![json!("create"), json!("void")]);
-    assert_eq!(hist[1]["actor"], "test-runner");
+    assert_eq!(hist[1]["actor"], "T. Quality (t.qc)");
 }
 
 #[tokio::test]

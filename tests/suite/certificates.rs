@@ -107,7 +107,8 @@ async fn accepting_issues_a_certificate_that_reads_back_and_reissues_as_revision
             i + 1
         );
     }
-    assert!(all.contains("test-runner"), "who accepted");
+    assert!(all.contains("T. Engineer (t.engineer)"), "who accepted");
+    assert!(all.contains("T. Quality (t.qc)"), "who submitted");
 
     // Verify by code, by hash and by the PDF itself.
     for body in [

@@ -7,10 +7,50 @@ use liftledger::{AppState, Settings, db};
 use serde_json::{Value, json};
 use tokio::sync::oneshot;
 
+/// The people every test server knows, one per role (plus an admin).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum As {
+    Admin,
+    Qc,
+    Tech,
+    Engineer,
+    Viewer,
+}
+
+impl As {
+    /// Every signed-in persona.
+    pub const ALL: [As; 5] = [As::Admin, As::Qc, As::Tech, As::Engineer, As::Viewer];
+
+    /// (username, display name, project role or "admin").
+    pub fn account(self) -> (&'static str, &'static str, &'static str) {
+        match self {
+            As::Admin => ("t.admin", "T. Admin", "admin"),
+            As::Qc => ("t.qc", "T. Quality", "qc_manager"),
+            As::Tech => ("t.tech", "T. Technician", "technician"),
+            As::Engineer => ("t.engineer", "T. Engineer", "client_engineer"),
+            As::Viewer => ("t.viewer", "T. Viewer", "viewer"),
+        }
+    }
+}
+
+/// The password of every test user.
+pub const TEST_PASSWORD: &str = "test-password-123";
+
+/// One argon2id hash of the test password, computed once per test process.
+fn test_password_hash() -> &'static str {
+    static HASH: std::sync::OnceLock<String> = std::sync::OnceLock::new();
+    HASH.get_or_init(|| liftledger::auth::password::hash(TEST_PASSWORD).expect("hash"))
+}
+
 /// A running server and what a test needs to talk to it.
 pub struct TestApp {
     pub addr: SocketAddr,
+    /// Signed in as the QC manager (member of every project made through `post`).
     pub client: reqwest::Client,
+    /// One signed-in client per persona.
+    pub clients: Vec<(As, reqwest::Client)>,
+    /// A client with no session at all.
+    pub anonymous: reqwest::Client,
     pub pool: db::Pool,
     pub db_path: PathBuf,
     _dir: std::sync::Arc<tempfile::TempDir>,
@@ -24,10 +64,25 @@ impl TestApp {
         format!("http://{}{}", self.addr, path)
     }
 
-    /// GET a path and return (status, JSON body).
+    /// The client of a persona.
+    pub fn client_as(&self, who: As) -> &reqwest::Client {
+        &self
+            .clients
+            .iter()
+            .find(|(w, _)| *w == who)
+            .expect("persona")
+            .1
+    }
+
+    /// GET a path as the QC manager and return (status, JSON body).
     pub async fn get(&self, path: &str) -> (u16, Value) {
+        self.get_as(As::Qc, path).await
+    }
+
+    /// GET a path as a persona.
+    pub async fn get_as(&self, who: As, path: &str) -> (u16, Value) {
         let r = self
-            .client
+            .client_as(who)
             .get(self.url(path))
             .send()
             .await
@@ -36,18 +91,57 @@ impl TestApp {
         (status, r.json().await.unwrap_or(Value::Null))
     }
 
-    /// POST JSON to a path and return (status, JSON body).
+    /// POST JSON as whoever the route is meant for: the admin creates projects, the
+    /// client engineer accepts and rejects, the QC manager does the rest.
     pub async fn post(&self, path: &str, body: &Value) -> (u16, Value) {
+        let who = if path == "/api/v1/projects" {
+            As::Admin
+        } else if path.ends_with("/accept") || path.ends_with("/reject") {
+            As::Engineer
+        } else {
+            As::Qc
+        };
+        let (s, v) = self.post_as(who, path, body).await;
+        if who == As::Admin
+            && s == 201
+            && let Some(id) = v["id"].as_i64()
+        {
+            self.grant_all(id).await;
+        }
+        (s, v)
+    }
+
+    /// POST JSON as a persona.
+    pub async fn post_as(&self, who: As, path: &str, body: &Value) -> (u16, Value) {
         let r = self
-            .client
+            .client_as(who)
             .post(self.url(path))
-            .header("x-liftledger-user", "test-runner")
             .json(body)
             .send()
             .await
             .expect("POST failed");
         let status = r.status().as_u16();
         (status, r.json().await.unwrap_or(Value::Null))
+    }
+
+    /// Gives every persona its role in a project.
+    pub async fn grant_all(&self, project_id: i64) {
+        let now = liftledger::clock::now();
+        let mut tx = db::begin_write(&self.pool).await.expect("tx");
+        for who in As::ALL {
+            let (username, _, role) = who.account();
+            if role == "admin" {
+                continue;
+            }
+            let user = db::users::by_username(&self.pool, username)
+                .await
+                .unwrap()
+                .unwrap();
+            db::users::grant(&mut tx, user.id, project_id, role, &now)
+                .await
+                .expect("grant");
+        }
+        tx.commit().await.expect("commit");
     }
 
     /// POST raw bytes with a content type.
@@ -127,7 +221,13 @@ pub async fn spawn_on(dir: std::sync::Arc<tempfile::TempDir>, path: PathBuf) -> 
         .await
         .expect("bind");
     let addr = listener.local_addr().expect("addr");
-    let state = AppState::new(pool.clone(), Settings { demo: false });
+    let state = AppState::new(
+        pool.clone(),
+        Settings {
+            demo: false,
+            secure_cookies: false,
+        },
+    );
     let (tx, rx) = oneshot::channel::<()>();
     let handle = tokio::spawn(async move {
         liftledger::serve(listener, state, async {
@@ -136,9 +236,22 @@ pub async fn spawn_on(dir: std::sync::Arc<tempfile::TempDir>, path: PathBuf) -> 
         .await
         .expect("server failed");
     });
+    let origin = format!("http://{addr}");
+    let mut clients = Vec::new();
+    for who in As::ALL {
+        let secret = signed_in_session(&pool, who).await;
+        clients.push((who, client_with(&origin, Some(&secret))));
+    }
     TestApp {
         addr,
-        client: reqwest::Client::new(),
+        client: clients
+            .iter()
+            .find(|(w, _)| *w == As::Qc)
+            .unwrap()
+            .1
+            .clone(),
+        clients,
+        anonymous: client_with(&origin, None),
         pool,
         db_path: path,
         _dir: dir,
@@ -250,7 +363,9 @@ pub async fn spawn_demo() -> TestApp {
         liftledger::demo::load(&pool).await.expect("demo loads");
         pool.close().await;
     }
-    spawn_on(dir, path).await
+    let app = spawn_on(dir, path).await;
+    app.grant_all(1).await;
+    app
 }
 
 /// GET a page and return (status, body text).
@@ -286,4 +401,64 @@ pub fn pdf_pages(bytes: &[u8]) -> Vec<String> {
         .keys()
         .map(|p| doc.extract_text(&[*p]).expect("page text"))
         .collect()
+}
+
+/// Makes sure a persona's user exists and returns the secret of a fresh session for it,
+/// as a successful sign-in would (sign-in itself is tested through the form).
+async fn signed_in_session(pool: &db::Pool, who: As) -> String {
+    let (username, display, role) = who.account();
+    let now = liftledger::clock::now();
+    let user = match db::users::by_username(pool, username).await.unwrap() {
+        Some(u) => u,
+        None => {
+            let mut tx = db::begin_write(pool).await.unwrap();
+            db::users::insert(
+                &mut tx,
+                username,
+                display,
+                test_password_hash(),
+                role == "admin",
+                false,
+                &now,
+            )
+            .await
+            .unwrap();
+            tx.commit().await.unwrap();
+            db::users::by_username(pool, username)
+                .await
+                .unwrap()
+                .unwrap()
+        }
+    };
+    let secret = liftledger::auth::secret::new("lls_").unwrap();
+    let mut tx = db::begin_write(pool).await.unwrap();
+    db::users::start_session(
+        &mut tx,
+        &liftledger::auth::secret::digest(&secret),
+        user.id,
+        &now,
+    )
+    .await
+    .unwrap();
+    tx.commit().await.unwrap();
+    secret
+}
+
+/// A client that sends this site's Origin and, when given, a session cookie.
+pub fn client_with(origin: &str, session: Option<&str>) -> reqwest::Client {
+    let mut headers = reqwest::header::HeaderMap::new();
+    headers.insert("origin", origin.parse().unwrap());
+    if let Some(s) = session {
+        headers.insert(
+            "cookie",
+            format!("{}={s}", liftledger::http::caller::SESSION_COOKIE)
+                .parse()
+                .unwrap(),
+        );
+    }
+    reqwest::Client::builder()
+        .default_headers(headers)
+        .redirect(reqwest::redirect::Policy::none())
+        .build()
+        .unwrap()
 }

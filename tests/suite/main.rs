@@ -2,6 +2,7 @@
 
 mod helpers;
 
+mod access;
 mod api_flow;
 mod bad_input;
 mod calculators;

@@ -15,7 +15,11 @@ fn registered_api_routes() -> BTreeSet<String> {
         if path.ends_with("openapi.rs") || path.ends_with("mod.rs") {
             continue;
         }
-        assert!(text.contains(".route("), "{} registers no routes", path.display());
+        assert!(
+            text.contains(".route("),
+            "{} registers no routes",
+            path.display()
+        );
         for part in text.split("\"/api/v1/").skip(1) {
             out.insert(format!("/api/v1/{}", part.split('"').next().unwrap()));
         }

@@ -308,11 +308,8 @@ async fn site_entry_without_javascript_previews_then_saves() {
         .unwrap();
     assert!(err.contains("not a number"), "inline error: {err}");
 
-    let client = reqwest::Client::builder()
-        .redirect(reqwest::redirect::Policy::none())
-        .build()
-        .unwrap();
-    let r = client
+    let r = app
+        .client
         .post(app.url(&format!("/lots/{id}/entry")))
         .form(&form("save", wet))
         .send()

@@ -20,8 +20,14 @@ pub fn router() -> Router<AppState> {
     Router::new()
         .route("/api/v1/me", get(me))
         .route("/api/v1/users", get(list_users).post(create_user))
-        .route("/api/v1/projects/{id}/members", get(list_members).post(grant))
-        .route("/api/v1/projects/{id}/tokens", get(list_tokens).post(create_token))
+        .route(
+            "/api/v1/projects/{id}/members",
+            get(list_members).post(grant),
+        )
+        .route(
+            "/api/v1/projects/{id}/tokens",
+            get(list_tokens).post(create_token),
+        )
         .route("/api/v1/tokens/{id}/revoke", post(revoke_token))
 }
 
@@ -44,10 +50,17 @@ async fn create_user(
     ApiJson(input): ApiJson<UserInput>,
 ) -> Result<(StatusCode, Json<users::User>)> {
     let actor = require_admin(&caller)?;
-    Ok((StatusCode::CREATED, Json(accounts::create_user(&s.db, &input, false, &actor).await?)))
+    Ok((
+        StatusCode::CREATED,
+        Json(accounts::create_user(&s.db, &input, false, &actor).await?),
+    ))
 }
 
-async fn list_members(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> Result<Json<Value>> {
+async fn list_members(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+) -> Result<Json<Value>> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
     let members: Vec<Value> = users::members(&s.db, id)
         .await?
@@ -74,11 +87,17 @@ async fn grant(
     let actor = require_admin(&caller)?;
     project_of(&s.db, Scope::Project(id)).await?;
     accounts::grant(&s.db, &input.username, id, &input.role, &actor).await?;
-    Ok(Json(json!({"username": input.username, "project_id": id, "role": input.role})))
+    Ok(Json(
+        json!({"username": input.username, "project_id": id, "role": input.role}),
+    ))
 }
 
 /// Admins manage any project's tokens; QC managers their own project's.
-async fn token_manager(s: &AppState, caller: &Caller, scope: Scope) -> Result<crate::ledger::Actor> {
+async fn token_manager(
+    s: &AppState,
+    caller: &Caller,
+    scope: Scope,
+) -> Result<crate::ledger::Actor> {
     if caller.is_admin() {
         project_of(&s.db, scope).await?;
         return Ok(caller.actor());
@@ -108,11 +127,17 @@ async fn create_token(
     let (secret, token) = accounts::create_token(&s.db, id, &input, &actor).await?;
     Ok((
         StatusCode::CREATED,
-        Json(json!({"token": secret, "details": token, "note": "shown once; only its hash is stored"})),
+        Json(
+            json!({"token": secret, "details": token, "note": "shown once; only its hash is stored"}),
+        ),
     ))
 }
 
-async fn revoke_token(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> Result<Json<users::ApiToken>> {
+async fn revoke_token(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+) -> Result<Json<users::ApiToken>> {
     let actor = token_manager(&s, &caller, Scope::Token(id)).await?;
     Ok(Json(accounts::revoke_token(&s.db, id, &actor).await?))
 }

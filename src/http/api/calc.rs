@@ -78,7 +78,10 @@ struct FieldDensityInput {
     optimum_water_content_pct: Option<f64>,
 }
 
-async fn field_density(_caller: Caller, ApiJson(input): ApiJson<FieldDensityInput>) -> Result<Json<Value>> {
+async fn field_density(
+    _caller: Caller,
+    ApiJson(input): ApiJson<FieldDensityInput>,
+) -> Result<Json<Value>> {
     let d =
         reduce_field(&input.readings).map_err(|e| AppError::invalid(e.field(), e.to_string()))?;
     let mut out = json!({

@@ -10,9 +10,9 @@ use serde_json::{Value, json};
 
 use crate::app::AppState;
 use crate::auth::Action;
-use crate::http::caller::{Caller, Scope, require};
 use crate::db;
 use crate::error::{AppError, Result};
+use crate::http::caller::{Caller, Scope, require};
 use crate::http::extract::ApiJson;
 use crate::ledger::{self, verify};
 
@@ -36,8 +36,11 @@ async fn list(
     Ok(Json(db::certificates::for_project(&s.db, id).await?))
 }
 
-async fn get_one(State(s): State<AppState>,
-    caller: Caller, Path(id): Path<i64>) -> Result<Json<Value>> {
+async fn get_one(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+) -> Result<Json<Value>> {
     require(&s.db, &caller, Scope::Certificate(id), Action::Read).await?;
 
     let c = verify::require_certificate(&s.db, id).await?;
@@ -46,8 +49,11 @@ async fn get_one(State(s): State<AppState>,
     ))
 }
 
-async fn pdf(State(s): State<AppState>,
-    caller: Caller, Path(id): Path<i64>) -> Result<impl IntoResponse> {
+async fn pdf(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+) -> Result<impl IntoResponse> {
     require(&s.db, &caller, Scope::Certificate(id), Action::Read).await?;
 
     let c = verify::require_certificate(&s.db, id).await?;

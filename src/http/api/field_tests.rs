@@ -10,9 +10,9 @@ use serde_json::{Value, json};
 use super::Page;
 use crate::app::AppState;
 use crate::auth::Action;
-use crate::http::caller::{Caller, Scope, require};
 use crate::db;
 use crate::error::Result;
+use crate::http::caller::{Caller, Scope, require};
 use crate::http::extract::{ApiJson, ApiQuery};
 use crate::ledger::{self, field::FieldTestInput};
 
@@ -62,8 +62,11 @@ async fn with_line(s: &AppState, t: &db::field_tests::FieldTest) -> Result<Value
     ))
 }
 
-async fn list_for_lot(State(s): State<AppState>,
-    caller: Caller, Path(id): Path<i64>) -> Result<Json<Vec<Value>>> {
+async fn list_for_lot(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+) -> Result<Json<Vec<Value>>> {
     require(&s.db, &caller, Scope::Lot(id), Action::Read).await?;
 
     let report = ledger::lot_report::build(&s.db, id).await?;
@@ -153,8 +156,11 @@ async fn list_for_project(
     ))
 }
 
-async fn get_one(State(s): State<AppState>,
-    caller: Caller, Path(id): Path<i64>) -> Result<Json<Value>> {
+async fn get_one(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+) -> Result<Json<Value>> {
     require(&s.db, &caller, Scope::Test(id), Action::Read).await?;
 
     let t = ledger::field::require_test(&s.db, id).await?;

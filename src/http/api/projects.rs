@@ -10,9 +10,9 @@ use serde_json::{Value, json};
 use super::Page;
 use crate::app::AppState;
 use crate::auth::Action;
-use crate::http::caller::{Caller, Scope, require, require_admin};
 use crate::db;
 use crate::error::{AppError, Result};
+use crate::http::caller::{Caller, Scope, require, require_admin};
 use crate::http::extract::{ApiJson, ApiQuery};
 use crate::ledger::{self, setup};
 
@@ -52,7 +52,10 @@ pub fn router() -> Router<AppState> {
 
 type Created<T> = (StatusCode, Json<T>);
 
-async fn list_projects(State(s): State<AppState>, caller: Caller) -> Result<Json<Vec<db::projects::Project>>> {
+async fn list_projects(
+    State(s): State<AppState>,
+    caller: Caller,
+) -> Result<Json<Vec<db::projects::Project>>> {
     let all = db::projects::list(&s.db).await?;
     Ok(Json(match caller.visible_projects(&s.db).await? {
         None => all,
@@ -169,8 +172,11 @@ async fn create_lab_test(
     Ok((StatusCode::CREATED, Json(lab_test_json(&t))))
 }
 
-async fn get_lab_test(State(s): State<AppState>,
-    caller: Caller, Path(id): Path<i64>) -> Result<Json<Value>> {
+async fn get_lab_test(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+) -> Result<Json<Value>> {
     require(&s.db, &caller, Scope::LabTest(id), Action::Read).await?;
 
     let t = db::lab_tests::get(&s.db, id).await?.ok_or_else(|| {
@@ -288,8 +294,11 @@ async fn get_lot(
     Ok(Json(ledger::lot_report::build(&s.db, id).await?))
 }
 
-async fn lot_history(State(s): State<AppState>,
-    caller: Caller, Path(id): Path<i64>) -> Result<Json<Value>> {
+async fn lot_history(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+) -> Result<Json<Value>> {
     require(&s.db, &caller, Scope::Lot(id), Action::Read).await?;
 
     ledger::field::require_lot(&s.db, id).await?;

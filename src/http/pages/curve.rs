@@ -6,12 +6,12 @@ use axum::extract::{Path, State};
 use axum::routing::get;
 
 use super::{PageResult, ProjectNav, render};
-use crate::auth::Action;
-use crate::http::caller::{Caller, Scope, require};
 use crate::app::AppState;
+use crate::auth::Action;
 use crate::charts::{CurveChartInput, FieldMark, Series, curve_chart};
 use crate::db;
 use crate::error::AppError;
+use crate::http::caller::{Caller, Scope, require};
 use crate::ledger::setup::{LabPointInput, reduce_lab_point, resolve_effort};
 use crate::present::Units;
 use crate::reduction::SpecificGravity;

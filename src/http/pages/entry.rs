@@ -15,11 +15,11 @@ use serde::Deserialize;
 use serde_json::json;
 
 use super::{PageError, PageResult, ProjectNav, cautions, render_status, see_other};
-use crate::auth::Action;
-use crate::http::caller::{Caller, Scope, require};
 use crate::app::AppState;
+use crate::auth::Action;
 use crate::db;
 use crate::error::AppError;
+use crate::http::caller::{Caller, Scope, require};
 use crate::http::extract::parse_form;
 use crate::ledger::field::FieldTestInput;
 use crate::ledger::{self, Actor};

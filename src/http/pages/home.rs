@@ -6,10 +6,10 @@ use axum::extract::{Path, State};
 use axum::routing::get;
 
 use super::{PageResult, ProjectNav, render};
-use crate::auth::Action;
-use crate::http::caller::{Caller, Scope, require};
 use crate::app::AppState;
+use crate::auth::Action;
 use crate::db;
+use crate::http::caller::{Caller, Scope, require};
 use crate::ledger::{overview, setup};
 use crate::present::{self, Units};
 
@@ -101,7 +101,11 @@ struct ProjectPage {
     activity: Vec<Activity>,
 }
 
-async fn project_home(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
+async fn project_home(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+) -> PageResult {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
 
     let p = setup::require_project(&s.db, id).await?;

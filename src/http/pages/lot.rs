@@ -7,12 +7,12 @@ use axum::http::StatusCode;
 use axum::routing::{get, post};
 
 use super::{PageError, PageResult, ProjectNav, cautions, see_other};
-use crate::auth::{Action, allows};
-use crate::http::caller::{Caller, Scope, require};
 use crate::app::AppState;
+use crate::auth::{Action, allows};
 use crate::charts::{RcBar, RcChartInput, RcStatus, rc_chart};
 use crate::db;
 use crate::error::AppError;
+use crate::http::caller::{Caller, Scope, require};
 use crate::http::extract::parse_form;
 use crate::ledger::lot_report::LotReport;
 use crate::ledger::{self, lot_report};
@@ -218,7 +218,13 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
     sheet_with(&s, &caller, id, String::new(), StatusCode::OK).await
 }
 
-async fn sheet_with(s: &AppState, caller: &Caller, id: i64, message: String, status: StatusCode) -> PageResult {
+async fn sheet_with(
+    s: &AppState,
+    caller: &Caller,
+    id: i64,
+    message: String,
+    status: StatusCode,
+) -> PageResult {
     let r = lot_report::build(&s.db, id).await?;
     let role = caller.role_in(&s.db, r.project.id).await?;
     let may = |a: Action| role.is_some_and(|r| allows(r, a));

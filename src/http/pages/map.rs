@@ -7,12 +7,12 @@ use axum::routing::get;
 use serde::Deserialize;
 
 use super::{PageResult, ProjectNav, render};
-use crate::auth::Action;
-use crate::http::caller::{Caller, Scope, require};
 use crate::app::AppState;
+use crate::auth::Action;
 use crate::charts::{LiftMapInput, MapLot, MapRow, MapState, lift_map};
 use crate::db;
 use crate::error::AppError;
+use crate::http::caller::{Caller, Scope, require};
 use crate::http::extract::ApiQuery;
 use crate::ledger::{overview, setup};
 use crate::present::{self, Units};
@@ -85,7 +85,8 @@ fn encode(s: &str) -> String {
 }
 
 async fn map(
-    State(s): State<AppState>, caller: Caller,
+    State(s): State<AppState>,
+    caller: Caller,
     Path(id): Path<i64>,
     ApiQuery(q): ApiQuery<MapQuery>,
 ) -> PageResult {

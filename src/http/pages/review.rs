@@ -6,11 +6,11 @@ use axum::extract::{Multipart, Path, State};
 use axum::routing::get;
 
 use super::{PageError, PageResult, ProjectNav, render};
-use crate::auth::Action;
-use crate::http::caller::{Caller, Scope, require};
 use crate::app::AppState;
+use crate::auth::Action;
 use crate::db;
 use crate::error::AppError;
+use crate::http::caller::{Caller, Scope, require};
 use crate::ledger::{setup, verify};
 use crate::present::Units;
 
@@ -98,7 +98,11 @@ struct CertificatesPage {
     rows: Vec<CertRow>,
 }
 
-async fn certificates(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
+async fn certificates(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+) -> PageResult {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
 
     let p = setup::require_project(&s.db, id).await?;

@@ -73,7 +73,10 @@ struct RequestFacts {
 impl FromRequestParts<AppState> for RequestFacts {
     type Rejection = AppError;
 
-    async fn from_request_parts(parts: &mut Parts, state: &AppState) -> Result<Self, Self::Rejection> {
+    async fn from_request_parts(
+        parts: &mut Parts,
+        state: &AppState,
+    ) -> Result<Self, Self::Rejection> {
         let secure = state.settings.secure_cookies
             || parts
                 .headers
@@ -109,13 +112,18 @@ pub fn session_cookie(secret: &str, secure: bool) -> String {
     c
 }
 
-async fn sign_in(State(s): State<AppState>, facts: RequestFacts, body: axum::body::Bytes) -> PageResult {
+async fn sign_in(
+    State(s): State<AppState>,
+    facts: RequestFacts,
+    body: axum::body::Bytes,
+) -> PageResult {
     let creds: Credentials = parse_form(&body).map_err(PageError)?;
     match accounts::sign_in(&s.db, &creds.username, &creds.password, &facts.address).await {
         Ok(signed) => {
             // Rotation: a session presented at sign-in is ended; the new one has a new secret.
             if let Some(old) = facts.old_session
-                && let Some(sess) = users::session(&s.db, &crate::auth::secret::digest(&old)).await?
+                && let Some(sess) =
+                    users::session(&s.db, &crate::auth::secret::digest(&old)).await?
             {
                 users::end_session(&s.db, sess.id, &clock::now()).await?;
             }
@@ -137,7 +145,9 @@ async fn sign_in(State(s): State<AppState>, facts: RequestFacts, body: axum::bod
                     demo_users: demo_users(&s),
                 },
             )?;
-            if let AppError::TooManyRequests { retry_after_secs, .. } = e
+            if let AppError::TooManyRequests {
+                retry_after_secs, ..
+            } = e
                 && let Ok(v) = HeaderValue::from_str(&retry_after_secs.to_string())
             {
                 resp.headers_mut().insert(header::RETRY_AFTER, v);
@@ -148,7 +158,11 @@ async fn sign_in(State(s): State<AppState>, facts: RequestFacts, body: axum::bod
     }
 }
 
-async fn sign_out(State(s): State<AppState>, MaybeCaller(c): MaybeCaller, facts: RequestFacts) -> PageResult {
+async fn sign_out(
+    State(s): State<AppState>,
+    MaybeCaller(c): MaybeCaller,
+    facts: RequestFacts,
+) -> PageResult {
     if let Some(id) = c.and_then(|c| c.session_id) {
         users::end_session(&s.db, id, &clock::now()).await?;
     }

@@ -9,10 +9,10 @@ use axum::routing::get;
 use serde::Deserialize;
 
 use super::{PageError, PageResult, ProjectNav, render};
-use crate::auth::Action;
-use crate::http::caller::{Caller, Scope, require};
 use crate::app::AppState;
+use crate::auth::Action;
 use crate::error::AppError;
+use crate::http::caller::{Caller, Scope, require};
 use crate::http::extract::ApiQuery;
 use crate::ledger::lot_report::{LotReport, TestLine};
 use crate::ledger::{overview, setup};
@@ -181,7 +181,8 @@ struct TestsPage {
 const PAGE_ROWS: usize = 500;
 
 async fn list(
-    State(s): State<AppState>, caller: Caller,
+    State(s): State<AppState>,
+    caller: Caller,
     Path(id): Path<i64>,
     ApiQuery(f): ApiQuery<Filters>,
 ) -> PageResult {
@@ -248,7 +249,8 @@ async fn list(
 }
 
 async fn csv(
-    State(s): State<AppState>, caller: Caller,
+    State(s): State<AppState>,
+    caller: Caller,
     Path(id): Path<i64>,
     ApiQuery(f): ApiQuery<Filters>,
 ) -> Result<impl IntoResponse, PageError> {

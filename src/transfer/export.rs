@@ -1,0 +1,475 @@
+//! Export of field tests and lot verdicts as CSV (UTF-8 with a byte-order mark, quoted
+//! where needed) and JSON, with the test list's filters. Writers stream to any
+//! `std::io::Write`; every number comes judged from `crate::ledger`.
+
+use std::io::Write;
+
+use serde::{Deserialize, Serialize};
+use serde_json::{Value, json};
+
+use crate::db::{self, Pool};
+use crate::error::{AppError, Result};
+use crate::ledger::lot_report::{LotReport, TestLine};
+use crate::ledger::{overview, setup, validate};
+use crate::present::Units;
+use crate::reduction::Chainage;
+
+/// The filters as typed (all optional), the same words as the test list page.
+#[derive(Debug, Default, Clone, Deserialize, Serialize)]
+#[serde(default)]
+pub struct FilterText {
+    /// Chainage from, in the project's style or metres.
+    pub from: String,
+    /// Chainage to.
+    pub to: String,
+    /// Layer id.
+    pub layer: String,
+    /// First day, `YYYY-MM-DD`.
+    pub date_from: String,
+    /// Last day, `YYYY-MM-DD`.
+    pub date_to: String,
+    pub method: String,
+    /// pass, fail, void or superseded (tests); a lot state for lots.
+    pub verdict: String,
+}
+
+/// Filters read and checked.
+#[derive(Debug, Default, Clone, PartialEq)]
+pub struct ExportFilter {
+    pub chainage_from_m: Option<f64>,
+    pub chainage_to_m: Option<f64>,
+    pub layer_id: Option<i64>,
+    pub date_from: Option<String>,
+    pub date_to: Option<String>,
+    pub method: Option<String>,
+    pub verdict: Option<String>,
+}
+
+impl ExportFilter {
+    /// Reads typed filters in a project's chainage style, naming the field at fault.
+    pub fn parse(t: &FilterText, units: &Units) -> Result<Self> {
+        let ch = |field: &str, v: &str| -> Result<Option<f64>> {
+            let v = v.trim();
+            if v.is_empty() {
+                return Ok(None);
+            }
+            Chainage::parse(v, units.chainage)
+                .map(|c| Some(c.metres()))
+                .map_err(|e| AppError::invalid(field, e.to_string()))
+        };
+        let date = |field: &str, v: &str| -> Result<Option<String>> {
+            if v.trim().is_empty() {
+                Ok(None)
+            } else {
+                validate::date(field, v).map(Some)
+            }
+        };
+        let layer_id = match t.layer.trim() {
+            "" => None,
+            l => Some(
+                l.parse()
+                    .map_err(|_| AppError::invalid("layer", "choose a layer from the list"))?,
+            ),
+        };
+        let nonempty = |s: &str| Some(s.trim().to_string()).filter(|s| !s.is_empty());
+        Ok(Self {
+            chainage_from_m: ch("from", &t.from)?,
+            chainage_to_m: ch("to", &t.to)?,
+            layer_id,
+            date_from: date("date_from", &t.date_from)?,
+            date_to: date("date_to", &t.date_to)?,
+            method: nonempty(&t.method),
+            verdict: nonempty(&t.verdict),
+        })
+    }
+
+    /// True when a judged test passes the filters.
+    pub fn keeps_test(&self, r: &LotReport, line: &TestLine) -> bool {
+        let t = &line.test;
+        let day = crate::clock::date_of(&t.tested_at);
+        !(self.layer_id.is_some_and(|l| l != r.lot.layer_id)
+            || self.chainage_from_m.is_some_and(|m| t.chainage_m < m)
+            || self.chainage_to_m.is_some_and(|m| t.chainage_m > m)
+            || self.date_from.as_ref().is_some_and(|d| day < *d)
+            || self.date_to.as_ref().is_some_and(|d| day > *d)
+            || self.method.as_ref().is_some_and(|m| t.method != *m)
+            || self.verdict.as_ref().is_some_and(|v| result_of(line) != v))
+    }
+
+    /// True when a lot passes the filters (chainage overlap, layer, state as shown).
+    pub fn keeps_lot(&self, r: &LotReport) -> bool {
+        !(self.layer_id.is_some_and(|l| l != r.lot.layer_id)
+            || self
+                .chainage_from_m
+                .is_some_and(|m| r.lot.chainage_to_m < m)
+            || self
+                .chainage_to_m
+                .is_some_and(|m| r.lot.chainage_from_m > m)
+            || self.verdict.as_ref().is_some_and(|v| r.display_state != *v))
+    }
+}
+
+/// A test's result as listed: pass, fail, void or superseded.
+pub fn result_of(l: &TestLine) -> &'static str {
+    match l.standing.as_str() {
+        "voided" => "void",
+        "superseded" => "superseded",
+        _ if l.passed => "pass",
+        _ => "fail",
+    }
+}
+
+/// The judged lots of a project and the project's display units.
+pub async fn judged(pool: &Pool, project_id: i64) -> Result<(Units, Vec<LotReport>)> {
+    let p = setup::require_project(pool, project_id).await?;
+    let reports = overview::project_reports(pool, project_id).await?;
+    Ok((Units::of(&p), reports))
+}
+
+/// The UTF-8 byte-order mark that makes spreadsheet programs read units and names right.
+pub const BOM: &[u8] = b"\xEF\xBB\xBF";
+
+/// Column headings of the field-test CSV.
+pub const TEST_COLUMNS: [&str; 28] = [
+    "number",
+    "lot",
+    "zone",
+    "layer",
+    "tested_at_utc",
+    "technician",
+    "method",
+    "instrument_serial",
+    "chainage",
+    "chainage_m",
+    "offset_m",
+    "depth_mm",
+    "easting",
+    "northing",
+    "wet_density_kg_m3",
+    "water_content_pct",
+    "dry_density_kg_m3",
+    "moisture_source",
+    "coarse_pct",
+    "reference_mdd_kg_m3",
+    "reference_omc_pct",
+    "relative_compaction_pct",
+    "moisture_deviation_pct",
+    "result",
+    "retest_of",
+    "superseded_by",
+    "void_reason",
+    "reduction_version",
+];
+
+fn opt(v: Option<f64>, decimals: usize) -> String {
+    v.map_or(String::new(), |v| format!("{v:.decimals$}"))
+}
+
+fn io(e: impl Into<anyhow::Error>) -> AppError {
+    AppError::Internal(e.into())
+}
+
+/// Writes the selected tests as CSV; returns how many rows were written.
+pub fn write_tests_csv<W: Write>(
+    out: W,
+    units: &Units,
+    reports: &[LotReport],
+    f: &ExportFilter,
+) -> Result<u64> {
+    let mut out = out;
+    out.write_all(BOM).map_err(io)?;
+    let mut w = csv::Writer::from_writer(out);
+    w.write_record(TEST_COLUMNS).map_err(io)?;
+    let mut n = 0;
+    for r in reports {
+        for line in r.tests.iter().filter(|l| f.keeps_test(r, l)) {
+            let t = &line.test;
+            w.write_record([
+                t.number.clone(),
+                r.lot.code.clone(),
+                r.lot.zone_name.clone(),
+                r.lot.layer_number.to_string(),
+                t.tested_at.clone(),
+                t.technician.clone(),
+                t.method.clone(),
+                t.instrument_serial.clone(),
+                units.chainage(t.chainage_m),
+                format!("{:.3}", t.chainage_m),
+                format!("{:.2}", t.offset_m),
+                opt(t.depth_mm, 0),
+                opt(t.easting, 3),
+                opt(t.northing, 3),
+                format!("{:.1}", t.wet_density_kg_m3),
+                format!("{:.2}", t.water_content_pct),
+                format!("{:.1}", t.dry_density_kg_m3),
+                t.moisture_source.clone(),
+                opt(t.coarse_pct, 1),
+                opt(line.reference_mdd_kg_m3, 1),
+                opt(line.reference_omc_pct, 2),
+                opt(line.relative_compaction_pct, 2),
+                opt(line.moisture_deviation_pct, 2),
+                result_of(line).to_string(),
+                line.retest_of_number.clone().unwrap_or_default(),
+                line.superseded_by.clone().unwrap_or_default(),
+                t.void_reason.clone().unwrap_or_default(),
+                t.reduction_version.clone(),
+            ])
+            .map_err(io)?;
+            n += 1;
+        }
+    }
+    w.flush().map_err(io)?;
+    Ok(n)
+}
+
+/// One test as a JSON object (readings as entered, reduced values, verdict).
+pub fn test_object(units: &Units, r: &LotReport, line: &TestLine) -> Value {
+    let t = &line.test;
+    let readings: Value = serde_json::from_str(&t.readings_json).unwrap_or(Value::Null);
+    json!({
+        "id": t.id,
+        "number": t.number,
+        "lot": r.lot.code,
+        "zone": r.lot.zone_name,
+        "layer": r.lot.layer_number,
+        "tested_at": t.tested_at,
+        "technician": t.technician,
+        "method": t.method,
+        "instrument_serial": t.instrument_serial,
+        "chainage": units.chainage(t.chainage_m),
+        "chainage_m": t.chainage_m,
+        "offset_m": t.offset_m,
+        "depth_mm": t.depth_mm,
+        "easting": t.easting,
+        "northing": t.northing,
+        "coarse_pct": t.coarse_pct,
+        "coarse_water_content_pct": t.coarse_water_content_pct,
+        "readings": readings,
+        "wet_density_kg_m3": t.wet_density_kg_m3,
+        "water_content_pct": t.water_content_pct,
+        "dry_density_kg_m3": t.dry_density_kg_m3,
+        "moisture_source": t.moisture_source,
+        "reference_mdd_kg_m3": line.reference_mdd_kg_m3,
+        "reference_omc_pct": line.reference_omc_pct,
+        "relative_compaction_pct": line.relative_compaction_pct,
+        "moisture_deviation_pct": line.moisture_deviation_pct,
+        "passed": line.passed,
+        "result": result_of(line),
+        "retest_of": line.retest_of_number,
+        "superseded_by": line.superseded_by,
+        "void_reason": t.void_reason,
+        "reduction_version": t.reduction_version,
+    })
+}
+
+/// Writes the selected tests as a JSON array, one object at a time; returns the count.
+pub fn write_tests_json<W: Write>(
+    mut out: W,
+    units: &Units,
+    reports: &[LotReport],
+    f: &ExportFilter,
+) -> Result<u64> {
+    let mut n = 0u64;
+    out.write_all(b"[").map_err(io)?;
+    for r in reports {
+        for line in r.tests.iter().filter(|l| f.keeps_test(r, l)) {
+            out.write_all(if n == 0 { b"\n" } else { b",\n" })
+                .map_err(io)?;
+            serde_json::to_writer(&mut out, &test_object(units, r, line)).map_err(io)?;
+            n += 1;
+        }
+    }
+    out.write_all(b"\n]\n").map_err(io)?;
+    out.flush().map_err(io)?;
+    Ok(n)
+}
+
+/// Column headings of the lot-verdict CSV.
+pub const LOT_COLUMNS: [&str; 26] = [
+    "lot",
+    "zone",
+    "layer",
+    "chainage_from",
+    "chainage_to",
+    "chainage_from_m",
+    "chainage_to_m",
+    "offset_left_m",
+    "offset_right_m",
+    "area_m2",
+    "clause",
+    "rule",
+    "lab_test",
+    "reference_mdd_kg_m3",
+    "state",
+    "shown_as",
+    "tests_counted",
+    "tests_required",
+    "tests_owed",
+    "mean_rc_pct",
+    "std_dev_rc_pct",
+    "min_rc_pct",
+    "pwl_pct",
+    "accepted",
+    "failing_without_retest",
+    "certificate",
+];
+
+fn lot_fields(units: &Units, r: &LotReport) -> [String; 26] {
+    let v = &r.verdict;
+    [
+        r.lot.code.clone(),
+        r.lot.zone_name.clone(),
+        r.lot.layer_number.to_string(),
+        units.chainage(r.lot.chainage_from_m),
+        units.chainage(r.lot.chainage_to_m),
+        format!("{:.3}", r.lot.chainage_from_m),
+        format!("{:.3}", r.lot.chainage_to_m),
+        format!("{:.2}", r.lot.offset_left_m),
+        format!("{:.2}", r.lot.offset_right_m),
+        format!("{:.0}", r.area_m2),
+        r.clause.code.clone(),
+        v.rule.clone(),
+        r.lab_test.code.clone(),
+        format!("{:.1}", r.lab_test.max_dry_density_kg_m3),
+        r.lot.state.clone(),
+        r.display_state.clone(),
+        v.n.to_string(),
+        r.tests_required.to_string(),
+        r.tests_owed.to_string(),
+        opt(v.mean, 2),
+        opt(v.std_dev, 2),
+        opt(v.min, 2),
+        opt(v.pwl, 1),
+        v.accepted.to_string(),
+        r.failing_without_retest.join(" "),
+        r.certificate
+            .as_ref()
+            .map(|c| format!("{} rev {}", c.number, c.revision))
+            .unwrap_or_default(),
+    ]
+}
+
+/// Writes the selected lots' verdicts as CSV; returns the count.
+pub fn write_lots_csv<W: Write>(
+    out: W,
+    units: &Units,
+    reports: &[LotReport],
+    f: &ExportFilter,
+) -> Result<u64> {
+    let mut out = out;
+    out.write_all(BOM).map_err(io)?;
+    let mut w = csv::Writer::from_writer(out);
+    w.write_record(LOT_COLUMNS).map_err(io)?;
+    let mut n = 0;
+    for r in reports.iter().filter(|r| f.keeps_lot(r)) {
+        w.write_record(lot_fields(units, r)).map_err(io)?;
+        n += 1;
+    }
+    w.flush().map_err(io)?;
+    Ok(n)
+}
+
+/// One lot's verdict as a JSON object.
+pub fn lot_object(units: &Units, r: &LotReport) -> Value {
+    json!({
+        "id": r.lot.id,
+        "lot": r.lot.code,
+        "zone": r.lot.zone_name,
+        "layer": r.lot.layer_number,
+        "chainage_from": units.chainage(r.lot.chainage_from_m),
+        "chainage_to": units.chainage(r.lot.chainage_to_m),
+        "chainage_from_m": r.lot.chainage_from_m,
+        "chainage_to_m": r.lot.chainage_to_m,
+        "offset_left_m": r.lot.offset_left_m,
+        "offset_right_m": r.lot.offset_right_m,
+        "area_m2": r.area_m2,
+        "clause": r.clause.code,
+        "lab_test": r.lab_test.code,
+        "reference_mdd_kg_m3": r.lab_test.max_dry_density_kg_m3,
+        "reference_omc_pct": r.lab_test.optimum_water_content_pct,
+        "state": r.lot.state,
+        "shown_as": r.display_state,
+        "verdict": r.verdict,
+        "tests_required": r.tests_required,
+        "tests_owed": r.tests_owed,
+        "failing_without_retest": r.failing_without_retest,
+        "submit_blockers": r.submit_blockers,
+        "certificate": r.certificate.as_ref().map(|c| json!({
+            "number": c.number, "revision": c.revision, "current": r.certificate_current
+        })),
+    })
+}
+
+/// Writes the selected lots' verdicts as a JSON array; returns the count.
+pub fn write_lots_json<W: Write>(
+    mut out: W,
+    units: &Units,
+    reports: &[LotReport],
+    f: &ExportFilter,
+) -> Result<u64> {
+    let mut n = 0u64;
+    out.write_all(b"[").map_err(io)?;
+    for r in reports.iter().filter(|r| f.keeps_lot(r)) {
+        out.write_all(if n == 0 { b"\n" } else { b",\n" })
+            .map_err(io)?;
+        serde_json::to_writer(&mut out, &lot_object(units, r)).map_err(io)?;
+        n += 1;
+    }
+    out.write_all(b"\n]\n").map_err(io)?;
+    out.flush().map_err(io)?;
+    Ok(n)
+}
+
+/// What to export.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ExportKind {
+    TestsCsv,
+    TestsJson,
+    LotsCsv,
+    LotsJson,
+    TestsGeojson,
+}
+
+impl ExportKind {
+    /// The media type of the export.
+    pub fn content_type(self) -> &'static str {
+        match self {
+            ExportKind::TestsCsv | ExportKind::LotsCsv => "text/csv; charset=utf-8",
+            ExportKind::TestsJson | ExportKind::LotsJson => "application/json",
+            ExportKind::TestsGeojson => "application/geo+json",
+        }
+    }
+    /// A file name for the download, e.g. `MLR-field-tests.csv`.
+    pub fn file_name(self, project_code: &str) -> String {
+        let tail = match self {
+            ExportKind::TestsCsv => "field-tests.csv",
+            ExportKind::TestsJson => "field-tests.json",
+            ExportKind::LotsCsv => "lots.csv",
+            ExportKind::LotsJson => "lots.json",
+            ExportKind::TestsGeojson => "field-tests.geojson",
+        };
+        format!("{project_code}-{tail}")
+    }
+}
+
+/// Judges a project and writes one export of it; returns the number of records written.
+pub async fn export<W: Write>(
+    pool: &Pool,
+    project_id: i64,
+    kind: ExportKind,
+    filters: &FilterText,
+    out: W,
+) -> Result<u64> {
+    let p: db::projects::Project = setup::require_project(pool, project_id).await?;
+    let units = Units::of(&p);
+    let f = ExportFilter::parse(filters, &units)?;
+    let reports = overview::project_reports(pool, project_id).await?;
+    match kind {
+        ExportKind::TestsCsv => write_tests_csv(out, &units, &reports, &f),
+        ExportKind::TestsJson => write_tests_json(out, &units, &reports, &f),
+        ExportKind::LotsCsv => write_lots_csv(out, &units, &reports, &f),
+        ExportKind::LotsJson => write_lots_json(out, &units, &reports, &f),
+        ExportKind::TestsGeojson => super::geojson::write_tests(out, &units, &reports, &f),
+    }
+}
