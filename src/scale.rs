@@ -309,13 +309,15 @@ impl TestGenerator {
         let failed = rc < lot.rc_min || dev.abs() > 2.0;
         let readings = self.readings(dry, w);
         let when = self.start
-            + time::Duration::seconds((day * 86_400.0 + self.rng.between(0.0, 9.0 * 3600.0)) as i64);
+            + time::Duration::seconds(
+                (day * 86_400.0 + self.rng.between(0.0, 9.0 * 3600.0)) as i64,
+            );
         // A straight alignment on an invented grid, bearing 30° from grid north.
         let (s, c) = 30f64.to_radians().sin_cos();
         let easting = 512_000.0 + chainage * s + offset * c;
         let northing = 6_204_000.0 + chainage * c - offset * s;
-        let technician = TECHNICIANS[(self.rng.unit() * TECHNICIANS.len() as f64) as usize
-            % TECHNICIANS.len()];
+        let technician =
+            TECHNICIANS[(self.rng.unit() * TECHNICIANS.len() as f64) as usize % TECHNICIANS.len()];
         let input = FieldTestInput {
             number: Some(number),
             tested_at: Some(crate::clock::format(when)),
@@ -406,10 +408,10 @@ struct ImportSlice<'a> {
 
 impl RowSource for ImportSlice<'_> {
     fn next_row(&mut self) -> Option<RowResult> {
-        if self.generator.queue.is_empty() {
-            if self.given >= self.limit || !self.generator.fill_next_lot() {
-                return None;
-            }
+        if self.generator.queue.is_empty()
+            && (self.given >= self.limit || !self.generator.fill_next_lot())
+        {
+            return None;
         }
         self.given += 1;
         let mut row = self.generator.queue.pop_front()?;
@@ -463,32 +465,70 @@ pub async fn generate(pool: &Pool, opts: ScaleOptions) -> anyhow::Result<ScaleSu
     let zones: Vec<ZonePlan> = if opts.zones <= 2 {
         let cap = (opts.layers / 5).max(1);
         vec![
-            ZonePlan { name: "Embankment fill", clause: "FILL-92", source: 0, half_width_m: 15.0, layers: opts.layers - cap },
-            ZonePlan { name: "Capping", clause: "CAP-97", source: 1, half_width_m: 10.0, layers: cap },
+            ZonePlan {
+                name: "Embankment fill",
+                clause: "FILL-92",
+                source: 0,
+                half_width_m: 15.0,
+                layers: opts.layers - cap,
+            },
+            ZonePlan {
+                name: "Capping",
+                clause: "CAP-97",
+                source: 1,
+                half_width_m: 10.0,
+                layers: cap,
+            },
         ]
     } else {
         let cap = (opts.layers / 10).max(1);
         let sub = (opts.layers / 4).max(1);
         vec![
-            ZonePlan { name: "Embankment fill", clause: "FILL-92", source: 0, half_width_m: 15.0, layers: opts.layers - cap - sub },
-            ZonePlan { name: "Subgrade", clause: "SUBG-95", source: 2, half_width_m: 12.0, layers: sub },
-            ZonePlan { name: "Capping", clause: "CAP-97", source: 1, half_width_m: 10.0, layers: cap },
+            ZonePlan {
+                name: "Embankment fill",
+                clause: "FILL-92",
+                source: 0,
+                half_width_m: 15.0,
+                layers: opts.layers - cap - sub,
+            },
+            ZonePlan {
+                name: "Subgrade",
+                clause: "SUBG-95",
+                source: 2,
+                half_width_m: 12.0,
+                layers: sub,
+            },
+            ZonePlan {
+                name: "Capping",
+                clause: "CAP-97",
+                source: 1,
+                half_width_m: 10.0,
+                layers: cap,
+            },
         ]
     };
 
     let mut clause_rows = Vec::new();
     for c in &clauses {
-        clause_rows.push(setup::create_clause(pool, pid, &parse(c.clone())?, &actor).await.map_err(app)?);
+        clause_rows.push(
+            setup::create_clause(pool, pid, &parse(c.clone())?, &actor)
+                .await
+                .map_err(app)?,
+        );
     }
     let mut source_rows = Vec::new();
     let mut lab_rows = Vec::new();
     for (i, s) in sources.iter().enumerate() {
-        let src = setup::create_source(pool, pid, &parse(s.clone())?, &actor).await.map_err(app)?;
+        let src = setup::create_source(pool, pid, &parse(s.clone())?, &actor)
+            .await
+            .map_err(app)?;
         let lab = setup::create_lab_test(
             pool,
             src.id,
-            &parse(json!({"code": format!("{}-M1", src.code), "tested_on": "2026-01-20",
-                "effort": "astm_d1557_4in", "points": lab_points(i)}))?,
+            &parse(
+                json!({"code": format!("{}-M1", src.code), "tested_on": "2026-01-20",
+                "effort": "astm_d1557_4in", "points": lab_points(i)}),
+            )?,
             &actor,
         )
         .await
@@ -641,7 +681,10 @@ pub async fn generate(pool: &Pool, opts: ScaleOptions) -> anyhow::Result<ScaleSu
             break;
         }
         let reviewer = Actor::system("client engineer (invented)");
-        if ledger::review::submit(pool, lot.id, "lift complete", &actor).await.is_err() {
+        if ledger::review::submit(pool, lot.id, "lift complete", &actor)
+            .await
+            .is_err()
+        {
             continue;
         }
         if accepted < opts.accepted_lots {

@@ -61,6 +61,11 @@ async fn crawling_the_demo_finds_no_broken_page() {
     assert!(seen.iter().any(|p| p.starts_with("/lab-tests/")));
     // 19 certified lots plus one lot reissued as revision 2.
     assert_eq!(pdfs, 20, "certificate PDFs reachable");
+    let test_pages = seen
+        .iter()
+        .filter(|p| p.starts_with("/field-tests/") && !p.ends_with("/retest"))
+        .count();
+    assert_eq!(test_pages, 449, "every test has its page");
 }
 
 #[tokio::test]
@@ -324,4 +329,36 @@ async fn site_entry_without_javascript_previews_then_saves() {
     );
     let (_, after) = app.get(&format!("/api/v1/lots/{id}")).await;
     assert_eq!(after["tests"].as_array().unwrap().len(), n_before + 1);
+}
+
+#[tokio::test]
+async fn a_test_page_shows_readings_as_entered_and_its_history() {
+    let app = spawn_demo().await;
+    let (_, tests) = app
+        .get("/api/v1/projects/1/field-tests?per_page=1000")
+        .await;
+    let voided = tests["field_tests"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|t| t["void_reason"].is_string())
+        .expect("the demo has a voided test")
+        .clone();
+    let (s, html) = page(&app, &format!("/field-tests/{}", voided["id"])).await;
+    assert_eq!(s, 200);
+    assert!(html.contains(voided["void_reason"].as_str().unwrap()));
+    let history = html.split("id=\"history\"").nth(1).unwrap();
+    assert!(
+        history.contains("<td>create</td>") && history.contains("<td>void</td>"),
+        "history lists create and void"
+    );
+    assert!(
+        history.contains("D. Achterberg (achterberg)"),
+        "who voided it"
+    );
+    let wet = voided["readings"]["wet_density_kg_m3"].as_f64().unwrap();
+    assert!(
+        html.contains(&format!("{wet}")),
+        "the reading exactly as entered"
+    );
 }

@@ -11,6 +11,7 @@ mod lot;
 mod map;
 mod review;
 pub mod session;
+mod test_page;
 mod tests_list;
 
 use askama::Template;
@@ -35,6 +36,7 @@ pub fn router() -> Router<AppState> {
         .merge(tests_list::router())
         .merge(review::router())
         .merge(session::router())
+        .merge(test_page::router())
 }
 
 async fn style() -> impl IntoResponse {
