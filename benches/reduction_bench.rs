@@ -87,6 +87,7 @@ fn bench_field_and_lots(n_tests: usize, lot_size: usize) {
                 let v = judge_test(fd.dry_density, fd.water_content, &reference, &limits);
                 lot_inputs.push(LotTestInput {
                     id: i as i64,
+                    label: String::new(),
                     relative_compaction_pct: v.relative_compaction_pct,
                     moisture_deviation_pct: v.moisture_deviation_pct,
                     passed: v.passed,

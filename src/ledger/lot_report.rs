@@ -207,6 +207,7 @@ pub fn assemble(
         .zip(&judged)
         .map(|(t, (_, v, _))| LotTestInput {
             id: t.id,
+            label: t.number.clone(),
             relative_compaction_pct: v.as_ref().map_or(0.0, |v| v.relative_compaction_pct),
             moisture_deviation_pct: v.as_ref().map_or(0.0, |v| v.moisture_deviation_pct),
             passed: v.as_ref().is_some_and(|v| v.passed),

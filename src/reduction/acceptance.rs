@@ -64,8 +64,10 @@ impl AcceptanceRule {
 /// One test as the lot sees it.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct LotTestInput {
-    /// Test id (also used in reasons: "test 14").
+    /// Test id (links retests and standings).
     pub id: i64,
+    /// What reasons call the test, e.g. its number "T-0014"; empty means "test {id}".
+    pub label: String,
     /// Relative compaction, percent.
     pub relative_compaction_pct: f64,
     /// Moisture deviation from OMC, points.
@@ -76,6 +78,17 @@ pub struct LotTestInput {
     pub voided: bool,
     /// The test this one retests, if any.
     pub retest_of: Option<i64>,
+}
+
+impl LotTestInput {
+    /// The words reasons use for this test.
+    pub fn name(&self) -> String {
+        if self.label.is_empty() {
+            format!("test {}", self.id)
+        } else {
+            format!("test {}", self.label)
+        }
+    }
 }
 
 /// Whether a test counts towards acceptance.
@@ -419,14 +432,14 @@ pub fn evaluate_lot(
     };
     if let Some(t) = bad_value {
         verdict.reasons.push(format!(
-            "test {} has no usable relative compaction or moisture deviation; the lot cannot be judged",
-            t.id
+            "{} has no usable relative compaction or moisture deviation; the lot cannot be judged",
+            t.name()
         ));
         return verdict;
     }
     let labelled: Vec<(String, f64)> = counted
         .iter()
-        .map(|t| (format!("test {}", t.id), t.relative_compaction_pct))
+        .map(|t| (t.name(), t.relative_compaction_pct))
         .collect();
     let density = decide_density(&labelled, limits.rc_min_pct, rule, &summary, "test");
     let mut accepted = density.accepted;
@@ -447,8 +460,8 @@ pub fn evaluate_lot(
                 accepted = false;
                 for t in &moisture_failures {
                     reasons.push(format!(
-                        "test {} at {} is outside the moisture window of {window}; under this rule that fails the lot",
-                        t.id,
+                        "{} at {} is outside the moisture window of {window}; under this rule that fails the lot",
+                        t.name(),
                         deviation_words(t.moisture_deviation_pct)
                     ));
                 }
@@ -461,8 +474,8 @@ pub fn evaluate_lot(
                 }) {
                     accepted = false;
                     reasons.push(format!(
-                        "test {} was judged failed when reduced, though its figures meet these limits; re-judge it or retest",
-                        t.id
+                        "{} was judged failed when reduced, though its figures meet these limits; re-judge it or retest",
+                        t.name()
                     ));
                 }
             }
@@ -470,8 +483,8 @@ pub fn evaluate_lot(
         AcceptanceRule::QualityIndex { .. } => {
             for t in &moisture_failures {
                 reasons.push(format!(
-                    "test {} at {} is outside the moisture window of {window} (noted: under the quality-index rule the density statistic decides)",
-                    t.id,
+                    "{} at {} is outside the moisture window of {window} (noted: under the quality-index rule the density statistic decides)",
+                    t.name(),
                     deviation_words(t.moisture_deviation_pct)
                 ));
             }
@@ -576,6 +589,7 @@ mod tests {
     fn t(id: i64, rc: f64, dev: f64) -> LotTestInput {
         LotTestInput {
             id,
+            label: String::new(),
             relative_compaction_pct: rc,
             moisture_deviation_pct: dev,
             passed: rc >= 95.0 && dev.abs() <= 2.0,
@@ -927,7 +941,8 @@ mod tests {
             rule_kind in 0u8..3,
         ) {
             let tests: Vec<LotTestInput> = raw.iter().map(|&(id, rc, dev, passed, voided, retest_of)| LotTestInput {
-                id, relative_compaction_pct: rc, moisture_deviation_pct: dev, passed, voided, retest_of,
+                id,
+                label: String::new(), relative_compaction_pct: rc, moisture_deviation_pct: dev, passed, voided, retest_of,
             }).collect();
             let rule = match rule_kind {
                 0 => AcceptanceRule::EveryTest,

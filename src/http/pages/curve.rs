@@ -80,48 +80,26 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
     let fit = fit_curve(&points, Some(gs))
         .map_err(|e| AppError::Internal(anyhow::anyhow!("stored curve no longer fits: {e}")))?;
 
-    // Field tests judged against this curve: plotted as they were measured (no oversize adjustment).
-    let field = db::field_tests::for_lab_test(&s.db, id).await?;
-    let counted: Vec<_> = field.iter().filter(|t| t.void_reason.is_none()).collect();
-    let limits = {
-        let lots = db::lots::list(
-            &s.db,
-            project.id,
-            &db::lots::LotFilter {
-                limit: i64::MAX,
-                ..Default::default()
-            },
-        )
-        .await?;
-        let clause_ids: std::collections::HashMap<i64, i64> =
-            lots.iter().map(|l| (l.id, l.clause_id)).collect();
-        let clauses: std::collections::HashMap<i64, db::clauses::Clause> =
-            db::clauses::list(&s.db, project.id)
-                .await?
-                .into_iter()
-                .map(|c| (c.id, c))
-                .collect();
-        move |lot_id: i64| {
-            clause_ids
-                .get(&lot_id)
-                .and_then(|c| clauses.get(c))
-                .map(crate::ledger::lot_report::limits_of)
-        }
-    };
-    let reference = crate::ledger::lot_report::reference_of(&lab)?;
+    // Field tests judged against this curve, exactly as their lot sheets judge them
+    // (oversize-corrected where a test carries a coarse fraction); voided and superseded tests are left out.
+    let reports = crate::ledger::overview::project_reports(&s.db, project.id).await?;
+    let counted: Vec<_> = reports
+        .iter()
+        .filter(|r| r.lot.lab_test_id == id)
+        .flat_map(|r| r.tests.iter())
+        .filter(|l| l.standing == "counted")
+        .collect();
     let marks: Vec<FieldMark> = counted
         .iter()
-        .filter_map(|t| {
-            let l = limits(t.lot_id)?;
-            let dry = crate::reduction::Density::new(t.dry_density_kg_m3).ok()?;
-            let w = crate::reduction::WaterContent::new(t.water_content_pct).ok()?;
-            let v = crate::reduction::verdict::judge_test(dry, w, &reference, &l);
-            Some(FieldMark {
-                label: format!("{} · RC {:.1} %", t.number, v.relative_compaction_pct),
-                x: t.water_content_pct,
-                y: t.dry_density_kg_m3,
-                passed: v.passed,
-            })
+        .map(|l| FieldMark {
+            label: format!(
+                "{} · RC {} %",
+                l.test.number,
+                crate::present::pct(l.relative_compaction_pct)
+            ),
+            x: l.test.water_content_pct,
+            y: l.test.dry_density_kg_m3,
+            passed: l.passed,
         })
         .collect();
     let field_fail = marks.iter().filter(|m| !m.passed).count();

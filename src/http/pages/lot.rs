@@ -269,7 +269,7 @@ async fn sheet_with(
         },
         id,
         code: r.lot.code.clone(),
-        state: r.display_state.clone(),
+        state: super::map::map_state(&r.display_state).code().to_string(),
         state_label: present::state_label(&r.display_state).to_string(),
         zone: r.lot.zone_name.clone(),
         layer: r.lot.layer_number,

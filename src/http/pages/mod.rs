@@ -8,7 +8,7 @@ mod curve;
 mod entry;
 mod home;
 mod lot;
-mod map;
+pub mod map;
 mod review;
 pub mod session;
 mod test_page;

@@ -1,0 +1,286 @@
+//! The app under test (in-process, on a fresh demo database) and the browser that drives it.
+
+use std::net::SocketAddr;
+use std::path::PathBuf;
+
+use liftledger::{AppState, Settings, db};
+use tokio::sync::oneshot;
+
+use crate::webdriver::{self, Driver, Session};
+
+/// The demo project's id.
+pub const PROJECT: i64 = 1;
+
+/// A liftledger server on a random loopback port, holding the invented demo project.
+pub struct DemoApp {
+    pub addr: SocketAddr,
+    /// The server's own database, for checking what a form really saved.
+    pub pool: db::Pool,
+    _dir: tempfile::TempDir,
+    stop: Option<oneshot::Sender<()>>,
+}
+
+/// What the record says about a lot.
+#[derive(Debug, Clone)]
+pub struct LotFacts {
+    pub code: String,
+    pub chainage_from_m: f64,
+    pub chainage_to_m: f64,
+    pub clause: String,
+    /// The reference curve's maximum dry density, kg/m³.
+    pub mdd: f64,
+    /// The reference curve's optimum moisture content, %.
+    pub omc: f64,
+}
+
+/// A field test as stored.
+#[derive(Debug, Clone)]
+pub struct SavedTest {
+    pub lot_id: i64,
+    pub technician: String,
+    pub chainage_m: f64,
+    pub retest_of: Option<i64>,
+}
+
+impl DemoApp {
+    /// Loads the demo into a fresh SQLite file and serves it.
+    pub async fn spawn() -> DemoApp {
+        let dir = tempfile::tempdir().expect("tempdir");
+        let path = dir.path().join("browser.sqlite");
+        let pool = db::open(&path).await.expect("open db");
+        liftledger::demo::load(&pool).await.expect("load demo");
+        let listener = tokio::net::TcpListener::bind("127.0.0.1:0")
+            .await
+            .expect("bind");
+        let addr = listener.local_addr().expect("addr");
+        let state = AppState::new(
+            pool.clone(),
+            Settings {
+                demo: true,
+                secure_cookies: false,
+            },
+        );
+        let (tx, rx) = oneshot::channel::<()>();
+        tokio::spawn(async move {
+            liftledger::serve(listener, state, async {
+                let _ = rx.await;
+            })
+            .await
+            .expect("server failed");
+        });
+        DemoApp {
+            addr,
+            pool,
+            _dir: dir,
+            stop: Some(tx),
+        }
+    }
+
+    /// Full URL of a path on this server.
+    pub fn url(&self, path: &str) -> String {
+        format!("http://{}{}", self.addr, path)
+    }
+
+    /// How many field tests the demo project holds.
+    pub async fn field_test_count(&self) -> i64 {
+        sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE project_id = ?")
+            .bind(PROJECT)
+            .fetch_one(&self.pool)
+            .await
+            .expect("count field tests")
+    }
+
+    /// How many field tests a lot holds (voided and superseded included).
+    pub async fn lot_test_count(&self, lot_id: i64) -> i64 {
+        sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE lot_id = ?")
+            .bind(lot_id)
+            .fetch_one(&self.pool)
+            .await
+            .expect("count lot tests")
+    }
+
+    /// A lot's place, clause and reference curve.
+    pub async fn lot(&self, lot_id: i64) -> LotFacts {
+        let (code, chainage_from_m, chainage_to_m, clause, mdd, omc): (String, f64, f64, String, f64, f64) =
+            sqlx::query_as(
+                "SELECT l.code, l.chainage_from_m, l.chainage_to_m, c.code,
+                        t.max_dry_density_kg_m3, t.optimum_water_content_pct
+                 FROM lots l JOIN clauses c ON c.id = l.clause_id JOIN lab_tests t ON t.id = l.lab_test_id
+                 WHERE l.id = ?",
+            )
+            .bind(lot_id)
+            .fetch_one(&self.pool)
+            .await
+            .expect("lot facts");
+        LotFacts {
+            code,
+            chainage_from_m,
+            chainage_to_m,
+            clause,
+            mdd,
+            omc,
+        }
+    }
+
+    /// The demo project's field tests numbered `number` (at most one, if numbers are unique).
+    pub async fn tests_numbered(&self, number: &str) -> Vec<SavedTest> {
+        let rows: Vec<(i64, String, f64, Option<i64>)> = sqlx::query_as(
+            "SELECT lot_id, technician, chainage_m, retest_of FROM field_tests
+             WHERE project_id = ? AND number = ?",
+        )
+        .bind(PROJECT)
+        .bind(number)
+        .fetch_all(&self.pool)
+        .await
+        .expect("field tests by number");
+        rows.into_iter()
+            .map(|(lot_id, technician, chainage_m, retest_of)| SavedTest {
+                lot_id,
+                technician,
+                chainage_m,
+                retest_of,
+            })
+            .collect()
+    }
+}
+
+impl Drop for DemoApp {
+    fn drop(&mut self) {
+        if let Some(s) = self.stop.take() {
+            let _ = s.send(());
+        }
+    }
+}
+
+/// One test's world: a fresh app, a chromedriver, and a phone-sized browser.
+///
+/// Field order matters: the session closes before its driver goes.
+pub struct Rig {
+    pub browser: Session,
+    pub driver: Driver,
+    pub app: DemoApp,
+    pub name: &'static str,
+}
+
+impl Rig {
+    /// Starts everything, or returns `None` when the browsers are not installed.
+    pub async fn start(name: &'static str) -> Option<Rig> {
+        let browsers = webdriver::browsers_or_skip()?;
+        let app = DemoApp::spawn().await;
+        let driver = Driver::start(&browsers).await;
+        let browser = driver.session(true).await;
+        let rig = Rig {
+            browser,
+            driver,
+            app,
+            name,
+        };
+        rig.sign_in(&rig.browser).await;
+        Some(rig)
+    }
+
+    /// Signs a browser in through the sign-in form as the demo's site technician.
+    pub async fn sign_in(&self, b: &Session) {
+        let (username, _, _, password) = technician();
+        b.goto(&self.app.url("/sign-in")).await;
+        b.wait_for("#sign-in-form").await;
+        b.find("#username").await.type_over(username).await;
+        b.find("#password").await.type_over(password).await;
+        b.find("#sign-in").await.click().await;
+        b.wait_until("sign-in to finish", async || {
+            let path = b.current_path().await;
+            (!path.starts_with("/sign-in")).then_some(())
+        })
+        .await;
+    }
+
+    /// Opens a path of the app in the browser.
+    pub async fn open(&self, path: &str) {
+        self.browser.goto(&self.app.url(path)).await;
+    }
+
+    /// Saves screenshots of the browser's current page as `<test>-<step>`.
+    pub async fn shot(&self, step: &str) {
+        self.browser
+            .save_screenshots(&shots_dir(), &format!("{}-{step}", self.name))
+            .await;
+    }
+
+    /// Scrolls `css` to the top of the screen and saves what the phone shows as `<test>-<step>.png`.
+    pub async fn shot_at(&self, step: &str, css: &str) {
+        self.browser
+            .script(
+                "var e = document.querySelector(arguments[0]); if (e) e.scrollIntoView(true); return !!e;",
+                vec![serde_json::json!(css)],
+            )
+            .await;
+        let dir = shots_dir();
+        std::fs::create_dir_all(&dir).expect("screenshot dir");
+        std::fs::write(
+            dir.join(format!("{}-{step}.png", self.name)),
+            self.browser.screenshot().await,
+        )
+        .expect("write screenshot");
+    }
+
+    /// Closes the browser cleanly.
+    pub async fn finish(self) {
+        let Rig {
+            browser, driver, ..
+        } = self;
+        browser.quit().await;
+        drop(driver);
+    }
+}
+
+/// The demo's site technician: (user name, display name, role, password).
+pub fn technician() -> (&'static str, &'static str, &'static str, &'static str) {
+    liftledger::ledger::accounts::DEMO_USERS
+        .into_iter()
+        .find(|u| u.2 == "technician")
+        .expect("the demo has a technician")
+}
+
+/// `target/browser-shots/` (under `CARGO_TARGET_DIR` when that is set).
+pub fn shots_dir() -> PathBuf {
+    let target = std::env::var_os("CARGO_TARGET_DIR")
+        .map(PathBuf::from)
+        .unwrap_or_else(|| PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("target"));
+    target.join("browser-shots")
+}
+
+/// A chainage in metres as a technician types it (km+m, "1+234.500").
+pub fn km_m(metres: f64) -> String {
+    let km = (metres / 1000.0).floor();
+    format!("{}+{:07.3}", km as i64, metres - km * 1000.0)
+}
+
+/// Nuclear-gauge readings (wet density, moisture density, as typed) giving the
+/// wanted dry density and water content.
+pub fn nuclear_reading(dry_kg_m3: f64, water_pct: f64) -> (String, String) {
+    (
+        format!("{:.1}", dry_kg_m3 * (1.0 + water_pct / 100.0)),
+        format!("{:.1}", dry_kg_m3 * water_pct / 100.0),
+    )
+}
+
+/// The number of the test a lot-sheet URL points at ("/lots/3#test-FT-0012" → "FT-0012").
+pub fn test_number_in(path: &str) -> Option<String> {
+    path.split_once("#test-").map(|(_, n)| n.to_string())
+}
+
+#[test]
+fn chainages_are_typed_as_km_and_metres() {
+    assert_eq!(km_m(200.0), "0+200.000");
+    assert_eq!(km_m(1450.25), "1+450.250");
+    assert_eq!(km_m(12_005.5), "12+005.500");
+}
+
+#[test]
+fn nuclear_readings_reduce_back_to_the_wanted_point() {
+    let (wet, md) = nuclear_reading(1817.0, 14.3);
+    let (wet, md): (f64, f64) = (wet.parse().unwrap(), md.parse().unwrap());
+    let dry = wet - md;
+    assert!((dry - 1817.0).abs() < 0.2, "{dry}");
+    assert!((md / dry * 100.0 - 14.3).abs() < 0.01);
+}
