@@ -21,8 +21,8 @@ use crate::ledger::import::{
     import_field_tests,
 };
 use crate::ledger::{self, Actor, setup};
-use crate::reduction::field::FieldReadings;
-use crate::reduction::verdict::{Reference, reference_for_coarse_fraction};
+use crate::reduction::field::{FieldReadings, reduce_field};
+use crate::reduction::verdict::{Reference, SpecLimits, judge_test, reference_for_coarse_fraction};
 use crate::reduction::{Density, WaterContent};
 
 /// What to generate.
@@ -173,7 +173,7 @@ struct LotPlan {
     left_m: f64,
     right_m: f64,
     layer_index: u32,
-    rc_min: f64,
+    limits: SpecLimits,
     reference: Reference,
     gs_coarse: f64,
     oversize_limit: f64,
@@ -306,8 +306,12 @@ impl TestGenerator {
         let dev = self.rng.normal(0.0, w_sd);
         let dry = rc / 100.0 * reference.max_dry_density.kg_m3();
         let w = (reference.optimum_water_content.pct() + dev).max(1.0);
-        let failed = rc < lot.rc_min || dev.abs() > 2.0;
         let readings = self.readings(dry, w);
+        // Judged exactly as the record will judge it (after rounding of the readings).
+        let failed = match reduce_field(&readings) {
+            Ok(r) => !judge_test(r.dry_density, r.water_content, &reference, &lot.limits).passed,
+            Err(_) => true,
+        };
         let when = self.start
             + time::Duration::seconds(
                 (day * 86_400.0 + self.rng.between(0.0, 9.0 * 3600.0)) as i64,
@@ -364,7 +368,7 @@ impl TestGenerator {
                 chainage,
                 offset,
                 day,
-                lot.rc_min + 2.5,
+                lot.limits.rc_min_pct + 2.5,
                 1.5,
                 0.8,
             );
@@ -382,7 +386,7 @@ impl TestGenerator {
                     chainage,
                     offset,
                     day + f64::from(round),
-                    lot.rc_min + 3.0,
+                    lot.limits.rc_min_pct + 3.0,
                     1.0,
                     0.5,
                 );
@@ -588,7 +592,7 @@ pub async fn generate(pool: &Pool, opts: ScaleOptions) -> anyhow::Result<ScaleSu
                     left_m: -z.half_width_m,
                     right_m: z.half_width_m,
                     layer_index,
-                    rc_min: clause.rc_min_pct,
+                    limits: crate::ledger::lot_report::limits_of(clause),
                     reference,
                     gs_coarse: source_rows[z.source].gs_coarse.unwrap_or(2.65),
                     oversize_limit: clause.oversize_limit_pct,

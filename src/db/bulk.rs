@@ -81,17 +81,38 @@ pub async fn test_id_range(pool: &Pool, project_id: i64) -> sqlx::Result<Option<
     Ok(r.0.zip(r.1))
 }
 
-/// Number of the live (not void) retest of a test, if it has one.
-pub async fn live_retest_number(
+/// (failed test id, retest number) of every live (not void) retest of the given tests,
+/// the latest first (collected into a map, the earliest retest of each test wins).
+pub async fn live_retests_of(
     conn: &mut SqliteConnection,
-    failed_id: i64,
-) -> sqlx::Result<Option<String>> {
-    sqlx::query_scalar(
-        "SELECT number FROM field_tests WHERE retest_of = ? AND void_reason IS NULL ORDER BY id LIMIT 1",
-    )
-    .bind(failed_id)
-    .fetch_optional(conn)
-    .await
+    ids: &[i64],
+) -> sqlx::Result<Vec<(i64, String)>> {
+    let mut out = Vec::new();
+    let max = LOOKUP_SIZES[LOOKUP_SIZES.len() - 1];
+    for part in ids.chunks(max) {
+        let Some(last) = part.last() else {
+            continue;
+        };
+        let size = LOOKUP_SIZES
+            .iter()
+            .copied()
+            .find(|s| *s >= part.len())
+            .unwrap_or(max);
+        let marks = vec!["?"; size].join(", ");
+        let sql = format!(
+            "SELECT retest_of, number FROM field_tests
+             WHERE void_reason IS NULL AND retest_of IN ({marks}) ORDER BY id DESC"
+        );
+        let mut q = sqlx::query_as::<_, (i64, String)>(sqlx::AssertSqlSafe(sql));
+        for id in part {
+            q = q.bind(*id);
+        }
+        for _ in part.len()..size {
+            q = q.bind(*last);
+        }
+        out.extend(q.fetch_all(&mut *conn).await?);
+    }
+    Ok(out)
 }
 
 fn insert_sql(rows: usize) -> String {

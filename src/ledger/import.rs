@@ -34,6 +34,8 @@ use crate::error::{AppError, Result};
 pub const MAX_PROBLEMS: usize = 10_000;
 /// Rows read before their numbers are looked up in one query.
 const CHUNK_ROWS: usize = 512;
+/// Rows checked between two chances for the concurrent insert to move on.
+const YIELD_ROWS: usize = 32;
 
 /// One thing wrong with one row (or, at row 1, with the header or the mapping).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -142,7 +144,7 @@ pub struct ImportOptions {
 #[derive(Debug, Clone, Default, Serialize)]
 pub struct ImportReport {
     pub origin: SourceOrigin,
-    /// True when the tests were written.
+    /// True when a commit went through: every new row written (none when nothing was new).
     pub committed: bool,
     /// Data rows read (header not counted).
     pub rows: u64,
@@ -419,23 +421,20 @@ const MAX_REFUSED_NUMBERS: usize = 100_000;
 
 impl Run<'_> {
     /// Remembers a stored test met as a retest target or a repeated number.
-    async fn remember_stored(
-        &mut self,
-        conn: &mut sqlx::SqliteConnection,
-        t: &FieldTest,
-    ) -> Result<Seen> {
+    fn remember_stored(&mut self, t: &FieldTest, stored: &Stored) -> Seen {
         if let Some(s) = self.seen.get(t.number.as_str()) {
-            return Ok(*s);
+            return *s;
         }
         let passed = self
             .lots
             .by_id(t.lot_id)
             .and_then(|ctx| field::judge(ctx, t).ok())
             .is_some_and(|v| v.passed);
-        let retest = bulk::live_retest_number(conn, t.id).await?;
+        let retest = stored.live_retests.get(&t.id);
         let retested = retest.is_some();
         if let Some(r) = retest {
-            self.retests.insert(t.number.as_str().into(), r.into());
+            self.retests
+                .insert(t.number.as_str().into(), r.as_str().into());
         }
         let s = Seen {
             hash: 0,
@@ -453,16 +452,12 @@ impl Run<'_> {
             self.failed_spots
                 .insert(t.number.as_str().into(), Spot::of(t));
         }
-        Ok(s)
+        s
     }
 
-    /// Checks one row; queues it for insertion when it is new and sound.
-    async fn process(
-        &mut self,
-        conn: &mut sqlx::SqliteConnection,
-        row: ImportRow,
-        stored: &HashMap<String, FieldTest>,
-    ) -> Result<()> {
+    /// Checks one row; queues it for insertion when it is new and sound. No database
+    /// access: what the row needs of the store was looked up for its chunk.
+    fn process(&mut self, row: ImportRow, stored: &Stored) -> Result<()> {
         let mut problems = Vec::new();
         let number = row
             .input
@@ -503,10 +498,10 @@ impl Run<'_> {
         {
             let found = match self.seen.get(failed) {
                 Some(s) => Some(*s),
-                None => match stored.get(failed) {
-                    Some(t) => Some(self.remember_stored(conn, t).await?),
-                    None => None,
-                },
+                None => stored
+                    .tests
+                    .get(failed)
+                    .map(|t| self.remember_stored(t, stored)),
             };
             match found {
                 Some(s) => target = Some((failed.to_string(), s)),
@@ -620,11 +615,11 @@ impl Run<'_> {
             }
             return Ok(());
         }
-        if let Some(old) = stored.get(number.as_str()) {
+        if let Some(old) = stored.tests.get(number.as_str()) {
             let diff = differences(&record, old);
             if diff.is_empty() {
                 self.report.skipped_identical += 1;
-                let mut s = self.remember_stored(conn, old).await?;
+                let mut s = self.remember_stored(old, stored);
                 s.hash = hash;
                 s.in_file = true;
                 s.row = row.row;
@@ -736,25 +731,90 @@ impl Run<'_> {
         self.pending_audit.clear();
         self.report.add_problems(problems);
     }
+}
 
-    async fn flush(&mut self, conn: &mut sqlx::SqliteConnection) -> Result<()> {
-        if self.pending.is_empty() {
-            return Ok(());
+/// What a chunk of rows needs of the store: its stored tests by number, and their live retests.
+#[derive(Default)]
+struct Stored {
+    tests: HashMap<String, FieldTest>,
+    /// Stored test id → number of its live retest.
+    live_retests: HashMap<i64, String>,
+}
+
+/// Looks up every stored test a chunk names (its numbers and retest targets) in a few queries.
+async fn look_up(
+    conn: &mut sqlx::SqliteConnection,
+    project_id: i64,
+    chunk: &[RowResult],
+    seen: &HashMap<Box<str>, Seen>,
+) -> Result<Stored> {
+    let mut wanted: Vec<&str> = Vec::new();
+    for r in chunk.iter().flatten() {
+        for n in [r.input.number.as_deref(), r.retest_of.as_deref()]
+            .into_iter()
+            .flatten()
+        {
+            let n = n.trim();
+            // A number this import creates is never looked for (it is not stored yet).
+            if !n.is_empty() && seen.get(n).is_none_or(|s| s.stored) {
+                wanted.push(n);
+            }
         }
-        bulk::insert_field_tests(conn, &self.pending).await?;
-        self.pending.clear();
-        if !self.pending_audit.is_empty() {
-            bulk::insert_audit_rows(conn, &self.pending_audit).await?;
-            self.pending_audit.clear();
-        }
-        Ok(())
     }
+    if wanted.is_empty() {
+        return Ok(Stored::default());
+    }
+    wanted.sort_unstable();
+    wanted.dedup();
+    let tests: HashMap<String, FieldTest> = bulk::tests_by_numbers(conn, project_id, &wanted)
+        .await?
+        .into_iter()
+        .map(|t| (t.number.clone(), t))
+        .collect();
+    let ids: Vec<i64> = tests.values().map(|t| t.id).collect();
+    let live_retests = bulk::live_retests_of(conn, &ids)
+        .await?
+        .into_iter()
+        .collect();
+    Ok(Stored {
+        tests,
+        live_retests,
+    })
+}
+
+/// Inserts queued tests (and their audit rows) through the import's transaction.
+async fn insert_queued(
+    conn: &mut sqlx::SqliteConnection,
+    tests: Vec<FieldTest>,
+    audits: Vec<bulk::AuditRow>,
+) -> Result<()> {
+    if !tests.is_empty() {
+        bulk::insert_field_tests(conn, &tests).await?;
+    }
+    if !audits.is_empty() {
+        bulk::insert_audit_rows(conn, &audits).await?;
+    }
+    Ok(())
+}
+
+/// Reads up to a chunk of rows from the source.
+fn read_chunk(source: &mut dyn RowSource) -> Vec<RowResult> {
+    let mut chunk = Vec::with_capacity(CHUNK_ROWS);
+    while chunk.len() < CHUNK_ROWS {
+        match source.next_row() {
+            Some(r) => chunk.push(r),
+            None => break,
+        }
+    }
+    chunk
 }
 
 /// Checks (dry run) or imports (commit) every row of a source into a project.
 ///
 /// A dry run writes nothing. A commit writes all rows or none, in one write transaction
-/// holding the write lock from start to end; any problem or conflict refuses it.
+/// holding the write lock from start to end; any problem or conflict refuses it. A
+/// commit with nothing new (every row already stored) writes nothing either and
+/// reports `committed` with no ids.
 #[tracing::instrument(skip(pool, source, opts), fields(commit = opts.commit))]
 pub async fn import_field_tests(
     pool: &Pool,
@@ -789,53 +849,43 @@ pub async fn import_field_tests(
         },
     };
     let first_id = run.next_id;
-    let mut chunk: Vec<RowResult> = Vec::with_capacity(CHUNK_ROWS);
-    loop {
-        chunk.clear();
-        while chunk.len() < CHUNK_ROWS {
-            match source.next_row() {
-                Some(r) => chunk.push(r),
-                None => break,
-            }
-        }
-        if chunk.is_empty() {
-            break;
-        }
-        // One query finds every stored test this chunk names (its numbers and retest targets).
-        let mut wanted: Vec<&str> = Vec::new();
-        for r in chunk.iter().flatten() {
-            for n in [r.input.number.as_deref(), r.retest_of.as_deref()]
-                .into_iter()
-                .flatten()
-            {
-                let n = n.trim();
-                if !n.is_empty() && run.seen.get(n).is_none_or(|s| s.stored) {
-                    wanted.push(n);
+    // A pipeline: while the write connection inserts chunk k, chunk k + 1 is checked and
+    // chunk k + 2 looked up on a second connection, which sees the store as it was before
+    // this import (the import's writes are not committed, and no one else can commit).
+    let mut reader = pool.acquire().await?;
+    let mut chunk = read_chunk(source);
+    let mut stored = look_up(&mut reader, project_id, &chunk, &run.seen).await?;
+    while !chunk.is_empty() {
+        let tests = std::mem::take(&mut run.pending);
+        let audits = std::mem::take(&mut run.pending_audit);
+        let checking = async {
+            for (i, r) in chunk.drain(..).enumerate() {
+                run.report.rows += 1;
+                match r {
+                    Ok(row) => run.process(row, &stored)?,
+                    Err(problems) => run.refuse("", problems),
+                }
+                if i % YIELD_ROWS == YIELD_ROWS - 1 {
+                    // Lets the insert beside it send its next statement.
+                    tokio::task::yield_now().await;
                 }
             }
-        }
-        wanted.sort_unstable();
-        wanted.dedup();
-        let stored: HashMap<String, FieldTest> = if wanted.is_empty() {
-            HashMap::new()
-        } else {
-            bulk::tests_by_numbers(&mut tx, project_id, &wanted)
-                .await?
-                .into_iter()
-                .map(|t| (t.number.clone(), t))
-                .collect()
+            let next = read_chunk(source);
+            let next_stored = look_up(&mut reader, project_id, &next, &run.seen).await?;
+            Ok::<_, AppError>((next, next_stored))
         };
-        for r in chunk.drain(..) {
-            run.report.rows += 1;
-            match r {
-                Ok(row) => run.process(&mut tx, row, &stored).await?,
-                Err(problems) => run.refuse("", problems),
-            }
-        }
-        if opts.commit && run.report.rows_with_problems == 0 {
-            run.flush(&mut tx).await?;
-        }
-        tokio::task::yield_now().await;
+        let (inserted, next) = if opts.commit && !tests.is_empty() {
+            tokio::join!(insert_queued(&mut tx, tests, audits), checking)
+        } else {
+            (Ok(()), checking.await)
+        };
+        inserted?;
+        (chunk, stored) = next?;
+    }
+    if opts.commit && run.report.rows_with_problems == 0 {
+        let tests = std::mem::take(&mut run.pending);
+        let audits = std::mem::take(&mut run.pending_audit);
+        insert_queued(&mut tx, tests, audits).await?;
     }
     run.report.origin = source.origin();
     let mut report = run.report;
@@ -844,10 +894,15 @@ pub async fn import_field_tests(
         report.elapsed_ms = started.elapsed().as_millis() as u64;
         return Ok(report);
     }
-    let last_id = first_id + report.new_tests as i64 - 1;
-    if report.new_tests > 0 {
-        report.created_ids = Some((first_id, last_id));
+    if report.new_tests == 0 {
+        // Nothing new (a re-upload): nothing is written, not even an audit row.
+        tx.rollback().await?;
+        report.committed = true;
+        report.elapsed_ms = started.elapsed().as_millis() as u64;
+        return Ok(report);
     }
+    let last_id = first_id + report.new_tests as i64 - 1;
+    report.created_ids = Some((first_id, last_id));
     audit::record(
         &mut tx,
         &audit::Change {

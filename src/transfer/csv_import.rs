@@ -19,7 +19,9 @@ use crate::ledger::import::{
 };
 use crate::ledger::setup::LabPointInput;
 use crate::reduction::field::FieldReadings;
-use crate::reduction::{Chainage, ChainageStyle, Density, METRES_PER_FOOT, UnitSystem};
+use crate::reduction::{
+    Chainage, ChainageStyle, Density, KG_M3_PER_LB_FT3, METRES_PER_FOOT, UnitSystem,
+};
 
 /// Longest cell accepted, characters (a longer one is a problem, not a crash).
 pub const MAX_CELL_CHARS: usize = 10_000;
@@ -438,6 +440,16 @@ impl CellReader<'_> {
         }
     }
 
+    /// A nuclear moisture density (mass of water per volume, far below any bulk density),
+    /// in the file's unit, as kg/m³; the reduction checks its range.
+    fn moisture_density(&mut self) -> Option<f64> {
+        let x = self.number(Target::MoistureDensity)?;
+        Some(match self.units {
+            UnitSystem::Si => x,
+            UnitSystem::Us => x * KG_M3_PER_LB_FT3,
+        })
+    }
+
     fn required_density(&mut self, t: Target, method: &str) -> Option<f64> {
         if !self.cells.contains_key(&t) {
             self.problem(
@@ -448,6 +460,15 @@ impl CellReader<'_> {
             return None;
         }
         self.density(t)
+    }
+}
+
+/// Turns a lone decimal comma into a point ("1,5" → "1.5"); text with a point is left alone.
+fn decimal_point(raw: &str) -> std::borrow::Cow<'_, str> {
+    if raw.contains(',') && !raw.contains('.') {
+        raw.replace(',', ".").into()
+    } else {
+        raw.into()
     }
 }
 
@@ -484,7 +505,8 @@ fn build_input(
         }
     };
     let chainage = match r.cells.get(&Target::Chainage).copied() {
-        Some(raw) => match Chainage::parse(raw, r.chainage) {
+        // A decimal comma ("1+040,5" in a semicolon file) reads as a point.
+        Some(raw) => match Chainage::parse(&decimal_point(raw), r.chainage) {
             Ok(c) => Some(c.metres()),
             Err(e) => {
                 r.problem(Target::Chainage, raw, e.to_string());
@@ -506,7 +528,7 @@ fn build_input(
     let readings = match method? {
         m @ "nuclear" => {
             let wet = r.required_density(Target::WetDensity, m);
-            let md = r.density(Target::MoistureDensity);
+            let md = r.moisture_density();
             let gw = r.number(Target::GaugeWaterContentPct);
             let oven = r.number(Target::OvenWaterContentPct);
             if !r.cells.contains_key(&Target::MoistureDensity)
