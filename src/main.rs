@@ -18,13 +18,13 @@ async fn main() -> anyhow::Result<()> {
         .init();
     match Cli::parse().command {
         Command::Migrate(a) => {
-            db::open(&a.db).await?;
-            println!("database {} is up to date", a.db.display());
+            db::connect(&a.location()).await?;
+            println!("database {} is up to date", a.location().redacted());
         }
         Command::Demo(a) => {
-            let pool = db::open(&a.db).await?;
+            let pool = db::connect(&a.location()).await?;
             let summary = demo::load(&pool).await?;
-            println!("loaded demo project into {}: {summary}", a.db.display());
+            println!("loaded demo project into {}: {summary}", a.location().redacted());
         }
         Command::User(UserCommand::Add {
             db,
@@ -32,7 +32,7 @@ async fn main() -> anyhow::Result<()> {
             name,
             admin,
         }) => {
-            let pool = db::open(&db.db).await?;
+            let pool = db::connect(&db.location()).await?;
             let mut password = String::new();
             std::io::stdin().lock().read_line(&mut password)?;
             let input = accounts::UserInput {
@@ -47,7 +47,7 @@ async fn main() -> anyhow::Result<()> {
             println!(
                 "user {} created{}",
                 u.username,
-                if u.is_admin { " (administrator)" } else { "" }
+                if u.admin() { " (administrator)" } else { "" }
             );
         }
         Command::User(UserCommand::Grant {
@@ -56,7 +56,7 @@ async fn main() -> anyhow::Result<()> {
             project,
             role,
         }) => {
-            let pool = db::open(&db.db).await?;
+            let pool = db::connect(&db.location()).await?;
             let p = db::projects::get_by_code(&pool, &project.to_ascii_uppercase())
                 .await?
                 .ok_or_else(|| anyhow::anyhow!("no project with code {project}"))?;
@@ -66,21 +66,18 @@ async fn main() -> anyhow::Result<()> {
             println!("{username} is now {role} in {}", p.code);
         }
         Command::Serve(a) => {
-            let path = a.db.clone().unwrap_or_else(|| {
-                if a.demo {
-                    "liftledger-demo.sqlite"
-                } else {
-                    "liftledger.sqlite"
-                }
-                .into()
+            let typed = a.db.clone().unwrap_or_else(|| {
+                if a.demo { "liftledger-demo.sqlite" } else { "liftledger.sqlite" }.into()
             });
-            let fresh = !path.exists();
-            let pool = db::open(&path).await?;
+            let location = db::Location::parse(&typed, a.db_pool);
+            let pool = db::connect(&location).await?;
+            // The demo is loaded into a database that holds no project yet.
+            let fresh = db::projects::list(&pool).await?.is_empty();
             if a.demo && fresh {
                 let summary = demo::load(&pool)
                     .await
                     .context("loading the demo project")?;
-                println!("demo project loaded into {} ({summary})", path.display());
+                println!("demo project loaded into {} ({summary})", location.redacted());
             }
             if a.demo {
                 println!("demo sign-ins (invented people; demo use only):");
@@ -99,7 +96,7 @@ async fn main() -> anyhow::Result<()> {
                 .await
                 .with_context(|| format!("binding {}", a.addr))?;
             let addr = listener.local_addr()?;
-            println!("liftledger is serving {} at http://{addr}/", path.display());
+            println!("liftledger is serving {} at http://{addr}/", location.redacted());
             let state = AppState::new(
                 pool.clone(),
                 Settings {

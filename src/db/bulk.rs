@@ -6,7 +6,7 @@
 //! connection) so an import reads and writes through the one transaction it commits.
 
 use serde::Serialize;
-use sqlx::SqliteConnection;
+use super::Conn as SqliteConnection;
 
 use super::Pool;
 use super::Tx;
@@ -57,7 +57,7 @@ pub async fn tests_by_numbers(
             .unwrap_or(max);
         let marks = vec!["?"; size].join(", ");
         let sql = format!(
-            "SELECT {TEST_COLUMNS} FROM field_tests WHERE project_id = ? AND number IN ({marks})"
+            "SELECT {TEST_COLUMNS} FROM field_tests WHERE project_id = $1 AND number IN ({marks})"
         );
         let mut q = sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(sql)).bind(project_id);
         for n in part {
@@ -74,7 +74,7 @@ pub async fn tests_by_numbers(
 /// Smallest and largest id of a project's tests (None when it has none).
 pub async fn test_id_range(pool: &Pool, project_id: i64) -> sqlx::Result<Option<(i64, i64)>> {
     let r: (Option<i64>, Option<i64>) =
-        sqlx::query_as("SELECT MIN(id), MAX(id) FROM field_tests WHERE project_id = ?")
+        sqlx::query_as("SELECT MIN(id), MAX(id) FROM field_tests WHERE project_id = $1")
             .bind(project_id)
             .fetch_one(pool)
             .await?;
@@ -87,7 +87,7 @@ pub async fn live_retest_number(
     failed_id: i64,
 ) -> sqlx::Result<Option<String>> {
     sqlx::query_scalar(
-        "SELECT number FROM field_tests WHERE retest_of = ? AND void_reason IS NULL ORDER BY id LIMIT 1",
+        "SELECT number FROM field_tests WHERE retest_of = $1 AND void_reason IS NULL ORDER BY id LIMIT 1",
     )
     .bind(failed_id)
     .fetch_optional(conn)
@@ -202,7 +202,7 @@ pub const VIEW_COLUMNS: &str = "id, project_id, lot_id, number, tested_at, techn
 /// project overview needs, at a fraction of the bytes of a full read.
 pub async fn tests_for_project_views(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<FieldTest>> {
     sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
-        "SELECT {VIEW_COLUMNS} FROM field_tests WHERE project_id = ? ORDER BY lot_id, tested_at, id"
+        "SELECT {VIEW_COLUMNS} FROM field_tests WHERE project_id = $1 ORDER BY lot_id, tested_at, id"
     )))
     .bind(project_id)
     .fetch_all(pool)
@@ -231,7 +231,7 @@ pub async fn insert_mapping(
 ) -> sqlx::Result<i64> {
     sqlx::query_scalar(
         "INSERT INTO import_mappings (project_id, name, mapping_json, created_at, created_by)
-         VALUES (?, ?, ?, ?, ?) RETURNING id",
+         VALUES ($1, $2, $3, $4, $5) RETURNING id",
     )
     .bind(project_id)
     .bind(name)
@@ -250,7 +250,7 @@ pub async fn update_mapping(
     mapping_json: &str,
 ) -> sqlx::Result<bool> {
     let done = sqlx::query(
-        "UPDATE import_mappings SET mapping_json = ? WHERE project_id = ? AND name = ?",
+        "UPDATE import_mappings SET mapping_json = $1 WHERE project_id = $2 AND name = $3",
     )
     .bind(mapping_json)
     .bind(project_id)
@@ -268,7 +268,7 @@ pub async fn get_mapping(
 ) -> sqlx::Result<Option<SavedMapping>> {
     sqlx::query_as::<_, SavedMapping>(
         "SELECT id, project_id, name, mapping_json, created_at, created_by
-         FROM import_mappings WHERE project_id = ? AND name = ?",
+         FROM import_mappings WHERE project_id = $1 AND name = $2",
     )
     .bind(project_id)
     .bind(name)
@@ -280,7 +280,7 @@ pub async fn get_mapping(
 pub async fn list_mappings(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<SavedMapping>> {
     sqlx::query_as::<_, SavedMapping>(
         "SELECT id, project_id, name, mapping_json, created_at, created_by
-         FROM import_mappings WHERE project_id = ? ORDER BY name",
+         FROM import_mappings WHERE project_id = $1 ORDER BY name",
     )
     .bind(project_id)
     .fetch_all(pool)

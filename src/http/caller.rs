@@ -64,7 +64,7 @@ impl Caller {
 
     /// True for a signed-in admin.
     pub fn is_admin(&self) -> bool {
-        matches!(&self.principal, Principal::User(u) if u.is_admin)
+        matches!(&self.principal, Principal::User(u) if u.admin())
     }
 
     /// The caller's role in a project, if any.
@@ -81,7 +81,7 @@ impl Caller {
     /// Ids of the projects this caller may see.
     pub async fn visible_projects(&self, pool: &db::Pool) -> Result<Option<Vec<i64>>> {
         Ok(match &self.principal {
-            Principal::User(u) if u.is_admin => None,
+            Principal::User(u) if u.admin() => None,
             Principal::User(u) => Some(users::project_ids(pool, u.id).await?),
             Principal::Token(t) => Some(vec![t.project_id]),
         })

@@ -355,12 +355,7 @@ async fn store(
     let mut record = checked.record;
     let mut tx = db::begin_write(pool).await?;
     if record.number.is_empty() {
-        let count: i64 =
-            sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE project_id = ?")
-                .bind(record.project_id)
-                .fetch_one(&mut *tx)
-                .await?;
-        record.number = format!("T-{:05}", count + 1);
+        record.number = db::field_tests::next_number(&mut tx, record.project_id).await?;
     }
     let id = match db::field_tests::insert(&mut tx, &record).await {
         Ok(id) => id,

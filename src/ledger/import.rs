@@ -421,7 +421,7 @@ impl Run<'_> {
     /// Remembers a stored test met as a retest target or a repeated number.
     async fn remember_stored(
         &mut self,
-        conn: &mut sqlx::SqliteConnection,
+        conn: &mut crate::db::Conn,
         t: &FieldTest,
     ) -> Result<Seen> {
         if let Some(s) = self.seen.get(t.number.as_str()) {
@@ -459,7 +459,7 @@ impl Run<'_> {
     /// Checks one row; queues it for insertion when it is new and sound.
     async fn process(
         &mut self,
-        conn: &mut sqlx::SqliteConnection,
+        conn: &mut crate::db::Conn,
         row: ImportRow,
         stored: &HashMap<String, FieldTest>,
     ) -> Result<()> {
@@ -737,7 +737,7 @@ impl Run<'_> {
         self.report.add_problems(problems);
     }
 
-    async fn flush(&mut self, conn: &mut sqlx::SqliteConnection) -> Result<()> {
+    async fn flush(&mut self, conn: &mut crate::db::Conn) -> Result<()> {
         if self.pending.is_empty() {
             return Ok(());
         }

@@ -234,6 +234,8 @@ async fn issue_certificate(
     actor: &Actor,
     now: &str,
 ) -> Result<()> {
+    // Certificate numbers are per project, unique and without gaps: take the project lock first.
+    db::lock_project(tx, report.lot.project_id).await?;
     let previous = db::certificates::current_for_lot_tx(tx, report.lot.id).await?;
     let all_for_lot = db::certificates::for_lot(pool, report.lot.id).await?;
     let (sequence, revision) = match all_for_lot.first() {
