@@ -21,6 +21,15 @@ pub enum Command {
     Migrate(DbArgs),
     /// Load the invented demo project into a database file.
     Demo(DbArgs),
+    /// Copy a whole database into a new, empty one on another engine, then verify it.
+    Copy {
+        /// Source: an SQLite file, `sqlite://FILE` or `postgres://…`.
+        #[arg(long)]
+        from: String,
+        /// Target (must be empty): an SQLite file, `sqlite://FILE` or `postgres://…`.
+        #[arg(long)]
+        to: String,
+    },
     /// Manage users: add one, or give one a role in a project.
     #[command(subcommand)]
     User(UserCommand),

@@ -24,7 +24,10 @@ async fn main() -> anyhow::Result<()> {
         Command::Demo(a) => {
             let pool = db::connect(&a.location()).await?;
             let summary = demo::load(&pool).await?;
-            println!("loaded demo project into {}: {summary}", a.location().redacted());
+            println!(
+                "loaded demo project into {}: {summary}",
+                a.location().redacted()
+            );
         }
         Command::User(UserCommand::Add {
             db,
@@ -65,9 +68,26 @@ async fn main() -> anyhow::Result<()> {
                 .map_err(|e| anyhow::anyhow!("{}: {}", e.field(), e.user_message()))?;
             println!("{username} is now {role} in {}", p.code);
         }
+        Command::Copy { from, to } => {
+            let source = db::connect(&db::Location::parse(&from, 4)).await?;
+            let target = db::connect(&db::Location::parse(&to, 4)).await?;
+            let report = db::copy::copy_all(&source, &target).await?;
+            for (table, n) in &report.rows {
+                println!("{table:<18} {n:>9} rows");
+            }
+            println!(
+                "copied and verified: row counts equal, {} certificate hashes match",
+                report.certificates_verified
+            );
+        }
         Command::Serve(a) => {
             let typed = a.db.clone().unwrap_or_else(|| {
-                if a.demo { "liftledger-demo.sqlite" } else { "liftledger.sqlite" }.into()
+                if a.demo {
+                    "liftledger-demo.sqlite"
+                } else {
+                    "liftledger.sqlite"
+                }
+                .into()
             });
             let location = db::Location::parse(&typed, a.db_pool);
             let pool = db::connect(&location).await?;
@@ -77,7 +97,10 @@ async fn main() -> anyhow::Result<()> {
                 let summary = demo::load(&pool)
                     .await
                     .context("loading the demo project")?;
-                println!("demo project loaded into {} ({summary})", location.redacted());
+                println!(
+                    "demo project loaded into {} ({summary})",
+                    location.redacted()
+                );
             }
             if a.demo {
                 println!("demo sign-ins (invented people; demo use only):");
@@ -96,7 +119,10 @@ async fn main() -> anyhow::Result<()> {
                 .await
                 .with_context(|| format!("binding {}", a.addr))?;
             let addr = listener.local_addr()?;
-            println!("liftledger is serving {} at http://{addr}/", location.redacted());
+            println!(
+                "liftledger is serving {} at http://{addr}/",
+                location.redacted()
+            );
             let state = AppState::new(
                 pool.clone(),
                 Settings {

@@ -5,8 +5,8 @@
 //! Functions take a plain connection (`&mut **tx` of a transaction, or a pooled
 //! connection) so an import reads and writes through the one transaction it commits.
 
-use serde::Serialize;
 use super::Conn as SqliteConnection;
+use serde::Serialize;
 
 use super::Pool;
 use super::Tx;

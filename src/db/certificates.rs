@@ -62,11 +62,13 @@ pub async fn current_for_lot_tx(tx: &mut Tx<'_>, lot_id: i64) -> sqlx::Result<Op
 
 /// Marks a certificate superseded.
 pub async fn supersede(tx: &mut Tx<'_>, id: i64, now: &str) -> sqlx::Result<()> {
-    sqlx::query("UPDATE certificates SET superseded_at = $1 WHERE id = $2 AND superseded_at IS NULL")
-        .bind(now)
-        .bind(id)
-        .execute(&mut **tx)
-        .await?;
+    sqlx::query(
+        "UPDATE certificates SET superseded_at = $1 WHERE id = $2 AND superseded_at IS NULL",
+    )
+    .bind(now)
+    .bind(id)
+    .execute(&mut **tx)
+    .await?;
     Ok(())
 }
 
@@ -138,5 +140,15 @@ pub async fn find(pool: &Pool, code_or_hash: &str) -> sqlx::Result<Option<Certif
     .bind(code_or_hash.to_ascii_uppercase())
     .bind(code_or_hash.to_ascii_lowercase())
     .fetch_optional(pool)
+    .await
+}
+
+/// Every revision for a lot, newest first, read inside the issuing transaction.
+pub async fn for_lot_tx(tx: &mut Tx<'_>, lot_id: i64) -> sqlx::Result<Vec<Certificate>> {
+    sqlx::query_as::<_, Certificate>(sqlx::AssertSqlSafe(format!(
+        "SELECT {COLUMNS} FROM certificates WHERE lot_id = $1 ORDER BY revision DESC"
+    )))
+    .bind(lot_id)
+    .fetch_all(&mut **tx)
     .await
 }

@@ -158,14 +158,15 @@ pub async fn transition(
     comment: &str,
     now: &str,
 ) -> sqlx::Result<bool> {
-    let done =
-        sqlx::query("UPDATE lots SET state = $1, state_changed_at = $2 WHERE id = $3 AND state = $4")
-            .bind(to)
-            .bind(now)
-            .bind(lot_id)
-            .bind(from)
-            .execute(&mut **tx)
-            .await?;
+    let done = sqlx::query(
+        "UPDATE lots SET state = $1, state_changed_at = $2 WHERE id = $3 AND state = $4",
+    )
+    .bind(to)
+    .bind(now)
+    .bind(lot_id)
+    .bind(from)
+    .execute(&mut **tx)
+    .await?;
     if done.rows_affected() != 1 {
         return Ok(false);
     }
@@ -211,4 +212,14 @@ pub async fn repoint_lab_test(tx: &mut Tx<'_>, old: i64, new: i64) -> sqlx::Resu
         .execute(&mut **tx)
         .await?;
     Ok(done.rows_affected())
+}
+
+/// Every state change of a lot, read inside a transaction.
+pub async fn transitions_tx(tx: &mut Tx<'_>, lot_id: i64) -> sqlx::Result<Vec<Transition>> {
+    sqlx::query_as::<_, Transition>(
+        "SELECT id, lot_id, from_state, to_state, actor, at, comment FROM lot_transitions WHERE lot_id = $1 ORDER BY id",
+    )
+    .bind(lot_id)
+    .fetch_all(&mut **tx)
+    .await
 }

@@ -10,6 +10,7 @@ pub mod audit;
 pub mod bulk;
 pub mod certificates;
 pub mod clauses;
+pub mod copy;
 pub mod field_tests;
 pub mod lab_tests;
 pub mod layers;
@@ -55,12 +56,18 @@ pub struct Location {
 impl Location {
     /// Reads what the user typed; a bare path is an SQLite file.
     pub fn parse(s: &str, max_connections: u32) -> Self {
-        let url = if s.starts_with("postgres://") || s.starts_with("postgresql://") || s.starts_with("sqlite:") {
+        let url = if s.starts_with("postgres://")
+            || s.starts_with("postgresql://")
+            || s.starts_with("sqlite:")
+        {
             s.to_string()
         } else {
             format!("sqlite://{s}")
         };
-        Self { url, max_connections }
+        Self {
+            url,
+            max_connections,
+        }
     }
 
     /// An SQLite file.
@@ -79,7 +86,10 @@ impl Location {
 
     /// The file of an SQLite location.
     pub fn sqlite_path(&self) -> Option<std::path::PathBuf> {
-        let rest = self.url.strip_prefix("sqlite://").or_else(|| self.url.strip_prefix("sqlite:"))?;
+        let rest = self
+            .url
+            .strip_prefix("sqlite://")
+            .or_else(|| self.url.strip_prefix("sqlite:"))?;
         Some(rest.split('?').next().unwrap_or(rest).into())
     }
 
@@ -94,7 +104,12 @@ impl Location {
 
 /// The engine behind a pool.
 pub fn engine_of(pool: &Pool) -> Engine {
-    if pool.connect_options().database_url.as_str().starts_with("postgres") {
+    if pool
+        .connect_options()
+        .database_url
+        .as_str()
+        .starts_with("postgres")
+    {
         Engine::Postgres
     } else {
         Engine::Sqlite
@@ -160,12 +175,14 @@ pub async fn migrate(pool: &Pool) -> anyhow::Result<()> {
 
 /// True when the error is a UNIQUE constraint violation (a duplicate code or number).
 pub fn is_unique_violation(err: &sqlx::Error) -> bool {
-    err.as_database_error().is_some_and(|e| e.is_unique_violation())
+    err.as_database_error()
+        .is_some_and(|e| e.is_unique_violation())
 }
 
 /// True when the error is a foreign-key violation (a reference to a row that does not exist).
 pub fn is_foreign_key_violation(err: &sqlx::Error) -> bool {
-    err.as_database_error().is_some_and(|e| e.is_foreign_key_violation())
+    err.as_database_error()
+        .is_some_and(|e| e.is_foreign_key_violation())
 }
 
 /// Starts a write transaction. On SQLite it takes the write lock at once

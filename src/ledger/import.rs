@@ -419,11 +419,7 @@ const MAX_REFUSED_NUMBERS: usize = 100_000;
 
 impl Run<'_> {
     /// Remembers a stored test met as a retest target or a repeated number.
-    async fn remember_stored(
-        &mut self,
-        conn: &mut crate::db::Conn,
-        t: &FieldTest,
-    ) -> Result<Seen> {
+    async fn remember_stored(&mut self, conn: &mut crate::db::Conn, t: &FieldTest) -> Result<Seen> {
         if let Some(s) = self.seen.get(t.number.as_str()) {
             return Ok(*s);
         }

@@ -228,13 +228,22 @@ pub async fn fresh_location(path: &std::path::Path) -> db::Location {
             use sqlx::Connection;
             let admin = std::env::var("LIFTLEDGER_TEST_PG")
                 .unwrap_or_else(|_| "postgres://postgres@127.0.0.1:5432/test".to_string());
-            let name = format!("ll_t_{}", liftledger::auth::secret::digest(&liftledger::auth::secret::new("").unwrap())[..16].to_string());
-            let mut conn = sqlx::PgConnection::connect(&admin).await.expect("PostgreSQL for tests");
+            let name = format!(
+                "ll_t_{}",
+                liftledger::auth::secret::digest(&liftledger::auth::secret::new("").unwrap())[..16]
+                    .to_string()
+            );
+            let mut conn = sqlx::PgConnection::connect(&admin)
+                .await
+                .expect("PostgreSQL for tests");
             sqlx::query(sqlx::AssertSqlSafe(format!("CREATE DATABASE {name}")))
                 .execute(&mut conn)
                 .await
                 .expect("create test database");
-            let base = admin.rsplit_once('/').map_or(admin.as_str(), |(b, _)| b).to_string();
+            let base = admin
+                .rsplit_once('/')
+                .map_or(admin.as_str(), |(b, _)| b)
+                .to_string();
             db::Location::parse(&format!("{base}/{name}"), 8)
         }
     }

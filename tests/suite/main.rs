@@ -11,3 +11,4 @@ mod concurrency;
 mod openapi;
 mod pages;
 mod restart;
+mod shared_postgres;
