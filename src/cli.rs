@@ -1,7 +1,6 @@
 //! The command line: `liftledger serve`, `migrate` and `demo`.
 
 use std::net::SocketAddr;
-use std::path::PathBuf;
 
 use clap::{Parser, Subcommand};
 
@@ -22,6 +21,15 @@ pub enum Command {
     Migrate(DbArgs),
     /// Load the invented demo project into a database file.
     Demo(DbArgs),
+    /// Copy a whole database into a new, empty one on another engine, then verify it.
+    Copy {
+        /// Source: an SQLite file, `sqlite://FILE` or `postgres://…`.
+        #[arg(long)]
+        from: String,
+        /// Target (must be empty): an SQLite file, `sqlite://FILE` or `postgres://…`.
+        #[arg(long)]
+        to: String,
+    },
     /// Manage users: add one, or give one a role in a project.
     #[command(subcommand)]
     User(UserCommand),
@@ -61,17 +69,30 @@ pub enum UserCommand {
 /// Where the database lives.
 #[derive(Debug, clap::Args)]
 pub struct DbArgs {
-    /// SQLite database file (created when missing).
+    /// Database: an SQLite file (created when missing), `sqlite://FILE` or `postgres://user@host/db`.
     #[arg(long, env = "LIFTLEDGER_DB", default_value = "liftledger.sqlite")]
-    pub db: PathBuf,
+    pub db: String,
+    /// Connections to keep open to the database.
+    #[arg(long, env = "LIFTLEDGER_DB_POOL", default_value_t = 8)]
+    pub db_pool: u32,
+}
+
+impl DbArgs {
+    /// The database location these arguments name.
+    pub fn location(&self) -> crate::db::Location {
+        crate::db::Location::parse(&self.db, self.db_pool)
+    }
 }
 
 /// Options of `serve`.
 #[derive(Debug, clap::Args)]
 pub struct ServeArgs {
-    /// SQLite database file (created when missing); with --demo defaults to liftledger-demo.sqlite.
+    /// Database: an SQLite file, `sqlite://FILE` or `postgres://…`; with --demo defaults to liftledger-demo.sqlite.
     #[arg(long, env = "LIFTLEDGER_DB")]
-    pub db: Option<PathBuf>,
+    pub db: Option<String>,
+    /// Connections to keep open to the database (size it for several app servers on PostgreSQL).
+    #[arg(long, env = "LIFTLEDGER_DB_POOL", default_value_t = 8)]
+    pub db_pool: u32,
     /// Address to listen on; port 0 picks a free port.
     #[arg(long, env = "LIFTLEDGER_ADDR", default_value = "127.0.0.1:8480")]
     pub addr: SocketAddr,

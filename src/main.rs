@@ -18,13 +18,16 @@ async fn main() -> anyhow::Result<()> {
         .init();
     match Cli::parse().command {
         Command::Migrate(a) => {
-            db::open(&a.db).await?;
-            println!("database {} is up to date", a.db.display());
+            db::connect(&a.location()).await?;
+            println!("database {} is up to date", a.location().redacted());
         }
         Command::Demo(a) => {
-            let pool = db::open(&a.db).await?;
+            let pool = db::connect(&a.location()).await?;
             let summary = demo::load(&pool).await?;
-            println!("loaded demo project into {}: {summary}", a.db.display());
+            println!(
+                "loaded demo project into {}: {summary}",
+                a.location().redacted()
+            );
         }
         Command::User(UserCommand::Add {
             db,
@@ -32,7 +35,7 @@ async fn main() -> anyhow::Result<()> {
             name,
             admin,
         }) => {
-            let pool = db::open(&db.db).await?;
+            let pool = db::connect(&db.location()).await?;
             let mut password = String::new();
             std::io::stdin().lock().read_line(&mut password)?;
             let input = accounts::UserInput {
@@ -47,7 +50,7 @@ async fn main() -> anyhow::Result<()> {
             println!(
                 "user {} created{}",
                 u.username,
-                if u.is_admin { " (administrator)" } else { "" }
+                if u.admin() { " (administrator)" } else { "" }
             );
         }
         Command::User(UserCommand::Grant {
@@ -56,7 +59,7 @@ async fn main() -> anyhow::Result<()> {
             project,
             role,
         }) => {
-            let pool = db::open(&db.db).await?;
+            let pool = db::connect(&db.location()).await?;
             let p = db::projects::get_by_code(&pool, &project.to_ascii_uppercase())
                 .await?
                 .ok_or_else(|| anyhow::anyhow!("no project with code {project}"))?;
@@ -65,8 +68,20 @@ async fn main() -> anyhow::Result<()> {
                 .map_err(|e| anyhow::anyhow!("{}: {}", e.field(), e.user_message()))?;
             println!("{username} is now {role} in {}", p.code);
         }
+        Command::Copy { from, to } => {
+            let source = db::connect(&db::Location::parse(&from, 4)).await?;
+            let target = db::connect(&db::Location::parse(&to, 4)).await?;
+            let report = db::copy::copy_all(&source, &target).await?;
+            for (table, n) in &report.rows {
+                println!("{table:<18} {n:>9} rows");
+            }
+            println!(
+                "copied and verified: row counts equal, {} certificate hashes match",
+                report.certificates_verified
+            );
+        }
         Command::Serve(a) => {
-            let path = a.db.clone().unwrap_or_else(|| {
+            let typed = a.db.clone().unwrap_or_else(|| {
                 if a.demo {
                     "liftledger-demo.sqlite"
                 } else {
@@ -74,13 +89,18 @@ async fn main() -> anyhow::Result<()> {
                 }
                 .into()
             });
-            let fresh = !path.exists();
-            let pool = db::open(&path).await?;
+            let location = db::Location::parse(&typed, a.db_pool);
+            let pool = db::connect(&location).await?;
+            // The demo is loaded into a database that holds no project yet.
+            let fresh = db::projects::list(&pool).await?.is_empty();
             if a.demo && fresh {
                 let summary = demo::load(&pool)
                     .await
                     .context("loading the demo project")?;
-                println!("demo project loaded into {} ({summary})", path.display());
+                println!(
+                    "demo project loaded into {} ({summary})",
+                    location.redacted()
+                );
             }
             if a.demo {
                 println!("demo sign-ins (invented people; demo use only):");
@@ -99,7 +119,10 @@ async fn main() -> anyhow::Result<()> {
                 .await
                 .with_context(|| format!("binding {}", a.addr))?;
             let addr = listener.local_addr()?;
-            println!("liftledger is serving {} at http://{addr}/", path.display());
+            println!(
+                "liftledger is serving {} at http://{addr}/",
+                location.redacted()
+            );
             let state = AppState::new(
                 pool.clone(),
                 Settings {

@@ -36,7 +36,7 @@ pub struct Change<'a> {
 pub async fn record(tx: &mut Tx<'_>, c: &Change<'_>, now: &str) -> sqlx::Result<()> {
     sqlx::query(
         "INSERT INTO audit_log (at, actor, action, entity, entity_id, project_id, before_json, after_json, origin)
-         VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
+         VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9)",
     )
     .bind(now)
     .bind(c.actor)
@@ -60,7 +60,7 @@ pub async fn for_entity(
 ) -> sqlx::Result<Vec<AuditEntry>> {
     sqlx::query_as::<_, AuditEntry>(
         "SELECT id, at, actor, action, entity, entity_id, project_id, before_json, after_json, origin
-         FROM audit_log WHERE entity = ? AND entity_id = ? ORDER BY id",
+         FROM audit_log WHERE entity = $1 AND entity_id = $2 ORDER BY id",
     )
     .bind(entity)
     .bind(entity_id)
@@ -72,7 +72,7 @@ pub async fn for_entity(
 pub async fn recent(pool: &Pool, project_id: i64, limit: i64) -> sqlx::Result<Vec<AuditEntry>> {
     sqlx::query_as::<_, AuditEntry>(
         "SELECT id, at, actor, action, entity, entity_id, project_id, before_json, after_json, origin
-         FROM audit_log WHERE project_id = ? ORDER BY id DESC LIMIT ?",
+         FROM audit_log WHERE project_id = $1 ORDER BY id DESC LIMIT $2",
     )
     .bind(project_id)
     .bind(limit)

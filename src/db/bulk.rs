@@ -5,8 +5,8 @@
 //! Functions take a plain connection (`&mut **tx` of a transaction, or a pooled
 //! connection) so an import reads and writes through the one transaction it commits.
 
+use super::Conn as SqliteConnection;
 use serde::Serialize;
-use sqlx::SqliteConnection;
 
 use super::Pool;
 use super::Tx;
@@ -55,9 +55,9 @@ pub async fn tests_by_numbers(
             .copied()
             .find(|s| *s >= part.len())
             .unwrap_or(max);
-        let marks = vec!["?"; size].join(", ");
+        let marks = placeholders(2, size);
         let sql = format!(
-            "SELECT {TEST_COLUMNS} FROM field_tests WHERE project_id = ? AND number IN ({marks})"
+            "SELECT {TEST_COLUMNS} FROM field_tests WHERE project_id = $1 AND number IN ({marks})"
         );
         let mut q = sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(sql)).bind(project_id);
         for n in part {
@@ -74,7 +74,7 @@ pub async fn tests_by_numbers(
 /// Smallest and largest id of a project's tests (None when it has none).
 pub async fn test_id_range(pool: &Pool, project_id: i64) -> sqlx::Result<Option<(i64, i64)>> {
     let r: (Option<i64>, Option<i64>) =
-        sqlx::query_as("SELECT MIN(id), MAX(id) FROM field_tests WHERE project_id = ?")
+        sqlx::query_as("SELECT MIN(id), MAX(id) FROM field_tests WHERE project_id = $1")
             .bind(project_id)
             .fetch_one(pool)
             .await?;
@@ -98,7 +98,7 @@ pub async fn live_retests_of(
             .copied()
             .find(|s| *s >= part.len())
             .unwrap_or(max);
-        let marks = vec!["?"; size].join(", ");
+        let marks = placeholders(1, size);
         let sql = format!(
             "SELECT retest_of, number FROM field_tests
              WHERE void_reason IS NULL AND retest_of IN ({marks}) ORDER BY id DESC"
@@ -116,9 +116,24 @@ pub async fn live_retests_of(
 }
 
 fn insert_sql(rows: usize) -> String {
-    let one = format!("({})", vec!["?"; INSERT_WIDTH].join(", "));
-    let values = vec![one.as_str(); rows].join(", ");
+    let values = row_groups(rows, INSERT_WIDTH);
     format!("INSERT INTO field_tests ({TEST_COLUMNS}) VALUES {values}")
+}
+
+/// `$from, $from+1, …` — `n` numbered placeholders (the form both engines read).
+fn placeholders(from: usize, n: usize) -> String {
+    (from..from + n)
+        .map(|i| format!("${i}"))
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
+/// `($1, …, $w), ($w+1, …)` — `rows` groups of `width` numbered placeholders.
+fn row_groups(rows: usize, width: usize) -> String {
+    (0..rows)
+        .map(|r| format!("({})", placeholders(1 + r * width, width)))
+        .collect::<Vec<_>>()
+        .join(", ")
 }
 
 /// Inserts tests with the ids they carry, [`INSERT_ROWS`] to a statement.
@@ -187,7 +202,7 @@ const AUDIT_ROWS: usize = 128;
 /// Appends many audit rows inside the transaction that makes the changes.
 pub async fn insert_audit_rows(conn: &mut SqliteConnection, rows: &[AuditRow]) -> sqlx::Result<()> {
     for part in rows.chunks(AUDIT_ROWS) {
-        let values = vec!["(?, ?, ?, ?, ?, ?, ?, ?, ?)"; part.len()].join(", ");
+        let values = row_groups(part.len(), 9);
         let sql = format!(
             "INSERT INTO audit_log (at, actor, action, entity, entity_id, project_id, before_json, after_json, origin)
              VALUES {values}"
@@ -223,7 +238,7 @@ pub const VIEW_COLUMNS: &str = "id, project_id, lot_id, number, tested_at, techn
 /// project overview needs, at a fraction of the bytes of a full read.
 pub async fn tests_for_project_views(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<FieldTest>> {
     sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
-        "SELECT {VIEW_COLUMNS} FROM field_tests WHERE project_id = ? ORDER BY lot_id, tested_at, id"
+        "SELECT {VIEW_COLUMNS} FROM field_tests WHERE project_id = $1 ORDER BY lot_id, tested_at, id"
     )))
     .bind(project_id)
     .fetch_all(pool)
@@ -252,7 +267,7 @@ pub async fn insert_mapping(
 ) -> sqlx::Result<i64> {
     sqlx::query_scalar(
         "INSERT INTO import_mappings (project_id, name, mapping_json, created_at, created_by)
-         VALUES (?, ?, ?, ?, ?) RETURNING id",
+         VALUES ($1, $2, $3, $4, $5) RETURNING id",
     )
     .bind(project_id)
     .bind(name)
@@ -271,7 +286,7 @@ pub async fn update_mapping(
     mapping_json: &str,
 ) -> sqlx::Result<bool> {
     let done = sqlx::query(
-        "UPDATE import_mappings SET mapping_json = ? WHERE project_id = ? AND name = ?",
+        "UPDATE import_mappings SET mapping_json = $1 WHERE project_id = $2 AND name = $3",
     )
     .bind(mapping_json)
     .bind(project_id)
@@ -289,7 +304,7 @@ pub async fn get_mapping(
 ) -> sqlx::Result<Option<SavedMapping>> {
     sqlx::query_as::<_, SavedMapping>(
         "SELECT id, project_id, name, mapping_json, created_at, created_by
-         FROM import_mappings WHERE project_id = ? AND name = ?",
+         FROM import_mappings WHERE project_id = $1 AND name = $2",
     )
     .bind(project_id)
     .bind(name)
@@ -301,7 +316,7 @@ pub async fn get_mapping(
 pub async fn list_mappings(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<SavedMapping>> {
     sqlx::query_as::<_, SavedMapping>(
         "SELECT id, project_id, name, mapping_json, created_at, created_by
-         FROM import_mappings WHERE project_id = ? ORDER BY name",
+         FROM import_mappings WHERE project_id = $1 ORDER BY name",
     )
     .bind(project_id)
     .fetch_all(pool)

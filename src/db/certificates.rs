@@ -43,7 +43,7 @@ pub struct NewCertificate<'a> {
 /// The next free certificate sequence number of a project (inside the issuing transaction).
 pub async fn next_sequence(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<i64> {
     sqlx::query_scalar(
-        "SELECT COALESCE(MAX(sequence), 0) + 1 FROM certificates WHERE project_id = ?",
+        "SELECT COALESCE(MAX(sequence), 0) + 1 FROM certificates WHERE project_id = $1",
     )
     .bind(project_id)
     .fetch_one(&mut **tx)
@@ -53,7 +53,7 @@ pub async fn next_sequence(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<i64
 /// The current (not superseded) certificate of a lot, read inside a transaction.
 pub async fn current_for_lot_tx(tx: &mut Tx<'_>, lot_id: i64) -> sqlx::Result<Option<Certificate>> {
     sqlx::query_as::<_, Certificate>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM certificates WHERE lot_id = ? AND superseded_at IS NULL"
+        "SELECT {COLUMNS} FROM certificates WHERE lot_id = $1 AND superseded_at IS NULL"
     )))
     .bind(lot_id)
     .fetch_optional(&mut **tx)
@@ -62,11 +62,13 @@ pub async fn current_for_lot_tx(tx: &mut Tx<'_>, lot_id: i64) -> sqlx::Result<Op
 
 /// Marks a certificate superseded.
 pub async fn supersede(tx: &mut Tx<'_>, id: i64, now: &str) -> sqlx::Result<()> {
-    sqlx::query("UPDATE certificates SET superseded_at = ? WHERE id = ? AND superseded_at IS NULL")
-        .bind(now)
-        .bind(id)
-        .execute(&mut **tx)
-        .await?;
+    sqlx::query(
+        "UPDATE certificates SET superseded_at = $1 WHERE id = $2 AND superseded_at IS NULL",
+    )
+    .bind(now)
+    .bind(id)
+    .execute(&mut **tx)
+    .await?;
     Ok(())
 }
 
@@ -75,7 +77,7 @@ pub async fn insert(tx: &mut Tx<'_>, c: &NewCertificate<'_>) -> sqlx::Result<i64
     sqlx::query_scalar(
         "INSERT INTO certificates (project_id, lot_id, sequence, revision, number, verification_code, sha256,
              record_fingerprint, pdf, issued_at, issued_by)
-         VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?) RETURNING id",
+         VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11) RETURNING id",
     )
     .bind(c.project_id)
     .bind(c.lot_id)
@@ -95,7 +97,7 @@ pub async fn insert(tx: &mut Tx<'_>, c: &NewCertificate<'_>) -> sqlx::Result<i64
 /// Every revision for a lot, newest first.
 pub async fn for_lot(pool: &Pool, lot_id: i64) -> sqlx::Result<Vec<Certificate>> {
     sqlx::query_as::<_, Certificate>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM certificates WHERE lot_id = ? ORDER BY revision DESC"
+        "SELECT {COLUMNS} FROM certificates WHERE lot_id = $1 ORDER BY revision DESC"
     )))
     .bind(lot_id)
     .fetch_all(pool)
@@ -105,7 +107,7 @@ pub async fn for_lot(pool: &Pool, lot_id: i64) -> sqlx::Result<Vec<Certificate>>
 /// Every certificate revision of a project, by number then revision.
 pub async fn for_project(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<Certificate>> {
     sqlx::query_as::<_, Certificate>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM certificates WHERE project_id = ? ORDER BY sequence DESC, revision DESC"
+        "SELECT {COLUMNS} FROM certificates WHERE project_id = $1 ORDER BY sequence DESC, revision DESC"
     )))
     .bind(project_id)
     .fetch_all(pool)
@@ -115,7 +117,7 @@ pub async fn for_project(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<Certi
 /// One revision by id.
 pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Certificate>> {
     sqlx::query_as::<_, Certificate>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM certificates WHERE id = ?"
+        "SELECT {COLUMNS} FROM certificates WHERE id = $1"
     )))
     .bind(id)
     .fetch_optional(pool)
@@ -124,7 +126,7 @@ pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Certificate>> {
 
 /// The stored PDF bytes of a revision.
 pub async fn pdf(pool: &Pool, id: i64) -> sqlx::Result<Option<Vec<u8>>> {
-    sqlx::query_scalar("SELECT pdf FROM certificates WHERE id = ?")
+    sqlx::query_scalar("SELECT pdf FROM certificates WHERE id = $1")
         .bind(id)
         .fetch_optional(pool)
         .await
@@ -133,10 +135,20 @@ pub async fn pdf(pool: &Pool, id: i64) -> sqlx::Result<Option<Vec<u8>>> {
 /// Finds a revision by verification code or SHA-256 (both stored lower/upper-case normalised).
 pub async fn find(pool: &Pool, code_or_hash: &str) -> sqlx::Result<Option<Certificate>> {
     sqlx::query_as::<_, Certificate>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM certificates WHERE verification_code = ? OR sha256 = ?"
+        "SELECT {COLUMNS} FROM certificates WHERE verification_code = $1 OR sha256 = $2"
     )))
     .bind(code_or_hash.to_ascii_uppercase())
     .bind(code_or_hash.to_ascii_lowercase())
     .fetch_optional(pool)
+    .await
+}
+
+/// Every revision for a lot, newest first, read inside the issuing transaction.
+pub async fn for_lot_tx(tx: &mut Tx<'_>, lot_id: i64) -> sqlx::Result<Vec<Certificate>> {
+    sqlx::query_as::<_, Certificate>(sqlx::AssertSqlSafe(format!(
+        "SELECT {COLUMNS} FROM certificates WHERE lot_id = $1 ORDER BY revision DESC"
+    )))
+    .bind(lot_id)
+    .fetch_all(&mut **tx)
     .await
 }

@@ -30,7 +30,7 @@ pub async fn insert(tx: &mut Tx<'_>, c: &Clause) -> sqlx::Result<Clause> {
     sqlx::query_as::<_, Clause>(
         "INSERT INTO clauses (project_id, code, title, rc_min_pct, moisture_below_pct, moisture_above_pct, effort, rule,
              allowance_pct, min_pwl_pct, area_per_test_m2, length_per_test_m, min_tests_per_lot, oversize_limit_pct, created_at)
-         VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)
+         VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15)
          RETURNING id, project_id, code, title, rc_min_pct, moisture_below_pct, moisture_above_pct, effort, rule,
              allowance_pct, min_pwl_pct, area_per_test_m2, length_per_test_m, min_tests_per_lot, oversize_limit_pct, created_at",
     )
@@ -58,7 +58,7 @@ pub async fn list(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<Clause>> {
     sqlx::query_as::<_, Clause>(
         "SELECT id, project_id, code, title, rc_min_pct, moisture_below_pct, moisture_above_pct, effort, rule,
              allowance_pct, min_pwl_pct, area_per_test_m2, length_per_test_m, min_tests_per_lot, oversize_limit_pct, created_at
-         FROM clauses WHERE project_id = ? ORDER BY code",
+         FROM clauses WHERE project_id = $1 ORDER BY code",
     )
     .bind(project_id)
     .fetch_all(pool)
@@ -70,7 +70,7 @@ pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Clause>> {
     sqlx::query_as::<_, Clause>(
         "SELECT id, project_id, code, title, rc_min_pct, moisture_below_pct, moisture_above_pct, effort, rule,
              allowance_pct, min_pwl_pct, area_per_test_m2, length_per_test_m, min_tests_per_lot, oversize_limit_pct, created_at
-         FROM clauses WHERE id = ?",
+         FROM clauses WHERE id = $1",
     )
     .bind(id)
     .fetch_optional(pool)

@@ -62,7 +62,7 @@ pub async fn insert(tx: &mut Tx<'_>, t: &FieldTest) -> sqlx::Result<i64> {
              chainage_m, offset_m, depth_mm, coarse_pct, coarse_water_content_pct, easting, northing, readings_json,
              wet_density_kg_m3, water_content_pct, dry_density_kg_m3, moisture_source, reduction_version, retest_of,
              void_reason, voided_by, voided_at, created_at, created_by)
-         VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?) RETURNING id",
+         VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18, $19, $20, $21, $22, $23, $24, $25, $26) RETURNING id",
     )
     .bind(t.project_id)
     .bind(t.lot_id)
@@ -97,7 +97,7 @@ pub async fn insert(tx: &mut Tx<'_>, t: &FieldTest) -> sqlx::Result<i64> {
 /// One test by id.
 pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<FieldTest>> {
     sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM field_tests WHERE id = ?"
+        "SELECT {COLUMNS} FROM field_tests WHERE id = $1"
     )))
     .bind(id)
     .fetch_optional(pool)
@@ -107,7 +107,7 @@ pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<FieldTest>> {
 /// Every test of a lot in the order they were taken.
 pub async fn for_lot(pool: &Pool, lot_id: i64) -> sqlx::Result<Vec<FieldTest>> {
     sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM field_tests WHERE lot_id = ? ORDER BY tested_at, id"
+        "SELECT {COLUMNS} FROM field_tests WHERE lot_id = $1 ORDER BY tested_at, id"
     )))
     .bind(lot_id)
     .fetch_all(pool)
@@ -117,15 +117,15 @@ pub async fn for_lot(pool: &Pool, lot_id: i64) -> sqlx::Result<Vec<FieldTest>> {
 /// Tests of a project matching the filter, newest first.
 pub async fn list(pool: &Pool, project_id: i64, f: &TestFilter) -> sqlx::Result<Vec<FieldTest>> {
     sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM field_tests t WHERE t.project_id = ?
-           AND (? IS NULL OR t.lot_id = ?)
-           AND (? IS NULL OR t.lot_id IN (SELECT id FROM lots WHERE layer_id = ?))
-           AND (? IS NULL OR t.chainage_m >= ?)
-           AND (? IS NULL OR t.chainage_m <= ?)
-           AND (? IS NULL OR t.tested_at >= ?)
-           AND (? IS NULL OR t.tested_at < ?)
-           AND (? IS NULL OR t.method = ?)
-         ORDER BY t.tested_at DESC, t.id DESC LIMIT ? OFFSET ?"
+        "SELECT {COLUMNS} FROM field_tests t WHERE t.project_id = $1
+           AND ($2 IS NULL OR t.lot_id = $3)
+           AND ($4 IS NULL OR t.lot_id IN (SELECT id FROM lots WHERE layer_id = $5))
+           AND ($6 IS NULL OR t.chainage_m >= $7)
+           AND ($8 IS NULL OR t.chainage_m <= $9)
+           AND ($10 IS NULL OR t.tested_at >= $11)
+           AND ($12 IS NULL OR t.tested_at < $13)
+           AND ($14 IS NULL OR t.method = $15)
+         ORDER BY t.tested_at DESC, t.id DESC LIMIT $16 OFFSET $17"
     )))
     .bind(project_id)
     .bind(f.lot_id)
@@ -157,7 +157,7 @@ pub async fn void(
     now: &str,
 ) -> sqlx::Result<bool> {
     let done = sqlx::query(
-        "UPDATE field_tests SET void_reason = ?, voided_by = ?, voided_at = ? WHERE id = ? AND void_reason IS NULL",
+        "UPDATE field_tests SET void_reason = $1, voided_by = $2, voided_at = $3 WHERE id = $4 AND void_reason IS NULL",
     )
     .bind(reason)
     .bind(actor)
@@ -170,7 +170,7 @@ pub async fn void(
 
 /// Counts of tests in a project taken at or after each of the given times.
 pub async fn count_since(pool: &Pool, project_id: i64, since: &str) -> sqlx::Result<i64> {
-    sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE project_id = ? AND tested_at >= ?")
+    sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE project_id = $1 AND tested_at >= $2")
         .bind(project_id)
         .bind(since)
         .fetch_one(pool)
@@ -179,7 +179,7 @@ pub async fn count_since(pool: &Pool, project_id: i64, since: &str) -> sqlx::Res
 
 /// Total number of tests in a project.
 pub async fn count(pool: &Pool, project_id: i64) -> sqlx::Result<i64> {
-    sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE project_id = ?")
+    sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE project_id = $1")
         .bind(project_id)
         .fetch_one(pool)
         .await
@@ -188,7 +188,7 @@ pub async fn count(pool: &Pool, project_id: i64) -> sqlx::Result<i64> {
 /// The newest test in a project, if any.
 pub async fn latest(pool: &Pool, project_id: i64) -> sqlx::Result<Option<FieldTest>> {
     sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM field_tests WHERE project_id = ? ORDER BY created_at DESC, id DESC LIMIT 1"
+        "SELECT {COLUMNS} FROM field_tests WHERE project_id = $1 ORDER BY created_at DESC, id DESC LIMIT 1"
     )))
     .bind(project_id)
     .fetch_optional(pool)
@@ -198,7 +198,7 @@ pub async fn latest(pool: &Pool, project_id: i64) -> sqlx::Result<Option<FieldTe
 /// Every test of a project, by lot then time (for whole-project views).
 pub async fn all_for_project(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<FieldTest>> {
     sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM field_tests WHERE project_id = ? ORDER BY lot_id, tested_at, id"
+        "SELECT {COLUMNS} FROM field_tests WHERE project_id = $1 ORDER BY lot_id, tested_at, id"
     )))
     .bind(project_id)
     .fetch_all(pool)
@@ -208,10 +208,21 @@ pub async fn all_for_project(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<F
 /// Every test on lots judged against a lab test.
 pub async fn for_lab_test(pool: &Pool, lab_test_id: i64) -> sqlx::Result<Vec<FieldTest>> {
     sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM field_tests WHERE lot_id IN (SELECT id FROM lots WHERE lab_test_id = ?)
+        "SELECT {COLUMNS} FROM field_tests WHERE lot_id IN (SELECT id FROM lots WHERE lab_test_id = $1)
          ORDER BY tested_at, id"
     )))
     .bind(lab_test_id)
     .fetch_all(pool)
     .await
+}
+
+/// The next automatic test number of a project (`T-0001`, …), taken under the project lock
+/// so that concurrent writers on any engine never draw the same number.
+pub async fn next_number(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<String> {
+    super::lock_project(tx, project_id).await?;
+    let count: i64 = sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE project_id = $1")
+        .bind(project_id)
+        .fetch_one(&mut **tx)
+        .await?;
+    Ok(format!("T-{:04}", count + 1))
 }

@@ -33,7 +33,7 @@ pub async fn insert(tx: &mut Tx<'_>, t: &LabTest) -> sqlx::Result<LabTest> {
         "INSERT INTO lab_tests (source_id, code, tested_on, effort, effort_energy_kj_m3, specific_gravity, points_json,
              max_dry_density_kg_m3, optimum_water_content_pct, fit_method, warnings_json, reduction_version, status,
              superseded_reason, superseded_at, created_at, created_by)
-         VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)
+         VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17)
          RETURNING id, source_id, code, tested_on, effort, effort_energy_kj_m3, specific_gravity, points_json,
              max_dry_density_kg_m3, optimum_water_content_pct, fit_method, warnings_json, reduction_version, status,
              superseded_reason, superseded_at, created_at, created_by",
@@ -65,7 +65,7 @@ pub async fn list_for_source(pool: &Pool, source_id: i64) -> sqlx::Result<Vec<La
         "SELECT id, source_id, code, tested_on, effort, effort_energy_kj_m3, specific_gravity, points_json,
              max_dry_density_kg_m3, optimum_water_content_pct, fit_method, warnings_json, reduction_version, status,
              superseded_reason, superseded_at, created_at, created_by
-         FROM lab_tests WHERE source_id = ? ORDER BY tested_on DESC, id DESC",
+         FROM lab_tests WHERE source_id = $1 ORDER BY tested_on DESC, id DESC",
     )
     .bind(source_id)
     .fetch_all(pool)
@@ -78,7 +78,7 @@ pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<LabTest>> {
         "SELECT id, source_id, code, tested_on, effort, effort_energy_kj_m3, specific_gravity, points_json,
              max_dry_density_kg_m3, optimum_water_content_pct, fit_method, warnings_json, reduction_version, status,
              superseded_reason, superseded_at, created_at, created_by
-         FROM lab_tests WHERE id = ?",
+         FROM lab_tests WHERE id = $1",
     )
     .bind(id)
     .fetch_optional(pool)
@@ -88,8 +88,8 @@ pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<LabTest>> {
 /// Marks an active lab test superseded with a reason; returns false if it was not active.
 pub async fn supersede(tx: &mut Tx<'_>, id: i64, reason: &str, now: &str) -> sqlx::Result<bool> {
     let done = sqlx::query(
-        "UPDATE lab_tests SET status = 'superseded', superseded_reason = ?, superseded_at = ?
-         WHERE id = ? AND status = 'active'",
+        "UPDATE lab_tests SET status = 'superseded', superseded_reason = $1, superseded_at = $2
+         WHERE id = $3 AND status = 'active'",
     )
     .bind(reason)
     .bind(now)
@@ -105,7 +105,7 @@ pub async fn list_for_project(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<
         "SELECT t.id, t.source_id, t.code, t.tested_on, t.effort, t.effort_energy_kj_m3, t.specific_gravity, t.points_json,
              t.max_dry_density_kg_m3, t.optimum_water_content_pct, t.fit_method, t.warnings_json, t.reduction_version,
              t.status, t.superseded_reason, t.superseded_at, t.created_at, t.created_by
-         FROM lab_tests t JOIN sources s ON s.id = t.source_id WHERE s.project_id = ? ORDER BY s.code, t.tested_on, t.id",
+         FROM lab_tests t JOIN sources s ON s.id = t.source_id WHERE s.project_id = $1 ORDER BY s.code, t.tested_on, t.id",
     )
     .bind(project_id)
     .fetch_all(pool)

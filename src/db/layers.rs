@@ -33,7 +33,7 @@ pub async fn zone_by_name_or_insert(
     name: &str,
 ) -> sqlx::Result<Zone> {
     if let Some(z) = sqlx::query_as::<_, Zone>(
-        "SELECT id, project_id, name, position FROM zones WHERE project_id = ? AND name = ?",
+        "SELECT id, project_id, name, position FROM zones WHERE project_id = $1 AND name = $2",
     )
     .bind(project_id)
     .bind(name)
@@ -44,7 +44,7 @@ pub async fn zone_by_name_or_insert(
     }
     sqlx::query_as::<_, Zone>(
         "INSERT INTO zones (project_id, name, position)
-         VALUES (?, ?, (SELECT COALESCE(MAX(position), 0) + 1 FROM zones WHERE project_id = ?))
+         VALUES ($1, $2, (SELECT COALESCE(MAX(position), 0) + 1 FROM zones WHERE project_id = $3))
          RETURNING id, project_id, name, position",
     )
     .bind(project_id)
@@ -65,7 +65,7 @@ pub async fn insert(
 ) -> sqlx::Result<i64> {
     let id: i64 = sqlx::query_scalar(
         "INSERT INTO layers (project_id, zone_id, number, thickness_mm, created_at)
-         VALUES (?, ?, ?, ?, ?) RETURNING id",
+         VALUES ($1, $2, $3, $4, $5) RETURNING id",
     )
     .bind(project_id)
     .bind(zone_id)
@@ -83,7 +83,7 @@ pub async fn list(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<Layer>> {
         "SELECT l.id, l.project_id, l.zone_id, z.name AS zone_name, z.position AS zone_position, l.number,
              l.thickness_mm, l.created_at
          FROM layers l JOIN zones z ON z.id = l.zone_id
-         WHERE l.project_id = ? ORDER BY z.position, l.number",
+         WHERE l.project_id = $1 ORDER BY z.position, l.number",
     )
     .bind(project_id)
     .fetch_all(pool)
@@ -95,7 +95,7 @@ pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Layer>> {
     sqlx::query_as::<_, Layer>(
         "SELECT l.id, l.project_id, l.zone_id, z.name AS zone_name, z.position AS zone_position, l.number,
              l.thickness_mm, l.created_at
-         FROM layers l JOIN zones z ON z.id = l.zone_id WHERE l.id = ?",
+         FROM layers l JOIN zones z ON z.id = l.zone_id WHERE l.id = $1",
     )
     .bind(id)
     .fetch_optional(pool)

@@ -78,7 +78,7 @@ pub async fn insert(tx: &mut Tx<'_>, new: &NewLot, actor: &str, now: &str) -> sq
     sqlx::query_scalar(
         "INSERT INTO lots (project_id, layer_id, code, chainage_from_m, chainage_to_m, offset_left_m, offset_right_m,
              clause_id, source_id, lab_test_id, state, state_changed_at, created_at, created_by)
-         VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, 'open', ?, ?, ?) RETURNING id",
+         VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, 'open', $11, $12, $13) RETURNING id",
     )
     .bind(new.project_id)
     .bind(new.layer_id)
@@ -99,7 +99,7 @@ pub async fn insert(tx: &mut Tx<'_>, new: &NewLot, actor: &str, now: &str) -> sq
 
 /// One lot by id.
 pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Lot>> {
-    sqlx::query_as::<_, Lot>(sqlx::AssertSqlSafe(format!("{SELECT} WHERE lo.id = ?")))
+    sqlx::query_as::<_, Lot>(sqlx::AssertSqlSafe(format!("{SELECT} WHERE lo.id = $1")))
         .bind(id)
         .fetch_optional(pool)
         .await
@@ -108,15 +108,15 @@ pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Lot>> {
 /// Lots of a project matching the filter, by layer then chainage.
 pub async fn list(pool: &Pool, project_id: i64, f: &LotFilter) -> sqlx::Result<Vec<Lot>> {
     sqlx::query_as::<_, Lot>(sqlx::AssertSqlSafe(format!(
-        "{SELECT} WHERE lo.project_id = ?
-           AND (? IS NULL OR lo.chainage_to_m > ?)
-           AND (? IS NULL OR lo.chainage_from_m < ?)
-           AND (? IS NULL OR lo.layer_id = ?)
-           AND (? IS NULL OR lo.state = ?)
-           AND (? IS NULL OR lo.state_changed_at >= ?)
-           AND (? IS NULL OR lo.state_changed_at < ?)
+        "{SELECT} WHERE lo.project_id = $1
+           AND ($2 IS NULL OR lo.chainage_to_m > $3)
+           AND ($4 IS NULL OR lo.chainage_from_m < $5)
+           AND ($6 IS NULL OR lo.layer_id = $7)
+           AND ($8 IS NULL OR lo.state = $9)
+           AND ($10 IS NULL OR lo.state_changed_at >= $11)
+           AND ($12 IS NULL OR lo.state_changed_at < $13)
          ORDER BY z.position, la.number, lo.chainage_from_m, lo.id
-         LIMIT ? OFFSET ?"
+         LIMIT $14 OFFSET $15"
     )))
     .bind(project_id)
     .bind(f.chainage_from_m)
@@ -140,7 +140,7 @@ pub async fn list(pool: &Pool, project_id: i64, f: &LotFilter) -> sqlx::Result<V
 /// Lots in one state across a project, oldest state change first (the review queue).
 pub async fn in_state(pool: &Pool, project_id: i64, state: &str) -> sqlx::Result<Vec<Lot>> {
     sqlx::query_as::<_, Lot>(sqlx::AssertSqlSafe(format!(
-        "{SELECT} WHERE lo.project_id = ? AND lo.state = ? ORDER BY lo.state_changed_at, lo.id"
+        "{SELECT} WHERE lo.project_id = $1 AND lo.state = $2 ORDER BY lo.state_changed_at, lo.id"
     )))
     .bind(project_id)
     .bind(state)
@@ -158,19 +158,20 @@ pub async fn transition(
     comment: &str,
     now: &str,
 ) -> sqlx::Result<bool> {
-    let done =
-        sqlx::query("UPDATE lots SET state = ?, state_changed_at = ? WHERE id = ? AND state = ?")
-            .bind(to)
-            .bind(now)
-            .bind(lot_id)
-            .bind(from)
-            .execute(&mut **tx)
-            .await?;
+    let done = sqlx::query(
+        "UPDATE lots SET state = $1, state_changed_at = $2 WHERE id = $3 AND state = $4",
+    )
+    .bind(to)
+    .bind(now)
+    .bind(lot_id)
+    .bind(from)
+    .execute(&mut **tx)
+    .await?;
     if done.rows_affected() != 1 {
         return Ok(false);
     }
     sqlx::query(
-        "INSERT INTO lot_transitions (lot_id, from_state, to_state, actor, at, comment) VALUES (?, ?, ?, ?, ?, ?)",
+        "INSERT INTO lot_transitions (lot_id, from_state, to_state, actor, at, comment) VALUES ($1, $2, $3, $4, $5, $6)",
     )
     .bind(lot_id)
     .bind(from)
@@ -186,7 +187,7 @@ pub async fn transition(
 /// Every state change of a lot, in order.
 pub async fn transitions(pool: &Pool, lot_id: i64) -> sqlx::Result<Vec<Transition>> {
     sqlx::query_as::<_, Transition>(
-        "SELECT id, lot_id, from_state, to_state, actor, at, comment FROM lot_transitions WHERE lot_id = ? ORDER BY id",
+        "SELECT id, lot_id, from_state, to_state, actor, at, comment FROM lot_transitions WHERE lot_id = $1 ORDER BY id",
     )
     .bind(lot_id)
     .fetch_all(pool)
@@ -196,7 +197,7 @@ pub async fn transitions(pool: &Pool, lot_id: i64) -> sqlx::Result<Vec<Transitio
 /// Count of lots per state in a project.
 pub async fn count_by_state(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<(String, i64)>> {
     sqlx::query_as::<_, (String, i64)>(
-        "SELECT state, COUNT(*) FROM lots WHERE project_id = ? GROUP BY state ORDER BY state",
+        "SELECT state, COUNT(*) FROM lots WHERE project_id = $1 GROUP BY state ORDER BY state",
     )
     .bind(project_id)
     .fetch_all(pool)
@@ -205,10 +206,20 @@ pub async fn count_by_state(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<(S
 
 /// Points every lot judged against lab test `old` at `new`; returns how many moved.
 pub async fn repoint_lab_test(tx: &mut Tx<'_>, old: i64, new: i64) -> sqlx::Result<u64> {
-    let done = sqlx::query("UPDATE lots SET lab_test_id = ? WHERE lab_test_id = ?")
+    let done = sqlx::query("UPDATE lots SET lab_test_id = $1 WHERE lab_test_id = $2")
         .bind(new)
         .bind(old)
         .execute(&mut **tx)
         .await?;
     Ok(done.rows_affected())
+}
+
+/// Every state change of a lot, read inside a transaction.
+pub async fn transitions_tx(tx: &mut Tx<'_>, lot_id: i64) -> sqlx::Result<Vec<Transition>> {
+    sqlx::query_as::<_, Transition>(
+        "SELECT id, lot_id, from_state, to_state, actor, at, comment FROM lot_transitions WHERE lot_id = $1 ORDER BY id",
+    )
+    .bind(lot_id)
+    .fetch_all(&mut **tx)
+    .await
 }

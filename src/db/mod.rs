@@ -1,13 +1,16 @@
 //! The storage layer: every SQL statement of liftledger lives under this module.
 //!
 //! Functions take the pool (or an open transaction) and return plain row types.
-//! SQL is kept portable (no SQLite-only functions in queries) so that a second
-//! engine can be added behind the same functions.
+//! SQL is written once, with `$1`-style placeholders, and runs on SQLite (the
+//! embedded default) and on PostgreSQL through sqlx's `Any` driver. The few
+//! places where the engines differ (connection settings, migrations, the write
+//! lock) are in this file and nowhere else.
 
 pub mod audit;
 pub mod bulk;
 pub mod certificates;
 pub mod clauses;
+pub mod copy;
 pub mod field_tests;
 pub mod lab_tests;
 pub mod layers;
@@ -18,44 +21,155 @@ pub mod sources;
 pub mod users;
 
 use std::path::Path;
-use std::str::FromStr;
+use std::sync::Once;
 use std::time::Duration;
 
 use anyhow::Context;
-use sqlx::sqlite::{SqliteConnectOptions, SqliteJournalMode, SqlitePoolOptions, SqliteSynchronous};
+use sqlx::Executor;
+use sqlx::any::AnyPoolOptions;
 
 /// The connection pool handed to every db function.
-pub type Pool = sqlx::SqlitePool;
+pub type Pool = sqlx::AnyPool;
 /// An open transaction; several writes that must land together share one.
-pub type Tx<'a> = sqlx::Transaction<'a, sqlx::Sqlite>;
+pub type Tx<'a> = sqlx::Transaction<'a, sqlx::Any>;
+/// One connection, for bulk work inside a transaction (`&mut **tx`).
+pub type Conn = sqlx::AnyConnection;
 
-/// Opens (creating if missing) the SQLite file in WAL mode with durable commits and runs migrations.
-#[tracing::instrument]
+/// Which engine holds the data.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Engine {
+    /// An embedded SQLite file (the default).
+    Sqlite,
+    /// A PostgreSQL server shared by several app servers.
+    Postgres,
+}
+
+/// Where the database is: a URL (`sqlite://file`, `postgres://…`) or a plain file path meaning SQLite.
+#[derive(Debug, Clone)]
+pub struct Location {
+    /// The database URL.
+    pub url: String,
+    /// Connections this process keeps open.
+    pub max_connections: u32,
+}
+
+impl Location {
+    /// Reads what the user typed; a bare path is an SQLite file.
+    pub fn parse(s: &str, max_connections: u32) -> Self {
+        let url = if s.starts_with("postgres://")
+            || s.starts_with("postgresql://")
+            || s.starts_with("sqlite:")
+        {
+            s.to_string()
+        } else {
+            format!("sqlite://{s}")
+        };
+        Self {
+            url,
+            max_connections,
+        }
+    }
+
+    /// An SQLite file.
+    pub fn sqlite(path: &Path) -> Self {
+        Self::parse(&path.display().to_string(), 8)
+    }
+
+    /// The engine this location names.
+    pub fn engine(&self) -> Engine {
+        if self.url.starts_with("postgres") {
+            Engine::Postgres
+        } else {
+            Engine::Sqlite
+        }
+    }
+
+    /// The file of an SQLite location.
+    pub fn sqlite_path(&self) -> Option<std::path::PathBuf> {
+        let rest = self
+            .url
+            .strip_prefix("sqlite://")
+            .or_else(|| self.url.strip_prefix("sqlite:"))?;
+        Some(rest.split('?').next().unwrap_or(rest).into())
+    }
+
+    /// The URL without a password, for logs and messages.
+    pub fn redacted(&self) -> String {
+        match (self.url.find("://"), self.url.rfind('@')) {
+            (Some(a), Some(b)) if b > a => format!("{}://…@{}", &self.url[..a], &self.url[b + 1..]),
+            _ => self.url.clone(),
+        }
+    }
+}
+
+/// The engine behind a pool.
+pub fn engine_of(pool: &Pool) -> Engine {
+    if pool
+        .connect_options()
+        .database_url
+        .as_str()
+        .starts_with("postgres")
+    {
+        Engine::Postgres
+    } else {
+        Engine::Sqlite
+    }
+}
+
+/// Opens (creating if missing) an SQLite file and runs migrations.
 pub async fn open(path: &Path) -> anyhow::Result<Pool> {
-    let options = SqliteConnectOptions::from_str("sqlite://")
-        .context("building SQLite options")?
-        .filename(path)
-        .create_if_missing(true)
-        .journal_mode(SqliteJournalMode::Wal)
-        // FULL: a commit that returned survives power loss, not just a process crash.
-        .synchronous(SqliteSynchronous::Full)
-        .foreign_keys(true)
-        .busy_timeout(Duration::from_secs(10));
-    let pool = SqlitePoolOptions::new()
-        .max_connections(8)
-        .connect_with(options)
+    connect(&Location::sqlite(path)).await
+}
+
+/// Connects to the database a location names, configures it and runs migrations.
+///
+/// SQLite runs in WAL mode with foreign keys on, a busy timeout and
+/// `synchronous=FULL` (a commit that returned survives power loss).
+#[tracing::instrument(skip(location), fields(db = %location.redacted()))]
+pub async fn connect(location: &Location) -> anyhow::Result<Pool> {
+    static DRIVERS: Once = Once::new();
+    DRIVERS.call_once(sqlx::any::install_default_drivers);
+    let engine = location.engine();
+    let url = match engine {
+        Engine::Sqlite if !location.url.contains('?') => format!("{}?mode=rwc", location.url),
+        // The Any driver types a NULL float as single precision; with cached statements
+        // a later non-NULL double in the same slot is then refused, so PostgreSQL
+        // statements are prepared per execution.
+        Engine::Postgres if !location.url.contains("statement-cache-capacity") => {
+            let sep = if location.url.contains('?') { '&' } else { '?' };
+            format!("{}{sep}statement-cache-capacity=0", location.url)
+        }
+        _ => location.url.clone(),
+    };
+    let pool = AnyPoolOptions::new()
+        .max_connections(location.max_connections.max(1))
+        .acquire_timeout(Duration::from_secs(30))
+        .after_connect(move |conn, _meta| {
+            Box::pin(async move {
+                if engine == Engine::Sqlite {
+                    conn.execute(
+                        "PRAGMA journal_mode = WAL; PRAGMA synchronous = FULL; \
+                         PRAGMA foreign_keys = ON; PRAGMA busy_timeout = 10000;",
+                    )
+                    .await?;
+                }
+                Ok(())
+            })
+        })
+        .connect(&url)
         .await
-        .with_context(|| format!("opening database {}", path.display()))?;
+        .with_context(|| format!("opening database {}", location.redacted()))?;
     migrate(&pool).await?;
     Ok(pool)
 }
 
-/// Applies the embedded migrations in `migrations/` that are not yet applied.
+/// Applies the embedded migrations of the pool's engine that are not yet applied.
 pub async fn migrate(pool: &Pool) -> anyhow::Result<()> {
-    sqlx::migrate!("./migrations")
-        .run(pool)
-        .await
-        .context("running database migrations")?;
+    match engine_of(pool) {
+        Engine::Sqlite => sqlx::migrate!("./migrations/sqlite").run(pool).await,
+        Engine::Postgres => sqlx::migrate!("./migrations/postgres").run(pool).await,
+    }
+    .context("running database migrations")?;
     Ok(())
 }
 
@@ -73,7 +187,26 @@ pub fn is_foreign_key_violation(err: &sqlx::Error) -> bool {
 
 /// Starts a write transaction. On SQLite it takes the write lock at once
 /// (`BEGIN IMMEDIATE`) so concurrent writers queue on the busy timeout instead
-/// of failing when a read turns into a write.
+/// of failing when a read turns into a write; PostgreSQL uses row locks
+/// ([`lock_project`]) where two writers could otherwise collide.
 pub async fn begin_write(pool: &Pool) -> sqlx::Result<Tx<'static>> {
-    pool.begin_with("BEGIN IMMEDIATE").await
+    match engine_of(pool) {
+        Engine::Sqlite => pool.begin_with("BEGIN IMMEDIATE").await,
+        Engine::Postgres => pool.begin().await,
+    }
+}
+
+/// Serialises writers that number things per project (certificates, test numbers).
+///
+/// On PostgreSQL this locks the project's row until the transaction ends, so
+/// two app servers issuing at once take turns and numbers stay unique and
+/// consecutive; on SQLite `BEGIN IMMEDIATE` already holds the only write lock.
+pub async fn lock_project(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<()> {
+    if tx.backend_name() == "PostgreSQL" {
+        sqlx::query("SELECT id FROM projects WHERE id = $1 FOR UPDATE")
+            .bind(project_id)
+            .fetch_optional(&mut **tx)
+            .await?;
+    }
+    Ok(())
 }

@@ -34,7 +34,7 @@ pub struct NewProject {
 pub async fn insert(tx: &mut Tx<'_>, new: &NewProject, now: &str) -> sqlx::Result<Project> {
     sqlx::query_as::<_, Project>(
         "INSERT INTO projects (code, name, contract, client, contractor, unit_system, chainage_style, created_at)
-         VALUES (?, ?, ?, ?, ?, ?, ?, ?)
+         VALUES ($1, $2, $3, $4, $5, $6, $7, $8)
          RETURNING id, code, name, contract, client, contractor, unit_system, chainage_style, created_at",
     )
     .bind(&new.code)
@@ -63,7 +63,7 @@ pub async fn list(pool: &Pool) -> sqlx::Result<Vec<Project>> {
 pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Project>> {
     sqlx::query_as::<_, Project>(
         "SELECT id, code, name, contract, client, contractor, unit_system, chainage_style, created_at
-         FROM projects WHERE id = ?",
+         FROM projects WHERE id = $1",
     )
     .bind(id)
     .fetch_optional(pool)
@@ -74,7 +74,7 @@ pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Project>> {
 pub async fn get_by_code(pool: &Pool, code: &str) -> sqlx::Result<Option<Project>> {
     sqlx::query_as::<_, Project>(
         "SELECT id, code, name, contract, client, contractor, unit_system, chainage_style, created_at
-         FROM projects WHERE code = ?",
+         FROM projects WHERE code = $1",
     )
     .bind(code)
     .fetch_optional(pool)

@@ -23,7 +23,7 @@ pub struct Source {
 pub async fn insert(tx: &mut Tx<'_>, s: &Source) -> sqlx::Result<Source> {
     sqlx::query_as::<_, Source>(
         "INSERT INTO sources (project_id, code, name, description, uscs_class, aashto_class, gs_fines, gs_coarse, created_at)
-         VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)
+         VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9)
          RETURNING id, project_id, code, name, description, uscs_class, aashto_class, gs_fines, gs_coarse, created_at",
     )
     .bind(s.project_id)
@@ -43,7 +43,7 @@ pub async fn insert(tx: &mut Tx<'_>, s: &Source) -> sqlx::Result<Source> {
 pub async fn list(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<Source>> {
     sqlx::query_as::<_, Source>(
         "SELECT id, project_id, code, name, description, uscs_class, aashto_class, gs_fines, gs_coarse, created_at
-         FROM sources WHERE project_id = ? ORDER BY code",
+         FROM sources WHERE project_id = $1 ORDER BY code",
     )
     .bind(project_id)
     .fetch_all(pool)
@@ -54,7 +54,7 @@ pub async fn list(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<Source>> {
 pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Source>> {
     sqlx::query_as::<_, Source>(
         "SELECT id, project_id, code, name, description, uscs_class, aashto_class, gs_fines, gs_coarse, created_at
-         FROM sources WHERE id = ?",
+         FROM sources WHERE id = $1",
     )
     .bind(id)
     .fetch_optional(pool)

@@ -4,7 +4,7 @@ use serde::Serialize;
 
 use super::{Pool, Tx};
 
-/// A stored user (the password hash never leaves this module's callers in responses).
+/// A stored user (the password hash is never serialised).
 #[derive(Debug, Clone, Serialize, sqlx::FromRow)]
 pub struct User {
     pub id: i64,
@@ -12,10 +12,19 @@ pub struct User {
     pub display_name: String,
     #[serde(skip)]
     pub password_hash: String,
-    pub is_admin: bool,
-    pub is_demo: bool,
+    /// 1 for an administrator (stored as an integer on every engine).
+    pub is_admin: i64,
+    /// 1 for an invented demo user.
+    pub is_demo: i64,
     pub disabled_at: Option<String>,
     pub created_at: String,
+}
+
+impl User {
+    /// True for an administrator.
+    pub fn admin(&self) -> bool {
+        self.is_admin != 0
+    }
 }
 
 const USER: &str = "SELECT id, username, display_name, password_hash, is_admin, is_demo, disabled_at, created_at FROM users";
@@ -32,13 +41,13 @@ pub async fn insert(
 ) -> sqlx::Result<i64> {
     sqlx::query_scalar(
         "INSERT INTO users (username, display_name, password_hash, is_admin, is_demo, created_at)
-         VALUES (?, ?, ?, ?, ?, ?) RETURNING id",
+         VALUES ($1, $2, $3, $4, $5, $6) RETURNING id",
     )
     .bind(username)
     .bind(display_name)
     .bind(password_hash)
-    .bind(is_admin)
-    .bind(is_demo)
+    .bind(i64::from(is_admin))
+    .bind(i64::from(is_demo))
     .bind(now)
     .fetch_one(&mut **tx)
     .await
@@ -46,7 +55,7 @@ pub async fn insert(
 
 /// A user by name.
 pub async fn by_username(pool: &Pool, username: &str) -> sqlx::Result<Option<User>> {
-    sqlx::query_as::<_, User>(sqlx::AssertSqlSafe(format!("{USER} WHERE username = ?")))
+    sqlx::query_as::<_, User>(sqlx::AssertSqlSafe(format!("{USER} WHERE username = $1")))
         .bind(username)
         .fetch_optional(pool)
         .await
@@ -54,7 +63,7 @@ pub async fn by_username(pool: &Pool, username: &str) -> sqlx::Result<Option<Use
 
 /// A user by id.
 pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<User>> {
-    sqlx::query_as::<_, User>(sqlx::AssertSqlSafe(format!("{USER} WHERE id = ?")))
+    sqlx::query_as::<_, User>(sqlx::AssertSqlSafe(format!("{USER} WHERE id = $1")))
         .bind(id)
         .fetch_optional(pool)
         .await
@@ -83,7 +92,7 @@ pub async fn grant(
     now: &str,
 ) -> sqlx::Result<()> {
     sqlx::query(
-        "INSERT INTO memberships (user_id, project_id, role, created_at) VALUES (?, ?, ?, ?)
+        "INSERT INTO memberships (user_id, project_id, role, created_at) VALUES ($1, $2, $3, $4)
          ON CONFLICT (user_id, project_id) DO UPDATE SET role = excluded.role",
     )
     .bind(user_id)
@@ -97,7 +106,7 @@ pub async fn grant(
 
 /// A user's role in a project, if a member.
 pub async fn role_in(pool: &Pool, user_id: i64, project_id: i64) -> sqlx::Result<Option<String>> {
-    sqlx::query_scalar("SELECT role FROM memberships WHERE user_id = ? AND project_id = ?")
+    sqlx::query_scalar("SELECT role FROM memberships WHERE user_id = $1 AND project_id = $2")
         .bind(user_id)
         .bind(project_id)
         .fetch_optional(pool)
@@ -106,7 +115,7 @@ pub async fn role_in(pool: &Pool, user_id: i64, project_id: i64) -> sqlx::Result
 
 /// Ids of the projects a user belongs to.
 pub async fn project_ids(pool: &Pool, user_id: i64) -> sqlx::Result<Vec<i64>> {
-    sqlx::query_scalar("SELECT project_id FROM memberships WHERE user_id = ? ORDER BY project_id")
+    sqlx::query_scalar("SELECT project_id FROM memberships WHERE user_id = $1 ORDER BY project_id")
         .bind(user_id)
         .fetch_all(pool)
         .await
@@ -116,7 +125,7 @@ pub async fn project_ids(pool: &Pool, user_id: i64) -> sqlx::Result<Vec<i64>> {
 pub async fn members(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<(String, String, String)>> {
     sqlx::query_as(
         "SELECT u.username, u.display_name, m.role FROM memberships m JOIN users u ON u.id = m.user_id
-         WHERE m.project_id = ? ORDER BY u.username",
+         WHERE m.project_id = $1 ORDER BY u.username",
     )
     .bind(project_id)
     .fetch_all(pool)
@@ -140,7 +149,7 @@ pub async fn start_session(
     now: &str,
 ) -> sqlx::Result<i64> {
     sqlx::query_scalar(
-        "INSERT INTO sessions (token_hash, user_id, created_at, last_seen_at) VALUES (?, ?, ?, ?) RETURNING id",
+        "INSERT INTO sessions (token_hash, user_id, created_at, last_seen_at) VALUES ($1, $2, $3, $4) RETURNING id",
     )
     .bind(token_hash)
     .bind(user_id)
@@ -153,7 +162,7 @@ pub async fn start_session(
 /// The live session with this token hash.
 pub async fn session(pool: &Pool, token_hash: &str) -> sqlx::Result<Option<Session>> {
     sqlx::query_as::<_, Session>(
-        "SELECT id, user_id, created_at, last_seen_at FROM sessions WHERE token_hash = ? AND ended_at IS NULL",
+        "SELECT id, user_id, created_at, last_seen_at FROM sessions WHERE token_hash = $1 AND ended_at IS NULL",
     )
     .bind(token_hash)
     .fetch_optional(pool)
@@ -162,7 +171,7 @@ pub async fn session(pool: &Pool, token_hash: &str) -> sqlx::Result<Option<Sessi
 
 /// Records that a session was used now.
 pub async fn touch_session(pool: &Pool, id: i64, now: &str) -> sqlx::Result<()> {
-    sqlx::query("UPDATE sessions SET last_seen_at = ? WHERE id = ?")
+    sqlx::query("UPDATE sessions SET last_seen_at = $1 WHERE id = $2")
         .bind(now)
         .bind(id)
         .execute(pool)
@@ -172,7 +181,7 @@ pub async fn touch_session(pool: &Pool, id: i64, now: &str) -> sqlx::Result<()> 
 
 /// Ends a session (sign-out, idle expiry or rotation).
 pub async fn end_session(pool: &Pool, id: i64, now: &str) -> sqlx::Result<()> {
-    sqlx::query("UPDATE sessions SET ended_at = ? WHERE id = ? AND ended_at IS NULL")
+    sqlx::query("UPDATE sessions SET ended_at = $1 WHERE id = $2 AND ended_at IS NULL")
         .bind(now)
         .bind(id)
         .execute(pool)
@@ -207,7 +216,7 @@ pub async fn insert_token(
 ) -> sqlx::Result<i64> {
     sqlx::query_scalar(
         "INSERT INTO api_tokens (project_id, role, name, token_hash, created_by, created_at)
-         VALUES (?, ?, ?, ?, ?, ?) RETURNING id",
+         VALUES ($1, $2, $3, $4, $5, $6) RETURNING id",
     )
     .bind(project_id)
     .bind(role)
@@ -222,7 +231,7 @@ pub async fn insert_token(
 /// A live (not revoked) token by the hash of its secret.
 pub async fn token_by_hash(pool: &Pool, token_hash: &str) -> sqlx::Result<Option<ApiToken>> {
     sqlx::query_as::<_, ApiToken>(sqlx::AssertSqlSafe(format!(
-        "{TOKEN} WHERE token_hash = ? AND revoked_at IS NULL"
+        "{TOKEN} WHERE token_hash = $1 AND revoked_at IS NULL"
     )))
     .bind(token_hash)
     .fetch_optional(pool)
@@ -231,7 +240,7 @@ pub async fn token_by_hash(pool: &Pool, token_hash: &str) -> sqlx::Result<Option
 
 /// One token by id.
 pub async fn token(pool: &Pool, id: i64) -> sqlx::Result<Option<ApiToken>> {
-    sqlx::query_as::<_, ApiToken>(sqlx::AssertSqlSafe(format!("{TOKEN} WHERE id = ?")))
+    sqlx::query_as::<_, ApiToken>(sqlx::AssertSqlSafe(format!("{TOKEN} WHERE id = $1")))
         .bind(id)
         .fetch_optional(pool)
         .await
@@ -240,7 +249,7 @@ pub async fn token(pool: &Pool, id: i64) -> sqlx::Result<Option<ApiToken>> {
 /// Tokens of a project.
 pub async fn tokens(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<ApiToken>> {
     sqlx::query_as::<_, ApiToken>(sqlx::AssertSqlSafe(format!(
-        "{TOKEN} WHERE project_id = ? ORDER BY id"
+        "{TOKEN} WHERE project_id = $1 ORDER BY id"
     )))
     .bind(project_id)
     .fetch_all(pool)
@@ -249,7 +258,7 @@ pub async fn tokens(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<ApiToken>>
 
 /// Records a token's use.
 pub async fn touch_token(pool: &Pool, id: i64, now: &str) -> sqlx::Result<()> {
-    sqlx::query("UPDATE api_tokens SET last_used_at = ? WHERE id = ?")
+    sqlx::query("UPDATE api_tokens SET last_used_at = $1 WHERE id = $2")
         .bind(now)
         .bind(id)
         .execute(pool)
@@ -260,7 +269,7 @@ pub async fn touch_token(pool: &Pool, id: i64, now: &str) -> sqlx::Result<()> {
 /// Revokes a token; false when it was already revoked.
 pub async fn revoke_token(tx: &mut Tx<'_>, id: i64, now: &str) -> sqlx::Result<bool> {
     let done =
-        sqlx::query("UPDATE api_tokens SET revoked_at = ? WHERE id = ? AND revoked_at IS NULL")
+        sqlx::query("UPDATE api_tokens SET revoked_at = $1 WHERE id = $2 AND revoked_at IS NULL")
             .bind(now)
             .bind(id)
             .execute(&mut **tx)
@@ -270,7 +279,7 @@ pub async fn revoke_token(tx: &mut Tx<'_>, id: i64, now: &str) -> sqlx::Result<b
 
 /// Records a failed sign-in under a key (`user:…` or `addr:…`).
 pub async fn record_failure(pool: &Pool, key: &str, now: &str) -> sqlx::Result<()> {
-    sqlx::query("INSERT INTO sign_in_failures (key, at) VALUES (?, ?)")
+    sqlx::query("INSERT INTO sign_in_failures (key, at) VALUES ($1, $2)")
         .bind(key)
         .bind(now)
         .execute(pool)
@@ -284,7 +293,7 @@ pub async fn failures_since(
     key: &str,
     since: &str,
 ) -> sqlx::Result<(i64, Option<String>)> {
-    sqlx::query_as("SELECT COUNT(*), MAX(at) FROM sign_in_failures WHERE key = ? AND at >= ?")
+    sqlx::query_as("SELECT COUNT(*), MAX(at) FROM sign_in_failures WHERE key = $1 AND at >= $2")
         .bind(key)
         .bind(since)
         .fetch_one(pool)
@@ -293,7 +302,7 @@ pub async fn failures_since(
 
 /// Forgets a user name's failures after a successful sign-in.
 pub async fn clear_failures(pool: &Pool, key: &str) -> sqlx::Result<()> {
-    sqlx::query("DELETE FROM sign_in_failures WHERE key = ?")
+    sqlx::query("DELETE FROM sign_in_failures WHERE key = $1")
         .bind(key)
         .execute(pool)
         .await?;

@@ -163,20 +163,7 @@ pub fn check_loaded(
         .or(fallback.map(|s| s.chainage_m))
         .ok_or_else(|| AppError::invalid("chainage_m", "is required"))?;
     let chainage = quantity("chainage_m", reduction::Chainage::new(chainage_m))?;
-    // A small tolerance at lot ends: a test on the boundary chainage belongs to either lot.
-    if chainage.metres() < lot.chainage_from_m - 0.5 || chainage.metres() > lot.chainage_to_m + 0.5
-    {
-        return Err(AppError::invalid(
-            "chainage_m",
-            format!(
-                "{:.3} m is outside lot {} ({:.3}–{:.3} m)",
-                chainage.metres(),
-                lot.code,
-                lot.chainage_from_m,
-                lot.chainage_to_m
-            ),
-        ));
-    }
+    chainage_in_lot(lot, chainage.metres()).map_err(|m| AppError::invalid("chainage_m", m))?;
     let offset_m = input
         .offset_m
         .or(fallback.map(|s| s.offset_m))
@@ -355,12 +342,7 @@ async fn store(
     let mut record = checked.record;
     let mut tx = db::begin_write(pool).await?;
     if record.number.is_empty() {
-        let count: i64 =
-            sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE project_id = ?")
-                .bind(record.project_id)
-                .fetch_one(&mut *tx)
-                .await?;
-        record.number = format!("T-{:05}", count + 1);
+        record.number = db::field_tests::next_number(&mut tx, record.project_id).await?;
     }
     let id = match db::field_tests::insert(&mut tx, &record).await {
         Ok(id) => id,
@@ -518,4 +500,16 @@ pub async fn preview(
         "reasons": v.reasons,
         "saved": false,
     }))
+}
+
+/// Whether a chainage lies on a lot; a small tolerance at the ends lets a test on the
+/// boundary chainage belong to either lot. The message names the lot and its range.
+pub fn chainage_in_lot(lot: &db::lots::Lot, metres: f64) -> std::result::Result<(), String> {
+    if metres < lot.chainage_from_m - 0.5 || metres > lot.chainage_to_m + 0.5 {
+        return Err(format!(
+            "{:.3} m is outside lot {} ({:.3}–{:.3} m)",
+            metres, lot.code, lot.chainage_from_m, lot.chainage_to_m
+        ));
+    }
+    Ok(())
 }

@@ -743,11 +743,15 @@ struct Stored {
 
 /// Looks up every stored test a chunk names (its numbers and retest targets) in a few queries.
 async fn look_up(
-    conn: &mut sqlx::SqliteConnection,
+    conn: &mut crate::db::Conn,
     project_id: i64,
     chunk: &[RowResult],
     seen: &HashMap<Box<str>, Seen>,
+    empty_project: bool,
 ) -> Result<Stored> {
+    if empty_project {
+        return Ok(Stored::default());
+    }
     let mut wanted: Vec<&str> = Vec::new();
     for r in chunk.iter().flatten() {
         for n in [r.input.number.as_deref(), r.retest_of.as_deref()]
@@ -784,7 +788,7 @@ async fn look_up(
 
 /// Inserts queued tests (and their audit rows) through the import's transaction.
 async fn insert_queued(
-    conn: &mut sqlx::SqliteConnection,
+    conn: &mut crate::db::Conn,
     tests: Vec<FieldTest>,
     audits: Vec<bulk::AuditRow>,
 ) -> Result<()> {
@@ -853,8 +857,10 @@ pub async fn import_field_tests(
     // chunk k + 2 looked up on a second connection, which sees the store as it was before
     // this import (the import's writes are not committed, and no one else can commit).
     let mut reader = pool.acquire().await?;
+    // A project without tests (a first import) has nothing to look up.
+    let empty = bulk::test_id_range(pool, project_id).await?.is_none();
     let mut chunk = read_chunk(source);
-    let mut stored = look_up(&mut reader, project_id, &chunk, &run.seen).await?;
+    let mut stored = look_up(&mut reader, project_id, &chunk, &run.seen, empty).await?;
     while !chunk.is_empty() {
         let tests = std::mem::take(&mut run.pending);
         let audits = std::mem::take(&mut run.pending_audit);
@@ -871,7 +877,7 @@ pub async fn import_field_tests(
                 }
             }
             let next = read_chunk(source);
-            let next_stored = look_up(&mut reader, project_id, &next, &run.seen).await?;
+            let next_stored = look_up(&mut reader, project_id, &next, &run.seen, empty).await?;
             Ok::<_, AppError>((next, next_stored))
         };
         let (inserted, next) = if opts.commit && !tests.is_empty() {

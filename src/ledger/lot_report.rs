@@ -380,3 +380,44 @@ fn fingerprint(
     }
     hex::encode(h.finalize())
 }
+
+/// One newly stored test judged on its own (a new test always counts; only a later
+/// retest can supersede it), without loading the rest of its lot.
+pub async fn judge_new(pool: &Pool, t: &db::field_tests::FieldTest) -> Result<TestLine> {
+    let lot = db::lots::get(pool, t.lot_id)
+        .await?
+        .ok_or_else(|| AppError::not_found("lot_id", format!("lot {} does not exist", t.lot_id)))?;
+    let missing = |what: &str| anyhow::anyhow!("lot {} refers to a missing {what}", lot.id);
+    let clause = db::clauses::get(pool, lot.clause_id)
+        .await?
+        .ok_or_else(|| missing("clause"))?;
+    let source = db::sources::get(pool, lot.source_id)
+        .await?
+        .ok_or_else(|| missing("source"))?;
+    let lab = db::lab_tests::get(pool, lot.lab_test_id)
+        .await?
+        .ok_or_else(|| missing("lab test"))?;
+    let reference = reference_of(&lab)?;
+    let (r, v, reasons) = judge_line(t, &reference, &limits_of(&clause), &source, &clause);
+    let retest_of_number = match t.retest_of {
+        Some(id) => db::field_tests::get(pool, id).await?.map(|o| o.number),
+        None => None,
+    };
+    Ok(TestLine {
+        test: t.clone(),
+        reference_mdd_kg_m3: r.as_ref().map(|r| r.max_dry_density.kg_m3()),
+        reference_omc_pct: r.as_ref().map(|r| r.optimum_water_content.pct()),
+        relative_compaction_pct: v.as_ref().map(|v| v.relative_compaction_pct),
+        moisture_deviation_pct: v.as_ref().map(|v| v.moisture_deviation_pct),
+        passed: v.as_ref().is_some_and(|v| v.passed),
+        standing: if t.void_reason.is_some() {
+            "voided"
+        } else {
+            "counted"
+        }
+        .to_string(),
+        superseded_by: None,
+        retest_of_number,
+        reasons,
+    })
+}

@@ -205,7 +205,7 @@ pub async fn accept(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> R
         )
         .await?;
     }
-    issue_certificate(&mut tx, pool, &report, &comment, actor, &now).await?;
+    issue_certificate(&mut tx, &report, &comment, actor, &now).await?;
     tx.commit().await?;
     lot_report::build(pool, lot_id).await
 }
@@ -228,14 +228,17 @@ fn verification_code(seed: &str) -> String {
 
 async fn issue_certificate(
     tx: &mut db::Tx<'_>,
-    pool: &Pool,
     report: &LotReport,
     comment: &str,
     actor: &Actor,
     now: &str,
 ) -> Result<()> {
+    // Certificate numbers are per project, unique and without gaps: take the project lock first.
+    db::lock_project(tx, report.lot.project_id).await?;
     let previous = db::certificates::current_for_lot_tx(tx, report.lot.id).await?;
-    let all_for_lot = db::certificates::for_lot(pool, report.lot.id).await?;
+    // Reads go through the transaction: a second pooled connection per request could
+    // exhaust the pool while writers wait on the project lock.
+    let all_for_lot = db::certificates::for_lot_tx(tx, report.lot.id).await?;
     let (sequence, revision) = match all_for_lot.first() {
         Some(latest) => (latest.sequence, latest.revision + 1),
         None => (
@@ -245,7 +248,7 @@ async fn issue_certificate(
     };
     let number = format!("{}-EL-{:04}", report.project.code, sequence);
     let code = verification_code(&format!("{number}|{revision}|{}|{now}", report.fingerprint));
-    let transitions = db::lots::transitions(pool, report.lot.id).await?;
+    let transitions = db::lots::transitions_tx(tx, report.lot.id).await?;
     let submitted = transitions.iter().rev().find(|t| t.to_state == "submitted");
     let doc = certificate_doc::build(
         report,

@@ -266,7 +266,7 @@ impl<R: Read> CsvFieldTests<R> {
                 ),
             ));
         }
-        let mut cells: HashMap<Target, &str> = HashMap::new();
+        let mut cells = RowCells::default();
         for (target, (i, name)) in &self.index.at {
             let raw = rec.get(*i).unwrap_or(b"");
             match std::str::from_utf8(raw) {
@@ -372,11 +372,27 @@ impl<R: Read> RowSource for CsvFieldTests<R> {
     }
 }
 
+/// The non-empty mapped cells of one row, by target (no allocation per row).
+#[derive(Default)]
+struct RowCells<'a>([Option<&'a str>; Target::ALL.len()]);
+
+impl<'a> RowCells<'a> {
+    fn insert(&mut self, t: Target, v: &'a str) {
+        self.0[t as usize] = Some(v);
+    }
+    fn get(&self, t: &Target) -> Option<&&'a str> {
+        self.0[*t as usize].as_ref()
+    }
+    fn contains_key(&self, t: &Target) -> bool {
+        self.0[*t as usize].is_some()
+    }
+}
+
 /// Reads the mapped cells of one row, collecting every problem at once.
 struct CellReader<'a> {
     line: u64,
     index: &'a ColumnIndex,
-    cells: &'a HashMap<Target, &'a str>,
+    cells: &'a RowCells<'a>,
     problems: &'a mut Vec<RowProblem>,
     units: UnitSystem,
     chainage: ChainageStyle,

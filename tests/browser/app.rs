@@ -83,7 +83,7 @@ impl DemoApp {
 
     /// How many field tests the demo project holds.
     pub async fn field_test_count(&self) -> i64 {
-        sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE project_id = ?")
+        sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE project_id = $1")
             .bind(PROJECT)
             .fetch_one(&self.pool)
             .await
@@ -92,7 +92,7 @@ impl DemoApp {
 
     /// How many field tests a lot holds (voided and superseded included).
     pub async fn lot_test_count(&self, lot_id: i64) -> i64 {
-        sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE lot_id = ?")
+        sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE lot_id = $1")
             .bind(lot_id)
             .fetch_one(&self.pool)
             .await
@@ -106,7 +106,7 @@ impl DemoApp {
                 "SELECT l.code, l.chainage_from_m, l.chainage_to_m, c.code,
                         t.max_dry_density_kg_m3, t.optimum_water_content_pct
                  FROM lots l JOIN clauses c ON c.id = l.clause_id JOIN lab_tests t ON t.id = l.lab_test_id
-                 WHERE l.id = ?",
+                 WHERE l.id = $1",
             )
             .bind(lot_id)
             .fetch_one(&self.pool)
@@ -126,7 +126,7 @@ impl DemoApp {
     pub async fn tests_numbered(&self, number: &str) -> Vec<SavedTest> {
         let rows: Vec<(i64, String, f64, Option<i64>)> = sqlx::query_as(
             "SELECT lot_id, technician, chainage_m, retest_of FROM field_tests
-             WHERE project_id = ? AND number = ?",
+             WHERE project_id = $1 AND number = $2",
         )
         .bind(PROJECT)
         .bind(number)

@@ -139,7 +139,10 @@ async fn new_test_with_preview_then_save_changes_the_lot_state() {
     assert_eq!(row.find("td").await.text().await, number);
     assert_eq!(row.find("td:nth-child(3)").await.text().await, chainage);
     // The offset column is hidden at phone width; it is still in the row.
-    assert_eq!(row.find("td:nth-child(4)").await.prop("textContent").await, "1.5 m R");
+    assert_eq!(
+        row.find("td:nth-child(4)").await.prop("textContent").await,
+        "1.5 m R"
+    );
     assert_eq!(row.find("td:nth-child(9)").await.text().await, "99.0");
 
     // One test more, and the lot is no longer owed one.

@@ -705,7 +705,7 @@ async fn sign_in_sets_a_guarded_cookie_rotates_it_and_idle_sessions_expire() {
     // Idle for longer than the limit: the session has expired.
     let stale =
         liftledger::clock::format(time::OffsetDateTime::now_utc() - time::Duration::hours(9));
-    sqlx::query("UPDATE sessions SET last_seen_at = ? WHERE token_hash = ?")
+    sqlx::query("UPDATE sessions SET last_seen_at = $1 WHERE token_hash = $2")
         .bind(stale)
         .bind(liftledger::auth::secret::digest(&second))
         .execute(&app.pool)

@@ -1,7 +1,6 @@
 //! Spawning a real liftledger server on a random loopback port with a fresh SQLite file.
 
 use std::net::SocketAddr;
-use std::path::PathBuf;
 
 use liftledger::{AppState, Settings, db};
 use serde_json::{Value, json};
@@ -52,7 +51,8 @@ pub struct TestApp {
     /// A client with no session at all.
     pub anonymous: reqwest::Client,
     pub pool: db::Pool,
-    pub db_path: PathBuf,
+    /// Where the database is (an SQLite file, or a fresh PostgreSQL database).
+    pub location: db::Location,
     _dir: std::sync::Arc<tempfile::TempDir>,
     stop: Option<oneshot::Sender<()>>,
     handle: Option<tokio::task::JoinHandle<()>>,
@@ -159,7 +159,7 @@ impl TestApp {
     }
 
     /// Stops the server and waits for it to finish; the database file stays.
-    pub async fn stop(mut self) -> (std::sync::Arc<tempfile::TempDir>, PathBuf) {
+    pub async fn stop(mut self) -> (std::sync::Arc<tempfile::TempDir>, db::Location) {
         if let Some(s) = self.stop.take() {
             let _ = s.send(());
         }
@@ -167,7 +167,7 @@ impl TestApp {
             let _ = h.await;
         }
         self.pool.close().await;
-        (self._dir.clone(), self.db_path.clone())
+        (self._dir.clone(), self.location.clone())
     }
 
     /// Rows in a table, straight from SQLite (to prove refused requests wrote nothing).
@@ -208,15 +208,53 @@ pub const TABLES: [&str; 11] = [
 pub async fn spawn_app() -> TestApp {
     let dir = std::sync::Arc::new(tempfile::tempdir().expect("tempdir"));
     let path = dir.path().join("test.sqlite");
-    spawn_on(dir, path).await
+    spawn_on(dir, fresh_location(&path).await).await
+}
+
+/// The engine the tests run on: `LIFTLEDGER_TEST_DB=postgres` selects PostgreSQL
+/// (a new database per test on `LIFTLEDGER_TEST_PG`, default the local server's `test`), else SQLite.
+pub fn engine() -> db::Engine {
+    match std::env::var("LIFTLEDGER_TEST_DB").as_deref() {
+        Ok("postgres") => db::Engine::Postgres,
+        _ => db::Engine::Sqlite,
+    }
+}
+
+/// A new, empty database of the selected engine (`path` is used for SQLite).
+pub async fn fresh_location(path: &std::path::Path) -> db::Location {
+    match engine() {
+        db::Engine::Sqlite => db::Location::sqlite(path),
+        db::Engine::Postgres => {
+            use sqlx::Connection;
+            let admin = std::env::var("LIFTLEDGER_TEST_PG")
+                .unwrap_or_else(|_| "postgres://postgres@127.0.0.1:5432/test".to_string());
+            let name = format!(
+                "ll_t_{}",
+                liftledger::auth::secret::digest(&liftledger::auth::secret::new("").unwrap())[..16]
+                    .to_string()
+            );
+            let mut conn = sqlx::PgConnection::connect(&admin)
+                .await
+                .expect("PostgreSQL for tests");
+            sqlx::query(sqlx::AssertSqlSafe(format!("CREATE DATABASE {name}")))
+                .execute(&mut conn)
+                .await
+                .expect("create test database");
+            let base = admin
+                .rsplit_once('/')
+                .map_or(admin.as_str(), |(b, _)| b)
+                .to_string();
+            db::Location::parse(&format!("{base}/{name}"), 8)
+        }
+    }
 }
 
 /// Starts a server on an existing (or new) database file.
-pub async fn spawn_on(dir: std::sync::Arc<tempfile::TempDir>, path: PathBuf) -> TestApp {
+pub async fn spawn_on(dir: std::sync::Arc<tempfile::TempDir>, location: db::Location) -> TestApp {
     if std::env::var("TEST_LOG").is_ok() {
         let _ = tracing_subscriber::fmt().with_env_filter("info").try_init();
     }
-    let pool = db::open(&path).await.expect("open db");
+    let pool = db::connect(&location).await.expect("open db");
     let listener = tokio::net::TcpListener::bind("127.0.0.1:0")
         .await
         .expect("bind");
@@ -253,7 +291,7 @@ pub async fn spawn_on(dir: std::sync::Arc<tempfile::TempDir>, path: PathBuf) -> 
         clients,
         anonymous: client_with(&origin, None),
         pool,
-        db_path: path,
+        location,
         _dir: dir,
         stop: Some(tx),
         handle: Some(handle),
@@ -358,12 +396,13 @@ pub fn nuclear_test(number: &str, chainage_m: f64, dry: f64, w_pct: f64) -> Valu
 pub async fn spawn_demo() -> TestApp {
     let dir = std::sync::Arc::new(tempfile::tempdir().expect("tempdir"));
     let path = dir.path().join("demo.sqlite");
+    let location = fresh_location(&path).await;
     {
-        let pool = db::open(&path).await.expect("open db");
+        let pool = db::connect(&location).await.expect("open db");
         liftledger::demo::load(&pool).await.expect("demo loads");
         pool.close().await;
     }
-    let app = spawn_on(dir, path).await;
+    let app = spawn_on(dir, location).await;
     app.grant_all(1).await;
     app
 }

@@ -11,4 +11,5 @@ mod concurrency;
 mod openapi;
 mod pages;
 mod restart;
+mod shared_postgres;
 mod transfer;

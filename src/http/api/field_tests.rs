@@ -54,6 +54,12 @@ pub fn test_json(
     v
 }
 
+/// A just-stored test with its own verdict (cheap: does not load the whole lot).
+async fn with_own_line(s: &AppState, t: &db::field_tests::FieldTest) -> Result<Value> {
+    let line = ledger::lot_report::judge_new(&s.db, t).await?;
+    Ok(test_json(t, Some(&line)))
+}
+
 async fn with_line(s: &AppState, t: &db::field_tests::FieldTest) -> Result<Value> {
     let report = ledger::lot_report::build(&s.db, t.lot_id).await?;
     Ok(test_json(
@@ -88,7 +94,7 @@ async fn create(
     let actor = require(&s.db, &caller, Scope::Lot(id), Action::EnterTests).await?;
 
     let t = ledger::field::record_test(&s.db, id, &input, &actor).await?;
-    Ok((StatusCode::CREATED, Json(with_line(&s, &t).await?)))
+    Ok((StatusCode::CREATED, Json(with_own_line(&s, &t).await?)))
 }
 
 async fn preview(
@@ -206,5 +212,5 @@ async fn retest(
     let actor = require(&s.db, &caller, Scope::Test(id), Action::EnterTests).await?;
 
     let t = ledger::field::record_retest(&s.db, id, &input, &actor).await?;
-    Ok((StatusCode::CREATED, Json(with_line(&s, &t).await?)))
+    Ok((StatusCode::CREATED, Json(with_own_line(&s, &t).await?)))
 }

@@ -229,6 +229,29 @@ pub fn parse_entry(f: &EntryForm, u: &Units, retest: bool) -> Result<FieldTestIn
     }
 }
 
+/// Adds the lot-range problem of a readable chainage, so every problem shows at once.
+fn lot_range_error(lot: &db::lots::Lot, u: &Units, form: &EntryForm, errors: &mut Errors) {
+    if errors.contains_key("chainage") || form.chainage.trim().is_empty() {
+        return;
+    }
+    if let Ok(c) = Chainage::parse(form.chainage.trim(), u.chainage)
+        && ledger::field::chainage_in_lot(lot, c.metres()).is_err()
+    {
+        errors.insert("chainage".into(), outside_lot_words(lot, u, c.metres()));
+    }
+}
+
+/// "0+650.000 is outside lot EF06-1 (0+000.000 to 0+400.000)", in the project's style.
+fn outside_lot_words(lot: &db::lots::Lot, u: &Units, metres: f64) -> String {
+    format!(
+        "{} is outside lot {} ({} to {})",
+        u.chainage(metres),
+        lot.code,
+        u.chainage(lot.chainage_from_m),
+        u.chainage(lot.chainage_to_m)
+    )
+}
+
 /// Maps a ledger error's field onto the form input it came from.
 fn form_field(api_field: &str, method: &str) -> String {
     match api_field {
@@ -426,7 +449,8 @@ async fn retest_form(State(s): State<AppState>, caller: Caller, Path(id): Path<i
 async fn handle(s: &AppState, c: Context, form: EntryForm, actor: Actor) -> PageResult {
     let input = match parse_entry(&form, &c.units, c.retest_of.is_some()) {
         Ok(i) => i,
-        Err(errors) => {
+        Err(mut errors) => {
+            lot_range_error(&c.lot, &c.units, &form, &mut errors);
             return render_status(
                 StatusCode::UNPROCESSABLE_ENTITY,
                 &page(&c, form, errors, None),
@@ -460,6 +484,12 @@ fn field_error(c: &Context, form: EntryForm, e: AppError) -> PageResult {
     let mut errors = Errors::new();
     let field = form_field(e.field(), &form.method);
     let mut msg = e.user_message();
+    if field == "chainage"
+        && let Ok(ch) = Chainage::parse(form.chainage.trim(), c.units.chainage)
+        && ledger::field::chainage_in_lot(&c.lot, ch.metres()).is_err()
+    {
+        msg = outside_lot_words(&c.lot, &c.units, ch.metres());
+    }
     if !e.reasons().is_empty() {
         msg = format!("{msg}: {}", e.reasons().join("; "));
     }
@@ -517,7 +547,10 @@ async fn live_preview(
     let retest = form.action == "retest";
     let input = match parse_entry(&form, &u, retest) {
         Ok(i) => i,
-        Err(errors) => return Ok(Json(json!({"errors": errors}))),
+        Err(mut errors) => {
+            lot_range_error(&lot, &u, &form, &mut errors);
+            return Ok(Json(json!({"errors": errors})));
+        }
     };
     match ledger::field::preview(&s.db, id, &input, &a).await {
         Ok(v) => Ok(Json(json!({"errors": {}, "preview": preview_view(&v, &u)}))),
