@@ -30,6 +30,28 @@ pub enum Command {
         #[arg(long)]
         to: String,
     },
+    /// Check (default) or commit a CSV file of field tests into a project, with a progress line.
+    Import {
+        #[command(flatten)]
+        db: DbArgs,
+        /// Project code, e.g. MLR.
+        #[arg(long)]
+        project: String,
+        /// Column mapping (JSON) from file columns to liftledger fields.
+        #[arg(long)]
+        mapping: std::path::PathBuf,
+        /// Density units of the file: si or us.
+        #[arg(long, default_value = "si")]
+        units: String,
+        /// Chainage style of the file: km_metre or feet_station.
+        #[arg(long, default_value = "km_metre")]
+        chainage: String,
+        /// Write every row (or none); without it, a dry run.
+        #[arg(long)]
+        commit: bool,
+        /// The CSV file.
+        file: std::path::PathBuf,
+    },
     /// Manage users: add one, or give one a role in a project.
     #[command(subcommand)]
     User(UserCommand),

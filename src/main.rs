@@ -68,6 +68,29 @@ async fn main() -> anyhow::Result<()> {
                 .map_err(|e| anyhow::anyhow!("{}: {}", e.field(), e.user_message()))?;
             println!("{username} is now {role} in {}", p.code);
         }
+        Command::Import {
+            db,
+            project,
+            mapping,
+            units,
+            chainage,
+            commit,
+            file,
+        } => {
+            let report = liftledger::transfer::run_cli_import(
+                &db.location(),
+                &project,
+                &mapping,
+                &units,
+                &chainage,
+                &file,
+                commit,
+            )
+            .await?;
+            if report.refused() {
+                std::process::exit(1);
+            }
+        }
         Command::Copy { from, to } => {
             let source = db::connect(&db::Location::parse(&from, 4)).await?;
             let target = db::connect(&db::Location::parse(&to, 4)).await?;

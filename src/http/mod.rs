@@ -30,10 +30,15 @@ pub fn router(state: AppState) -> Router {
     Router::new()
         .merge(api::router())
         .merge(pages::router())
+        .layer(RequestBodyLimitLayer::new(MAX_BODY_BYTES))
+        // Imports carry whole files; only they get the larger limit.
+        .merge(
+            api::transfer::import_router()
+                .layer(RequestBodyLimitLayer::new(api::transfer::MAX_IMPORT_BYTES)),
+        )
         .fallback(not_found)
         .with_state(state)
         .layer(axum::middleware::from_fn(same_origin::check))
-        .layer(RequestBodyLimitLayer::new(MAX_BODY_BYTES))
         .layer(TimeoutLayer::with_status_code(
             StatusCode::REQUEST_TIMEOUT,
             Duration::from_secs(30),

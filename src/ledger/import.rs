@@ -68,7 +68,7 @@ impl RowProblem {
 }
 
 /// Finds the file column and cell behind a field named by the ledger's validation.
-pub trait CellLocator: Send {
+pub trait CellLocator: Send + Sync {
     /// (column name, cell text) for a ledger field such as `chainage_m` or `readings.wet_density_kg_m3`.
     fn locate(&self, field: &str, method: &str) -> (String, String);
 }
@@ -113,7 +113,7 @@ pub struct SourceOrigin {
 }
 
 /// Where import rows come from.
-pub trait RowSource {
+pub trait RowSource: Send {
     /// The next row, or `None` at the end.
     fn next_row(&mut self) -> Option<RowResult>;
     /// What was read so far (complete after the last row).

@@ -316,7 +316,7 @@ impl<R: Read> CsvFieldTests<R> {
     }
 }
 
-impl<R: Read> RowSource for CsvFieldTests<R> {
+impl<R: Read + Send> RowSource for CsvFieldTests<R> {
     fn next_row(&mut self) -> Option<RowResult> {
         if let Some(p) = self.opening.take() {
             self.done = true;

@@ -23,7 +23,7 @@ use csv_import::{CsvFieldTests, CsvLabPoints};
 use mapping::{ImportMapping, LabPointMapping};
 
 /// Checks (dry run) or imports (commit) a CSV file of field tests into a project.
-pub async fn import_csv<R: std::io::Read>(
+pub async fn import_csv<R: std::io::Read + Send>(
     pool: &Pool,
     project_id: i64,
     file: R,
@@ -87,7 +87,7 @@ const CLI_PROBLEMS_SHOWN: usize = 50;
 /// What `liftledger import` runs: read a mapping file, check or import a CSV file into a
 /// project, print the report. Fails (non-zero exit) when the file has problems.
 pub async fn run_cli_import(
-    db_path: &Path,
+    location: &db::Location,
     project_code: &str,
     mapping_path: &Path,
     units: &str,
@@ -106,7 +106,7 @@ pub async fn run_cli_import(
         .with_context(|| format!("mapping {} is not a column mapping", mapping_path.display()))?;
     mapping.units = units;
     mapping.chainage = chainage;
-    let pool = db::open(db_path).await?;
+    let pool = db::connect(location).await?;
     let project = db::projects::get_by_code(&pool, &project_code.trim().to_ascii_uppercase())
         .await?
         .ok_or_else(|| anyhow::anyhow!("no project with code {project_code}"))?;

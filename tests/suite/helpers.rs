@@ -230,8 +230,8 @@ pub async fn fresh_location(path: &std::path::Path) -> db::Location {
                 .unwrap_or_else(|_| "postgres://postgres@127.0.0.1:5432/test".to_string());
             let name = format!(
                 "ll_t_{}",
-                liftledger::auth::secret::digest(&liftledger::auth::secret::new("").unwrap())[..16]
-                    .to_string()
+                &liftledger::auth::secret::digest(&liftledger::auth::secret::new("").unwrap())
+                    [..16]
             );
             let mut conn = sqlx::PgConnection::connect(&admin)
                 .await

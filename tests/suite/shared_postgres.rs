@@ -307,7 +307,7 @@ async fn when_one_server_dies_mid_load_the_other_keeps_serving_and_nothing_is_ha
     )
     .await
     .unwrap();
-    let mut servers = vec![Server::start(&location), Server::start(&location)];
+    let mut servers = [Server::start(&location), Server::start(&location)];
     let lot: i64 = sqlx::query_scalar("SELECT id FROM lots WHERE code = 'EF08-1'")
         .fetch_one(&pool)
         .await

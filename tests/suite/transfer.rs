@@ -889,7 +889,7 @@ async fn fault_child_import() {
     let file = std::env::var("LIFTLEDGER_FAULT_CSV").unwrap();
     let map = std::env::var("LIFTLEDGER_FAULT_MAPPING").unwrap();
     transfer::run_cli_import(
-        Path::new(&db_path),
+        &liftledger::db::Location::sqlite(Path::new(&db_path)),
         "TST",
         Path::new(&map),
         "si",
@@ -920,7 +920,6 @@ async fn killed_import_is_all_or_nothing() {
 }
 
 #[tokio::test]
-#[ignore = "needs the import subcommand"]
 async fn killed_cli_import_is_all_or_nothing() {
     killed_mid_commit(|db, map, csv| {
         let mut c = std::process::Command::new(env!("CARGO_BIN_EXE_liftledger"));
@@ -950,4 +949,101 @@ fn the_written_file_is_what_was_hashed() {
     let mut sink = Vec::new();
     sink.write_all(&bytes).unwrap();
     assert_eq!(sink.len() as u64, rows.origin().bytes);
+}
+
+#[tokio::test]
+async fn the_import_and_export_routes_check_commit_and_download_over_http() {
+    let app = spawn_app().await;
+    let f = build_frame(&app, json!({"rule": "every_test"})).await;
+    let (s, saved) = app
+        .post(
+            &format!("/api/v1/projects/{}/import-mappings", f.project),
+            &json!({"name": "gauge export", "mapping": serde_json::to_value(mapping()).unwrap()}),
+        )
+        .await;
+    assert_eq!(s, 201, "{saved}");
+    let mut rows: Vec<Vec<String>> = (0..200)
+        .map(|i| row(&format!("H-{i:03}"), "1050", 1900.0, 11.0))
+        .collect();
+    rows[57][4] = "9+999.000".into();
+    let send = |body: Vec<u8>, commit: bool| {
+        let url = app.url(&format!(
+            "/api/v1/projects/{}/imports?mapping=gauge%20export&commit={commit}&file_name=site.csv",
+            f.project
+        ));
+        let client = app.client.clone();
+        async move {
+            let r = client.post(url).body(body).send().await.unwrap();
+            (
+                r.status().as_u16(),
+                r.json::<serde_json::Value>().await.unwrap(),
+            )
+        }
+    };
+    let before = tests_count(&app).await;
+    let (s, report) = send(csv_bytes(b',', true, &rows), true).await;
+    assert_eq!(s, 422, "a bad row refuses the commit: {report}");
+    let problem = &report["report"]["problems"][0];
+    assert_eq!(problem["row"], 58 + 1, "{problem}");
+    assert!(
+        problem["reason"].as_str().unwrap().contains("outside lot"),
+        "{problem}"
+    );
+    assert_eq!(tests_count(&app).await, before, "nothing written");
+    rows[57][4] = "1060".into();
+    let (s, report) = send(csv_bytes(b',', true, &rows), false).await;
+    assert_eq!(s, 200, "{report}");
+    assert_eq!(report["report"]["new_tests"], 200);
+    assert_eq!(tests_count(&app).await, before, "a dry run writes nothing");
+    let (s, report) = send(csv_bytes(b';', true, &rows), true).await;
+    assert_eq!(s, 201, "{report}");
+    assert_eq!(tests_count(&app).await, before + 200);
+    let (s, again) = send(csv_bytes(b',', false, &rows), true).await;
+    assert_eq!(
+        again["report"]["new_tests"], 0,
+        "re-uploading creates nothing ({s})"
+    );
+    // Technicians may not import.
+    let r = app
+        .client_as(crate::helpers::As::Tech)
+        .post(app.url(&format!(
+            "/api/v1/projects/{}/imports?mapping=gauge%20export",
+            f.project
+        )))
+        .body(csv_bytes(b',', false, &rows))
+        .send()
+        .await
+        .unwrap();
+    assert_eq!(r.status().as_u16(), 403);
+
+    let r = app
+        .client
+        .get(app.url(&format!(
+            "/api/v1/projects/{}/exports/tests_csv?verdict=pass",
+            f.project
+        )))
+        .send()
+        .await
+        .unwrap();
+    assert!(
+        r.headers()["content-type"]
+            .to_str()
+            .unwrap()
+            .starts_with("text/csv")
+    );
+    let bytes = r.bytes().await.unwrap();
+    assert_eq!(&bytes[..3], b"\xEF\xBB\xBF");
+    let n = csv::Reader::from_reader(&bytes[3..]).records().count();
+    assert_eq!(n, 200);
+    let (s, lots) = app
+        .get(&format!("/api/v1/projects/{}/exports/lots_json", f.project))
+        .await;
+    assert_eq!(s, 200, "{lots}");
+    let (s, _) = app
+        .get(&format!(
+            "/api/v1/projects/{}/exports/spreadsheet",
+            f.project
+        ))
+        .await;
+    assert_eq!(s, 404);
 }

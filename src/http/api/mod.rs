@@ -6,6 +6,7 @@ mod certificates;
 mod field_tests;
 pub mod openapi;
 mod projects;
+pub mod transfer;
 
 use axum::Router;
 
@@ -20,6 +21,7 @@ pub fn router() -> Router<AppState> {
         .merge(calc::router())
         .merge(certificates::router())
         .merge(openapi::router())
+        .merge(transfer::router())
 }
 
 /// Paging parameters shared by every list.

@@ -282,6 +282,24 @@ pub const OPERATIONS: &[Operation] = &[
         "Revoke an API token",
         None,
     ),
+    op(
+        "post",
+        "/api/v1/projects/{id}/imports",
+        "Check (dry run) or commit a CSV file of field tests sent as the body; query: mapping (saved name), commit, file_name",
+        Some("CsvFile"),
+    ),
+    op(
+        "post",
+        "/api/v1/projects/{id}/import-mappings",
+        "Save a column mapping for imports under a name",
+        Some("MappingInput"),
+    ),
+    op(
+        "get",
+        "/api/v1/projects/{id}/exports/{kind}",
+        "Export field tests or lot verdicts: tests_csv, tests_json, lots_csv, lots_json, tests_geojson (test-list filters apply)",
+        None,
+    ),
     op("get", "/api/v1/openapi.json", "This document", None),
 ];
 
@@ -304,6 +322,11 @@ pub fn document() -> Value {
         });
         if o.path.contains("{id}") {
             operation["parameters"] = json!([{"name": "id", "in": "path", "required": true, "schema": {"type": "integer"}}]);
+        }
+        if o.path.contains("{kind}")
+            && let Some(a) = operation["parameters"].as_array_mut()
+        {
+            a.push(json!({"name": "kind", "in": "path", "required": true, "schema": {"type": "string"}}));
         }
         if let Some(body) = o.body {
             operation["requestBody"] = json!({
@@ -361,6 +384,8 @@ fn schemas() -> Value {
                 "clause_id": int, "lab_test_id": int})),
         "ReviewInput": obj(&[], json!({"comment": s})),
         "VoidInput": obj(&["reason"], json!({"reason": s})),
+        "CsvFile": {"type": "string", "description": "CSV text (comma, semicolon or tab; UTF-8, BOM allowed)"},
+        "MappingInput": obj(&["name", "mapping"], json!({"name": s, "mapping": {"type": "object"}})),
         "UserInput": obj(&["username", "display_name", "password"], json!({"username": s, "display_name": s, "password": s, "is_admin": {"type": "boolean"}})),
         "GrantInput": obj(&["username", "role"], json!({"username": s, "role": {"enum": ["technician", "qc_manager", "client_engineer", "viewer"]}})),
         "TokenInput": obj(&["name", "role"], json!({"name": s, "role": {"enum": ["technician", "qc_manager", "client_engineer", "viewer"]}})),
