@@ -830,7 +830,12 @@ pub async fn import_field_tests(
     setup::require_project(pool, project_id).await?;
     // Take the write lock first: what the rows are checked against cannot change before commit.
     let mut tx = if opts.commit {
-        db::begin_write(pool).await?
+        let mut tx = db::begin_write(pool).await?;
+        // PostgreSQL: the project's row and the tests table are this import's until it ends
+        // (SQLite's BEGIN IMMEDIATE already holds the one write lock).
+        db::lock_project(&mut tx, project_id).await?;
+        bulk::lock_tests_for_numbering(&mut tx).await?;
+        tx
     } else {
         pool.begin().await?
     };
@@ -909,6 +914,8 @@ pub async fn import_field_tests(
     }
     let last_id = first_id + report.new_tests as i64 - 1;
     report.created_ids = Some((first_id, last_id));
+    // The ids were given explicitly: move the engine's id generator past them.
+    bulk::advance_test_ids(&mut tx).await?;
     audit::record(
         &mut tx,
         &audit::Change {

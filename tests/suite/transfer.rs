@@ -1047,3 +1047,32 @@ async fn the_import_and_export_routes_check_commit_and_download_over_http() {
         .await;
     assert_eq!(s, 404);
 }
+
+#[tokio::test]
+async fn single_entry_after_an_import_gets_fresh_ids() {
+    let app = spawn_app().await;
+    let f = build_frame(&app, json!({"rule": "every_test"})).await;
+    let rows: Vec<Vec<String>> = (0..300)
+        .map(|i| row(&format!("A-{i:03}"), "1050", 1900.0, 11.0))
+        .collect();
+    let r = run(&app, &f, &csv_bytes(b',', false, &rows), &mapping(), true).await;
+    let (_, last) = r.created_ids.expect("created");
+    // Ids the import gave explicitly are not handed out again (an identity column on
+    // PostgreSQL must have been moved past them).
+    let (s, body) = app
+        .post(
+            &format!("/api/v1/lots/{}/field-tests", f.lot),
+            &crate::helpers::nuclear_test("AFTER-1", 1060.0, 1900.0, 11.0),
+        )
+        .await;
+    assert_eq!(s, 201, "{body}");
+    assert!(body["id"].as_i64().unwrap() > last, "{body}");
+    // And a second import numbers on after the single test.
+    let more: Vec<Vec<String>> = (0..10)
+        .map(|i| row(&format!("B-{i:03}"), "1050", 1900.0, 11.0))
+        .collect();
+    let r2 = run(&app, &f, &csv_bytes(b',', false, &more), &mapping(), true).await;
+    let (first, _) = r2.created_ids.expect("created");
+    assert!(first > body["id"].as_i64().unwrap());
+    assert_eq!(tests_count(&app).await, 311);
+}
