@@ -24,12 +24,18 @@ pub struct Inner {
     pub db: Pool,
     /// Service settings.
     pub settings: Settings,
+    /// Judged lots per project, reused while the project's revision holds.
+    pub views: crate::ledger::overview::SummaryCache,
 }
 
 impl AppState {
     /// Wraps a pool and settings.
     pub fn new(db: Pool, settings: Settings) -> Self {
-        Self(Arc::new(Inner { db, settings }))
+        Self(Arc::new(Inner {
+            db,
+            settings,
+            views: Default::default(),
+        }))
     }
 }
 

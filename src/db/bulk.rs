@@ -284,22 +284,11 @@ pub async fn insert_audit_rows(conn: &mut SqliteConnection, rows: &[AuditRow]) -
 /// The columns of a test the lot verdict and the whole-project views need.
 ///
 /// Same as [`FieldTest`] without `readings_json`, the one large text no whole-project
-/// view shows; see [`tests_for_project_views`].
+/// view shows; see `field_tests::stream_for_views`.
 pub const VIEW_COLUMNS: &str = "id, project_id, lot_id, number, tested_at, technician, method, instrument_serial, chainage_m,
     offset_m, depth_mm, coarse_pct, coarse_water_content_pct, easting, northing, '' AS readings_json, wet_density_kg_m3,
     water_content_pct, dry_density_kg_m3, moisture_source, reduction_version, retest_of, void_reason, voided_by,
     voided_at, created_at, created_by";
-
-/// Every test of a project by lot then time, with `readings_json` left empty: what the
-/// project overview needs, at a fraction of the bytes of a full read.
-pub async fn tests_for_project_views(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<FieldTest>> {
-    sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
-        "SELECT {VIEW_COLUMNS} FROM field_tests WHERE project_id = $1 ORDER BY lot_id, tested_at, id"
-    )))
-    .bind(project_id)
-    .fetch_all(pool)
-    .await
-}
 
 /// A saved column mapping of a project.
 #[derive(Debug, Clone, Serialize, sqlx::FromRow)]

@@ -226,3 +226,17 @@ pub async fn next_number(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<Strin
         .await?;
     Ok(format!("T-{:04}", count + 1))
 }
+
+/// Every test of a project by lot then time, without `readings_json`, as a stream: a
+/// whole-project view judges one lot at a time and never holds the project's tests at once.
+pub fn stream_for_views(
+    pool: &Pool,
+    project_id: i64,
+) -> futures_util::stream::BoxStream<'_, sqlx::Result<FieldTest>> {
+    sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
+        "SELECT {} FROM field_tests WHERE project_id = $1 ORDER BY lot_id, tested_at, id",
+        super::bulk::VIEW_COLUMNS
+    )))
+    .bind(project_id)
+    .fetch(pool)
+}

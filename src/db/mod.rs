@@ -203,7 +203,7 @@ pub async fn begin_write(pool: &Pool) -> sqlx::Result<Tx<'static>> {
 /// consecutive; on SQLite `BEGIN IMMEDIATE` already holds the only write lock.
 pub async fn lock_project(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<()> {
     if tx.backend_name() == "PostgreSQL" {
-        sqlx::query("SELECT id FROM projects WHERE id = $1 FOR UPDATE")
+        sqlx::query("SELECT id FROM projects WHERE id = $1 FOR NO KEY UPDATE")
             .bind(project_id)
             .fetch_optional(&mut **tx)
             .await?;

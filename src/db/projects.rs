@@ -80,3 +80,12 @@ pub async fn get_by_code(pool: &Pool, code: &str) -> sqlx::Result<Option<Project
     .fetch_optional(pool)
     .await
 }
+
+/// The project's revision: bumped by every audited change to it (see migration 0003),
+/// so a cached whole-project view is current exactly when its revision still matches.
+pub async fn revision(pool: &Pool, id: i64) -> sqlx::Result<Option<i64>> {
+    sqlx::query_scalar("SELECT revision FROM projects WHERE id = $1")
+        .bind(id)
+        .fetch_optional(pool)
+        .await
+}

@@ -195,6 +195,9 @@ pub async fn sign_in(
         }
     };
     let Some(user) = user.filter(|_| ok) else {
+        // The wait runs from when the failure is answered, not from when the (slow)
+        // password check began.
+        let now = clock::now();
         users::record_failure(pool, &user_key, &now).await?;
         users::record_failure(pool, &addr_key, &now).await?;
         let mut tx = db::begin_write(pool).await?;

@@ -56,6 +56,9 @@ pub struct LotReport {
     pub source: db::sources::Source,
     pub lab_test: db::lab_tests::LabTest,
     pub tests: Vec<TestLine>,
+    /// Tests entered on the lot, voided and superseded ones included (kept when a
+    /// whole-project summary drops the lines themselves).
+    pub tests_entered: usize,
     pub verdict: Verdict,
     pub length_m: f64,
     pub width_m: f64,
@@ -324,6 +327,7 @@ pub fn assemble(
         clause,
         source,
         lab_test,
+        tests_entered: lines.len(),
         tests: lines,
         verdict,
         length_m,

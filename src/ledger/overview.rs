@@ -1,17 +1,104 @@
-//! Whole-project views: every lot judged, loaded in a handful of queries.
+//! Whole-project views: every lot judged, one lot's tests in memory at a time.
+//!
+//! [`each_report`] streams a project's tests in lot order and judges each lot as its
+//! tests complete, so memory follows the largest lot, not the project. [`summaries`]
+//! keeps the judged lots without their test lines per project revision (bumped by
+//! every audited change, see `db::projects::revision`), so the lift map and the
+//! project home read one row while nothing has changed.
 
 use std::collections::HashMap;
+use std::sync::{Arc, Mutex};
+
+use futures_util::TryStreamExt;
 
 use super::lot_report::{self, LotReport};
 use crate::db::{self, Pool};
 use crate::error::{AppError, Result};
 
-/// Every lot of a project judged, in layer then chainage order.
-#[tracing::instrument(skip(pool))]
-pub async fn project_reports(pool: &Pool, project_id: i64) -> Result<Vec<LotReport>> {
-    let project = db::projects::get(pool, project_id).await?.ok_or_else(|| {
-        AppError::not_found("project_id", format!("project {project_id} does not exist"))
-    })?;
+/// What every lot of a project shares, read once per pass.
+struct Shared {
+    project: db::projects::Project,
+    clauses: HashMap<i64, db::clauses::Clause>,
+    sources: HashMap<i64, db::sources::Source>,
+    labs: HashMap<i64, db::lab_tests::LabTest>,
+    certificates: HashMap<i64, db::certificates::Certificate>,
+}
+
+impl Shared {
+    async fn load(pool: &Pool, project_id: i64) -> Result<Self> {
+        let project = db::projects::get(pool, project_id).await?.ok_or_else(|| {
+            AppError::not_found("project_id", format!("project {project_id} does not exist"))
+        })?;
+        let clauses = db::clauses::list(pool, project_id).await?;
+        let sources = db::sources::list(pool, project_id).await?;
+        let labs = db::lab_tests::list_for_project(pool, project_id).await?;
+        let clauses = clauses.into_iter().map(|c| (c.id, c)).collect();
+        let sources = sources.into_iter().map(|s| (s.id, s)).collect();
+        let labs = labs.into_iter().map(|l| (l.id, l)).collect();
+        let certificates = db::certificates::for_project(pool, project_id)
+            .await?
+            .into_iter()
+            .filter(|c| c.superseded_at.is_none())
+            .map(|c| (c.lot_id, c))
+            .collect();
+        Ok(Self {
+            project,
+            clauses,
+            sources,
+            labs,
+            certificates,
+        })
+    }
+
+    fn judge(
+        &mut self,
+        lot: db::lots::Lot,
+        tests: Vec<db::field_tests::FieldTest>,
+    ) -> Result<LotReport> {
+        let id = lot.id;
+        let missing = |what: &str| anyhow::anyhow!("lot {id} refers to a missing {what}");
+        let clause = self
+            .clauses
+            .get(&lot.clause_id)
+            .cloned()
+            .ok_or_else(|| missing("clause"))?;
+        let source = self
+            .sources
+            .get(&lot.source_id)
+            .cloned()
+            .ok_or_else(|| missing("source"))?;
+        let lab = self
+            .labs
+            .get(&lot.lab_test_id)
+            .cloned()
+            .ok_or_else(|| missing("lab test"))?;
+        let certificate = self.certificates.remove(&id);
+        lot_report::assemble(
+            lot,
+            self.project.clone(),
+            clause,
+            source,
+            lab,
+            tests,
+            certificate,
+        )
+    }
+}
+
+/// Judges every lot of the project that `keep` accepts, calling `each` with the lots
+/// in layer then chainage order.
+///
+/// Tests are read in one streamed query in lot-id order; each lot is judged as soon as
+/// its tests are complete and handed over in the lots' own order (reports that arrive
+/// early wait, without their tests when `keep_lines` is false).
+pub async fn each_report(
+    pool: &Pool,
+    project_id: i64,
+    keep: impl Fn(&db::lots::Lot) -> bool,
+    keep_lines: bool,
+    mut each: impl FnMut(LotReport) -> Result<()>,
+) -> Result<()> {
+    let mut shared = Shared::load(pool, project_id).await?;
     let lots = db::lots::list(
         pool,
         project_id,
@@ -21,50 +108,146 @@ pub async fn project_reports(pool: &Pool, project_id: i64) -> Result<Vec<LotRepo
         },
     )
     .await?;
-    let clauses: HashMap<i64, _> = db::clauses::list(pool, project_id)
-        .await?
-        .into_iter()
-        .map(|c| (c.id, c))
-        .collect();
-    let sources: HashMap<i64, _> = db::sources::list(pool, project_id)
-        .await?
-        .into_iter()
-        .map(|s| (s.id, s))
-        .collect();
-    let labs: HashMap<i64, _> = db::lab_tests::list_for_project(pool, project_id)
-        .await?
-        .into_iter()
-        .map(|l| (l.id, l))
-        .collect();
-    let mut tests: HashMap<i64, Vec<db::field_tests::FieldTest>> = HashMap::new();
-    for t in db::field_tests::all_for_project(pool, project_id).await? {
-        tests.entry(t.lot_id).or_default().push(t);
+    // Position of each kept lot in display order, and the lot rows by id.
+    let mut order: HashMap<i64, usize> = HashMap::new();
+    let mut rows: HashMap<i64, db::lots::Lot> = HashMap::new();
+    for lot in lots.into_iter().filter(|l| keep(l)) {
+        order.insert(lot.id, order.len());
+        rows.insert(lot.id, lot);
     }
-    let mut current_certs: HashMap<i64, db::certificates::Certificate> = HashMap::new();
-    for c in db::certificates::for_project(pool, project_id).await? {
-        if c.superseded_at.is_none() {
-            current_certs.insert(c.lot_id, c);
+    let mut done: Vec<Option<LotReport>> = (0..order.len()).map(|_| None).collect();
+    let mut next = 0usize;
+    let mut hand_over = |done: &mut Vec<Option<LotReport>>, next: &mut usize| -> Result<()> {
+        while let Some(slot) = done.get_mut(*next) {
+            let Some(r) = slot.take() else { break };
+            each(r)?;
+            *next += 1;
+        }
+        Ok(())
+    };
+    let finish = |shared: &mut Shared,
+                  rows: &mut HashMap<i64, db::lots::Lot>,
+                  done: &mut Vec<Option<LotReport>>,
+                  lot_id: i64,
+                  tests: Vec<db::field_tests::FieldTest>|
+     -> Result<()> {
+        if let Some(lot) = rows.remove(&lot_id) {
+            let mut r = shared.judge(lot, tests)?;
+            if !keep_lines {
+                r.tests = Vec::new();
+            }
+            done[order[&lot_id]] = Some(r);
+        }
+        Ok(())
+    };
+
+    let mut stream = db::field_tests::stream_for_views(pool, project_id);
+    let mut current: Option<(i64, Vec<db::field_tests::FieldTest>)> = None;
+    while let Some(t) = stream.try_next().await? {
+        match &mut current {
+            Some((lot_id, tests)) if *lot_id == t.lot_id => tests.push(t),
+            _ => {
+                if let Some((lot_id, tests)) = current.take() {
+                    finish(&mut shared, &mut rows, &mut done, lot_id, tests)?;
+                    hand_over(&mut done, &mut next)?;
+                }
+                let lot_id = t.lot_id;
+                current = Some((lot_id, vec![t]));
+            }
         }
     }
-    let missing = |what: &str, id: i64| anyhow::anyhow!("lot {id} refers to a missing {what}");
-    lots.into_iter()
-        .map(|lot| {
-            let id = lot.id;
-            let clause = clauses
-                .get(&lot.clause_id)
-                .cloned()
-                .ok_or_else(|| missing("clause", id))?;
-            let source = sources
-                .get(&lot.source_id)
-                .cloned()
-                .ok_or_else(|| missing("source", id))?;
-            let lab = labs
-                .get(&lot.lab_test_id)
-                .cloned()
-                .ok_or_else(|| missing("lab test", id))?;
-            let lot_tests = tests.remove(&id).unwrap_or_default();
-            let cert = current_certs.remove(&id);
-            lot_report::assemble(lot, project.clone(), clause, source, lab, lot_tests, cert)
-        })
-        .collect()
+    drop(stream);
+    if let Some((lot_id, tests)) = current.take() {
+        finish(&mut shared, &mut rows, &mut done, lot_id, tests)?;
+    }
+    // Lots without a single test.
+    let empty: Vec<i64> = rows.keys().copied().collect();
+    for lot_id in empty {
+        finish(&mut shared, &mut rows, &mut done, lot_id, Vec::new())?;
+    }
+    hand_over(&mut done, &mut next)
+}
+
+/// Every lot of a project judged, with its test lines, in layer then chainage order.
+#[tracing::instrument(skip(pool))]
+pub async fn project_reports(pool: &Pool, project_id: i64) -> Result<Vec<LotReport>> {
+    let mut out = Vec::new();
+    each_report(
+        pool,
+        project_id,
+        |_| true,
+        true,
+        |r| {
+            out.push(r);
+            Ok(())
+        },
+    )
+    .await?;
+    Ok(out)
+}
+
+/// A project's judged lots without test lines, shared by the readers of one revision.
+pub type Summaries = Arc<Vec<LotReport>>;
+
+/// Judged lots without their test lines, per project, tagged with the revision they show.
+#[derive(Default)]
+pub struct SummaryCache {
+    entries: Mutex<HashMap<i64, (i64, Summaries)>>,
+    /// One project judged at a time: requests that miss together share one pass.
+    computing: tokio::sync::Mutex<()>,
+}
+
+impl SummaryCache {
+    fn current(&self, project_id: i64, revision: i64) -> Option<Summaries> {
+        let entries = self.entries.lock().unwrap_or_else(|e| e.into_inner());
+        entries
+            .get(&project_id)
+            .filter(|(r, _)| *r == revision)
+            .map(|(_, v)| v.clone())
+    }
+
+    fn store(&self, project_id: i64, revision: i64, v: Summaries) {
+        let mut entries = self.entries.lock().unwrap_or_else(|e| e.into_inner());
+        entries.insert(project_id, (revision, v));
+    }
+}
+
+/// Every lot of a project judged, without test lines (`tests` is empty; `tests_entered`
+/// counts them), in layer then chainage order; reused while the project's revision holds.
+///
+/// The revision is read before the pass, so a change committed during it leaves the
+/// entry one revision behind and the next reader judges again: never stale, at worst
+/// judged twice.
+#[tracing::instrument(skip(pool, cache))]
+pub async fn summaries(pool: &Pool, cache: &SummaryCache, project_id: i64) -> Result<Summaries> {
+    let revision = db::projects::revision(pool, project_id)
+        .await?
+        .ok_or_else(|| {
+            AppError::not_found("project_id", format!("project {project_id} does not exist"))
+        })?;
+    if let Some(v) = cache.current(project_id, revision) {
+        return Ok(v);
+    }
+    let _turn = cache.computing.lock().await;
+    let revision = db::projects::revision(pool, project_id)
+        .await?
+        .unwrap_or(revision);
+    if let Some(v) = cache.current(project_id, revision) {
+        return Ok(v);
+    }
+    let mut out = Vec::new();
+    each_report(
+        pool,
+        project_id,
+        |_| true,
+        false,
+        |r| {
+            out.push(r);
+            Ok(())
+        },
+    )
+    .await?;
+    let v = Arc::new(out);
+    cache.store(project_id, revision, v.clone());
+    Ok(v)
 }

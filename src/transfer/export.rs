@@ -2,6 +2,7 @@
 //! where needed) and JSON, with the test list's filters. Writers stream to any
 //! `std::io::Write`; every number comes judged from `crate::ledger`.
 
+use std::collections::HashMap;
 use std::io::Write;
 
 use serde::{Deserialize, Serialize};
@@ -9,8 +10,8 @@ use serde_json::{Value, json};
 
 use crate::db::{self, Pool};
 use crate::error::{AppError, Result};
-use crate::ledger::lot_report::{LotReport, TestLine};
-use crate::ledger::{overview, setup, validate};
+use crate::ledger::lot_report::{self, LotReport, TestLine};
+use crate::ledger::{setup, validate};
 use crate::present::Units;
 use crate::reduction::Chainage;
 
@@ -119,13 +120,6 @@ pub fn result_of(l: &TestLine) -> &'static str {
     }
 }
 
-/// The judged lots of a project and the project's display units.
-pub async fn judged(pool: &Pool, project_id: i64) -> Result<(Units, Vec<LotReport>)> {
-    let p = setup::require_project(pool, project_id).await?;
-    let reports = overview::project_reports(pool, project_id).await?;
-    Ok((Units::of(&p), reports))
-}
-
 /// The UTF-8 byte-order mark that makes spreadsheet programs read units and names right.
 pub const BOM: &[u8] = b"\xEF\xBB\xBF";
 
@@ -169,6 +163,41 @@ fn io(e: impl Into<anyhow::Error>) -> AppError {
     AppError::Internal(e.into())
 }
 
+/// One test as a CSV record, in [`TEST_COLUMNS`] order.
+fn test_fields(units: &Units, r: &LotReport, line: &TestLine) -> [String; 28] {
+    let t = &line.test;
+    [
+        t.number.clone(),
+        r.lot.code.clone(),
+        r.lot.zone_name.clone(),
+        r.lot.layer_number.to_string(),
+        t.tested_at.clone(),
+        t.technician.clone(),
+        t.method.clone(),
+        t.instrument_serial.clone(),
+        units.chainage(t.chainage_m),
+        format!("{:.3}", t.chainage_m),
+        format!("{:.2}", t.offset_m),
+        opt(t.depth_mm, 0),
+        opt(t.easting, 3),
+        opt(t.northing, 3),
+        format!("{:.1}", t.wet_density_kg_m3),
+        format!("{:.2}", t.water_content_pct),
+        format!("{:.1}", t.dry_density_kg_m3),
+        t.moisture_source.clone(),
+        opt(t.coarse_pct, 1),
+        opt(line.reference_mdd_kg_m3, 1),
+        opt(line.reference_omc_pct, 2),
+        opt(line.relative_compaction_pct, 2),
+        opt(line.moisture_deviation_pct, 2),
+        result_of(line).to_string(),
+        line.retest_of_number.clone().unwrap_or_default(),
+        line.superseded_by.clone().unwrap_or_default(),
+        t.void_reason.clone().unwrap_or_default(),
+        t.reduction_version.clone(),
+    ]
+}
+
 /// Writes the selected tests as CSV; returns how many rows were written.
 pub fn write_tests_csv<W: Write>(
     out: W,
@@ -176,50 +205,7 @@ pub fn write_tests_csv<W: Write>(
     reports: &[LotReport],
     f: &ExportFilter,
 ) -> Result<u64> {
-    let mut out = out;
-    out.write_all(BOM).map_err(io)?;
-    let mut w = csv::Writer::from_writer(out);
-    w.write_record(TEST_COLUMNS).map_err(io)?;
-    let mut n = 0;
-    for r in reports {
-        for line in r.tests.iter().filter(|l| f.keeps_test(r, l)) {
-            let t = &line.test;
-            w.write_record([
-                t.number.clone(),
-                r.lot.code.clone(),
-                r.lot.zone_name.clone(),
-                r.lot.layer_number.to_string(),
-                t.tested_at.clone(),
-                t.technician.clone(),
-                t.method.clone(),
-                t.instrument_serial.clone(),
-                units.chainage(t.chainage_m),
-                format!("{:.3}", t.chainage_m),
-                format!("{:.2}", t.offset_m),
-                opt(t.depth_mm, 0),
-                opt(t.easting, 3),
-                opt(t.northing, 3),
-                format!("{:.1}", t.wet_density_kg_m3),
-                format!("{:.2}", t.water_content_pct),
-                format!("{:.1}", t.dry_density_kg_m3),
-                t.moisture_source.clone(),
-                opt(t.coarse_pct, 1),
-                opt(line.reference_mdd_kg_m3, 1),
-                opt(line.reference_omc_pct, 2),
-                opt(line.relative_compaction_pct, 2),
-                opt(line.moisture_deviation_pct, 2),
-                result_of(line).to_string(),
-                line.retest_of_number.clone().unwrap_or_default(),
-                line.superseded_by.clone().unwrap_or_default(),
-                t.void_reason.clone().unwrap_or_default(),
-                t.reduction_version.clone(),
-            ])
-            .map_err(io)?;
-            n += 1;
-        }
-    }
-    w.flush().map_err(io)?;
-    Ok(n)
+    write_all(ExportKind::TestsCsv, out, units, reports, f)
 }
 
 /// One test as a JSON object (readings as entered, reduced values, verdict).
@@ -264,24 +250,12 @@ pub fn test_object(units: &Units, r: &LotReport, line: &TestLine) -> Value {
 
 /// Writes the selected tests as a JSON array, one object at a time; returns the count.
 pub fn write_tests_json<W: Write>(
-    mut out: W,
+    out: W,
     units: &Units,
     reports: &[LotReport],
     f: &ExportFilter,
 ) -> Result<u64> {
-    let mut n = 0u64;
-    out.write_all(b"[").map_err(io)?;
-    for r in reports {
-        for line in r.tests.iter().filter(|l| f.keeps_test(r, l)) {
-            out.write_all(if n == 0 { b"\n" } else { b",\n" })
-                .map_err(io)?;
-            serde_json::to_writer(&mut out, &test_object(units, r, line)).map_err(io)?;
-            n += 1;
-        }
-    }
-    out.write_all(b"\n]\n").map_err(io)?;
-    out.flush().map_err(io)?;
-    Ok(n)
+    write_all(ExportKind::TestsJson, out, units, reports, f)
 }
 
 /// Column headings of the lot-verdict CSV.
@@ -356,17 +330,7 @@ pub fn write_lots_csv<W: Write>(
     reports: &[LotReport],
     f: &ExportFilter,
 ) -> Result<u64> {
-    let mut out = out;
-    out.write_all(BOM).map_err(io)?;
-    let mut w = csv::Writer::from_writer(out);
-    w.write_record(LOT_COLUMNS).map_err(io)?;
-    let mut n = 0;
-    for r in reports.iter().filter(|r| f.keeps_lot(r)) {
-        w.write_record(lot_fields(units, r)).map_err(io)?;
-        n += 1;
-    }
-    w.flush().map_err(io)?;
-    Ok(n)
+    write_all(ExportKind::LotsCsv, out, units, reports, f)
 }
 
 /// One lot's verdict as a JSON object.
@@ -402,22 +366,138 @@ pub fn lot_object(units: &Units, r: &LotReport) -> Value {
 
 /// Writes the selected lots' verdicts as a JSON array; returns the count.
 pub fn write_lots_json<W: Write>(
-    mut out: W,
+    out: W,
     units: &Units,
     reports: &[LotReport],
     f: &ExportFilter,
 ) -> Result<u64> {
-    let mut n = 0u64;
-    out.write_all(b"[").map_err(io)?;
-    for r in reports.iter().filter(|r| f.keeps_lot(r)) {
-        out.write_all(if n == 0 { b"\n" } else { b",\n" })
-            .map_err(io)?;
-        serde_json::to_writer(&mut out, &lot_object(units, r)).map_err(io)?;
-        n += 1;
+    write_all(ExportKind::LotsJson, out, units, reports, f)
+}
+
+/// Writes already-judged lots as one export.
+pub fn write_all<W: Write>(
+    kind: ExportKind,
+    out: W,
+    units: &Units,
+    reports: &[LotReport],
+    f: &ExportFilter,
+) -> Result<u64> {
+    let mut w = ExportWriter::new(kind, *units, f.clone(), out)?;
+    for r in reports {
+        w.lot(r)?;
     }
-    out.write_all(b"\n]\n").map_err(io)?;
-    out.flush().map_err(io)?;
-    Ok(n)
+    w.finish()
+}
+
+/// Where an export's bytes go: through a CSV writer, or straight out (JSON).
+enum Out<W: Write> {
+    Csv(Box<csv::Writer<W>>),
+    Json(W),
+}
+
+/// An export written lot by lot, so a whole project never has to be in memory at once.
+pub struct ExportWriter<W: Write> {
+    kind: ExportKind,
+    units: Units,
+    filter: ExportFilter,
+    out: Out<W>,
+    written: u64,
+}
+
+impl<W: Write> ExportWriter<W> {
+    /// Starts an export: the byte-order mark and header of a CSV, the opening of JSON.
+    pub fn new(kind: ExportKind, units: Units, filter: ExportFilter, mut out: W) -> Result<Self> {
+        let out = match kind {
+            ExportKind::TestsCsv | ExportKind::LotsCsv => {
+                out.write_all(BOM).map_err(io)?;
+                let mut w = csv::Writer::from_writer(out);
+                if kind == ExportKind::TestsCsv {
+                    w.write_record(TEST_COLUMNS).map_err(io)?;
+                } else {
+                    w.write_record(LOT_COLUMNS).map_err(io)?;
+                }
+                Out::Csv(Box::new(w))
+            }
+            ExportKind::TestsJson | ExportKind::LotsJson => {
+                out.write_all(b"[").map_err(io)?;
+                Out::Json(out)
+            }
+            ExportKind::TestsGeojson => {
+                out.write_all(br#"{"type":"FeatureCollection","features":["#)
+                    .map_err(io)?;
+                Out::Json(out)
+            }
+        };
+        Ok(Self {
+            kind,
+            units,
+            filter,
+            out,
+            written: 0,
+        })
+    }
+
+    fn json(&mut self, v: &Value) -> Result<()> {
+        if let Out::Json(out) = &mut self.out {
+            out.write_all(if self.written == 0 { b"\n" } else { b",\n" })
+                .map_err(io)?;
+            serde_json::to_writer(&mut *out, v).map_err(io)?;
+        }
+        self.written += 1;
+        Ok(())
+    }
+
+    fn csv<const N: usize>(&mut self, fields: [String; N]) -> Result<()> {
+        if let Out::Csv(w) = &mut self.out {
+            w.write_record(fields).map_err(io)?;
+        }
+        self.written += 1;
+        Ok(())
+    }
+
+    /// Writes what the filters keep of one judged lot.
+    pub fn lot(&mut self, r: &LotReport) -> Result<()> {
+        let units = self.units;
+        match self.kind {
+            ExportKind::LotsCsv | ExportKind::LotsJson if !self.filter.keeps_lot(r) => Ok(()),
+            ExportKind::LotsCsv => self.csv(lot_fields(&units, r)),
+            ExportKind::LotsJson => self.json(&lot_object(&units, r)),
+            ExportKind::TestsCsv | ExportKind::TestsJson | ExportKind::TestsGeojson => {
+                for line in &r.tests {
+                    if !self.filter.keeps_test(r, line) {
+                        continue;
+                    }
+                    match self.kind {
+                        ExportKind::TestsCsv => self.csv(test_fields(&units, r, line))?,
+                        ExportKind::TestsJson => self.json(&test_object(&units, r, line))?,
+                        _ => {
+                            if let Some(feat) = super::geojson::feature(&units, r, line) {
+                                self.json(&feat)?;
+                            }
+                        }
+                    }
+                }
+                Ok(())
+            }
+        }
+    }
+
+    /// Ends the export and flushes it; returns the number of records written.
+    pub fn finish(self) -> Result<u64> {
+        match self.out {
+            Out::Csv(mut w) => w.flush().map_err(io)?,
+            Out::Json(mut out) => {
+                let close: &[u8] = if self.kind == ExportKind::TestsGeojson {
+                    b"\n]}\n"
+                } else {
+                    b"\n]\n"
+                };
+                out.write_all(close).map_err(io)?;
+                out.flush().map_err(io)?;
+            }
+        }
+        Ok(self.written)
+    }
 }
 
 /// What to export.
@@ -453,7 +533,14 @@ impl ExportKind {
     }
 }
 
-/// Judges a project and writes one export of it; returns the number of records written.
+/// How far beyond its ends a lot may hold a test (the boundary tolerance of entry).
+const LOT_END_SLACK_M: f64 = 1.0;
+
+/// Judges a project lot by lot and writes one export of it; returns the number of records.
+///
+/// Lots outside the chainage range or layer asked for are not judged at all, and only
+/// one lot's report is in memory at a time: an export's memory does not grow with the
+/// project. Each lot is judged by `lot_report::assemble`, as everywhere else.
 pub async fn export<W: Write>(
     pool: &Pool,
     project_id: i64,
@@ -464,12 +551,64 @@ pub async fn export<W: Write>(
     let p: db::projects::Project = setup::require_project(pool, project_id).await?;
     let units = Units::of(&p);
     let f = ExportFilter::parse(filters, &units)?;
-    let reports = overview::project_reports(pool, project_id).await?;
-    match kind {
-        ExportKind::TestsCsv => write_tests_csv(out, &units, &reports, &f),
-        ExportKind::TestsJson => write_tests_json(out, &units, &reports, &f),
-        ExportKind::LotsCsv => write_lots_csv(out, &units, &reports, &f),
-        ExportKind::LotsJson => write_lots_json(out, &units, &reports, &f),
-        ExportKind::TestsGeojson => super::geojson::write_tests(out, &units, &reports, &f),
+    let lots = db::lots::list(
+        pool,
+        project_id,
+        &db::lots::LotFilter {
+            chainage_from_m: f.chainage_from_m.map(|m| m - LOT_END_SLACK_M),
+            chainage_to_m: f.chainage_to_m.map(|m| m + LOT_END_SLACK_M),
+            layer_id: f.layer_id,
+            limit: i64::MAX,
+            ..Default::default()
+        },
+    )
+    .await?;
+    // What every lot shares is read once; per lot only its tests are.
+    let clauses: HashMap<i64, _> = db::clauses::list(pool, project_id)
+        .await?
+        .into_iter()
+        .map(|c| (c.id, c))
+        .collect();
+    let sources: HashMap<i64, _> = db::sources::list(pool, project_id)
+        .await?
+        .into_iter()
+        .map(|s| (s.id, s))
+        .collect();
+    let labs: HashMap<i64, _> = db::lab_tests::list_for_project(pool, project_id)
+        .await?
+        .into_iter()
+        .map(|l| (l.id, l))
+        .collect();
+    let mut certificates: HashMap<i64, db::certificates::Certificate> = HashMap::new();
+    for c in db::certificates::for_project(pool, project_id).await? {
+        if c.superseded_at.is_none() {
+            certificates.insert(c.lot_id, c);
+        }
     }
+    let mut w = ExportWriter::new(kind, units, f, out)?;
+    for lot in lots {
+        let missing = |what: &str| anyhow::anyhow!("lot {} refers to a missing {what}", lot.id);
+        let clause = clauses
+            .get(&lot.clause_id)
+            .ok_or_else(|| missing("clause"))?;
+        let source = sources
+            .get(&lot.source_id)
+            .ok_or_else(|| missing("source"))?;
+        let lab = labs
+            .get(&lot.lab_test_id)
+            .ok_or_else(|| missing("lab test"))?;
+        let tests = db::field_tests::for_lot(pool, lot.id).await?;
+        let certificate = certificates.remove(&lot.id);
+        let report = lot_report::assemble(
+            lot,
+            p.clone(),
+            clause.clone(),
+            source.clone(),
+            lab.clone(),
+            tests,
+            certificate,
+        )?;
+        w.lot(&report)?;
+    }
+    w.finish()
 }

@@ -10,7 +10,7 @@ use std::io::Write;
 use serde_json::{Value, json};
 
 use super::export::{ExportFilter, result_of};
-use crate::error::{AppError, Result};
+use crate::error::Result;
 use crate::ledger::lot_report::{LotReport, TestLine};
 use crate::present::Units;
 
@@ -42,32 +42,18 @@ pub fn feature(units: &Units, r: &LotReport, line: &TestLine) -> Option<Value> {
     }))
 }
 
-fn io(e: impl Into<anyhow::Error>) -> AppError {
-    AppError::Internal(e.into())
-}
-
 /// Writes the selected tests with coordinates as a FeatureCollection; returns the count.
 pub fn write_tests<W: Write>(
-    mut out: W,
+    out: W,
     units: &Units,
     reports: &[LotReport],
     f: &ExportFilter,
 ) -> Result<u64> {
-    let mut n = 0u64;
-    out.write_all(br#"{"type":"FeatureCollection","features":["#)
-        .map_err(io)?;
-    for r in reports {
-        for line in r.tests.iter().filter(|l| f.keeps_test(r, l)) {
-            let Some(feat) = feature(units, r, line) else {
-                continue;
-            };
-            out.write_all(if n == 0 { b"\n" } else { b",\n" })
-                .map_err(io)?;
-            serde_json::to_writer(&mut out, &feat).map_err(io)?;
-            n += 1;
-        }
-    }
-    out.write_all(b"\n]}\n").map_err(io)?;
-    out.flush().map_err(io)?;
-    Ok(n)
+    super::export::write_all(
+        super::export::ExportKind::TestsGeojson,
+        out,
+        units,
+        reports,
+        f,
+    )
 }

@@ -82,13 +82,18 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
 
     // Field tests judged against this curve, exactly as their lot sheets judge them
     // (oversize-corrected where a test carries a coarse fraction); voided and superseded tests are left out.
-    let reports = crate::ledger::overview::project_reports(&s.db, project.id).await?;
-    let counted: Vec<_> = reports
-        .iter()
-        .filter(|r| r.lot.lab_test_id == id)
-        .flat_map(|r| r.tests.iter())
-        .filter(|l| l.standing == "counted")
-        .collect();
+    let mut counted = Vec::new();
+    crate::ledger::overview::each_report(
+        &s.db,
+        project.id,
+        |lot| lot.lab_test_id == id,
+        true,
+        |r| {
+            counted.extend(r.tests.into_iter().filter(|l| l.standing == "counted"));
+            Ok(())
+        },
+    )
+    .await?;
     let marks: Vec<FieldMark> = counted
         .iter()
         .map(|l| FieldMark {

@@ -110,7 +110,7 @@ async fn project_home(
 
     let p = setup::require_project(&s.db, id).await?;
     let u = Units::of(&p);
-    let reports = overview::project_reports(&s.db, id).await?;
+    let reports = overview::summaries(&s.db, &s.views, id).await?;
     let states = [
         "open",
         "owed_tests",

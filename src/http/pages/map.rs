@@ -104,7 +104,7 @@ async fn map(
     };
     let from = parse("from", &q.from)?;
     let to = parse("to", &q.to)?;
-    let reports = overview::project_reports(&s.db, id).await?;
+    let reports = overview::summaries(&s.db, &s.views, id).await?;
     let layers = db::layers::list(&s.db, id).await?;
     let extent_from = reports
         .iter()
@@ -204,7 +204,7 @@ async fn map(
                 state_code: st.code().to_string(),
                 state: st.label().to_string(),
                 mark: st.mark().to_string(),
-                tests: r.tests.len(),
+                tests: r.tests_entered,
                 owed: r.tests_owed,
             }
         })

@@ -61,9 +61,9 @@ impl Filters {
 }
 
 /// A test with its lot, as listed.
-pub struct Listed<'a> {
-    pub report: &'a LotReport,
-    pub line: &'a TestLine,
+pub struct Listed {
+    pub lot: crate::db::lots::Lot,
+    pub line: TestLine,
 }
 
 fn result_of(l: &TestLine) -> &'static str {
@@ -75,12 +75,27 @@ fn result_of(l: &TestLine) -> &'static str {
     }
 }
 
-/// Applies the filters to every judged test of the project.
-fn select<'a>(
-    reports: &'a [LotReport],
+/// Newest first, as the list shows them.
+fn newest_first(a: &Listed, b: &Listed) -> std::cmp::Ordering {
+    b.line
+        .test
+        .tested_at
+        .cmp(&a.line.test.tested_at)
+        .then(b.line.test.id.cmp(&a.line.test.id))
+}
+
+/// Applies the filters to every judged test of the project, newest first; returns the
+/// first `limit` selected (all when `None`) and how many were selected in all.
+///
+/// Lots are judged one at a time and only selected lines are kept (at most about
+/// twice `limit` of them), so a large project's list does not hold the project.
+async fn select(
+    pool: &crate::db::Pool,
+    project_id: i64,
     f: &Filters,
     u: &Units,
-) -> Result<Vec<Listed<'a>>, AppError> {
+    limit: Option<usize>,
+) -> Result<(Vec<Listed>, usize), AppError> {
     let ch = |field: &str, v: &str| -> Result<Option<f64>, AppError> {
         if v.trim().is_empty() {
             return Ok(None);
@@ -110,11 +125,10 @@ fn select<'a>(
         )
     };
     let mut out = Vec::new();
-    for r in reports {
-        if layer.is_some_and(|l| l != r.lot.layer_id) {
-            continue;
-        }
-        for line in &r.tests {
+    let mut total = 0usize;
+    let keep = |lot: &crate::db::lots::Lot| layer.is_none_or(|l| l == lot.layer_id);
+    overview::each_report(pool, project_id, keep, true, |r: LotReport| {
+        for line in r.tests {
             let t = &line.test;
             let day = crate::clock::date_of(&t.tested_at);
             if from.is_some_and(|m| t.chainage_m < m)
@@ -122,21 +136,30 @@ fn select<'a>(
                 || d_from.as_ref().is_some_and(|d| day < *d)
                 || d_to.as_ref().is_some_and(|d| day > *d)
                 || (!f.method.is_empty() && t.method != f.method)
-                || (!f.verdict.is_empty() && result_of(line) != f.verdict)
+                || (!f.verdict.is_empty() && result_of(&line) != f.verdict)
             {
                 continue;
             }
-            out.push(Listed { report: r, line });
+            total += 1;
+            out.push(Listed {
+                lot: r.lot.clone(),
+                line,
+            });
+            if let Some(n) = limit
+                && out.len() >= 2 * n.max(1)
+            {
+                out.sort_by(newest_first);
+                out.truncate(n);
+            }
         }
+        Ok(())
+    })
+    .await?;
+    out.sort_by(newest_first);
+    if let Some(n) = limit {
+        out.truncate(n);
     }
-    out.sort_by(|a, b| {
-        b.line
-            .test
-            .tested_at
-            .cmp(&a.line.test.tested_at)
-            .then(b.line.test.id.cmp(&a.line.test.id))
-    });
-    Ok(out)
+    Ok((out, total))
 }
 
 /// A formatted row.
@@ -190,10 +213,13 @@ async fn list(
 
     let p = setup::require_project(&s.db, id).await?;
     let u = Units::of(&p);
-    let reports = overview::project_reports(&s.db, id).await?;
-    let (selected, error) = match select(&reports, &f, &u) {
+    let ((selected, total), error) = match select(&s.db, id, &f, &u, Some(PAGE_ROWS)).await {
         Ok(v) => (v, String::new()),
-        Err(e) => (Vec::new(), format!("{}: {}", e.field(), e.user_message())),
+        Err(e @ (AppError::Invalid { .. } | AppError::BadRequest { .. })) => (
+            (Vec::new(), 0),
+            format!("{}: {}", e.field(), e.user_message()),
+        ),
+        Err(e) => return Err(e.into()),
     };
     let layers = crate::db::layers::list(&s.db, id)
         .await?
@@ -206,15 +232,14 @@ async fn list(
         .collect();
     let rows = selected
         .iter()
-        .take(PAGE_ROWS)
         .map(|x| {
             let t = &x.line.test;
             Row {
-                lot_id: x.report.lot.id,
-                lot: x.report.lot.code.clone(),
+                lot_id: x.lot.id,
+                lot: x.lot.code.clone(),
                 number: t.number.clone(),
                 taken: crate::clock::display(&t.tested_at),
-                layer: format!("{} {}", x.report.lot.zone_name, x.report.lot.layer_number),
+                layer: format!("{} {}", x.lot.zone_name, x.lot.layer_number),
                 chainage: u.chainage(t.chainage_m),
                 offset: u.offset(t.offset_m),
                 method: t.method.replace('_', " "),
@@ -222,7 +247,7 @@ async fn list(
                 water: format!("{:.1}", t.water_content_pct),
                 rc: present::pct(x.line.relative_compaction_pct),
                 dev: present::signed(x.line.moisture_deviation_pct),
-                result: result_of(x.line).to_string(),
+                result: result_of(&x.line).to_string(),
             }
         })
         .collect();
@@ -233,8 +258,8 @@ async fn list(
             name: p.code.clone(),
         },
         name: p.name.clone(),
-        total: selected.len(),
-        shown: selected.len().min(PAGE_ROWS),
+        total,
+        shown: selected.len(),
         csv_url: if q.is_empty() {
             format!("/projects/{id}/tests.csv")
         } else {
@@ -258,8 +283,7 @@ async fn csv(
 
     let p = setup::require_project(&s.db, id).await?;
     let u = Units::of(&p);
-    let reports = overview::project_reports(&s.db, id).await?;
-    let selected = select(&reports, &f, &u)?;
+    let (selected, _) = select(&s.db, id, &f, &u, None).await?;
     let mut w = csv::WriterBuilder::new().from_writer(Vec::new());
     let du = u.density_unit();
     let header = [
@@ -289,9 +313,9 @@ async fn csv(
         let t = &x.line.test;
         w.write_record([
             t.number.clone(),
-            x.report.lot.code.clone(),
-            x.report.lot.zone_name.clone(),
-            x.report.lot.layer_number.to_string(),
+            x.lot.code.clone(),
+            x.lot.zone_name.clone(),
+            x.lot.layer_number.to_string(),
             t.tested_at.clone(),
             t.technician.clone(),
             t.method.clone(),
@@ -307,7 +331,7 @@ async fn csv(
             x.line
                 .moisture_deviation_pct
                 .map_or(String::new(), |v| format!("{v:.2}")),
-            result_of(x.line).to_string(),
+            result_of(&x.line).to_string(),
             x.line.retest_of_number.clone().unwrap_or_default(),
             t.void_reason.clone().unwrap_or_default(),
             t.reduction_version.clone(),

@@ -1,0 +1,22 @@
+-- Every audited change bumps its project's revision, in the change's own transaction,
+-- so whole-project views can be cached and known stale with one indexed read. The
+-- row lock the UPDATE takes orders revisions as commits are ordered.
+ALTER TABLE projects ADD COLUMN revision BIGINT NOT NULL DEFAULT 0;
+
+CREATE FUNCTION audit_log_bump_revision() RETURNS trigger LANGUAGE plpgsql AS $$
+BEGIN
+    IF NEW.project_id IS NOT NULL THEN
+        UPDATE projects SET revision = revision + 1 WHERE id = NEW.project_id;
+    END IF;
+    RETURN NULL;
+END;
+$$;
+
+CREATE TRIGGER audit_log_bumps_revision AFTER INSERT ON audit_log
+    FOR EACH ROW EXECUTE FUNCTION audit_log_bump_revision();
+
+-- The project home lists a project's latest audit rows.
+CREATE INDEX audit_by_project ON audit_log (project_id, id);
+
+-- Whole-project views read a project's tests lot by lot in time order, from the index.
+CREATE INDEX field_tests_by_project_lot ON field_tests (project_id, lot_id, tested_at, id);
