@@ -131,6 +131,13 @@ pub async fn copy_all(from: &Pool, to: &Pool) -> anyhow::Result<CopyReport> {
         }
         rows.push((table.to_string(), n));
     }
+    // Inserting the tests ran the counting trigger on top of the copied counts.
+    sqlx::query(
+        "UPDATE projects SET field_test_count =
+            (SELECT COUNT(*) FROM field_tests WHERE field_tests.project_id = projects.id)",
+    )
+    .execute(&mut *tx)
+    .await?;
     tx.commit().await?;
     verify(from, to, rows).await
 }

@@ -179,10 +179,11 @@ pub async fn count_since(pool: &Pool, project_id: i64, since: &str) -> sqlx::Res
 
 /// Total number of tests in a project.
 pub async fn count(pool: &Pool, project_id: i64) -> sqlx::Result<i64> {
-    sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE project_id = $1")
+    let n: Option<i64> = sqlx::query_scalar("SELECT field_test_count FROM projects WHERE id = $1")
         .bind(project_id)
-        .fetch_one(pool)
-        .await
+        .fetch_optional(pool)
+        .await?;
+    Ok(n.unwrap_or(0))
 }
 
 /// The newest test in a project, if any.
@@ -220,7 +221,8 @@ pub async fn for_lab_test(pool: &Pool, lab_test_id: i64) -> sqlx::Result<Vec<Fie
 /// so that concurrent writers on any engine never draw the same number.
 pub async fn next_number(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<String> {
     super::lock_project(tx, project_id).await?;
-    let count: i64 = sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE project_id = $1")
+    // Kept by a trigger on every insert (migration 0003): no count over the project's tests.
+    let count: i64 = sqlx::query_scalar("SELECT field_test_count FROM projects WHERE id = $1")
         .bind(project_id)
         .fetch_one(&mut **tx)
         .await?;

@@ -223,3 +223,17 @@ pub async fn transitions_tx(tx: &mut Tx<'_>, lot_id: i64) -> sqlx::Result<Vec<Tr
     .fetch_all(&mut **tx)
     .await
 }
+
+/// The lot's state read inside a write, held against a concurrent state change until the
+/// write commits (on PostgreSQL by a share lock; SQLite's write lock already holds it).
+pub async fn state_for_write(tx: &mut Tx<'_>, lot_id: i64) -> sqlx::Result<Option<String>> {
+    let sql = if tx.backend_name() == "PostgreSQL" {
+        "SELECT state FROM lots WHERE id = $1 FOR SHARE"
+    } else {
+        "SELECT state FROM lots WHERE id = $1"
+    };
+    sqlx::query_scalar(sql)
+        .bind(lot_id)
+        .fetch_optional(&mut **tx)
+        .await
+}

@@ -370,6 +370,25 @@ async fn store(
 ) -> Result<db::field_tests::FieldTest> {
     let mut record = checked.record;
     let mut tx = db::begin_write(pool).await?;
+    // The lot was open when the test was checked; it must still be when the test lands.
+    match db::lots::state_for_write(&mut tx, record.lot_id).await? {
+        Some(state) if state == "open" || state == "rejected" => {}
+        Some(state) => {
+            return Err(AppError::conflict(
+                "lot_id",
+                format!(
+                    "the lot became {state} meanwhile; tests can be added only while it is open or rejected"
+                ),
+                vec![],
+            ));
+        }
+        None => {
+            return Err(AppError::not_found(
+                "lot_id",
+                format!("lot {} does not exist", record.lot_id),
+            ));
+        }
+    }
     if record.number.is_empty() {
         record.number = db::field_tests::next_number(&mut tx, record.project_id).await?;
     }
@@ -414,10 +433,24 @@ pub async fn record_test(
     input: &FieldTestInput,
     actor: &Actor,
 ) -> Result<db::field_tests::FieldTest> {
+    Ok(record_judged(pool, lot_id, input, actor).await?.0)
+}
+
+/// Records a new field test on a lot and returns it with its own verdict, judged from
+/// the lot's clause, source and lab test read once for both the check and the verdict.
+pub async fn record_judged(
+    pool: &Pool,
+    lot_id: i64,
+    input: &FieldTestInput,
+    actor: &Actor,
+) -> Result<(db::field_tests::FieldTest, lot_report::TestLine)> {
     let lot = require_lot(pool, lot_id).await?;
     require_lot_takes_tests(&lot)?;
-    let checked = check(pool, &lot, input, None, actor).await?;
-    store(pool, checked, actor, "create").await
+    let ctx = LotContext::load(pool, &lot).await?;
+    let checked = check_loaded(&ctx, input, None, actor, &clock::now())?;
+    let test = store(pool, checked, actor, "create").await?;
+    let line = lot_report::judge_alone(&test, &ctx.clause, &ctx.source, &ctx.lab, None)?;
+    Ok((test, line))
 }
 
 /// Records a retest of a failed test at the same spot; the failure stays on record.

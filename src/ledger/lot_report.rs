@@ -401,12 +401,23 @@ pub async fn judge_new(pool: &Pool, t: &db::field_tests::FieldTest) -> Result<Te
     let lab = db::lab_tests::get(pool, lot.lab_test_id)
         .await?
         .ok_or_else(|| missing("lab test"))?;
-    let reference = reference_of(&lab)?;
-    let (r, v, reasons) = judge_line(t, &reference, &limits_of(&clause), &source, &clause);
     let retest_of_number = match t.retest_of {
         Some(id) => db::field_tests::get(pool, id).await?.map(|o| o.number),
         None => None,
     };
+    judge_alone(t, &clause, &source, &lab, retest_of_number)
+}
+
+/// One newly stored test judged on its own, from its lot's already-loaded rows.
+pub fn judge_alone(
+    t: &db::field_tests::FieldTest,
+    clause: &db::clauses::Clause,
+    source: &db::sources::Source,
+    lab: &db::lab_tests::LabTest,
+    retest_of_number: Option<String>,
+) -> Result<TestLine> {
+    let reference = reference_of(lab)?;
+    let (r, v, reasons) = judge_line(t, &reference, &limits_of(clause), source, clause);
     Ok(TestLine {
         test: t.clone(),
         reference_mdd_kg_m3: r.as_ref().map(|r| r.max_dry_density.kg_m3()),

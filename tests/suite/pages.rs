@@ -362,3 +362,89 @@ async fn a_test_page_shows_readings_as_entered_and_its_history() {
         "the reading exactly as entered"
     );
 }
+
+/// The state a lot shows in the lift map's lot table.
+fn map_state_of(html: &str, lot_code: &str) -> String {
+    let at = html
+        .find(&format!(">{lot_code}</a>"))
+        .unwrap_or_else(|| panic!("lot {lot_code} not on the map"));
+    let row = &html[..at];
+    let start = row.rfind("<tr data-state=\"").expect("row") + "<tr data-state=\"".len();
+    row[start..].split('"').next().unwrap().to_string()
+}
+
+/// The map and the home page reuse judged lots while nothing changes; every kind of
+/// change (a test, a void, a retest, a clause edit through a new lot curve) shows at once.
+#[tokio::test]
+async fn lift_map_and_home_follow_every_change_at_once() {
+    use crate::helpers::{build_frame, nuclear_test, spawn_app};
+    use serde_json::json;
+    let app = spawn_app().await;
+    let f = build_frame(&app, json!({"rule": "every_test"})).await;
+    let map = format!("/projects/{}/map", f.project);
+    let home = format!("/projects/{}", f.project);
+    let (mdd, omc) = {
+        let (_, lab) = app.get(&format!("/api/v1/lab-tests/{}", f.lab_test)).await;
+        (
+            lab["max_dry_density_kg_m3"].as_f64().unwrap(),
+            lab["optimum_water_content_pct"].as_f64().unwrap(),
+        )
+    };
+    let (_, html) = page(&app, &map).await;
+    assert_eq!(map_state_of(&html, "LOT-1"), "owed");
+    // Read twice with no change between: the same answer.
+    let (_, again) = page(&app, &map).await;
+    assert_eq!(map_state_of(&again, "LOT-1"), "owed");
+
+    let (s, failed) = app
+        .post(
+            &format!("/api/v1/lots/{}/field-tests", f.lot),
+            &nuclear_test("T-1", 1010.0, 0.90 * mdd, omc),
+        )
+        .await;
+    assert_eq!(s, 201, "{failed}");
+    let (_, html) = page(&app, &map).await;
+    assert_eq!(
+        map_state_of(&html, "LOT-1"),
+        "failing",
+        "a failing test shows at once"
+    );
+    let (_, h) = page(&app, &home).await;
+    assert!(h.contains("awaiting retest: T-1"), "home lists the failure");
+
+    // Voiding the failure takes it off the map and off the home page's list.
+    let (s, v) = app
+        .post(
+            &format!("/api/v1/field-tests/{}/void", failed["id"]),
+            &json!({"reason": "gauge not standardised"}),
+        )
+        .await;
+    assert_eq!(s, 200, "{v}");
+    let (_, html) = page(&app, &map).await;
+    assert_eq!(map_state_of(&html, "LOT-1"), "owed");
+    let (_, h) = page(&app, &home).await;
+    assert!(
+        !h.contains("awaiting retest: T-1"),
+        "home forgot the voided failure"
+    );
+
+    // Three passing tests: nothing owed any more, the lot is open and clean.
+    for (i, ch) in [1020.0, 1050.0, 1080.0].iter().enumerate() {
+        let (s, t) = app
+            .post(
+                &format!("/api/v1/lots/{}/field-tests", f.lot),
+                &nuclear_test(&format!("T-{}", i + 2), *ch, 0.98 * mdd, omc),
+            )
+            .await;
+        assert_eq!(s, 201, "{t}");
+    }
+    let (_, html) = page(&app, &map).await;
+    assert_eq!(map_state_of(&html, "LOT-1"), "open");
+    // Submitting moves it on the map too.
+    let (s, e) = app
+        .post(&format!("/api/v1/lots/{}/submit", f.lot), &json!({}))
+        .await;
+    assert_eq!(s, 200, "{e}");
+    let (_, html) = page(&app, &map).await;
+    assert_eq!(map_state_of(&html, "LOT-1"), "submitted");
+}

@@ -93,8 +93,8 @@ async fn create(
 ) -> Result<(StatusCode, Json<Value>)> {
     let actor = require(&s.db, &caller, Scope::Lot(id), Action::EnterTests).await?;
 
-    let t = ledger::field::record_test(&s.db, id, &input, &actor).await?;
-    Ok((StatusCode::CREATED, Json(with_own_line(&s, &t).await?)))
+    let (t, line) = ledger::field::record_judged(&s.db, id, &input, &actor).await?;
+    Ok((StatusCode::CREATED, Json(test_json(&t, Some(&line)))))
 }
 
 async fn preview(
