@@ -26,15 +26,18 @@ pub struct Inner {
     pub settings: Settings,
     /// Judged lots per project, reused while the project's revision holds.
     pub views: crate::ledger::overview::SummaryCache,
+    /// Group commit of new field tests (SQLite only).
+    pub writer: Option<crate::ledger::test_writer::TestWriter>,
 }
 
 impl AppState {
     /// Wraps a pool and settings.
     pub fn new(db: Pool, settings: Settings) -> Self {
         Self(Arc::new(Inner {
-            db,
             settings,
             views: Default::default(),
+            writer: crate::ledger::test_writer::TestWriter::start(&db),
+            db,
         }))
     }
 }

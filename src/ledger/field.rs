@@ -368,10 +368,22 @@ async fn store(
     actor: &Actor,
     action: &str,
 ) -> Result<db::field_tests::FieldTest> {
-    let mut record = checked.record;
     let mut tx = db::begin_write(pool).await?;
+    let record = store_in(&mut tx, checked.record, actor, action).await?;
+    tx.commit().await?;
+    Ok(record)
+}
+
+/// Writes one checked test and its audit row inside a write transaction (the caller's
+/// own, or a group commit's savepoint, see `ledger::test_writer`).
+pub(crate) async fn store_in(
+    tx: &mut db::Tx<'_>,
+    mut record: db::field_tests::FieldTest,
+    actor: &Actor,
+    action: &str,
+) -> Result<db::field_tests::FieldTest> {
     // The lot was open when the test was checked; it must still be when the test lands.
-    match db::lots::state_for_write(&mut tx, record.lot_id).await? {
+    match db::lots::state_for_write(tx, record.lot_id).await? {
         Some(state) if state == "open" || state == "rejected" => {}
         Some(state) => {
             return Err(AppError::conflict(
@@ -390,9 +402,9 @@ async fn store(
         }
     }
     if record.number.is_empty() {
-        record.number = db::field_tests::next_number(&mut tx, record.project_id).await?;
+        record.number = db::field_tests::next_number(tx, record.project_id).await?;
     }
-    let id = match db::field_tests::insert(&mut tx, &record).await {
+    let id = match db::field_tests::insert(tx, &record).await {
         Ok(id) => id,
         Err(e) if db::is_unique_violation(&e) => {
             return Err(AppError::conflict(
@@ -408,7 +420,7 @@ async fn store(
     };
     record.id = id;
     audit::record(
-        &mut tx,
+        tx,
         &audit::Change {
             actor: &actor.name,
             action,
@@ -422,7 +434,6 @@ async fn store(
         &record.created_at,
     )
     .await?;
-    tx.commit().await?;
     Ok(record)
 }
 
@@ -433,13 +444,17 @@ pub async fn record_test(
     input: &FieldTestInput,
     actor: &Actor,
 ) -> Result<db::field_tests::FieldTest> {
-    Ok(record_judged(pool, lot_id, input, actor).await?.0)
+    Ok(record_judged(pool, None, lot_id, input, actor).await?.0)
 }
 
 /// Records a new field test on a lot and returns it with its own verdict, judged from
 /// the lot's clause, source and lab test read once for both the check and the verdict.
+///
+/// With a [`TestWriter`](super::test_writer::TestWriter) the test is committed together
+/// with others arriving at the same moment.
 pub async fn record_judged(
     pool: &Pool,
+    writer: Option<&super::test_writer::TestWriter>,
     lot_id: i64,
     input: &FieldTestInput,
     actor: &Actor,
@@ -448,7 +463,10 @@ pub async fn record_judged(
     require_lot_takes_tests(&lot)?;
     let ctx = LotContext::load(pool, &lot).await?;
     let checked = check_loaded(&ctx, input, None, actor, &clock::now())?;
-    let test = store(pool, checked, actor, "create").await?;
+    let test = match writer {
+        Some(w) => w.store(checked.record, actor, "create").await?,
+        None => store(pool, checked, actor, "create").await?,
+    };
     let line = lot_report::judge_alone(&test, &ctx.clause, &ctx.source, &ctx.lab, None)?;
     Ok((test, line))
 }

@@ -93,7 +93,8 @@ async fn create(
 ) -> Result<(StatusCode, Json<Value>)> {
     let actor = require(&s.db, &caller, Scope::Lot(id), Action::EnterTests).await?;
 
-    let (t, line) = ledger::field::record_judged(&s.db, id, &input, &actor).await?;
+    let (t, line) =
+        ledger::field::record_judged(&s.db, s.writer.as_ref(), id, &input, &actor).await?;
     Ok((StatusCode::CREATED, Json(test_json(&t, Some(&line)))))
 }
 
