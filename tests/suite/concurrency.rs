@@ -53,3 +53,54 @@ async fn sixteen_concurrent_writers_all_succeed() {
             .unwrap();
     assert_eq!(audit, 160);
 }
+
+/// Writers that arrive together may share a commit; a test refused among them (its
+/// number taken by another at the same moment, or its lot submitted meanwhile) is
+/// refused alone, with nothing of it written, and every other test lands with its audit row.
+#[tokio::test(flavor = "multi_thread", worker_threads = 4)]
+async fn a_refused_test_among_simultaneous_ones_is_refused_alone() {
+    let app = std::sync::Arc::new(spawn_app().await);
+    let f = build_frame(&app, json!({"rule": "every_test"})).await;
+    let mut tasks = Vec::new();
+    // 24 writers; every third pair asks for the same number at the same moment.
+    for w in 0..24u32 {
+        let app = app.clone();
+        tasks.push(tokio::spawn(async move {
+            let number = if w % 3 == 0 {
+                format!("DUP-{}", w / 6)
+            } else {
+                format!("U-{w}")
+            };
+            let body = nuclear_test(&number, 1000.0 + f64::from(w), 1900.0, 11.0);
+            let (s, b) = app
+                .post(&format!("/api/v1/lots/{}/field-tests", f.lot), &body)
+                .await;
+            (number, s, b)
+        }));
+    }
+    let mut created = std::collections::BTreeMap::<String, usize>::new();
+    let mut refused = 0;
+    for t in tasks {
+        let (number, s, b) = t.await.unwrap();
+        match s {
+            201 => *created.entry(number).or_default() += 1,
+            409 => {
+                assert_eq!(b["error"]["field"], "number", "{b}");
+                assert!(number.starts_with("DUP-"), "{number} refused: {b}");
+                refused += 1;
+            }
+            other => panic!("{number}: {other} {b}"),
+        }
+    }
+    // Numbers DUP-0..DUP-3 were each asked for twice: one of each pair lands.
+    assert_eq!(refused, 4);
+    assert!(created.values().all(|n| *n == 1), "{created:?}");
+    assert_eq!(created.len(), 20);
+    assert_eq!(app.count("field_tests").await, 20);
+    let audit: i64 =
+        sqlx::query_scalar("SELECT COUNT(*) FROM audit_log WHERE entity = 'field_test'")
+            .fetch_one(&app.pool)
+            .await
+            .unwrap();
+    assert_eq!(audit, 20, "one audit row per stored test, none for a refused one");
+}
