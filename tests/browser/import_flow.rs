@@ -70,10 +70,45 @@ async fn set_width(b: &Session, width: u32, mobile: bool) {
     .expect("set the window width");
 }
 
+/// Slows the browser's uploads to `bytes_per_second` (`None`: full speed again).
+async fn throttle_upload(b: &Session, bytes_per_second: Option<u32>) {
+    let cdp = |cmd: &str, params: serde_json::Value| json!({"cmd": cmd, "params": params});
+    b.cmd(
+        reqwest::Method::POST,
+        "/goog/cdp/execute",
+        Some(cdp("Network.enable", json!({}))),
+    )
+    .await
+    .expect("enable network emulation");
+    b.cmd(
+        reqwest::Method::POST,
+        "/goog/cdp/execute",
+        Some(cdp(
+            "Network.emulateNetworkConditions",
+            json!({"offline": false, "latency": 0, "downloadThroughput": -1,
+                   "uploadThroughput": bytes_per_second.map_or(-1, i64::from)}),
+        )),
+    )
+    .await
+    .expect("throttle uploads");
+}
+
+/// The text of the element with `id` right now, in one call (the page may be replaced
+/// between two calls while an answer arrives).
+async fn text_now(b: &Session, id: &str) -> Option<String> {
+    b.script(
+        "var e = document.getElementById(arguments[0]); return e ? e.textContent.trim() : null;",
+        vec![json!(id)],
+    )
+    .await
+    .as_str()
+    .map(str::to_string)
+}
+
 /// Waits for a result whose heading differs from `before`; returns the new heading.
 async fn new_result(b: &Session, before: &str) -> String {
     b.wait_until("the import result", async || {
-        let h = b.try_find("#result-heading").await?.text().await;
+        let h = text_now(b, "result-heading").await?;
         (h != before).then_some(h)
     })
     .await
@@ -245,6 +280,44 @@ async fn a_csv_file_is_checked_fixed_and_imported_on_the_import_page() {
     assert_eq!(rig.app.field_test_count().await, before + 4);
     assert_eq!(rig.app.tests_numbered("IMP-004").await[0].lot_id, lot_id);
     shots(&rig, "4-imported").await;
+
+    // A larger file over a slow link: the bar shows the upload, then the answer comes.
+    let many: Vec<String> = (0..1500).flat_map(|_| good.iter().cloned()).collect();
+    write_csv(&file, &many);
+    let file_len = std::fs::metadata(&file).unwrap().len();
+    throttle_upload(b, Some(200_000)).await;
+    b.find("#file")
+        .await
+        .send_keys(file.to_str().unwrap())
+        .await;
+    b.find("#check-file").await.click().await;
+    let status = b
+        .wait_until("the upload's progress", async || {
+            let t = text_now(b, "upload-status").await?;
+            t.starts_with("Uploading: ").then_some(t)
+        })
+        .await;
+    assert!(status.contains(" of "), "{status}");
+    let bar = b
+        .script(
+            "var p = document.getElementById('upload-bar'); return [p.value, p.max];",
+            vec![],
+        )
+        .await;
+    assert!(
+        bar[1].as_f64().unwrap() > file_len as f64,
+        "the bar's end is the whole form: {bar}"
+    );
+    rig.shot_at("5-uploading", "#import-form").await;
+    std::fs::write(
+        "/tmp/liftledger-import-5-uploading-360.png",
+        b.screenshot().await,
+    )
+    .expect("write screenshot");
+    throttle_upload(b, None).await;
+    let heading = new_result(b, &heading).await;
+    assert!(heading.starts_with("Nothing new"), "{heading}");
+    assert_eq!(rig.app.field_test_count().await, before + 4);
 
     rig.finish().await;
 }

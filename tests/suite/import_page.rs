@@ -216,14 +216,17 @@ async fn the_import_page_checks_a_file_lists_its_bad_rows_then_imports_the_fixed
     assert!(problems(&html).is_empty());
     assert_eq!(text_of(&html, "would-create").as_deref(), Some("6"));
     assert!(html.contains("choose the same file again"), "{html}");
-    assert!(html.contains("id=\"import-file\""));
+    assert!(
+        html.contains("id=\"import-file\">Import</button>"),
+        "Import is the button offered next"
+    );
     assert_eq!(app.count("field_tests").await, before);
 
     let (s, html) = send(
         &app,
         As::Qc,
         &f,
-        form("gauge export", "commit", "site.csv", fixed),
+        form("gauge export", "commit", "site.csv", fixed.clone()),
     )
     .await;
     assert_eq!(s, 200, "{html}");
@@ -237,6 +240,22 @@ async fn the_import_page_checks_a_file_lists_its_bad_rows_then_imports_the_fixed
             .await
             .unwrap();
     assert_eq!(numbers, ["P-00", "P-01", "P-02", "P-03", "P-04", "P-05"]);
+    // Checked again after the import: nothing new, and Import is not the button offered.
+    let (s, html) = send(
+        &app,
+        As::Qc,
+        &f,
+        form("gauge export", "check", "site.csv", fixed),
+    )
+    .await;
+    assert_eq!(s, 200);
+    assert!(
+        text_of(&html, "result-heading")
+            .unwrap()
+            .starts_with("Nothing new in site.csv"),
+        "{html}"
+    );
+    assert!(html.contains("id=\"import-file\" class=\"secondary\""));
     let who: String = sqlx::query_scalar(
         "SELECT actor FROM audit_log WHERE entity = 'field_test_import' ORDER BY id DESC",
     )

@@ -57,6 +57,15 @@ struct ImportPage {
 }
 
 impl ImportPage {
+    /// A clean check with something new: Import is the button to press next.
+    fn ready(&self) -> bool {
+        self.checked
+            && self
+                .report
+                .as_ref()
+                .is_some_and(|r| !r.refused() && r.new_tests > 0)
+    }
+
     async fn load(pool: &db::Pool, id: i64) -> Result<Self> {
         let p = setup::require_project(pool, id).await?;
         let mappings = db::bulk::list_mappings(pool, id)
