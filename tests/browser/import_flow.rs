@@ -6,7 +6,7 @@ use liftledger::ledger::Actor;
 use liftledger::transfer::{self, mapping::ImportMapping, mapping::Target};
 use serde_json::json;
 
-use crate::app::{PROJECT, Rig, km_m, nuclear_reading};
+use crate::app::{LotFacts, PROJECT, Rig, km_m, nuclear_reading};
 use crate::pages::{self, wait_for_path};
 use crate::webdriver::Session;
 
@@ -127,12 +127,8 @@ async fn problems(b: &Session) -> Vec<(String, String, String)> {
     out
 }
 
-#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
-async fn a_csv_file_is_checked_fixed_and_imported_on_the_import_page() {
-    let Some(rig) = Rig::start_as("import", "qc_manager").await else {
-        return;
-    };
-    let b = &rig.browser;
+/// An open lot of the demo, after saving the "gauge export" mapping in its project.
+async fn open_lot_with_mapping(rig: &Rig) -> (i64, LotFacts) {
     let lot_id: i64 = sqlx::query_scalar(
         "SELECT id FROM lots WHERE project_id = $1 AND state = 'open' ORDER BY id LIMIT 1",
     )
@@ -161,6 +157,16 @@ async fn a_csv_file_is_checked_fixed_and_imported_on_the_import_page() {
     )
     .await
     .expect("save the mapping");
+    (lot_id, lot)
+}
+
+#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+async fn a_csv_file_is_checked_fixed_and_imported_on_the_import_page() {
+    let Some(rig) = Rig::start_as("import", "qc_manager").await else {
+        return;
+    };
+    let b = &rig.browser;
+    let (lot_id, lot) = open_lot_with_mapping(&rig).await;
     let before = rig.app.field_test_count().await;
     let step = (lot.chainage_to_m - lot.chainage_from_m) / 5.0;
     let good: Vec<String> = (1..=4)
@@ -319,5 +325,60 @@ async fn a_csv_file_is_checked_fixed_and_imported_on_the_import_page() {
     assert!(heading.starts_with("Nothing new"), "{heading}");
     assert_eq!(rig.app.field_test_count().await, before + 4);
 
+    rig.finish().await;
+}
+
+#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+async fn without_javascript_the_import_form_posts_and_answers_with_the_same_page() {
+    let Some(rig) = Rig::start_as("import-nojs", "qc_manager").await else {
+        return;
+    };
+    let (_, lot) = open_lot_with_mapping(&rig).await;
+    let b = rig.driver.session(false).await;
+    rig.sign_in_as(&b, "qc_manager").await;
+    let dir = tempfile::tempdir().expect("tempdir");
+    let file = dir.path().join("no-script.csv");
+    let mid = (lot.chainage_from_m + lot.chainage_to_m) / 2.0;
+    write_csv(
+        &file,
+        &[
+            line("NJS-001", &lot.code, mid, lot.mdd, lot.omc),
+            line_with("NJS-002", &lot.code, mid + 1.0, "heavy", "200"),
+        ],
+    );
+    let before = rig.app.field_test_count().await;
+    b.goto(&rig.app.url(&format!("/projects/{PROJECT}/import")))
+        .await;
+    b.find("#file")
+        .await
+        .send_keys(file.to_str().unwrap())
+        .await;
+    b.find("#import-file").await.click().await;
+    let heading = new_result(&b, "").await;
+    assert!(
+        heading.contains("1 row of no-script.csv has problems"),
+        "{heading}"
+    );
+    assert!(
+        b.find("html")
+            .await
+            .attr("data-uploaded-bytes")
+            .await
+            .is_none(),
+        "the browser posted the form itself"
+    );
+    assert_eq!(
+        b.find("#problems tbody td:nth-child(1)").await.text().await,
+        "3"
+    );
+    assert!(
+        b.find("#import-result")
+            .await
+            .text()
+            .await
+            .contains("The import was refused; nothing was written.")
+    );
+    assert_eq!(rig.app.field_test_count().await, before);
+    b.quit().await;
     rig.finish().await;
 }
