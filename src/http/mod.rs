@@ -5,6 +5,7 @@ pub mod caller;
 pub mod extract;
 pub mod pages;
 mod same_origin;
+pub mod upload;
 
 use std::time::Duration;
 
@@ -33,7 +34,9 @@ pub fn router(state: AppState) -> Router {
         .layer(RequestBodyLimitLayer::new(MAX_BODY_BYTES))
         // Imports carry whole files; only they get the larger limit.
         .merge(
-            api::transfer::import_router()
+            Router::new()
+                .merge(api::transfer::import_router())
+                .merge(pages::upload_router())
                 .layer(RequestBodyLimitLayer::new(api::transfer::MAX_IMPORT_BYTES)),
         )
         .fallback(not_found)

@@ -163,8 +163,14 @@ pub struct Rig {
 }
 
 impl Rig {
-    /// Starts everything, or returns `None` when the browsers are not installed.
+    /// Starts everything, signed in as the demo's site technician, or returns `None`
+    /// when the browsers are not installed.
     pub async fn start(name: &'static str) -> Option<Rig> {
+        Self::start_as(name, "technician").await
+    }
+
+    /// Like `start`, signed in as the demo user with `role`.
+    pub async fn start_as(name: &'static str, role: &str) -> Option<Rig> {
         let browsers = webdriver::browsers_or_skip()?;
         let app = DemoApp::spawn().await;
         let driver = Driver::start(&browsers).await;
@@ -175,13 +181,18 @@ impl Rig {
             app,
             name,
         };
-        rig.sign_in(&rig.browser).await;
+        rig.sign_in_as(&rig.browser, role).await;
         Some(rig)
     }
 
     /// Signs a browser in through the sign-in form as the demo's site technician.
     pub async fn sign_in(&self, b: &Session) {
-        let (username, _, _, password) = technician();
+        self.sign_in_as(b, "technician").await;
+    }
+
+    /// Signs a browser in through the sign-in form as the demo user with `role`.
+    pub async fn sign_in_as(&self, b: &Session, role: &str) {
+        let (username, _, _, password) = demo_user(role);
         b.goto(&self.app.url("/sign-in")).await;
         b.wait_for("#sign-in-form").await;
         b.find("#username").await.type_over(username).await;
@@ -233,12 +244,12 @@ impl Rig {
     }
 }
 
-/// The demo's site technician: (user name, display name, role, password).
-pub fn technician() -> (&'static str, &'static str, &'static str, &'static str) {
+/// The demo user with a role: (user name, display name, role, password).
+pub fn demo_user(role: &str) -> (&'static str, &'static str, &'static str, &'static str) {
     liftledger::ledger::accounts::DEMO_USERS
         .into_iter()
-        .find(|u| u.2 == "technician")
-        .expect("the demo has a technician")
+        .find(|u| u.2 == role)
+        .unwrap_or_else(|| panic!("the demo has no {role}"))
 }
 
 /// `target/browser-shots/` (under `CARGO_TARGET_DIR` when that is set).

@@ -10,4 +10,5 @@ mod pages;
 mod webdriver;
 
 mod entry_flow;
+mod import_flow;
 mod retest_flow;

@@ -8,6 +8,7 @@ mod bad_input;
 mod calculators;
 mod certificates;
 mod concurrency;
+mod import_page;
 mod openapi;
 mod pages;
 mod restart;

@@ -44,7 +44,7 @@ const HEADER: [&str; 12] = [
     "Northing",
 ];
 
-fn mapping() -> ImportMapping {
+pub(crate) fn mapping() -> ImportMapping {
     ImportMapping::new([
         ("Test No", Target::Number),
         ("Taken", Target::TestedAt),
@@ -79,7 +79,7 @@ fn opts(commit: bool) -> ImportOptions {
 }
 
 /// A nuclear row giving dry density `dry` and water content `w` (the frame's lot, 1000–1100 m).
-fn row(number: &str, chainage: &str, dry: f64, w: f64) -> Vec<String> {
+pub(crate) fn row(number: &str, chainage: &str, dry: f64, w: f64) -> Vec<String> {
     vec![
         number.to_string(),
         "2026-11-20T09:00:00Z".to_string(),
@@ -97,7 +97,7 @@ fn row(number: &str, chainage: &str, dry: f64, w: f64) -> Vec<String> {
 }
 
 /// Writes rows as CSV with a separator (quoting what needs it).
-fn csv_bytes(sep: u8, bom: bool, rows: &[Vec<String>]) -> Vec<u8> {
+pub(crate) fn csv_bytes(sep: u8, bom: bool, rows: &[Vec<String>]) -> Vec<u8> {
     let mut out = Vec::new();
     if bom {
         out.extend_from_slice(b"\xEF\xBB\xBF");
@@ -221,7 +221,7 @@ async fn separators_can_be_named_instead_of_guessed() {
     assert_eq!(r.new_tests, 1);
 }
 
-fn big_rows(n: usize) -> Vec<Vec<String>> {
+pub(crate) fn big_rows(n: usize) -> Vec<Vec<String>> {
     (0..n)
         .map(|i| {
             row(

@@ -1,7 +1,7 @@
 //! Bulk import (CSV, dry run first, atomic commit) and exports (CSV, JSON, GeoJSON).
 
-use axum::body::Bytes;
-use axum::extract::{Path, State};
+use axum::body::Body;
+use axum::extract::{DefaultBodyLimit, Path, State};
 use axum::http::{StatusCode, header};
 use axum::response::IntoResponse;
 use axum::routing::{get, post};
@@ -14,15 +14,19 @@ use crate::auth::Action;
 use crate::error::{AppError, Result};
 use crate::http::caller::{Caller, Scope, require};
 use crate::http::extract::{ApiJson, ApiQuery};
+use crate::http::upload::spool_body;
 use crate::ledger::import::{AuditMode, ImportOptions};
 use crate::transfer::{self, export::ExportKind, export::FilterText, mapping::ImportMapping};
 
 /// The largest file an import request may carry (imports only; other bodies keep the small limit).
 pub const MAX_IMPORT_BYTES: usize = 256 * 1024 * 1024;
 
-/// Import routes (mounted with the larger body limit).
+/// Import routes (mounted with the larger body limit). The body is streamed to a
+/// temporary file, so axum's default limit for buffered bodies is lifted here.
 pub fn import_router() -> Router<AppState> {
-    Router::new().route("/api/v1/projects/{id}/imports", post(import))
+    Router::new()
+        .route("/api/v1/projects/{id}/imports", post(import))
+        .layer(DefaultBodyLimit::disable())
 }
 
 /// Export and mapping routes.
@@ -43,16 +47,18 @@ struct ImportQuery {
     file_name: Option<String>,
 }
 
-/// Checks (default) or commits a CSV file of field tests sent as the request body.
+/// Checks (default) or commits a CSV file of field tests sent as the request body,
+/// which is streamed to a temporary file first rather than held in memory.
 async fn import(
     State(s): State<AppState>,
     caller: Caller,
     Path(id): Path<i64>,
     ApiQuery(q): ApiQuery<ImportQuery>,
-    body: Bytes,
+    body: Body,
 ) -> Result<(StatusCode, Json<Value>)> {
     let actor = require(&s.db, &caller, Scope::Project(id), Action::ManageSetup).await?;
     let mapping = transfer::load_mapping(&s.db, id, &q.mapping).await?;
+    let upload = spool_body(body, "body").await?;
     let opts = ImportOptions {
         commit: q.commit,
         audit: AuditMode::PerImport,
@@ -62,7 +68,7 @@ async fn import(
     let report = transfer::import_csv(
         &s.db,
         id,
-        std::io::Cursor::new(body),
+        std::io::BufReader::new(upload.file),
         &name,
         &mapping,
         &opts,

@@ -7,7 +7,7 @@ use axum::routing::get;
 
 use super::{PageResult, ProjectNav, render};
 use crate::app::AppState;
-use crate::auth::Action;
+use crate::auth::{Action, allows};
 use crate::db;
 use crate::http::caller::{Caller, Scope, require};
 use crate::ledger::{overview, setup};
@@ -99,6 +99,8 @@ struct ProjectPage {
     owed: Vec<LotLink>,
     queue: Vec<LotLink>,
     activity: Vec<Activity>,
+    /// The caller may import a CSV file (links the import page).
+    may_import: bool,
 }
 
 async fn project_home(
@@ -109,6 +111,10 @@ async fn project_home(
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
 
     let p = setup::require_project(&s.db, id).await?;
+    let may_import = caller
+        .role_in(&s.db, id)
+        .await?
+        .is_some_and(|r| allows(r, Action::ManageSetup));
     let u = Units::of(&p);
     let reports = overview::summaries(&s.db, &s.views, id).await?;
     let states = [
@@ -208,6 +214,7 @@ async fn project_home(
         owed,
         queue,
         activity,
+        may_import,
         code: p.code,
         name: p.name,
         contract: p.contract,

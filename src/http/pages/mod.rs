@@ -2,11 +2,13 @@
 //!
 //! Handlers gather view models from `ledger` and `db`, format numbers through
 //! `present`, draw charts through `charts`, and render. Every page works without
-//! JavaScript; `static/entry.js` only adds the live preview on the site-entry form.
+//! JavaScript; `static/entry.js` only adds the live preview on the site-entry form,
+//! and `static/import.js` the upload progress on the import page.
 
 mod curve;
 mod entry;
 mod home;
+mod import;
 mod lot;
 pub mod map;
 mod review;
@@ -28,7 +30,9 @@ pub fn router() -> Router<AppState> {
     Router::new()
         .route("/static/style.css", get(style))
         .route("/static/entry.js", get(entry_js))
+        .route("/static/import.js", get(import_js))
         .merge(home::router())
+        .merge(import::router())
         .merge(map::router())
         .merge(lot::router())
         .merge(curve::router())
@@ -57,6 +61,21 @@ async fn entry_js() -> impl IntoResponse {
         ],
         include_str!("../../../static/entry.js"),
     )
+}
+
+async fn import_js() -> impl IntoResponse {
+    (
+        [
+            (header::CONTENT_TYPE, "text/javascript; charset=utf-8"),
+            (header::CACHE_CONTROL, "public, max-age=300"),
+        ],
+        include_str!("../../../static/import.js"),
+    )
+}
+
+/// Page routes that take an uploaded file (mounted with the import body limit).
+pub fn upload_router() -> Router<AppState> {
+    import::upload_router()
 }
 
 /// An error shown as a page rather than JSON.
