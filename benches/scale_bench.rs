@@ -202,7 +202,7 @@ async fn overview_figures(pool: &Pool, project_id: i64) -> anyhow::Result<()> {
         let t = Instant::now();
         let sql = format!(
             "SELECT {} FROM field_tests WHERE project_id = $1 ORDER BY lot_id, tested_at, id",
-            db::bulk::VIEW_COLUMNS
+            db::bulk::VERDICT_COLUMNS
         );
         let mut stream = sqlx::query(sqlx::AssertSqlSafe(sql))
             .bind(project_id)
@@ -217,7 +217,7 @@ async fn overview_figures(pool: &Pool, project_id: i64) -> anyhow::Result<()> {
         rows = n;
 
         let t = Instant::now();
-        let mut stream = db::field_tests::stream_for_views(pool, project_id);
+        let mut stream = db::field_tests::stream_for_views(pool, project_id, true);
         while let Some(row) = stream.try_next().await? {
             std::hint::black_box(&row);
         }

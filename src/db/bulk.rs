@@ -281,6 +281,14 @@ pub async fn insert_audit_rows(conn: &mut SqliteConnection, rows: &[AuditRow]) -
     Ok(())
 }
 
+/// The columns a lot verdict needs and nothing more (other texts left empty): what the
+/// judged-lot summaries of the lift map and home page read, decoded at a third of the cost.
+pub const VERDICT_COLUMNS: &str = "id, project_id, lot_id, number, '' AS tested_at, '' AS technician, '' AS method,
+    '' AS instrument_serial, chainage_m, offset_m, depth_mm, coarse_pct, coarse_water_content_pct, easting, northing,
+    '' AS readings_json, wet_density_kg_m3, water_content_pct, dry_density_kg_m3, '' AS moisture_source,
+    '' AS reduction_version, retest_of, void_reason, CAST(NULL AS TEXT) AS voided_by, CAST(NULL AS TEXT) AS voided_at, '' AS created_at,
+    '' AS created_by";
+
 /// The columns of a test the lot verdict and the whole-project views need.
 ///
 /// Same as [`FieldTest`] without `readings_json`, the one large text no whole-project

@@ -229,15 +229,21 @@ pub async fn next_number(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<Strin
     Ok(format!("T-{:04}", count + 1))
 }
 
-/// Every test of a project by lot then time, without `readings_json`, as a stream: a
-/// whole-project view judges one lot at a time and never holds the project's tests at once.
+/// Every test of a project by lot then time, without `readings_json` (and with only the
+/// verdict's columns when `verdict_only`), as a stream: a whole-project view judges one
+/// lot at a time and never holds the project's tests at once.
 pub fn stream_for_views(
     pool: &Pool,
     project_id: i64,
+    verdict_only: bool,
 ) -> futures_util::stream::BoxStream<'_, sqlx::Result<FieldTest>> {
-    sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
-        "SELECT {} FROM field_tests WHERE project_id = $1 ORDER BY lot_id, tested_at, id",
+    let columns = if verdict_only {
+        super::bulk::VERDICT_COLUMNS
+    } else {
         super::bulk::VIEW_COLUMNS
+    };
+    sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
+        "SELECT {columns} FROM field_tests WHERE project_id = $1 ORDER BY lot_id, tested_at, id"
     )))
     .bind(project_id)
     .fetch(pool)

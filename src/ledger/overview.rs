@@ -141,7 +141,7 @@ pub async fn each_report(
         Ok(())
     };
 
-    let mut stream = db::field_tests::stream_for_views(pool, project_id);
+    let mut stream = db::field_tests::stream_for_views(pool, project_id, !keep_lines);
     let mut current: Option<(i64, Vec<db::field_tests::FieldTest>)> = None;
     while let Some(t) = stream.try_next().await? {
         match &mut current {

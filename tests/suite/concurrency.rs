@@ -102,5 +102,8 @@ async fn a_refused_test_among_simultaneous_ones_is_refused_alone() {
             .fetch_one(&app.pool)
             .await
             .unwrap();
-    assert_eq!(audit, 20, "one audit row per stored test, none for a refused one");
+    assert_eq!(
+        audit, 20,
+        "one audit row per stored test, none for a refused one"
+    );
 }
