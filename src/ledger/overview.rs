@@ -187,54 +187,74 @@ pub async fn project_reports(pool: &Pool, project_id: i64) -> Result<Vec<LotRepo
 }
 
 /// A project's judged lots without test lines, shared by the readers of one revision.
-pub type Summaries = Arc<Vec<LotReport>>;
+pub type Summaries = Arc<Vec<Arc<LotReport>>>;
+
+/// Lots re-judged one by one after a change; beyond this a whole pass is cheaper.
+const MAX_PATCHED_LOTS: usize = 64;
+
+/// One project's judged lots and what they show.
+#[derive(Clone)]
+struct Entry {
+    revision: i64,
+    /// The newest audit row the lots reflect (SQLite, where audit ids follow commits).
+    last_audit: i64,
+    lots: Summaries,
+}
 
 /// Judged lots without their test lines, per project, tagged with the revision they show.
 #[derive(Default)]
 pub struct SummaryCache {
-    entries: Mutex<HashMap<i64, (i64, Summaries)>>,
+    entries: Mutex<HashMap<i64, Entry>>,
     /// One project judged at a time: requests that miss together share one pass.
     computing: tokio::sync::Mutex<()>,
 }
 
 impl SummaryCache {
-    fn current(&self, project_id: i64, revision: i64) -> Option<Summaries> {
+    fn get(&self, project_id: i64) -> Option<Entry> {
         let entries = self.entries.lock().unwrap_or_else(|e| e.into_inner());
-        entries
-            .get(&project_id)
-            .filter(|(r, _)| *r == revision)
-            .map(|(_, v)| v.clone())
+        entries.get(&project_id).cloned()
     }
 
-    fn store(&self, project_id: i64, revision: i64, v: Summaries) {
+    fn store(&self, project_id: i64, e: Entry) {
         let mut entries = self.entries.lock().unwrap_or_else(|e| e.into_inner());
-        entries.insert(project_id, (revision, v));
+        entries.insert(project_id, e);
     }
 }
 
 /// Every lot of a project judged, without test lines (`tests` is empty; `tests_entered`
 /// counts them), in layer then chainage order; reused while the project's revision holds.
 ///
-/// The revision is read before the pass, so a change committed during it leaves the
-/// entry one revision behind and the next reader judges again: never stale, at worst
-/// judged twice.
+/// After a change, on SQLite, only the lots the new audit rows name (a test's lot, a
+/// lot, a certificate's lot) are judged again; any other kind of change, a new lot, or
+/// many changed lots judge the whole project again, as PostgreSQL always does. The
+/// revision is read first, so an entry never claims a revision newer than what it shows.
 #[tracing::instrument(skip(pool, cache))]
 pub async fn summaries(pool: &Pool, cache: &SummaryCache, project_id: i64) -> Result<Summaries> {
+    let not_found =
+        || AppError::not_found("project_id", format!("project {project_id} does not exist"));
     let revision = db::projects::revision(pool, project_id)
         .await?
-        .ok_or_else(|| {
-            AppError::not_found("project_id", format!("project {project_id} does not exist"))
-        })?;
-    if let Some(v) = cache.current(project_id, revision) {
-        return Ok(v);
+        .ok_or_else(not_found)?;
+    if let Some(e) = cache.get(project_id).filter(|e| e.revision == revision) {
+        return Ok(e.lots);
     }
     let _turn = cache.computing.lock().await;
     let revision = db::projects::revision(pool, project_id)
         .await?
-        .unwrap_or(revision);
-    if let Some(v) = cache.current(project_id, revision) {
-        return Ok(v);
+        .ok_or_else(not_found)?;
+    let cached = cache.get(project_id);
+    if let Some(e) = cached.as_ref().filter(|e| e.revision == revision) {
+        return Ok(e.lots.clone());
     }
+    let sqlite = db::engine_of(pool) == db::Engine::Sqlite;
+    if let Some(old) = cached.filter(|_| sqlite)
+        && let Some(entry) = patched(pool, project_id, revision, &old).await?
+    {
+        let lots = entry.lots.clone();
+        cache.store(project_id, entry);
+        return Ok(lots);
+    }
+    let last_audit = db::audit::last_id(pool, project_id).await?;
     let mut out = Vec::new();
     each_report(
         pool,
@@ -242,12 +262,69 @@ pub async fn summaries(pool: &Pool, cache: &SummaryCache, project_id: i64) -> Re
         |_| true,
         false,
         |r| {
-            out.push(r);
+            out.push(Arc::new(r));
             Ok(())
         },
     )
     .await?;
-    let v = Arc::new(out);
-    cache.store(project_id, revision, v.clone());
-    Ok(v)
+    let lots: Summaries = Arc::new(out);
+    cache.store(
+        project_id,
+        Entry {
+            revision,
+            last_audit,
+            lots: lots.clone(),
+        },
+    );
+    Ok(lots)
+}
+
+/// The cached lots with those changed since `old` judged again; `None` when a whole
+/// pass is needed (a kind of change that may touch many lots, a new lot, many lots).
+async fn patched(
+    pool: &Pool,
+    project_id: i64,
+    revision: i64,
+    old: &Entry,
+) -> Result<Option<Entry>> {
+    let changes = db::audit::changes_since(pool, project_id, old.last_audit).await?;
+    let mut lots: Vec<i64> = Vec::new();
+    let mut last_audit = old.last_audit;
+    for (id, entity, entity_id) in changes {
+        last_audit = last_audit.max(id);
+        let lot = match (entity.as_str(), entity_id) {
+            // Sign-ins, accounts and saved mappings change no verdict.
+            ("session" | "user" | "import_mapping", _) => None,
+            ("lot", Some(lot)) => Some(lot),
+            ("field_test", Some(t)) => match db::scope::lot_of_test(pool, t).await? {
+                Some(lot) => Some(lot),
+                None => return Ok(None),
+            },
+            ("certificate", Some(c)) => match db::scope::lot_of_certificate(pool, c).await? {
+                Some(lot) => Some(lot),
+                None => return Ok(None),
+            },
+            _ => return Ok(None),
+        };
+        if let Some(lot) = lot.filter(|l| !lots.contains(l)) {
+            lots.push(lot);
+            if lots.len() > MAX_PATCHED_LOTS {
+                return Ok(None);
+            }
+        }
+    }
+    let mut next: Vec<Arc<LotReport>> = old.lots.as_ref().clone();
+    for lot_id in lots {
+        let Some(at) = next.iter().position(|r| r.lot.id == lot_id) else {
+            return Ok(None);
+        };
+        let mut r = lot_report::build(pool, lot_id).await?;
+        r.tests = Vec::new();
+        next[at] = Arc::new(r);
+    }
+    Ok(Some(Entry {
+        revision,
+        last_audit,
+        lots: Arc::new(next),
+    }))
 }
