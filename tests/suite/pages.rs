@@ -448,3 +448,65 @@ async fn lift_map_and_home_follow_every_change_at_once() {
     let (_, html) = page(&app, &map).await;
     assert_eq!(map_state_of(&html, "LOT-1"), "submitted");
 }
+
+/// (number, result) of each row the test list shows, in its order.
+fn listed_rows(html: &str) -> Vec<(String, String)> {
+    html.split("<tr><td>")
+        .skip(1)
+        .map(|row| {
+            let number = row.split('<').next().unwrap().to_string();
+            let result = row
+                .split("<span class=\"tag ")
+                .nth(1)
+                .and_then(|t| t.split('"').next())
+                .unwrap_or_default()
+                .to_string();
+            (number, result)
+        })
+        .collect()
+}
+
+/// The first page of the list is picked by the database and only its lots are judged;
+/// the CSV judges every lot. Under each filter both give the same tests, order and results.
+#[tokio::test]
+async fn test_list_page_agrees_with_the_whole_project_csv_under_every_filter() {
+    let app = spawn_demo().await;
+    let (_, layers) = app.get("/api/v1/projects/1/layers").await;
+    let layer = layers[0]["id"].as_i64().unwrap();
+    for q in [
+        String::new(),
+        "from=0%2B100&to=0%2B200".into(),
+        "date_from=2026-10-01&date_to=2026-10-31".into(),
+        "date_from=2026-11-30&date_to=2026-11-30".into(),
+        "method=nuclear".into(),
+        format!("layer={layer}"),
+        "verdict=fail".into(),
+    ] {
+        let (s, html) = page(&app, &format!("/projects/1/tests?{q}")).await;
+        assert_eq!(s, 200, "{q}");
+        let shown = listed_rows(&html);
+        let bytes = app
+            .client
+            .get(app.url(&format!("/projects/1/tests.csv?{q}")))
+            .send()
+            .await
+            .unwrap()
+            .bytes()
+            .await
+            .unwrap();
+        let mut reader = csv::Reader::from_reader(&bytes[3..]);
+        let csv: Vec<(String, String)> = reader
+            .records()
+            .map(|r| {
+                let r = r.unwrap();
+                (r[0].to_string(), r[15].to_string())
+            })
+            .collect();
+        assert!(!csv.is_empty(), "filter {q} selects something");
+        assert_eq!(shown, csv, "filter {q}");
+        assert!(
+            html.contains(&format!("id=\"total\">{}<", csv.len())),
+            "total under {q}"
+        );
+    }
+}

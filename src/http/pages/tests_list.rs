@@ -124,6 +124,47 @@ async fn select(
                 .map_err(|_| AppError::invalid("layer", "choose a layer from the list"))?,
         )
     };
+    if let Some(n) = limit
+        && f.verdict.is_empty()
+    {
+        // Without a verdict filter the database picks the newest tests; only their lots
+        // are judged (a whole pass would judge every lot of the project).
+        let next_day = |d: &String| -> Result<String, AppError> {
+            let fmt = time::macros::format_description!("[year]-[month]-[day]");
+            let day = time::Date::parse(d, &fmt)
+                .map_err(|_| AppError::invalid("date_to", "not a date like 2026-12-01"))?;
+            Ok(day.next_day().unwrap_or(day).to_string())
+        };
+        let filter = crate::db::field_tests::TestFilter {
+            lot_id: None,
+            layer_id: layer,
+            chainage_from_m: from,
+            chainage_to_m: to,
+            tested_from: d_from,
+            tested_before: d_to.as_ref().map(next_day).transpose()?,
+            method: (!f.method.is_empty()).then(|| f.method.clone()),
+            limit: i64::try_from(n).unwrap_or(i64::MAX),
+            offset: 0,
+        };
+        let total = crate::db::field_tests::count_matching(pool, project_id, &filter).await?;
+        let newest = crate::db::field_tests::list(pool, project_id, &filter).await?;
+        let mut lots: std::collections::HashMap<i64, LotReport> = Default::default();
+        let mut out = Vec::with_capacity(newest.len());
+        for t in &newest {
+            if !lots.contains_key(&t.lot_id) {
+                let r = crate::ledger::lot_report::build(pool, t.lot_id).await?;
+                lots.insert(t.lot_id, r);
+            }
+            let r = &lots[&t.lot_id];
+            if let Some(line) = r.tests.iter().find(|l| l.test.id == t.id) {
+                out.push(Listed {
+                    lot: r.lot.clone(),
+                    line: line.clone(),
+                });
+            }
+        }
+        return Ok((out, usize::try_from(total).unwrap_or(0)));
+    }
     let mut out = Vec::new();
     let mut total = 0usize;
     let keep = |lot: &crate::db::lots::Lot| layer.is_none_or(|l| l == lot.layer_id);
