@@ -26,6 +26,8 @@ pub struct Inner {
     pub settings: Settings,
     /// Judged lots per project, reused while the project's revision holds.
     pub views: crate::ledger::overview::SummaryCache,
+    /// Clauses, sources and lab tests once read (rows that never change).
+    pub rules: crate::ledger::field::RuleCache,
     /// Group commit of new field tests (SQLite only).
     pub writer: Option<crate::ledger::test_writer::TestWriter>,
 }
@@ -36,6 +38,7 @@ impl AppState {
         Self(Arc::new(Inner {
             settings,
             views: Default::default(),
+            rules: Default::default(),
             writer: crate::ledger::test_writer::TestWriter::start(&db),
             db,
         }))

@@ -70,6 +70,20 @@ impl LotContext {
         })
     }
 
+    /// The lot's clause, source and lab test from `rules`, read from the store only the
+    /// first time each is needed.
+    pub async fn load_with(pool: &Pool, rules: &RuleCache, lot: &db::lots::Lot) -> Result<Self> {
+        let (clause, source, lab) = match rules.get(lot) {
+            Some(found) => found,
+            None => {
+                let ctx = Self::load(pool, lot).await?;
+                rules.keep(&ctx);
+                return Ok(ctx);
+            }
+        };
+        Self::new(lot.clone(), clause, source, lab)
+    }
+
     /// Loads the clause, source and lab test a lot is judged by.
     pub async fn load(pool: &Pool, lot: &db::lots::Lot) -> Result<Self> {
         let clause = db::clauses::get(pool, lot.clause_id)
@@ -110,6 +124,48 @@ impl LotContext {
             self.clause.oversize_limit_pct,
         )
         .map_err(|e| AppError::invalid("coarse_pct", e.to_string()))
+    }
+}
+
+/// Clauses, sources and lab tests by id, kept once read.
+///
+/// These rows are never changed once written (a lab test is only marked superseded,
+/// with its lots moved to the new curve, and the status is not part of any check), so a
+/// copy stays right on every app server and needs no invalidation.
+#[derive(Default)]
+pub struct RuleCache {
+    rows: std::sync::Mutex<RuleRows>,
+}
+
+#[derive(Default)]
+struct RuleRows {
+    clauses: std::collections::HashMap<i64, db::clauses::Clause>,
+    sources: std::collections::HashMap<i64, db::sources::Source>,
+    labs: std::collections::HashMap<i64, db::lab_tests::LabTest>,
+}
+
+impl RuleCache {
+    fn get(
+        &self,
+        lot: &db::lots::Lot,
+    ) -> Option<(
+        db::clauses::Clause,
+        db::sources::Source,
+        db::lab_tests::LabTest,
+    )> {
+        let rows = self.rows.lock().unwrap_or_else(|e| e.into_inner());
+        Some((
+            rows.clauses.get(&lot.clause_id)?.clone(),
+            rows.sources.get(&lot.source_id)?.clone(),
+            rows.labs.get(&lot.lab_test_id)?.clone(),
+        ))
+    }
+
+    fn keep(&self, ctx: &LotContext) {
+        let mut rows = self.rows.lock().unwrap_or_else(|e| e.into_inner());
+        rows.clauses.insert(ctx.clause.id, ctx.clause.clone());
+        rows.sources.insert(ctx.source.id, ctx.source.clone());
+        rows.labs.insert(ctx.lab.id, ctx.lab.clone());
     }
 }
 
@@ -444,7 +500,11 @@ pub async fn record_test(
     input: &FieldTestInput,
     actor: &Actor,
 ) -> Result<db::field_tests::FieldTest> {
-    Ok(record_judged(pool, None, lot_id, input, actor).await?.0)
+    Ok(
+        record_judged(pool, None, &RuleCache::default(), lot_id, input, actor)
+            .await?
+            .0,
+    )
 }
 
 /// Records a new field test on a lot and returns it with its own verdict, judged from
@@ -455,13 +515,14 @@ pub async fn record_test(
 pub async fn record_judged(
     pool: &Pool,
     writer: Option<&super::test_writer::TestWriter>,
+    rules: &RuleCache,
     lot_id: i64,
     input: &FieldTestInput,
     actor: &Actor,
 ) -> Result<(db::field_tests::FieldTest, lot_report::TestLine)> {
     let lot = require_lot(pool, lot_id).await?;
     require_lot_takes_tests(&lot)?;
-    let ctx = LotContext::load(pool, &lot).await?;
+    let ctx = LotContext::load_with(pool, rules, &lot).await?;
     let checked = check_loaded(&ctx, input, None, actor, &clock::now())?;
     let test = match writer {
         Some(w) => w.store(checked.record, actor, "create").await?,

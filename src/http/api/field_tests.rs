@@ -94,7 +94,8 @@ async fn create(
     let actor = require(&s.db, &caller, Scope::Lot(id), Action::EnterTests).await?;
 
     let (t, line) =
-        ledger::field::record_judged(&s.db, s.writer.as_ref(), id, &input, &actor).await?;
+        ledger::field::record_judged(&s.db, s.writer.as_ref(), &s.rules, id, &input, &actor)
+            .await?;
     Ok((StatusCode::CREATED, Json(test_json(&t, Some(&line)))))
 }
 

@@ -151,9 +151,8 @@ async fn select(
         let mut lots: std::collections::HashMap<i64, LotReport> = Default::default();
         let mut out = Vec::with_capacity(newest.len());
         for t in &newest {
-            if !lots.contains_key(&t.lot_id) {
-                let r = crate::ledger::lot_report::build(pool, t.lot_id).await?;
-                lots.insert(t.lot_id, r);
+            if let std::collections::hash_map::Entry::Vacant(e) = lots.entry(t.lot_id) {
+                e.insert(crate::ledger::lot_report::build(pool, t.lot_id).await?);
             }
             let r = &lots[&t.lot_id];
             if let Some(line) = r.tests.iter().find(|l| l.test.id == t.id) {
