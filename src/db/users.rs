@@ -169,6 +169,28 @@ pub async fn session(pool: &Pool, token_hash: &str) -> sqlx::Result<Option<Sessi
     .await
 }
 
+/// A live session with its user, read in one query (every signed-in request needs both).
+#[derive(Debug, Clone, sqlx::FromRow)]
+pub struct SessionUser {
+    pub session_id: i64,
+    pub session_last_seen_at: String,
+    #[sqlx(flatten)]
+    pub user: User,
+}
+
+/// The live session with this token hash, and its user.
+pub async fn session_user(pool: &Pool, token_hash: &str) -> sqlx::Result<Option<SessionUser>> {
+    sqlx::query_as::<_, SessionUser>(
+        "SELECT s.id AS session_id, s.last_seen_at AS session_last_seen_at, u.id, u.username, u.display_name,
+                u.password_hash, u.is_admin, u.is_demo, u.disabled_at, u.created_at
+         FROM sessions s JOIN users u ON u.id = s.user_id
+         WHERE s.token_hash = $1 AND s.ended_at IS NULL",
+    )
+    .bind(token_hash)
+    .fetch_optional(pool)
+    .await
+}
+
 /// Records that a session was used now.
 pub async fn touch_session(pool: &Pool, id: i64, now: &str) -> sqlx::Result<()> {
     sqlx::query("UPDATE sessions SET last_seen_at = $1 WHERE id = $2")

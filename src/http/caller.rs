@@ -229,31 +229,31 @@ pub async fn identify(state: &AppState, parts: &Parts) -> Result<Option<Caller>>
     let Some(cookie) = cookie_value(parts, SESSION_COOKIE) else {
         return Ok(None);
     };
-    let Some(session) = users::session(&state.db, &secret::digest(&cookie)).await? else {
+    let Some(found) = users::session_user(&state.db, &secret::digest(&cookie)).await? else {
         return Ok(None);
     };
-    let idle = match (clock::parse(&now), clock::parse(&session.last_seen_at)) {
+    let idle = match (
+        clock::parse(&now),
+        clock::parse(&found.session_last_seen_at),
+    ) {
         (Some(n), Some(l)) => (n - l).whole_seconds(),
         _ => 0,
     };
     if idle > IDLE_SECS {
-        users::end_session(&state.db, session.id, &now).await?;
+        users::end_session(&state.db, found.session_id, &now).await?;
         return Ok(None);
     }
-    let Some(user) = users::get(&state.db, session.user_id)
-        .await?
-        .filter(|u| u.disabled_at.is_none())
-    else {
+    if found.user.disabled_at.is_some() {
         return Ok(None);
-    };
+    }
     // Write at most once a minute per session.
     if idle > 60 {
-        users::touch_session(&state.db, session.id, &now).await?;
+        users::touch_session(&state.db, found.session_id, &now).await?;
     }
     Ok(Some(Caller {
-        principal: Principal::User(user),
+        principal: Principal::User(found.user),
         address,
-        session_id: Some(session.id),
+        session_id: Some(found.session_id),
     }))
 }
 
