@@ -829,8 +829,16 @@ pub async fn import_field_tests(
     let started = Instant::now();
     setup::require_project(pool, project_id).await?;
     // Take the write lock first: what the rows are checked against cannot change before commit.
+    let mut own = if opts.commit {
+        db::bulk_connection(pool).await?
+    } else {
+        None
+    };
     let mut tx = if opts.commit {
-        let mut tx = db::begin_write(pool).await?;
+        let mut tx = match own.as_mut() {
+            Some(conn) => db::begin_write_on(conn).await?,
+            None => db::begin_write(pool).await?,
+        };
         // PostgreSQL: the project's row and the tests table are this import's until it ends
         // (SQLite's BEGIN IMMEDIATE already holds the one write lock).
         db::lock_project(&mut tx, project_id).await?;
