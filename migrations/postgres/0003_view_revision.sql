@@ -1,19 +1,24 @@
 -- Every audited change bumps its project's revision, in the change's own transaction,
 -- so whole-project views can be cached and known stale with one indexed read. The
--- row lock the UPDATE takes orders revisions as commits are ordered.
+-- row lock the UPDATE takes orders revisions as commits are ordered. The triggers run
+-- once per statement (a bulk insert of many rows updates the project row once):
+-- updating one row many times in one transaction grows a version chain every later
+-- update has to walk.
 ALTER TABLE projects ADD COLUMN revision BIGINT NOT NULL DEFAULT 0;
 
 CREATE FUNCTION audit_log_bump_revision() RETURNS trigger LANGUAGE plpgsql AS $$
 BEGIN
-    IF NEW.project_id IS NOT NULL THEN
-        UPDATE projects SET revision = revision + 1 WHERE id = NEW.project_id;
-    END IF;
+    UPDATE projects p SET revision = p.revision + c.n
+    FROM (SELECT project_id, COUNT(*) AS n FROM new_rows
+          WHERE project_id IS NOT NULL GROUP BY project_id) c
+    WHERE p.id = c.project_id;
     RETURN NULL;
 END;
 $$;
 
 CREATE TRIGGER audit_log_bumps_revision AFTER INSERT ON audit_log
-    FOR EACH ROW EXECUTE FUNCTION audit_log_bump_revision();
+    REFERENCING NEW TABLE AS new_rows
+    FOR EACH STATEMENT EXECUTE FUNCTION audit_log_bump_revision();
 
 -- The project home lists a project's latest audit rows.
 CREATE INDEX audit_by_project ON audit_log (project_id, id);
@@ -26,16 +31,28 @@ CREATE INDEX field_tests_by_project_lot ON field_tests (project_id, lot_id, test
 ALTER TABLE projects ADD COLUMN field_test_count BIGINT NOT NULL DEFAULT 0;
 UPDATE projects SET field_test_count = (SELECT COUNT(*) FROM field_tests WHERE field_tests.project_id = projects.id);
 
-CREATE FUNCTION field_tests_count() RETURNS trigger LANGUAGE plpgsql AS $$
+CREATE FUNCTION field_tests_count_up() RETURNS trigger LANGUAGE plpgsql AS $$
 BEGIN
-    IF TG_OP = 'INSERT' THEN
-        UPDATE projects SET field_test_count = field_test_count + 1 WHERE id = NEW.project_id;
-    ELSE
-        UPDATE projects SET field_test_count = field_test_count - 1 WHERE id = OLD.project_id;
-    END IF;
+    UPDATE projects p SET field_test_count = p.field_test_count + c.n
+    FROM (SELECT project_id, COUNT(*) AS n FROM new_rows GROUP BY project_id) c
+    WHERE p.id = c.project_id;
     RETURN NULL;
 END;
 $$;
 
-CREATE TRIGGER field_tests_counted AFTER INSERT OR DELETE ON field_tests
-    FOR EACH ROW EXECUTE FUNCTION field_tests_count();
+CREATE FUNCTION field_tests_count_down() RETURNS trigger LANGUAGE plpgsql AS $$
+BEGIN
+    UPDATE projects p SET field_test_count = p.field_test_count - c.n
+    FROM (SELECT project_id, COUNT(*) AS n FROM old_rows GROUP BY project_id) c
+    WHERE p.id = c.project_id;
+    RETURN NULL;
+END;
+$$;
+
+CREATE TRIGGER field_tests_counted_up AFTER INSERT ON field_tests
+    REFERENCING NEW TABLE AS new_rows
+    FOR EACH STATEMENT EXECUTE FUNCTION field_tests_count_up();
+
+CREATE TRIGGER field_tests_counted_down AFTER DELETE ON field_tests
+    REFERENCING OLD TABLE AS old_rows
+    FOR EACH STATEMENT EXECUTE FUNCTION field_tests_count_down();
