@@ -293,8 +293,8 @@ async fn patched(
     for (id, entity, entity_id) in changes {
         last_audit = last_audit.max(id);
         let lot = match (entity.as_str(), entity_id) {
-            // Sign-ins, accounts and saved mappings change no verdict.
-            ("session" | "user" | "import_mapping", _) => None,
+            // Sign-ins, accounts, API tokens and saved mappings change no verdict.
+            ("session" | "user" | "api_token" | "import_mapping", _) => None,
             ("lot", Some(lot)) => Some(lot),
             ("field_test", Some(t)) => match db::scope::lot_of_test(pool, t).await? {
                 Some(lot) => Some(lot),
