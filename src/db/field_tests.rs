@@ -114,69 +114,57 @@ pub async fn for_lot(pool: &Pool, lot_id: i64) -> sqlx::Result<Vec<FieldTest>> {
     .await
 }
 
-/// How many tests of a project match the filter (its limit and offset ignored).
-pub async fn count_matching(pool: &Pool, project_id: i64, f: &TestFilter) -> sqlx::Result<i64> {
-    sqlx::query_scalar(
-        "SELECT COUNT(*) FROM field_tests t WHERE t.project_id = $1
+/// Where a [`TestFilter`] selects: `$1` is the project, `$2`..`$15` come from
+/// [`bind_filter!`]; each filter is off when its value is NULL.
+const FILTER_WHERE: &str = "WHERE t.project_id = $1
            AND ($2 IS NULL OR t.lot_id = $3)
            AND ($4 IS NULL OR t.lot_id IN (SELECT id FROM lots WHERE layer_id = $5))
            AND ($6 IS NULL OR t.chainage_m >= $7)
            AND ($8 IS NULL OR t.chainage_m <= $9)
            AND ($10 IS NULL OR t.tested_at >= $11)
            AND ($12 IS NULL OR t.tested_at < $13)
-           AND ($14 IS NULL OR t.method = $15)",
-    )
-    .bind(project_id)
-    .bind(f.lot_id)
-    .bind(f.lot_id)
-    .bind(f.layer_id)
-    .bind(f.layer_id)
-    .bind(f.chainage_from_m)
-    .bind(f.chainage_from_m)
-    .bind(f.chainage_to_m)
-    .bind(f.chainage_to_m)
-    .bind(&f.tested_from)
-    .bind(&f.tested_from)
-    .bind(&f.tested_before)
-    .bind(&f.tested_before)
-    .bind(&f.method)
-    .bind(&f.method)
-    .fetch_one(pool)
-    .await
+           AND ($14 IS NULL OR t.method = $15)";
+
+/// Binds `$1`..`$15` of [`FILTER_WHERE`] on any sqlx query.
+macro_rules! bind_filter {
+    ($q:expr, $project_id:expr, $f:expr) => {
+        $q.bind($project_id)
+            .bind($f.lot_id)
+            .bind($f.lot_id)
+            .bind($f.layer_id)
+            .bind($f.layer_id)
+            .bind($f.chainage_from_m)
+            .bind($f.chainage_from_m)
+            .bind($f.chainage_to_m)
+            .bind($f.chainage_to_m)
+            .bind(&$f.tested_from)
+            .bind(&$f.tested_from)
+            .bind(&$f.tested_before)
+            .bind(&$f.tested_before)
+            .bind(&$f.method)
+            .bind(&$f.method)
+    };
+}
+
+/// How many tests of a project match the filter (its limit and offset ignored).
+pub async fn count_matching(pool: &Pool, project_id: i64, f: &TestFilter) -> sqlx::Result<i64> {
+    let q = sqlx::query_scalar(sqlx::AssertSqlSafe(format!(
+        "SELECT COUNT(*) FROM field_tests t {FILTER_WHERE}"
+    )));
+    bind_filter!(q, project_id, f).fetch_one(pool).await
 }
 
 /// Tests of a project matching the filter, newest first.
 pub async fn list(pool: &Pool, project_id: i64, f: &TestFilter) -> sqlx::Result<Vec<FieldTest>> {
-    sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM field_tests t WHERE t.project_id = $1
-           AND ($2 IS NULL OR t.lot_id = $3)
-           AND ($4 IS NULL OR t.lot_id IN (SELECT id FROM lots WHERE layer_id = $5))
-           AND ($6 IS NULL OR t.chainage_m >= $7)
-           AND ($8 IS NULL OR t.chainage_m <= $9)
-           AND ($10 IS NULL OR t.tested_at >= $11)
-           AND ($12 IS NULL OR t.tested_at < $13)
-           AND ($14 IS NULL OR t.method = $15)
+    let q = sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
+        "SELECT {COLUMNS} FROM field_tests t {FILTER_WHERE}
          ORDER BY t.tested_at DESC, t.id DESC LIMIT $16 OFFSET $17"
-    )))
-    .bind(project_id)
-    .bind(f.lot_id)
-    .bind(f.lot_id)
-    .bind(f.layer_id)
-    .bind(f.layer_id)
-    .bind(f.chainage_from_m)
-    .bind(f.chainage_from_m)
-    .bind(f.chainage_to_m)
-    .bind(f.chainage_to_m)
-    .bind(&f.tested_from)
-    .bind(&f.tested_from)
-    .bind(&f.tested_before)
-    .bind(&f.tested_before)
-    .bind(&f.method)
-    .bind(&f.method)
-    .bind(f.limit)
-    .bind(f.offset)
-    .fetch_all(pool)
-    .await
+    )));
+    bind_filter!(q, project_id, f)
+        .bind(f.limit)
+        .bind(f.offset)
+        .fetch_all(pool)
+        .await
 }
 
 /// Voids a test with a reason; false when it was already void.

@@ -345,36 +345,10 @@ async fn load_lots(pool: &Pool, project_id: i64) -> Result<Lots> {
         },
     )
     .await?;
-    let clauses: HashMap<i64, _> = db::clauses::list(pool, project_id)
-        .await?
-        .into_iter()
-        .map(|c| (c.id, c))
-        .collect();
-    let sources: HashMap<i64, _> = db::sources::list(pool, project_id)
-        .await?
-        .into_iter()
-        .map(|s| (s.id, s))
-        .collect();
-    let labs: HashMap<i64, _> = db::lab_tests::list_for_project(pool, project_id)
-        .await?
-        .into_iter()
-        .map(|l| (l.id, l))
-        .collect();
+    let rows = super::overview::ProjectRows::load(pool, project_id).await?;
     let mut out = Lots::default();
     for lot in lots {
-        let missing = |what: &str| anyhow::anyhow!("lot {} refers to a missing {what}", lot.id);
-        let clause = clauses
-            .get(&lot.clause_id)
-            .cloned()
-            .ok_or_else(|| missing("clause"))?;
-        let source = sources
-            .get(&lot.source_id)
-            .cloned()
-            .ok_or_else(|| missing("source"))?;
-        let lab = labs
-            .get(&lot.lab_test_id)
-            .cloned()
-            .ok_or_else(|| missing("lab test"))?;
+        let (clause, source, lab) = rows.rules_of(&lot)?;
         reference_of(&lab)?;
         out.by_code.insert(lot.code.clone(), out.all.len());
         out.by_id.insert(lot.id, out.all.len());

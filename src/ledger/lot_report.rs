@@ -31,6 +31,18 @@ pub struct TestLine {
     pub reasons: Vec<String>,
 }
 
+impl TestLine {
+    /// The test's result in one word: pass, fail, void or superseded.
+    pub fn result(&self) -> &'static str {
+        match self.standing.as_str() {
+            "voided" => "void",
+            "superseded" => "superseded",
+            _ if self.passed => "pass",
+            _ => "fail",
+        }
+    }
+}
+
 /// The statistics and verdict of a lot under its clause's rule.
 #[derive(Debug, Clone, Serialize)]
 pub struct Verdict {

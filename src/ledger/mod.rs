@@ -13,6 +13,7 @@ pub mod lot_report;
 pub mod overview;
 pub mod review;
 pub mod setup;
+pub mod test_list;
 pub mod test_writer;
 pub mod validate;
 pub mod verify;

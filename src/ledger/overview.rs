@@ -15,17 +15,19 @@ use super::lot_report::{self, LotReport};
 use crate::db::{self, Pool};
 use crate::error::{AppError, Result};
 
-/// What every lot of a project shares, read once per pass.
-struct Shared {
-    project: db::projects::Project,
+/// What every lot of a project shares, read once per pass: the project, its clauses,
+/// sources and lab tests by id, and the current certificate of each lot.
+pub struct ProjectRows {
+    pub project: db::projects::Project,
     clauses: HashMap<i64, db::clauses::Clause>,
     sources: HashMap<i64, db::sources::Source>,
     labs: HashMap<i64, db::lab_tests::LabTest>,
     certificates: HashMap<i64, db::certificates::Certificate>,
 }
 
-impl Shared {
-    async fn load(pool: &Pool, project_id: i64) -> Result<Self> {
+impl ProjectRows {
+    /// Reads the rows; 404 naming `project_id` when the project does not exist.
+    pub async fn load(pool: &Pool, project_id: i64) -> Result<Self> {
         let project = db::projects::get(pool, project_id).await?.ok_or_else(|| {
             AppError::not_found("project_id", format!("project {project_id} does not exist"))
         })?;
@@ -50,29 +52,39 @@ impl Shared {
         })
     }
 
-    fn judge(
-        &mut self,
-        lot: db::lots::Lot,
-        tests: Vec<db::field_tests::FieldTest>,
-    ) -> Result<LotReport> {
-        let id = lot.id;
-        let missing = |what: &str| anyhow::anyhow!("lot {id} refers to a missing {what}");
+    /// The clause, source and lab test a lot is judged by.
+    pub fn rules_of(
+        &self,
+        lot: &db::lots::Lot,
+    ) -> Result<(
+        db::clauses::Clause,
+        db::sources::Source,
+        db::lab_tests::LabTest,
+    )> {
+        let missing = |what: &str| anyhow::anyhow!("lot {} refers to a missing {what}", lot.id);
         let clause = self
             .clauses
             .get(&lot.clause_id)
-            .cloned()
             .ok_or_else(|| missing("clause"))?;
         let source = self
             .sources
             .get(&lot.source_id)
-            .cloned()
             .ok_or_else(|| missing("source"))?;
         let lab = self
             .labs
             .get(&lot.lab_test_id)
-            .cloned()
             .ok_or_else(|| missing("lab test"))?;
-        let certificate = self.certificates.remove(&id);
+        Ok((clause.clone(), source.clone(), lab.clone()))
+    }
+
+    /// Judges one lot from its tests (each lot once: its certificate is handed over).
+    pub fn judge(
+        &mut self,
+        lot: db::lots::Lot,
+        tests: Vec<db::field_tests::FieldTest>,
+    ) -> Result<LotReport> {
+        let (clause, source, lab) = self.rules_of(&lot)?;
+        let certificate = self.certificates.remove(&lot.id);
         lot_report::assemble(
             lot,
             self.project.clone(),
@@ -98,7 +110,7 @@ pub async fn each_report(
     keep_lines: bool,
     mut each: impl FnMut(LotReport) -> Result<()>,
 ) -> Result<()> {
-    let mut shared = Shared::load(pool, project_id).await?;
+    let mut shared = ProjectRows::load(pool, project_id).await?;
     let lots = db::lots::list(
         pool,
         project_id,
@@ -125,7 +137,7 @@ pub async fn each_report(
         }
         Ok(())
     };
-    let finish = |shared: &mut Shared,
+    let finish = |shared: &mut ProjectRows,
                   rows: &mut HashMap<i64, db::lots::Lot>,
                   done: &mut Vec<Option<LotReport>>,
                   lot_id: i64,

@@ -2,7 +2,6 @@
 //! where needed) and JSON, with the test list's filters. Writers stream to any
 //! `std::io::Write`; every number comes judged from `crate::ledger`.
 
-use std::collections::HashMap;
 use std::io::Write;
 
 use serde::{Deserialize, Serialize};
@@ -10,8 +9,8 @@ use serde_json::{Value, json};
 
 use crate::db::{self, Pool};
 use crate::error::{AppError, Result};
-use crate::ledger::lot_report::{self, LotReport, TestLine};
-use crate::ledger::{setup, validate};
+use crate::ledger::lot_report::{LotReport, TestLine};
+use crate::ledger::{overview, setup, validate};
 use crate::present::Units;
 use crate::reduction::Chainage;
 
@@ -94,7 +93,7 @@ impl ExportFilter {
             || self.date_from.as_ref().is_some_and(|d| day < *d)
             || self.date_to.as_ref().is_some_and(|d| day > *d)
             || self.method.as_ref().is_some_and(|m| t.method != *m)
-            || self.verdict.as_ref().is_some_and(|v| result_of(line) != v))
+            || self.verdict.as_ref().is_some_and(|v| line.result() != v))
     }
 
     /// True when a lot passes the filters (chainage overlap, layer, state as shown).
@@ -107,16 +106,6 @@ impl ExportFilter {
                 .chainage_to_m
                 .is_some_and(|m| r.lot.chainage_from_m > m)
             || self.verdict.as_ref().is_some_and(|v| r.display_state != *v))
-    }
-}
-
-/// A test's result as listed: pass, fail, void or superseded.
-pub fn result_of(l: &TestLine) -> &'static str {
-    match l.standing.as_str() {
-        "voided" => "void",
-        "superseded" => "superseded",
-        _ if l.passed => "pass",
-        _ => "fail",
     }
 }
 
@@ -190,7 +179,7 @@ fn test_fields(units: &Units, r: &LotReport, line: &TestLine) -> [String; 28] {
         opt(line.reference_omc_pct, 2),
         opt(line.relative_compaction_pct, 2),
         opt(line.moisture_deviation_pct, 2),
-        result_of(line).to_string(),
+        line.result().to_string(),
         line.retest_of_number.clone().unwrap_or_default(),
         line.superseded_by.clone().unwrap_or_default(),
         t.void_reason.clone().unwrap_or_default(),
@@ -240,7 +229,7 @@ pub fn test_object(units: &Units, r: &LotReport, line: &TestLine) -> Value {
         "relative_compaction_pct": line.relative_compaction_pct,
         "moisture_deviation_pct": line.moisture_deviation_pct,
         "passed": line.passed,
-        "result": result_of(line),
+        "result": line.result(),
         "retest_of": line.retest_of_number,
         "superseded_by": line.superseded_by,
         "void_reason": t.void_reason,
@@ -564,51 +553,11 @@ pub async fn export<W: Write>(
     )
     .await?;
     // What every lot shares is read once; per lot only its tests are.
-    let clauses: HashMap<i64, _> = db::clauses::list(pool, project_id)
-        .await?
-        .into_iter()
-        .map(|c| (c.id, c))
-        .collect();
-    let sources: HashMap<i64, _> = db::sources::list(pool, project_id)
-        .await?
-        .into_iter()
-        .map(|s| (s.id, s))
-        .collect();
-    let labs: HashMap<i64, _> = db::lab_tests::list_for_project(pool, project_id)
-        .await?
-        .into_iter()
-        .map(|l| (l.id, l))
-        .collect();
-    let mut certificates: HashMap<i64, db::certificates::Certificate> = HashMap::new();
-    for c in db::certificates::for_project(pool, project_id).await? {
-        if c.superseded_at.is_none() {
-            certificates.insert(c.lot_id, c);
-        }
-    }
+    let mut rows = overview::ProjectRows::load(pool, project_id).await?;
     let mut w = ExportWriter::new(kind, units, f, out)?;
     for lot in lots {
-        let missing = |what: &str| anyhow::anyhow!("lot {} refers to a missing {what}", lot.id);
-        let clause = clauses
-            .get(&lot.clause_id)
-            .ok_or_else(|| missing("clause"))?;
-        let source = sources
-            .get(&lot.source_id)
-            .ok_or_else(|| missing("source"))?;
-        let lab = labs
-            .get(&lot.lab_test_id)
-            .ok_or_else(|| missing("lab test"))?;
         let tests = db::field_tests::for_lot(pool, lot.id).await?;
-        let certificate = certificates.remove(&lot.id);
-        let report = lot_report::assemble(
-            lot,
-            p.clone(),
-            clause.clone(),
-            source.clone(),
-            lab.clone(),
-            tests,
-            certificate,
-        )?;
-        w.lot(&report)?;
+        w.lot(&rows.judge(lot, tests)?)?;
     }
     w.finish()
 }

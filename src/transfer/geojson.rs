@@ -9,7 +9,7 @@ use std::io::Write;
 
 use serde_json::{Value, json};
 
-use super::export::{ExportFilter, result_of};
+use super::export::ExportFilter;
 use crate::error::Result;
 use crate::ledger::lot_report::{LotReport, TestLine};
 use crate::present::Units;
@@ -36,7 +36,7 @@ pub fn feature(units: &Units, r: &LotReport, line: &TestLine) -> Option<Value> {
             "water_content_pct": t.water_content_pct,
             "relative_compaction_pct": line.relative_compaction_pct,
             "moisture_deviation_pct": line.moisture_deviation_pct,
-            "result": result_of(line),
+            "result": line.result(),
             "retest_of": line.retest_of_number,
         }
     }))

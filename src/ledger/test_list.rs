@@ -1,0 +1,176 @@
+//! The test list: a project's judged tests under the list's filters, newest first.
+
+use serde::Deserialize;
+
+use super::lot_report::{LotReport, TestLine};
+use super::overview;
+use crate::error::AppError;
+use crate::present::Units;
+use crate::reduction::Chainage;
+
+/// The filters as typed (all optional).
+#[derive(Debug, Default, Clone, Deserialize)]
+#[serde(default)]
+pub struct Filters {
+    pub from: String,
+    pub to: String,
+    pub layer: String,
+    pub date_from: String,
+    pub date_to: String,
+    pub method: String,
+    pub verdict: String,
+}
+
+impl Filters {
+    /// The query string that reproduces these filters.
+    pub fn query(&self) -> String {
+        let mut s = form_urlencoded::Serializer::new(String::new());
+        for (k, v) in [
+            ("from", &self.from),
+            ("to", &self.to),
+            ("layer", &self.layer),
+            ("date_from", &self.date_from),
+            ("date_to", &self.date_to),
+            ("method", &self.method),
+            ("verdict", &self.verdict),
+        ] {
+            if !v.is_empty() {
+                s.append_pair(k, v);
+            }
+        }
+        s.finish()
+    }
+}
+
+/// A test with its lot, as listed.
+pub struct Listed {
+    pub lot: crate::db::lots::Lot,
+    pub line: TestLine,
+}
+
+/// Newest first, as the list shows them.
+fn newest_first(a: &Listed, b: &Listed) -> std::cmp::Ordering {
+    b.line
+        .test
+        .tested_at
+        .cmp(&a.line.test.tested_at)
+        .then(b.line.test.id.cmp(&a.line.test.id))
+}
+
+/// Applies the filters to every judged test of the project, newest first; returns the
+/// first `limit` selected (all when `None`) and how many were selected in all.
+///
+/// Lots are judged one at a time and only selected lines are kept (at most about
+/// twice `limit` of them), so a large project's list does not hold the project.
+pub async fn select(
+    pool: &crate::db::Pool,
+    project_id: i64,
+    f: &Filters,
+    u: &Units,
+    limit: Option<usize>,
+) -> Result<(Vec<Listed>, usize), AppError> {
+    let ch = |field: &str, v: &str| -> Result<Option<f64>, AppError> {
+        if v.trim().is_empty() {
+            return Ok(None);
+        }
+        Chainage::parse(v.trim(), u.chainage)
+            .map(|c| Some(c.metres()))
+            .map_err(|e| AppError::invalid(field, e.to_string()))
+    };
+    let from = ch("from", &f.from)?;
+    let to = ch("to", &f.to)?;
+    let date = |field: &str, v: &str| -> Result<Option<String>, AppError> {
+        if v.trim().is_empty() {
+            Ok(None)
+        } else {
+            crate::ledger::validate::date(field, v).map(Some)
+        }
+    };
+    let d_from = date("date_from", &f.date_from)?;
+    let d_to = date("date_to", &f.date_to)?;
+    let layer: Option<i64> = if f.layer.is_empty() {
+        None
+    } else {
+        Some(
+            f.layer
+                .parse()
+                .map_err(|_| AppError::invalid("layer", "choose a layer from the list"))?,
+        )
+    };
+    if let Some(n) = limit
+        && f.verdict.is_empty()
+    {
+        // Without a verdict filter the database picks the newest tests; only their lots
+        // are judged (a whole pass would judge every lot of the project).
+        let next_day = |d: &String| -> Result<String, AppError> {
+            let fmt = time::macros::format_description!("[year]-[month]-[day]");
+            let day = time::Date::parse(d, &fmt)
+                .map_err(|_| AppError::invalid("date_to", "not a date like 2026-12-01"))?;
+            Ok(day.next_day().unwrap_or(day).to_string())
+        };
+        let filter = crate::db::field_tests::TestFilter {
+            lot_id: None,
+            layer_id: layer,
+            chainage_from_m: from,
+            chainage_to_m: to,
+            tested_from: d_from,
+            tested_before: d_to.as_ref().map(next_day).transpose()?,
+            method: (!f.method.is_empty()).then(|| f.method.clone()),
+            limit: i64::try_from(n).unwrap_or(i64::MAX),
+            offset: 0,
+        };
+        let total = crate::db::field_tests::count_matching(pool, project_id, &filter).await?;
+        let newest = crate::db::field_tests::list(pool, project_id, &filter).await?;
+        let mut lots: std::collections::HashMap<i64, LotReport> = Default::default();
+        let mut out = Vec::with_capacity(newest.len());
+        for t in &newest {
+            if let std::collections::hash_map::Entry::Vacant(e) = lots.entry(t.lot_id) {
+                e.insert(crate::ledger::lot_report::build(pool, t.lot_id).await?);
+            }
+            let r = &lots[&t.lot_id];
+            if let Some(line) = r.tests.iter().find(|l| l.test.id == t.id) {
+                out.push(Listed {
+                    lot: r.lot.clone(),
+                    line: line.clone(),
+                });
+            }
+        }
+        return Ok((out, usize::try_from(total).unwrap_or(0)));
+    }
+    let mut out = Vec::new();
+    let mut total = 0usize;
+    let keep = |lot: &crate::db::lots::Lot| layer.is_none_or(|l| l == lot.layer_id);
+    overview::each_report(pool, project_id, keep, true, |r: LotReport| {
+        for line in r.tests {
+            let t = &line.test;
+            let day = crate::clock::date_of(&t.tested_at);
+            if from.is_some_and(|m| t.chainage_m < m)
+                || to.is_some_and(|m| t.chainage_m > m)
+                || d_from.as_ref().is_some_and(|d| day < *d)
+                || d_to.as_ref().is_some_and(|d| day > *d)
+                || (!f.method.is_empty() && t.method != f.method)
+                || (!f.verdict.is_empty() && line.result() != f.verdict)
+            {
+                continue;
+            }
+            total += 1;
+            out.push(Listed {
+                lot: r.lot.clone(),
+                line,
+            });
+            if let Some(n) = limit
+                && out.len() >= 2 * n.max(1)
+            {
+                out.sort_by(newest_first);
+                out.truncate(n);
+            }
+        }
+        Ok(())
+    })
+    .await?;
+    out.sort_by(newest_first);
+    if let Some(n) = limit {
+        out.truncate(n);
+    }
+    Ok((out, total))
+}
