@@ -155,6 +155,20 @@ async fn lift_map_lists_every_lot_with_a_state_mark_and_zooms() {
     assert_eq!(s, 422);
 }
 
+/// The demo's invented names reach the pages and the API as loaded from demo-data/project.json.
+#[tokio::test]
+async fn demo_loads_with_its_coined_names() {
+    let app = spawn_demo().await;
+    let (_, project) = app.get("/api/v1/projects/1").await;
+    assert_eq!(project["client"], "Orlenvade County Highways");
+    let (s, html) = page(&app, "/lab-tests/1").await;
+    assert_eq!(s, 200);
+    assert!(html.contains("Brenquist borrow pit 2"), "source of BP2-S1");
+    let (s, html) = page(&app, "/lab-tests/3").await;
+    assert_eq!(s, 200);
+    assert!(html.contains("Tarrowvane cutting C3"), "source of C3-M1");
+}
+
 #[tokio::test]
 async fn curve_sheet_plots_lab_points_and_field_tests() {
     let app = spawn_demo().await;
