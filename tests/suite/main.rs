@@ -10,6 +10,7 @@ mod certificates;
 mod concurrency;
 mod import_page;
 mod openapi;
+mod operations;
 mod pages;
 mod restart;
 mod shared_postgres;
