@@ -138,10 +138,7 @@ async fn main() -> anyhow::Result<()> {
             if let Some(metrics_addr) = a.metrics_addr {
                 liftledger::metrics::install()?;
                 let listener = liftledger::metrics::bind(metrics_addr).await?;
-                println!(
-                    "metrics at http://{}/metrics",
-                    listener.local_addr()?
-                );
+                println!("metrics at http://{}/metrics", listener.local_addr()?);
                 tokio::spawn(liftledger::metrics::serve(listener, pool.clone()));
             }
             let listener = tokio::net::TcpListener::bind(a.addr)

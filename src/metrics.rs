@@ -69,16 +69,30 @@ pub fn install() -> anyhow::Result<()> {
 
 fn describe() {
     use ::metrics::{Unit, describe_counter, describe_gauge, describe_histogram};
-    describe_counter!(HTTP_REQUESTS, "Requests answered, by route template and status.");
+    describe_counter!(
+        HTTP_REQUESTS,
+        "Requests answered, by route template and status."
+    );
     describe_histogram!(HTTP_DURATION, Unit::Seconds, "Time to answer a request.");
     describe_gauge!(POOL_CONNECTIONS, "Database pool connections by state.");
     describe_gauge!(POOL_MAX, "Largest number of connections the pool opens.");
     describe_histogram!(GROUP_SIZE, "Field tests written by one group commit.");
     describe_counter!(FIELD_TESTS, "Field tests stored, by how they came.");
     describe_counter!(CERTIFICATES, "End-of-lift certificates issued.");
-    describe_counter!(FAILED_SIGN_INS, "Sign-ins refused for a wrong name or password.");
-    describe_gauge!(BACKUP_TIME, Unit::Seconds, "When the last good backup was taken.");
-    describe_gauge!(BACKUP_AGE, Unit::Seconds, "Seconds since the last good backup.");
+    describe_counter!(
+        FAILED_SIGN_INS,
+        "Sign-ins refused for a wrong name or password."
+    );
+    describe_gauge!(
+        BACKUP_TIME,
+        Unit::Seconds,
+        "When the last good backup was taken."
+    );
+    describe_gauge!(
+        BACKUP_AGE,
+        Unit::Seconds,
+        "Seconds since the last good backup."
+    );
 }
 
 /// True once the recorder is installed.
@@ -157,7 +171,8 @@ pub fn render(pool: &Pool) -> String {
     };
     let size = pool.size();
     let idle = u32::try_from(pool.num_idle()).unwrap_or(size);
-    ::metrics::gauge!(POOL_CONNECTIONS, "state" => "in_use").set(f64::from(size.saturating_sub(idle)));
+    ::metrics::gauge!(POOL_CONNECTIONS, "state" => "in_use")
+        .set(f64::from(size.saturating_sub(idle)));
     ::metrics::gauge!(POOL_CONNECTIONS, "state" => "idle").set(f64::from(idle));
     ::metrics::gauge!(POOL_MAX).set(f64::from(pool.options().get_max_connections()));
     let backup = LAST_GOOD_BACKUP.load(Ordering::Relaxed);
@@ -171,14 +186,15 @@ pub fn render(pool: &Pool) -> String {
 
 /// The router of the metrics listener: `GET /metrics`.
 pub fn router(pool: Pool) -> Router {
-    Router::new()
-        .route("/metrics", get(page))
-        .with_state(pool)
+    Router::new().route("/metrics", get(page)).with_state(pool)
 }
 
 async fn page(State(pool): State<Pool>) -> impl IntoResponse {
     (
-        [(header::CONTENT_TYPE, "text/plain; version=0.0.4; charset=utf-8")],
+        [(
+            header::CONTENT_TYPE,
+            "text/plain; version=0.0.4; charset=utf-8",
+        )],
         render(&pool),
     )
 }

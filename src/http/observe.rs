@@ -32,10 +32,7 @@ pub async fn observe(req: Request, next: Next) -> Response {
     let span = tracing::info_span!("request", request_id = %id, method = %method, path = %path);
     let started = Instant::now();
     let header = HeaderValue::from_str(id.as_str()).ok();
-    let mut response = id
-        .scope(next.run(req))
-        .instrument(span.clone())
-        .await;
+    let mut response = id.scope(next.run(req)).instrument(span.clone()).await;
     let elapsed = started.elapsed();
     let status = response.status().as_u16();
     let latency_ms = elapsed.as_secs_f64() * 1000.0;

@@ -105,8 +105,14 @@ mod tests {
         for (id, kept, why) in cases {
             assert_eq!(RequestId::parse(id).is_some(), kept, "{why}: {id:?}");
         }
-        assert!(RequestId::parse(&"a".repeat(MAX_LEN)).is_some(), "64 characters");
-        assert!(RequestId::parse(&"a".repeat(MAX_LEN + 1)).is_none(), "65 characters");
+        assert!(
+            RequestId::parse(&"a".repeat(MAX_LEN)).is_some(),
+            "64 characters"
+        );
+        assert!(
+            RequestId::parse(&"a".repeat(MAX_LEN + 1)).is_none(),
+            "65 characters"
+        );
     }
 
     #[test]

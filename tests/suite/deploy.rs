@@ -45,7 +45,10 @@ fn assert_known_variables(example: &str, text: &str) {
             );
         }
     }
-    assert!(seen > 0, "{example} configures liftledger through its environment");
+    assert!(
+        seen > 0,
+        "{example} configures liftledger through its environment"
+    );
 }
 
 #[test]
@@ -58,7 +61,10 @@ fn the_systemd_unit_verifies() {
     };
     let dir = tempfile::tempdir().unwrap();
     // verify checks that ExecStart names an executable: use the binary just built.
-    let unit = unit.replace("/usr/local/bin/liftledger", env!("CARGO_BIN_EXE_liftledger"));
+    let unit = unit.replace(
+        "/usr/local/bin/liftledger",
+        env!("CARGO_BIN_EXE_liftledger"),
+    );
     let path = dir.path().join("liftledger.service");
     std::fs::write(&path, unit).unwrap();
     let out = Command::new(analyze)
@@ -93,14 +99,20 @@ fn the_nginx_example_passes_nginx_t() {
     let dir = tempfile::tempdir().unwrap();
     let (cert, key) = (dir.path().join("cert.pem"), dir.path().join("key.pem"));
     let made = Command::new(openssl)
-        .args(["req", "-x509", "-newkey", "rsa:2048", "-nodes", "-days", "1"])
+        .args([
+            "req", "-x509", "-newkey", "rsa:2048", "-nodes", "-days", "1",
+        ])
         .args(["-subj", "/CN=qc.example.org", "-keyout"])
         .arg(&key)
         .arg("-out")
         .arg(&cert)
         .output()
         .unwrap();
-    assert!(made.status.success(), "{}", String::from_utf8_lossy(&made.stderr));
+    assert!(
+        made.status.success(),
+        "{}",
+        String::from_utf8_lossy(&made.stderr)
+    );
     let site = site
         .replace("/etc/ssl/certs/qc.example.org.pem", cert.to_str().unwrap())
         .replace("/etc/ssl/private/qc.example.org.key", key.to_str().unwrap());

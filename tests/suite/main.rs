@@ -8,6 +8,7 @@ mod bad_input;
 mod calculators;
 mod certificates;
 mod concurrency;
+mod deploy;
 mod import_page;
 mod openapi;
 mod operations;
