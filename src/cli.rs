@@ -10,6 +10,18 @@ use clap::{Parser, Subcommand};
 pub struct Cli {
     #[command(subcommand)]
     pub command: Command,
+    /// Log lines as text for people, or one JSON object per line for log shippers.
+    #[arg(long, global = true, env = "LIFTLEDGER_LOG_FORMAT", value_enum, default_value_t = LogFormat::Text)]
+    pub log_format: LogFormat,
+}
+
+/// How log lines are written (to standard output).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum LogFormat {
+    /// One readable line per event, with the request's span fields in front.
+    Text,
+    /// One JSON object per line; the request's fields (`request_id`, …) under `span`.
+    Json,
 }
 
 /// What to do.
@@ -124,4 +136,8 @@ pub struct ServeArgs {
     /// Mark the session cookie Secure (set this when users reach the service over HTTPS).
     #[arg(long, env = "LIFTLEDGER_SECURE_COOKIES")]
     pub secure_cookies: bool,
+    /// Serve Prometheus metrics at http://ADDR/metrics on this separate (private) address;
+    /// off when not given.
+    #[arg(long, env = "LIFTLEDGER_METRICS_ADDR")]
+    pub metrics_addr: Option<SocketAddr>,
 }

@@ -4,6 +4,9 @@
 //! that cannot be read at all (400), `NotFound` (404), `Conflict` for a request
 //! the current state refuses (409, with the reasons listed), and let anything
 //! else become `Internal`: logged in full, answered with a generic 500.
+//!
+//! The JSON body is `{"error": {"field", "message", "reasons"?, "request_id"}}`; the
+//! request id is the one on the request's log lines and its `X-Request-Id` header.
 
 use axum::Json;
 use axum::http::StatusCode;
@@ -158,6 +161,11 @@ impl IntoResponse for AppError {
         let mut body = json!({"field": self.field(), "message": self.user_message()});
         if !self.reasons().is_empty() {
             body["reasons"] = json!(self.reasons());
+        }
+        // The id of the request being served (also in its log lines and `X-Request-Id`),
+        // so a user's report leads to the server's log.
+        if let Some(id) = crate::http::request_id::RequestId::current() {
+            body["request_id"] = json!(id.as_str());
         }
         let mut response = (self.status(), Json(json!({ "error": body }))).into_response();
         if let Self::TooManyRequests {

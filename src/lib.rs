@@ -13,6 +13,7 @@ pub mod demo;
 pub mod error;
 pub mod http;
 pub mod ledger;
+pub mod metrics;
 pub mod pdf;
 pub mod present;
 pub mod reduction;

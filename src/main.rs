@@ -4,19 +4,16 @@ use anyhow::Context;
 use clap::Parser;
 use std::io::BufRead;
 
-use liftledger::cli::{Cli, Command, UserCommand};
+use liftledger::cli::{Cli, Command, LogFormat, UserCommand};
 use liftledger::ledger::{Actor, accounts};
 use liftledger::{AppState, Settings, db, demo};
 use tracing_subscriber::EnvFilter;
 
 #[tokio::main]
 async fn main() -> anyhow::Result<()> {
-    tracing_subscriber::fmt()
-        .with_env_filter(
-            EnvFilter::try_from_default_env().unwrap_or_else(|_| EnvFilter::new("info")),
-        )
-        .init();
-    match Cli::parse().command {
+    let cli = Cli::parse();
+    init_logs(cli.log_format);
+    match cli.command {
         Command::Migrate(a) => {
             db::connect(&a.location()).await?;
             println!("database {} is up to date", a.location().redacted());
@@ -138,6 +135,12 @@ async fn main() -> anyhow::Result<()> {
                     "new database: sign in as 'admin' with password {password} (shown once; change it)"
                 );
             }
+            if let Some(metrics_addr) = a.metrics_addr {
+                liftledger::metrics::install()?;
+                let listener = liftledger::metrics::bind(metrics_addr).await?;
+                println!("metrics at http://{}/metrics", listener.local_addr()?);
+                tokio::spawn(liftledger::metrics::serve(listener, pool.clone()));
+            }
             let listener = tokio::net::TcpListener::bind(a.addr)
                 .await
                 .with_context(|| format!("binding {}", a.addr))?;
@@ -159,6 +162,22 @@ async fn main() -> anyhow::Result<()> {
         }
     }
     Ok(())
+}
+
+/// Log lines on standard output, filtered by `RUST_LOG` (default `info`); every line
+/// written while serving a request carries that request's span (its `request_id`).
+fn init_logs(format: LogFormat) {
+    let filter = EnvFilter::try_from_default_env().unwrap_or_else(|_| EnvFilter::new("info"));
+    let logs = tracing_subscriber::fmt().with_env_filter(filter);
+    match format {
+        LogFormat::Text => logs.init(),
+        LogFormat::Json => logs
+            .json()
+            .flatten_event(true)
+            .with_current_span(true)
+            .with_span_list(false)
+            .init(),
+    }
 }
 
 /// Resolves on Ctrl-C or SIGTERM so in-flight requests finish before exit.

@@ -12,6 +12,7 @@ pub mod certificates;
 pub mod clauses;
 pub mod copy;
 pub mod field_tests;
+pub mod health;
 pub mod lab_tests;
 pub mod layers;
 pub mod lots;
@@ -159,13 +160,22 @@ pub async fn connect(location: &Location) -> anyhow::Result<Pool> {
     Ok(pool)
 }
 
+/// The migrations embedded in this build for an engine.
+pub fn migrator(engine: Engine) -> &'static sqlx::migrate::Migrator {
+    static SQLITE: sqlx::migrate::Migrator = sqlx::migrate!("./migrations/sqlite");
+    static POSTGRES: sqlx::migrate::Migrator = sqlx::migrate!("./migrations/postgres");
+    match engine {
+        Engine::Sqlite => &SQLITE,
+        Engine::Postgres => &POSTGRES,
+    }
+}
+
 /// Applies the embedded migrations of the pool's engine that are not yet applied.
 pub async fn migrate(pool: &Pool) -> anyhow::Result<()> {
-    match engine_of(pool) {
-        Engine::Sqlite => sqlx::migrate!("./migrations/sqlite").run(pool).await,
-        Engine::Postgres => sqlx::migrate!("./migrations/postgres").run(pool).await,
-    }
-    .context("running database migrations")?;
+    migrator(engine_of(pool))
+        .run(pool)
+        .await
+        .context("running database migrations")?;
     Ok(())
 }
 

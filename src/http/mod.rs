@@ -1,9 +1,13 @@
-//! The HTTP edge: routes, extractors and middleware.
+//! The HTTP edge: routes, extractors and middleware (request ids, access log and
+//! request metrics in `observe`).
 
 pub mod api;
 pub mod caller;
 pub mod extract;
+pub mod health;
+mod observe;
 pub mod pages;
+pub mod request_id;
 mod same_origin;
 pub mod upload;
 
@@ -14,7 +18,6 @@ use axum::http::{HeaderValue, StatusCode, header};
 use tower_http::limit::RequestBodyLimitLayer;
 use tower_http::set_header::SetResponseHeaderLayer;
 use tower_http::timeout::TimeoutLayer;
-use tower_http::trace::TraceLayer;
 
 use crate::app::AppState;
 use crate::error::AppError;
@@ -31,6 +34,7 @@ pub fn router(state: AppState) -> Router {
     Router::new()
         .merge(api::router())
         .merge(pages::router())
+        .merge(health::router())
         .layer(RequestBodyLimitLayer::new(MAX_BODY_BYTES))
         // Imports carry whole files; only they get the larger limit.
         .merge(
@@ -62,7 +66,9 @@ pub fn router(state: AppState) -> Router {
             header::REFERRER_POLICY,
             HeaderValue::from_static("same-origin"),
         ))
-        .layer(TraceLayer::new_for_http())
+        // Outermost, so the id, the log line and the metrics cover every answer,
+        // the timeout's and the same-origin refusal's included.
+        .layer(axum::middleware::from_fn(observe::observe))
 }
 
 async fn not_found(uri: axum::http::Uri) -> AppError {

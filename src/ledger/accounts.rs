@@ -217,6 +217,7 @@ pub async fn sign_in(
         )
         .await?;
         tx.commit().await?;
+        crate::metrics::sign_in_failed();
         return Err(AppError::unauthorized("user name or password is wrong"));
     };
     users::clear_failures(pool, &user_key).await?;

@@ -427,7 +427,17 @@ async fn store(
     let mut tx = db::begin_write(pool).await?;
     let record = store_in(&mut tx, checked.record, actor, action).await?;
     tx.commit().await?;
+    crate::metrics::field_tests_recorded(test_source(action), 1);
     Ok(record)
+}
+
+/// The metrics label of a store action ("retest", else an entry).
+pub(crate) fn test_source(action: &str) -> crate::metrics::TestSource {
+    if action == "retest" {
+        crate::metrics::TestSource::Retest
+    } else {
+        crate::metrics::TestSource::Entry
+    }
 }
 
 /// Writes one checked test and its audit row inside a write transaction (the caller's

@@ -926,6 +926,7 @@ pub async fn import_field_tests(
     )
     .await?;
     tx.commit().await?;
+    crate::metrics::field_tests_recorded(crate::metrics::TestSource::Import, report.new_tests);
     report.committed = true;
     report.elapsed_ms = started.elapsed().as_millis() as u64;
     Ok(report)

@@ -207,6 +207,7 @@ pub async fn accept(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> R
     }
     issue_certificate(&mut tx, &report, &comment, actor, &now).await?;
     tx.commit().await?;
+    crate::metrics::certificate_issued();
     lot_report::build(pool, lot_id).await
 }
 

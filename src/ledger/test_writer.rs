@@ -104,6 +104,12 @@ async fn write_group(pool: &Pool, group: Vec<Pending>) {
     .await;
     match written {
         Ok(()) => {
+            crate::metrics::test_group_written(group.len());
+            for (p, r) in group.iter().zip(&results) {
+                if r.is_ok() {
+                    crate::metrics::field_tests_recorded(super::field::test_source(p.action), 1);
+                }
+            }
             for (p, r) in group.into_iter().zip(results) {
                 let _ = p.reply.send(r);
             }

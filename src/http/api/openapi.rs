@@ -364,7 +364,7 @@ fn schemas() -> Value {
     let s = json!({"type": "string"});
     let int = json!({"type": "integer"});
     json!({
-        "Error": obj(&["error"], json!({"error": obj(&["field", "message"], json!({"field": s, "message": s, "reasons": {"type": "array", "items": s}}))})),
+        "Error": obj(&["error"], json!({"error": obj(&["field", "message"], json!({"field": s, "message": s, "reasons": {"type": "array", "items": s}, "request_id": s}))})),
         "ProjectInput": obj(&["code", "name"], json!({"code": s, "name": s, "contract": s, "client": s, "contractor": s,
             "unit_system": {"enum": ["si", "us"]}, "chainage_style": {"enum": ["km_metre", "feet_station"]}})),
         "ClauseInput": obj(&["code", "rc_min_pct", "moisture_below_pct", "moisture_above_pct", "effort", "rule", "min_tests_per_lot"],

@@ -101,6 +101,8 @@ struct ErrorPage {
     title: String,
     message: String,
     reasons: Vec<String>,
+    /// The request's id, as in its log lines.
+    request_id: Option<String>,
 }
 
 impl IntoResponse for PageError {
@@ -122,6 +124,7 @@ impl IntoResponse for PageError {
                 format!("{}: {}", e.field(), e.user_message())
             },
             reasons: e.reasons().to_vec(),
+            request_id: crate::http::request_id::RequestId::current().map(|id| id.to_string()),
         };
         match page.render() {
             Ok(html) => (status, Html(html)).into_response(),
