@@ -17,7 +17,8 @@ pub struct Mould {
     pub created_by: String,
 }
 
-const COLUMNS: &str = "id, project_id, code, volume_cm3, mass_g, calibrated_on, created_at, created_by";
+const COLUMNS: &str =
+    "id, project_id, code, volume_cm3, mass_g, calibrated_on, created_at, created_by";
 
 /// Inserts a mould; `id` is ignored.
 pub async fn insert(tx: &mut Tx<'_>, m: &Mould) -> sqlx::Result<Mould> {

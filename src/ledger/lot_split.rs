@@ -36,21 +36,33 @@ fn one() -> i64 {
 }
 
 /// The lots a split would make, each checked; nothing is written.
-pub async fn plan(pool: &Pool, project_id: i64, input: &SplitInput) -> Result<Vec<db::lots::NewLot>> {
-    let pieces = split_range(input.chainage_from_m, input.chainage_to_m, input.every_m).map_err(|e| {
-        let field = match e {
-            crate::reduction::split::SplitError::Empty => "chainage_to_m",
-            _ => "every_m",
-        };
-        AppError::invalid(field, e.to_string())
-    })?;
+pub async fn plan(
+    pool: &Pool,
+    project_id: i64,
+    input: &SplitInput,
+) -> Result<Vec<db::lots::NewLot>> {
+    let pieces =
+        split_range(input.chainage_from_m, input.chainage_to_m, input.every_m).map_err(|e| {
+            let field = match e {
+                crate::reduction::split::SplitError::Empty => "chainage_to_m",
+                _ => "every_m",
+            };
+            AppError::invalid(field, e.to_string())
+        })?;
     if !(0..=99_999).contains(&input.first_number) {
-        return Err(AppError::invalid("first_number", "must be between 0 and 99999"));
+        return Err(AppError::invalid(
+            "first_number",
+            "must be between 0 and 99999",
+        ));
     }
     let mut lots = Vec::with_capacity(pieces.len());
     for (i, (from, to)) in pieces.into_iter().enumerate() {
         let lot = LotInput {
-            code: format!("{}{}", input.code_prefix.trim(), input.first_number + i as i64),
+            code: format!(
+                "{}{}",
+                input.code_prefix.trim(),
+                input.first_number + i as i64
+            ),
             layer_id: input.layer_id,
             chainage_from_m: from,
             chainage_to_m: to,
@@ -59,7 +71,11 @@ pub async fn plan(pool: &Pool, project_id: i64, input: &SplitInput) -> Result<Ve
             clause_id: input.clause_id,
             lab_test_id: input.lab_test_id,
         };
-        lots.push(check_lot(pool, project_id, &lot).await.map_err(|e| rename_code(e, "code_prefix"))?);
+        lots.push(
+            check_lot(pool, project_id, &lot)
+                .await
+                .map_err(|e| rename_code(e, "code_prefix"))?,
+        );
     }
     refuse_overlap(pool, project_id, input, &lots).await?;
     Ok(lots)
@@ -75,7 +91,12 @@ fn rename_code(e: AppError, to: &str) -> AppError {
 }
 
 /// Refuses a split that runs over a lot the layer already has.
-async fn refuse_overlap(pool: &Pool, project_id: i64, input: &SplitInput, lots: &[db::lots::NewLot]) -> Result<()> {
+async fn refuse_overlap(
+    pool: &Pool,
+    project_id: i64,
+    input: &SplitInput,
+    lots: &[db::lots::NewLot],
+) -> Result<()> {
     let existing = db::lots::list(
         pool,
         project_id,
@@ -87,7 +108,8 @@ async fn refuse_overlap(pool: &Pool, project_id: i64, input: &SplitInput, lots: 
     )
     .await?;
     let (from, to) = (
-        lots.first().map_or(input.chainage_from_m, |l| l.chainage_from_m),
+        lots.first()
+            .map_or(input.chainage_from_m, |l| l.chainage_from_m),
         lots.last().map_or(input.chainage_to_m, |l| l.chainage_to_m),
     );
     if let Some(hit) = existing
@@ -106,7 +128,12 @@ async fn refuse_overlap(pool: &Pool, project_id: i64, input: &SplitInput, lots: 
 }
 
 /// Makes every lot of the split in one transaction; returns their ids in chainage order.
-pub async fn create(pool: &Pool, project_id: i64, input: &SplitInput, actor: &Actor) -> Result<Vec<i64>> {
+pub async fn create(
+    pool: &Pool,
+    project_id: i64,
+    input: &SplitInput,
+    actor: &Actor,
+) -> Result<Vec<i64>> {
     let lots = plan(pool, project_id, input).await?;
     let now = clock::now();
     let mut tx = db::begin_write(pool).await?;

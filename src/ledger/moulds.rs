@@ -22,7 +22,12 @@ pub struct MouldInput {
 }
 
 /// Registers a mould in a project.
-pub async fn create_mould(pool: &Pool, project_id: i64, input: &MouldInput, actor: &Actor) -> Result<db::moulds::Mould> {
+pub async fn create_mould(
+    pool: &Pool,
+    project_id: i64,
+    input: &MouldInput,
+    actor: &Actor,
+) -> Result<db::moulds::Mould> {
     super::setup::require_project(pool, project_id).await?;
     let now = clock::now();
     let mould = db::moulds::Mould {
@@ -43,7 +48,11 @@ pub async fn create_mould(pool: &Pool, project_id: i64, input: &MouldInput, acto
     let mut tx = db::begin_write(pool).await?;
     let m = db::moulds::insert(&mut tx, &mould).await.map_err(|e| {
         if db::is_unique_violation(&e) {
-            AppError::conflict("code", format!("mould {} already exists", mould.code), vec![])
+            AppError::conflict(
+                "code",
+                format!("mould {} already exists", mould.code),
+                vec![],
+            )
         } else {
             e.into()
         }

@@ -690,7 +690,12 @@ pub async fn check_lot(pool: &Pool, project_id: i64, input: &LotInput) -> Result
 }
 
 /// Writes a checked lot with its audit row inside the caller's transaction.
-pub async fn insert_lot(tx: &mut db::Tx<'_>, new: &db::lots::NewLot, actor: &Actor, now: &str) -> Result<i64> {
+pub async fn insert_lot(
+    tx: &mut db::Tx<'_>,
+    new: &db::lots::NewLot,
+    actor: &Actor,
+    now: &str,
+) -> Result<i64> {
     let id = db::lots::insert(tx, new, &actor.name, now)
         .await
         .map_err(unique("code", &format!("lot {}", new.code)))?;

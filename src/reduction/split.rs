@@ -76,20 +76,32 @@ mod tests {
         let p = split_range(1000.0, 1450.0, 100.0).expect("splits");
         assert_eq!(
             p,
-            vec![(1000.0, 1100.0), (1100.0, 1200.0), (1200.0, 1300.0), (1300.0, 1400.0), (1400.0, 1450.0)]
+            vec![
+                (1000.0, 1100.0),
+                (1100.0, 1200.0),
+                (1200.0, 1300.0),
+                (1300.0, 1400.0),
+                (1400.0, 1450.0)
+            ]
         );
     }
 
     #[test]
     fn a_sliver_remainder_joins_the_lot_before() {
         // 0–205 m every 100 m: the 5 m remainder (< 10 m) joins the second lot (hand arithmetic).
-        assert_eq!(split_range(0.0, 205.0, 100.0).expect("splits"), vec![(0.0, 100.0), (100.0, 205.0)]);
+        assert_eq!(
+            split_range(0.0, 205.0, 100.0).expect("splits"),
+            vec![(0.0, 100.0), (100.0, 205.0)]
+        );
     }
 
     #[test]
     fn nonsense_is_refused() {
         assert_eq!(split_range(100.0, 100.0, 10.0), Err(SplitError::Empty));
         assert_eq!(split_range(0.0, 100.0, 0.0), Err(SplitError::Length));
-        assert_eq!(split_range(0.0, 10_000.0, 1.0), Err(SplitError::TooMany(10_000)));
+        assert_eq!(
+            split_range(0.0, 10_000.0, 1.0),
+            Err(SplitError::TooMany(10_000))
+        );
     }
 }

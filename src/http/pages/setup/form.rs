@@ -85,7 +85,11 @@ pub fn decode(body: &[u8]) -> Values {
 }
 
 /// Turns typed values into a JSON object for the fields, or every field's problem at once.
-pub fn to_json(fields: &[Field], values: &Values, units: &Units) -> Result<Map<String, Value>, Errors> {
+pub fn to_json(
+    fields: &[Field],
+    values: &Values,
+    units: &Units,
+) -> Result<Map<String, Value>, Errors> {
     let mut out = Map::new();
     let mut errors = Errors::new();
     for f in fields {
@@ -109,13 +113,19 @@ pub fn to_json(fields: &[Field], values: &Values, units: &Units) -> Result<Map<S
             }
         }
     }
-    if errors.is_empty() { Ok(out) } else { Err(errors) }
+    if errors.is_empty() {
+        Ok(out)
+    } else {
+        Err(errors)
+    }
 }
 
 /// One value typed as its kind asks.
 fn typed(kind: &Kind, raw: &str, units: &Units) -> Result<Value, String> {
     match kind {
-        Kind::Text | Kind::Secret | Kind::TextArea | Kind::Date => Ok(Value::String(raw.to_string())),
+        Kind::Text | Kind::Secret | Kind::TextArea | Kind::Date => {
+            Ok(Value::String(raw.to_string()))
+        }
         Kind::Number => number(raw).map(Value::from),
         Kind::Integer => raw
             .parse::<i64>()
@@ -193,16 +203,29 @@ mod tests {
             Field::new("rc_min_pct", "RC", Kind::Number, true),
             Field::new("from_m", "From", Kind::Chainage, true),
             Field::new("title", "Title", Kind::Text, false),
-            Field::new("layer_id", "Layer", Kind::Record(vec![(7, "L1".into())]), true),
+            Field::new(
+                "layer_id",
+                "Layer",
+                Kind::Record(vec![(7, "L1".into())]),
+                true,
+            ),
         ];
         let body = to_json(
             &fields,
-            &values(&[("rc_min_pct", "95,5"), ("from_m", "1+250"), ("title", " "), ("layer_id", "7")]),
+            &values(&[
+                ("rc_min_pct", "95,5"),
+                ("from_m", "1+250"),
+                ("title", " "),
+                ("layer_id", "7"),
+            ]),
             &units(),
         )
         .expect("valid");
         // 1+250 in km+metre style is 1250 m (common practice for highway chainage).
-        assert_eq!(Value::Object(body), serde_json::json!({"rc_min_pct": 95.5, "from_m": 1250.0, "layer_id": 7}));
+        assert_eq!(
+            Value::Object(body),
+            serde_json::json!({"rc_min_pct": 95.5, "from_m": 1250.0, "layer_id": 7})
+        );
     }
 
     #[test]
@@ -210,8 +233,18 @@ mod tests {
         let fields = vec![
             Field::new("rc_min_pct", "RC", Kind::Number, true),
             Field::new("number", "Number", Kind::Integer, true),
-            Field::new("layer_id", "Layer", Kind::Record(vec![(7, "L1".into())]), true),
-            Field::new("rule", "Rule", Kind::Choice(vec![("every_test".into(), "Every test".into())]), true),
+            Field::new(
+                "layer_id",
+                "Layer",
+                Kind::Record(vec![(7, "L1".into())]),
+                true,
+            ),
+            Field::new(
+                "rule",
+                "Rule",
+                Kind::Choice(vec![("every_test".into(), "Every test".into())]),
+                true,
+            ),
         ];
         let errors = to_json(
             &fields,
@@ -219,18 +252,39 @@ mod tests {
             &units(),
         )
         .expect_err("invalid");
-        assert_eq!(errors.get("rc_min_pct").map(String::as_str), Some("is required"));
-        assert_eq!(errors.get("number").map(String::as_str), Some("'2.5' is not a whole number"));
-        assert_eq!(errors.get("layer_id").map(String::as_str), Some("choose one of the listed records"));
-        assert_eq!(errors.get("rule").map(String::as_str), Some("'other' is not one of the choices"));
+        assert_eq!(
+            errors.get("rc_min_pct").map(String::as_str),
+            Some("is required")
+        );
+        assert_eq!(
+            errors.get("number").map(String::as_str),
+            Some("'2.5' is not a whole number")
+        );
+        assert_eq!(
+            errors.get("layer_id").map(String::as_str),
+            Some("choose one of the listed records")
+        );
+        assert_eq!(
+            errors.get("rule").map(String::as_str),
+            Some("'other' is not one of the choices")
+        );
     }
 
     #[test]
     fn a_ledger_refusal_lands_beside_its_field_or_on_the_form() {
         let fields = vec![Field::new("code", "Code", Kind::Text, true)];
         let beside = place(&AppError::invalid("code", "already exists"), &fields);
-        assert_eq!(beside.get("code").map(String::as_str), Some("already exists"));
-        let top = place(&AppError::invalid("points[2].mass_dry_g", "is negative"), &fields);
-        assert_eq!(top.get("").map(String::as_str), Some("points[2].mass_dry_g: is negative"));
+        assert_eq!(
+            beside.get("code").map(String::as_str),
+            Some("already exists")
+        );
+        let top = place(
+            &AppError::invalid("points[2].mass_dry_g", "is negative"),
+            &fields,
+        );
+        assert_eq!(
+            top.get("").map(String::as_str),
+            Some("points[2].mass_dry_g: is negative")
+        );
     }
 }

@@ -22,11 +22,26 @@ use crate::reduction::lab::EffortPreset;
 /// Routes of this module.
 pub fn router() -> Router<AppState> {
     Router::new()
-        .route("/projects/{id}/setup/clauses/new", get(clause_form).post(clause_post))
-        .route("/projects/{id}/setup/sources/new", get(source_form).post(source_post))
-        .route("/projects/{id}/setup/moulds/new", get(mould_form).post(mould_post))
-        .route("/projects/{id}/setup/layers/new", get(layer_form).post(layer_post))
-        .route("/projects/{id}/setup/lots/new", get(lot_form).post(lot_post))
+        .route(
+            "/projects/{id}/setup/clauses/new",
+            get(clause_form).post(clause_post),
+        )
+        .route(
+            "/projects/{id}/setup/sources/new",
+            get(source_form).post(source_post),
+        )
+        .route(
+            "/projects/{id}/setup/moulds/new",
+            get(mould_form).post(mould_post),
+        )
+        .route(
+            "/projects/{id}/setup/layers/new",
+            get(layer_form).post(layer_post),
+        )
+        .route(
+            "/projects/{id}/setup/lots/new",
+            get(lot_form).post(lot_post),
+        )
 }
 
 fn hub(ctx: &Context) -> String {
@@ -48,7 +63,9 @@ fn spec(ctx: &Context, title: &str, intro: &str, path: &str, fields: Vec<Field>)
 }
 
 fn pairs(v: &[(&str, &str)]) -> Vec<(String, String)> {
-    v.iter().map(|(a, b)| (a.to_string(), b.to_string())).collect()
+    v.iter()
+        .map(|(a, b)| (a.to_string(), b.to_string()))
+        .collect()
 }
 
 /// Every effort a clause may name: the presets, a custom effort, or any.
@@ -64,13 +81,34 @@ pub fn clause_efforts() -> Vec<(String, String)> {
 
 fn clause_fields() -> Vec<Field> {
     vec![
-        Field::new("code", "Clause code", Kind::Text, true).hint("as the specification numbers it, e.g. 6.4.2"),
+        Field::new("code", "Clause code", Kind::Text, true)
+            .hint("as the specification numbers it, e.g. 6.4.2"),
         Field::new("title", "Title", Kind::Text, false),
-        Field::new("effort", "Reference effort", Kind::Choice(clause_efforts()), true)
-            .hint("lots under this clause are judged against a curve of this effort"),
-        Field::new("rc_min_pct", "Relative compaction at least (%)", Kind::Number, true),
-        Field::new("moisture_below_pct", "Moisture window, dry of optimum (points)", Kind::Number, true),
-        Field::new("moisture_above_pct", "Moisture window, wet of optimum (points)", Kind::Number, true),
+        Field::new(
+            "effort",
+            "Reference effort",
+            Kind::Choice(clause_efforts()),
+            true,
+        )
+        .hint("lots under this clause are judged against a curve of this effort"),
+        Field::new(
+            "rc_min_pct",
+            "Relative compaction at least (%)",
+            Kind::Number,
+            true,
+        ),
+        Field::new(
+            "moisture_below_pct",
+            "Moisture window, dry of optimum (points)",
+            Kind::Number,
+            true,
+        ),
+        Field::new(
+            "moisture_above_pct",
+            "Moisture window, wet of optimum (points)",
+            Kind::Number,
+            true,
+        ),
         Field::new(
             "rule",
             "Acceptance rule",
@@ -81,15 +119,45 @@ fn clause_fields() -> Vec<Field> {
             ])),
             true,
         ),
-        Field::new("allowance_pct", "Allowance below the minimum (points)", Kind::Number, false)
-            .hint("mean-and-minimum rule only"),
-        Field::new("min_pwl_pct", "Least percent within limits (%)", Kind::Number, false)
-            .hint("percent-within-limits rule only"),
-        Field::new("min_tests_per_lot", "Least tests per lot", Kind::Integer, true),
-        Field::new("area_per_test_m2", "One test per (m² of lift)", Kind::Number, false),
-        Field::new("length_per_test_m", "One test per (m of chainage)", Kind::Number, false),
-        Field::new("oversize_limit_pct", "Oversize correction up to (% coarse)", Kind::Number, false)
-            .hint("empty: the library's default"),
+        Field::new(
+            "allowance_pct",
+            "Allowance below the minimum (points)",
+            Kind::Number,
+            false,
+        )
+        .hint("mean-and-minimum rule only"),
+        Field::new(
+            "min_pwl_pct",
+            "Least percent within limits (%)",
+            Kind::Number,
+            false,
+        )
+        .hint("percent-within-limits rule only"),
+        Field::new(
+            "min_tests_per_lot",
+            "Least tests per lot",
+            Kind::Integer,
+            true,
+        ),
+        Field::new(
+            "area_per_test_m2",
+            "One test per (m² of lift)",
+            Kind::Number,
+            false,
+        ),
+        Field::new(
+            "length_per_test_m",
+            "One test per (m of chainage)",
+            Kind::Number,
+            false,
+        ),
+        Field::new(
+            "oversize_limit_pct",
+            "Oversize correction up to (% coarse)",
+            Kind::Number,
+            false,
+        )
+        .hint("empty: the library's default"),
     ]
 }
 
@@ -107,21 +175,33 @@ fn clause_spec(ctx: &Context) -> FormSpec {
 
 async fn clause_form(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
     let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
-    let defaults: Values = [("rule", "every_test"), ("min_tests_per_lot", "3"), ("rc_min_pct", "95")]
-        .iter()
-        .map(|(k, v)| (k.to_string(), v.to_string()))
-        .collect();
+    let defaults: Values = [
+        ("rule", "every_test"),
+        ("min_tests_per_lot", "3"),
+        ("rc_min_pct", "95"),
+    ]
+    .iter()
+    .map(|(k, v)| (k.to_string(), v.to_string()))
+    .collect();
     clause_spec(&ctx).blank(&defaults)
 }
 
 /// The clause as words, escaped by its own template.
 #[derive(Template)]
-#[template(source = r#"<div class="notice" id="clause-words"><h2>As it will be applied</h2><ul>{% for w in words %}<li>{{ w }}</li>{% endfor %}</ul><p>Not saved yet.</p></div>"#, ext = "html")]
+#[template(
+    source = r#"<div class="notice" id="clause-words"><h2>As it will be applied</h2><ul>{% for w in words %}<li>{{ w }}</li>{% endfor %}</ul><p>Not saved yet.</p></div>"#,
+    ext = "html"
+)]
 struct ClauseWords {
     words: Vec<String>,
 }
 
-async fn clause_post(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>, body: Bytes) -> PageResult {
+async fn clause_post(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+    body: Bytes,
+) -> PageResult {
     let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
     let spec = clause_spec(&ctx);
     let values = decode(&body);
@@ -143,7 +223,10 @@ async fn clause_post(State(s): State<AppState>, caller: Caller, Path(id): Path<i
             min_tests_per_lot: input.min_tests_per_lot,
             oversize_limit_pct: input.oversize_limit_pct,
         });
-        let html = ClauseWords { words }.render().map_err(anyhow::Error::from).map_err(crate::error::AppError::from)?;
+        let html = ClauseWords { words }
+            .render()
+            .map_err(anyhow::Error::from)
+            .map_err(crate::error::AppError::from)?;
         return crate::http::pages::render(&spec.page(&values, &Default::default(), html));
     }
     let saved = spec
@@ -179,7 +262,12 @@ async fn source_form(State(s): State<AppState>, caller: Caller, Path(id): Path<i
     source_spec(&ctx).blank(&Values::new())
 }
 
-async fn source_post(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>, body: Bytes) -> PageResult {
+async fn source_post(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+    body: Bytes,
+) -> PageResult {
     let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
     let values = decode(&body);
     let saved = source_spec(&ctx)
@@ -211,7 +299,12 @@ async fn mould_form(State(s): State<AppState>, caller: Caller, Path(id): Path<i6
     mould_spec(&ctx).blank(&Values::new())
 }
 
-async fn mould_post(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>, body: Bytes) -> PageResult {
+async fn mould_post(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+    body: Bytes,
+) -> PageResult {
     let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
     let values = decode(&body);
     let saved = mould_spec(&ctx)
@@ -230,8 +323,14 @@ fn layer_spec(ctx: &Context) -> FormSpec {
         "layers/new",
         vec![
             Field::new("zone", "Zone", Kind::Text, true),
-            Field::new("number", "Layer number", Kind::Integer, true).hint("1 is the lowest lift of the zone"),
-            Field::new("thickness_mm", "Compacted thickness (mm)", Kind::Number, false),
+            Field::new("number", "Layer number", Kind::Integer, true)
+                .hint("1 is the lowest lift of the zone"),
+            Field::new(
+                "thickness_mm",
+                "Compacted thickness (mm)",
+                Kind::Number,
+                false,
+            ),
         ],
     )
 }
@@ -241,7 +340,12 @@ async fn layer_form(State(s): State<AppState>, caller: Caller, Path(id): Path<i6
     layer_spec(&ctx).blank(&Values::new())
 }
 
-async fn layer_post(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>, body: Bytes) -> PageResult {
+async fn layer_post(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+    body: Bytes,
+) -> PageResult {
     let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
     let values = decode(&body);
     let saved = layer_spec(&ctx)
@@ -300,12 +404,32 @@ impl LotChoices {
     pub fn fields(&self, offset_unit: &str) -> Vec<Field> {
         vec![
             Field::new("layer_id", "Layer", Kind::Record(self.layers.clone()), true),
-            Field::new("offset_left_m", &format!("Left edge offset ({offset_unit})"), Kind::Number, true)
-                .hint("from the centreline, negative to the left"),
-            Field::new("offset_right_m", &format!("Right edge offset ({offset_unit})"), Kind::Number, true),
-            Field::new("clause_id", "Clause", Kind::Record(self.clauses.clone()), true),
-            Field::new("lab_test_id", "Reference lab curve", Kind::Record(self.curves.clone()), true)
-                .hint("active curves only; the clause's effort must match"),
+            Field::new(
+                "offset_left_m",
+                &format!("Left edge offset ({offset_unit})"),
+                Kind::Number,
+                true,
+            )
+            .hint("from the centreline, negative to the left"),
+            Field::new(
+                "offset_right_m",
+                &format!("Right edge offset ({offset_unit})"),
+                Kind::Number,
+                true,
+            ),
+            Field::new(
+                "clause_id",
+                "Clause",
+                Kind::Record(self.clauses.clone()),
+                true,
+            ),
+            Field::new(
+                "lab_test_id",
+                "Reference lab curve",
+                Kind::Record(self.curves.clone()),
+                true,
+            )
+            .hint("active curves only; the clause's effort must match"),
         ]
     }
 }
@@ -332,7 +456,12 @@ async fn lot_form(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>
     lot_spec(&s, &ctx).await?.blank(&Values::new())
 }
 
-async fn lot_post(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>, body: Bytes) -> PageResult {
+async fn lot_post(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+    body: Bytes,
+) -> PageResult {
     let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
     let values = decode(&body);
     let saved = lot_spec(&s, &ctx)
@@ -341,5 +470,8 @@ async fn lot_post(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>
             setup::create_lot(&s.db, id, &input, &ctx.actor).await
         })
         .await?;
-    Ok(saved.map_or_else(|refused| refused, |lot| see_other(&format!("/lots/{}", lot.id))))
+    Ok(saved.map_or_else(
+        |refused| refused,
+        |lot| see_other(&format!("/lots/{}", lot.id)),
+    ))
 }

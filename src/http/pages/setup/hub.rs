@@ -77,7 +77,9 @@ async fn rights(s: &AppState, caller: &Caller, project_id: i64) -> PageResult<Ri
         tokens: role.is_some_and(|r| allows(r, Action::ManageTokens)),
     };
     if !(r.people || r.setup || r.tokens) {
-        return Err(PageError(AppError::forbidden("only administrators and QC managers set a project up")));
+        return Err(PageError(AppError::forbidden(
+            "only administrators and QC managers set a project up",
+        )));
     }
     Ok(r)
 }
@@ -90,7 +92,8 @@ async fn hub(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> 
         .await?
         .into_iter()
         .map(|(user, name, role)| {
-            let role = crate::auth::Role::parse_code(&role).map_or(role.clone(), |r| r.label().to_string());
+            let role = crate::auth::Role::parse_code(&role)
+                .map_or(role.clone(), |r| r.label().to_string());
             format!("{name} ({user}), {role}")
         })
         .collect();
@@ -118,7 +121,11 @@ async fn hub(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> 
                     src.code,
                     src.name,
                     src.gs_fines,
-                    if active.is_empty() { "none yet".into() } else { active.join(", ") }
+                    if active.is_empty() {
+                        "none yet".into()
+                    } else {
+                        active.join(", ")
+                    }
                 ),
                 href: String::new(),
                 action_href: format!("/sources/{}/setup/lab-curves/new", src.id),
@@ -129,7 +136,12 @@ async fn hub(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> 
     let moulds = db::moulds::list(&s.db, id)
         .await?
         .into_iter()
-        .map(|m| format!("{} · {:.1} cm³ · calibrated {}", m.code, m.volume_cm3, m.calibrated_on))
+        .map(|m| {
+            format!(
+                "{} · {:.1} cm³ · calibrated {}",
+                m.code, m.volume_cm3, m.calibrated_on
+            )
+        })
         .collect();
     let layers = db::layers::list(&s.db, id)
         .await?

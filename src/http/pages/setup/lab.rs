@@ -32,7 +32,10 @@ use crate::reduction::{Density, SpecificGravity, UnitSystem};
 /// Routes of this module.
 pub fn router() -> Router<AppState> {
     Router::new()
-        .route("/sources/{id}/setup/lab-curves/new", get(lab_form).post(lab_post))
+        .route(
+            "/sources/{id}/setup/lab-curves/new",
+            get(lab_form).post(lab_post),
+        )
         .route("/sources/{id}/setup/lab-curves/preview", post(live_preview))
 }
 
@@ -70,9 +73,12 @@ struct Place {
 
 async fn place(s: &AppState, caller: &Caller, source_id: i64) -> PageResult<Place> {
     let actor = require(&s.db, caller, Scope::Source(source_id), Action::ManageSetup).await?;
-    let source = db::sources::get(&s.db, source_id)
-        .await?
-        .ok_or_else(|| PageError(AppError::not_found("source_id", "no such record in your projects")))?;
+    let source = db::sources::get(&s.db, source_id).await?.ok_or_else(|| {
+        PageError(AppError::not_found(
+            "source_id",
+            "no such record in your projects",
+        ))
+    })?;
     let project = setup::require_project(&s.db, source.project_id).await?;
     Ok(Place {
         units: Units::of(&project),
@@ -97,20 +103,45 @@ fn head_fields(p: &Place) -> Vec<Field> {
     let mut moulds: Vec<(String, String)> = p
         .moulds
         .iter()
-        .map(|m| (m.code.clone(), format!("{} · {:.1} cm³ (calibrated {})", m.code, m.volume_cm3, m.calibrated_on)))
+        .map(|m| {
+            (
+                m.code.clone(),
+                format!(
+                    "{} · {:.1} cm³ (calibrated {})",
+                    m.code, m.volume_cm3, m.calibrated_on
+                ),
+            )
+        })
         .collect();
-    moulds.push((NOMINAL.into(), "The effort's nominal mould volume (marked nominal)".into()));
-    let curves = p.curves.iter().map(|t| (t.id, format!("{} ({})", t.code, t.tested_on))).collect();
+    moulds.push((
+        NOMINAL.into(),
+        "The effort's nominal mould volume (marked nominal)".into(),
+    ));
+    let curves = p
+        .curves
+        .iter()
+        .map(|t| (t.id, format!("{} ({})", t.code, t.tested_on)))
+        .collect();
     vec![
         Field::new("code", "Lab test code", Kind::Text, true),
         Field::new("tested_on", "Tested on", Kind::Date, true),
         Field::new("effort", "Effort", Kind::Choice(efforts), true),
-        Field::new("specific_gravity", "Specific gravity (Gs)", Kind::Number, false)
-            .hint(&format!("empty: the source's {:.2}", p.source.gs_fines)),
+        Field::new(
+            "specific_gravity",
+            "Specific gravity (Gs)",
+            Kind::Number,
+            false,
+        )
+        .hint(&format!("empty: the source's {:.2}", p.source.gs_fines)),
         Field::new("mould", "Mould", Kind::Choice(moulds), true)
             .hint("its volume turns the mould masses into a density"),
-        Field::new("supersedes_lab_test_id", "Replaces the curve", Kind::Record(curves), false)
-            .hint("open lots move to this curve only when a QC manager re-points them"),
+        Field::new(
+            "supersedes_lab_test_id",
+            "Replaces the curve",
+            Kind::Record(curves),
+            false,
+        )
+        .hint("open lots move to this curve only when a QC manager re-points them"),
         Field::new("supersede_reason", "Why it is replaced", Kind::Text, false),
     ]
 }
@@ -145,8 +176,15 @@ struct LabPage {
 }
 
 fn row_count(values: &Values) -> usize {
-    let asked = values.get("rows").and_then(|r| r.parse::<usize>().ok()).unwrap_or(FIRST_ROWS);
-    let more = if values.get("action").is_some_and(|a| a == "more") { 3 } else { 0 };
+    let asked = values
+        .get("rows")
+        .and_then(|r| r.parse::<usize>().ok())
+        .unwrap_or(FIRST_ROWS);
+    let more = if values.get("action").is_some_and(|a| a == "more") {
+        3
+    } else {
+        0
+    };
     (asked + more).clamp(1, MOST_ROWS)
 }
 
@@ -161,10 +199,19 @@ fn page(p: &Place, values: &Values, errors: &Errors, preview_html: String) -> La
         title: format!("New lab curve for {}", p.source.code),
         source_id: p.source.id,
         source: format!("{} {}", p.source.code, p.source.name),
-        fields: head_fields(p).iter().map(|f| super::view(f, values, errors)).collect(),
+        fields: head_fields(p)
+            .iter()
+            .map(|f| super::view(f, values, errors))
+            .collect(),
         headings: ROW_INPUTS
             .iter()
-            .map(|(n, h)| if *n == "dry_density" { format!("{h} ({density_unit})") } else { h.to_string() })
+            .map(|(n, h)| {
+                if *n == "dry_density" {
+                    format!("{h} ({density_unit})")
+                } else {
+                    h.to_string()
+                }
+            })
             .collect(),
         rows: (0..rows)
             .map(|r| RowView {
@@ -185,7 +232,11 @@ fn page(p: &Place, values: &Values, errors: &Errors, preview_html: String) -> La
             .collect(),
         row_count: rows,
         form_error: errors.get("").cloned().unwrap_or_default(),
-        error_list: errors.iter().filter(|(k, _)| !k.is_empty()).map(|(k, v)| format!("{k}: {v}")).collect(),
+        error_list: errors
+            .iter()
+            .filter(|(k, _)| !k.is_empty())
+            .map(|(k, v)| format!("{k}: {v}"))
+            .collect(),
         preview_html,
     }
 }
@@ -193,7 +244,10 @@ fn page(p: &Place, values: &Values, errors: &Errors, preview_html: String) -> La
 async fn lab_form(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
     let p = place(&s, &caller, id).await?;
     let mut defaults = Values::new();
-    defaults.insert("mould".into(), p.moulds.first().map_or(NOMINAL.into(), |m| m.code.clone()));
+    defaults.insert(
+        "mould".into(),
+        p.moulds.first().map_or(NOMINAL.into(), |m| m.code.clone()),
+    );
     render(&page(&p, &defaults, &Errors::new(), String::new()))
 }
 
@@ -208,25 +262,36 @@ fn optional_number(values: &Values, name: &str, errors: &mut Errors) -> Option<f
     if raw.is_empty() {
         return None;
     }
-    form::number(raw).map_err(|e| errors.insert(name.to_string(), e)).ok()
+    form::number(raw)
+        .map_err(|e| errors.insert(name.to_string(), e))
+        .ok()
 }
 
 /// Reads the non-empty specimen rows, giving each the chosen mould's volume.
 fn specimens(p: &Place, values: &Values, effort_code: &str, errors: &mut Errors) -> Vec<Specimen> {
     let chosen = values.get("mould").map(|m| m.trim()).unwrap_or("");
     let registered = p.moulds.iter().find(|m| m.code == chosen);
-    let nominal_cm3 = resolve_effort(effort_code, None).ok().map(|e| e.mold_volume_m3 * 1.0e6);
+    let nominal_cm3 = resolve_effort(effort_code, None)
+        .ok()
+        .map(|e| e.mold_volume_m3 * 1.0e6);
     let mut out = Vec::new();
     for r in 0..row_count(values) {
         let n = |input: &str, errors: &mut Errors| optional_number(values, &cell(r, input), errors);
         let water = n("water_content_pct", errors);
-        let dry = n("dry_density", errors).map(|d| to_kg_m3(&p.units, d, &cell(r, "dry_density"), errors));
+        let dry = n("dry_density", errors)
+            .map(|d| to_kg_m3(&p.units, d, &cell(r, "dry_density"), errors));
         let total = n("mass_mold_and_soil_g", errors);
-        let mold = n("mass_mold_g", errors).or(registered.and_then(|m| m.mass_g).filter(|_| total.is_some()));
+        let mold = n("mass_mold_g", errors).or(registered
+            .and_then(|m| m.mass_g)
+            .filter(|_| total.is_some()));
         let tare = n("mass_tare_g", errors);
         let wet = n("mass_wet_g", errors);
         let dry_tin = n("mass_dry_g", errors);
-        if [water, total, tare, wet, dry_tin].iter().all(Option::is_none) && dry.is_none() {
+        if [water, total, tare, wet, dry_tin]
+            .iter()
+            .all(Option::is_none)
+            && dry.is_none()
+        {
             continue;
         }
         let (volume, mould) = match (total, registered) {
@@ -276,7 +341,10 @@ fn input(p: &Place, values: &Values) -> std::result::Result<(LabTestInput, Vec<u
     head.remove("mould");
     let order: Vec<usize> = rows.iter().map(|r| r.row).collect();
     let points: Vec<LabPointInput> = rows.into_iter().map(|r| r.point).collect();
-    head.insert("points".into(), serde_json::to_value(points).unwrap_or_default());
+    head.insert(
+        "points".into(),
+        serde_json::to_value(points).unwrap_or_default(),
+    );
     serde_json::from_value(serde_json::Value::Object(head))
         .map(|i| (i, order))
         .map_err(|e| Errors::from([(String::new(), format!("the form is incomplete: {e}"))]))
@@ -290,8 +358,16 @@ fn place_error(e: &AppError, p: &Place, order: &[usize]) -> Errors {
         && let Ok(i) = i.parse::<usize>()
         && let Some(row) = order.get(i)
     {
-        let name = if name == "dry_density_kg_m3" { "dry_density" } else { name };
-        let name = if name == "mold_volume_cm3" { "mass_mold_and_soil_g" } else { name };
+        let name = if name == "dry_density_kg_m3" {
+            "dry_density"
+        } else {
+            name
+        };
+        let name = if name == "mold_volume_cm3" {
+            "mass_mold_and_soil_g"
+        } else {
+            name
+        };
         return Errors::from([(cell(*row, name), e.user_message())]);
     }
     form::place(e, &head_fields(p))
@@ -318,7 +394,8 @@ fn preview_html(p: &Place, input: &LabTestInput) -> Result<String> {
         .collect::<Result<Vec<_>>>()?;
     let gs = SpecificGravity::new(input.specific_gravity.unwrap_or(p.source.gs_fines))
         .map_err(|e| AppError::invalid("specific_gravity", e.to_string()))?;
-    let fit = fit_curve(&points, Some(gs)).map_err(|e| AppError::invalid("points", e.to_string()))?;
+    let fit =
+        fit_curve(&points, Some(gs)).map_err(|e| AppError::invalid("points", e.to_string()))?;
     let u = &p.units;
     let specimens = points
         .iter()
@@ -330,7 +407,9 @@ fn preview_html(p: &Place, input: &LabTestInput) -> Result<String> {
                 i + 1,
                 pt.water_content_pct,
                 u.density_with_unit(pt.dry_density_kg_m3),
-                raw.mould.as_ref().map_or(String::new(), |m| format!(" (mould {m})"))
+                raw.mould
+                    .as_ref()
+                    .map_or(String::new(), |m| format!(" (mould {m})"))
             )
         })
         .collect();
@@ -340,7 +419,13 @@ fn preview_html(p: &Place, input: &LabTestInput) -> Result<String> {
         fit: fit.method.label(),
         warnings: fit.warnings.iter().map(|w| w.message.clone()).collect(),
         specimens,
-        chart: chart(&format!("Preview of {}", input.code), &points, &fit, gs, vec![]),
+        chart: chart(
+            &format!("Preview of {}", input.code),
+            &points,
+            &fit,
+            gs,
+            vec![],
+        ),
     }
     .render()
     .map_err(|e| AppError::Internal(anyhow::Error::new(e)))?;
@@ -362,11 +447,19 @@ fn step(values: &Values) -> Step {
     }
 }
 
-async fn lab_post(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>, body: Bytes) -> PageResult {
+async fn lab_post(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+    body: Bytes,
+) -> PageResult {
     let p = place(&s, &caller, id).await?;
     let mut values = decode(&body);
     let refused = |values: &Values, errors: &Errors| {
-        render_status(axum::http::StatusCode::UNPROCESSABLE_ENTITY, &page(&p, values, errors, String::new()))
+        render_status(
+            axum::http::StatusCode::UNPROCESSABLE_ENTITY,
+            &page(&p, values, errors, String::new()),
+        )
     };
     if let Step::MoreRows = step(&values) {
         values.insert("rows".into(), row_count(&values).to_string());
@@ -392,11 +485,21 @@ async fn lab_post(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>
 }
 
 /// The preview alone, for the page's script: the same reduction as the Preview button.
-async fn live_preview(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>, body: Bytes) -> PageResult {
+async fn live_preview(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+    body: Bytes,
+) -> PageResult {
     let p = place(&s, &caller, id).await?;
     let values = decode(&body);
     let html = match input(&p, &values) {
-        Err(errors) => errors_html(errors.into_iter().map(|(k, v)| if k.is_empty() { v } else { format!("{k}: {v}") }).collect()),
+        Err(errors) => errors_html(
+            errors
+                .into_iter()
+                .map(|(k, v)| if k.is_empty() { v } else { format!("{k}: {v}") })
+                .collect(),
+        ),
         Ok((lab, order)) => match preview_html(&p, &lab) {
             Ok(h) => h,
             Err(e) if form::is_refusal(&e) => errors_html(
@@ -408,11 +511,16 @@ async fn live_preview(State(s): State<AppState>, caller: Caller, Path(id): Path<
             Err(e) => return Err(PageError(e)),
         },
     };
-    Ok(axum::response::IntoResponse::into_response(axum::response::Html(html)))
+    Ok(axum::response::IntoResponse::into_response(
+        axum::response::Html(html),
+    ))
 }
 
 #[derive(Template)]
-#[template(source = r#"<div class="error-box" id="preview-problems"><p>No curve yet:</p><ul>{% for p in problems %}<li>{{ p }}</li>{% endfor %}</ul></div>"#, ext = "html")]
+#[template(
+    source = r#"<div class="error-box" id="preview-problems"><p>No curve yet:</p><ul>{% for p in problems %}<li>{{ p }}</li>{% endfor %}</ul></div>"#,
+    ext = "html"
+)]
 struct Problems {
     problems: Vec<String>,
 }

@@ -27,7 +27,6 @@ use super::{PageError, PageResult, ProjectNav, render_status};
 use crate::app::AppState;
 use crate::auth::Action;
 use crate::db;
-use crate::error::AppError;
 use crate::http::caller::{Caller, Scope, require};
 use crate::ledger::Actor;
 use crate::present::Units;
@@ -53,7 +52,12 @@ pub struct Context {
 
 impl Context {
     /// Loads the project and refuses a caller who may not do `action` in it.
-    pub async fn load(s: &AppState, caller: &Caller, project_id: i64, action: Action) -> PageResult<Self> {
+    pub async fn load(
+        s: &AppState,
+        caller: &Caller,
+        project_id: i64,
+        action: Action,
+    ) -> PageResult<Self> {
         let actor = require(&s.db, caller, Scope::Project(project_id), action).await?;
         let project = crate::ledger::setup::require_project(&s.db, project_id).await?;
         Ok(Self {
@@ -117,7 +121,11 @@ fn view(f: &Field, values: &Values, errors: &Errors) -> FieldView {
         Kind::Record(r) => (
             "select",
             "text",
-            options(r.iter().map(|(id, l)| (id.to_string(), l.clone())).collect()),
+            options(
+                r.iter()
+                    .map(|(id, l)| (id.to_string(), l.clone()))
+                    .collect(),
+            ),
         ),
     };
     FieldView {
@@ -183,7 +191,11 @@ impl FormSpec {
             action_url: self.action_url.clone(),
             back_href: self.back_href.clone(),
             back_label: self.back_label.clone(),
-            fields: self.fields.iter().map(|f| view(f, values, errors)).collect(),
+            fields: self
+                .fields
+                .iter()
+                .map(|f| view(f, values, errors))
+                .collect(),
             form_error: errors.get("").cloned().unwrap_or_default(),
             error_list: errors
                 .iter()
@@ -198,12 +210,18 @@ impl FormSpec {
 
     /// The empty form (or one filled with defaults).
     pub fn blank(&self, values: &Values) -> PageResult {
-        render_status(StatusCode::OK, &self.page(values, &Errors::new(), String::new()))
+        render_status(
+            StatusCode::OK,
+            &self.page(values, &Errors::new(), String::new()),
+        )
     }
 
     /// The form again with its problems: 422, nothing saved.
     pub fn refused(&self, values: &Values, errors: &Errors) -> PageResult {
-        render_status(StatusCode::UNPROCESSABLE_ENTITY, &self.page(values, errors, String::new()))
+        render_status(
+            StatusCode::UNPROCESSABLE_ENTITY,
+            &self.page(values, errors, String::new()),
+        )
     }
 
     /// Types the values into the ledger's input, or gives the refused form.
@@ -246,9 +264,4 @@ pub fn wants_preview(values: &Values) -> bool {
 /// Only an admin may go on.
 pub fn require_admin(caller: &Caller) -> PageResult<Actor> {
     crate::http::caller::require_admin(caller).map_err(PageError)
-}
-
-/// Refuses quietly-wrong ids the same way the API does.
-pub fn not_found(field: &str, what: String) -> PageError {
-    PageError(AppError::not_found(field, what))
 }

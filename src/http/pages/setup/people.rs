@@ -25,23 +25,30 @@ pub fn router() -> Router<AppState> {
         .route("/projects/new", get(project_form).post(project_post))
         .route("/setup/users", get(users))
         .route("/setup/users/new", get(user_form).post(user_post))
-        .route("/projects/{id}/setup/members/new", get(member_form).post(member_post))
+        .route(
+            "/projects/{id}/setup/members/new",
+            get(member_form).post(member_post),
+        )
 }
 
 fn pairs(v: &[(&str, &str)]) -> Vec<(String, String)> {
-    v.iter().map(|(a, b)| (a.to_string(), b.to_string())).collect()
+    v.iter()
+        .map(|(a, b)| (a.to_string(), b.to_string()))
+        .collect()
 }
 
 fn project_spec() -> FormSpec {
     FormSpec {
         nav: None,
         title: "New project".into(),
-        intro: "A contract: its code and parties, and how its lengths and densities are written.".into(),
+        intro: "A contract: its code and parties, and how its lengths and densities are written."
+            .into(),
         action_url: "/projects/new".into(),
         back_href: "/".into(),
         back_label: "Back to projects".into(),
         fields: vec![
-            Field::new("code", "Project code", Kind::Text, true).hint("short and unique, e.g. NR-14"),
+            Field::new("code", "Project code", Kind::Text, true)
+                .hint("short and unique, e.g. NR-14"),
             Field::new("name", "Name", Kind::Text, true),
             Field::new("contract", "Contract", Kind::Text, false),
             Field::new("client", "Client", Kind::Text, false),
@@ -49,13 +56,19 @@ fn project_spec() -> FormSpec {
             Field::new(
                 "unit_system",
                 "Units",
-                Kind::Choice(pairs(&[("si", "SI (kg/m³, m)"), ("us", "US customary (lb/ft³, ft)")])),
+                Kind::Choice(pairs(&[
+                    ("si", "SI (kg/m³, m)"),
+                    ("us", "US customary (lb/ft³, ft)"),
+                ])),
                 true,
             ),
             Field::new(
                 "chainage_style",
                 "Chainage written as",
-                Kind::Choice(pairs(&[("km_metre", "km+metres (12+345.600)"), ("feet_station", "stations of 100 ft (123+45.67)")])),
+                Kind::Choice(pairs(&[
+                    ("km_metre", "km+metres (12+345.600)"),
+                    ("feet_station", "stations of 100 ft (123+45.67)"),
+                ])),
                 true,
             ),
         ],
@@ -162,7 +175,12 @@ async fn member_spec(s: &AppState, ctx: &Context) -> PageResult<FormSpec> {
         .await?
         .into_iter()
         .filter(|u| u.disabled_at.is_none())
-        .map(|u| (u.username.clone(), format!("{} ({})", u.display_name, u.username)))
+        .map(|u| {
+            (
+                u.username.clone(),
+                format!("{} ({})", u.display_name, u.username),
+            )
+        })
         .collect();
     let roles = Role::ALL
         .iter()
@@ -197,7 +215,12 @@ async fn member_form(State(s): State<AppState>, caller: Caller, Path(id): Path<i
     member_spec(&s, &ctx).await?.blank(&Values::new())
 }
 
-async fn member_post(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>, body: Bytes) -> PageResult {
+async fn member_post(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+    body: Bytes,
+) -> PageResult {
     let actor = require_admin(&caller)?;
     let ctx = Context::load(&s, &caller, id, Action::Read).await?;
     let values = decode(&body);

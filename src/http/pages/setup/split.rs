@@ -22,7 +22,10 @@ use crate::reduction::Chainage;
 
 /// Routes of this module.
 pub fn router() -> Router<AppState> {
-    Router::new().route("/projects/{id}/setup/lots/split", get(split_form).post(split_post))
+    Router::new().route(
+        "/projects/{id}/setup/lots/split",
+        get(split_form).post(split_post),
+    )
 }
 
 async fn split_spec(s: &AppState, ctx: &Context) -> PageResult<FormSpec> {
@@ -30,9 +33,11 @@ async fn split_spec(s: &AppState, ctx: &Context) -> PageResult<FormSpec> {
     let mut fields = vec![
         Field::new("chainage_from_m", "From chainage", Kind::Chainage, true),
         Field::new("chainage_to_m", "To chainage", Kind::Chainage, true),
-        Field::new("every_m", "Lot length (m)", Kind::Number, true)
-            .hint("lots are cut from the start; a remainder under a tenth of this joins the last lot"),
-        Field::new("code_prefix", "Lot code prefix", Kind::Text, true).hint("e.g. EF2- makes EF2-1, EF2-2, …"),
+        Field::new("every_m", "Lot length (m)", Kind::Number, true).hint(
+            "lots are cut from the start; a remainder under a tenth of this joins the last lot",
+        ),
+        Field::new("code_prefix", "Lot code prefix", Kind::Text, true)
+            .hint("e.g. EF2- makes EF2-1, EF2-2, …"),
         Field::new("first_number", "First number", Kind::Integer, false).hint("1 when empty"),
     ];
     fields.extend(choices.fields("m"));
@@ -70,7 +75,12 @@ struct Plan {
     map: String,
 }
 
-async fn plan_html(s: &AppState, ctx: &Context, input: &SplitInput, planned: &[db::lots::NewLot]) -> PageResult<String> {
+async fn plan_html(
+    s: &AppState,
+    ctx: &Context,
+    input: &SplitInput,
+    planned: &[db::lots::NewLot],
+) -> PageResult<String> {
     let u = &ctx.units;
     let layer = db::layers::get(&s.db, input.layer_id)
         .await?
@@ -105,7 +115,10 @@ async fn plan_html(s: &AppState, ctx: &Context, input: &SplitInput, planned: &[d
         href: String::new(),
     }));
     let from = lots.iter().map(|l| l.from_m).fold(f64::INFINITY, f64::min);
-    let to = lots.iter().map(|l| l.to_m).fold(f64::NEG_INFINITY, f64::max);
+    let to = lots
+        .iter()
+        .map(|l| l.to_m)
+        .fold(f64::NEG_INFINITY, f64::max);
     let style = u.chainage;
     let map = lift_map(&LiftMapInput {
         chainage_from_m: from,
@@ -116,13 +129,22 @@ async fn plan_html(s: &AppState, ctx: &Context, input: &SplitInput, planned: &[d
             row: 0,
         }],
         lots,
-        chainage_label: Box::new(move |m| Chainage::new(m).map_or(format!("{m:.0}"), |c| c.format(style))),
+        chainage_label: Box::new(move |m| {
+            Chainage::new(m).map_or(format!("{m:.0}"), |c| c.format(style))
+        }),
         width_px: 900,
         zoom_href: None,
     });
     let lines = planned
         .iter()
-        .map(|l| format!("{} · {} to {}", l.code, u.chainage(l.chainage_from_m), u.chainage(l.chainage_to_m)))
+        .map(|l| {
+            format!(
+                "{} · {} to {}",
+                l.code,
+                u.chainage(l.chainage_from_m),
+                u.chainage(l.chainage_to_m)
+            )
+        })
         .collect();
     Plan {
         count: planned.len(),
@@ -133,7 +155,12 @@ async fn plan_html(s: &AppState, ctx: &Context, input: &SplitInput, planned: &[d
     .map_err(|e| PageError(AppError::Internal(anyhow::Error::new(e))))
 }
 
-async fn split_post(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>, body: Bytes) -> PageResult {
+async fn split_post(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+    body: Bytes,
+) -> PageResult {
     let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
     let spec = split_spec(&s, &ctx).await?;
     let values = decode(&body);
@@ -147,7 +174,9 @@ async fn split_post(State(s): State<AppState>, caller: Caller, Path(id): Path<i6
                 let html = plan_html(&s, &ctx, &input, &planned).await?;
                 render(&spec.page(&values, &Default::default(), html))
             }
-            Err(e) if super::form::is_refusal(&e) => spec.refused(&values, &super::form::place(&e, &spec.fields)),
+            Err(e) if super::form::is_refusal(&e) => {
+                spec.refused(&values, &super::form::place(&e, &spec.fields))
+            }
             Err(e) => Err(PageError(e)),
         };
     }

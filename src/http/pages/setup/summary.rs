@@ -119,9 +119,15 @@ mod tests {
             oversize_limit_pct: Some(30.0),
         };
         let words = clause_words(&t).join(" ");
-        assert!(words.contains("mean relative compaction must reach 95.0 %"), "{words}");
+        assert!(
+            words.contains("mean relative compaction must reach 95.0 %"),
+            "{words}"
+        );
         assert!(words.contains("more than 3.0 points below"), "{words}");
-        assert!(words.contains("2.0 points dry and 1.5 points wet"), "{words}");
+        assert!(
+            words.contains("2.0 points dry and 1.5 points wet"),
+            "{words}"
+        );
         assert!(words.contains("one per 1000 m²"), "{words}");
     }
 }

@@ -54,13 +54,20 @@ fn fields() -> Vec<Field> {
         .map(|r| (r.code().to_string(), r.label().to_string()))
         .collect();
     vec![
-        Field::new("name", "Token name", Kind::Text, true).hint("the device or system that will use it"),
+        Field::new("name", "Token name", Kind::Text, true)
+            .hint("the device or system that will use it"),
         Field::new("role", "Role", Kind::Choice(roles), true)
             .hint("what the token may do in this project; never more than you may"),
     ]
 }
 
-async fn page(s: &AppState, ctx: &Context, values: &Values, errors: &Errors, secret: (String, String)) -> PageResult<TokensPage> {
+async fn page(
+    s: &AppState,
+    ctx: &Context,
+    values: &Values,
+    errors: &Errors,
+    secret: (String, String),
+) -> PageResult<TokensPage> {
     let tokens = db::users::tokens(&s.db, ctx.project.id)
         .await?
         .into_iter()
@@ -79,7 +86,11 @@ async fn page(s: &AppState, ctx: &Context, values: &Values, errors: &Errors, sec
         id: ctx.project.id,
         tokens,
         fields: f.iter().map(|x| super::view(x, values, errors)).collect(),
-        error_list: errors.iter().filter(|(k, _)| !k.is_empty()).map(|(k, v)| (k.clone(), v.clone())).collect(),
+        error_list: errors
+            .iter()
+            .filter(|(k, _)| !k.is_empty())
+            .map(|(k, v)| (k.clone(), v.clone()))
+            .collect(),
         form_error: errors.get("").cloned().unwrap_or_default(),
         secret: secret.0,
         secret_name: secret.1,
@@ -88,10 +99,18 @@ async fn page(s: &AppState, ctx: &Context, values: &Values, errors: &Errors, sec
 
 async fn list(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
     let ctx = Context::load(&s, &caller, id, Action::ManageTokens).await?;
-    render_status(StatusCode::OK, &page(&s, &ctx, &Values::new(), &Errors::new(), Default::default()).await?)
+    render_status(
+        StatusCode::OK,
+        &page(&s, &ctx, &Values::new(), &Errors::new(), Default::default()).await?,
+    )
 }
 
-async fn create(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>, body: Bytes) -> PageResult {
+async fn create(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+    body: Bytes,
+) -> PageResult {
     let ctx = Context::load(&s, &caller, id, Action::ManageTokens).await?;
     let values = decode(&body);
     let f = fields();
@@ -112,7 +131,14 @@ async fn create(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>, 
     match accounts::create_token(&s.db, id, &input, &ctx.actor).await {
         Ok((secret, token)) => render_status(
             StatusCode::CREATED,
-            &page(&s, &ctx, &Values::new(), &Errors::new(), (secret, token.name)).await?,
+            &page(
+                &s,
+                &ctx,
+                &Values::new(),
+                &Errors::new(),
+                (secret, token.name),
+            )
+            .await?,
         ),
         Err(e) if form::is_refusal(&e) => refused(form::place(&e, &f)).await,
         Err(e) => Err(PageError(e)),
@@ -122,5 +148,8 @@ async fn create(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>, 
 async fn revoke(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
     let actor = require(&s.db, &caller, Scope::Token(id), Action::ManageTokens).await?;
     let t = accounts::revoke_token(&s.db, id, &actor).await?;
-    Ok(see_other(&format!("/projects/{}/setup/tokens", t.project_id)))
+    Ok(see_other(&format!(
+        "/projects/{}/setup/tokens",
+        t.project_id
+    )))
 }
