@@ -11,7 +11,14 @@ use crate::webdriver::{self, Driver, Session};
 async fn fill(b: &Session, fields: &[(&str, &str)]) {
     for (id, value) in fields {
         let el = b.find(&format!("#{}", css_id(id))).await;
-        if el.prop("tagName").await.as_str() == Some("SELECT") {
+        if el.attr("type").await.as_deref() == Some("date") {
+            // A date input is typed in the browser's locale; set the ISO value the form posts.
+            b.script(
+                "document.getElementById(arguments[0]).value = arguments[1]; return true;",
+                vec![serde_json::json!(id), serde_json::json!(value)],
+            )
+            .await;
+        } else if el.prop("tagName").await.as_str() == Some("SELECT") {
             b.find(&format!("#{} option[value=\"{value}\"]", css_id(id)))
                 .await
                 .click()
@@ -281,12 +288,17 @@ async fn tech_first_test(b: &Session, app: &DemoApp, project: &str) {
     mark_page(b).await;
     save.click().await;
     wait_for_new_page(b).await;
+    let after = b.find("main").await.text().await;
+    let saved: i64 = sqlx::query_scalar("SELECT COUNT(*) FROM field_tests")
+        .fetch_one(&app.pool)
+        .await
+        .expect("count");
+    assert_eq!(saved, 1, "the entry form saved the test: {after}");
     b.goto(&app.url(&href)).await;
-    let sheet = b.find("main").await.text().await;
-    assert!(
-        sheet.contains("J. Orrin"),
-        "the lot sheet lists the test: {sheet}"
-    );
+    let rows = b.find_all("tr[data-result]").await;
+    assert_eq!(rows.len(), 1, "the lot sheet lists the one test");
+    let row = rows[0].text().await;
+    assert!(row.contains("0+050.000"), "at its chainage: {row}");
     b.goto(&app.url(&format!("{project}/map"))).await;
     b.find("svg").await;
     shot(b, "4-lift-map").await;

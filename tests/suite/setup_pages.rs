@@ -383,7 +383,9 @@ async fn a_lab_curve_from_raw_masses_is_reduced_by_the_library_and_previewed_fir
     let points = tests[0]["points"].as_array().cloned().unwrap_or_default();
     assert_eq!(points.len(), 5);
     assert!(
-        points.iter().all(|p| p["mould"] == "M-4" && p["mold_volume_cm3"] == 944.0),
+        points
+            .iter()
+            .all(|p| p["mould"] == "M-4" && p["mold_volume_cm3"] == 944.0),
         "{points:?}"
     );
 }
