@@ -9,7 +9,7 @@ use sqlx::{Column, Row, ValueRef};
 use super::{Engine, Pool, engine_of};
 
 /// Every table, parents before children, so foreign keys hold at each insert.
-pub const TABLES: [&str; 17] = [
+pub const TABLES: [&str; 18] = [
     "projects",
     "users",
     "clauses",
@@ -27,6 +27,7 @@ pub const TABLES: [&str; 17] = [
     "api_tokens",
     "sign_in_failures",
     "import_mappings",
+    "moulds",
 ];
 
 /// What a copy moved and checked.

@@ -10,6 +10,8 @@ pub mod certificate_doc;
 pub mod field;
 pub mod import;
 pub mod lot_report;
+pub mod lot_split;
+pub mod moulds;
 pub mod overview;
 pub mod review;
 pub mod setup;

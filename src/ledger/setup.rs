@@ -316,6 +316,10 @@ pub struct LabPointInput {
     pub mass_wet_g: Option<f64>,
     pub mass_dry_g: Option<f64>,
     pub mass_tare_g: Option<f64>,
+    /// The registered mould's mark, or "nominal (effort)" when the effort's nominal
+    /// volume stood in for a calibrated one.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub mould: Option<String>,
 }
 
 /// A custom compaction effort.
@@ -602,13 +606,9 @@ pub struct LotInput {
     pub lab_test_id: i64,
 }
 
-/// Creates a lot on a layer, judged by a clause against an active lab curve.
-pub async fn create_lot(
-    pool: &Pool,
-    project_id: i64,
-    input: &LotInput,
-    actor: &Actor,
-) -> Result<db::lots::Lot> {
+/// Checks a lot's body against the project: its layer, clause and active lab curve,
+/// its chainage and offsets. Nothing is written.
+pub async fn check_lot(pool: &Pool, project_id: i64, input: &LotInput) -> Result<db::lots::NewLot> {
     require_project(pool, project_id).await?;
     let layer = db::layers::get(pool, input.layer_id).await?;
     if layer.as_ref().is_none_or(|l| l.project_id != project_id) {
@@ -675,7 +675,7 @@ pub async fn create_lot(
             "must be greater than offset_left_m",
         ));
     }
-    let new = db::lots::NewLot {
+    Ok(db::lots::NewLot {
         project_id,
         layer_id: input.layer_id,
         code: code("code", &input.code)?,
@@ -686,24 +686,45 @@ pub async fn create_lot(
         clause_id: input.clause_id,
         source_id: source.id,
         lab_test_id: lab.id,
-    };
-    let now = clock::now();
-    let mut tx = db::begin_write(pool).await?;
-    let id = db::lots::insert(&mut tx, &new, &actor.name, &now)
+    })
+}
+
+/// Writes a checked lot with its audit row inside the caller's transaction.
+pub async fn insert_lot(
+    tx: &mut db::Tx<'_>,
+    new: &db::lots::NewLot,
+    actor: &Actor,
+    now: &str,
+) -> Result<i64> {
+    let id = db::lots::insert(tx, new, &actor.name, now)
         .await
         .map_err(unique("code", &format!("lot {}", new.code)))?;
     audit_insert(
-        &mut tx,
+        tx,
         actor,
         "lot",
         id,
-        project_id,
+        new.project_id,
         json!({"code": new.code, "layer_id": new.layer_id, "chainage_from_m": new.chainage_from_m,
                "chainage_to_m": new.chainage_to_m, "offset_left_m": new.offset_left_m,
                "offset_right_m": new.offset_right_m, "clause_id": new.clause_id, "lab_test_id": new.lab_test_id}),
-        &now,
+        now,
     )
     .await?;
+    Ok(id)
+}
+
+/// Creates a lot on a layer, judged by a clause against an active lab curve.
+pub async fn create_lot(
+    pool: &Pool,
+    project_id: i64,
+    input: &LotInput,
+    actor: &Actor,
+) -> Result<db::lots::Lot> {
+    let new = check_lot(pool, project_id, input).await?;
+    let now = clock::now();
+    let mut tx = db::begin_write(pool).await?;
+    let id = insert_lot(&mut tx, &new, actor, &now).await?;
     tx.commit().await?;
     db::lots::get(pool, id)
         .await?

@@ -12,6 +12,7 @@ pub mod lab;
 pub mod oversize;
 pub mod pwl;
 pub mod quantities;
+pub mod split;
 pub mod verdict;
 pub mod voids;
 pub mod water;

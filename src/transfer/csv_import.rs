@@ -771,6 +771,7 @@ impl CsvLabPoints {
                     mass_wet_g: v(LabTarget::MassWetG),
                     mass_dry_g: v(LabTarget::MassDryG),
                     mass_tare_g: v(LabTarget::MassTareG),
+                    mould: None,
                 },
             )));
         }

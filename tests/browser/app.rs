@@ -45,10 +45,31 @@ pub struct SavedTest {
 impl DemoApp {
     /// Loads the demo into a fresh SQLite file and serves it.
     pub async fn spawn() -> DemoApp {
+        Self::spawn_with(true).await.0
+    }
+
+    /// Serves an empty database as a first start does: no project, one admin with a
+    /// printed password (returned).
+    pub async fn spawn_empty() -> (DemoApp, String) {
+        let (app, password) = Self::spawn_with(false).await;
+        (
+            app,
+            password.expect("a first start prints the admin's password"),
+        )
+    }
+
+    async fn spawn_with(demo: bool) -> (DemoApp, Option<String>) {
         let dir = tempfile::tempdir().expect("tempdir");
         let path = dir.path().join("browser.sqlite");
         let pool = db::open(&path).await.expect("open db");
-        liftledger::demo::load(&pool).await.expect("load demo");
+        let password = if demo {
+            liftledger::demo::load(&pool).await.expect("load demo");
+            None
+        } else {
+            liftledger::ledger::accounts::ensure_first_admin(&pool)
+                .await
+                .expect("first admin")
+        };
         let listener = tokio::net::TcpListener::bind("127.0.0.1:0")
             .await
             .expect("bind");
@@ -56,7 +77,7 @@ impl DemoApp {
         let state = AppState::new(
             pool.clone(),
             Settings {
-                demo: true,
+                demo,
                 secure_cookies: false,
             },
         );
@@ -68,12 +89,15 @@ impl DemoApp {
             .await
             .expect("server failed");
         });
-        DemoApp {
-            addr,
-            pool,
-            _dir: dir,
-            stop: Some(tx),
-        }
+        (
+            DemoApp {
+                addr,
+                pool,
+                _dir: dir,
+                stop: Some(tx),
+            },
+            password,
+        )
     }
 
     /// Full URL of a path on this server.

@@ -12,3 +12,4 @@ mod webdriver;
 mod entry_flow;
 mod import_flow;
 mod retest_flow;
+mod setup_flow;

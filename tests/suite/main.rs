@@ -14,5 +14,6 @@ mod openapi;
 mod operations;
 mod pages;
 mod restart;
+mod setup_pages;
 mod shared_postgres;
 mod transfer;

@@ -42,6 +42,11 @@ pub fn router() -> Router<AppState> {
             "/api/v1/projects/{id}/lots",
             get(list_lots).post(create_lot),
         )
+        .route("/api/v1/projects/{id}/lots/split", post(split_lots))
+        .route(
+            "/api/v1/projects/{id}/moulds",
+            get(list_moulds).post(create_mould),
+        )
         .route("/api/v1/lots/{id}", get(get_lot))
         .route("/api/v1/lots/{id}/history", get(lot_history))
         .route("/api/v1/projects/{id}/review-queue", get(review_queue))
@@ -267,6 +272,43 @@ async fn list_lots(
     let lots = db::lots::list(&s.db, id, &filter).await?;
     Ok(Json(
         json!({"lots": lots, "limit": limit, "offset": offset}),
+    ))
+}
+
+async fn split_lots(
+    State(s): State<AppState>,
+    Path(id): Path<i64>,
+    caller: Caller,
+    ApiJson(input): ApiJson<ledger::lot_split::SplitInput>,
+) -> Result<(StatusCode, Json<Value>)> {
+    let actor = require(&s.db, &caller, Scope::Project(id), Action::ManageSetup).await?;
+
+    let ids = ledger::lot_split::create(&s.db, id, &input, &actor).await?;
+    Ok((StatusCode::CREATED, Json(json!({"lot_ids": ids}))))
+}
+
+async fn list_moulds(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+) -> Result<Json<Vec<db::moulds::Mould>>> {
+    require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
+
+    setup::require_project(&s.db, id).await?;
+    Ok(Json(db::moulds::list(&s.db, id).await?))
+}
+
+async fn create_mould(
+    State(s): State<AppState>,
+    Path(id): Path<i64>,
+    caller: Caller,
+    ApiJson(input): ApiJson<ledger::moulds::MouldInput>,
+) -> Result<Created<db::moulds::Mould>> {
+    let actor = require(&s.db, &caller, Scope::Project(id), Action::ManageSetup).await?;
+
+    Ok((
+        StatusCode::CREATED,
+        Json(ledger::moulds::create_mould(&s.db, id, &input, &actor).await?),
     ))
 }
 

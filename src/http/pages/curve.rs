@@ -108,44 +108,13 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
         })
         .collect();
     let field_fail = marks.iter().filter(|m| !m.passed).count();
-    let (lo, hi) = points
-        .iter()
-        .map(|p| p.water_content_pct)
-        .chain(marks.iter().map(|m| m.x))
-        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), w| {
-            (a.min(w), b.max(w))
-        });
-    let (lo, hi) = ((lo - 1.5).max(0.0), hi + 1.5);
-    let pairs = |v: Vec<crate::reduction::curve::CurvePoint>| -> Vec<(f64, f64)> {
-        v.into_iter()
-            .map(|p| (p.water_content_pct, p.dry_density_kg_m3))
-            .collect()
-    };
-    let chart = curve_chart(&CurveChartInput {
-        title: format!("Compaction curve {} ({})", lab.code, source.code),
-        x_label: "Water content (%)".into(),
-        y_label: "Dry density (kg/m³)".into(),
-        lab_points: points
-            .iter()
-            .map(|p| (p.water_content_pct, p.dry_density_kg_m3))
-            .collect(),
-        fitted: pairs(fit.curve.clone()),
-        optimum: (fit.optimum_water_content.pct(), fit.max_dry_density.kg_m3()),
-        zero_air_voids: pairs(zero_air_voids_line(gs, lo, hi, 40)),
-        saturation_lines: [90.0, 80.0]
-            .iter()
-            .map(|sat| Series {
-                label: format!("S = {sat:.0} %"),
-                points: pairs(saturation_line(gs, *sat, lo, hi, 40)),
-            })
-            .collect(),
-        field_points: marks,
-        optimum_label: format!(
-            "MDD {:.0} kg/m³ at OMC {:.1} %",
-            fit.max_dry_density.kg_m3(),
-            fit.optimum_water_content.pct()
-        ),
-    });
+    let chart = chart(
+        &format!("Compaction curve {} ({})", lab.code, source.code),
+        &points,
+        &fit,
+        gs,
+        marks,
+    );
     let effort = resolve_effort(&lab.effort, None).ok();
     let warnings: Vec<String> = serde_json::from_str::<Vec<serde_json::Value>>(&lab.warnings_json)
         .unwrap_or_default()
@@ -193,5 +162,54 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
         field_count: counted.len(),
         field_fail,
         cautions: super::cautions(),
+    })
+}
+
+/// The compaction-curve chart: lab points, fitted curve, optimum, zero-air-voids and
+/// 90 %/80 % saturation lines at the curve's Gs, and any field points judged against it.
+pub fn chart(
+    title: &str,
+    points: &[crate::reduction::curve::CurvePoint],
+    fit: &crate::reduction::curve::CurveFit,
+    gs: SpecificGravity,
+    marks: Vec<FieldMark>,
+) -> String {
+    let (lo, hi) = points
+        .iter()
+        .map(|p| p.water_content_pct)
+        .chain(marks.iter().map(|m| m.x))
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), w| {
+            (a.min(w), b.max(w))
+        });
+    let (lo, hi) = ((lo - 1.5).max(0.0), hi + 1.5);
+    let pairs = |v: Vec<crate::reduction::curve::CurvePoint>| -> Vec<(f64, f64)> {
+        v.into_iter()
+            .map(|p| (p.water_content_pct, p.dry_density_kg_m3))
+            .collect()
+    };
+    curve_chart(&CurveChartInput {
+        title: title.to_string(),
+        x_label: "Water content (%)".into(),
+        y_label: "Dry density (kg/m³)".into(),
+        lab_points: points
+            .iter()
+            .map(|p| (p.water_content_pct, p.dry_density_kg_m3))
+            .collect(),
+        fitted: pairs(fit.curve.clone()),
+        optimum: (fit.optimum_water_content.pct(), fit.max_dry_density.kg_m3()),
+        zero_air_voids: pairs(zero_air_voids_line(gs, lo, hi, 40)),
+        saturation_lines: [90.0, 80.0]
+            .iter()
+            .map(|sat| Series {
+                label: format!("S = {sat:.0} %"),
+                points: pairs(saturation_line(gs, *sat, lo, hi, 40)),
+            })
+            .collect(),
+        field_points: marks,
+        optimum_label: format!(
+            "MDD {:.0} kg/m³ at OMC {:.1} %",
+            fit.max_dry_density.kg_m3(),
+            fit.optimum_water_content.pct()
+        ),
     })
 }

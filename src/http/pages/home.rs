@@ -36,6 +36,7 @@ struct ProjectsPage {
     projects: Vec<ProjectRow>,
     demo: bool,
     who: String,
+    admin: bool,
 }
 
 async fn projects(State(s): State<AppState>, caller: Caller) -> PageResult {
@@ -56,6 +57,7 @@ async fn projects(State(s): State<AppState>, caller: Caller) -> PageResult {
         projects,
         demo: s.settings.demo,
         who: caller.actor().name,
+        admin: caller.is_admin(),
     })
 }
 
@@ -101,6 +103,7 @@ struct ProjectPage {
     activity: Vec<Activity>,
     /// The caller may import a CSV file (links the import page).
     may_import: bool,
+    may_setup: bool,
 }
 
 async fn project_home(
@@ -111,10 +114,11 @@ async fn project_home(
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
 
     let p = setup::require_project(&s.db, id).await?;
-    let may_import = caller
-        .role_in(&s.db, id)
-        .await?
-        .is_some_and(|r| allows(r, Action::ManageSetup));
+    let role = caller.role_in(&s.db, id).await?;
+    let may_import = role.is_some_and(|r| allows(r, Action::ManageSetup));
+    // The set-up page is for admins (people) and those who change set-up or tokens.
+    let may_setup = caller.is_admin()
+        || role.is_some_and(|r| allows(r, Action::ManageSetup) || allows(r, Action::ManageTokens));
     let u = Units::of(&p);
     let reports = overview::summaries(&s.db, &s.views, id).await?;
     let states = [
@@ -215,6 +219,7 @@ async fn project_home(
         queue,
         activity,
         may_import,
+        may_setup,
         code: p.code,
         name: p.name,
         contract: p.contract,

@@ -5,7 +5,7 @@
 //! JavaScript; `static/entry.js` only adds the live preview on the site-entry form,
 //! and `static/import.js` the upload progress on the import page.
 
-mod curve;
+pub mod curve;
 mod entry;
 mod home;
 mod import;
@@ -13,6 +13,7 @@ mod lot;
 pub mod map;
 mod review;
 pub mod session;
+mod setup;
 mod test_page;
 mod tests_list;
 
@@ -31,6 +32,7 @@ pub fn router() -> Router<AppState> {
         .route("/static/style.css", get(style))
         .route("/static/entry.js", get(entry_js))
         .route("/static/import.js", get(import_js))
+        .route("/static/setup.js", get(setup_js))
         .merge(home::router())
         .merge(import::router())
         .merge(map::router())
@@ -41,6 +43,7 @@ pub fn router() -> Router<AppState> {
         .merge(review::router())
         .merge(session::router())
         .merge(test_page::router())
+        .merge(setup::router())
 }
 
 async fn style() -> impl IntoResponse {
@@ -70,6 +73,16 @@ async fn import_js() -> impl IntoResponse {
             (header::CACHE_CONTROL, "public, max-age=300"),
         ],
         include_str!("../../../static/import.js"),
+    )
+}
+
+async fn setup_js() -> impl IntoResponse {
+    (
+        [
+            (header::CONTENT_TYPE, "text/javascript; charset=utf-8"),
+            (header::CACHE_CONTROL, "public, max-age=300"),
+        ],
+        include_str!("../../../static/setup.js"),
     )
 }
 

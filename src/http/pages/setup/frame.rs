@@ -1,0 +1,477 @@
+//! The frame tests are judged in, one form each: clauses, borrow sources, moulds,
+//! layers and single lots (QC managers).
+
+use askama::Template;
+use axum::Router;
+use axum::body::Bytes;
+use axum::extract::{Path, State};
+use axum::routing::get;
+
+use super::form::{Field, Kind, Values, decode};
+use super::summary::{Terms, clause_words};
+use super::{Context, FormSpec, wants_preview};
+use crate::app::AppState;
+use crate::auth::Action;
+use crate::db;
+use crate::http::caller::Caller;
+use crate::http::pages::{PageResult, see_other};
+use crate::ledger::moulds::{self, MouldInput};
+use crate::ledger::setup::{self, ClauseInput, LayerInput, LotInput, SourceInput};
+use crate::reduction::lab::EffortPreset;
+
+/// Routes of this module.
+pub fn router() -> Router<AppState> {
+    Router::new()
+        .route(
+            "/projects/{id}/setup/clauses/new",
+            get(clause_form).post(clause_post),
+        )
+        .route(
+            "/projects/{id}/setup/sources/new",
+            get(source_form).post(source_post),
+        )
+        .route(
+            "/projects/{id}/setup/moulds/new",
+            get(mould_form).post(mould_post),
+        )
+        .route(
+            "/projects/{id}/setup/layers/new",
+            get(layer_form).post(layer_post),
+        )
+        .route(
+            "/projects/{id}/setup/lots/new",
+            get(lot_form).post(lot_post),
+        )
+}
+
+fn hub(ctx: &Context) -> String {
+    format!("/projects/{}/setup", ctx.project.id)
+}
+
+fn spec(ctx: &Context, title: &str, intro: &str, path: &str, fields: Vec<Field>) -> FormSpec {
+    FormSpec {
+        nav: Some(ctx.nav.clone()),
+        title: title.into(),
+        intro: intro.into(),
+        action_url: format!("/projects/{}/setup/{path}", ctx.project.id),
+        back_href: hub(ctx),
+        back_label: "Back to set-up".into(),
+        fields,
+        has_preview: false,
+        submit_label: "Save".into(),
+    }
+}
+
+fn pairs(v: &[(&str, &str)]) -> Vec<(String, String)> {
+    v.iter()
+        .map(|(a, b)| (a.to_string(), b.to_string()))
+        .collect()
+}
+
+/// Every effort a clause may name: the presets, a custom effort, or any.
+pub fn clause_efforts() -> Vec<(String, String)> {
+    let mut v: Vec<(String, String)> = EffortPreset::ALL
+        .iter()
+        .map(|p| (p.code().to_string(), p.label().to_string()))
+        .collect();
+    v.push(("custom".into(), "A custom effort".into()));
+    v.push(("any".into(), "Any effort".into()));
+    v
+}
+
+fn clause_fields() -> Vec<Field> {
+    vec![
+        Field::new("code", "Clause code", Kind::Text, true)
+            .hint("as the specification numbers it, e.g. 6.4.2"),
+        Field::new("title", "Title", Kind::Text, false),
+        Field::new(
+            "effort",
+            "Reference effort",
+            Kind::Choice(clause_efforts()),
+            true,
+        )
+        .hint("lots under this clause are judged against a curve of this effort"),
+        Field::new(
+            "rc_min_pct",
+            "Relative compaction at least (%)",
+            Kind::Number,
+            true,
+        ),
+        Field::new(
+            "moisture_below_pct",
+            "Moisture window, dry of optimum (points)",
+            Kind::Number,
+            true,
+        ),
+        Field::new(
+            "moisture_above_pct",
+            "Moisture window, wet of optimum (points)",
+            Kind::Number,
+            true,
+        ),
+        Field::new(
+            "rule",
+            "Acceptance rule",
+            Kind::Choice(pairs(&[
+                ("every_test", "Every test meets the minimum"),
+                ("mean_and_min", "Mean meets the minimum, no test far below"),
+                ("quality_index", "Percent within limits (statistical)"),
+            ])),
+            true,
+        ),
+        Field::new(
+            "allowance_pct",
+            "Allowance below the minimum (points)",
+            Kind::Number,
+            false,
+        )
+        .hint("mean-and-minimum rule only"),
+        Field::new(
+            "min_pwl_pct",
+            "Least percent within limits (%)",
+            Kind::Number,
+            false,
+        )
+        .hint("percent-within-limits rule only"),
+        Field::new(
+            "min_tests_per_lot",
+            "Least tests per lot",
+            Kind::Integer,
+            true,
+        ),
+        Field::new(
+            "area_per_test_m2",
+            "One test per (m² of lift)",
+            Kind::Number,
+            false,
+        ),
+        Field::new(
+            "length_per_test_m",
+            "One test per (m of chainage)",
+            Kind::Number,
+            false,
+        ),
+        Field::new(
+            "oversize_limit_pct",
+            "Oversize correction up to (% coarse)",
+            Kind::Number,
+            false,
+        )
+        .hint("empty: the library's default"),
+    ]
+}
+
+fn clause_spec(ctx: &Context) -> FormSpec {
+    let mut s = spec(
+        ctx,
+        "New clause",
+        "The specification clause lots are judged by. Preview reads the rule back in words before it is saved.",
+        "clauses/new",
+        clause_fields(),
+    );
+    s.has_preview = true;
+    s
+}
+
+async fn clause_form(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
+    let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
+    let defaults: Values = [
+        ("rule", "every_test"),
+        ("min_tests_per_lot", "3"),
+        ("rc_min_pct", "95"),
+    ]
+    .iter()
+    .map(|(k, v)| (k.to_string(), v.to_string()))
+    .collect();
+    clause_spec(&ctx).blank(&defaults)
+}
+
+/// The clause as words, escaped by its own template.
+#[derive(Template)]
+#[template(
+    source = r#"<div class="notice" id="clause-words"><h2>As it will be applied</h2><ul>{% for w in words %}<li>{{ w }}</li>{% endfor %}</ul><p>Not saved yet.</p></div>"#,
+    ext = "html"
+)]
+struct ClauseWords {
+    words: Vec<String>,
+}
+
+async fn clause_post(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+    body: Bytes,
+) -> PageResult {
+    let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
+    let spec = clause_spec(&ctx);
+    let values = decode(&body);
+    if wants_preview(&values) {
+        let input: ClauseInput = match spec.input(&values, &ctx.units) {
+            Ok(i) => i,
+            Err(errors) => return spec.refused(&values, &errors),
+        };
+        let words = clause_words(&Terms {
+            rc_min_pct: input.rc_min_pct,
+            moisture_below_pct: input.moisture_below_pct,
+            moisture_above_pct: input.moisture_above_pct,
+            effort: &input.effort,
+            rule: &input.rule,
+            allowance_pct: input.allowance_pct,
+            min_pwl_pct: input.min_pwl_pct,
+            area_per_test_m2: input.area_per_test_m2,
+            length_per_test_m: input.length_per_test_m,
+            min_tests_per_lot: input.min_tests_per_lot,
+            oversize_limit_pct: input.oversize_limit_pct,
+        });
+        let html = ClauseWords { words }
+            .render()
+            .map_err(anyhow::Error::from)
+            .map_err(crate::error::AppError::from)?;
+        return crate::http::pages::render(&spec.page(&values, &Default::default(), html));
+    }
+    let saved = spec
+        .submit(&values, &ctx.units, async |input: ClauseInput| {
+            setup::create_clause(&s.db, id, &input, &ctx.actor).await
+        })
+        .await?;
+    Ok(saved.map_or_else(|refused| refused, |_| see_other(&hub(&ctx))))
+}
+
+fn source_spec(ctx: &Context) -> FormSpec {
+    spec(
+        ctx,
+        "New borrow source",
+        "Where fill comes from and what it is. Its lab curves are entered from its set-up line.",
+        "sources/new",
+        vec![
+            Field::new("code", "Source code", Kind::Text, true),
+            Field::new("name", "Name", Kind::Text, true),
+            Field::new("description", "Description", Kind::TextArea, false),
+            Field::new("uscs_class", "USCS class", Kind::Text, false).hint("e.g. SC, GW-GM"),
+            Field::new("aashto_class", "AASHTO class", Kind::Text, false).hint("e.g. A-2-4"),
+            Field::new("gs_fines", "Specific gravity of the fines (Gs)", Kind::Number, true)
+                .hint("of the soil solids passing the oversize sieve; draws the zero-air-voids line"),
+            Field::new("gs_coarse", "Bulk specific gravity of the oversize", Kind::Number, false)
+                .hint("oven-dry bulk specific gravity of the retained gravel (ASTM C127 / AASHTO T 85), used by the oversize correction"),
+        ],
+    )
+}
+
+async fn source_form(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
+    let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
+    source_spec(&ctx).blank(&Values::new())
+}
+
+async fn source_post(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+    body: Bytes,
+) -> PageResult {
+    let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
+    let values = decode(&body);
+    let saved = source_spec(&ctx)
+        .submit(&values, &ctx.units, async |input: SourceInput| {
+            setup::create_source(&s.db, id, &input, &ctx.actor).await
+        })
+        .await?;
+    Ok(saved.map_or_else(|refused| refused, |_| see_other(&hub(&ctx))))
+}
+
+fn mould_spec(ctx: &Context) -> FormSpec {
+    spec(
+        ctx,
+        "Register a mould",
+        "Each compaction mould with its calibrated volume. Lab curves entered from raw masses take the volume from here.",
+        "moulds/new",
+        vec![
+            Field::new("code", "Mould mark", Kind::Text, true).hint("as stamped or painted on the mould"),
+            Field::new("volume_cm3", "Calibrated volume (cm³)", Kind::Number, true)
+                .hint("measured at calibration; nominal 944 cm³ for a 4-in and 2124 cm³ for a 6-in mould (ASTM D698)"),
+            Field::new("mass_g", "Empty mass (g)", Kind::Number, false),
+            Field::new("calibrated_on", "Calibrated on", Kind::Date, true),
+        ],
+    )
+}
+
+async fn mould_form(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
+    let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
+    mould_spec(&ctx).blank(&Values::new())
+}
+
+async fn mould_post(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+    body: Bytes,
+) -> PageResult {
+    let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
+    let values = decode(&body);
+    let saved = mould_spec(&ctx)
+        .submit(&values, &ctx.units, async |input: MouldInput| {
+            moulds::create_mould(&s.db, id, &input, &ctx.actor).await
+        })
+        .await?;
+    Ok(saved.map_or_else(|refused| refused, |_| see_other(&hub(&ctx))))
+}
+
+fn layer_spec(ctx: &Context) -> FormSpec {
+    spec(
+        ctx,
+        "New layer",
+        "A lift of a zone (embankment fill, subgrade, capping…). A new zone name makes the zone.",
+        "layers/new",
+        vec![
+            Field::new("zone", "Zone", Kind::Text, true),
+            Field::new("number", "Layer number", Kind::Integer, true)
+                .hint("1 is the lowest lift of the zone"),
+            Field::new(
+                "thickness_mm",
+                "Compacted thickness (mm)",
+                Kind::Number,
+                false,
+            ),
+        ],
+    )
+}
+
+async fn layer_form(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
+    let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
+    layer_spec(&ctx).blank(&Values::new())
+}
+
+async fn layer_post(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+    body: Bytes,
+) -> PageResult {
+    let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
+    let values = decode(&body);
+    let saved = layer_spec(&ctx)
+        .submit(&values, &ctx.units, async |input: LayerInput| {
+            setup::create_layer(&s.db, id, &input, &ctx.actor).await
+        })
+        .await?;
+    Ok(saved.map_or_else(|refused| refused, |_| see_other(&hub(&ctx))))
+}
+
+/// The records a lot form offers: the project's layers, clauses and active curves.
+pub struct LotChoices {
+    pub layers: Vec<(i64, String)>,
+    pub clauses: Vec<(i64, String)>,
+    pub curves: Vec<(i64, String)>,
+}
+
+impl LotChoices {
+    /// Reads the project's choices.
+    pub async fn load(pool: &db::Pool, ctx: &Context) -> PageResult<Self> {
+        let u = &ctx.units;
+        let layers = db::layers::list(pool, ctx.project.id)
+            .await?
+            .into_iter()
+            .map(|l| (l.id, format!("{} layer {}", l.zone_name, l.number)))
+            .collect();
+        let clauses = db::clauses::list(pool, ctx.project.id)
+            .await?
+            .into_iter()
+            .map(|c| (c.id, format!("{} {}", c.code, c.title).trim().to_string()))
+            .collect();
+        let curves = db::lab_tests::list_for_project(pool, ctx.project.id)
+            .await?
+            .into_iter()
+            .filter(|t| t.status == "active")
+            .map(|t| {
+                (
+                    t.id,
+                    format!(
+                        "{} · MDD {} at OMC {:.1} %",
+                        t.code,
+                        u.density_with_unit(t.max_dry_density_kg_m3),
+                        t.optimum_water_content_pct
+                    ),
+                )
+            })
+            .collect();
+        Ok(Self {
+            layers,
+            clauses,
+            curves,
+        })
+    }
+
+    /// The fields every lot form shares: layer, offsets, clause and curve.
+    pub fn fields(&self, offset_unit: &str) -> Vec<Field> {
+        vec![
+            Field::new("layer_id", "Layer", Kind::Record(self.layers.clone()), true),
+            Field::new(
+                "offset_left_m",
+                &format!("Left edge offset ({offset_unit})"),
+                Kind::Number,
+                true,
+            )
+            .hint("from the centreline, negative to the left"),
+            Field::new(
+                "offset_right_m",
+                &format!("Right edge offset ({offset_unit})"),
+                Kind::Number,
+                true,
+            ),
+            Field::new(
+                "clause_id",
+                "Clause",
+                Kind::Record(self.clauses.clone()),
+                true,
+            ),
+            Field::new(
+                "lab_test_id",
+                "Reference lab curve",
+                Kind::Record(self.curves.clone()),
+                true,
+            )
+            .hint("active curves only; the clause's effort must match"),
+        ]
+    }
+}
+
+async fn lot_spec(s: &AppState, ctx: &Context) -> PageResult<FormSpec> {
+    let choices = LotChoices::load(&s.db, ctx).await?;
+    let mut fields = vec![
+        Field::new("code", "Lot code", Kind::Text, true),
+        Field::new("chainage_from_m", "From chainage", Kind::Chainage, true),
+        Field::new("chainage_to_m", "To chainage", Kind::Chainage, true),
+    ];
+    fields.extend(choices.fields("m"));
+    Ok(spec(
+        ctx,
+        "New lot",
+        "One lot of a layer, judged by a clause against a lab curve. To divide a whole stretch at once, use the split page.",
+        "lots/new",
+        fields,
+    ))
+}
+
+async fn lot_form(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
+    let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
+    lot_spec(&s, &ctx).await?.blank(&Values::new())
+}
+
+async fn lot_post(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+    body: Bytes,
+) -> PageResult {
+    let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
+    let values = decode(&body);
+    let saved = lot_spec(&s, &ctx)
+        .await?
+        .submit(&values, &ctx.units, async |input: LotInput| {
+            setup::create_lot(&s.db, id, &input, &ctx.actor).await
+        })
+        .await?;
+    Ok(saved.map_or_else(
+        |refused| refused,
+        |lot| see_other(&format!("/lots/{}", lot.id)),
+    ))
+}

@@ -1,0 +1,133 @@
+//! A clause's terms in plain words, as the ledger will apply them.
+//!
+//! Shown on the clause form's preview and on the set-up page, so a QC manager
+//! reads the rule back before tests are judged by it.
+
+use crate::db::clauses::Clause;
+use crate::reduction::lab::EffortPreset;
+
+/// The terms the words are made from (a stored clause, or a form not yet saved).
+pub struct Terms<'a> {
+    pub rc_min_pct: f64,
+    pub moisture_below_pct: f64,
+    pub moisture_above_pct: f64,
+    pub effort: &'a str,
+    pub rule: &'a str,
+    pub allowance_pct: Option<f64>,
+    pub min_pwl_pct: Option<f64>,
+    pub area_per_test_m2: Option<f64>,
+    pub length_per_test_m: Option<f64>,
+    pub min_tests_per_lot: i64,
+    pub oversize_limit_pct: Option<f64>,
+}
+
+impl<'a> From<&'a Clause> for Terms<'a> {
+    fn from(c: &'a Clause) -> Self {
+        Self {
+            rc_min_pct: c.rc_min_pct,
+            moisture_below_pct: c.moisture_below_pct,
+            moisture_above_pct: c.moisture_above_pct,
+            effort: &c.effort,
+            rule: &c.rule,
+            allowance_pct: c.allowance_pct,
+            min_pwl_pct: c.min_pwl_pct,
+            area_per_test_m2: c.area_per_test_m2,
+            length_per_test_m: c.length_per_test_m,
+            min_tests_per_lot: c.min_tests_per_lot,
+            oversize_limit_pct: Some(c.oversize_limit_pct),
+        }
+    }
+}
+
+fn effort_words(code: &str) -> String {
+    match code {
+        "any" => "a lab curve of any effort".into(),
+        "custom" => "a lab curve of a custom effort".into(),
+        c => EffortPreset::parse_code(c).map_or(format!("a lab curve of effort {c}"), |p| {
+            format!("a lab curve of {}", p.label())
+        }),
+    }
+}
+
+fn rule_words(t: &Terms) -> String {
+    match t.rule {
+        "every_test" => format!(
+            "Every counted test must reach {:.1} % relative compaction.",
+            t.rc_min_pct
+        ),
+        "mean_and_min" => format!(
+            "The lot's mean relative compaction must reach {:.1} % and no counted test may fall more than {:.1} points below it.",
+            t.rc_min_pct,
+            t.allowance_pct.unwrap_or(0.0)
+        ),
+        "quality_index" => format!(
+            "At least {:.0} % of the lot must lie above {:.1} % relative compaction, estimated from the tests' mean and standard deviation (percent within limits).",
+            t.min_pwl_pct.unwrap_or(90.0),
+            t.rc_min_pct
+        ),
+        other => format!("Rule '{other}' is not one liftledger knows."),
+    }
+}
+
+fn frequency_words(t: &Terms) -> String {
+    let mut parts = vec![format!("at least {} tests per lot", t.min_tests_per_lot)];
+    if let Some(a) = t.area_per_test_m2 {
+        parts.push(format!("one per {a:.0} m² of lift"));
+    }
+    if let Some(l) = t.length_per_test_m {
+        parts.push(format!("one per {l:.0} m of chainage"));
+    }
+    format!("Tests owed: {}, whichever asks for more.", parts.join(", "))
+}
+
+/// The clause's rule in sentences, in the order the ledger applies it.
+pub fn clause_words(t: &Terms) -> Vec<String> {
+    let mut words = vec![
+        format!("Judged against {}.", effort_words(t.effort)),
+        rule_words(t),
+        format!(
+            "Each test's water content must lie between {:.1} points dry and {:.1} points wet of the optimum.",
+            t.moisture_below_pct, t.moisture_above_pct
+        ),
+        frequency_words(t),
+    ];
+    if let Some(o) = t.oversize_limit_pct {
+        words.push(format!(
+            "Oversize is corrected for up to {o:.0} % coarse fraction; a test with more cannot be judged against the curve."
+        ));
+    }
+    words
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn mean_and_minimum_reads_as_both_limits() {
+        let t = Terms {
+            rc_min_pct: 95.0,
+            moisture_below_pct: 2.0,
+            moisture_above_pct: 1.5,
+            effort: "astm_d1557_4in",
+            rule: "mean_and_min",
+            allowance_pct: Some(3.0),
+            min_pwl_pct: None,
+            area_per_test_m2: Some(1000.0),
+            length_per_test_m: None,
+            min_tests_per_lot: 3,
+            oversize_limit_pct: Some(30.0),
+        };
+        let words = clause_words(&t).join(" ");
+        assert!(
+            words.contains("mean relative compaction must reach 95.0 %"),
+            "{words}"
+        );
+        assert!(words.contains("more than 3.0 points below"), "{words}");
+        assert!(
+            words.contains("2.0 points dry and 1.5 points wet"),
+            "{words}"
+        );
+        assert!(words.contains("one per 1000 m²"), "{words}");
+    }
+}
