@@ -11,6 +11,8 @@ pub mod field;
 pub mod import;
 pub mod lot_report;
 pub mod overview;
+pub mod reference;
+pub mod resample;
 pub mod review;
 pub mod setup;
 pub mod test_list;

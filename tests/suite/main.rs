@@ -16,3 +16,4 @@ mod pages;
 mod restart;
 mod shared_postgres;
 mod transfer;
+mod verdicts;
