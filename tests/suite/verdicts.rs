@@ -919,3 +919,195 @@ async fn curves_stored_before_the_rules_are_rechecked_at_start_and_certificates_
             .unwrap();
     assert_eq!(checks, 1);
 }
+
+#[tokio::test]
+async fn the_demo_shows_a_curve_awaiting_approval_a_flagged_test_and_a_chain_of_two_retests() {
+    let app = crate::helpers::spawn_demo().await;
+    let (_, sources) = app.get("/api/v1/projects/1/sources").await;
+    let c3 = sources
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|s| s["code"] == "C3")
+        .unwrap()["id"]
+        .as_i64()
+        .unwrap();
+    let (_, labs) = app.get(&format!("/api/v1/sources/{c3}/lab-tests")).await;
+    let m2 = labs
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|l| l["code"] == "C3-M2")
+        .unwrap();
+    assert_eq!(m2["approval"], "needs_approval", "{m2}");
+    let (_, html) = page(&app, &format!("/lab-tests/{}", m2["id"])).await;
+    assert!(html.contains("AWAITING APPROVAL"));
+
+    let line = |r: &Value, n: &str| {
+        r["tests"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|t| t["test"]["number"] == n)
+            .unwrap()
+            .clone()
+    };
+    // Capping layers are 200 mm thick; T-0434 was read with the probe at 250 mm.
+    let cp3 = demo_lot(&app, "CP3-1").await;
+    assert_eq!(
+        line(&cp3, "T-0434")["flags"][0]["code"],
+        "probe_deeper_than_layer"
+    );
+    // T-0333 failed, its retest T-0334 failed, T-0450 passed: one location, one value.
+    let ef = demo_lot(&app, "EF06-4").await;
+    assert_eq!(line(&ef, "T-0333")["superseded_by"], "T-0450");
+    assert_eq!(line(&ef, "T-0334")["superseded_by"], "T-0450");
+    assert_eq!(line(&ef, "T-0334")["retest_of_number"], "T-0333");
+    assert_eq!(line(&ef, "T-0450")["standing"], "counted");
+    assert_eq!(line(&ef, "T-0450")["passed"], true);
+}
+
+/// The report of a demo lot by code.
+async fn demo_lot(app: &TestApp, code: &str) -> Value {
+    let (_, lots) = app.get("/api/v1/projects/1/lots?per_page=100").await;
+    let id = lots["lots"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|l| l["code"] == code)
+        .unwrap()["id"]
+        .as_i64()
+        .unwrap();
+    app.get(&format!("/api/v1/lots/{id}")).await.1
+}
+
+/// Every "A % is below the B % ..." in a list of reasons, as (A, B).
+fn below_pairs(reasons: &[String]) -> Vec<(String, String)> {
+    reasons
+        .iter()
+        .filter_map(|r| {
+            let (head, tail) = r.split_once(" % is below the ")?;
+            let value = head.rsplit(' ').next()?.to_string();
+            let limit = tail.split(' ').next()?.to_string();
+            Some((value, limit))
+        })
+        .collect()
+}
+
+#[tokio::test]
+async fn limits_are_compared_as_the_clause_rounds_and_reasons_print_the_value_compared() {
+    // ASTM E29 rounding method (default): 94.95 → 95.0 (§6.4.3: the retained 9 is odd, so it
+    // rounds up) meets "95.0"; 94.94 → 94.9 does not.
+    let app = spawn_app().await;
+    let f = build_frame(&app, json!({"rule": "every_test"})).await;
+    let (mdd, omc) = mdd_omc(&app, f.lab_test).await;
+    let (s, t) = app
+        .post(
+            &format!("/api/v1/lots/{}/field-tests", f.lot),
+            &nuclear_test("R-1", 1010.0, 0.9495 * mdd, omc),
+        )
+        .await;
+    assert_eq!(s, 201, "{t}");
+    assert_eq!(t["passed"], true, "{t}");
+    assert_eq!(
+        t["reasons"][0],
+        "relative compaction 95.0 % meets the 95.0 % minimum"
+    );
+    let (_, t) = app
+        .post(
+            &format!("/api/v1/lots/{}/field-tests", f.lot),
+            &nuclear_test("R-2", 1020.0, 0.9494 * mdd, omc),
+        )
+        .await;
+    assert_eq!(t["passed"], false);
+    assert_eq!(
+        t["reasons"][0],
+        "relative compaction 94.9 % is below the 95.0 % minimum"
+    );
+
+    // The absolute method compares unrounded: 94.95 is below 95.0 and is printed as 94.95.
+    let app = spawn_app().await;
+    let f = build_frame(&app, json!({"rule": "every_test", "rounding": "absolute"})).await;
+    let (mdd, omc) = mdd_omc(&app, f.lab_test).await;
+    let (_, t) = app
+        .post(
+            &format!("/api/v1/lots/{}/field-tests", f.lot),
+            &nuclear_test("R-1", 1010.0, 0.9495 * mdd, omc),
+        )
+        .await;
+    assert_eq!(t["passed"], false, "{t}");
+    assert_eq!(
+        t["reasons"][0],
+        "relative compaction 94.95 % is below the 95.0 % minimum"
+    );
+    for (i, rc) in [0.99999, 0.97, 0.98].iter().enumerate() {
+        test_at(
+            &app,
+            f.lot,
+            f.lab_test,
+            &format!("R-{}", i + 2),
+            1030.0 + 20.0 * i as f64,
+            *rc - 0.05,
+            0.0,
+        )
+        .await;
+    }
+    let (_, r) = app.get(&format!("/api/v1/lots/{}", f.lot)).await;
+    let reasons: Vec<String> = serde_json::from_value(r["verdict"]["reasons"].clone()).unwrap();
+    let pairs = below_pairs(&reasons);
+    assert!(!pairs.is_empty(), "{reasons:?}");
+    for (value, limit) in pairs {
+        assert_ne!(
+            value, limit,
+            "a reason prints the value it compared: {reasons:?}"
+        );
+    }
+
+    // A limit written with more decimals than the clause's convention is refused.
+    let before = app.all_counts().await;
+    let (s, e) = app
+        .post(
+            &format!("/api/v1/projects/{}/clauses", f.project),
+            &json!({"code": "C5", "rc_min_pct": 95.05, "moisture_below_pct": 2.0, "moisture_above_pct": 2.0,
+                    "effort": "astm_d1557_4in", "rule": "every_test", "min_tests_per_lot": 3}),
+        )
+        .await;
+    assert_eq!(
+        (s, e["error"]["field"].as_str()),
+        (422, Some("rc_min_pct")),
+        "{e}"
+    );
+    let (s, e) = app
+        .post(
+            &format!("/api/v1/projects/{}/clauses", f.project),
+            &json!({"code": "C5", "rc_min_pct": 95.0, "moisture_below_pct": 2.0, "moisture_above_pct": 2.0,
+                    "effort": "astm_d1557_4in", "rule": "every_test", "min_tests_per_lot": 3, "rounding": "nearest"}),
+        )
+        .await;
+    assert_eq!(
+        (s, e["error"]["field"].as_str()),
+        (422, Some("rounding")),
+        "{e}"
+    );
+    assert_eq!(app.all_counts().await, before);
+}
+
+#[tokio::test]
+async fn no_demo_reason_prints_a_failing_value_equal_to_its_limit() {
+    let app = crate::helpers::spawn_demo().await;
+    let (_, lots) = app.get("/api/v1/projects/1/lots?per_page=100").await;
+    let mut seen = 0;
+    for l in lots["lots"].as_array().unwrap() {
+        let (_, r) = app.get(&format!("/api/v1/lots/{}", l["id"])).await;
+        let mut reasons: Vec<String> =
+            serde_json::from_value(r["verdict"]["reasons"].clone()).unwrap();
+        for t in r["tests"].as_array().unwrap() {
+            reasons.extend(serde_json::from_value::<Vec<String>>(t["reasons"].clone()).unwrap());
+        }
+        for (value, limit) in below_pairs(&reasons) {
+            seen += 1;
+            assert_ne!(value, limit, "lot {}: {reasons:?}", l["code"]);
+        }
+    }
+    assert!(seen > 0, "the demo has failing tests to look at");
+}
