@@ -71,6 +71,7 @@ fn bench_field_and_lots(n_tests: usize, lot_size: usize) {
         rc_min_pct: 95.0,
         moisture_below_pct: 2.0,
         moisture_above_pct: 2.0,
+        rounding: liftledger::reduction::rounding::Rounding::E29_ONE_DECIMAL,
     };
     let rules = [
         AcceptanceRule::EveryTest,
@@ -93,6 +94,9 @@ fn bench_field_and_lots(n_tests: usize, lot_size: usize) {
                     passed: v.passed,
                     voided: i.is_multiple_of(97),
                     retest_of: (i % 10 == 9).then_some(i as i64 - 1),
+                    tested_at: String::new(),
+                    unjudged: None,
+                    earlier_sample: false,
                 });
             }
             Err(_) => refused += 1,

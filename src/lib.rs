@@ -32,6 +32,10 @@ pub async fn serve(
     state: AppState,
     shutdown: impl std::future::Future<Output = ()> + Send + 'static,
 ) -> std::io::Result<()> {
+    // Curves stored before the quality rules are checked once, before the first request.
+    if let Err(e) = ledger::reference::recheck_curves(&state.db).await {
+        tracing::warn!(error = %e.user_message(), "curve quality re-check failed; it runs again at the next start");
+    }
     let app = http::router(state).into_make_service_with_connect_info::<SocketAddr>();
     axum::serve(listener, app)
         .with_graceful_shutdown(shutdown)

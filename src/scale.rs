@@ -335,6 +335,7 @@ impl TestGenerator {
             easting: Some((easting * 1000.0).round() / 1000.0),
             northing: Some((northing * 1000.0).round() / 1000.0),
             readings,
+            confirm_implausible: false,
         };
         (
             ImportRow {

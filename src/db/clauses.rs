@@ -23,17 +23,32 @@ pub struct Clause {
     pub min_tests_per_lot: i64,
     pub oversize_limit_pct: f64,
     pub created_at: String,
+    /// "per_test" (the moisture window for every test) or "pwl" (two-sided percent within limits).
+    pub moisture_judgement: String,
+    /// Least moisture percent within limits under "pwl".
+    pub moisture_min_pwl_pct: Option<f64>,
+    /// Relative compaction above this is flagged implausible.
+    pub rc_plausible_max_pct: f64,
+    /// "astm_e29" (round to the limits' written decimals) or "absolute".
+    pub rounding: String,
+    /// Decimals the contract writes its limits with.
+    pub limit_decimals: i64,
 }
+
+/// Every column, in the struct's order.
+const COLUMNS: &str = "id, project_id, code, title, rc_min_pct, moisture_below_pct, moisture_above_pct, effort, rule,
+    allowance_pct, min_pwl_pct, area_per_test_m2, length_per_test_m, min_tests_per_lot, oversize_limit_pct, created_at,
+    moisture_judgement, moisture_min_pwl_pct, rc_plausible_max_pct, rounding, limit_decimals";
 
 /// Inserts a clause; `c.id` and `c.created_at` are ignored and filled by the database.
 pub async fn insert(tx: &mut Tx<'_>, c: &Clause) -> sqlx::Result<Clause> {
-    sqlx::query_as::<_, Clause>(
+    sqlx::query_as::<_, Clause>(sqlx::AssertSqlSafe(format!(
         "INSERT INTO clauses (project_id, code, title, rc_min_pct, moisture_below_pct, moisture_above_pct, effort, rule,
-             allowance_pct, min_pwl_pct, area_per_test_m2, length_per_test_m, min_tests_per_lot, oversize_limit_pct, created_at)
-         VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15)
-         RETURNING id, project_id, code, title, rc_min_pct, moisture_below_pct, moisture_above_pct, effort, rule,
-             allowance_pct, min_pwl_pct, area_per_test_m2, length_per_test_m, min_tests_per_lot, oversize_limit_pct, created_at",
-    )
+             allowance_pct, min_pwl_pct, area_per_test_m2, length_per_test_m, min_tests_per_lot, oversize_limit_pct, created_at,
+             moisture_judgement, moisture_min_pwl_pct, rc_plausible_max_pct, rounding, limit_decimals)
+         VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18, $19, $20)
+         RETURNING {COLUMNS}"
+    )))
     .bind(c.project_id)
     .bind(&c.code)
     .bind(&c.title)
@@ -49,17 +64,20 @@ pub async fn insert(tx: &mut Tx<'_>, c: &Clause) -> sqlx::Result<Clause> {
     .bind(c.min_tests_per_lot)
     .bind(c.oversize_limit_pct)
     .bind(&c.created_at)
+    .bind(&c.moisture_judgement)
+    .bind(c.moisture_min_pwl_pct)
+    .bind(c.rc_plausible_max_pct)
+    .bind(&c.rounding)
+    .bind(c.limit_decimals)
     .fetch_one(&mut **tx)
     .await
 }
 
 /// Every clause of a project.
 pub async fn list(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<Clause>> {
-    sqlx::query_as::<_, Clause>(
-        "SELECT id, project_id, code, title, rc_min_pct, moisture_below_pct, moisture_above_pct, effort, rule,
-             allowance_pct, min_pwl_pct, area_per_test_m2, length_per_test_m, min_tests_per_lot, oversize_limit_pct, created_at
-         FROM clauses WHERE project_id = $1 ORDER BY code",
-    )
+    sqlx::query_as::<_, Clause>(sqlx::AssertSqlSafe(format!(
+        "SELECT {COLUMNS} FROM clauses WHERE project_id = $1 ORDER BY code"
+    )))
     .bind(project_id)
     .fetch_all(pool)
     .await
@@ -67,11 +85,9 @@ pub async fn list(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<Clause>> {
 
 /// One clause by id.
 pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Clause>> {
-    sqlx::query_as::<_, Clause>(
-        "SELECT id, project_id, code, title, rc_min_pct, moisture_below_pct, moisture_above_pct, effort, rule,
-             allowance_pct, min_pwl_pct, area_per_test_m2, length_per_test_m, min_tests_per_lot, oversize_limit_pct, created_at
-         FROM clauses WHERE id = $1",
-    )
+    sqlx::query_as::<_, Clause>(sqlx::AssertSqlSafe(format!(
+        "SELECT {COLUMNS} FROM clauses WHERE id = $1"
+    )))
     .bind(id)
     .fetch_optional(pool)
     .await

@@ -25,6 +25,12 @@ pub struct Lot {
     pub zone_name: String,
     pub zone_position: i64,
     pub layer_number: i64,
+    /// Compacted thickness of the lot's layer, mm, when recorded.
+    pub layer_thickness_mm: Option<f64>,
+    /// Which random sample the lot is judged on (1 until a quality-index lot is re-sampled).
+    pub sample: i64,
+    /// Tests with ids up to this belong to earlier samples (None before any re-sample).
+    pub sample_after_test_id: Option<i64>,
 }
 
 /// Fields of a new lot, already validated.
@@ -70,7 +76,7 @@ pub struct Transition {
 const SELECT: &str = "SELECT lo.id, lo.project_id, lo.layer_id, lo.code, lo.chainage_from_m, lo.chainage_to_m,
         lo.offset_left_m, lo.offset_right_m, lo.clause_id, lo.source_id, lo.lab_test_id, lo.state,
         lo.state_changed_at, lo.created_at, lo.created_by, z.name AS zone_name, z.position AS zone_position,
-        la.number AS layer_number
+        la.number AS layer_number, la.thickness_mm AS layer_thickness_mm, lo.sample, lo.sample_after_test_id
      FROM lots lo JOIN layers la ON la.id = lo.layer_id JOIN zones z ON z.id = la.zone_id";
 
 /// Inserts a lot in the open state.
@@ -236,4 +242,42 @@ pub async fn state_for_write(tx: &mut Tx<'_>, lot_id: i64) -> sqlx::Result<Optio
         .bind(lot_id)
         .fetch_optional(&mut **tx)
         .await
+}
+
+/// Lots judged against a lab test (code, clause id).
+pub async fn using_lab_test(pool: &Pool, lab_test_id: i64) -> sqlx::Result<Vec<(String, i64)>> {
+    sqlx::query_as::<_, (String, i64)>(
+        "SELECT code, clause_id FROM lots WHERE lab_test_id = $1 ORDER BY code",
+    )
+    .bind(lab_test_id)
+    .fetch_all(pool)
+    .await
+}
+
+/// Starts a new random sample of a lot: tests up to `after_test_id` become earlier samples.
+/// False when the lot is not at `expected_sample` (someone re-sampled meanwhile).
+pub async fn start_sample(
+    tx: &mut Tx<'_>,
+    lot_id: i64,
+    expected_sample: i64,
+    after_test_id: i64,
+) -> sqlx::Result<bool> {
+    let done = sqlx::query(
+        "UPDATE lots SET sample = sample + 1, sample_after_test_id = $1 WHERE id = $2 AND sample = $3",
+    )
+    .bind(after_test_id)
+    .bind(lot_id)
+    .bind(expected_sample)
+    .execute(&mut **tx)
+    .await?;
+    Ok(done.rows_affected() == 1)
+}
+
+/// The highest field-test id of a lot (0 when it has none), read inside a transaction.
+pub async fn last_test_id(tx: &mut Tx<'_>, lot_id: i64) -> sqlx::Result<i64> {
+    let id: Option<i64> = sqlx::query_scalar("SELECT MAX(id) FROM field_tests WHERE lot_id = $1")
+        .bind(lot_id)
+        .fetch_one(&mut **tx)
+        .await?;
+    Ok(id.unwrap_or(0))
 }

@@ -22,6 +22,27 @@ pub struct Issue<'a> {
     pub comment: &'a str,
 }
 
+/// The curve's approval in words: who approved it, when and why, with the concerns.
+pub fn approval_words(lab: &crate::db::lab_tests::LabTest) -> String {
+    use super::reference::{Approval, concern_messages};
+    match Approval::of(lab) {
+        Approval::NotNeeded => "not needed (no quality concern)".to_string(),
+        Approval::NeedsApproval => {
+            format!("AWAITING APPROVAL: {}", concern_messages(lab).join("; "))
+        }
+        Approval::Approved => format!(
+            "approved by {} on {}: {} (concerns: {})",
+            lab.approved_by.as_deref().unwrap_or("?"),
+            lab.approved_at
+                .as_deref()
+                .map(clock::display)
+                .unwrap_or_default(),
+            lab.approval_reason.as_deref().unwrap_or(""),
+            concern_messages(lab).join("; ")
+        ),
+    }
+}
+
 /// Builds the certificate content for a lot.
 pub fn build(r: &LotReport, issue: Issue<'_>) -> CertificateDoc {
     let u = Units::of(&r.project);
@@ -37,13 +58,8 @@ pub fn build(r: &LotReport, issue: Issue<'_>) -> CertificateDoc {
         .tests
         .iter()
         .map(|t| {
-            let result = match t.standing.as_str() {
-                "voided" => "void",
-                "superseded" => "superseded",
-                _ if t.passed => "pass",
-                _ => "fail",
-            };
-            let mut notes = Vec::new();
+            let result = t.result();
+            let mut notes = t.cautions();
             if let Some(n) = &t.retest_of_number {
                 notes.push(format!("retest of {n}"));
             }
@@ -140,6 +156,7 @@ pub fn build(r: &LotReport, issue: Issue<'_>) -> CertificateDoc {
             omc: format!("{:.1} %", r.lab_test.optimum_water_content_pct),
             specific_gravity: format!("{:.2}", r.lab_test.specific_gravity),
             fit_method: r.lab_test.fit_method.replace('_', " "),
+            approval: approval_words(&r.lab_test),
             oversize_note: if corrected == 0 {
                 "no oversize correction applied".to_string()
             } else {
@@ -158,7 +175,12 @@ pub fn build(r: &LotReport, issue: Issue<'_>) -> CertificateDoc {
                 "{:.1} to +{:.1} points of OMC",
                 -c.moisture_below_pct, c.moisture_above_pct
             ),
-            rule: v.rule_label.clone(),
+            rule: format!(
+                "{}; moisture: {}; {}",
+                v.rule_label,
+                v.moisture_judgement,
+                super::lot_report::rounding_of(c).label()
+            ),
             frequency,
         },
         density_unit: u.density_unit().to_string(),

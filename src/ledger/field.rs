@@ -31,6 +31,9 @@ pub struct FieldTestInput {
     pub easting: Option<f64>,
     pub northing: Option<f64>,
     pub readings: FieldReadings,
+    /// The technician confirms a reading far above zero air voids (refused otherwise).
+    #[serde(default)]
+    pub confirm_implausible: bool,
 }
 
 /// A test checked and reduced, ready to store.
@@ -196,14 +199,9 @@ pub async fn check(
 ) -> Result<CheckedTest> {
     let fallback = retest_of.map(Spot::of);
     let now = clock::now();
-    // Only an oversize correction needs the lot's clause, source and lab curve: a test
-    // without a coarse fraction is checked from the lot alone (three queries fewer).
-    let mut checked = if input.coarse_pct.is_some_and(|c| c > 0.0) {
-        let ctx = LotContext::load(pool, lot).await?;
-        check_loaded(&ctx, input, fallback, actor, &now)?
-    } else {
-        check_record(lot, input, fallback, actor, &now, &|_, _| Ok(()))?
-    };
+    // The plausibility check needs the lab curve's Gs, the oversize check the clause and source.
+    let ctx = LotContext::load(pool, lot).await?;
+    let mut checked = check_loaded(&ctx, input, fallback, actor, &now)?;
     checked.record.retest_of = retest_of.map(|t| t.id);
     Ok(checked)
 }
@@ -219,14 +217,25 @@ pub fn check_loaded(
     actor: &Actor,
     now: &str,
 ) -> Result<CheckedTest> {
-    check_record(
+    let checked = check_record(
         &ctx.lot,
         input,
         fallback,
         actor,
         now,
         &|coarse, coarse_w| ctx.reference_for(coarse, coarse_w).map(|_| ()),
-    )
+    )?;
+    if !input.confirm_implausible
+        && let Ok(gs) = reduction::SpecificGravity::new(ctx.lab.specific_gravity)
+        && let Some(reason) = reduction::plausibility::refusal_without_confirmation(
+            gs,
+            checked.record.water_content_pct,
+            checked.record.dry_density_kg_m3,
+        )
+    {
+        return Err(AppError::invalid("confirm_implausible", reason));
+    }
+    Ok(checked)
 }
 
 /// The rules of [`check_loaded`], with the oversize check (which needs the lot's clause,
@@ -538,7 +547,7 @@ pub async fn record_judged(
         Some(w) => w.store(checked.record, actor, "create").await?,
         None => store(pool, checked, actor, "create").await?,
     };
-    let line = lot_report::judge_alone(&test, &ctx.clause, &ctx.source, &ctx.lab, None)?;
+    let line = lot_report::judge_alone(&test, &ctx.lot, &ctx.clause, &ctx.source, &ctx.lab, None)?;
     Ok((test, line))
 }
 
@@ -553,6 +562,16 @@ pub async fn record_retest(
     let lot = require_lot(pool, failed.lot_id).await?;
     require_lot_takes_tests(&lot)?;
     let report = lot_report::build(pool, lot.id).await?;
+    if report.clause.rule == "quality_index" {
+        return Err(AppError::conflict(
+            "test_id",
+            format!(
+                "lot {} is judged by the quality-index rule: a failed lot is not patched test by test; after rework take a new random sample (POST /api/v1/lots/{}/resample)",
+                lot.code, lot.id
+            ),
+            vec![],
+        ));
+    }
     let line = report
         .tests
         .iter()
@@ -638,7 +657,15 @@ pub async fn preview(
     let r = &checked.record;
     let reference = ctx.reference_for(r.coarse_pct, r.coarse_water_content_pct)?;
     let v = judge(&ctx, r)?;
+    let flags = lot_report::flags_of(
+        r,
+        &ctx.lot,
+        &ctx.lab,
+        &ctx.clause,
+        Some(v.relative_compaction_pct),
+    );
     Ok(json!({
+        "flags": flags,
         "wet_density_kg_m3": r.wet_density_kg_m3,
         "water_content_pct": r.water_content_pct,
         "dry_density_kg_m3": r.dry_density_kg_m3,

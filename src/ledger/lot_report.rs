@@ -5,11 +5,12 @@
 use serde::Serialize;
 use sha2::{Digest, Sha256};
 
-use super::setup::clause_rule;
+use super::setup::{clause_moisture, clause_rule};
 use crate::db::{self, Pool};
 use crate::error::{AppError, Result};
-use crate::reduction::acceptance::{LotTestInput, TestStanding, evaluate_lot};
+use crate::reduction::acceptance::{LotTestInput, TestStanding, evaluate_lot_with};
 use crate::reduction::frequency::{FrequencyRule, tests_owed, tests_required};
+use crate::reduction::plausibility::{PlausibilityFlag, PlausibilityInput, flags};
 use crate::reduction::verdict::{Reference, SpecLimits, judge_test, reference_for_coarse_fraction};
 use crate::reduction::{Density, WaterContent};
 
@@ -24,22 +25,38 @@ pub struct TestLine {
     pub relative_compaction_pct: Option<f64>,
     pub moisture_deviation_pct: Option<f64>,
     pub passed: bool,
-    /// "counted", "voided" or "superseded".
+    /// "counted", "voided", "superseded", "cannot_be_judged" or "earlier_sample".
     pub standing: String,
+    /// Why the test cannot be judged, when it cannot.
+    pub unjudged_reason: Option<String>,
+    /// Named plausibility warnings (probe depth, zero air voids, RC above the plausible limit).
+    pub flags: Vec<PlausibilityFlag>,
     pub superseded_by: Option<String>,
     pub retest_of_number: Option<String>,
     pub reasons: Vec<String>,
 }
 
 impl TestLine {
-    /// The test's result in one word: pass, fail, void or superseded.
+    /// The test's result in one word: pass, fail, void, superseded, unjudged or resampled.
     pub fn result(&self) -> &'static str {
         match self.standing.as_str() {
             "voided" => "void",
             "superseded" => "superseded",
+            "earlier_sample" => "resampled",
+            _ if self.unjudged_reason.is_some() => "unjudged",
             _ if self.passed => "pass",
             _ => "fail",
         }
+    }
+
+    /// What a reader is told beside the result: "cannot be judged: reason", the flags.
+    pub fn cautions(&self) -> Vec<String> {
+        let mut out = Vec::new();
+        if let Some(r) = &self.unjudged_reason {
+            out.push(format!("cannot be judged: {r}"));
+        }
+        out.extend(self.flags.iter().map(|f| format!("flag: {}", f.message)));
+        out
     }
 }
 
@@ -55,6 +72,12 @@ pub struct Verdict {
     pub max: Option<f64>,
     pub quality_index: Option<f64>,
     pub pwl: Option<f64>,
+    /// How moisture is judged, in words.
+    pub moisture_judgement: String,
+    /// Two-sided moisture percent within limits, when the clause judges moisture so.
+    pub moisture_pwl: Option<f64>,
+    /// Tests that stand for their location but cannot be judged.
+    pub unjudged: usize,
     pub accepted: bool,
     pub reasons: Vec<String>,
 }
@@ -108,6 +131,20 @@ pub fn limits_of(c: &db::clauses::Clause) -> SpecLimits {
         rc_min_pct: c.rc_min_pct,
         moisture_below_pct: c.moisture_below_pct,
         moisture_above_pct: c.moisture_above_pct,
+        rounding: rounding_of(c),
+    }
+}
+
+/// The comparison convention of a stored clause.
+pub fn rounding_of(c: &db::clauses::Clause) -> crate::reduction::rounding::Rounding {
+    use crate::reduction::rounding::{Rounding, RoundingMethod};
+    Rounding {
+        method: if c.rounding == "absolute" {
+            RoundingMethod::Absolute
+        } else {
+            RoundingMethod::AstmE29
+        },
+        decimals: u32::try_from(c.limit_decimals.clamp(0, 3)).unwrap_or(1),
     }
 }
 
@@ -212,6 +249,7 @@ pub fn assemble(
     let reference = reference_of(&lab_test)?;
     let limits = limits_of(&clause);
     let rule = clause_rule(&clause);
+    let moisture = clause_moisture(&clause);
 
     let judged: Vec<_> = tests
         .iter()
@@ -220,17 +258,21 @@ pub fn assemble(
     let inputs: Vec<LotTestInput> = tests
         .iter()
         .zip(&judged)
-        .map(|(t, (_, v, _))| LotTestInput {
+        .map(|(t, (_, v, reasons))| LotTestInput {
             id: t.id,
             label: t.number.clone(),
-            relative_compaction_pct: v.as_ref().map_or(0.0, |v| v.relative_compaction_pct),
-            moisture_deviation_pct: v.as_ref().map_or(0.0, |v| v.moisture_deviation_pct),
+            // A test that cannot be judged carries no figure: NaN never passes for 0 %.
+            relative_compaction_pct: v.as_ref().map_or(f64::NAN, |v| v.relative_compaction_pct),
+            moisture_deviation_pct: v.as_ref().map_or(f64::NAN, |v| v.moisture_deviation_pct),
             passed: v.as_ref().is_some_and(|v| v.passed),
             voided: t.void_reason.is_some(),
             retest_of: t.retest_of,
+            tested_at: t.tested_at.clone(),
+            unjudged: v.is_none().then(|| reasons.join("; ")),
+            earlier_sample: lot.sample_after_test_id.is_some_and(|after| t.id <= after),
         })
         .collect();
-    let lv = evaluate_lot(&inputs, &rule, &limits);
+    let lv = evaluate_lot_with(&inputs, &rule, &limits, &moisture);
 
     let number_of = |id: i64| tests.iter().find(|t| t.id == id).map(|t| t.number.clone());
     let lines: Vec<TestLine> = tests
@@ -245,10 +287,15 @@ pub fn assemble(
             let (standing, superseded_by) = match standing {
                 Some(TestStanding::Voided) => ("voided", None),
                 Some(TestStanding::Superseded { by }) => ("superseded", number_of(*by)),
+                Some(TestStanding::CannotBeJudged) => ("cannot_be_judged", None),
+                Some(TestStanding::EarlierSample) => ("earlier_sample", None),
                 _ if t.void_reason.is_some() => ("voided", None),
                 _ => ("counted", None),
             };
+            let rc = v.as_ref().map(|v| v.relative_compaction_pct);
             TestLine {
+                unjudged_reason: v.is_none().then(|| reasons.join("; ")),
+                flags: flags_of(t, &lot, &lab_test, &clause, rc),
                 test: t.clone(),
                 reference_mdd_kg_m3: r.as_ref().map(|r| r.max_dry_density.kg_m3()),
                 reference_omc_pct: r.as_ref().map(|r| r.optimum_water_content.pct()),
@@ -300,6 +347,20 @@ pub fn assemble(
             failing_without_retest.join(", ")
         ));
     }
+    for l in lines.iter().filter(|l| l.standing == "cannot_be_judged") {
+        submit_blockers.push(format!(
+            "test {} cannot be judged: {}; void it or retest",
+            l.test.number,
+            l.unjudged_reason.as_deref().unwrap_or("no usable figures")
+        ));
+    }
+    if super::reference::Approval::of(&lab_test) == super::reference::Approval::NeedsApproval {
+        submit_blockers.push(format!(
+            "the reference curve {} awaits a QC manager's approval: {}",
+            lab_test.code,
+            super::reference::concern_messages(&lab_test).join("; ")
+        ));
+    }
     if !lv.accepted && lv.n > 0 && owed == 0 {
         submit_blockers.push(format!("the lot does not meet clause {}", clause.code));
         submit_blockers.extend(lv.reasons.iter().cloned());
@@ -330,6 +391,9 @@ pub fn assemble(
         max: lv.max,
         quality_index: lv.quality_index,
         pwl: lv.pwl,
+        moisture_judgement: moisture.label(),
+        moisture_pwl: lv.moisture_pwl,
+        unjudged: lv.unjudged.len(),
         accepted: lv.accepted,
         reasons: lv.reasons,
     };
@@ -382,6 +446,17 @@ fn fingerprint(
         lab.max_dry_density_kg_m3,
         lab.optimum_water_content_pct
     ));
+    // Terms added later enter only when they differ from what older records meant, so a
+    // certificate issued before them stays current.
+    if let Some(after) = lot.sample_after_test_id {
+        h.update(format!("sample {} after {after}|", lot.sample));
+    }
+    if clause.moisture_judgement != "per_test" {
+        h.update(format!(
+            "moisture {} {:?}|",
+            clause.moisture_judgement, clause.moisture_min_pwl_pct
+        ));
+    }
     for t in tests {
         h.update(format!(
             "t {} {} {} {} {:?} {:?} {:?}|",
@@ -417,12 +492,13 @@ pub async fn judge_new(pool: &Pool, t: &db::field_tests::FieldTest) -> Result<Te
         Some(id) => db::field_tests::get(pool, id).await?.map(|o| o.number),
         None => None,
     };
-    judge_alone(t, &clause, &source, &lab, retest_of_number)
+    judge_alone(t, &lot, &clause, &source, &lab, retest_of_number)
 }
 
 /// One newly stored test judged on its own, from its lot's already-loaded rows.
 pub fn judge_alone(
     t: &db::field_tests::FieldTest,
+    lot: &db::lots::Lot,
     clause: &db::clauses::Clause,
     source: &db::sources::Source,
     lab: &db::lab_tests::LabTest,
@@ -430,7 +506,10 @@ pub fn judge_alone(
 ) -> Result<TestLine> {
     let reference = reference_of(lab)?;
     let (r, v, reasons) = judge_line(t, &reference, &limits_of(clause), source, clause);
+    let rc = v.as_ref().map(|v| v.relative_compaction_pct);
     Ok(TestLine {
+        unjudged_reason: v.is_none().then(|| reasons.join("; ")),
+        flags: flags_of(t, lot, lab, clause, rc),
         test: t.clone(),
         reference_mdd_kg_m3: r.as_ref().map(|r| r.max_dry_density.kg_m3()),
         reference_omc_pct: r.as_ref().map(|r| r.optimum_water_content.pct()),
@@ -439,6 +518,8 @@ pub fn judge_alone(
         passed: v.as_ref().is_some_and(|v| v.passed),
         standing: if t.void_reason.is_some() {
             "voided"
+        } else if v.is_none() {
+            "cannot_be_judged"
         } else {
             "counted"
         }
@@ -446,5 +527,41 @@ pub fn judge_alone(
         superseded_by: None,
         retest_of_number,
         reasons,
+    })
+}
+
+/// The probe depth of a nuclear test: the gauge reading's, else the test's depth.
+fn nuclear_probe_depth_mm(t: &db::field_tests::FieldTest) -> Option<f64> {
+    #[derive(serde::Deserialize)]
+    struct Probe {
+        probe_depth_mm: Option<f64>,
+    }
+    if t.method != "nuclear" {
+        return None;
+    }
+    serde_json::from_str::<Probe>(&t.readings_json)
+        .ok()
+        .and_then(|p| p.probe_depth_mm)
+        .or(t.depth_mm)
+}
+
+/// The plausibility flags of a test in its lot (layer thickness, the curve's Gs, the clause's
+/// plausible RC limit); the one source for entry answers, previews, lot sheets and certificates.
+pub fn flags_of(
+    t: &db::field_tests::FieldTest,
+    lot: &db::lots::Lot,
+    lab: &db::lab_tests::LabTest,
+    clause: &db::clauses::Clause,
+    relative_compaction_pct: Option<f64>,
+) -> Vec<PlausibilityFlag> {
+    let layer_thickness_mm = lot.layer_thickness_mm;
+    flags(&PlausibilityInput {
+        nuclear_probe_depth_mm: layer_thickness_mm.and(nuclear_probe_depth_mm(t)),
+        layer_thickness_mm,
+        dry_density_kg_m3: t.dry_density_kg_m3,
+        water_content_pct: t.water_content_pct,
+        specific_gravity: crate::reduction::SpecificGravity::new(lab.specific_gravity).ok(),
+        relative_compaction_pct,
+        rc_plausible_max_pct: clause.rc_plausible_max_pct,
     })
 }

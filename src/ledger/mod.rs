@@ -13,6 +13,8 @@ pub mod lot_report;
 pub mod lot_split;
 pub mod moulds;
 pub mod overview;
+pub mod reference;
+pub mod resample;
 pub mod review;
 pub mod setup;
 pub mod test_list;

@@ -8,7 +8,7 @@ use super::validate::{code, date, number, optional_text, quantity, text};
 use crate::clock;
 use crate::db::{self, Pool, audit};
 use crate::error::{AppError, Result};
-use crate::reduction::acceptance::AcceptanceRule;
+use crate::reduction::acceptance::{AcceptanceRule, MoistureJudgement};
 use crate::reduction::curve::{CurvePoint, fit_curve};
 use crate::reduction::lab::{Effort, EffortPreset, reduce_specimen};
 use crate::reduction::{self, ChainageStyle, SpecificGravity, UnitSystem, WaterContent};
@@ -125,6 +125,16 @@ pub struct ClauseInput {
     pub length_per_test_m: Option<f64>,
     pub min_tests_per_lot: i64,
     pub oversize_limit_pct: Option<f64>,
+    /// "per_test" (default, under every rule) or "pwl" (quality-index clauses only).
+    pub moisture_judgement: Option<String>,
+    /// Least moisture percent within limits under "pwl".
+    pub moisture_min_pwl_pct: Option<f64>,
+    /// Relative compaction above this is flagged implausible (default 103 %, common practice).
+    pub rc_plausible_max_pct: Option<f64>,
+    /// "astm_e29" (default) or "absolute".
+    pub rounding: Option<String>,
+    /// Decimals the contract writes its limits with (default 1, as in "95.0 %").
+    pub limit_decimals: Option<i64>,
 }
 
 /// Reads a clause's stored rule back as the reduction's rule.
@@ -138,6 +148,114 @@ pub fn clause_rule(c: &db::clauses::Clause) -> AcceptanceRule {
         },
         _ => AcceptanceRule::EveryTest,
     }
+}
+
+/// Reads a clause's stored moisture judgement back as the reduction's.
+pub fn clause_moisture(c: &db::clauses::Clause) -> MoistureJudgement {
+    match (c.moisture_judgement.as_str(), c.moisture_min_pwl_pct) {
+        ("pwl", Some(min_pwl_pct)) => MoistureJudgement::PercentWithinLimits { min_pwl_pct },
+        _ => MoistureJudgement::PerTest,
+    }
+}
+
+/// Checks the verdict terms of a clause body: moisture judgement, plausible RC, rounding.
+fn verdict_terms(input: &ClauseInput) -> Result<(String, Option<f64>, f64, String, i64)> {
+    // The limits these terms are checked against must be usable first.
+    number("rc_min_pct", input.rc_min_pct, 50.0, 110.0, "%")?;
+    let judgement = input
+        .moisture_judgement
+        .as_deref()
+        .unwrap_or("per_test")
+        .trim();
+    let min_pwl = match judgement {
+        "per_test" => {
+            if input.moisture_min_pwl_pct.is_some() {
+                return Err(AppError::invalid(
+                    "moisture_min_pwl_pct",
+                    "applies only with moisture_judgement \"pwl\"",
+                ));
+            }
+            None
+        }
+        "pwl" => {
+            if input.rule != "quality_index" {
+                return Err(AppError::invalid(
+                    "moisture_judgement",
+                    "a moisture percent within limits needs a random sample: use it with the quality_index rule, or per_test",
+                ));
+            }
+            let p = input.moisture_min_pwl_pct.ok_or_else(|| {
+                AppError::invalid(
+                    "moisture_min_pwl_pct",
+                    "is required when moisture_judgement is \"pwl\"",
+                )
+            })?;
+            Some(number("moisture_min_pwl_pct", p, 1.0, 100.0, "%")?)
+        }
+        other => {
+            return Err(AppError::invalid(
+                "moisture_judgement",
+                format!("unknown moisture judgement '{other}'; use per_test or pwl"),
+            ));
+        }
+    };
+    let rc_max = number(
+        "rc_plausible_max_pct",
+        input
+            .rc_plausible_max_pct
+            .unwrap_or(reduction::plausibility::DEFAULT_RC_PLAUSIBLE_MAX_PCT),
+        90.0,
+        150.0,
+        "%",
+    )?;
+    if rc_max <= input.rc_min_pct {
+        return Err(AppError::invalid(
+            "rc_plausible_max_pct",
+            format!("{rc_max} % is not above the {} % minimum", input.rc_min_pct),
+        ));
+    }
+    let rounding = input.rounding.as_deref().unwrap_or("astm_e29").trim();
+    if rounding != "astm_e29" && rounding != "absolute" {
+        return Err(AppError::invalid(
+            "rounding",
+            format!("unknown rounding '{rounding}'; use astm_e29 or absolute"),
+        ));
+    }
+    let decimals = number(
+        "limit_decimals",
+        input.limit_decimals.unwrap_or(1) as f64,
+        0.0,
+        3.0,
+        "decimals",
+    )? as i64;
+    let convention = crate::reduction::rounding::Rounding {
+        method: crate::reduction::rounding::RoundingMethod::AstmE29,
+        decimals: decimals as u32,
+    };
+    for (field, v) in [
+        ("rc_min_pct", Some(input.rc_min_pct)),
+        ("moisture_below_pct", Some(input.moisture_below_pct)),
+        ("moisture_above_pct", Some(input.moisture_above_pct)),
+        ("allowance_pct", input.allowance_pct),
+    ] {
+        if let Some(v) = v.filter(|v| v.is_finite())
+            && !convention.is_written_precision(v)
+        {
+            return Err(AppError::invalid(
+                field,
+                format!(
+                    "{v} has more decimals than the clause writes its limits with ({decimals}); give limit_decimals to match the contract"
+                ),
+            ));
+        }
+    }
+    Ok((
+        judgement.to_string(),
+        min_pwl,
+        rc_max,
+        rounding.to_string(),
+        decimals,
+    ))
 }
 
 /// Creates a spec clause in a project.
@@ -180,6 +298,8 @@ pub async fn create_clause(
             ));
         }
     };
+    let (moisture_judgement, moisture_min_pwl_pct, rc_plausible_max_pct, rounding, limit_decimals) =
+        verdict_terms(input)?;
     let positive = |field: &str, v: Option<f64>, max: f64, unit: &str| -> Result<Option<f64>> {
         v.map(|x| number(field, x, 0.001, max, unit)).transpose()
     };
@@ -226,6 +346,11 @@ pub async fn create_clause(
             "%",
         )?,
         created_at: clock::now(),
+        moisture_judgement,
+        moisture_min_pwl_pct,
+        rc_plausible_max_pct,
+        rounding,
+        limit_decimals,
     };
     let mut tx = db::begin_write(pool).await?;
     let c = db::clauses::insert(&mut tx, &clause)
@@ -449,6 +574,8 @@ pub async fn create_lab_test(
         .collect::<Result<Vec<_>>>()?;
     let fit =
         fit_curve(&points, Some(gs)).map_err(|e| AppError::invalid("points", e.to_string()))?;
+    let (approval, concerns_json) =
+        super::reference::initial_approval(&reduction::curve_quality::concerns(&points, &fit));
     let warnings: Vec<_> = fit
         .warnings
         .iter()
@@ -493,7 +620,16 @@ pub async fn create_lab_test(
         superseded_at: None,
         created_at: now.clone(),
         created_by: actor.name.clone(),
+        approval: approval.code().to_string(),
+        approval_concerns_json: concerns_json,
+        approval_reason: None,
+        approved_by: None,
+        approved_at: None,
+        quality_checked: 1,
     };
+    if let Some(old) = input.supersedes_lab_test_id {
+        check_superseding_curve(pool, old, &record).await?;
+    }
     let mut tx = db::begin_write(pool).await?;
     if let Some(old) = input.supersedes_lab_test_id
         && !db::lab_tests::supersede(&mut tx, old, input.supersede_reason.trim(), &now).await?
@@ -541,6 +677,30 @@ pub async fn create_lab_test(
     .await?;
     tx.commit().await?;
     Ok(t)
+}
+
+/// Refuses a superseding curve that cannot be the reference of every lot it would take over
+/// (effort family, approval): the lots keep judging against the old curve.
+async fn check_superseding_curve(
+    pool: &Pool,
+    old: i64,
+    new: &db::lab_tests::LabTest,
+) -> Result<()> {
+    for (lot_code, clause_id) in db::lots::using_lab_test(pool, old).await? {
+        let clause = db::clauses::get(pool, clause_id)
+            .await?
+            .ok_or_else(|| anyhow::anyhow!("lot {lot_code} refers to a missing clause"))?;
+        super::reference::check_lot_reference(&clause, new).map_err(|e| {
+            AppError::invalid(
+                "lab_test_id",
+                format!(
+                    "the new curve cannot replace lab test {old} for lot {lot_code}: {}",
+                    e.user_message()
+                ),
+            )
+        })?;
+    }
+    Ok(())
 }
 
 /// Body of a new layer.
@@ -641,15 +801,12 @@ pub async fn check_lot(pool: &Pool, project_id: i64, input: &LotInput) -> Result
                 "the lab test's source is not in this project",
             )
         })?;
-    if lab.status != "active" {
-        return Err(AppError::invalid(
-            "lab_test_id",
-            format!(
-                "lab test {} is superseded; choose its replacement",
-                lab.code
-            ),
-        ));
-    }
+    super::reference::check_lot_reference(
+        clause
+            .as_ref()
+            .ok_or_else(|| anyhow::anyhow!("clause vanished"))?,
+        &lab,
+    )?;
     let from = quantity(
         "chainage_from_m",
         reduction::Chainage::new(input.chainage_from_m),

@@ -178,6 +178,7 @@ pub(super) fn reference_and_clause(
             ("Optimum moisture", &r.omc),
             ("Specific gravity Gs", &r.specific_gravity),
             ("Curve fit", &r.fit_method),
+            ("Curve approval", &r.approval),
             ("Oversize", &r.oversize_note),
         ],
     );

@@ -105,6 +105,8 @@ pub struct ReferenceBlock {
     pub specific_gravity: String,
     /// How the curve was fitted.
     pub fit_method: String,
+    /// The curve's approval: not needed, or who approved it and why.
+    pub approval: String,
     /// Oversize correction applied, or a note that none was.
     pub oversize_note: String,
 }

@@ -257,6 +257,7 @@ pub fn sample_doc(n_tests: usize) -> CertificateDoc {
             omc: format!("{SAMPLE_OMC:.1} %"),
             specific_gravity: "2.68".into(),
             fit_method: "least-squares cubic polynomial, 6 points".into(),
+            approval: "not needed (no quality concern)".into(),
             oversize_note: "none applied (3 % retained on 19 mm)".into(),
         },
         clause: ClauseBlock {

@@ -1,21 +1,27 @@
-//! Lot acceptance: which tests count (voids and superseded failures are out),
-//! the lot statistics, and the decision under one of three rules with reasons
-//! a reviewer reads. The percent-within-limits estimate of the quality-index
-//! method lives in [`super::pwl`] and is re-exported here.
+//! Lot acceptance: which tests count, the lot statistics, and the decision
+//! under one of three rules with reasons a reviewer reads. The percent-within-
+//! limits estimate of the quality-index method lives in [`super::pwl`] and is
+//! re-exported here.
 //!
-//! Moisture: under `every_test` and `mean_and_min` a counted test outside the
-//! moisture window fails the lot and the reasons say so. Under `quality_index`
-//! the statistic is on density alone: moisture failures are listed as reasons
-//! (so the reviewer sees them and can order rework) but the percent within
-//! limits decides. A single-sided density statistic cannot weigh a two-sided
-//! moisture window, and mixing the two would hide which one failed.
+//! One location, one value (common practice): a test and its chain of retests
+//! are one location, and the chain's latest non-voided test stands for it in
+//! every statistic and in the frequency count; the others stay on record as
+//! superseded. Tests of an earlier random sample (a quality-index lot re-sampled
+//! after rework) and tests that cannot be judged are out of the statistics; a
+//! test that cannot be judged also keeps the lot from being accepted.
+//!
+//! Moisture is the clause's choice ([`MoistureJudgement`]): by default every
+//! counted test must lie inside the moisture window, under every rule; a
+//! quality-index clause may instead judge moisture by a two-sided percent within
+//! limits, PWL = PWL_U + PWL_L − 100 (AASHTO R 9), against its own threshold.
 
-use std::collections::{HashMap, HashSet, VecDeque};
+use std::collections::HashMap;
 
 use serde::{Deserialize, Serialize};
 
 pub use super::pwl::{ln_gamma, percent_within_limits, regularized_incomplete_beta};
-use super::verdict::{COMPARE_EPS, SpecLimits, deviation_words};
+use super::rounding::Rounding;
+use super::verdict::{COMPARE_EPS, SpecLimits};
 use super::water::ReductionError;
 
 /// How a lot is accepted.
@@ -78,6 +84,15 @@ pub struct LotTestInput {
     pub voided: bool,
     /// The test this one retests, if any.
     pub retest_of: Option<i64>,
+    /// When the test was taken (RFC 3339); orders a retest chain after its links.
+    #[serde(default)]
+    pub tested_at: String,
+    /// Why the test cannot be judged, when it cannot (its figures are then meaningless).
+    #[serde(default)]
+    pub unjudged: Option<String>,
+    /// Taken for an earlier random sample of a re-sampled lot: on record, out of the statistics.
+    #[serde(default)]
+    pub earlier_sample: bool,
 }
 
 impl LotTestInput {
@@ -99,11 +114,16 @@ pub enum TestStanding {
     Counted,
     /// Voided: out of every statistic, still on record.
     Voided,
-    /// A failure with a passing retest down its retest chain: out of the statistics, still on record.
+    /// Not the latest non-voided test of its retest chain: out of the statistics, still on record.
     Superseded {
-        /// The passing retest.
+        /// The chain's latest non-voided test, which stands for the location.
         by: i64,
     },
+    /// Stands for its location but cannot be judged (see the test's reason): out of the
+    /// statistics, and the lot cannot be accepted until it is voided or retested.
+    CannotBeJudged,
+    /// Taken for an earlier random sample of a re-sampled lot: on record, out of the statistics.
+    EarlierSample,
 }
 
 impl TestStanding {
@@ -113,6 +133,8 @@ impl TestStanding {
             Self::Counted => "counted",
             Self::Voided => "voided",
             Self::Superseded { .. } => "superseded",
+            Self::CannotBeJudged => "cannot_be_judged",
+            Self::EarlierSample => "earlier_sample",
         }
     }
 }
@@ -142,6 +164,42 @@ pub struct LotVerdict {
     pub standings: Vec<(i64, TestStanding)>,
     /// Counted failed tests with no retest yet.
     pub failing_without_retest: Vec<i64>,
+    /// Tests that stand for their location but cannot be judged.
+    pub unjudged: Vec<i64>,
+    /// Two-sided moisture percent within limits, when the clause judges moisture so.
+    pub moisture_pwl: Option<f64>,
+}
+
+/// How a clause judges moisture.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(tag = "moisture_judgement", rename_all = "snake_case")]
+pub enum MoistureJudgement {
+    /// Every counted test inside the moisture window (the default, under every rule).
+    PerTest,
+    /// Two-sided percent within limits of the moisture deviations, PWL = PWL_U + PWL_L − 100.
+    PercentWithinLimits {
+        /// Least moisture percent within limits to accept.
+        min_pwl_pct: f64,
+    },
+}
+
+impl MoistureJudgement {
+    /// Stable code: "per_test" or "pwl".
+    pub fn code(&self) -> &'static str {
+        match self {
+            Self::PerTest => "per_test",
+            Self::PercentWithinLimits { .. } => "pwl",
+        }
+    }
+    /// The judgement in words, for clause listings and certificates.
+    pub fn label(&self) -> String {
+        match self {
+            Self::PerTest => "every counted test inside the moisture window".to_string(),
+            Self::PercentWithinLimits { min_pwl_pct } => {
+                format!("two-sided moisture percent within limits of at least {min_pwl_pct:.1} %")
+            }
+        }
+    }
 }
 
 /// The decision on a plain list of values (the calculator endpoint).
@@ -200,42 +258,72 @@ pub fn summarize(values: &[f64]) -> Option<Summary> {
     })
 }
 
-/// Works out each test's standing: voided, superseded by a passing retest anywhere down its chain, or counted.
+/// Works out each test's standing: voided, earlier sample, or — one location, one value —
+/// the latest non-voided test of each retest chain counted (or cannot be judged) and the
+/// rest of the chain superseded by it.
 pub fn standings(tests: &[LotTestInput]) -> Vec<(i64, TestStanding)> {
-    let mut children: HashMap<i64, Vec<usize>> = HashMap::new();
+    let index: HashMap<i64, usize> = tests.iter().enumerate().map(|(i, t)| (t.id, i)).collect();
+    // Union-find over retest links (voided links too: a voided retest still names its place).
+    let mut parent: Vec<usize> = (0..tests.len()).collect();
+    fn root(parent: &mut [usize], mut i: usize) -> usize {
+        while parent[i] != i {
+            parent[i] = parent[parent[i]];
+            i = parent[i];
+        }
+        i
+    }
     for (i, t) in tests.iter().enumerate() {
-        if let Some(parent) = t.retest_of
-            && parent != t.id
-            && !t.voided
-        {
-            children.entry(parent).or_default().push(i);
+        if let Some(&j) = t.retest_of.and_then(|p| index.get(&p)) {
+            let (a, b) = (root(&mut parent, i), root(&mut parent, j));
+            parent[a] = b;
         }
     }
-    tests
-        .iter()
-        .map(|t| {
-            if t.voided {
-                return (t.id, TestStanding::Voided);
+    // Depth down the chain (cycle-safe), then time, then id: the latest link stands.
+    let depth = |i: usize| {
+        let mut d = 0usize;
+        let mut at = i;
+        while let Some(&p) = tests[at].retest_of.and_then(|p| index.get(&p)) {
+            d += 1;
+            at = p;
+            if d > tests.len() {
+                break;
             }
-            if t.passed {
-                return (t.id, TestStanding::Counted);
+        }
+        d
+    };
+    let live = |t: &LotTestInput| !t.voided && !t.earlier_sample;
+    let mut standing: HashMap<usize, usize> = HashMap::new();
+    for (i, t) in tests.iter().enumerate() {
+        if !live(t) {
+            continue;
+        }
+        let r = root(&mut parent, i);
+        let key = |k: usize| (depth(k), tests[k].tested_at.clone(), tests[k].id);
+        match standing.get(&r) {
+            Some(&best) if key(best) >= key(i) => {}
+            _ => {
+                standing.insert(r, i);
             }
-            // Breadth-first down the retest chain: the nearest passing retest supersedes.
-            let mut seen = HashSet::from([t.id]);
-            let mut queue = VecDeque::from([t.id]);
-            while let Some(id) = queue.pop_front() {
-                for &ci in children.get(&id).map(Vec::as_slice).unwrap_or(&[]) {
-                    let child = &tests[ci];
-                    if !seen.insert(child.id) {
-                        continue;
-                    }
-                    if child.passed {
-                        return (t.id, TestStanding::Superseded { by: child.id });
-                    }
-                    queue.push_back(child.id);
+        }
+    }
+    (0..tests.len())
+        .map(|i| {
+            let t = &tests[i];
+            let s = if t.voided {
+                TestStanding::Voided
+            } else if t.earlier_sample {
+                TestStanding::EarlierSample
+            } else {
+                let best = standing[&root(&mut parent, i)];
+                if best != i {
+                    TestStanding::Superseded { by: tests[best].id }
+                } else if t.unjudged.is_some() {
+                    TestStanding::CannotBeJudged
+                } else {
+                    TestStanding::Counted
                 }
-            }
-            (t.id, TestStanding::Counted)
+            };
+            (t.id, s)
         })
         .collect()
 }
@@ -248,33 +336,41 @@ struct DensityDecision {
     pwl: Option<f64>,
 }
 
-/// Judges labelled values against a lower limit under a rule (no moisture here).
+/// Judges labelled values against a lower limit under a rule (no moisture here), comparing
+/// and printing each value as the clause rounds.
 fn decide_density(
     labelled: &[(String, f64)],
     lower: f64,
     rule: &AcceptanceRule,
     summary: &Summary,
     noun: &str,
+    rounding: &Rounding,
 ) -> DensityDecision {
     let mut reasons = Vec::new();
     let mut accepted = true;
     let mut quality_index = None;
     let mut pwl = None;
-    let meets = |v: f64, limit: f64| v >= limit - COMPARE_EPS;
+    let meets = |v: f64, limit: f64| rounding.at_least(v, limit);
+    let shown = |v: f64| rounding.shown_against_lower(v);
+    let lim = |v: f64| rounding.limit_text(v);
     match rule {
         AcceptanceRule::EveryTest => {
             let below: Vec<&(String, f64)> =
                 labelled.iter().filter(|(_, v)| !meets(*v, lower)).collect();
             if below.is_empty() {
                 reasons.push(format!(
-                    "all {} counted {noun}s are at or above the {lower:.1} % minimum (lowest {:.1} %)",
-                    summary.n, summary.min
+                    "all {} counted {noun}s are at or above the {} % minimum (lowest {} %)",
+                    summary.n,
+                    lim(lower),
+                    shown(summary.min)
                 ));
             } else {
                 accepted = false;
                 for (label, v) in below {
                     reasons.push(format!(
-                        "{label} at {v:.1} % is below the {lower:.1} % minimum"
+                        "{label} at {} % is below the {} % minimum",
+                        shown(*v),
+                        lim(lower)
                     ));
                 }
             }
@@ -291,30 +387,33 @@ fn decide_density(
                 };
             }
             let floor = lower - allowance_pct;
-            if meets(summary.mean, lower) {
-                reasons.push(format!(
-                    "mean relative compaction {:.1} % meets the {lower:.1} % minimum",
-                    summary.mean
-                ));
-            } else {
-                accepted = false;
-                reasons.push(format!(
-                    "mean relative compaction {:.1} % is below the {lower:.1} % minimum",
-                    summary.mean
-                ));
-            }
+            let mean_ok = meets(summary.mean, lower);
+            accepted &= mean_ok;
+            reasons.push(format!(
+                "mean relative compaction {} % {} the {} % minimum",
+                shown(summary.mean),
+                if mean_ok { "meets" } else { "is below" },
+                lim(lower)
+            ));
             let below: Vec<&(String, f64)> =
                 labelled.iter().filter(|(_, v)| !meets(*v, floor)).collect();
+            let floor_words = format!(
+                "{} % floor ({} % less {} allowance)",
+                lim(floor),
+                lim(lower),
+                lim(*allowance_pct)
+            );
             if below.is_empty() {
                 reasons.push(format!(
-                    "every counted {noun} is at or above the {floor:.1} % floor ({lower:.1} % less {allowance_pct:.1} allowance); lowest {:.1} %",
-                    summary.min
+                    "every counted {noun} is at or above the {floor_words}; lowest {} %",
+                    shown(summary.min)
                 ));
             } else {
                 accepted = false;
                 for (label, v) in below {
                     reasons.push(format!(
-                        "{label} at {v:.1} % is below the {floor:.1} % floor ({lower:.1} % less {allowance_pct:.1} allowance)"
+                        "{label} at {} % is below the {floor_words}",
+                        shown(*v)
                     ));
                 }
             }
@@ -375,37 +474,39 @@ fn decide_density(
     }
 }
 
-/// Decides a lot: standings, statistics over counted tests, then the rule; see the module doc for moisture.
+/// Decides a lot with the per-test moisture window (the default judgement).
 pub fn evaluate_lot(
     tests: &[LotTestInput],
     rule: &AcceptanceRule,
     limits: &SpecLimits,
 ) -> LotVerdict {
+    evaluate_lot_with(tests, rule, limits, &MoistureJudgement::PerTest)
+}
+
+/// Decides a lot: standings, statistics over counted tests, the density rule, then moisture
+/// as the clause judges it (see the module doc).
+pub fn evaluate_lot_with(
+    tests: &[LotTestInput],
+    rule: &AcceptanceRule,
+    limits: &SpecLimits,
+    moisture: &MoistureJudgement,
+) -> LotVerdict {
     let standings = standings(tests);
-    let counted: Vec<&LotTestInput> = tests
-        .iter()
-        .zip(&standings)
-        .filter(|(_, (_, s))| *s == TestStanding::Counted)
-        .map(|(t, _)| t)
-        .collect();
-    let has_live_retest: HashSet<i64> = tests
-        .iter()
-        .filter(|t| !t.voided && t.retest_of != Some(t.id))
-        .filter_map(|t| t.retest_of)
-        .collect();
-    let failing_without_retest: Vec<i64> = counted
-        .iter()
-        .filter(|t| !t.passed && !has_live_retest.contains(&t.id))
-        .map(|t| t.id)
-        .collect();
-    let voided = standings
-        .iter()
-        .filter(|(_, s)| *s == TestStanding::Voided)
-        .count();
-    let superseded = standings
-        .iter()
-        .filter(|(_, s)| matches!(s, TestStanding::Superseded { .. }))
-        .count();
+    let mut counted: Vec<&LotTestInput> = Vec::new();
+    let mut unjudged: Vec<&LotTestInput> = Vec::new();
+    for (t, (_, s)) in tests.iter().zip(&standings) {
+        match s {
+            TestStanding::Counted => counted.push(t),
+            TestStanding::CannotBeJudged => unjudged.push(t),
+            _ => {}
+        }
+    }
+    let failing_without_retest: Vec<i64> =
+        counted.iter().filter(|t| !t.passed).map(|t| t.id).collect();
+    let count = |f: &dyn Fn(&TestStanding) -> bool| standings.iter().filter(|(_, s)| f(s)).count();
+    let voided = count(&|s| *s == TestStanding::Voided);
+    let superseded = count(&|s| matches!(s, TestStanding::Superseded { .. }));
+    let earlier = count(&|s| *s == TestStanding::EarlierSample);
     let values: Vec<f64> = counted.iter().map(|t| t.relative_compaction_pct).collect();
     let bad_value = counted
         .iter()
@@ -421,13 +522,26 @@ pub fn evaluate_lot(
         pwl: None,
         accepted: false,
         reasons: Vec::new(),
-        standings,
+        standings: standings.clone(),
         failing_without_retest,
+        unjudged: unjudged.iter().map(|t| t.id).collect(),
+        moisture_pwl: None,
     };
+    let unjudged_reasons: Vec<String> = unjudged
+        .iter()
+        .map(|t| {
+            format!(
+                "{} cannot be judged: {}; it is out of the statistics and the lot cannot be accepted until it is voided or retested",
+                t.name(),
+                t.unjudged.as_deref().unwrap_or("no usable figures")
+            )
+        })
+        .collect();
     let Some(summary) = summary else {
         verdict.reasons.push(format!(
             "no counted tests in the lot ({voided} voided, {superseded} superseded): nothing to accept"
         ));
+        verdict.reasons.extend(unjudged_reasons);
         return verdict;
     };
     if let Some(t) = bad_value {
@@ -441,58 +555,32 @@ pub fn evaluate_lot(
         .iter()
         .map(|t| (t.name(), t.relative_compaction_pct))
         .collect();
-    let density = decide_density(&labelled, limits.rc_min_pct, rule, &summary, "test");
+    let density = decide_density(
+        &labelled,
+        limits.rc_min_pct,
+        rule,
+        &summary,
+        "test",
+        &limits.rounding,
+    );
     let mut accepted = density.accepted;
     let mut reasons = density.reasons;
-
-    let moisture_failures: Vec<&&LotTestInput> = counted
-        .iter()
-        .filter(|t| !limits.moisture_ok(t.moisture_deviation_pct))
-        .collect();
-    let window = limits.moisture_window_words();
-    match rule {
-        AcceptanceRule::EveryTest | AcceptanceRule::MeanAndMin { .. } => {
-            if moisture_failures.is_empty() {
-                reasons.push(format!(
-                    "every counted test is inside the moisture window of {window}"
-                ));
-            } else {
-                accepted = false;
-                for t in &moisture_failures {
-                    reasons.push(format!(
-                        "{} at {} is outside the moisture window of {window}; under this rule that fails the lot",
-                        t.name(),
-                        deviation_words(t.moisture_deviation_pct)
-                    ));
-                }
-            }
-            if matches!(rule, AcceptanceRule::EveryTest) {
-                for t in counted.iter().filter(|t| {
-                    !t.passed
-                        && limits.density_ok(t.relative_compaction_pct)
-                        && limits.moisture_ok(t.moisture_deviation_pct)
-                }) {
-                    accepted = false;
-                    reasons.push(format!(
-                        "{} was judged failed when reduced, though its figures meet these limits; re-judge it or retest",
-                        t.name()
-                    ));
-                }
-            }
-        }
-        AcceptanceRule::QualityIndex { .. } => {
-            for t in &moisture_failures {
-                reasons.push(format!(
-                    "{} at {} is outside the moisture window of {window} (noted: under the quality-index rule the density statistic decides)",
-                    t.name(),
-                    deviation_words(t.moisture_deviation_pct)
-                ));
-            }
-        }
+    let m = decide_moisture(&counted, rule, limits, moisture);
+    accepted &= m.accepted;
+    reasons.extend(m.reasons);
+    verdict.moisture_pwl = m.pwl;
+    if !unjudged_reasons.is_empty() {
+        accepted = false;
+        reasons.extend(unjudged_reasons);
     }
     if voided + superseded > 0 {
         reasons.push(format!(
             "{voided} voided and {superseded} superseded test(s) are on record but out of the statistics"
+        ));
+    }
+    if earlier > 0 {
+        reasons.push(format!(
+            "{earlier} test(s) of an earlier sample are on record but out of the statistics: the lot is judged on its latest random sample"
         ));
     }
     verdict.accepted = accepted;
@@ -500,6 +588,106 @@ pub fn evaluate_lot(
     verdict.quality_index = density.quality_index;
     verdict.pwl = density.pwl;
     verdict
+}
+
+/// The moisture part of a lot decision.
+struct MoistureDecision {
+    accepted: bool,
+    reasons: Vec<String>,
+    pwl: Option<f64>,
+}
+
+/// Judges the counted tests' moisture as the clause says: per test, or by two-sided PWL.
+fn decide_moisture(
+    counted: &[&LotTestInput],
+    rule: &AcceptanceRule,
+    limits: &SpecLimits,
+    moisture: &MoistureJudgement,
+) -> MoistureDecision {
+    let window = limits.moisture_window_words();
+    let mut reasons = Vec::new();
+    let mut accepted = true;
+    if let MoistureJudgement::PercentWithinLimits { min_pwl_pct } = moisture {
+        let devs: Vec<f64> = counted.iter().map(|t| t.moisture_deviation_pct).collect();
+        let pwl = two_sided_pwl(&devs, -limits.moisture_below_pct, limits.moisture_above_pct);
+        return match pwl {
+            Some(p) if p >= min_pwl_pct - COMPARE_EPS => MoistureDecision {
+                accepted: true,
+                reasons: vec![format!(
+                    "moisture percent within limits {p:.1} % (window {window}) meets the {min_pwl_pct:.1} % required"
+                )],
+                pwl: Some(p),
+            },
+            Some(p) => MoistureDecision {
+                accepted: false,
+                reasons: vec![format!(
+                    "moisture percent within limits {p:.1} % (window {window}) is below the {min_pwl_pct:.1} % required"
+                )],
+                pwl: Some(p),
+            },
+            None => MoistureDecision {
+                accepted: false,
+                reasons: vec![format!(
+                    "moisture percent within limits needs at least 3 counted tests; there are {}",
+                    devs.len()
+                )],
+                pwl: None,
+            },
+        };
+    }
+    let failures: Vec<&&LotTestInput> = counted
+        .iter()
+        .filter(|t| !limits.moisture_ok(t.moisture_deviation_pct))
+        .collect();
+    if failures.is_empty() {
+        reasons.push(format!(
+            "every counted test is inside the moisture window of {window}"
+        ));
+    } else {
+        accepted = false;
+        for t in &failures {
+            reasons.push(format!(
+                "{} at {} is outside the moisture window of {window}; under this clause that fails the lot",
+                t.name(),
+                limits.deviation_words(t.moisture_deviation_pct)
+            ));
+        }
+    }
+    if matches!(rule, AcceptanceRule::EveryTest) {
+        for t in counted.iter().filter(|t| {
+            !t.passed
+                && limits.density_ok(t.relative_compaction_pct)
+                && limits.moisture_ok(t.moisture_deviation_pct)
+        }) {
+            accepted = false;
+            reasons.push(format!(
+                "{} was judged failed when reduced, though its figures meet these limits; re-judge it or retest",
+                t.name()
+            ));
+        }
+    }
+    MoistureDecision {
+        accepted,
+        reasons,
+        pwl: None,
+    }
+}
+
+/// Two-sided percent within limits [lower, upper] (AASHTO R 9): PWL_U + PWL_L − 100 with
+/// Q_L = (x̄ − L)/s and Q_U = (U − x̄)/s; 100 or 0 without spread; None for n < 3.
+pub fn two_sided_pwl(values: &[f64], lower: f64, upper: f64) -> Option<f64> {
+    let s = summarize(values)?;
+    if s.n < 3 {
+        return None;
+    }
+    let sd = s.std_dev.unwrap_or(0.0);
+    if sd <= 1e-12 * s.mean.abs().max(1.0) {
+        let inside = s.mean >= lower - COMPARE_EPS && s.mean <= upper + COMPARE_EPS;
+        return Some(if inside { 100.0 } else { 0.0 });
+    }
+    let pwl_l = percent_within_limits(s.n, (s.mean - lower) / sd)?;
+    let pwl_u = percent_within_limits(s.n, (upper - s.mean) / sd)?;
+    Some((pwl_u + pwl_l - 100.0).clamp(0.0, 100.0))
 }
 
 /// Judges a plain list of values against a lower limit (the calculator endpoint); refuses unusable input.
@@ -563,7 +751,14 @@ pub fn evaluate_values(
         .enumerate()
         .map(|(i, v)| (format!("value {}", i + 1), *v))
         .collect();
-    let d = decide_density(&labelled, lower_limit, rule, &summary, "value");
+    let d = decide_density(
+        &labelled,
+        lower_limit,
+        rule,
+        &summary,
+        "value",
+        &Rounding::default(),
+    );
     Ok(ValuesSummary {
         n: summary.n,
         mean: summary.mean,
@@ -584,6 +779,7 @@ mod tests {
         rc_min_pct: 95.0,
         moisture_below_pct: 2.0,
         moisture_above_pct: 2.0,
+        rounding: Rounding::E29_ONE_DECIMAL,
     };
 
     fn t(id: i64, rc: f64, dev: f64) -> LotTestInput {
@@ -595,6 +791,9 @@ mod tests {
             passed: rc >= 95.0 && dev.abs() <= 2.0,
             voided: false,
             retest_of: None,
+            tested_at: String::new(),
+            unjudged: None,
+            earlier_sample: false,
         }
     }
 
@@ -662,7 +861,7 @@ mod tests {
         assert!(
             v.reasons.iter().any(|r| r
                 .starts_with("test 3 at 2.6 points wet of optimum is outside the moisture window")
-                && r.ends_with("under this rule that fails the lot"))
+                && r.ends_with("under this clause that fails the lot"))
         );
         let ok = [t(1, 96.0, 0.0), t(2, 95.0, -2.0), t(3, 97.0, 1.9)];
         let v = evaluate_lot(&ok, &AcceptanceRule::EveryTest, &LIMITS);
@@ -684,36 +883,167 @@ mod tests {
     }
 
     #[test]
-    fn moisture_fails_mean_and_min_but_only_notes_under_quality_index() {
+    fn moisture_window_holds_under_every_rule_by_default() {
         let tests = [
             t(1, 97.0, 0.0),
             t(2, 98.0, -2.5),
             t(3, 99.0, 0.5),
             t(4, 98.5, 1.0),
         ];
-        let mm = evaluate_lot(
+        for rule in [
+            AcceptanceRule::EveryTest,
+            AcceptanceRule::MeanAndMin { allowance_pct: 2.0 },
+            AcceptanceRule::QualityIndex { min_pwl_pct: 90.0 },
+        ] {
+            let v = evaluate_lot(&tests, &rule, &LIMITS);
+            assert!(!v.accepted, "{rule:?} {:?}", v.reasons);
+            assert!(
+                v.reasons
+                    .iter()
+                    .any(|r| r.contains("test 2 at 2.5 points dry of optimum")
+                        && r.contains("fails the lot")),
+                "{rule:?} {:?}",
+                v.reasons
+            );
+        }
+        // Every test 4 points wet: dense enough, but the quality-index lot is not accepted.
+        let wet = [
+            t(1, 97.0, 4.0),
+            t(2, 98.0, 4.1),
+            t(3, 99.0, 3.9),
+            t(4, 98.5, 4.0),
+        ];
+        let v = evaluate_lot(
+            &wet,
+            &AcceptanceRule::QualityIndex { min_pwl_pct: 90.0 },
+            &LIMITS,
+        );
+        assert!(!v.accepted && v.pwl == Some(100.0), "{:?}", v.reasons);
+    }
+
+    #[test]
+    fn two_sided_moisture_pwl_is_the_sum_less_one_hundred() {
+        // Deviations −1.0, 0.0, 0.5, 1.0, 1.5 in a −2 to +2 window: x̄ = 0.4, s = 0.9618 (n − 1).
+        let devs = [-1.0, 0.0, 0.5, 1.0, 1.5];
+        let mean: f64 = 0.4;
+        let sd: f64 = (((-1.4f64).powi(2) + 0.16 + 0.01 + 0.36 + 1.21) / 4.0).sqrt();
+        // PWL_L and PWL_U each 100 (1 − I_x(1.5, 1.5)), x = 1/2 − Q √5 / 8 (AASHTO R 9), via statrs.
+        let side = |q: f64| {
+            100.0
+                * (1.0
+                    - statrs::function::beta::beta_reg(
+                        1.5,
+                        1.5,
+                        (0.5 - q * 5f64.sqrt() / 8.0).clamp(0.0, 1.0),
+                    ))
+        };
+        let expected = side((mean + 2.0) / sd) + side((2.0 - mean) / sd) - 100.0;
+        let got = two_sided_pwl(&devs, -2.0, 2.0).unwrap();
+        assert!((got - expected).abs() < 1e-9, "{got} vs {expected}");
+        // Pinned: the same sum with Python mpmath 1.3.0 betainc = 98.8997 %.
+        assert!((got - 98.8997).abs() < 1e-3, "{got}");
+        let tests: Vec<LotTestInput> = devs
+            .iter()
+            .enumerate()
+            .map(|(i, d)| t(i as i64 + 1, 97.0 + i as f64 * 0.3, *d))
+            .collect();
+        let rule = AcceptanceRule::QualityIndex { min_pwl_pct: 80.0 };
+        let pass = evaluate_lot_with(
+            &tests,
+            &rule,
+            &LIMITS,
+            &MoistureJudgement::PercentWithinLimits {
+                min_pwl_pct: expected.floor(),
+            },
+        );
+        assert!(pass.accepted, "{:?}", pass.reasons);
+        assert!((pass.moisture_pwl.unwrap() - expected).abs() < 1e-9);
+        let fail = evaluate_lot_with(
+            &tests,
+            &rule,
+            &LIMITS,
+            &MoistureJudgement::PercentWithinLimits {
+                min_pwl_pct: expected.ceil(),
+            },
+        );
+        assert!(!fail.accepted);
+        assert!(
+            fail.reasons
+                .iter()
+                .any(|r| r.starts_with("moisture percent within limits") && r.contains("is below"))
+        );
+        assert_eq!(two_sided_pwl(&[0.0, 1.0], -2.0, 2.0), None);
+    }
+
+    #[test]
+    fn a_chain_of_two_failed_retests_counts_once() {
+        // fail → fail → pass at one location: only the last counts, under every rule.
+        let mut a = t(1, 90.0, 0.0);
+        a.tested_at = "2026-09-01T08:00:00Z".into();
+        let mut b = t(2, 91.0, 0.0);
+        b.retest_of = Some(1);
+        b.tested_at = "2026-09-02T08:00:00Z".into();
+        let mut c = t(3, 96.0, 0.0);
+        c.retest_of = Some(2);
+        c.tested_at = "2026-09-03T08:00:00Z".into();
+        let d = t(4, 98.0, 0.0);
+        let tests = [a, b.clone(), c, d];
+        let v = evaluate_lot(
+            &tests,
+            &AcceptanceRule::MeanAndMin { allowance_pct: 3.0 },
+            &LIMITS,
+        );
+        assert_eq!(v.n, 2);
+        // Mean of 96 and 98 = 97.0 (arithmetic).
+        assert_eq!(v.mean, Some(97.0));
+        // fail → fail: the latest failure stands alone.
+        let v = evaluate_lot(&tests[..2], &AcceptanceRule::EveryTest, &LIMITS);
+        assert_eq!(
+            v.standings,
+            vec![
+                (1, TestStanding::Superseded { by: 2 }),
+                (2, TestStanding::Counted)
+            ]
+        );
+        assert_eq!((v.n, v.failing_without_retest.clone()), (1, vec![2]));
+    }
+
+    #[test]
+    fn a_test_that_cannot_be_judged_is_out_and_blocks() {
+        let mut bad = t(2, 0.0, 0.0);
+        bad.unjudged = Some("oversize correction refused".into());
+        bad.passed = false;
+        let tests = [t(1, 97.0, 0.0), bad, t(3, 96.0, 0.0), t(4, 98.0, 0.0)];
+        let v = evaluate_lot(
             &tests,
             &AcceptanceRule::MeanAndMin { allowance_pct: 2.0 },
             &LIMITS,
         );
-        assert!(!mm.accepted);
+        assert_eq!(v.n, 3);
+        assert_eq!(v.min, Some(96.0));
+        assert_eq!(v.unjudged, vec![2]);
+        assert!(!v.accepted);
         assert!(
-            mm.reasons
+            v.reasons
                 .iter()
-                .any(|r| r.contains("test 2 at 2.5 points dry of optimum")
-                    && r.contains("fails the lot"))
+                .any(|r| r.starts_with("test 2 cannot be judged: oversize correction refused"))
         );
-        let qi = evaluate_lot(
+        assert_eq!(TestStanding::CannotBeJudged.code(), "cannot_be_judged");
+    }
+
+    #[test]
+    fn an_earlier_sample_is_on_record_only() {
+        let mut old = t(1, 80.0, 0.0);
+        old.earlier_sample = true;
+        let tests = [old, t(2, 97.0, 0.0), t(3, 97.5, 0.0), t(4, 98.0, 0.0)];
+        let v = evaluate_lot(
             &tests,
             &AcceptanceRule::QualityIndex { min_pwl_pct: 90.0 },
             &LIMITS,
         );
-        assert!(qi.accepted, "{:?}", qi.reasons);
-        assert!(
-            qi.reasons
-                .iter()
-                .any(|r| r.contains("test 2") && r.contains("the density statistic decides"))
-        );
+        assert_eq!(v.standings[0], (1, TestStanding::EarlierSample));
+        assert_eq!(v.n, 3);
+        assert!(v.accepted, "{:?}", v.reasons);
     }
 
     #[test]
@@ -735,7 +1065,12 @@ mod tests {
         assert!((v.std_dev.unwrap() - 1.440_486_0).abs() < 1e-6);
         let q = v.quality_index.unwrap();
         assert!((q - 0.902_473_8).abs() < 1e-6, "{q}");
-        assert!((v.pwl.unwrap() - percent_within_limits(5, q).unwrap()).abs() < 1e-12);
+        // PWL = 100 (1 − I_x(1.5, 1.5)), x = 1/2 − Q √5 / 8, cross-checked with statrs' beta_reg.
+        let x = 0.5 - q * 5f64.sqrt() / 8.0;
+        let reference = 100.0 * (1.0 - statrs::function::beta::beta_reg(1.5, 1.5, x));
+        assert!((v.pwl.unwrap() - reference).abs() < 1e-9);
+        // Pinned: Python mpmath 1.3.0, 100 (1 − betainc(1.5, 1.5, 0, 0.247751, regularized)) = 80.6975 %.
+        assert!((v.pwl.unwrap() - 80.6975).abs() < 1e-3, "{:?}", v.pwl);
         assert!(!v.accepted, "{:?}", v.reasons);
         assert!(
             v.reasons
@@ -810,13 +1145,16 @@ mod tests {
             v.reasons.iter().any(|r| r
                 == "2 voided and 2 superseded test(s) are on record but out of the statistics")
         );
-        // A cycle in retest links (bad data) neither hangs nor supersedes anything.
+        // A cycle in retest links (bad data) does not hang: one location, one value.
         a.retest_of = Some(2);
         b.retest_of = Some(1);
         let s = standings(&[a, b]);
         assert_eq!(
             s,
-            vec![(1, TestStanding::Counted), (2, TestStanding::Counted)]
+            vec![
+                (1, TestStanding::Superseded { by: 2 }),
+                (2, TestStanding::Counted)
+            ]
         );
         assert_eq!(TestStanding::Superseded { by: 3 }.code(), "superseded");
     }
@@ -943,6 +1281,7 @@ mod tests {
             let tests: Vec<LotTestInput> = raw.iter().map(|&(id, rc, dev, passed, voided, retest_of)| LotTestInput {
                 id,
                 label: String::new(), relative_compaction_pct: rc, moisture_deviation_pct: dev, passed, voided, retest_of,
+                tested_at: String::new(), unjudged: None, earlier_sample: false,
             }).collect();
             let rule = match rule_kind {
                 0 => AcceptanceRule::EveryTest,

@@ -17,6 +17,9 @@ use super::voids::zero_air_voids_density;
 
 /// Fewest lab points accepted for a curve (common practice; the standards ask for four or more).
 pub const MIN_POINTS: usize = 4;
+/// Fewest distinct water contents accepted (four specimens at three water contents are refused:
+/// the standards ask for four or more specimens at different water contents, from memory).
+pub const MIN_DISTINCT_WATER_CONTENTS: usize = 4;
 /// Points wanted on each side of the optimum for the peak to count as bracketed (from memory: two).
 pub const MIN_POINTS_EACH_SIDE: usize = 2;
 /// Water contents closer than this (points of %) count as repeated (common practice: same to 0.1 %).
@@ -153,7 +156,9 @@ pub enum CurveError {
         water_content_pct: f64,
     },
     /// Too few distinct water contents for a curve that can peak.
-    #[error("only {distinct} distinct water contents; a curve that can peak needs at least 3")]
+    #[error(
+        "only {distinct} distinct water contents; a compaction curve needs specimens at 4 or more different water contents"
+    )]
     TooFewDistinctWaterContents {
         /// Distinct water contents found.
         distinct: usize,
@@ -354,7 +359,7 @@ fn fit(
             water_content_pct: w_min,
         });
     }
-    if distinct < 3 {
+    if distinct < MIN_DISTINCT_WATER_CONTENTS {
         return Err(CurveError::TooFewDistinctWaterContents { distinct });
     }
     let center = (w_min + w_max) / 2.0;
@@ -607,6 +612,17 @@ mod tests {
         let e = fit_curve(&same, None).unwrap_err();
         assert_eq!(e.code(), "same_water_content");
         assert!(e.to_string().contains("same water content (12 %)"), "{e}");
+        // Four specimens at three water contents (two at 14 %): refused, four distinct are needed.
+        let three = pts(&[
+            (10.0, 1700.0),
+            (12.0, 1750.0),
+            (14.0, 1800.0),
+            (14.0, 1790.0),
+        ]);
+        assert_eq!(
+            fit_curve(&three, None).unwrap_err(),
+            CurveError::TooFewDistinctWaterContents { distinct: 3 }
+        );
         let two = pts(&[
             (12.0, 1700.0),
             (12.0, 1750.0),

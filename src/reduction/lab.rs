@@ -336,6 +336,67 @@ impl EffortPreset {
     }
 }
 
+/// The two families of compaction effort a clause can name. A lot's reference curve must be
+/// of its clause's family: judging a modified-effort clause on a standard curve reads RC
+/// several percent high (common practice).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum EffortFamily {
+    /// Standard/light effort: ASTM D698, AASHTO T 99, BS 1377-4 2.5 kg, IS 2720-7 (≈ 600 kN·m/m³).
+    Standard,
+    /// Modified/heavy effort: ASTM D1557, AASHTO T 180, BS 1377-4 4.5 kg, IS 2720-8 (≈ 2,700 kN·m/m³).
+    Modified,
+}
+
+/// Nominal energy of the standard family, kJ/m³ (ASTM D698: 12,400 ft·lbf/ft³ ≈ 600 kN·m/m³).
+pub const STANDARD_NOMINAL_KJ_M3: f64 = 600.0;
+/// Nominal energy of the modified family, kJ/m³ (ASTM D1557: 56,000 ft·lbf/ft³ ≈ 2,700 kN·m/m³).
+pub const MODIFIED_NOMINAL_KJ_M3: f64 = 2700.0;
+
+impl EffortFamily {
+    /// Stable code: "standard" or "modified".
+    pub fn code(self) -> &'static str {
+        match self {
+            Self::Standard => "standard",
+            Self::Modified => "modified",
+        }
+    }
+    /// Words for refusals and reports.
+    pub fn label(self) -> &'static str {
+        match self {
+            Self::Standard => "standard effort (about 600 kN·m/m³)",
+            Self::Modified => "modified effort (about 2,700 kN·m/m³)",
+        }
+    }
+    /// The family of a preset.
+    pub fn of_preset(p: EffortPreset) -> Self {
+        if p.is_heavy() {
+            Self::Modified
+        } else {
+            Self::Standard
+        }
+    }
+    /// The family a project's own effort belongs to: the nominal energy it is nearer to on a
+    /// logarithmic scale (the boundary is the geometric mean of 600 and 2,700, about 1,273 kJ/m³).
+    pub fn of_energy(energy_kj_m3: f64) -> Self {
+        let boundary = (STANDARD_NOMINAL_KJ_M3 * MODIFIED_NOMINAL_KJ_M3).sqrt();
+        if energy_kj_m3 >= boundary {
+            Self::Modified
+        } else {
+            Self::Standard
+        }
+    }
+    /// The family of a stored lab effort: a preset code, else (a custom effort) by its energy.
+    pub fn of_lab_effort(code: &str, energy_kj_m3: f64) -> Self {
+        EffortPreset::parse_code(code)
+            .map_or_else(|| Self::of_energy(energy_kj_m3), Self::of_preset)
+    }
+    /// The family a clause's effort term names; None for "any" or "custom", which name no family.
+    pub fn of_clause_effort(code: &str) -> Option<Self> {
+        EffortPreset::parse_code(code).map(Self::of_preset)
+    }
+}
+
 /// Wet and dry density of one compacted lab specimen.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct SpecimenResult {
@@ -388,6 +449,33 @@ mod tests {
 
     fn within_pct(value: f64, target: f64, pct: f64) -> bool {
         ((value - target) / target).abs() * 100.0 <= pct
+    }
+
+    #[test]
+    fn effort_families_follow_the_nominal_energies() {
+        // ASTM D698 ≈ 600 kN·m/m³ and ASTM D1557 ≈ 2,700 kN·m/m³ (the standards' stated energies).
+        assert_eq!(
+            EffortFamily::of_preset(EffortPreset::AstmD698Mold4in),
+            EffortFamily::Standard
+        );
+        assert_eq!(
+            EffortFamily::of_preset(EffortPreset::Bs1377Heavy),
+            EffortFamily::Modified
+        );
+        assert_eq!(EffortFamily::of_energy(593.0), EffortFamily::Standard);
+        assert_eq!(EffortFamily::of_energy(2693.0), EffortFamily::Modified);
+        // Boundary √(600 × 2700) = 1272.8 kJ/m³ (geometric mean, worked by hand).
+        assert_eq!(EffortFamily::of_energy(1272.0), EffortFamily::Standard);
+        assert_eq!(EffortFamily::of_energy(1273.0), EffortFamily::Modified);
+        assert_eq!(
+            EffortFamily::of_lab_effort("custom: site rammer", 2500.0),
+            EffortFamily::Modified
+        );
+        assert_eq!(EffortFamily::of_clause_effort("any"), None);
+        assert_eq!(
+            EffortFamily::of_clause_effort("aashto_t180"),
+            Some(EffortFamily::Modified)
+        );
     }
 
     #[test]

@@ -6,12 +6,15 @@ pub const REDUCTION_VERSION: &str = "1.0.0";
 
 pub mod acceptance;
 pub mod curve;
+pub mod curve_quality;
 pub mod field;
 pub mod frequency;
 pub mod lab;
 pub mod oversize;
+pub mod plausibility;
 pub mod pwl;
 pub mod quantities;
+pub mod rounding;
 pub mod split;
 pub mod verdict;
 pub mod voids;

@@ -5,6 +5,7 @@ use serde::{Deserialize, Serialize};
 
 use super::oversize::{OversizeInput, correct_for_oversize};
 use super::quantities::{Density, WaterContent};
+use super::rounding::Rounding;
 use super::water::ReductionError;
 
 /// Slack for comparing percentages so that 95.0 computed as 94.99999999 still meets 95.0.
@@ -38,45 +39,62 @@ pub struct SpecLimits {
     pub moisture_below_pct: f64,
     /// Points allowed above OMC (common practice: 2.0).
     pub moisture_above_pct: f64,
+    /// How observed values are compared with these limits (ASTM E29).
+    pub rounding: Rounding,
 }
 
 impl SpecLimits {
-    /// True when a relative compaction meets the minimum.
+    /// True when a relative compaction meets the minimum (compared as the clause rounds).
     pub fn density_ok(&self, rc_pct: f64) -> bool {
-        rc_pct >= self.rc_min_pct - COMPARE_EPS
+        self.rounding.at_least(rc_pct, self.rc_min_pct)
     }
-    /// True when a moisture deviation lies inside the window.
+    /// True when a moisture deviation lies inside the window (compared as the clause rounds).
     pub fn moisture_ok(&self, deviation_pct: f64) -> bool {
-        deviation_pct >= -self.moisture_below_pct - COMPARE_EPS
-            && deviation_pct <= self.moisture_above_pct + COMPARE_EPS
+        self.rounding
+            .at_least(deviation_pct, -self.moisture_below_pct)
+            && self
+                .rounding
+                .at_most(deviation_pct, self.moisture_above_pct)
     }
     /// The moisture window in words, e.g. "−2.0 to +2.0 points of optimum".
     pub fn moisture_window_words(&self) -> String {
+        let below = self.rounding.limit_text(self.moisture_below_pct);
         format!(
-            "{} to +{:.1} points of optimum",
-            signed_minus(self.moisture_below_pct),
-            self.moisture_above_pct
+            "{} to +{} points of optimum",
+            if self.moisture_below_pct == 0.0 {
+                below
+            } else {
+                format!("−{below}")
+            },
+            self.rounding.limit_text(self.moisture_above_pct)
         )
     }
-}
-
-/// "−2.0" for 2.0 (a true minus sign reads better in reports).
-fn signed_minus(v: f64) -> String {
-    if v == 0.0 {
-        "0.0".to_string()
-    } else {
-        format!("−{:.1}", v.abs())
+    /// A relative compaction against the minimum in words, printing the value compared.
+    pub fn density_words(&self, what: &str, rc_pct: f64) -> String {
+        format!(
+            "{what} {} % {} the {} % minimum",
+            self.rounding.shown_against_lower(rc_pct),
+            if self.density_ok(rc_pct) {
+                "meets"
+            } else {
+                "is below"
+            },
+            self.rounding.limit_text(self.rc_min_pct)
+        )
     }
-}
-
-/// A signed deviation in words: "1.3 points wet of optimum", "0.4 points dry of optimum", "at optimum".
-pub(crate) fn deviation_words(deviation_pct: f64) -> String {
-    if deviation_pct.abs() < 0.05 {
-        "at optimum".to_string()
-    } else if deviation_pct > 0.0 {
-        format!("{:.1} points wet of optimum", deviation_pct)
-    } else {
-        format!("{:.1} points dry of optimum", -deviation_pct)
+    /// A signed deviation in words with the value compared: "1.3 points wet of optimum".
+    pub fn deviation_words(&self, deviation_pct: f64) -> String {
+        let (shown, side) = if deviation_pct < 0.0 {
+            (self.rounding.shown_against_lower(deviation_pct), "dry")
+        } else {
+            (self.rounding.shown_against_upper(deviation_pct), "wet")
+        };
+        let magnitude = shown.trim_start_matches('-');
+        if magnitude.chars().all(|c| c == '0' || c == '.') {
+            "at optimum".to_string()
+        } else {
+            format!("{magnitude} points {side} of optimum")
+        }
     }
 }
 
@@ -97,7 +115,7 @@ pub struct TestVerdict {
     pub reasons: Vec<String>,
 }
 
-/// Judges one test: RC ≥ RC_min and −below ≤ w − OMC ≤ +above (no rounding before comparing).
+/// Judges one test: RC ≥ RC_min and −below ≤ w − OMC ≤ +above, compared as the clause rounds.
 pub fn judge_test(
     dry_density: Density,
     water_content: WaterContent,
@@ -108,21 +126,11 @@ pub fn judge_test(
     let dev = moisture_deviation_pct(water_content, reference.optimum_water_content);
     let density_ok = limits.density_ok(rc);
     let moisture_ok = limits.moisture_ok(dev);
-    let density_reason = if density_ok {
-        format!(
-            "relative compaction {rc:.1} % meets the {:.1} % minimum",
-            limits.rc_min_pct
-        )
-    } else {
-        format!(
-            "relative compaction {rc:.1} % is below the {:.1} % minimum",
-            limits.rc_min_pct
-        )
-    };
+    let density_reason = limits.density_words("relative compaction", rc);
     let moisture_reason = format!(
         "water content {:.1} % is {} ({:.1} %), {} the window of {}",
         water_content.pct(),
-        deviation_words(dev),
+        limits.deviation_words(dev),
         reference.optimum_water_content.pct(),
         if moisture_ok { "inside" } else { "outside" },
         limits.moisture_window_words()
@@ -182,6 +190,7 @@ mod tests {
         rc_min_pct: 95.0,
         moisture_below_pct: 2.0,
         moisture_above_pct: 2.0,
+        rounding: Rounding::E29_ONE_DECIMAL,
     };
 
     #[test]
@@ -220,11 +229,46 @@ mod tests {
     }
 
     #[test]
+    fn the_clause_rounding_decides_the_boundary_and_the_words() {
+        // 1804.05 / 1900 × 100 = 94.95 exactly in decimal (by hand): E29 §6.4.3 rounds 94.95 → 95.0
+        // (9 is odd), so it meets "95.0"; the absolute method compares 94.95 < 95.0.
+        let v = judge_test(d(1804.05), w(12.0), &reference(), &LIMITS);
+        assert!(v.density_ok, "{v:?}");
+        assert_eq!(
+            v.reasons[0],
+            "relative compaction 95.0 % meets the 95.0 % minimum"
+        );
+        let abs = SpecLimits {
+            rounding: Rounding {
+                method: super::super::rounding::RoundingMethod::Absolute,
+                decimals: 1,
+            },
+            ..LIMITS
+        };
+        let v = judge_test(d(1804.05), w(12.0), &reference(), &abs);
+        assert!(!v.density_ok);
+        assert_eq!(
+            v.reasons[0],
+            "relative compaction 94.95 % is below the 95.0 % minimum"
+        );
+        // 2.04 points dry: E29 rounds to 2.0 (inside); the absolute method compares 2.04 (outside).
+        assert!(judge_test(d(1850.0), w(9.96), &reference(), &LIMITS).moisture_ok);
+        let v = judge_test(d(1850.0), w(9.96), &reference(), &abs);
+        assert!(!v.moisture_ok);
+        assert!(
+            v.reasons[1].contains("2.04 points dry of optimum"),
+            "{}",
+            v.reasons[1]
+        );
+    }
+
+    #[test]
     fn asymmetric_moisture_window() {
         let limits = SpecLimits {
             rc_min_pct: 90.0,
             moisture_below_pct: 1.0,
             moisture_above_pct: 3.0,
+            rounding: Rounding::E29_ONE_DECIMAL,
         };
         assert!(judge_test(d(1800.0), w(14.5), &reference(), &limits).moisture_ok);
         assert!(!judge_test(d(1800.0), w(10.5), &reference(), &limits).moisture_ok);

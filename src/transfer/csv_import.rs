@@ -623,6 +623,7 @@ fn build_input(
         easting,
         northing,
         readings,
+        confirm_implausible: false,
     };
     Some((input, r.text(Target::Lot), r.text(Target::RetestOf)))
 }

@@ -17,3 +17,4 @@ mod restart;
 mod setup_pages;
 mod shared_postgres;
 mod transfer;
+mod verdicts;

@@ -50,6 +50,9 @@ pub fn test_json(
         v["standing"] = json!(l.standing);
         v["superseded_by"] = json!(l.superseded_by);
         v["reasons"] = json!(l.reasons);
+        v["result"] = json!(l.result());
+        v["unjudged_reason"] = json!(l.unjudged_reason);
+        v["flags"] = json!(l.flags);
     }
     v
 }

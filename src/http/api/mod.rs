@@ -7,6 +7,7 @@ mod field_tests;
 pub mod openapi;
 mod projects;
 pub mod transfer;
+mod verdicts;
 
 use axum::Router;
 
@@ -22,6 +23,7 @@ pub fn router() -> Router<AppState> {
         .merge(certificates::router())
         .merge(openapi::router())
         .merge(transfer::router())
+        .merge(verdicts::router())
 }
 
 /// Paging parameters shared by every list.

@@ -154,13 +154,16 @@ async fn list_lab_tests(
 }
 
 /// A lab test with its stored JSON columns expanded.
-fn lab_test_json(t: &db::lab_tests::LabTest) -> Value {
+pub(super) fn lab_test_json(t: &db::lab_tests::LabTest) -> Value {
     let mut v = json!(t);
     v["points"] = serde_json::from_str(&t.points_json).unwrap_or(Value::Null);
     v["warnings"] = serde_json::from_str(&t.warnings_json).unwrap_or(Value::Null);
+    v["approval_concerns"] = serde_json::from_str(&t.approval_concerns_json).unwrap_or(Value::Null);
+    v["effort_family"] = json!(ledger::reference::lab_family(t).code());
     if let Some(o) = v.as_object_mut() {
         o.remove("points_json");
         o.remove("warnings_json");
+        o.remove("approval_concerns_json");
     }
     v
 }

@@ -49,6 +49,11 @@ struct CurvePage {
     density_unit: String,
     points: Vec<PointRow>,
     warnings: Vec<String>,
+    /// "not_needed", "needs_approval" or "approved" (a CSS hook and a test hook).
+    approval: String,
+    /// The approval in words (who, when, why) and the concerns it answers.
+    approval_words: String,
+    effort_family: String,
     chart: String,
     field_count: usize,
     field_fail: usize,
@@ -158,6 +163,11 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
             })
             .collect(),
         warnings,
+        approval: lab.approval.clone(),
+        approval_words: crate::ledger::certificate_doc::approval_words(&lab),
+        effort_family: crate::ledger::reference::lab_family(&lab)
+            .label()
+            .to_string(),
         chart,
         field_count: counted.len(),
         field_fail,

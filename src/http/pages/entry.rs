@@ -64,6 +64,8 @@ pub struct EntryForm {
     pub cylinder_volume_cm3: String,
     pub mass_wet_soil_g: String,
     pub water_content_pct: String,
+    /// "on" when the technician confirms a reading far above zero air voids.
+    pub confirm_implausible: String,
 }
 
 /// Field name → message, shown beside each input.
@@ -224,6 +226,7 @@ pub fn parse_entry(f: &EntryForm, u: &Units, retest: bool) -> Result<FieldTestIn
             easting: None,
             northing: None,
             readings,
+            confirm_implausible: !f.confirm_implausible.trim().is_empty(),
         }),
         _ => Err(e),
     }
@@ -300,12 +303,17 @@ fn preview_view(v: &serde_json::Value, u: &Units) -> PreviewView {
         verdict: if passed { "passes" } else { "fails" }.to_string(),
         reasons: v["reasons"]
             .as_array()
-            .map(|a| {
-                a.iter()
-                    .filter_map(|r| r.as_str().map(str::to_string))
-                    .collect()
-            })
-            .unwrap_or_default(),
+            .into_iter()
+            .flatten()
+            .filter_map(|r| r.as_str().map(str::to_string))
+            .chain(
+                v["flags"]
+                    .as_array()
+                    .into_iter()
+                    .flatten()
+                    .filter_map(|f| f["message"].as_str().map(|m| format!("flag: {m}"))),
+            )
+            .collect(),
     }
 }
 

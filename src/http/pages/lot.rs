@@ -54,13 +54,12 @@ pub fn rows(r: &LotReport, u: &Units, may_retest: bool, may_void: bool) -> Vec<R
     r.tests
         .iter()
         .map(|t| {
-            let result = match t.standing.as_str() {
-                "voided" => "void",
-                "superseded" => "superseded",
-                _ if t.passed => "pass",
-                _ => "fail",
-            };
+            let result = t.result();
             let mut notes = Vec::new();
+            notes.extend(t.cautions());
+            if t.standing == "earlier_sample" {
+                notes.push("earlier sample: on record, out of the statistics".to_string());
+            }
             if let Some(n) = &t.retest_of_number {
                 notes.push(format!("retest of {n}"));
             }

@@ -74,12 +74,7 @@ async fn page(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) ->
             .collect(),
         _ => Vec::new(),
     };
-    let result = match line.map(|l| l.standing.as_str()) {
-        Some("voided") => "void",
-        Some("superseded") => "superseded",
-        _ if line.is_some_and(|l| l.passed) => "pass",
-        _ => "fail",
-    };
+    let result = line.map_or("fail", |l| l.result());
     let history = db::audit::for_entity(&s.db, "field_test", id)
         .await?
         .into_iter()
@@ -123,7 +118,9 @@ async fn page(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) ->
                 format!("MDD {}, OMC {o:.1} %", u.density_with_unit(m))
             }),
         result: result.to_string(),
-        reasons: line.map(|l| l.reasons.clone()).unwrap_or_default(),
+        reasons: line
+            .map(|l| l.cautions().into_iter().chain(l.reasons.clone()).collect())
+            .unwrap_or_default(),
         version: t.reduction_version.clone(),
         void_reason: t.void_reason.clone().unwrap_or_default(),
         history,
