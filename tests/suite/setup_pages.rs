@@ -587,3 +587,114 @@ async fn moulds_and_splits_have_the_same_rules_through_the_api() {
         .expect("lot A2");
     assert_eq!(last["chainage_to_m"], 205.0);
 }
+
+#[tokio::test]
+async fn a_curve_that_needs_approval_is_approved_on_its_page_before_lots_may_use_it() {
+    let app = spawn_app().await;
+    let id = project_through_page(&app).await;
+    let (source, _, _) = frame_through_pages(&app, id).await;
+    // Only one point wet of the fitted optimum (near 11.6 %): the peak is not bracketed by
+    // two points on each side, so the curve is stored as needing approval (DOMAIN.md,
+    // "Trusting a verdict"; the same points as the verdict tests' unbracketed curve).
+    let (s, lab) = app
+        .post(
+            &format!("/api/v1/sources/{source}/lab-tests"),
+            &serde_json::json!({"code": "LC-RISE", "tested_on": "2026-11-21", "effort": "astm_d1557_4in",
+                "points": [
+                    {"water_content_pct": 7.0, "dry_density_kg_m3": 1880.0},
+                    {"water_content_pct": 9.0, "dry_density_kg_m3": 1930.0},
+                    {"water_content_pct": 11.0, "dry_density_kg_m3": 1955.0},
+                    {"water_content_pct": 13.0, "dry_density_kg_m3": 1948.0}
+                ]}),
+        )
+        .await;
+    assert_eq!(s, 201, "{lab}");
+    assert_eq!(lab["approval"], "needs_approval", "{lab}");
+    let lab_id = lab["id"].as_i64().expect("id");
+    let (_, lot_form) = page_as(&app, As::Qc, &format!("/projects/{id}/setup/lots/new")).await;
+    assert!(
+        !lot_form.contains("LC-RISE"),
+        "a curve awaiting approval is not offered as a reference"
+    );
+    let (_, sheet) = page_as(&app, As::Qc, &format!("/lab-tests/{lab_id}")).await;
+    assert!(sheet.contains("id=\"approve-link\""));
+    let (_, sheet) = page_as(&app, As::Tech, &format!("/lab-tests/{lab_id}")).await;
+    assert!(
+        !sheet.contains("id=\"approve-link\""),
+        "only who may change set-up sees it"
+    );
+
+    let path = format!("/lab-tests/{lab_id}/approve");
+    let (s, html, _) = post_form(&app, As::Qc, &path, &[("reason", " ")]).await;
+    assert_eq!(s, 422, "a reason is required");
+    assert!(!error_of(&html, "reason").is_empty(), "{html}");
+    let (s, _, _) = post_form(&app, As::Tech, &path, &[("reason", "looks fine")]).await;
+    assert_eq!(s, 403);
+    let (s, _, to) = post_form(
+        &app,
+        As::Qc,
+        &path,
+        &[("reason", "peak confirmed by a repeat specimen at 11.5 %")],
+    )
+    .await;
+    assert_eq!(s, 303);
+    assert_eq!(to, format!("/lab-tests/{lab_id}"));
+    let (_, lab) = app.get(&format!("/api/v1/lab-tests/{lab_id}")).await;
+    assert_eq!(lab["approval"], "approved");
+    assert_eq!(
+        lab["approval_reason"],
+        "peak confirmed by a repeat specimen at 11.5 %"
+    );
+    let (_, lot_form) = page_as(&app, As::Qc, &format!("/projects/{id}/setup/lots/new")).await;
+    assert!(lot_form.contains("LC-RISE"), "an approved curve is offered");
+}
+
+#[tokio::test]
+async fn the_clause_form_knows_every_term_of_the_ledger() {
+    let app = spawn_app().await;
+    let id = project_through_page(&app).await;
+    let path = format!("/projects/{id}/setup/clauses/new");
+    let form = [
+        ("code", "7.1"),
+        ("effort", "astm_d1557_4in"),
+        ("rc_min_pct", "95"),
+        ("moisture_below_pct", "2"),
+        ("moisture_above_pct", "2"),
+        ("rule", "quality_index"),
+        ("min_pwl_pct", "90"),
+        ("min_tests_per_lot", "5"),
+        ("moisture_judgement", "pwl"),
+        ("moisture_min_pwl_pct", "85"),
+        ("rc_plausible_max_pct", "104"),
+        ("rounding", "absolute"),
+        ("limit_decimals", "0"),
+        ("action", "preview"),
+    ];
+    let (s, html, _) = post_form(&app, As::Qc, &path, &form).await;
+    assert_eq!(s, 200);
+    assert!(
+        html.contains("At least 85 % of the lot&#39;s water contents"),
+        "{html}"
+    );
+    assert!(
+        html.contains("above 104.0 % relative compaction is flagged"),
+        "{html}"
+    );
+    assert!(
+        html.contains("compared with the limits unrounded"),
+        "{html}"
+    );
+    let saving: Vec<(&str, &str)> = form
+        .iter()
+        .filter(|(k, _)| *k != "action")
+        .copied()
+        .collect();
+    let (s, html, _) = post_form(&app, As::Qc, &path, &saving).await;
+    assert_eq!(s, 303, "{html}");
+    let (_, list) = app.get(&format!("/api/v1/projects/{id}/clauses")).await;
+    assert_eq!(list[0]["moisture_judgement"], "pwl");
+    assert_eq!(list[0]["moisture_min_pwl_pct"], 85.0);
+    assert_eq!(list[0]["rc_plausible_max_pct"], 104.0);
+    assert_eq!(list[0]["rounding"], "absolute");
+    assert_eq!(list[0]["limit_decimals"], 0);
+}

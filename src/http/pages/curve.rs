@@ -51,6 +51,9 @@ struct CurvePage {
     warnings: Vec<String>,
     /// "not_needed", "needs_approval" or "approved" (a CSS hook and a test hook).
     approval: String,
+    /// The caller may approve the curve (shown only while it needs approval).
+    may_approve: bool,
+    id: i64,
     /// The approval in words (who, when, why) and the concerns it answers.
     approval_words: String,
     effort_family: String,
@@ -62,6 +65,9 @@ struct CurvePage {
 
 async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
     require(&s.db, &caller, Scope::LabTest(id), Action::Read).await?;
+    let may_approve = require(&s.db, &caller, Scope::LabTest(id), Action::ManageSetup)
+        .await
+        .is_ok();
 
     let lab = db::lab_tests::get(&s.db, id).await?.ok_or_else(|| {
         AppError::not_found("lab_test_id", format!("lab test {id} does not exist"))
@@ -164,6 +170,8 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
             .collect(),
         warnings,
         approval: lab.approval.clone(),
+        may_approve,
+        id,
         approval_words: crate::ledger::certificate_doc::approval_words(&lab),
         effort_family: crate::ledger::reference::lab_family(&lab)
             .label()

@@ -158,6 +158,51 @@ fn clause_fields() -> Vec<Field> {
             false,
         )
         .hint("empty: the library's default"),
+        Field::new(
+            "moisture_judgement",
+            "How moisture is judged",
+            Kind::Choice(pairs(&[
+                ("per_test", "Each test inside the window (default)"),
+                (
+                    "pwl",
+                    "Percent within the window (percent-within-limits rule only)",
+                ),
+            ])),
+            false,
+        ),
+        Field::new(
+            "moisture_min_pwl_pct",
+            "Least percent within the moisture window (%)",
+            Kind::Number,
+            false,
+        )
+        .hint("when moisture is judged by percent within limits"),
+        Field::new(
+            "rc_plausible_max_pct",
+            "Flag relative compaction above (%)",
+            Kind::Number,
+            false,
+        )
+        .hint("empty: 103 %; a higher RC is flagged as implausible"),
+        Field::new(
+            "rounding",
+            "Comparing with the limits",
+            Kind::Choice(pairs(&[
+                (
+                    "astm_e29",
+                    "Round to the limit's precision first (ASTM E29, default)",
+                ),
+                ("absolute", "Compare the unrounded value"),
+            ])),
+            false,
+        ),
+        Field::new(
+            "limit_decimals",
+            "Decimals the limits are written with",
+            Kind::Integer,
+            false,
+        )
+        .hint("empty: 1, as in 95.0 %"),
     ]
 }
 
@@ -222,6 +267,10 @@ async fn clause_post(
             length_per_test_m: input.length_per_test_m,
             min_tests_per_lot: input.min_tests_per_lot,
             oversize_limit_pct: input.oversize_limit_pct,
+            moisture_judgement: input.moisture_judgement.as_deref(),
+            moisture_min_pwl_pct: input.moisture_min_pwl_pct,
+            rc_plausible_max_pct: input.rc_plausible_max_pct,
+            rounding: input.rounding.as_deref(),
         });
         let html = ClauseWords { words }
             .render()
@@ -380,7 +429,7 @@ impl LotChoices {
         let curves = db::lab_tests::list_for_project(pool, ctx.project.id)
             .await?
             .into_iter()
-            .filter(|t| t.status == "active")
+            .filter(|t| t.status == "active" && t.approval != "needs_approval")
             .map(|t| {
                 (
                     t.id,

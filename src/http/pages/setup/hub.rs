@@ -113,7 +113,13 @@ async fn hub(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> 
             let active: Vec<String> = curves
                 .iter()
                 .filter(|t| t.source_id == src.id && t.status == "active")
-                .map(|t| t.code.clone())
+                .map(|t| {
+                    if t.approval == "needs_approval" {
+                        format!("{} (awaiting approval)", t.code)
+                    } else {
+                        t.code.clone()
+                    }
+                })
                 .collect();
             Line {
                 text: format!(

@@ -7,6 +7,7 @@
 //! refused form comes back (422) with each message beside its field and nothing
 //! saved.
 
+mod approval;
 pub mod form;
 mod frame;
 mod hub;
@@ -35,6 +36,7 @@ use crate::present::Units;
 pub fn router() -> Router<AppState> {
     Router::new()
         .merge(hub::router())
+        .merge(approval::router())
         .merge(people::router())
         .merge(frame::router())
         .merge(split::router())

@@ -19,6 +19,13 @@ pub struct Terms<'a> {
     pub length_per_test_m: Option<f64>,
     pub min_tests_per_lot: i64,
     pub oversize_limit_pct: Option<f64>,
+    /// "per_test" or "pwl"; `None` reads as the default (per test).
+    pub moisture_judgement: Option<&'a str>,
+    pub moisture_min_pwl_pct: Option<f64>,
+    /// `None` reads as the default (103 %).
+    pub rc_plausible_max_pct: Option<f64>,
+    /// "astm_e29" or "absolute"; `None` reads as the default (ASTM E29).
+    pub rounding: Option<&'a str>,
 }
 
 impl<'a> From<&'a Clause> for Terms<'a> {
@@ -35,6 +42,10 @@ impl<'a> From<&'a Clause> for Terms<'a> {
             length_per_test_m: c.length_per_test_m,
             min_tests_per_lot: c.min_tests_per_lot,
             oversize_limit_pct: Some(c.oversize_limit_pct),
+            moisture_judgement: Some(&c.moisture_judgement),
+            moisture_min_pwl_pct: c.moisture_min_pwl_pct,
+            rc_plausible_max_pct: Some(c.rc_plausible_max_pct),
+            rounding: Some(&c.rounding),
         }
     }
 }
@@ -80,17 +91,37 @@ fn frequency_words(t: &Terms) -> String {
     format!("Tests owed: {}, whichever asks for more.", parts.join(", "))
 }
 
+fn moisture_words(t: &Terms) -> String {
+    match t.moisture_judgement {
+        Some("pwl") => format!(
+            "At least {:.0} % of the lot's water contents must lie between {:.1} points dry and {:.1} points wet of the optimum (percent within limits, both sides).",
+            t.moisture_min_pwl_pct.unwrap_or(90.0),
+            t.moisture_below_pct,
+            t.moisture_above_pct
+        ),
+        _ => format!(
+            "Each test's water content must lie between {:.1} points dry and {:.1} points wet of the optimum.",
+            t.moisture_below_pct, t.moisture_above_pct
+        ),
+    }
+}
+
 /// The clause's rule in sentences, in the order the ledger applies it.
 pub fn clause_words(t: &Terms) -> Vec<String> {
     let mut words = vec![
         format!("Judged against {}.", effort_words(t.effort)),
         rule_words(t),
-        format!(
-            "Each test's water content must lie between {:.1} points dry and {:.1} points wet of the optimum.",
-            t.moisture_below_pct, t.moisture_above_pct
-        ),
+        moisture_words(t),
         frequency_words(t),
     ];
+    words.push(format!(
+        "A test above {:.1} % relative compaction is flagged as implausible for a person to check.",
+        t.rc_plausible_max_pct.unwrap_or(103.0)
+    ));
+    words.push(match t.rounding {
+        Some("absolute") => "Values are compared with the limits unrounded.".to_string(),
+        _ => "Values are rounded to the limit's written precision before they are compared (ASTM E29).".to_string(),
+    });
     if let Some(o) = t.oversize_limit_pct {
         words.push(format!(
             "Oversize is corrected for up to {o:.0} % coarse fraction; a test with more cannot be judged against the curve."
@@ -117,6 +148,10 @@ mod tests {
             length_per_test_m: None,
             min_tests_per_lot: 3,
             oversize_limit_pct: Some(30.0),
+            moisture_judgement: None,
+            moisture_min_pwl_pct: None,
+            rc_plausible_max_pct: None,
+            rounding: None,
         };
         let words = clause_words(&t).join(" ");
         assert!(
