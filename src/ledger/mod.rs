@@ -11,10 +11,15 @@ pub mod field;
 pub mod import;
 pub mod lot_report;
 pub mod overview;
+pub mod people;
+pub mod reopen;
+pub mod repoint;
 pub mod review;
+pub mod sessions;
 pub mod setup;
 pub mod test_list;
 pub mod test_writer;
+pub mod tokens;
 pub mod validate;
 pub mod verify;
 

@@ -58,6 +58,7 @@ impl DemoApp {
             Settings {
                 demo: true,
                 secure_cookies: false,
+                trust_proxy: false,
             },
         );
         let (tx, rx) = oneshot::channel::<()>();

@@ -1,6 +1,6 @@
 //! Projects and what is set up inside them: clauses, sources, lab tests, layers, lots.
 
-use axum::extract::{Path, State};
+use axum::extract::State;
 use axum::http::StatusCode;
 use axum::routing::{get, post};
 use axum::{Json, Router};
@@ -13,7 +13,7 @@ use crate::auth::Action;
 use crate::db;
 use crate::error::{AppError, Result};
 use crate::http::caller::{Caller, Scope, require, require_admin};
-use crate::http::extract::{ApiJson, ApiQuery};
+use crate::http::extract::{ApiJson, ApiPath, ApiQuery};
 use crate::ledger::{self, setup};
 
 /// Routes of this module.
@@ -77,7 +77,7 @@ async fn create_project(
 async fn get_project(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<db::projects::Project>> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
 
@@ -87,7 +87,7 @@ async fn get_project(
 async fn list_clauses(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<Vec<db::clauses::Clause>>> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
 
@@ -97,7 +97,7 @@ async fn list_clauses(
 
 async fn create_clause(
     State(s): State<AppState>,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<setup::ClauseInput>,
 ) -> Result<Created<db::clauses::Clause>> {
@@ -112,7 +112,7 @@ async fn create_clause(
 async fn list_sources(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<Vec<db::sources::Source>>> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
 
@@ -122,7 +122,7 @@ async fn list_sources(
 
 async fn create_source(
     State(s): State<AppState>,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<setup::SourceInput>,
 ) -> Result<Created<db::sources::Source>> {
@@ -137,7 +137,7 @@ async fn create_source(
 async fn list_lab_tests(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<Vec<Value>>> {
     require(&s.db, &caller, Scope::Source(id), Action::Read).await?;
 
@@ -162,7 +162,7 @@ fn lab_test_json(t: &db::lab_tests::LabTest) -> Value {
 
 async fn create_lab_test(
     State(s): State<AppState>,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<setup::LabTestInput>,
 ) -> Result<Created<Value>> {
@@ -175,7 +175,7 @@ async fn create_lab_test(
 async fn get_lab_test(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<Value>> {
     require(&s.db, &caller, Scope::LabTest(id), Action::Read).await?;
 
@@ -188,7 +188,7 @@ async fn get_lab_test(
 async fn list_layers(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<Vec<db::layers::Layer>>> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
 
@@ -198,7 +198,7 @@ async fn list_layers(
 
 async fn create_layer(
     State(s): State<AppState>,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<setup::LayerInput>,
 ) -> Result<Created<db::layers::Layer>> {
@@ -227,7 +227,7 @@ struct LotQuery {
 async fn list_lots(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     ApiQuery(q): ApiQuery<LotQuery>,
 ) -> Result<Json<Value>> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
@@ -272,7 +272,7 @@ async fn list_lots(
 
 async fn create_lot(
     State(s): State<AppState>,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<setup::LotInput>,
 ) -> Result<Created<db::lots::Lot>> {
@@ -287,7 +287,7 @@ async fn create_lot(
 async fn get_lot(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<ledger::lot_report::LotReport>> {
     require(&s.db, &caller, Scope::Lot(id), Action::Read).await?;
 
@@ -297,7 +297,7 @@ async fn get_lot(
 async fn lot_history(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<Value>> {
     require(&s.db, &caller, Scope::Lot(id), Action::Read).await?;
 
@@ -310,7 +310,7 @@ async fn lot_history(
 async fn review_queue(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<Vec<db::lots::Lot>>> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
 
@@ -328,7 +328,7 @@ struct ReviewInput {
 
 async fn submit_lot(
     State(s): State<AppState>,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<ReviewInput>,
 ) -> Result<Json<ledger::lot_report::LotReport>> {
@@ -341,7 +341,7 @@ async fn submit_lot(
 
 async fn accept_lot(
     State(s): State<AppState>,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<ReviewInput>,
 ) -> Result<Json<ledger::lot_report::LotReport>> {
@@ -354,7 +354,7 @@ async fn accept_lot(
 
 async fn reject_lot(
     State(s): State<AppState>,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<ReviewInput>,
 ) -> Result<Json<ledger::lot_report::LotReport>> {
