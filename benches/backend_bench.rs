@@ -24,6 +24,7 @@ async fn start(location: &db::Location) -> (String, tokio::sync::oneshot::Sender
         Settings {
             demo: false,
             secure_cookies: false,
+            trust_proxy: false,
         },
     );
     let (tx, rx) = tokio::sync::oneshot::channel::<()>();
@@ -43,8 +44,14 @@ async fn prepare(location: &db::Location) -> (String, i64, f64, f64) {
     let input = accounts::TokenInput {
         name: "bench".into(),
         role: "technician".into(),
+        expires_in_days: None,
     };
-    let (secret, _) = accounts::create_token(&pool, 1, &input, &Actor::system("bench"))
+    let maker = liftledger::db::users::by_username(&pool, "achterberg")
+        .await
+        .unwrap()
+        .unwrap()
+        .id;
+    let (secret, _) = accounts::create_token(&pool, 1, &input, maker, &Actor::system("bench"))
         .await
         .unwrap();
     let (id, from, to): (i64, f64, f64) =

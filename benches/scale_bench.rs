@@ -259,6 +259,7 @@ impl Server {
             Settings {
                 demo: false,
                 secure_cookies: false,
+                trust_proxy: false,
             },
         );
         let (stop_tx, rx) = tokio::sync::oneshot::channel::<()>();

@@ -12,6 +12,8 @@ pub struct Settings {
     pub demo: bool,
     /// Mark the session cookie `Secure` (set when served over TLS, directly or behind a proxy).
     pub secure_cookies: bool,
+    /// Take the client address from `X-Forwarded-For` (set only behind a proxy that writes it).
+    pub trust_proxy: bool,
 }
 
 /// Cheap-to-clone handle on the service's shared parts.

@@ -98,6 +98,37 @@ pub enum UserCommand {
         #[arg(long)]
         role: String,
     },
+    /// End a user's role in a project; their sessions end and the tokens they made there die.
+    Remove {
+        #[command(flatten)]
+        db: DbArgs,
+        #[arg(long)]
+        username: String,
+        /// Project code, e.g. MLR.
+        #[arg(long)]
+        project: String,
+    },
+    /// Disable a user: every session ends and every token they made dies.
+    Disable {
+        #[command(flatten)]
+        db: DbArgs,
+        #[arg(long)]
+        username: String,
+    },
+    /// Re-enable a disabled user.
+    Enable {
+        #[command(flatten)]
+        db: DbArgs,
+        #[arg(long)]
+        username: String,
+    },
+    /// Set a user's password (read from standard input); they must change it at next sign-in.
+    ResetPassword {
+        #[command(flatten)]
+        db: DbArgs,
+        #[arg(long)]
+        username: String,
+    },
 }
 
 /// Where the database lives.
@@ -136,6 +167,11 @@ pub struct ServeArgs {
     /// Mark the session cookie Secure (set this when users reach the service over HTTPS).
     #[arg(long, env = "LIFTLEDGER_SECURE_COOKIES")]
     pub secure_cookies: bool,
+    /// Behind a reverse proxy: take the client address (for the sign-in throttle and the
+    /// audit trail) from the last X-Forwarded-For entry. Never set it without a proxy that
+    /// writes that header, or any client can claim any address.
+    #[arg(long, env = "LIFTLEDGER_TRUST_PROXY")]
+    pub trust_proxy: bool,
     /// Serve Prometheus metrics at http://ADDR/metrics on this separate (private) address;
     /// off when not given.
     #[arg(long, env = "LIFTLEDGER_METRICS_ADDR")]

@@ -176,6 +176,9 @@ pub async fn load(pool: &Pool) -> anyhow::Result<String> {
                 "reject" => ledger::review::reject(pool, id, comment, &actor)
                     .await
                     .map(|_| ()),
+                "reopen" => ledger::reopen::reopen(pool, id, comment, &actor)
+                    .await
+                    .map(|_| ()),
                 other => return Err(anyhow!("unknown demo action {other}")),
             }
         };

@@ -20,8 +20,6 @@ pub mod reduction;
 pub mod scale;
 pub mod transfer;
 
-use std::net::SocketAddr;
-
 use tokio::net::TcpListener;
 
 pub use app::{AppState, Settings};
@@ -32,12 +30,19 @@ pub async fn serve(
     state: AppState,
     shutdown: impl std::future::Future<Output = ()> + Send + 'static,
 ) -> std::io::Result<()> {
+    serve_with_header_timeout(listener, state, shutdown, http::listen::HEADER_READ_TIMEOUT).await
+}
+
+/// [`serve`] with another HTTP/1 header-read timeout (tests use a short one).
+pub async fn serve_with_header_timeout(
+    listener: TcpListener,
+    state: AppState,
+    shutdown: impl std::future::Future<Output = ()> + Send + 'static,
+    header_read_timeout: std::time::Duration,
+) -> std::io::Result<()> {
     // Curves stored before the quality rules are checked once, before the first request.
     if let Err(e) = ledger::reference::recheck_curves(&state.db).await {
         tracing::warn!(error = %e.user_message(), "curve quality re-check failed; it runs again at the next start");
     }
-    let app = http::router(state).into_make_service_with_connect_info::<SocketAddr>();
-    axum::serve(listener, app)
-        .with_graceful_shutdown(shutdown)
-        .await
+    http::listen::serve(listener, http::router(state), shutdown, header_read_timeout).await
 }

@@ -65,6 +65,7 @@ async fn main() -> anyhow::Result<()> {
                 .map_err(|e| anyhow::anyhow!("{}: {}", e.field(), e.user_message()))?;
             println!("{username} is now {role} in {}", p.code);
         }
+        Command::User(other) => user_command(other).await?,
         Command::Import {
             db,
             project,
@@ -154,12 +155,68 @@ async fn main() -> anyhow::Result<()> {
                 Settings {
                     demo: a.demo,
                     secure_cookies: a.secure_cookies,
+                    trust_proxy: a.trust_proxy,
                 },
             );
             liftledger::serve(listener, state, shutdown_signal()).await?;
             pool.close().await;
             println!("liftledger stopped");
         }
+    }
+    Ok(())
+}
+
+/// `liftledger user remove | disable | enable | reset-password`.
+async fn user_command(cmd: UserCommand) -> anyhow::Result<()> {
+    let cli = Actor::system("cli");
+    let fail =
+        |e: liftledger::error::AppError| anyhow::anyhow!("{}: {}", e.field(), e.user_message());
+    match cmd {
+        UserCommand::Remove {
+            db,
+            username,
+            project,
+        } => {
+            let pool = db::connect(&db.location()).await?;
+            let p = db::projects::get_by_code(&pool, &project.to_ascii_uppercase())
+                .await?
+                .ok_or_else(|| anyhow::anyhow!("no project with code {project}"))?;
+            accounts::remove_member(&pool, &username, p.id, &cli)
+                .await
+                .map_err(fail)?;
+            println!("{username} is no longer a member of {}", p.code);
+        }
+        UserCommand::Disable { db, username } => {
+            let pool = db::connect(&db.location()).await?;
+            accounts::set_enabled(&pool, &username, false, &cli)
+                .await
+                .map_err(fail)?;
+            println!("{username} is disabled; every session and token of theirs has ended");
+        }
+        UserCommand::Enable { db, username } => {
+            let pool = db::connect(&db.location()).await?;
+            accounts::set_enabled(&pool, &username, true, &cli)
+                .await
+                .map_err(fail)?;
+            println!("{username} is enabled again");
+        }
+        UserCommand::ResetPassword { db, username } => {
+            let pool = db::connect(&db.location()).await?;
+            let mut password = String::new();
+            std::io::stdin().lock().read_line(&mut password)?;
+            let ended = accounts::reset_password(
+                &pool,
+                &username,
+                password.trim_end_matches(['\r', '\n']),
+                &cli,
+            )
+            .await
+            .map_err(fail)?;
+            println!(
+                "password of {username} set; {ended} sessions ended; it must be changed at next sign-in"
+            );
+        }
+        UserCommand::Add { .. } | UserCommand::Grant { .. } => {}
     }
     Ok(())
 }

@@ -48,6 +48,14 @@ impl Role {
         Self::ALL.into_iter().find(|r| r.code() == s)
     }
 
+    /// True when everything `self` may do, `holder` may do too (roles are parties,
+    /// not a ladder: a QC manager's rights do not contain a client engineer's).
+    pub fn within(self, holder: Role) -> bool {
+        Action::ALL
+            .into_iter()
+            .all(|a| !allows(self, a) || allows(holder, a))
+    }
+
     /// Words for people.
     pub fn label(self) -> &'static str {
         match self {
@@ -74,11 +82,22 @@ pub enum Action {
     SubmitLot,
     /// Accept or reject a submitted lot; issue certificates.
     ReviewLot,
-    /// Create and revoke API tokens of the project.
+    /// Create and revoke API tokens of the project (never for a role beyond one's own).
     ManageTokens,
 }
 
 impl Action {
+    /// Every action, for the containment of roles.
+    pub const ALL: [Action; 7] = [
+        Action::Read,
+        Action::EnterTests,
+        Action::VoidTest,
+        Action::ManageSetup,
+        Action::SubmitLot,
+        Action::ReviewLot,
+        Action::ManageTokens,
+    ];
+
     /// Words for a refusal message.
     pub fn label(self) -> &'static str {
         match self {
@@ -100,8 +119,10 @@ pub fn allows(role: Role, action: Action) -> bool {
     match action {
         Read => true,
         EnterTests => matches!(role, Technician | QcManager),
-        VoidTest | ManageSetup | SubmitLot | ManageTokens => role == QcManager,
+        VoidTest | ManageSetup | SubmitLot => role == QcManager,
         ReviewLot => role == ClientEngineer,
+        // Each party keeps its own devices: tokens up to one's own role.
+        ManageTokens => matches!(role, QcManager | ClientEngineer),
     }
 }
 
@@ -120,6 +141,20 @@ mod tests {
         assert!(allows(Role::Viewer, Action::Read));
         assert!(allows(Role::Technician, Action::EnterTests));
         assert!(!allows(Role::Technician, Action::VoidTest));
+    }
+
+    #[test]
+    fn roles_are_parties_not_a_ladder() {
+        use Role::*;
+        assert!(Technician.within(QcManager));
+        assert!(Viewer.within(ClientEngineer));
+        assert!(!ClientEngineer.within(QcManager), "no contractor can sign");
+        assert!(!QcManager.within(ClientEngineer));
+        assert!(!Technician.within(ClientEngineer));
+        assert!(!QcManager.within(Technician));
+        for r in Role::ALL {
+            assert!(r.within(r));
+        }
     }
 
     #[test]

@@ -68,6 +68,25 @@ pub async fn for_entity(
     .await
 }
 
+/// The import that created test `test_id` of a project, if any: the newest import row
+/// whose first created id is at or below the test's (ids of one import are consecutive;
+/// the caller checks the last id from the row's `created_ids`).
+pub async fn import_covering(
+    pool: &Pool,
+    project_id: i64,
+    test_id: i64,
+) -> sqlx::Result<Option<AuditEntry>> {
+    sqlx::query_as::<_, AuditEntry>(
+        "SELECT id, at, actor, action, entity, entity_id, project_id, before_json, after_json, origin
+         FROM audit_log WHERE entity = 'field_test_import' AND project_id = $1 AND entity_id <= $2
+         ORDER BY entity_id DESC LIMIT 1",
+    )
+    .bind(project_id)
+    .bind(test_id)
+    .fetch_optional(pool)
+    .await
+}
+
 /// The newest changes in a project.
 pub async fn recent(pool: &Pool, project_id: i64, limit: i64) -> sqlx::Result<Vec<AuditEntry>> {
     sqlx::query_as::<_, AuditEntry>(

@@ -19,10 +19,21 @@ pub struct Certificate {
     pub issued_at: String,
     pub issued_by: String,
     pub superseded_at: Option<String>,
+    /// Set when the lot was reopened: this revision no longer certifies anything.
+    pub withdrawn_at: Option<String>,
+    pub withdrawn_by: Option<String>,
+    pub withdrawn_reason: Option<String>,
+}
+
+impl Certificate {
+    /// True while this revision is the lot's certificate: neither superseded nor withdrawn.
+    pub fn is_current(&self) -> bool {
+        self.superseded_at.is_none() && self.withdrawn_at.is_none()
+    }
 }
 
 const COLUMNS: &str = "id, project_id, lot_id, sequence, revision, number, verification_code, sha256, \
-    record_fingerprint, issued_at, issued_by, superseded_at";
+    record_fingerprint, issued_at, issued_by, superseded_at, withdrawn_at, withdrawn_by, withdrawn_reason";
 
 /// A certificate to store; the PDF is written once and never updated.
 #[derive(Debug, Clone)]
@@ -55,6 +66,26 @@ pub async fn current_for_lot_tx(tx: &mut Tx<'_>, lot_id: i64) -> sqlx::Result<Op
     sqlx::query_as::<_, Certificate>(sqlx::AssertSqlSafe(format!(
         "SELECT {COLUMNS} FROM certificates WHERE lot_id = $1 AND superseded_at IS NULL"
     )))
+    .bind(lot_id)
+    .fetch_optional(&mut **tx)
+    .await
+}
+
+/// Withdraws a lot's live certificate (its lot was reopened); returns the id withdrawn.
+pub async fn withdraw_for_lot(
+    tx: &mut Tx<'_>,
+    lot_id: i64,
+    by: &str,
+    reason: &str,
+    now: &str,
+) -> sqlx::Result<Option<i64>> {
+    sqlx::query_scalar(
+        "UPDATE certificates SET withdrawn_at = $1, withdrawn_by = $2, withdrawn_reason = $3
+         WHERE lot_id = $4 AND superseded_at IS NULL AND withdrawn_at IS NULL RETURNING id",
+    )
+    .bind(now)
+    .bind(by)
+    .bind(reason)
     .bind(lot_id)
     .fetch_optional(&mut **tx)
     .await

@@ -210,14 +210,19 @@ pub async fn count_by_state(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<(S
     .await
 }
 
-/// Points every lot judged against lab test `old` at `new`; returns how many moved.
-pub async fn repoint_lab_test(tx: &mut Tx<'_>, old: i64, new: i64) -> sqlx::Result<u64> {
-    let done = sqlx::query("UPDATE lots SET lab_test_id = $1 WHERE lab_test_id = $2")
-        .bind(new)
-        .bind(old)
-        .execute(&mut **tx)
-        .await?;
-    Ok(done.rows_affected())
+/// Points one open or rejected lot from curve `old` at curve `new`; false when the lot
+/// is no longer open/rejected or no longer on `old` (changed meanwhile).
+pub async fn set_lab_test(tx: &mut Tx<'_>, lot_id: i64, old: i64, new: i64) -> sqlx::Result<bool> {
+    let done = sqlx::query(
+        "UPDATE lots SET lab_test_id = $1
+         WHERE id = $2 AND lab_test_id = $3 AND state IN ('open', 'rejected')",
+    )
+    .bind(new)
+    .bind(lot_id)
+    .bind(old)
+    .execute(&mut **tx)
+    .await?;
+    Ok(done.rows_affected() == 1)
 }
 
 /// Every state change of a lot, read inside a transaction.

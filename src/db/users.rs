@@ -18,6 +18,8 @@ pub struct User {
     pub is_demo: i64,
     pub disabled_at: Option<String>,
     pub created_at: String,
+    /// 1 when the password was set by someone else (reset, first start) and must be changed.
+    pub must_change_password: i64,
 }
 
 impl User {
@@ -27,7 +29,8 @@ impl User {
     }
 }
 
-const USER: &str = "SELECT id, username, display_name, password_hash, is_admin, is_demo, disabled_at, created_at FROM users";
+const USER: &str = "SELECT id, username, display_name, password_hash, is_admin, is_demo, disabled_at, created_at, \
+    must_change_password FROM users";
 
 /// Inserts a user.
 pub async fn insert(
@@ -104,6 +107,86 @@ pub async fn grant(
     Ok(())
 }
 
+/// Ends a membership; false when the user was not a member.
+pub async fn remove_membership(
+    tx: &mut Tx<'_>,
+    user_id: i64,
+    project_id: i64,
+) -> sqlx::Result<Option<String>> {
+    sqlx::query_scalar(
+        "DELETE FROM memberships WHERE user_id = $1 AND project_id = $2 RETURNING role",
+    )
+    .bind(user_id)
+    .bind(project_id)
+    .fetch_optional(&mut **tx)
+    .await
+}
+
+/// Disables (`Some(now)`) or re-enables (`None`) a user; false when nothing changed.
+pub async fn set_disabled(
+    tx: &mut Tx<'_>,
+    user_id: i64,
+    disabled_at: Option<&str>,
+) -> sqlx::Result<bool> {
+    let done = match disabled_at {
+        Some(at) => {
+            sqlx::query("UPDATE users SET disabled_at = $1 WHERE id = $2 AND disabled_at IS NULL")
+                .bind(at)
+                .bind(user_id)
+        }
+        None => sqlx::query(
+            "UPDATE users SET disabled_at = NULL WHERE id = $1 AND disabled_at IS NOT NULL",
+        )
+        .bind(user_id),
+    }
+    .execute(&mut **tx)
+    .await?;
+    Ok(done.rows_affected() == 1)
+}
+
+/// Stores a new password hash; `must_change` makes the next sign-in ask for a new one.
+pub async fn set_password(
+    tx: &mut Tx<'_>,
+    user_id: i64,
+    password_hash: &str,
+    must_change: bool,
+) -> sqlx::Result<()> {
+    sqlx::query("UPDATE users SET password_hash = $1, must_change_password = $2 WHERE id = $3")
+        .bind(password_hash)
+        .bind(i64::from(must_change))
+        .bind(user_id)
+        .execute(&mut **tx)
+        .await?;
+    Ok(())
+}
+
+/// Marks a user's password as one to change at next sign-in (the first admin's).
+pub async fn require_password_change(tx: &mut Tx<'_>, user_id: i64) -> sqlx::Result<()> {
+    sqlx::query("UPDATE users SET must_change_password = 1 WHERE id = $1")
+        .bind(user_id)
+        .execute(&mut **tx)
+        .await?;
+    Ok(())
+}
+
+/// Ends every live session of a user, except `keep` when given; returns how many ended.
+pub async fn end_sessions_of(
+    tx: &mut Tx<'_>,
+    user_id: i64,
+    keep: Option<i64>,
+    now: &str,
+) -> sqlx::Result<u64> {
+    let done = sqlx::query(
+        "UPDATE sessions SET ended_at = $1 WHERE user_id = $2 AND ended_at IS NULL AND id <> $3",
+    )
+    .bind(now)
+    .bind(user_id)
+    .bind(keep.unwrap_or(0))
+    .execute(&mut **tx)
+    .await?;
+    Ok(done.rows_affected())
+}
+
 /// A user's role in a project, if a member.
 pub async fn role_in(pool: &Pool, user_id: i64, project_id: i64) -> sqlx::Result<Option<String>> {
     sqlx::query_scalar("SELECT role FROM memberships WHERE user_id = $1 AND project_id = $2")
@@ -173,6 +256,7 @@ pub async fn session(pool: &Pool, token_hash: &str) -> sqlx::Result<Option<Sessi
 #[derive(Debug, Clone, sqlx::FromRow)]
 pub struct SessionUser {
     pub session_id: i64,
+    pub session_created_at: String,
     pub session_last_seen_at: String,
     #[sqlx(flatten)]
     pub user: User,
@@ -181,8 +265,9 @@ pub struct SessionUser {
 /// The live session with this token hash, and its user.
 pub async fn session_user(pool: &Pool, token_hash: &str) -> sqlx::Result<Option<SessionUser>> {
     sqlx::query_as::<_, SessionUser>(
-        "SELECT s.id AS session_id, s.last_seen_at AS session_last_seen_at, u.id, u.username, u.display_name,
-                u.password_hash, u.is_admin, u.is_demo, u.disabled_at, u.created_at
+        "SELECT s.id AS session_id, s.created_at AS session_created_at, s.last_seen_at AS session_last_seen_at,
+                u.id, u.username, u.display_name, u.password_hash, u.is_admin, u.is_demo, u.disabled_at,
+                u.created_at, u.must_change_password
          FROM sessions s JOIN users u ON u.id = s.user_id
          WHERE s.token_hash = $1 AND s.ended_at IS NULL",
     )
@@ -211,6 +296,16 @@ pub async fn end_session(pool: &Pool, id: i64, now: &str) -> sqlx::Result<()> {
     Ok(())
 }
 
+/// Ends a session inside a transaction; false when it had already ended.
+pub async fn end_session_tx(tx: &mut Tx<'_>, id: i64, now: &str) -> sqlx::Result<bool> {
+    let done = sqlx::query("UPDATE sessions SET ended_at = $1 WHERE id = $2 AND ended_at IS NULL")
+        .bind(now)
+        .bind(id)
+        .execute(&mut **tx)
+        .await?;
+    Ok(done.rows_affected() == 1)
+}
+
 /// A stored API token (without its secret).
 #[derive(Debug, Clone, Serialize, sqlx::FromRow)]
 pub struct ApiToken {
@@ -219,45 +314,101 @@ pub struct ApiToken {
     pub role: String,
     pub name: String,
     pub created_by: String,
+    /// The user who made it; the token lives only while that user may hold its role.
+    pub created_by_user_id: Option<i64>,
     pub created_at: String,
+    pub expires_at: Option<String>,
     pub last_used_at: Option<String>,
     pub revoked_at: Option<String>,
 }
 
-const TOKEN: &str = "SELECT id, project_id, role, name, created_by, created_at, last_used_at, revoked_at FROM api_tokens";
+const TOKEN: &str = "SELECT id, project_id, role, name, created_by, created_by_user_id, created_at, expires_at, \
+    last_used_at, revoked_at FROM api_tokens";
+
+/// A new token's row.
+pub struct NewToken<'a> {
+    pub project_id: i64,
+    pub role: &'a str,
+    pub name: &'a str,
+    pub token_hash: &'a str,
+    pub created_by: &'a str,
+    pub created_by_user_id: i64,
+    pub expires_at: &'a str,
+}
 
 /// Stores a new token's hash.
-pub async fn insert_token(
-    tx: &mut Tx<'_>,
-    project_id: i64,
-    role: &str,
-    name: &str,
-    token_hash: &str,
-    created_by: &str,
-    now: &str,
-) -> sqlx::Result<i64> {
+pub async fn insert_token(tx: &mut Tx<'_>, t: &NewToken<'_>, now: &str) -> sqlx::Result<i64> {
     sqlx::query_scalar(
-        "INSERT INTO api_tokens (project_id, role, name, token_hash, created_by, created_at)
-         VALUES ($1, $2, $3, $4, $5, $6) RETURNING id",
+        "INSERT INTO api_tokens (project_id, role, name, token_hash, created_by, created_at,
+                                 created_by_user_id, expires_at)
+         VALUES ($1, $2, $3, $4, $5, $6, $7, $8) RETURNING id",
     )
-    .bind(project_id)
-    .bind(role)
-    .bind(name)
-    .bind(token_hash)
-    .bind(created_by)
+    .bind(t.project_id)
+    .bind(t.role)
+    .bind(t.name)
+    .bind(t.token_hash)
+    .bind(t.created_by)
     .bind(now)
+    .bind(t.created_by_user_id)
+    .bind(t.expires_at)
     .fetch_one(&mut **tx)
     .await
 }
 
-/// A live (not revoked) token by the hash of its secret.
-pub async fn token_by_hash(pool: &Pool, token_hash: &str) -> sqlx::Result<Option<ApiToken>> {
-    sqlx::query_as::<_, ApiToken>(sqlx::AssertSqlSafe(format!(
-        "{TOKEN} WHERE token_hash = $1 AND revoked_at IS NULL"
-    )))
+/// A live token by the hash of its secret, with its creator's current role in the token's
+/// project: not revoked, not expired, its creator enabled and still a member.
+pub async fn live_token(
+    pool: &Pool,
+    token_hash: &str,
+    now: &str,
+) -> sqlx::Result<Option<(ApiToken, String)>> {
+    let row: Option<TokenWithCreator> = sqlx::query_as(
+        "SELECT t.id, t.project_id, t.role, t.name, t.created_by, t.created_by_user_id, t.created_at,
+                t.expires_at, t.last_used_at, t.revoked_at, m.role AS creator_role
+         FROM api_tokens t
+         JOIN users u ON u.id = t.created_by_user_id
+         JOIN memberships m ON m.user_id = u.id AND m.project_id = t.project_id
+         WHERE t.token_hash = $1 AND t.revoked_at IS NULL AND t.expires_at > $2
+           AND u.disabled_at IS NULL",
+    )
     .bind(token_hash)
+    .bind(now)
     .fetch_optional(pool)
-    .await
+    .await?;
+    Ok(row.map(|r| (r.token, r.creator_role)))
+}
+
+#[derive(sqlx::FromRow)]
+struct TokenWithCreator {
+    #[sqlx(flatten)]
+    token: ApiToken,
+    creator_role: String,
+}
+
+/// Revokes every live token a user made (in one project, or everywhere); returns how many.
+pub async fn revoke_tokens_of(
+    tx: &mut Tx<'_>,
+    user_id: i64,
+    project_id: Option<i64>,
+    now: &str,
+) -> sqlx::Result<u64> {
+    let done = match project_id {
+        Some(p) => sqlx::query(
+            "UPDATE api_tokens SET revoked_at = $1
+             WHERE created_by_user_id = $2 AND revoked_at IS NULL AND project_id = $3",
+        )
+        .bind(now)
+        .bind(user_id)
+        .bind(p),
+        None => sqlx::query(
+            "UPDATE api_tokens SET revoked_at = $1 WHERE created_by_user_id = $2 AND revoked_at IS NULL",
+        )
+        .bind(now)
+        .bind(user_id),
+    }
+    .execute(&mut **tx)
+    .await?;
+    Ok(done.rows_affected())
 }
 
 /// One token by id.
@@ -297,6 +448,65 @@ pub async fn revoke_token(tx: &mut Tx<'_>, id: i64, now: &str) -> sqlx::Result<b
             .execute(&mut **tx)
             .await?;
     Ok(done.rows_affected() == 1)
+}
+
+/// Holds the throttle of one key until the transaction ends, so counting a key's
+/// failures and recording the next attempt are one step for every server sharing the
+/// database (PostgreSQL: a transaction-scoped advisory lock; SQLite's `BEGIN IMMEDIATE`
+/// already holds the only write lock).
+pub async fn lock_throttle_key(tx: &mut Tx<'_>, key: &str) -> sqlx::Result<()> {
+    if tx.backend_name() == "PostgreSQL" {
+        // Wrapped so the statement returns an integer column, not `void` (which the
+        // `Any` driver cannot describe).
+        sqlx::query(
+            "SELECT 1 FROM (SELECT pg_advisory_xact_lock(hashtextextended($1, 0))) AS held",
+        )
+        .bind(key)
+        .execute(&mut **tx)
+        .await?;
+    }
+    Ok(())
+}
+
+/// Failures under a key since a time, and the latest of them, read inside the throttle's lock.
+pub async fn failures_since_tx(
+    tx: &mut Tx<'_>,
+    key: &str,
+    since: &str,
+) -> sqlx::Result<(i64, Option<String>)> {
+    sqlx::query_as("SELECT COUNT(*), MAX(at) FROM sign_in_failures WHERE key = $1 AND at >= $2")
+        .bind(key)
+        .bind(since)
+        .fetch_one(&mut **tx)
+        .await
+}
+
+/// Counts an attempt as a failure before its password is checked; returns the row's id.
+pub async fn reserve_attempt(tx: &mut Tx<'_>, key: &str, now: &str) -> sqlx::Result<i64> {
+    sqlx::query_scalar("INSERT INTO sign_in_failures (key, at) VALUES ($1, $2) RETURNING id")
+        .bind(key)
+        .bind(now)
+        .fetch_one(&mut **tx)
+        .await
+}
+
+/// A reserved attempt that failed: its time becomes when the failure was answered.
+pub async fn settle_failure(pool: &Pool, id: i64, now: &str) -> sqlx::Result<()> {
+    sqlx::query("UPDATE sign_in_failures SET at = $1 WHERE id = $2")
+        .bind(now)
+        .bind(id)
+        .execute(pool)
+        .await?;
+    Ok(())
+}
+
+/// A reserved attempt that succeeded is not a failure.
+pub async fn forget_attempt(pool: &Pool, id: i64) -> sqlx::Result<()> {
+    sqlx::query("DELETE FROM sign_in_failures WHERE id = $1")
+        .bind(id)
+        .execute(pool)
+        .await?;
+    Ok(())
 }
 
 /// Records a failed sign-in under a key (`user:…` or `addr:…`).

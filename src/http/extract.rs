@@ -5,7 +5,6 @@ use axum::http::request::Parts;
 use serde::de::DeserializeOwned;
 
 use crate::error::AppError;
-use crate::ledger::Actor;
 
 /// A JSON body; a parse failure names the offending field.
 pub struct ApiJson<T>(pub T);
@@ -99,29 +98,51 @@ fn strip_position(message: &str) -> &str {
     message.split(" at line ").next().unwrap_or(message)
 }
 
-/// The person making the request, recorded on every change.
-///
-/// Until sign-in exists the name is taken from the `X-Liftledger-User` header
-/// (default `anonymous`) and the origin is the client address.
-pub struct RequestActor(pub Actor);
+/// A path parameter; an unreadable one (`/lots/abc`) names the parameter in the JSON error.
+pub struct ApiPath<T>(pub T);
 
-impl<S: Send + Sync> FromRequestParts<S> for RequestActor {
+impl<S, T> FromRequestParts<S> for ApiPath<T>
+where
+    S: Send + Sync,
+    T: DeserializeOwned + Send,
+{
     type Rejection = AppError;
 
-    async fn from_request_parts(parts: &mut Parts, _state: &S) -> Result<Self, Self::Rejection> {
-        let name = parts
-            .headers
-            .get("x-liftledger-user")
-            .and_then(|v| v.to_str().ok())
-            .map(str::trim)
-            .filter(|v| !v.is_empty() && v.len() <= 80)
-            .unwrap_or("anonymous")
-            .to_string();
-        let origin = parts
-            .extensions
-            .get::<axum::extract::ConnectInfo<std::net::SocketAddr>>()
-            .map(|c| c.0.ip().to_string())
-            .unwrap_or_default();
-        Ok(RequestActor(Actor { name, origin }))
+    async fn from_request_parts(parts: &mut Parts, state: &S) -> Result<Self, Self::Rejection> {
+        use axum::extract::path::{ErrorKind, Path};
+        use axum::extract::rejection::PathRejection;
+        match Path::<T>::from_request_parts(parts, state).await {
+            Ok(Path(v)) => Ok(ApiPath(v)),
+            Err(PathRejection::FailedToDeserializePathParams(e)) => {
+                let field = match e.kind() {
+                    ErrorKind::ParseErrorAtKey { key, .. }
+                    | ErrorKind::InvalidUtf8InPathParam { key }
+                    | ErrorKind::DeserializeError { key, .. } => key.clone(),
+                    // A lone parameter is parsed without its name: take it from the route.
+                    _ => sole_parameter(parts).unwrap_or_else(|| "path".to_string()),
+                };
+                Err(AppError::BadRequest {
+                    field,
+                    message: e.body_text(),
+                })
+            }
+            Err(other) => Err(AppError::Internal(anyhow::anyhow!(
+                "path parameters: {}",
+                other.body_text()
+            ))),
+        }
     }
+}
+
+/// The name of the route's only path parameter (`id` in `/api/v1/lots/{id}`), if it has one.
+fn sole_parameter(parts: &Parts) -> Option<String> {
+    let route = parts
+        .extensions
+        .get::<axum::extract::MatchedPath>()?
+        .as_str();
+    let mut names = route
+        .split('/')
+        .filter_map(|seg| seg.strip_prefix('{')?.strip_suffix('}'));
+    let first = names.next()?;
+    names.next().is_none().then(|| first.to_string())
 }

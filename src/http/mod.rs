@@ -5,10 +5,12 @@ pub mod api;
 pub mod caller;
 pub mod extract;
 pub mod health;
+pub mod listen;
 mod observe;
 pub mod pages;
 pub mod request_id;
 mod same_origin;
+mod uniform_errors;
 pub mod upload;
 
 use std::time::Duration;
@@ -66,11 +68,19 @@ pub fn router(state: AppState) -> Router {
             header::REFERRER_POLICY,
             HeaderValue::from_static("same-origin"),
         ))
+        // Around everything but `observe`, so the timeout's answer is rewritten too.
+        .layer(axum::middleware::from_fn(uniform_errors::uniform))
         // Outermost, so the id, the log line and the metrics cover every answer,
         // the timeout's and the same-origin refusal's included.
         .layer(axum::middleware::from_fn(observe::observe))
 }
 
-async fn not_found(uri: axum::http::Uri) -> AppError {
-    AppError::not_found("path", format!("no such page or resource: {}", uri.path()))
+async fn not_found(uri: axum::http::Uri) -> axum::response::Response {
+    use axum::response::IntoResponse;
+    let e = AppError::not_found("path", format!("no such page or resource: {}", uri.path()));
+    if uri.path().starts_with("/api/") {
+        e.into_response()
+    } else {
+        pages::PageError(e).into_response()
+    }
 }

@@ -4,7 +4,9 @@
 //! session cookie must come from this site: its `Origin` header (or, when a
 //! browser sends none, its `Referer`) must name the same host as the request.
 //! Requests authenticated by an API token carry no cookie and are not subject
-//! to this check. Together with `SameSite=Lax` cookies this refuses forged and
+//! to this check. The sign-in form is checked even without a cookie: a forged
+//! cross-site sign-in would put the victim's browser in the attacker's account
+//! (login CSRF), and everything they then enter would be recorded as the attacker's. Together with `SameSite=Lax` cookies this refuses forged and
 //! replayed cross-site forms without per-form tokens.
 
 use axum::extract::Request;
@@ -14,6 +16,9 @@ use axum::response::{IntoResponse, Response};
 
 use super::caller::SESSION_COOKIE;
 use crate::error::AppError;
+
+/// The form that starts a session: always same-origin.
+const SIGN_IN: &str = "/sign-in";
 
 /// The host[:port] part of an origin or URL.
 fn authority(url: &str) -> Option<&str> {
@@ -33,7 +38,8 @@ pub async fn check(req: Request, next: Next) -> Response {
             v.split(';')
                 .any(|kv| kv.trim().starts_with(&format!("{SESSION_COOKIE}=")))
         });
-    if safe || !has_session || h.contains_key(header::AUTHORIZATION) {
+    let sign_in = req.uri().path() == SIGN_IN;
+    if safe || (!sign_in && (!has_session || h.contains_key(header::AUTHORIZATION))) {
         return next.run(req).await;
     }
     let host = h

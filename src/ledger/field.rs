@@ -603,9 +603,8 @@ pub async fn void_test(
     let reason = text("reason", reason, 500)?;
     let test = require_test(pool, test_id).await?;
     let lot = require_lot(pool, test.lot_id).await?;
-    if lot.state == "submitted" || lot.state == "accepted" {
-        // An accepted lot may still need a correction; that puts its certificate out of date.
-        if lot.state == "submitted" {
+    match lot.state.as_str() {
+        "submitted" => {
             return Err(AppError::conflict(
                 "test_id",
                 format!(
@@ -615,9 +614,36 @@ pub async fn void_test(
                 vec![],
             ));
         }
+        "accepted" => {
+            return Err(AppError::conflict(
+                "test_id",
+                format!(
+                    "lot {} is accepted and frozen; a client engineer must reopen it before a test is voided",
+                    lot.code
+                ),
+                vec![],
+            ));
+        }
+        _ => {}
     }
     let now = clock::now();
     let mut tx = db::begin_write(pool).await?;
+    // The lot may have been submitted or accepted since it was read: hold its state.
+    let state = db::lots::state_for_write(&mut tx, lot.id).await?;
+    if state
+        .as_deref()
+        .is_some_and(|s| s == "submitted" || s == "accepted")
+    {
+        return Err(AppError::conflict(
+            "test_id",
+            format!(
+                "lot {} became {} meanwhile; nothing was voided",
+                lot.code,
+                state.unwrap_or_default()
+            ),
+            vec![],
+        ));
+    }
     if !db::field_tests::void(&mut tx, test_id, &reason, &actor.name, &now).await? {
         return Err(AppError::conflict(
             "test_id",
@@ -642,6 +668,27 @@ pub async fn void_test(
     .await?;
     tx.commit().await?;
     require_test(pool, test_id).await
+}
+
+/// A test's history, oldest first: its own audit rows and, for an imported test, the
+/// import that created it (who, when, the file's name and SHA-256).
+pub async fn history(
+    pool: &Pool,
+    test: &db::field_tests::FieldTest,
+) -> Result<Vec<db::audit::AuditEntry>> {
+    let mut rows = db::audit::for_entity(pool, "field_test", test.id).await?;
+    if let Some(import) = db::audit::import_covering(pool, test.project_id, test.id).await? {
+        let last = import
+            .after_json
+            .as_deref()
+            .and_then(|j| serde_json::from_str::<serde_json::Value>(j).ok())
+            .and_then(|v| v["created_ids"]["last"].as_i64());
+        if last.is_some_and(|last| test.id <= last) {
+            rows.push(import);
+        }
+    }
+    rows.sort_by_key(|r| r.id);
+    Ok(rows)
 }
 
 /// Reduces and judges a field test against its lot without saving it (the site-entry preview).

@@ -371,7 +371,7 @@ pub fn assemble(
     let fingerprint = fingerprint(&lot, &clause, &lab_test, &tests);
     let certificate_current = certificate
         .as_ref()
-        .is_some_and(|c| c.record_fingerprint == fingerprint);
+        .is_some_and(|c| c.withdrawn_at.is_none() && c.record_fingerprint == fingerprint);
     let display_state = match lot.state.as_str() {
         "accepted" if certificate.is_some() && certificate_current => "certified",
         "accepted" => "accepted",

@@ -13,12 +13,17 @@ pub mod lot_report;
 pub mod lot_split;
 pub mod moulds;
 pub mod overview;
+pub mod people;
 pub mod reference;
+pub mod reopen;
+pub mod repoint;
 pub mod resample;
 pub mod review;
+pub mod sessions;
 pub mod setup;
 pub mod test_list;
 pub mod test_writer;
+pub mod tokens;
 pub mod validate;
 pub mod verify;
 

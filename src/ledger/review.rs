@@ -162,6 +162,14 @@ pub async fn accept(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> R
             vec!["only submitted lots can be accepted".into()],
         ));
     }
+    // A reissue passes every check a submission does; so does a first acceptance.
+    if !report.submit_blockers.is_empty() {
+        return Err(AppError::conflict(
+            "state",
+            format!("lot {} cannot be accepted", report.lot.code),
+            report.submit_blockers.clone(),
+        ));
+    }
     if !report.verdict.accepted {
         let mut reasons = report.verdict.reasons.clone();
         reasons.insert(

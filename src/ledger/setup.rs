@@ -644,8 +644,8 @@ pub async fn create_lab_test(
         .await
         .map_err(unique("code", &format!("lab test {}", record.code)))?;
     if let Some(old) = input.supersedes_lab_test_id {
-        // Lots judged against the old curve are judged against its replacement from now on.
-        let moved = db::lots::repoint_lab_test(&mut tx, old, t.id).await?;
+        // No lot moves: an accepted lot keeps the curve it was accepted against, and an
+        // open one moves only when a QC manager re-points it (`ledger::repoint`).
         audit::record(
             &mut tx,
             &audit::Change {
@@ -656,7 +656,7 @@ pub async fn create_lab_test(
                 project_id: Some(source.project_id),
                 before: Some(json!({"status": "active"})),
                 after: Some(
-                    json!({"status": "superseded", "replaced_by": t.id, "lots_moved": moved,
+                    json!({"status": "superseded", "replaced_by": t.id, "lots_moved": 0,
                                    "reason": input.supersede_reason.trim()}),
                 ),
                 origin: &actor.origin,

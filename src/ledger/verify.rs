@@ -41,18 +41,34 @@ pub async fn verify(pool: &Pool, q: Query) -> Result<Value> {
         }));
     };
     let lot = db::lots::get(pool, c.lot_id).await?;
-    let current = c.superseded_at.is_none();
+    let current = c.is_current();
+    let message = match (&c.withdrawn_at, current) {
+        (Some(at), _) => format!(
+            "{} revision {} is genuine but WITHDRAWN on {} by {}: {}",
+            c.number,
+            c.revision,
+            crate::clock::display(at),
+            c.withdrawn_by.as_deref().unwrap_or(""),
+            c.withdrawn_reason.as_deref().unwrap_or("")
+        ),
+        (None, true) => format!(
+            "{} revision {} is genuine and current",
+            c.number, c.revision
+        ),
+        (None, false) => format!(
+            "{} revision {} is genuine but SUPERSEDED by a later revision",
+            c.number, c.revision
+        ),
+    };
     Ok(json!({
         "found": true,
         "matched_by": by,
+        "withdrawn": c.withdrawn_at.is_some(),
+        "withdrawn_reason": c.withdrawn_reason,
         "certificate": c,
         "lot_code": lot.map(|l| l.code),
         "current": current,
-        "message": if current {
-            format!("{} revision {} is genuine and current", c.number, c.revision)
-        } else {
-            format!("{} revision {} is genuine but SUPERSEDED by a later revision", c.number, c.revision)
-        },
+        "message": message,
     }))
 }
 

@@ -438,7 +438,8 @@ impl<W: Write> ExportWriter<W> {
 
     fn csv<const N: usize>(&mut self, fields: [String; N]) -> Result<()> {
         if let Out::Csv(w) = &mut self.out {
-            w.write_record(fields).map_err(io)?;
+            w.write_record(fields.iter().map(|f| super::csv_safe::cell(f).into_owned()))
+                .map_err(io)?;
         }
         self.written += 1;
         Ok(())

@@ -5,6 +5,7 @@
 //! the one transaction) lives in `crate::ledger::import`.
 
 pub mod csv_import;
+pub mod csv_safe;
 pub mod export;
 pub mod geojson;
 pub mod mapping;

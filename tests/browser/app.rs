@@ -79,6 +79,7 @@ impl DemoApp {
             Settings {
                 demo,
                 secure_cookies: false,
+                trust_proxy: false,
             },
         );
         let (tx, rx) = oneshot::channel::<()>();

@@ -35,7 +35,10 @@ enum Needs {
     Void,
     Submit,
     Review,
-    Tokens,
+    /// Make a technician's token: only a member whose role contains a technician's.
+    MakeTechToken,
+    /// Revoke a viewer's token: an admin, or a member whose role contains a viewer's and who manages tokens.
+    RevokeViewerToken,
     SignedIn,
 }
 
@@ -45,15 +48,20 @@ fn allowed(who: Who, needs: Needs) -> bool {
         (Who::Anonymous | Who::RevokedToken, _) => false,
         (_, Needs::SignedIn) => true,
         (Who::Outsider, _) => false,
-        (Who::Persona(As::Admin), n) => matches!(n, Needs::Admin | Needs::Tokens),
+        (Who::Persona(As::Admin), n) => matches!(n, Needs::Admin | Needs::RevokeViewerToken),
         (Who::TechToken, Needs::Enter) => true,
         (Who::TechToken, _) => false,
         (Who::Persona(As::Qc), n) => matches!(
             n,
-            Needs::Setup | Needs::Enter | Needs::Void | Needs::Submit | Needs::Tokens
+            Needs::Setup
+                | Needs::Enter
+                | Needs::Void
+                | Needs::Submit
+                | Needs::MakeTechToken
+                | Needs::RevokeViewerToken
         ),
         (Who::Persona(As::Tech), n) => n == Needs::Enter,
-        (Who::Persona(As::Engineer), n) => n == Needs::Review,
+        (Who::Persona(As::Engineer), n) => matches!(n, Needs::Review | Needs::RevokeViewerToken),
         (Who::Persona(As::Viewer), _) => false,
     }
 }
@@ -463,19 +471,31 @@ async fn every_mutating_route_answers_each_caller_as_the_permission_table_says()
         )
     })
     .await;
-    check_route(&mut f, "create token", Needs::Tokens, false, move |_, i| {
-        (
-            format!("/api/v1/projects/{p}/tokens"),
-            Body::Json(json!({"name": format!("dev {i}"), "role": "technician"})),
-        )
-    })
+    check_route(
+        &mut f,
+        "create token",
+        Needs::MakeTechToken,
+        false,
+        move |_, i| {
+            (
+                format!("/api/v1/projects/{p}/tokens"),
+                Body::Json(json!({"name": format!("dev {i}"), "role": "technician"})),
+            )
+        },
+    )
     .await;
-    check_route(&mut f, "revoke token", Needs::Tokens, false, |f, i| {
-        (
-            format!("/api/v1/tokens/{}/revoke", f.tokens_to_revoke[i]),
-            Body::Json(json!({})),
-        )
-    })
+    check_route(
+        &mut f,
+        "revoke token",
+        Needs::RevokeViewerToken,
+        false,
+        |f, i| {
+            (
+                format!("/api/v1/tokens/{}/revoke", f.tokens_to_revoke[i]),
+                Body::Json(json!({})),
+            )
+        },
+    )
     .await;
     check_route(&mut f, "calculator", Needs::SignedIn, false, |_, _| {
         (

@@ -175,7 +175,7 @@ async fn full_flow_reaches_a_verdict_that_follows_the_tests() {
 }
 
 #[tokio::test]
-async fn superseding_a_lab_curve_moves_its_lots_to_the_replacement() {
+async fn superseding_a_lab_curve_leaves_its_lots_on_it_until_re_pointed() {
     let app = spawn_app().await;
     let f = build_frame(&app, json!({"rule": "every_test"})).await;
     let (s, new) = app
@@ -191,5 +191,8 @@ async fn superseding_a_lab_curve_moves_its_lots_to_the_replacement() {
     assert_eq!(old["status"], "superseded");
     assert_eq!(old["superseded_reason"], "new material face opened");
     let (_, lot) = app.get(&format!("/api/v1/lots/{}", f.lot)).await;
-    assert_eq!(lot["lot"]["lab_test_id"], new["id"]);
+    assert_eq!(
+        lot["lot"]["lab_test_id"], f.lab_test,
+        "no lot moves by itself"
+    );
 }

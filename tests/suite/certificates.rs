@@ -139,8 +139,17 @@ async fn accepting_issues_a_certificate_that_reads_back_and_reissues_as_revision
         .await;
     assert_eq!(s, 409, "{e}");
 
-    // A correction after acceptance: the certificate goes out of date, re-accepting issues revision 2.
+    // A correction after acceptance: the client engineer reopens the lot (its certificate is
+    // withdrawn), the test is voided, and the next acceptance issues revision 2.
     let first_test = r["tests"][0]["test"]["id"].as_i64().unwrap();
+    let (s, _) = app
+        .post_as(
+            crate::helpers::As::Engineer,
+            &format!("/api/v1/lots/{}/reopen", f.lot),
+            &json!({"reason": "a test was entered twice"}),
+        )
+        .await;
+    assert_eq!(s, 200);
     let (s, _) = app
         .post(
             &format!("/api/v1/field-tests/{first_test}/void"),
@@ -150,7 +159,11 @@ async fn accepting_issues_a_certificate_that_reads_back_and_reissues_as_revision
     assert_eq!(s, 200);
     let (_, stale) = app.get(&format!("/api/v1/lots/{}", f.lot)).await;
     assert_eq!(stale["certificate_current"], false);
-    assert_eq!(stale["display_state"], "accepted");
+    assert_eq!(stale["lot"]["state"], "open");
+    let (s, _) = app
+        .post(&format!("/api/v1/lots/{}/submit", f.lot), &json!({}))
+        .await;
+    assert_eq!(s, 200);
     let (s, r2) = app
         .post(
             &format!("/api/v1/lots/{}/accept", f.lot),
@@ -180,7 +193,7 @@ async fn accepting_issues_a_certificate_that_reads_back_and_reissues_as_revision
     let (_, v) = app.post("/api/v1/verify", &json!({"code": code})).await;
     assert_eq!(v["found"], true);
     assert_eq!(v["current"], false, "{v}");
-    assert!(v["message"].as_str().unwrap().contains("SUPERSEDED"));
+    assert!(v["message"].as_str().unwrap().contains("WITHDRAWN"));
     let (_, list) = app
         .get(&format!("/api/v1/projects/{}/certificates", f.project))
         .await;
@@ -188,7 +201,7 @@ async fn accepting_issues_a_certificate_that_reads_back_and_reissues_as_revision
 
     // The pages show the same.
     let (_, html) = crate::helpers::page(&app, &format!("/certificates/{}", cert["id"])).await;
-    assert!(html.contains("Superseded"));
+    assert!(html.contains("Withdrawn"));
     assert!(html.contains(cert["sha256"].as_str().unwrap()));
 }
 

@@ -251,6 +251,15 @@ pub async fn fresh_location(path: &std::path::Path) -> db::Location {
 
 /// Starts a server on an existing (or new) database file.
 pub async fn spawn_on(dir: std::sync::Arc<tempfile::TempDir>, location: db::Location) -> TestApp {
+    spawn_with(dir, location, false).await
+}
+
+/// Starts a server; `trust_proxy` as `serve --trust-proxy`.
+pub async fn spawn_with(
+    dir: std::sync::Arc<tempfile::TempDir>,
+    location: db::Location,
+    trust_proxy: bool,
+) -> TestApp {
     if std::env::var("TEST_LOG").is_ok() {
         let _ = tracing_subscriber::fmt().with_env_filter("info").try_init();
     }
@@ -264,6 +273,7 @@ pub async fn spawn_on(dir: std::sync::Arc<tempfile::TempDir>, location: db::Loca
         Settings {
             demo: false,
             secure_cookies: false,
+            trust_proxy,
         },
     );
     let (tx, rx) = oneshot::channel::<()>();
@@ -500,4 +510,51 @@ pub fn client_with(origin: &str, session: Option<&str>) -> reqwest::Client {
         .redirect(reqwest::redirect::Policy::none())
         .build()
         .unwrap()
+}
+
+/// Signs in through the form; the session secret when the server set one, and the status.
+pub async fn sign_in_form(app: &TestApp, username: &str, password: &str) -> (u16, Option<String>) {
+    let r = app
+        .anonymous
+        .post(app.url("/sign-in"))
+        .form(&[("username", username), ("password", password)])
+        .send()
+        .await
+        .expect("sign-in");
+    let status = r.status().as_u16();
+    let secret = r
+        .headers()
+        .get_all("set-cookie")
+        .iter()
+        .filter_map(|v| v.to_str().ok())
+        .find_map(|c| {
+            c.strip_prefix(&format!("{}=", liftledger::http::caller::SESSION_COOKIE))
+                .and_then(|rest| rest.split(';').next())
+                .filter(|v| !v.is_empty())
+                .map(str::to_string)
+        });
+    (status, secret)
+}
+
+/// A client signed in with a session secret, sending this server's Origin.
+pub fn session_client(app: &TestApp, secret: &str) -> reqwest::Client {
+    client_with(&format!("http://{}", app.addr), Some(secret))
+}
+
+/// A client sending a bearer token.
+pub fn token_client(token: &str) -> reqwest::Client {
+    let mut h = reqwest::header::HeaderMap::new();
+    h.insert("authorization", format!("Bearer {token}").parse().unwrap());
+    reqwest::Client::builder()
+        .default_headers(h)
+        .redirect(reqwest::redirect::Policy::none())
+        .build()
+        .unwrap()
+}
+
+/// Status and JSON of a request.
+pub async fn answer(r: reqwest::RequestBuilder) -> (u16, Value) {
+    let r = r.send().await.expect("request");
+    let s = r.status().as_u16();
+    (s, r.json().await.unwrap_or(Value::Null))
 }

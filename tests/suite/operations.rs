@@ -357,7 +357,7 @@ async fn prepared_database() -> (Arc<tempfile::TempDir>, db::Location, i64, [Str
     for (who, role) in [
         (As::Qc, "technician"),
         (As::Qc, "qc_manager"),
-        (As::Qc, "client_engineer"),
+        (As::Engineer, "client_engineer"),
     ] {
         let (s, t) = app
             .post_as(

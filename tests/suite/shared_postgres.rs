@@ -116,8 +116,20 @@ async fn two_servers_on_one_postgres_take_tests_and_issue_consecutive_certificat
             let input = liftledger::ledger::accounts::TokenInput {
                 name: format!("load {role}"),
                 role: role.into(),
+                expires_in_days: None,
             };
-            liftledger::ledger::accounts::create_token(&pool, 1, &input, &system)
+            // Each token is made by a demo member whose own role contains it.
+            let maker = if role == "client_engineer" {
+                "ferreira"
+            } else {
+                "achterberg"
+            };
+            let maker = db::users::by_username(&pool, maker)
+                .await
+                .unwrap()
+                .unwrap()
+                .id;
+            liftledger::ledger::accounts::create_token(&pool, 1, &input, maker, &system)
                 .await
                 .unwrap()
                 .0
@@ -298,11 +310,18 @@ async fn when_one_server_dies_mid_load_the_other_keeps_serving_and_nothing_is_ha
     let input = liftledger::ledger::accounts::TokenInput {
         name: "load".into(),
         role: "technician".into(),
+        expires_in_days: None,
     };
+    let maker = db::users::by_username(&pool, "achterberg")
+        .await
+        .unwrap()
+        .unwrap()
+        .id;
     let (tech, _) = liftledger::ledger::accounts::create_token(
         &pool,
         1,
         &input,
+        maker,
         &liftledger::ledger::Actor::system("setup"),
     )
     .await

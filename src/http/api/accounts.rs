@@ -1,6 +1,6 @@
 //! Users, memberships and API tokens.
 
-use axum::extract::{Path, State};
+use axum::extract::State;
 use axum::http::StatusCode;
 use axum::routing::{get, post};
 use axum::{Json, Router};
@@ -12,8 +12,8 @@ use crate::auth::Action;
 use crate::db::users;
 use crate::error::{AppError, Result};
 use crate::http::caller::{Caller, Principal, Scope, project_of, require, require_admin};
-use crate::http::extract::ApiJson;
-use crate::ledger::accounts::{self, TokenInput, UserInput};
+use crate::http::extract::{ApiJson, ApiPath};
+use crate::ledger::accounts::{self, Revoker, TokenInput, UserInput};
 
 /// Routes of this module.
 pub fn router() -> Router<AppState> {
@@ -59,7 +59,7 @@ async fn create_user(
 async fn list_members(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<Value>> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
     let members: Vec<Value> = users::members(&s.db, id)
@@ -81,7 +81,7 @@ struct GrantInput {
 async fn grant(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     ApiJson(input): ApiJson<GrantInput>,
 ) -> Result<Json<Value>> {
     let actor = require_admin(&caller)?;
@@ -92,39 +92,46 @@ async fn grant(
     ))
 }
 
-/// Admins manage any project's tokens; QC managers their own project's.
-async fn token_manager(
-    s: &AppState,
-    caller: &Caller,
-    scope: Scope,
-) -> Result<crate::ledger::Actor> {
-    if caller.is_admin() {
-        project_of(&s.db, scope).await?;
-        return Ok(caller.actor());
-    }
+/// Who may list a project's tokens: an admin, or a member who may manage tokens.
+async fn token_reader(s: &AppState, caller: &Caller, scope: Scope) -> Result<()> {
     if matches!(caller.principal, Principal::Token(_)) {
         return Err(AppError::forbidden("an API token may not manage tokens"));
     }
-    require(&s.db, caller, scope, Action::ManageTokens).await
+    if caller.is_admin() {
+        project_of(&s.db, scope).await?;
+        return Ok(());
+    }
+    require(&s.db, caller, scope, Action::ManageTokens).await?;
+    Ok(())
 }
 
 async fn list_tokens(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<Vec<users::ApiToken>>> {
-    token_manager(&s, &caller, Scope::Project(id)).await?;
+    token_reader(&s, &caller, Scope::Project(id)).await?;
     Ok(Json(users::tokens(&s.db, id).await?))
 }
 
+/// A token is made by a signed-in person with a role in the project, for a role within it
+/// (an admin without a project role may not make one).
 async fn create_token(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     ApiJson(input): ApiJson<TokenInput>,
 ) -> Result<(StatusCode, Json<Value>)> {
-    let actor = token_manager(&s, &caller, Scope::Project(id)).await?;
-    let (secret, token) = accounts::create_token(&s.db, id, &input, &actor).await?;
+    let Principal::User(user) = &caller.principal else {
+        return Err(AppError::forbidden("an API token may not manage tokens"));
+    };
+    let actor = if caller.is_admin() {
+        project_of(&s.db, Scope::Project(id)).await?;
+        caller.actor()
+    } else {
+        require(&s.db, &caller, Scope::Project(id), Action::ManageTokens).await?
+    };
+    let (secret, token) = accounts::create_token(&s.db, id, &input, user.id, &actor).await?;
     Ok((
         StatusCode::CREATED,
         Json(
@@ -136,8 +143,22 @@ async fn create_token(
 async fn revoke_token(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<users::ApiToken>> {
-    let actor = token_manager(&s, &caller, Scope::Token(id)).await?;
-    Ok(Json(accounts::revoke_token(&s.db, id, &actor).await?))
+    if matches!(caller.principal, Principal::Token(_)) {
+        return Err(AppError::forbidden("an API token may not manage tokens"));
+    }
+    let (by, actor) = if caller.is_admin() {
+        project_of(&s.db, Scope::Token(id)).await?;
+        (Revoker::Admin, caller.actor())
+    } else {
+        let actor = require(&s.db, &caller, Scope::Token(id), Action::ManageTokens).await?;
+        let project = project_of(&s.db, Scope::Token(id)).await?;
+        let role = caller
+            .role_in(&s.db, project)
+            .await?
+            .ok_or_else(|| AppError::forbidden("revoking a token needs a role in its project"))?;
+        (Revoker::Member(role), actor)
+    };
+    Ok(Json(accounts::revoke_token(&s.db, id, by, &actor).await?))
 }

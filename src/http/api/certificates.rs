@@ -1,6 +1,6 @@
 //! Certificates: list, metadata, the issued PDF bytes, and verification.
 
-use axum::extract::{Path, State};
+use axum::extract::State;
 use axum::http::header;
 use axum::response::IntoResponse;
 use axum::routing::{get, post};
@@ -13,7 +13,7 @@ use crate::auth::Action;
 use crate::db;
 use crate::error::{AppError, Result};
 use crate::http::caller::{Caller, Scope, require};
-use crate::http::extract::ApiJson;
+use crate::http::extract::{ApiJson, ApiPath};
 use crate::ledger::{self, verify};
 
 /// Routes of this module.
@@ -28,7 +28,7 @@ pub fn router() -> Router<AppState> {
 async fn list(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<Vec<db::certificates::Certificate>>> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
 
@@ -39,20 +39,18 @@ async fn list(
 async fn get_one(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<Value>> {
     require(&s.db, &caller, Scope::Certificate(id), Action::Read).await?;
 
     let c = verify::require_certificate(&s.db, id).await?;
-    Ok(Json(
-        json!({"certificate": c, "current": c.superseded_at.is_none()}),
-    ))
+    Ok(Json(json!({"certificate": c, "current": c.is_current()})))
 }
 
 async fn pdf(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<impl IntoResponse> {
     require(&s.db, &caller, Scope::Certificate(id), Action::Read).await?;
 

@@ -1,6 +1,6 @@
 //! Field tests: entry, preview, listing, voiding and retests.
 
-use axum::extract::{Path, State};
+use axum::extract::State;
 use axum::http::StatusCode;
 use axum::routing::{get, post};
 use axum::{Json, Router};
@@ -13,7 +13,7 @@ use crate::auth::Action;
 use crate::db;
 use crate::error::Result;
 use crate::http::caller::{Caller, Scope, require};
-use crate::http::extract::{ApiJson, ApiQuery};
+use crate::http::extract::{ApiJson, ApiPath, ApiQuery};
 use crate::ledger::{self, field::FieldTestInput};
 
 /// Routes of this module.
@@ -74,7 +74,7 @@ async fn with_line(s: &AppState, t: &db::field_tests::FieldTest) -> Result<Value
 async fn list_for_lot(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<Vec<Value>>> {
     require(&s.db, &caller, Scope::Lot(id), Action::Read).await?;
 
@@ -90,7 +90,7 @@ async fn list_for_lot(
 
 async fn create(
     State(s): State<AppState>,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<FieldTestInput>,
 ) -> Result<(StatusCode, Json<Value>)> {
@@ -104,7 +104,7 @@ async fn create(
 
 async fn preview(
     State(s): State<AppState>,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<FieldTestInput>,
 ) -> Result<Json<Value>> {
@@ -133,7 +133,7 @@ struct TestQuery {
 async fn list_for_project(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     ApiQuery(q): ApiQuery<TestQuery>,
 ) -> Result<Json<Value>> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
@@ -170,7 +170,7 @@ async fn list_for_project(
 async fn get_one(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<Value>> {
     require(&s.db, &caller, Scope::Test(id), Action::Read).await?;
 
@@ -181,12 +181,12 @@ async fn get_one(
 async fn history(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<Vec<db::audit::AuditEntry>>> {
     require(&s.db, &caller, Scope::Test(id), Action::Read).await?;
 
-    ledger::field::require_test(&s.db, id).await?;
-    Ok(Json(db::audit::for_entity(&s.db, "field_test", id).await?))
+    let t = ledger::field::require_test(&s.db, id).await?;
+    Ok(Json(ledger::field::history(&s.db, &t).await?))
 }
 
 /// Body of a void action.
@@ -198,7 +198,7 @@ struct VoidInput {
 
 async fn void(
     State(s): State<AppState>,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<VoidInput>,
 ) -> Result<Json<Value>> {
@@ -210,7 +210,7 @@ async fn void(
 
 async fn retest(
     State(s): State<AppState>,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<FieldTestInput>,
 ) -> Result<(StatusCode, Json<Value>)> {

@@ -5,7 +5,9 @@ mod calc;
 mod certificates;
 mod field_tests;
 pub mod openapi;
+mod people;
 mod projects;
+mod signoff;
 pub mod transfer;
 mod verdicts;
 
@@ -24,6 +26,8 @@ pub fn router() -> Router<AppState> {
         .merge(openapi::router())
         .merge(transfer::router())
         .merge(verdicts::router())
+        .merge(people::router())
+        .merge(signoff::router())
 }
 
 /// Paging parameters shared by every list.
@@ -47,6 +51,10 @@ impl Page {
         if page < 1 {
             return Err(crate::error::AppError::invalid("page", "must be 1 or more"));
         }
-        Ok((per, (page - 1) * per))
+        // A page far past the end must not overflow the offset.
+        let offset = (page - 1)
+            .checked_mul(per)
+            .ok_or_else(|| crate::error::AppError::invalid("page", "is too large"))?;
+        Ok((per, offset))
     }
 }

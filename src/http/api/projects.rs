@@ -1,6 +1,6 @@
 //! Projects and what is set up inside them: clauses, sources, lab tests, layers, lots.
 
-use axum::extract::{Path, State};
+use axum::extract::State;
 use axum::http::StatusCode;
 use axum::routing::{get, post};
 use axum::{Json, Router};
@@ -13,7 +13,7 @@ use crate::auth::Action;
 use crate::db;
 use crate::error::{AppError, Result};
 use crate::http::caller::{Caller, Scope, require, require_admin};
-use crate::http::extract::{ApiJson, ApiQuery};
+use crate::http::extract::{ApiJson, ApiPath, ApiQuery};
 use crate::ledger::{self, setup};
 
 /// Routes of this module.
@@ -82,7 +82,7 @@ async fn create_project(
 async fn get_project(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<db::projects::Project>> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
 
@@ -92,7 +92,7 @@ async fn get_project(
 async fn list_clauses(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<Vec<db::clauses::Clause>>> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
 
@@ -102,7 +102,7 @@ async fn list_clauses(
 
 async fn create_clause(
     State(s): State<AppState>,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<setup::ClauseInput>,
 ) -> Result<Created<db::clauses::Clause>> {
@@ -117,7 +117,7 @@ async fn create_clause(
 async fn list_sources(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<Vec<db::sources::Source>>> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
 
@@ -127,7 +127,7 @@ async fn list_sources(
 
 async fn create_source(
     State(s): State<AppState>,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<setup::SourceInput>,
 ) -> Result<Created<db::sources::Source>> {
@@ -142,7 +142,7 @@ async fn create_source(
 async fn list_lab_tests(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<Vec<Value>>> {
     require(&s.db, &caller, Scope::Source(id), Action::Read).await?;
 
@@ -170,7 +170,7 @@ pub(super) fn lab_test_json(t: &db::lab_tests::LabTest) -> Value {
 
 async fn create_lab_test(
     State(s): State<AppState>,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<setup::LabTestInput>,
 ) -> Result<Created<Value>> {
@@ -183,7 +183,7 @@ async fn create_lab_test(
 async fn get_lab_test(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<Value>> {
     require(&s.db, &caller, Scope::LabTest(id), Action::Read).await?;
 
@@ -196,7 +196,7 @@ async fn get_lab_test(
 async fn list_layers(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<Vec<db::layers::Layer>>> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
 
@@ -206,7 +206,7 @@ async fn list_layers(
 
 async fn create_layer(
     State(s): State<AppState>,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<setup::LayerInput>,
 ) -> Result<Created<db::layers::Layer>> {
@@ -235,7 +235,7 @@ struct LotQuery {
 async fn list_lots(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     ApiQuery(q): ApiQuery<LotQuery>,
 ) -> Result<Json<Value>> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
@@ -280,7 +280,7 @@ async fn list_lots(
 
 async fn split_lots(
     State(s): State<AppState>,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<ledger::lot_split::SplitInput>,
 ) -> Result<(StatusCode, Json<Value>)> {
@@ -293,7 +293,7 @@ async fn split_lots(
 async fn list_moulds(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<Vec<db::moulds::Mould>>> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
 
@@ -303,7 +303,7 @@ async fn list_moulds(
 
 async fn create_mould(
     State(s): State<AppState>,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<ledger::moulds::MouldInput>,
 ) -> Result<Created<db::moulds::Mould>> {
@@ -317,7 +317,7 @@ async fn create_mould(
 
 async fn create_lot(
     State(s): State<AppState>,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<setup::LotInput>,
 ) -> Result<Created<db::lots::Lot>> {
@@ -332,7 +332,7 @@ async fn create_lot(
 async fn get_lot(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<ledger::lot_report::LotReport>> {
     require(&s.db, &caller, Scope::Lot(id), Action::Read).await?;
 
@@ -342,7 +342,7 @@ async fn get_lot(
 async fn lot_history(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<Value>> {
     require(&s.db, &caller, Scope::Lot(id), Action::Read).await?;
 
@@ -355,7 +355,7 @@ async fn lot_history(
 async fn review_queue(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<Vec<db::lots::Lot>>> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
 
@@ -373,7 +373,7 @@ struct ReviewInput {
 
 async fn submit_lot(
     State(s): State<AppState>,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<ReviewInput>,
 ) -> Result<Json<ledger::lot_report::LotReport>> {
@@ -386,7 +386,7 @@ async fn submit_lot(
 
 async fn accept_lot(
     State(s): State<AppState>,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<ReviewInput>,
 ) -> Result<Json<ledger::lot_report::LotReport>> {
@@ -399,7 +399,7 @@ async fn accept_lot(
 
 async fn reject_lot(
     State(s): State<AppState>,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<ReviewInput>,
 ) -> Result<Json<ledger::lot_report::LotReport>> {

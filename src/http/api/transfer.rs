@@ -1,7 +1,7 @@
 //! Bulk import (CSV, dry run first, atomic commit) and exports (CSV, JSON, GeoJSON).
 
 use axum::body::Body;
-use axum::extract::{DefaultBodyLimit, Path, State};
+use axum::extract::{DefaultBodyLimit, State};
 use axum::http::{StatusCode, header};
 use axum::response::IntoResponse;
 use axum::routing::{get, post};
@@ -13,7 +13,7 @@ use crate::app::AppState;
 use crate::auth::Action;
 use crate::error::{AppError, Result};
 use crate::http::caller::{Caller, Scope, require};
-use crate::http::extract::{ApiJson, ApiQuery};
+use crate::http::extract::{ApiJson, ApiPath, ApiQuery};
 use crate::http::upload::spool_body;
 use crate::ledger::import::{AuditMode, ImportOptions};
 use crate::transfer::{self, export::ExportKind, export::FilterText, mapping::ImportMapping};
@@ -52,7 +52,7 @@ struct ImportQuery {
 async fn import(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     ApiQuery(q): ApiQuery<ImportQuery>,
     body: Body,
 ) -> Result<(StatusCode, Json<Value>)> {
@@ -98,7 +98,7 @@ struct MappingInput {
 async fn save_mapping(
     State(s): State<AppState>,
     caller: Caller,
-    Path(id): Path<i64>,
+    ApiPath(id): ApiPath<i64>,
     ApiJson(input): ApiJson<MappingInput>,
 ) -> Result<(StatusCode, Json<Value>)> {
     let actor = require(&s.db, &caller, Scope::Project(id), Action::ManageSetup).await?;
@@ -112,7 +112,7 @@ async fn save_mapping(
 async fn export(
     State(s): State<AppState>,
     caller: Caller,
-    Path((id, kind)): Path<(i64, String)>,
+    ApiPath((id, kind)): ApiPath<(i64, String)>,
     ApiQuery(filters): ApiQuery<FilterText>,
 ) -> Result<impl IntoResponse> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;

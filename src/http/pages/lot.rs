@@ -232,11 +232,11 @@ async fn sheet_with(
         .await?
         .into_iter()
         .map(|c| CertLine {
+            current: c.is_current(),
             id: c.id,
             number: c.number,
             revision: c.revision,
             issued: crate::clock::display(&c.issued_at),
-            current: c.superseded_at.is_none(),
         })
         .collect();
     let history = db::lots::transitions(&s.db, id)

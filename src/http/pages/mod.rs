@@ -5,6 +5,7 @@
 //! JavaScript; `static/entry.js` only adds the live preview on the site-entry form,
 //! and `static/import.js` the upload progress on the import page.
 
+mod account;
 pub mod curve;
 mod entry;
 mod home;
@@ -42,6 +43,7 @@ pub fn router() -> Router<AppState> {
         .merge(tests_list::router())
         .merge(review::router())
         .merge(session::router())
+        .merge(account::router())
         .merge(test_page::router())
         .merge(setup::router())
 }
@@ -143,6 +145,21 @@ impl IntoResponse for PageError {
             Ok(html) => (status, Html(html)).into_response(),
             Err(_) => (status, e.user_message()).into_response(),
         }
+    }
+}
+
+/// The HTML error page for a status and a message (axum's own rejections on pages).
+pub fn error_page(status: StatusCode, message: &str) -> Response {
+    let page = ErrorPage {
+        status: status.as_u16(),
+        title: status.canonical_reason().unwrap_or("Error").to_string(),
+        message: message.to_string(),
+        reasons: Vec::new(),
+        request_id: crate::http::request_id::RequestId::current().map(|id| id.to_string()),
+    };
+    match page.render() {
+        Ok(html) => (status, Html(html)).into_response(),
+        Err(_) => (status, message.to_string()).into_response(),
     }
 }
 

@@ -113,6 +113,7 @@ async fn certificates(
             .map(|l| l.code)
             .unwrap_or_default();
         rows.push(CertRow {
+            current: c.is_current(),
             id: c.id,
             number: c.number,
             revision: c.revision,
@@ -120,7 +121,6 @@ async fn certificates(
             lot,
             issued: crate::clock::display(&c.issued_at),
             by: c.issued_by,
-            current: c.superseded_at.is_none(),
         });
     }
     render(&CertificatesPage {
@@ -148,6 +148,8 @@ struct CertificatePage {
     code: String,
     current: bool,
     superseded: String,
+    /// "when, by whom: why" when the lot was reopened; empty otherwise.
+    withdrawn: String,
     others: Vec<CertRow>,
 }
 
@@ -165,6 +167,7 @@ async fn certificate(State(s): State<AppState>, caller: Caller, Path(id): Path<i
         .into_iter()
         .filter(|o| o.id != c.id)
         .map(|o| CertRow {
+            current: o.is_current(),
             id: o.id,
             number: o.number,
             revision: o.revision,
@@ -172,10 +175,10 @@ async fn certificate(State(s): State<AppState>, caller: Caller, Path(id): Path<i
             lot: lot.clone(),
             issued: crate::clock::display(&o.issued_at),
             by: o.issued_by,
-            current: o.superseded_at.is_none(),
         })
         .collect();
     render(&CertificatePage {
+        current: c.is_current(),
         nav: ProjectNav {
             id: p.id,
             name: p.code.clone(),
@@ -189,7 +192,18 @@ async fn certificate(State(s): State<AppState>, caller: Caller, Path(id): Path<i
         by: c.issued_by,
         sha256: c.sha256,
         code: c.verification_code,
-        current: c.superseded_at.is_none(),
+        withdrawn: c
+            .withdrawn_at
+            .as_deref()
+            .map(|t| {
+                format!(
+                    "{} by {}: {}",
+                    crate::clock::display(t),
+                    c.withdrawn_by.as_deref().unwrap_or(""),
+                    c.withdrawn_reason.as_deref().unwrap_or("")
+                )
+            })
+            .unwrap_or_default(),
         superseded: c
             .superseded_at
             .map(|t| crate::clock::display(&t))
@@ -204,6 +218,7 @@ struct VerifyPage {
     asked: bool,
     found: bool,
     current: bool,
+    withdrawn: bool,
     message: String,
     certificate_id: i64,
     detail: String,
@@ -215,6 +230,7 @@ async fn verify_form() -> PageResult {
         asked: false,
         found: false,
         current: false,
+        withdrawn: false,
         message: String::new(),
         certificate_id: 0,
         detail: String::new(),
@@ -259,6 +275,7 @@ async fn verify_post(State(s): State<AppState>, mut form: Multipart) -> PageResu
                 asked: false,
                 found: false,
                 current: false,
+                withdrawn: false,
                 message: String::new(),
                 certificate_id: 0,
                 detail: String::new(),
@@ -272,6 +289,7 @@ async fn verify_post(State(s): State<AppState>, mut form: Multipart) -> PageResu
         asked: true,
         found,
         current: v["current"].as_bool().unwrap_or(false),
+        withdrawn: v["withdrawn"].as_bool().unwrap_or(false),
         message: v["message"].as_str().unwrap_or("").to_string(),
         certificate_id: v["certificate"]["id"].as_i64().unwrap_or(0),
         detail: if found {

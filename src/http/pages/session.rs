@@ -64,10 +64,10 @@ struct Credentials {
 }
 
 /// Request facts the sign-in needs: client address, TLS, and a session being replaced.
-struct RequestFacts {
-    address: String,
-    secure: bool,
-    old_session: Option<String>,
+pub struct RequestFacts {
+    pub address: String,
+    pub secure: bool,
+    pub old_session: Option<String>,
 }
 
 impl FromRequestParts<AppState> for RequestFacts {
@@ -93,7 +93,7 @@ impl FromRequestParts<AppState> for RequestFacts {
             .find(|(k, _)| *k == SESSION_COOKIE)
             .map(|(_, v)| v.to_string());
         Ok(Self {
-            address: caller::address(parts),
+            address: caller::address(parts, state.settings.trust_proxy),
             secure,
             old_session,
         })
@@ -127,13 +127,23 @@ async fn sign_in(
             {
                 users::end_session(&s.db, sess.id, &clock::now()).await?;
             }
-            let mut resp: Response = see_other("/");
+            // A password set by someone else is replaced before anything else.
+            let to = if signed.user.must_change_password != 0 {
+                "/account"
+            } else {
+                "/"
+            };
+            let mut resp: Response = see_other(to);
             let cookie = HeaderValue::from_str(&session_cookie(&signed.secret, facts.secure))
                 .map_err(|e| PageError(AppError::Internal(anyhow::anyhow!("cookie: {e}"))))?;
             resp.headers_mut().insert(header::SET_COOKIE, cookie);
             Ok(resp)
         }
-        Err(e @ (AppError::Unauthorized { .. } | AppError::TooManyRequests { .. })) => {
+        Err(
+            e @ (AppError::Unauthorized { .. }
+            | AppError::TooManyRequests { .. }
+            | AppError::Invalid { .. }),
+        ) => {
             let status = e.status();
             let mut resp = render_status(
                 status,
@@ -163,8 +173,10 @@ async fn sign_out(
     MaybeCaller(c): MaybeCaller,
     facts: RequestFacts,
 ) -> PageResult {
-    if let Some(id) = c.and_then(|c| c.session_id) {
-        users::end_session(&s.db, id, &clock::now()).await?;
+    if let Some(c) = c
+        && let Some(id) = c.session_id
+    {
+        accounts::sign_out(&s.db, id, &c.actor()).await?;
     }
     let mut resp = see_other("/sign-in");
     if let Ok(v) = HeaderValue::from_str(&session_cookie("", facts.secure)) {

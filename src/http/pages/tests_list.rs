@@ -173,7 +173,7 @@ async fn csv(
     w.write_record(&header).map_err(io)?;
     for x in &selected {
         let t = &x.line.test;
-        w.write_record([
+        let record = [
             t.number.clone(),
             x.lot.code.clone(),
             x.lot.zone_name.clone(),
@@ -197,8 +197,11 @@ async fn csv(
             x.line.retest_of_number.clone().unwrap_or_default(),
             t.void_reason.clone().unwrap_or_default(),
             t.reduction_version.clone(),
-        ])
-        .map_err(io)?;
+        ];
+        let safe = record
+            .iter()
+            .map(|c| crate::transfer::csv_safe::cell(c).into_owned());
+        w.write_record(safe).map_err(io)?;
     }
     let body = w
         .into_inner()

@@ -13,9 +13,9 @@ use super::form::{self, Errors, Field, Kind, Values, decode};
 use crate::app::AppState;
 use crate::auth::{Action, Role};
 use crate::db;
-use crate::http::caller::{Caller, Scope, require};
+use crate::http::caller::{Caller, Principal, Scope, project_of, require};
 use crate::http::pages::{PageError, PageResult, ProjectNav, render_status, see_other};
-use crate::ledger::accounts::{self, TokenInput};
+use crate::ledger::accounts::{self, Revoker, TokenInput};
 
 /// Routes of this module.
 pub fn router() -> Router<AppState> {
@@ -58,6 +58,13 @@ fn fields() -> Vec<Field> {
             .hint("the device or system that will use it"),
         Field::new("role", "Role", Kind::Choice(roles), true)
             .hint("what the token may do in this project; never more than you may"),
+        Field::new(
+            "expires_in_days",
+            "Expires after (days)",
+            Kind::Integer,
+            false,
+        )
+        .hint("empty: 90 days; at most 365"),
     ]
 }
 
@@ -128,7 +135,12 @@ async fn create(
         Ok(i) => i,
         Err(e) => return refused(Errors::from([(String::new(), e.to_string())])).await,
     };
-    match accounts::create_token(&s.db, id, &input, &ctx.actor).await {
+    let Principal::User(user) = &caller.principal else {
+        return Err(PageError(crate::error::AppError::forbidden(
+            "an API token may not manage tokens",
+        )));
+    };
+    match accounts::create_token(&s.db, id, &input, user.id, &ctx.actor).await {
         Ok((secret, token)) => render_status(
             StatusCode::CREATED,
             &page(
@@ -147,7 +159,13 @@ async fn create(
 
 async fn revoke(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
     let actor = require(&s.db, &caller, Scope::Token(id), Action::ManageTokens).await?;
-    let t = accounts::revoke_token(&s.db, id, &actor).await?;
+    let project = project_of(&s.db, Scope::Token(id)).await?;
+    let role = caller.role_in(&s.db, project).await?.ok_or_else(|| {
+        PageError(crate::error::AppError::forbidden(
+            "revoking a token needs a role in its project",
+        ))
+    })?;
+    let t = accounts::revoke_token(&s.db, id, Revoker::Member(role), &actor).await?;
     Ok(see_other(&format!(
         "/projects/{}/setup/tokens",
         t.project_id
