@@ -136,7 +136,10 @@ where
 
 /// The name of the route's only path parameter (`id` in `/api/v1/lots/{id}`), if it has one.
 fn sole_parameter(parts: &Parts) -> Option<String> {
-    let route = parts.extensions.get::<axum::extract::MatchedPath>()?.as_str();
+    let route = parts
+        .extensions
+        .get::<axum::extract::MatchedPath>()?
+        .as_str();
     let mut names = route
         .split('/')
         .filter_map(|seg| seg.strip_prefix('{')?.strip_suffix('}'));
