@@ -148,6 +148,8 @@ struct CertLine {
     revision: i64,
     issued: String,
     current: bool,
+    /// Withdrawn when its lot was reopened.
+    withdrawn: bool,
 }
 
 /// A state change listed on the sheet.
@@ -234,6 +236,7 @@ async fn sheet_with(
         .into_iter()
         .map(|c| CertLine {
             current: c.is_current(),
+            withdrawn: c.withdrawn_at.is_some(),
             id: c.id,
             number: c.number,
             revision: c.revision,
