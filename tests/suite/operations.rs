@@ -460,6 +460,7 @@ async fn metrics_count_posts_certificates_and_failed_sign_ins_on_their_own_addre
     assert_eq!(s, 200, "{v}");
     let r = reqwest::Client::new()
         .post(format!("{}/sign-in", child.base))
+        .header("origin", &child.base)
         .form(&[("username", "t.qc"), ("password", "not-the-password")])
         .send()
         .await

@@ -328,6 +328,12 @@ async fn an_accepted_lot_is_frozen_until_a_client_engineer_reopens_it() {
     assert_eq!(s, 200, "{r2}");
     assert_eq!(r2["certificate"]["revision"], 2);
     assert_eq!(r2["display_state"], "certified");
+    let (_, list) =
+        crate::helpers::page(&app, &format!("/projects/{}/certificates", f.project)).await;
+    assert!(
+        list.contains(">withdrawn<") && list.contains(">current<"),
+        "{list}"
+    );
 }
 
 #[tokio::test]

@@ -147,6 +147,8 @@ struct CertLine {
     revision: i64,
     issued: String,
     current: bool,
+    /// Withdrawn when its lot was reopened.
+    withdrawn: bool,
 }
 
 /// A state change listed on the sheet.
@@ -233,6 +235,7 @@ async fn sheet_with(
         .into_iter()
         .map(|c| CertLine {
             current: c.is_current(),
+            withdrawn: c.withdrawn_at.is_some(),
             id: c.id,
             number: c.number,
             revision: c.revision,

@@ -88,6 +88,8 @@ struct CertRow {
     issued: String,
     by: String,
     current: bool,
+    /// Withdrawn when its lot was reopened.
+    withdrawn: bool,
 }
 
 #[derive(Template)]
@@ -114,6 +116,7 @@ async fn certificates(
             .unwrap_or_default();
         rows.push(CertRow {
             current: c.is_current(),
+            withdrawn: c.withdrawn_at.is_some(),
             id: c.id,
             number: c.number,
             revision: c.revision,
@@ -168,6 +171,7 @@ async fn certificate(State(s): State<AppState>, caller: Caller, Path(id): Path<i
         .filter(|o| o.id != c.id)
         .map(|o| CertRow {
             current: o.is_current(),
+            withdrawn: o.withdrawn_at.is_some(),
             id: o.id,
             number: o.number,
             revision: o.revision,
