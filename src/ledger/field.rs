@@ -119,14 +119,33 @@ impl LotContext {
                 ),
             ));
         };
+        let coarse_w = coarse_w_pct
+            .or(self.clause.coarse_water_default_pct)
+            .ok_or_else(|| {
+                AppError::invalid(
+                    "coarse_water_content_pct",
+                    format!(
+                        "is required with a coarse fraction: clause {} assumes no coarse water content",
+                        self.clause.code
+                    ),
+                )
+            })?;
         reduction::verdict::reference_for_coarse_fraction(
             &self.reference,
             coarse,
             gs_coarse,
-            coarse_w_pct.unwrap_or(0.0),
+            coarse_w,
             self.clause.oversize_limit_pct,
         )
-        .map_err(|e| AppError::invalid("coarse_pct", e.to_string()))
+        .map_err(|e| {
+            AppError::invalid(
+                "coarse_pct",
+                format!(
+                    "{e} (oversize retained on the {} mm sieve)",
+                    self.clause.oversize_sieve_mm
+                ),
+            )
+        })
     }
 }
 
