@@ -503,6 +503,32 @@ async fn a_failed_quality_index_lot_is_resampled_not_retested() {
         "{e}"
     );
     assert!(e["error"]["message"].as_str().unwrap().contains("resample"));
+    // The import refuses it too.
+    let mut row = crate::transfer::row("Q-0B", "1010", 1950.0, 11.6);
+    row[9] = "Q-0".into();
+    let report = liftledger::transfer::import_csv(
+        &app.pool,
+        f.project,
+        &crate::transfer::csv_bytes(b',', false, &[row])[..],
+        "site.csv",
+        &crate::transfer::mapping(),
+        &liftledger::ledger::import::ImportOptions {
+            commit: true,
+            audit: liftledger::ledger::import::AuditMode::PerImport,
+            actor: liftledger::ledger::Actor::system("T. Importer"),
+        },
+    )
+    .await
+    .unwrap();
+    assert!(!report.committed);
+    assert!(
+        report
+            .problems
+            .iter()
+            .any(|p| p.reason.contains("quality-index rule")),
+        "{:?}",
+        report.problems
+    );
     let resample = format!("/api/v1/lots/{}/resample", f.lot);
     let (s, e) = app.post(&resample, &json!({})).await;
     assert_eq!(
