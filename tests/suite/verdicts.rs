@@ -907,9 +907,37 @@ async fn curves_stored_before_the_rules_are_rechecked_at_start_and_certificates_
         .execute(&app.pool)
         .await
         .unwrap();
+    // And a curve whose points today's fit refuses (three distinct water contents).
+    let (s, old) = lab(
+        &app,
+        &f,
+        "L-OLD",
+        "astm_d1557_4in",
+        crate::helpers::lab_points(),
+    )
+    .await;
+    assert_eq!(s, 201, "{old}");
+    let three = json!([
+        {"water_content_pct": 8.0, "dry_density_kg_m3": 1880.0},
+        {"water_content_pct": 10.0, "dry_density_kg_m3": 1940.0},
+        {"water_content_pct": 10.0, "dry_density_kg_m3": 1945.0},
+        {"water_content_pct": 12.0, "dry_density_kg_m3": 1930.0}
+    ]);
+    sqlx::query("UPDATE lab_tests SET points_json = $1, quality_checked = 0 WHERE id = $2")
+        .bind(three.to_string())
+        .bind(old["id"].as_i64().unwrap())
+        .execute(&app.pool)
+        .await
+        .unwrap();
     let (dir, location) = app.stop().await;
     let app = crate::helpers::spawn_on(dir, location).await;
 
+    let (_, o) = app.get(&format!("/api/v1/lab-tests/{}", old["id"])).await;
+    assert_eq!(o["approval"], "needs_approval", "{o}");
+    assert_eq!(o["approval_concerns"][0]["code"], "refit_refused");
+    let (s, html) = page(&app, &format!("/lab-tests/{}", old["id"])).await;
+    assert_eq!(s, 200, "the curve sheet still opens");
+    assert!(html.contains("AWAITING APPROVAL"));
     let (_, l) = app.get(&format!("/api/v1/lab-tests/{}", f.lab_test)).await;
     assert_eq!(l["approval"], "needs_approval", "{l}");
     assert_eq!(l["quality_checked"], 1);
@@ -945,7 +973,7 @@ async fn curves_stored_before_the_rules_are_rechecked_at_start_and_certificates_
             .fetch_one(&app.pool)
             .await
             .unwrap();
-    assert_eq!(checks, 1);
+    assert_eq!(checks, 2, "one per curve, once");
 }
 
 #[tokio::test]
