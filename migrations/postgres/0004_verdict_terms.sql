@@ -26,6 +26,13 @@ ALTER TABLE clauses ADD COLUMN rc_plausible_max_pct DOUBLE PRECISION NOT NULL DE
 ALTER TABLE clauses ADD COLUMN rounding TEXT NOT NULL DEFAULT 'astm_e29';
 ALTER TABLE clauses ADD COLUMN limit_decimals BIGINT NOT NULL DEFAULT 1;
 
+-- Oversize (ASTM D4718): the sieve the coarse fraction is retained on (4.75 or 19 mm) and
+-- the coarse water content assumed when a test gives none. Existing clauses were judged
+-- with 0 % assumed; that assumption is now written down (and shown as assumed).
+ALTER TABLE clauses ADD COLUMN oversize_sieve_mm DOUBLE PRECISION NOT NULL DEFAULT 4.75;
+ALTER TABLE clauses ADD COLUMN coarse_water_default_pct DOUBLE PRECISION;
+UPDATE clauses SET coarse_water_default_pct = 0;
+
 -- A quality-index lot re-sampled after rework is judged on its latest sample; tests
 -- with ids up to sample_after_test_id belong to earlier samples and stay on record.
 ALTER TABLE lots ADD COLUMN sample BIGINT NOT NULL DEFAULT 1;

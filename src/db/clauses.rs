@@ -33,20 +33,26 @@ pub struct Clause {
     pub rounding: String,
     /// Decimals the contract writes its limits with.
     pub limit_decimals: i64,
+    /// Sieve the oversize is retained on, mm (4.75 or 19).
+    pub oversize_sieve_mm: f64,
+    /// Coarse water content assumed when a test gives none, percent (None: the test must give it).
+    pub coarse_water_default_pct: Option<f64>,
 }
 
 /// Every column, in the struct's order.
 const COLUMNS: &str = "id, project_id, code, title, rc_min_pct, moisture_below_pct, moisture_above_pct, effort, rule,
     allowance_pct, min_pwl_pct, area_per_test_m2, length_per_test_m, min_tests_per_lot, oversize_limit_pct, created_at,
-    moisture_judgement, moisture_min_pwl_pct, rc_plausible_max_pct, rounding, limit_decimals";
+    moisture_judgement, moisture_min_pwl_pct, rc_plausible_max_pct, rounding, limit_decimals, oversize_sieve_mm,
+    coarse_water_default_pct";
 
 /// Inserts a clause; `c.id` and `c.created_at` are ignored and filled by the database.
 pub async fn insert(tx: &mut Tx<'_>, c: &Clause) -> sqlx::Result<Clause> {
     sqlx::query_as::<_, Clause>(sqlx::AssertSqlSafe(format!(
         "INSERT INTO clauses (project_id, code, title, rc_min_pct, moisture_below_pct, moisture_above_pct, effort, rule,
              allowance_pct, min_pwl_pct, area_per_test_m2, length_per_test_m, min_tests_per_lot, oversize_limit_pct, created_at,
-             moisture_judgement, moisture_min_pwl_pct, rc_plausible_max_pct, rounding, limit_decimals)
-         VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18, $19, $20)
+             moisture_judgement, moisture_min_pwl_pct, rc_plausible_max_pct, rounding, limit_decimals,
+             oversize_sieve_mm, coarse_water_default_pct)
+         VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18, $19, $20, $21, $22)
          RETURNING {COLUMNS}"
     )))
     .bind(c.project_id)
@@ -69,6 +75,8 @@ pub async fn insert(tx: &mut Tx<'_>, c: &Clause) -> sqlx::Result<Clause> {
     .bind(c.rc_plausible_max_pct)
     .bind(&c.rounding)
     .bind(c.limit_decimals)
+    .bind(c.oversize_sieve_mm)
+    .bind(c.coarse_water_default_pct)
     .fetch_one(&mut **tx)
     .await
 }

@@ -161,7 +161,9 @@ pub fn build(r: &LotReport, issue: Issue<'_>) -> CertificateDoc {
                 "no oversize correction applied".to_string()
             } else {
                 format!(
-                    "{corrected} test(s) judged against an oversize-corrected reference (coarse Gs {})",
+                    "{corrected} test(s) judged against an oversize-corrected reference (ASTM D4718; retained on the {} mm sieve, limit {:.0} %; coarse bulk oven-dry Gs {}, ASTM C127 / AASHTO T 85)",
+                    r.clause.oversize_sieve_mm,
+                    r.clause.oversize_limit_pct,
                     r.source
                         .gs_coarse
                         .map_or("–".to_string(), |g| format!("{g:.2}"))

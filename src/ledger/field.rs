@@ -119,14 +119,33 @@ impl LotContext {
                 ),
             ));
         };
+        let coarse_w = coarse_w_pct
+            .or(self.clause.coarse_water_default_pct)
+            .ok_or_else(|| {
+                AppError::invalid(
+                    "coarse_water_content_pct",
+                    format!(
+                        "is required with a coarse fraction: clause {} assumes no coarse water content",
+                        self.clause.code
+                    ),
+                )
+            })?;
         reduction::verdict::reference_for_coarse_fraction(
             &self.reference,
             coarse,
             gs_coarse,
-            coarse_w_pct.unwrap_or(0.0),
+            coarse_w,
             self.clause.oversize_limit_pct,
         )
-        .map_err(|e| AppError::invalid("coarse_pct", e.to_string()))
+        .map_err(|e| {
+            AppError::invalid(
+                "coarse_pct",
+                format!(
+                    "{e} (oversize retained on the {} mm sieve)",
+                    self.clause.oversize_sieve_mm
+                ),
+            )
+        })
     }
 }
 
@@ -398,6 +417,22 @@ pub fn retest_refusal(t: RetestTarget<'_>) -> Option<AppError> {
     Some(AppError::conflict("test_id", reason, vec![]))
 }
 
+/// Why a retest may not be recorded on a lot judged by the quality-index rule (the one rule
+/// for single entry and imports): such a lot is re-sampled after rework, not patched test by
+/// test — a sample mixing originals and retests is no longer random (common practice).
+pub fn sampled_lot_refusal(lot: &db::lots::Lot, clause: &db::clauses::Clause) -> Option<AppError> {
+    (clause.rule == "quality_index").then(|| {
+        AppError::conflict(
+            "test_id",
+            format!(
+                "lot {} is judged by the quality-index rule: a failed lot is not patched test by test; after rework take a new random sample (POST /api/v1/lots/{}/resample)",
+                lot.code, lot.id
+            ),
+            vec![],
+        )
+    })
+}
+
 /// Fails unless the lot accepts new tests (open or rejected for rework).
 pub fn require_lot_takes_tests(lot: &db::lots::Lot) -> Result<()> {
     if lot.state == "open" || lot.state == "rejected" {
@@ -562,15 +597,8 @@ pub async fn record_retest(
     let lot = require_lot(pool, failed.lot_id).await?;
     require_lot_takes_tests(&lot)?;
     let report = lot_report::build(pool, lot.id).await?;
-    if report.clause.rule == "quality_index" {
-        return Err(AppError::conflict(
-            "test_id",
-            format!(
-                "lot {} is judged by the quality-index rule: a failed lot is not patched test by test; after rework take a new random sample (POST /api/v1/lots/{}/resample)",
-                lot.code, lot.id
-            ),
-            vec![],
-        ));
+    if let Some(refusal) = sampled_lot_refusal(&lot, &report.clause) {
+        return Err(refusal);
     }
     let line = report
         .tests

@@ -615,6 +615,15 @@ impl Run<'_> {
         }
 
         // A new test: the retest rules of single entry, then the verdict.
+        if target.is_some()
+            && let Some(refusal) = field::sampled_lot_refusal(&ctx.lot, &ctx.clause)
+        {
+            self.refuse(
+                &number,
+                vec![row.problem("retest_of", refusal.user_message())],
+            );
+            return Ok(());
+        }
         if let Some((failed, s)) = &target
             && let Some(refusal) = field::retest_refusal(RetestTarget {
                 number: failed,

@@ -31,6 +31,8 @@ pub struct TestLine {
     pub unjudged_reason: Option<String>,
     /// Named plausibility warnings (probe depth, zero air voids, RC above the plausible limit).
     pub flags: Vec<PlausibilityFlag>,
+    /// The clause's coarse water content, percent, when the oversize correction assumed it.
+    pub coarse_water_assumed_pct: Option<f64>,
     pub superseded_by: Option<String>,
     pub retest_of_number: Option<String>,
     pub reasons: Vec<String>,
@@ -56,6 +58,11 @@ impl TestLine {
             out.push(format!("cannot be judged: {r}"));
         }
         out.extend(self.flags.iter().map(|f| format!("flag: {}", f.message)));
+        if let Some(w) = self.coarse_water_assumed_pct {
+            out.push(format!(
+                "coarse water content assumed {w:.1} % (clause default)"
+            ));
+        }
         out
     }
 }
@@ -148,6 +155,34 @@ pub fn rounding_of(c: &db::clauses::Clause) -> crate::reduction::rounding::Round
     }
 }
 
+/// The coarse water content an oversize correction uses: the test's own, else the clause's
+/// default (then shown as assumed); an error reason when neither is known.
+fn assumed_coarse_water(
+    t: &db::field_tests::FieldTest,
+    clause: &db::clauses::Clause,
+) -> std::result::Result<f64, String> {
+    t.coarse_water_content_pct
+        .or(clause.coarse_water_default_pct)
+        .ok_or_else(|| {
+            format!(
+                "no coarse water content was recorded and clause {} assumes none",
+                clause.code
+            )
+        })
+}
+
+/// The coarse water content assumed for a corrected test that recorded none.
+fn coarse_water_assumed(
+    t: &db::field_tests::FieldTest,
+    clause: &db::clauses::Clause,
+) -> Option<f64> {
+    if t.coarse_pct.is_some_and(|c| c > 0.0) && t.coarse_water_content_pct.is_none() {
+        clause.coarse_water_default_pct
+    } else {
+        None
+    }
+}
+
 /// Judges one test against the lot's reference and limits.
 fn judge_line(
     t: &db::field_tests::FieldTest,
@@ -161,12 +196,13 @@ fn judge_line(
     Vec<String>,
 ) {
     let reference = match t.coarse_pct {
-        Some(c) if c > 0.0 => match source.gs_coarse {
-            Some(gs) => match reference_for_coarse_fraction(
+        Some(c) if c > 0.0 => match (source.gs_coarse, assumed_coarse_water(t, clause)) {
+            (_, Err(reason)) => return (None, None, vec![reason]),
+            (Some(gs), Ok(coarse_w)) => match reference_for_coarse_fraction(
                 reference,
                 c,
                 gs,
-                t.coarse_water_content_pct.unwrap_or(0.0),
+                coarse_w,
                 clause.oversize_limit_pct,
             ) {
                 Ok(r) => r,
@@ -178,7 +214,7 @@ fn judge_line(
                     );
                 }
             },
-            None => {
+            (None, _) => {
                 return (
                     None,
                     None,
@@ -296,6 +332,7 @@ pub fn assemble(
             TestLine {
                 unjudged_reason: v.is_none().then(|| reasons.join("; ")),
                 flags: flags_of(t, &lot, &lab_test, &clause, rc),
+                coarse_water_assumed_pct: coarse_water_assumed(t, &clause),
                 test: t.clone(),
                 reference_mdd_kg_m3: r.as_ref().map(|r| r.max_dry_density.kg_m3()),
                 reference_omc_pct: r.as_ref().map(|r| r.optimum_water_content.pct()),
@@ -510,6 +547,7 @@ pub fn judge_alone(
     Ok(TestLine {
         unjudged_reason: v.is_none().then(|| reasons.join("; ")),
         flags: flags_of(t, lot, lab, clause, rc),
+        coarse_water_assumed_pct: coarse_water_assumed(t, clause),
         test: t.clone(),
         reference_mdd_kg_m3: r.as_ref().map(|r| r.max_dry_density.kg_m3()),
         reference_omc_pct: r.as_ref().map(|r| r.optimum_water_content.pct()),

@@ -135,6 +135,10 @@ pub struct ClauseInput {
     pub rounding: Option<String>,
     /// Decimals the contract writes its limits with (default 1, as in "95.0 %").
     pub limit_decimals: Option<i64>,
+    /// Sieve the oversize is retained on, mm: 4.75 (default) or 19; sets the default coarse limit.
+    pub oversize_sieve_mm: Option<f64>,
+    /// Coarse water content assumed when a test gives none, percent (none: tests must give it).
+    pub coarse_water_default_pct: Option<f64>,
 }
 
 /// Reads a clause's stored rule back as the reduction's rule.
@@ -300,6 +304,17 @@ pub async fn create_clause(
     };
     let (moisture_judgement, moisture_min_pwl_pct, rc_plausible_max_pct, rounding, limit_decimals) =
         verdict_terms(input)?;
+    let sieve = input.oversize_sieve_mm.unwrap_or(4.75);
+    let sieve_limit = reduction::oversize::limit_for_sieve(sieve).ok_or_else(|| {
+        AppError::invalid(
+            "oversize_sieve_mm",
+            format!("{sieve} mm is not an oversize sieve of ASTM D4718; use 4.75 or 19"),
+        )
+    })?;
+    let coarse_water_default_pct = input
+        .coarse_water_default_pct
+        .map(|w| number("coarse_water_default_pct", w, 0.0, 20.0, "%"))
+        .transpose()?;
     let positive = |field: &str, v: Option<f64>, max: f64, unit: &str| -> Result<Option<f64>> {
         v.map(|x| number(field, x, 0.001, max, unit)).transpose()
     };
@@ -338,9 +353,7 @@ pub async fn create_clause(
         )? as i64,
         oversize_limit_pct: number(
             "oversize_limit_pct",
-            input
-                .oversize_limit_pct
-                .unwrap_or(reduction::oversize::DEFAULT_OVERSIZE_LIMIT_PCT),
+            input.oversize_limit_pct.unwrap_or(sieve_limit),
             0.0,
             70.0,
             "%",
@@ -351,6 +364,8 @@ pub async fn create_clause(
         rc_plausible_max_pct,
         rounding,
         limit_decimals,
+        oversize_sieve_mm: sieve,
+        coarse_water_default_pct,
     };
     let mut tx = db::begin_write(pool).await?;
     let c = db::clauses::insert(&mut tx, &clause)
@@ -383,6 +398,8 @@ pub struct SourceInput {
     #[serde(default)]
     pub aashto_class: String,
     pub gs_fines: f64,
+    /// Bulk (oven-dry) specific gravity of the oversize particles (ASTM C127 / AASHTO T 85), used
+    /// by the oversize correction — not the solids Gs of ASTM D854.
     pub gs_coarse: Option<f64>,
 }
 

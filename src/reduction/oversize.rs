@@ -10,6 +10,19 @@ use super::water::{ReductionError, finite, within};
 /// Default upper limit of the coarse fraction for the correction, percent by dry mass (from memory).
 pub const DEFAULT_OVERSIZE_LIMIT_PCT: f64 = 40.0;
 
+/// The sieves ASTM D4718 separates the oversize on, mm, with the coarse-fraction limit for
+/// each (from memory: 40 % retained on the 4.75 mm sieve, 30 % on the 19 mm sieve — check the
+/// edition in force).
+pub const OVERSIZE_SIEVES: [(f64, f64); 2] = [(4.75, 40.0), (19.0, 30.0)];
+
+/// The coarse-fraction limit for an oversize sieve, percent; None for a sieve D4718 does not use.
+pub fn limit_for_sieve(sieve_mm: f64) -> Option<f64> {
+    OVERSIZE_SIEVES
+        .iter()
+        .find(|(s, _)| (s - sieve_mm).abs() < 1e-9)
+        .map(|(_, l)| *l)
+}
+
 /// Inputs to the oversize correction.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct OversizeInput {
@@ -19,7 +32,8 @@ pub struct OversizeInput {
     pub fine_water_content_pct: f64,
     /// Coarse (oversize) fraction, percent by dry mass (P_c).
     pub coarse_pct: f64,
-    /// Bulk specific gravity of the coarse particles.
+    /// Bulk (oven-dry) specific gravity of the coarse particles (ASTM C127 / AASHTO T 85),
+    /// not the solids Gs of ASTM D854: the correction needs the particles' volume with their pores.
     pub coarse_specific_gravity: f64,
     /// Water content of the coarse particles, percent (often about 1–2 %).
     pub coarse_water_content_pct: f64,

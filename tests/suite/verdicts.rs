@@ -503,6 +503,32 @@ async fn a_failed_quality_index_lot_is_resampled_not_retested() {
         "{e}"
     );
     assert!(e["error"]["message"].as_str().unwrap().contains("resample"));
+    // The import refuses it too.
+    let mut row = crate::transfer::row("Q-0B", "1010", 1950.0, 11.6);
+    row[9] = "Q-0".into();
+    let report = liftledger::transfer::import_csv(
+        &app.pool,
+        f.project,
+        &crate::transfer::csv_bytes(b',', false, &[row])[..],
+        "site.csv",
+        &crate::transfer::mapping(),
+        &liftledger::ledger::import::ImportOptions {
+            commit: true,
+            audit: liftledger::ledger::import::AuditMode::PerImport,
+            actor: liftledger::ledger::Actor::system("T. Importer"),
+        },
+    )
+    .await
+    .unwrap();
+    assert!(!report.committed);
+    assert!(
+        report
+            .problems
+            .iter()
+            .any(|p| p.reason.contains("quality-index rule")),
+        "{:?}",
+        report.problems
+    );
     let resample = format!("/api/v1/lots/{}/resample", f.lot);
     let (s, e) = app.post(&resample, &json!({})).await;
     assert_eq!(
@@ -600,12 +626,14 @@ async fn a_test_that_cannot_be_judged_is_out_of_the_statistics_and_blocks_submis
         .await;
     }
     // A record from before the clause's oversize limit (as migrated data can be): 80 % coarse.
-    sqlx::query("UPDATE field_tests SET coarse_pct = $1 WHERE number = $2")
-        .bind(80.0)
-        .bind("J-1")
-        .execute(&app.pool)
-        .await
-        .unwrap();
+    sqlx::query(
+        "UPDATE field_tests SET coarse_pct = $1, coarse_water_content_pct = 1.0 WHERE number = $2",
+    )
+    .bind(80.0)
+    .bind("J-1")
+    .execute(&app.pool)
+    .await
+    .unwrap();
     let (_, r) = app.get(&format!("/api/v1/lots/{}", f.lot)).await;
     let j1 = r["tests"]
         .as_array()
@@ -879,9 +907,37 @@ async fn curves_stored_before_the_rules_are_rechecked_at_start_and_certificates_
         .execute(&app.pool)
         .await
         .unwrap();
+    // And a curve whose points today's fit refuses (three distinct water contents).
+    let (s, old) = lab(
+        &app,
+        &f,
+        "L-OLD",
+        "astm_d1557_4in",
+        crate::helpers::lab_points(),
+    )
+    .await;
+    assert_eq!(s, 201, "{old}");
+    let three = json!([
+        {"water_content_pct": 8.0, "dry_density_kg_m3": 1880.0},
+        {"water_content_pct": 10.0, "dry_density_kg_m3": 1940.0},
+        {"water_content_pct": 10.0, "dry_density_kg_m3": 1945.0},
+        {"water_content_pct": 12.0, "dry_density_kg_m3": 1930.0}
+    ]);
+    sqlx::query("UPDATE lab_tests SET points_json = $1, quality_checked = 0 WHERE id = $2")
+        .bind(three.to_string())
+        .bind(old["id"].as_i64().unwrap())
+        .execute(&app.pool)
+        .await
+        .unwrap();
     let (dir, location) = app.stop().await;
     let app = crate::helpers::spawn_on(dir, location).await;
 
+    let (_, o) = app.get(&format!("/api/v1/lab-tests/{}", old["id"])).await;
+    assert_eq!(o["approval"], "needs_approval", "{o}");
+    assert_eq!(o["approval_concerns"][0]["code"], "refit_refused");
+    let (s, html) = page(&app, &format!("/lab-tests/{}", old["id"])).await;
+    assert_eq!(s, 200, "the curve sheet still opens");
+    assert!(html.contains("AWAITING APPROVAL"));
     let (_, l) = app.get(&format!("/api/v1/lab-tests/{}", f.lab_test)).await;
     assert_eq!(l["approval"], "needs_approval", "{l}");
     assert_eq!(l["quality_checked"], 1);
@@ -917,7 +973,7 @@ async fn curves_stored_before_the_rules_are_rechecked_at_start_and_certificates_
             .fetch_one(&app.pool)
             .await
             .unwrap();
-    assert_eq!(checks, 1);
+    assert_eq!(checks, 2, "one per curve, once");
 }
 
 #[tokio::test]
@@ -1110,4 +1166,104 @@ async fn no_demo_reason_prints_a_failing_value_equal_to_its_limit() {
         }
     }
     assert!(seen > 0, "the demo has failing tests to look at");
+}
+
+#[tokio::test]
+async fn the_coarse_fraction_needs_its_water_content_or_the_clauses_assumption_and_its_sieve_limit()
+{
+    // Clause on the 19 mm sieve: the coarse limit is 30 % (ASTM D4718, from memory), no default water.
+    let app = spawn_app().await;
+    let f = build_frame(
+        &app,
+        json!({"rule": "every_test", "oversize_sieve_mm": 19.0}),
+    )
+    .await;
+    let (_, c) = app
+        .get(&format!("/api/v1/projects/{}/clauses", f.project))
+        .await;
+    assert_eq!(c[0]["oversize_limit_pct"], 30.0);
+    let coarse = |n: &str, pc: f64, wc: Option<f64>| {
+        let mut b = nuclear_test(n, 1010.0, 0.98 * 2060.96, 9.66);
+        b["coarse_pct"] = json!(pc);
+        if let Some(w) = wc {
+            b["coarse_water_content_pct"] = json!(w);
+        }
+        b
+    };
+    let before = app.all_counts().await;
+    let url = format!("/api/v1/lots/{}/field-tests", f.lot);
+    let (s, e) = app.post(&url, &coarse("O-1", 20.0, None)).await;
+    assert_eq!(
+        (s, e["error"]["field"].as_str()),
+        (422, Some("coarse_water_content_pct")),
+        "{e}"
+    );
+    let (s, e) = app.post(&url, &coarse("O-1", 35.0, Some(2.0))).await;
+    assert_eq!(
+        (s, e["error"]["field"].as_str()),
+        (422, Some("coarse_pct")),
+        "{e}"
+    );
+    assert!(
+        e["error"]["message"]
+            .as_str()
+            .unwrap()
+            .contains("19 mm sieve"),
+        "{e}"
+    );
+    assert_eq!(app.all_counts().await, before, "nothing written");
+    let (s, t) = app.post(&url, &coarse("O-1", 20.0, Some(2.0))).await;
+    assert_eq!(s, 201, "{t}");
+    // ASTM D4718 by hand: ρd = 100 ρf k / (ρf Pc + k Pf) with ρf = 1952.459 (pinned fit),
+    // k = 2.65 × 1000 (bulk oven-dry Gs of the coarse), Pc = 20, Pf = 80 → 2060.96 kg/m³;
+    // w = (11.5787 × 80 + 2.0 × 20) / 100 = 9.663 %.
+    assert!(
+        (t["reference_mdd_kg_m3"].as_f64().unwrap() - 2060.96).abs() < 0.05,
+        "{t}"
+    );
+    assert!(
+        (t["reference_omc_pct"].as_f64().unwrap() - 9.663).abs() < 1e-3,
+        "{t}"
+    );
+    // Like with like: the deviation is the total-sample water content less the corrected OMC.
+    assert!(
+        (t["moisture_deviation_pct"].as_f64().unwrap() - (9.66 - 9.663)).abs() < 1e-3,
+        "{t}"
+    );
+
+    // A clause that assumes 2.0 % coarse water: the test may leave it out, and says so.
+    let app = spawn_app().await;
+    let f = build_frame(
+        &app,
+        json!({"rule": "every_test", "coarse_water_default_pct": 2.0}),
+    )
+    .await;
+    let (s, t) = app
+        .post(
+            &format!("/api/v1/lots/{}/field-tests", f.lot),
+            &coarse("O-2", 20.0, None),
+        )
+        .await;
+    assert_eq!(s, 201, "{t}");
+    assert!(
+        (t["reference_omc_pct"].as_f64().unwrap() - 9.663).abs() < 1e-3,
+        "{t}"
+    );
+    let (_, html) = page(&app, &format!("/lots/{}", f.lot)).await;
+    assert!(
+        html.contains("coarse water content assumed 2.0 % (clause default)"),
+        "lot sheet"
+    );
+    let (s, e) = app
+        .post(
+            &format!("/api/v1/projects/{}/clauses", f.project),
+            &json!({"code": "C6", "rc_min_pct": 95.0, "moisture_below_pct": 2.0, "moisture_above_pct": 2.0,
+                    "effort": "astm_d1557_4in", "rule": "every_test", "min_tests_per_lot": 3, "oversize_sieve_mm": 10.0}),
+        )
+        .await;
+    assert_eq!(
+        (s, e["error"]["field"].as_str()),
+        (422, Some("oversize_sieve_mm")),
+        "{e}"
+    );
 }

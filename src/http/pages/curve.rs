@@ -88,8 +88,9 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
         .collect::<crate::error::Result<Vec<_>>>()?;
     let gs = SpecificGravity::new(lab.specific_gravity)
         .map_err(|e| AppError::Internal(anyhow::anyhow!("{e}")))?;
-    let fit = fit_curve(&points, Some(gs))
-        .map_err(|e| AppError::Internal(anyhow::anyhow!("stored curve no longer fits: {e}")))?;
+    // A curve stored before today's fit rules may be refused by them (it then awaits
+    // approval); the sheet still shows its points and its stored MDD and OMC.
+    let fit = fit_curve(&points, Some(gs)).ok();
 
     // Field tests judged against this curve, exactly as their lot sheets judge them
     // (oversize-corrected where a test carries a coarse fraction); voided and superseded tests are left out.
@@ -119,13 +120,45 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
         })
         .collect();
     let field_fail = marks.iter().filter(|m| !m.passed).count();
-    let chart = chart(
-        &format!("Compaction curve {} ({})", lab.code, source.code),
-        &points,
-        &fit,
-        gs,
-        marks,
-    );
+    let (lo, hi) = points
+        .iter()
+        .map(|p| p.water_content_pct)
+        .chain(marks.iter().map(|m| m.x))
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), w| {
+            (a.min(w), b.max(w))
+        });
+    let (lo, hi) = ((lo - 1.5).max(0.0), hi + 1.5);
+    let pairs = |v: Vec<crate::reduction::curve::CurvePoint>| -> Vec<(f64, f64)> {
+        v.into_iter()
+            .map(|p| (p.water_content_pct, p.dry_density_kg_m3))
+            .collect()
+    };
+    let chart = curve_chart(&CurveChartInput {
+        title: format!("Compaction curve {} ({})", lab.code, source.code),
+        x_label: "Water content (%)".into(),
+        y_label: "Dry density (kg/m³)".into(),
+        lab_points: points
+            .iter()
+            .map(|p| (p.water_content_pct, p.dry_density_kg_m3))
+            .collect(),
+        fitted: fit
+            .as_ref()
+            .map_or_else(Vec::new, |f| pairs(f.curve.clone())),
+        optimum: (lab.optimum_water_content_pct, lab.max_dry_density_kg_m3),
+        zero_air_voids: pairs(zero_air_voids_line(gs, lo, hi, 40)),
+        saturation_lines: [90.0, 80.0]
+            .iter()
+            .map(|sat| Series {
+                label: format!("S = {sat:.0} %"),
+                points: pairs(saturation_line(gs, *sat, lo, hi, 40)),
+            })
+            .collect(),
+        field_points: marks,
+        optimum_label: format!(
+            "MDD {:.0} kg/m³ at OMC {:.1} %",
+            lab.max_dry_density_kg_m3, lab.optimum_water_content_pct
+        ),
+    });
     let effort = resolve_effort(&lab.effort, None).ok();
     let warnings: Vec<String> = serde_json::from_str::<Vec<serde_json::Value>>(&lab.warnings_json)
         .unwrap_or_default()
@@ -155,7 +188,9 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
         mdd: u.density_with_unit(lab.max_dry_density_kg_m3),
         omc: format!("{:.1} %", lab.optimum_water_content_pct),
         gs: format!("{:.2}", lab.specific_gravity),
-        fit_method: fit.method.label(),
+        fit_method: fit
+            .as_ref()
+            .map_or_else(|| lab.fit_method.replace('_', " "), |f| f.method.label()),
         density_unit: u.density_unit().to_string(),
         points: points
             .iter()

@@ -289,7 +289,10 @@ async fn sources(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>)
                 .collect::<Vec<_>>()
                 .join(" / "),
             gs: match src.gs_coarse {
-                Some(c) => format!("{:.2} (fines), {:.2} (coarse)", src.gs_fines, c),
+                Some(c) => format!(
+                    "{:.2} (solids of the fines, ASTM D854), {:.2} (coarse: bulk oven-dry, ASTM C127 / AASHTO T 85)",
+                    src.gs_fines, c
+                ),
                 None => format!("{:.2}", src.gs_fines),
             },
             labs,
