@@ -76,6 +76,8 @@ pub enum Action {
     ReviewLot,
     /// Create and revoke API tokens of the project.
     ManageTokens,
+    /// Download the project's handover archive (the client's copy of the whole record).
+    TakeArchive,
 }
 
 impl Action {
@@ -89,6 +91,7 @@ impl Action {
             Action::SubmitLot => "submit lots",
             Action::ReviewLot => "accept or reject lots",
             Action::ManageTokens => "manage API tokens",
+            Action::TakeArchive => "download the handover archive",
         }
     }
 }
@@ -101,7 +104,7 @@ pub fn allows(role: Role, action: Action) -> bool {
         Read => true,
         EnterTests => matches!(role, Technician | QcManager),
         VoidTest | ManageSetup | SubmitLot | ManageTokens => role == QcManager,
-        ReviewLot => role == ClientEngineer,
+        ReviewLot | TakeArchive => role == ClientEngineer,
     }
 }
 

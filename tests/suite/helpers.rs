@@ -444,7 +444,7 @@ pub fn pdf_pages(bytes: &[u8]) -> Vec<String> {
 
 /// Makes sure a persona's user exists and returns the secret of a fresh session for it,
 /// as a successful sign-in would (sign-in itself is tested through the form).
-async fn signed_in_session(pool: &db::Pool, who: As) -> String {
+pub async fn signed_in_session(pool: &db::Pool, who: As) -> String {
     let (username, display, role) = who.account();
     let now = liftledger::clock::now();
     let user = match db::users::by_username(pool, username).await.unwrap() {

@@ -1,6 +1,7 @@
 //! The JSON API, version 1, under `/api/v1`.
 
 mod accounts;
+mod archive;
 mod calc;
 mod certificates;
 mod field_tests;
@@ -22,6 +23,7 @@ pub fn router() -> Router<AppState> {
         .merge(certificates::router())
         .merge(openapi::router())
         .merge(transfer::router())
+        .merge(archive::router())
 }
 
 /// Paging parameters shared by every list.

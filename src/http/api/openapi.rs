@@ -300,6 +300,12 @@ pub const OPERATIONS: &[Operation] = &[
         "Export field tests or lot verdicts: tests_csv, tests_json, lots_csv, lots_json, tests_geojson (test-list filters apply)",
         None,
     ),
+    op(
+        "get",
+        "/api/v1/projects/{id}/archive",
+        "The project's handover archive (zip): every certificate revision, records as CSV and JSON, the audit log, a manifest of SHA-256 hashes (admins and client engineers)",
+        None,
+    ),
     op("get", "/api/v1/openapi.json", "This document", None),
 ];
 

@@ -36,6 +36,10 @@ struct ProjectsPage {
     projects: Vec<ProjectRow>,
     demo: bool,
     who: String,
+    /// The latest scheduled backup's failure, shown to admins only.
+    backup_failure: Option<crate::backup::schedule::Attempt>,
+    /// When the last good scheduled backup was taken (with the failure).
+    backup_last_good: Option<String>,
 }
 
 async fn projects(State(s): State<AppState>, caller: Caller) -> PageResult {
@@ -52,10 +56,17 @@ async fn projects(State(s): State<AppState>, caller: Caller) -> PageResult {
             client: p.client,
         })
         .collect();
+    let admin = caller.is_admin();
     render(&ProjectsPage {
         projects,
         demo: s.settings.demo,
         who: caller.actor().name,
+        backup_failure: s.backups.failure().filter(|_| admin),
+        backup_last_good: s
+            .backups
+            .last_good()
+            .filter(|_| admin)
+            .map(|g| crate::clock::display(&g.at)),
     })
 }
 
