@@ -175,8 +175,16 @@ pub fn backups_in(dir: &Path) -> anyhow::Result<Vec<PathBuf>> {
     Ok(files)
 }
 
-/// Removes the oldest backups beyond `keep`.
+/// Removes the oldest backups beyond `keep`, and the temporary files of attempts that
+/// were cut off (a crash mid-backup); none is being written while this runs.
 fn prune(dir: &Path, keep: usize) -> anyhow::Result<()> {
+    for entry in std::fs::read_dir(dir)?.filter_map(|e| e.ok()) {
+        let name = entry.file_name().to_string_lossy().to_string();
+        if name.starts_with(&format!(".{PREFIX}")) && name.ends_with(&format!("{SUFFIX}.partial")) {
+            super::remove_sqlite_files(&entry.path());
+            tracing::info!(file = %entry.path().display(), "unfinished backup removed");
+        }
+    }
     let files = backups_in(dir)?;
     let excess = files.len().saturating_sub(keep);
     for old in &files[..excess] {

@@ -877,6 +877,11 @@ async fn scheduled_backups_are_checked_pruned_and_a_failure_is_shown_to_admins_o
     let dir = tempfile::tempdir().unwrap();
     let backups = dir.path().join("backups");
     std::fs::create_dir(&backups).unwrap();
+    // Left by an attempt cut off earlier, and a file of someone else's: only the first goes.
+    let stale = backups.join(".liftledger-20260101T000000Z.sqlite.partial");
+    let foreign = backups.join("notes.txt");
+    std::fs::write(&stale, b"half").unwrap();
+    std::fs::write(&foreign, b"keep me").unwrap();
     let location = demo_database(dir.path()).await;
     let (admin, engineer) = {
         let pool = db::connect(&location).await.unwrap();
@@ -898,6 +903,8 @@ async fn scheduled_backups_are_checked_pruned_and_a_failure_is_shown_to_admins_o
     .await;
     let files = listed();
     assert_eq!(files.len(), 2, "keep 2: {files:?}");
+    assert!(!stale.exists(), "an unfinished backup is removed");
+    assert!(foreign.exists(), "no other file is touched");
     for f in &files {
         let copy = db::connect_unmigrated(&db::Location::parse(
             &format!("sqlite://{}?mode=rw", f.display()),
