@@ -32,6 +32,8 @@ pub struct Inner {
     pub rules: crate::ledger::field::RuleCache,
     /// Group commit of new field tests (SQLite only).
     pub writer: Option<crate::ledger::test_writer::TestWriter>,
+    /// The outcome of scheduled backups, shown to admins on the projects page.
+    pub backups: Arc<crate::backup::schedule::BackupStatus>,
 }
 
 impl AppState {
@@ -41,6 +43,7 @@ impl AppState {
             settings,
             views: Default::default(),
             rules: Default::default(),
+            backups: Default::default(),
             writer: crate::ledger::test_writer::TestWriter::start(&db),
             db,
         }))

@@ -1,4 +1,5 @@
-//! The command line: `liftledger serve`, `migrate` and `demo`.
+//! The command line: `liftledger serve`, `migrate`, `demo`, `copy`, `import`, `backup`,
+//! `restore`, `archive` and `user`.
 
 use std::net::SocketAddr;
 
@@ -64,9 +65,56 @@ pub enum Command {
         /// The CSV file.
         file: std::path::PathBuf,
     },
+    /// Write a checked backup of a live database to a new SQLite file (any engine).
+    Backup {
+        /// Database to back up: an SQLite file, `sqlite://FILE` or `postgres://…`.
+        #[arg(long, env = "LIFTLEDGER_DB", default_value = "liftledger.sqlite")]
+        db: String,
+        /// The backup file to write (must not exist; its directory must).
+        #[arg(long)]
+        to: std::path::PathBuf,
+    },
+    /// Restore a backup file into a new, empty database, then verify it.
+    Restore {
+        /// The backup file (an SQLite file written by `liftledger backup`).
+        #[arg(long)]
+        from: std::path::PathBuf,
+        /// Target (must be new or empty): an SQLite file, `sqlite://FILE` or `postgres://…`.
+        #[arg(long)]
+        db: String,
+    },
+    /// Write a project's handover archive (zip), or check one with `archive verify FILE.zip`.
+    Archive(ArchiveArgs),
     /// Manage users: add one, or give one a role in a project.
     #[command(subcommand)]
     User(UserCommand),
+}
+
+/// `liftledger archive …`: write one (`--db --project --to`) or `verify` one.
+#[derive(Debug, clap::Args)]
+#[command(args_conflicts_with_subcommands = true)]
+pub struct ArchiveArgs {
+    #[command(subcommand)]
+    pub check: Option<ArchiveCommand>,
+    /// Database holding the project: an SQLite file, `sqlite://FILE` or `postgres://…`.
+    #[arg(long, env = "LIFTLEDGER_DB", default_value = "liftledger.sqlite")]
+    pub db: String,
+    /// Project code, e.g. MLR.
+    #[arg(long)]
+    pub project: Option<String>,
+    /// The archive to write, ending in .zip (must not exist; its directory must).
+    #[arg(long)]
+    pub to: Option<std::path::PathBuf>,
+}
+
+/// `liftledger archive verify FILE.zip`
+#[derive(Debug, Subcommand)]
+pub enum ArchiveCommand {
+    /// Check every file of an archive against its manifest's SHA-256.
+    Verify {
+        /// The archive file.
+        file: std::path::PathBuf,
+    },
 }
 
 /// `liftledger user …`
@@ -176,4 +224,13 @@ pub struct ServeArgs {
     /// off when not given.
     #[arg(long, env = "LIFTLEDGER_METRICS_ADDR")]
     pub metrics_addr: Option<SocketAddr>,
+    /// Take a checked backup into this (existing) directory at start and every --backup-every.
+    #[arg(long, env = "LIFTLEDGER_BACKUP_DIR")]
+    pub backup_dir: Option<std::path::PathBuf>,
+    /// Interval between scheduled backups: a number and s, m, h or d.
+    #[arg(long, env = "LIFTLEDGER_BACKUP_EVERY", default_value = "6h")]
+    pub backup_every: String,
+    /// Scheduled backups kept in --backup-dir; older ones are removed.
+    #[arg(long, env = "LIFTLEDGER_BACKUP_KEEP", default_value_t = 14)]
+    pub backup_keep: usize,
 }

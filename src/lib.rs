@@ -4,7 +4,9 @@
 //! request does; `http` the routes; `pdf` and `charts` render what people read.
 
 pub mod app;
+pub mod archive;
 pub mod auth;
+pub mod backup;
 pub mod charts;
 pub mod cli;
 pub mod clock;

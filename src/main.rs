@@ -4,7 +4,7 @@ use anyhow::Context;
 use clap::Parser;
 use std::io::BufRead;
 
-use liftledger::cli::{Cli, Command, LogFormat, UserCommand};
+use liftledger::cli::{ArchiveArgs, ArchiveCommand, Cli, Command, LogFormat, UserCommand};
 use liftledger::ledger::{Actor, accounts};
 use liftledger::{AppState, Settings, db, demo};
 use tracing_subscriber::EnvFilter;
@@ -101,7 +101,41 @@ async fn main() -> anyhow::Result<()> {
                 report.certificates_verified
             );
         }
+        Command::Backup { db, to } => {
+            let location = db::Location::parse(&db, 2);
+            let r =
+                liftledger::backup::take(&location, &to, &mut |line| println!("{line}")).await?;
+            println!(
+                "backup {} written and checked: {:.1} MB in {:.1} s, {} tables, {} certificates",
+                r.path.display(),
+                r.bytes as f64 / 1e6,
+                r.seconds,
+                r.rows.len(),
+                r.certificates_verified
+            );
+        }
+        Command::Restore { from, db } => {
+            let target = db::Location::parse(&db, 4);
+            let r = liftledger::backup::restore::restore(&from, &target, &mut |line| {
+                println!("{line}")
+            })
+            .await?;
+            println!(
+                "restored into {} and verified: row counts equal, {} certificate hashes match",
+                target.redacted(),
+                r.certificates_verified
+            );
+        }
+        Command::Archive(a) => archive(a).await?,
         Command::Serve(a) => {
+            // Checked before anything is opened, so a bad argument writes nothing.
+            let schedule = a
+                .backup_dir
+                .clone()
+                .map(|dir| {
+                    liftledger::backup::schedule::Schedule::new(dir, &a.backup_every, a.backup_keep)
+                })
+                .transpose()?;
             let typed = a.db.clone().unwrap_or_else(|| {
                 if a.demo {
                     "liftledger-demo.sqlite"
@@ -158,6 +192,19 @@ async fn main() -> anyhow::Result<()> {
                     trust_proxy: a.trust_proxy,
                 },
             );
+            if let Some(schedule) = schedule {
+                println!(
+                    "backups into {} every {}, keeping {}",
+                    schedule.dir.display(),
+                    a.backup_every,
+                    schedule.keep
+                );
+                liftledger::backup::schedule::spawn(
+                    location.clone(),
+                    schedule,
+                    state.backups.clone(),
+                );
+            }
             liftledger::serve(listener, state, shutdown_signal()).await?;
             pool.close().await;
             println!("liftledger stopped");
@@ -218,6 +265,39 @@ async fn user_command(cmd: UserCommand) -> anyhow::Result<()> {
         }
         UserCommand::Add { .. } | UserCommand::Grant { .. } => {}
     }
+    Ok(())
+}
+
+/// `liftledger archive --db --project --to FILE.zip`, or `liftledger archive verify FILE.zip`.
+async fn archive(a: ArchiveArgs) -> anyhow::Result<()> {
+    if let Some(ArchiveCommand::Verify { file }) = a.check {
+        let v = liftledger::archive::verify::verify_file(&file)
+            .with_context(|| format!("{} fails verification", file.display()))?;
+        println!(
+            "{}: every file matches the manifest ({} files, {:.1} MB)",
+            file.display(),
+            v.files,
+            v.bytes as f64 / 1e6
+        );
+        return Ok(());
+    }
+    let (Some(project), Some(to)) = (a.project, a.to) else {
+        anyhow::bail!(
+            "archive needs --project CODE and --to FILE.zip (or: archive verify FILE.zip)"
+        );
+    };
+    let location = db::Location::parse(&a.db, 4);
+    let s = liftledger::archive::write_file(&location, &project, &to).await?;
+    println!(
+        "archive {} written and verified: {} files ({} certificate revisions, {} lots, {} field tests, {} audit rows), {:.1} MB",
+        to.display(),
+        s.files,
+        s.certificates,
+        s.lots,
+        s.field_tests,
+        s.audit_rows,
+        std::fs::metadata(&to).map(|m| m.len()).unwrap_or(0) as f64 / 1e6
+    );
     Ok(())
 }
 

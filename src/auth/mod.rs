@@ -84,6 +84,8 @@ pub enum Action {
     ReviewLot,
     /// Create and revoke API tokens of the project (never for a role beyond one's own).
     ManageTokens,
+    /// Download the project's handover archive (the client's copy of the whole record).
+    TakeArchive,
 }
 
 impl Action {
@@ -108,6 +110,7 @@ impl Action {
             Action::SubmitLot => "submit lots",
             Action::ReviewLot => "accept or reject lots",
             Action::ManageTokens => "manage API tokens",
+            Action::TakeArchive => "download the handover archive",
         }
     }
 }
@@ -120,7 +123,7 @@ pub fn allows(role: Role, action: Action) -> bool {
         Read => true,
         EnterTests => matches!(role, Technician | QcManager),
         VoidTest | ManageSetup | SubmitLot => role == QcManager,
-        ReviewLot => role == ClientEngineer,
+        ReviewLot | TakeArchive => role == ClientEngineer,
         // Each party keeps its own devices: tokens up to one's own role.
         ManageTokens => matches!(role, QcManager | ClientEngineer),
     }

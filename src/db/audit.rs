@@ -129,3 +129,16 @@ pub async fn changes_since(
     .fetch_all(pool)
     .await
 }
+
+/// Every audit row of a project, oldest first, streamed (a handover archive holds them all).
+pub fn for_project(
+    pool: &Pool,
+    project_id: i64,
+) -> futures_util::stream::BoxStream<'_, sqlx::Result<AuditEntry>> {
+    sqlx::query_as::<_, AuditEntry>(
+        "SELECT id, at, actor, action, entity, entity_id, project_id, before_json, after_json, origin
+         FROM audit_log WHERE project_id = $1 ORDER BY id",
+    )
+    .bind(project_id)
+    .fetch(pool)
+}

@@ -2,7 +2,6 @@
 //! then proving the copy: row counts per table and every certificate's SHA-256.
 
 use anyhow::{Context, bail};
-use sha2::{Digest, Sha256};
 use sqlx::any::{AnyRow, AnyTypeInfoKind};
 use sqlx::{Column, Row, ValueRef};
 
@@ -67,16 +66,32 @@ fn cell(row: &AnyRow, i: usize) -> anyhow::Result<Cell> {
     })
 }
 
-async fn count(pool: &Pool, table: &str) -> anyhow::Result<i64> {
+async fn count<'e, E>(db: E, table: &str) -> anyhow::Result<i64>
+where
+    E: sqlx::Executor<'e, Database = sqlx::Any>,
+{
     Ok(
         sqlx::query_scalar(sqlx::AssertSqlSafe(format!("SELECT COUNT(*) FROM {table}")))
-            .fetch_one(pool)
+            .fetch_one(db)
             .await?,
     )
 }
 
 /// Copies every table from `from` into the empty database `to`, keeping ids, then verifies.
 pub async fn copy_all(from: &Pool, to: &Pool) -> anyhow::Result<CopyReport> {
+    copy_all_with(from, to, &mut |_, _| {}).await
+}
+
+/// [`copy_all`], calling `progress(table, rows)` after each table.
+///
+/// The source is read inside one read-only transaction (repeatable read on PostgreSQL,
+/// a WAL read snapshot on SQLite), so a copy taken while servers keep writing is the
+/// database as it was at one moment, and its row counts are checked against that moment.
+pub async fn copy_all_with(
+    from: &Pool,
+    to: &Pool,
+    progress: &mut (dyn FnMut(&str, i64) + Send),
+) -> anyhow::Result<CopyReport> {
     for t in TABLES {
         if count(to, t).await? > 0 {
             bail!(
@@ -84,44 +99,23 @@ pub async fn copy_all(from: &Pool, to: &Pool) -> anyhow::Result<CopyReport> {
             );
         }
     }
+    let mut snapshot = match engine_of(from) {
+        Engine::Postgres => {
+            from.begin_with("BEGIN ISOLATION LEVEL REPEATABLE READ READ ONLY")
+                .await?
+        }
+        Engine::Sqlite => from.begin().await?,
+    };
     let mut tx = to.begin().await?;
     let mut rows = Vec::new();
     for table in TABLES {
         let source_rows = sqlx::query(sqlx::AssertSqlSafe(format!(
             "SELECT * FROM {table} ORDER BY id"
         )))
-        .fetch_all(from)
+        .fetch_all(&mut *snapshot)
         .await
         .with_context(|| format!("reading {table}"))?;
-        let mut n = 0i64;
-        for row in &source_rows {
-            let names: Vec<&str> = row.columns().iter().map(|c| c.name()).collect();
-            let marks: Vec<String> = (1..=names.len()).map(|i| format!("${i}")).collect();
-            let sql = format!(
-                "INSERT INTO {table} ({}) VALUES ({})",
-                names.join(", "),
-                marks.join(", ")
-            );
-            let mut q = sqlx::query(sqlx::AssertSqlSafe(sql));
-            for i in 0..names.len() {
-                q = match cell(row, i)? {
-                    Cell::Null(AnyTypeInfoKind::Real | AnyTypeInfoKind::Double) => {
-                        q.bind(Option::<f64>::None)
-                    }
-                    Cell::Null(AnyTypeInfoKind::Text) => q.bind(Option::<String>::None),
-                    Cell::Null(AnyTypeInfoKind::Blob) => q.bind(Option::<Vec<u8>>::None),
-                    Cell::Null(_) => q.bind(Option::<i64>::None),
-                    Cell::Int(v) => q.bind(v),
-                    Cell::Float(v) => q.bind(v),
-                    Cell::Text(v) => q.bind(v),
-                    Cell::Bytes(v) => q.bind(v),
-                };
-            }
-            q.execute(&mut *tx)
-                .await
-                .with_context(|| format!("writing {table}"))?;
-            n += 1;
-        }
+        let n = insert_rows(&mut tx, table, &source_rows).await?;
         if engine_of(to) == Engine::Postgres && n > 0 {
             // Ids were copied as they were; move each identity past the largest one.
             sqlx::query(sqlx::AssertSqlSafe(format!(
@@ -130,6 +124,7 @@ pub async fn copy_all(from: &Pool, to: &Pool) -> anyhow::Result<CopyReport> {
             .fetch_one(&mut *tx)
             .await?;
         }
+        progress(table, n);
         rows.push((table.to_string(), n));
     }
     // Inserting the tests ran the counting trigger on top of the copied counts.
@@ -140,27 +135,65 @@ pub async fn copy_all(from: &Pool, to: &Pool) -> anyhow::Result<CopyReport> {
     .execute(&mut *tx)
     .await?;
     tx.commit().await?;
-    verify(from, to, rows).await
+    let report = verify(&mut snapshot, to, rows).await;
+    snapshot.rollback().await?;
+    report
 }
 
-async fn verify(from: &Pool, to: &Pool, rows: Vec<(String, i64)>) -> anyhow::Result<CopyReport> {
+/// Writes rows read from one table into the same table of the target; returns the count.
+async fn insert_rows(
+    tx: &mut super::Tx<'_>,
+    table: &str,
+    source_rows: &[AnyRow],
+) -> anyhow::Result<i64> {
+    let mut n = 0i64;
+    for row in source_rows {
+        let names: Vec<&str> = row.columns().iter().map(|c| c.name()).collect();
+        let marks: Vec<String> = (1..=names.len()).map(|i| format!("${i}")).collect();
+        let sql = format!(
+            "INSERT INTO {table} ({}) VALUES ({})",
+            names.join(", "),
+            marks.join(", ")
+        );
+        let mut q = sqlx::query(sqlx::AssertSqlSafe(sql));
+        for i in 0..names.len() {
+            q = match cell(row, i)? {
+                Cell::Null(AnyTypeInfoKind::Real | AnyTypeInfoKind::Double) => {
+                    q.bind(Option::<f64>::None)
+                }
+                Cell::Null(AnyTypeInfoKind::Text) => q.bind(Option::<String>::None),
+                Cell::Null(AnyTypeInfoKind::Blob) => q.bind(Option::<Vec<u8>>::None),
+                Cell::Null(_) => q.bind(Option::<i64>::None),
+                Cell::Int(v) => q.bind(v),
+                Cell::Float(v) => q.bind(v),
+                Cell::Text(v) => q.bind(v),
+                Cell::Bytes(v) => q.bind(v),
+            };
+        }
+        q.execute(&mut **tx)
+            .await
+            .with_context(|| format!("writing {table}"))?;
+        n += 1;
+    }
+    Ok(n)
+}
+
+async fn verify(
+    from: &mut super::Tx<'static>,
+    to: &Pool,
+    rows: Vec<(String, i64)>,
+) -> anyhow::Result<CopyReport> {
     for (table, n) in &rows {
-        let (a, b) = (count(from, table).await?, count(to, table).await?);
+        let (a, b) = (count(&mut **from, table).await?, count(to, table).await?);
         if a != b || b != *n {
             bail!("row count of {table} differs after the copy: source {a}, target {b}");
         }
     }
-    let certs: Vec<(i64, String, Vec<u8>)> =
-        sqlx::query_as("SELECT id, sha256, pdf FROM certificates ORDER BY id")
-            .fetch_all(to)
-            .await?;
-    for (id, sha, pdf) in &certs {
-        if hex::encode(Sha256::digest(pdf)) != *sha {
-            bail!("certificate {id} does not match its SHA-256 after the copy");
-        }
-    }
+    let certificates_verified = super::snapshot::verify_certificates(to)
+        .await
+        .context("after the copy")?;
     Ok(CopyReport {
         rows,
-        certificates_verified: certs.len() as i64,
+        certificates_verified,
     })
 }

@@ -19,6 +19,7 @@ pub mod lots;
 pub mod moulds;
 pub mod projects;
 pub mod scope;
+pub mod snapshot;
 pub mod sources;
 pub mod users;
 
@@ -129,6 +130,14 @@ pub async fn open(path: &Path) -> anyhow::Result<Pool> {
 /// `synchronous=FULL` (a commit that returned survives power loss).
 #[tracing::instrument(skip(location), fields(db = %location.redacted()))]
 pub async fn connect(location: &Location) -> anyhow::Result<Pool> {
+    let pool = connect_unmigrated(location).await?;
+    migrate(&pool).await?;
+    Ok(pool)
+}
+
+/// [`connect`] without running migrations: for reading a database this build must not
+/// change (the live database a backup copies, a target a restore first checks is empty).
+pub async fn connect_unmigrated(location: &Location) -> anyhow::Result<Pool> {
     static DRIVERS: Once = Once::new();
     DRIVERS.call_once(sqlx::any::install_default_drivers);
     let engine = location.engine();
@@ -157,7 +166,6 @@ pub async fn connect(location: &Location) -> anyhow::Result<Pool> {
         .connect(&url)
         .await
         .with_context(|| format!("opening database {}", location.redacted()))?;
-    migrate(&pool).await?;
     Ok(pool)
 }
 

@@ -472,10 +472,26 @@ impl<W: Write> ExportWriter<W> {
         }
     }
 
+    /// Records written so far.
+    pub fn written(&self) -> u64 {
+        self.written
+    }
+
     /// Ends the export and flushes it; returns the number of records written.
     pub fn finish(self) -> Result<u64> {
+        let n = self.written;
+        self.finish_into()?;
+        Ok(n)
+    }
+
+    /// Ends the export, flushes it and hands back the writer (an archive copies it on).
+    pub fn finish_into(self) -> Result<W> {
         match self.out {
-            Out::Csv(mut w) => w.flush().map_err(io)?,
+            Out::Csv(w) => {
+                let mut out = w.into_inner().map_err(|e| io(anyhow::anyhow!("{e}")))?;
+                out.flush().map_err(io)?;
+                Ok(out)
+            }
             Out::Json(mut out) => {
                 let close: &[u8] = if self.kind == ExportKind::TestsGeojson {
                     b"\n]}\n"
@@ -484,9 +500,9 @@ impl<W: Write> ExportWriter<W> {
                 };
                 out.write_all(close).map_err(io)?;
                 out.flush().map_err(io)?;
+                Ok(out)
             }
         }
-        Ok(self.written)
     }
 }
 

@@ -4,6 +4,7 @@ mod helpers;
 
 mod access;
 mod api_flow;
+mod backup;
 mod bad_input;
 mod calculators;
 mod certificates;

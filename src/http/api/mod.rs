@@ -1,6 +1,7 @@
 //! The JSON API, version 1, under `/api/v1`.
 
 mod accounts;
+mod archive;
 mod calc;
 mod certificates;
 mod field_tests;
@@ -28,6 +29,7 @@ pub fn router() -> Router<AppState> {
         .merge(verdicts::router())
         .merge(people::router())
         .merge(signoff::router())
+        .merge(archive::router())
 }
 
 /// Paging parameters shared by every list.

@@ -372,6 +372,12 @@ pub const OPERATIONS: &[Operation] = &[
         "Split a stretch of a layer into lots every N metres (all or none are made)",
         Some("SplitInput"),
     ),
+    op(
+        "get",
+        "/api/v1/projects/{id}/archive",
+        "The project's handover archive (zip): every certificate revision, records as CSV and JSON, the audit log, a manifest of SHA-256 hashes (admins and client engineers)",
+        None,
+    ),
     op("get", "/api/v1/openapi.json", "This document", None),
 ];
 

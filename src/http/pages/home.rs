@@ -37,6 +37,10 @@ struct ProjectsPage {
     demo: bool,
     who: String,
     admin: bool,
+    /// The latest scheduled backup's failure, shown to admins only.
+    backup_failure: Option<crate::backup::schedule::Attempt>,
+    /// When the last good scheduled backup was taken (with the failure).
+    backup_last_good: Option<String>,
 }
 
 async fn projects(State(s): State<AppState>, caller: Caller) -> PageResult {
@@ -53,11 +57,18 @@ async fn projects(State(s): State<AppState>, caller: Caller) -> PageResult {
             client: p.client,
         })
         .collect();
+    let admin = caller.is_admin();
     render(&ProjectsPage {
         projects,
         demo: s.settings.demo,
         who: caller.actor().name,
         admin: caller.is_admin(),
+        backup_failure: s.backups.failure().filter(|_| admin),
+        backup_last_good: s
+            .backups
+            .last_good()
+            .filter(|_| admin)
+            .map(|g| crate::clock::display(&g.at)),
     })
 }
 
