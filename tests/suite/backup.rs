@@ -484,7 +484,9 @@ fn recompute(
                 voided: !t["void_reason"].is_null(),
                 retest_of: t["retest_of"].as_str().map(|n| id_of[n]),
                 tested_at: t["tested_at"].as_str().unwrap_or("").to_string(),
-                unjudged: v.is_none().then(|| "oversize correction refused".to_string()),
+                unjudged: v
+                    .is_none()
+                    .then(|| "oversize correction refused".to_string()),
                 earlier_sample: false,
             }
         })
