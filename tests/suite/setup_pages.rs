@@ -698,3 +698,76 @@ async fn the_clause_form_knows_every_term_of_the_ledger() {
     assert_eq!(list[0]["rounding"], "absolute");
     assert_eq!(list[0]["limit_decimals"], 0);
 }
+
+#[tokio::test]
+async fn an_admin_disables_resets_and_removes_people_from_pages() {
+    let app = spawn_app().await;
+    let id = project_through_page(&app).await;
+    // Removing the viewer's role ends their access to the project at once.
+    let (s, _) = page_as(&app, As::Viewer, &format!("/projects/{id}")).await;
+    assert_eq!(s, 200);
+    let (s, _, _) = post_form(
+        &app,
+        As::Qc,
+        &format!("/projects/{id}/setup/members/remove"),
+        &[("username", "t.viewer")],
+    )
+    .await;
+    assert_eq!(s, 403, "only an admin removes members");
+    let (s, _, _) = post_form(
+        &app,
+        As::Admin,
+        &format!("/projects/{id}/setup/members/remove"),
+        &[("username", "t.viewer")],
+    )
+    .await;
+    assert_eq!(s, 303);
+    let (s, _) = page_as(&app, As::Viewer, &format!("/projects/{id}")).await;
+    assert_eq!(
+        s, 303,
+        "a removed member's sessions end: the page sends them to sign in"
+    );
+    let (_, members) = app.get(&format!("/api/v1/projects/{id}/members")).await;
+    assert!(
+        !members
+            .as_array()
+            .expect("members")
+            .iter()
+            .any(|m| m["username"] == "t.viewer"),
+        "{members}"
+    );
+
+    // Disabling the technician ends their session: the page sends them to sign in.
+    let (s, _, _) = post_form(
+        &app,
+        As::Admin,
+        "/setup/users/t.tech/access",
+        &[("enabled", "no")],
+    )
+    .await;
+    assert_eq!(s, 303);
+    let (s, _) = page_as(&app, As::Tech, "/").await;
+    assert_eq!(s, 303, "a disabled user's session has ended");
+    let (_, list) = page_as(&app, As::Admin, "/setup/users").await;
+    assert!(list.contains("no (disabled)"));
+
+    // A reset password is refused when too short, beside its field, and never shown back.
+    let path = "/setup/users/t.engineer/reset";
+    let (s, html, _) = post_form(&app, As::Admin, path, &[("new_password", "short")]).await;
+    assert_eq!(s, 422);
+    assert!(!error_of(&html, "new_password").is_empty(), "{html}");
+    assert!(!html.contains("value=\"short\""));
+    let (s, _, _) = post_form(
+        &app,
+        As::Admin,
+        path,
+        &[("new_password", "a-new-password-4-engineer")],
+    )
+    .await;
+    assert_eq!(s, 303);
+    let (_, html) = page_as(&app, As::Engineer, "/").await;
+    assert!(
+        !html.contains("id=\"who\""),
+        "the engineer's old session ended with the reset"
+    );
+}

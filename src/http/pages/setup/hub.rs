@@ -54,7 +54,7 @@ struct HubPage {
     may_people: bool,
     may_setup: bool,
     may_tokens: bool,
-    members: Vec<String>,
+    members: Vec<(String, String)>,
     clauses: Vec<ClauseLine>,
     sources: Vec<Line>,
     moulds: Vec<String>,
@@ -94,7 +94,7 @@ async fn hub(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> 
         .map(|(user, name, role)| {
             let role = crate::auth::Role::parse_code(&role)
                 .map_or(role.clone(), |r| r.label().to_string());
-            format!("{name} ({user}), {role}")
+            (user.clone(), format!("{name} ({user}), {role}"))
         })
         .collect();
     let clauses = db::clauses::list(&s.db, id)

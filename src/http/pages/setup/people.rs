@@ -1,7 +1,7 @@
 //! Admin pages: a new project, the organisation's people, and project roles.
 //!
-//! Disabling people, resetting passwords and removing roles build on the account
-//! functions of the sign-off work and are added there.
+//! Disabling people, resetting passwords and removing roles call the same account
+//! functions as the API and the `liftledger user` commands.
 
 use askama::Template;
 use axum::Router;
@@ -28,6 +28,18 @@ pub fn router() -> Router<AppState> {
         .route(
             "/projects/{id}/setup/members/new",
             get(member_form).post(member_post),
+        )
+        .route(
+            "/projects/{id}/setup/members/remove",
+            axum::routing::post(member_remove),
+        )
+        .route(
+            "/setup/users/{username}/access",
+            axum::routing::post(user_access),
+        )
+        .route(
+            "/setup/users/{username}/reset",
+            get(reset_form).post(reset_post),
         )
 }
 
@@ -231,4 +243,88 @@ async fn member_post(
         })
         .await?;
     Ok(saved.map_or_else(|r| r, |_| see_other(&format!("/projects/{id}/setup"))))
+}
+
+fn si_units() -> crate::present::Units {
+    crate::present::Units {
+        system: crate::reduction::UnitSystem::Si,
+        chainage: crate::reduction::ChainageStyle::KmMetre,
+    }
+}
+
+/// Body of the remove button beside a member.
+#[derive(serde::Deserialize)]
+struct RemoveInput {
+    username: String,
+}
+
+async fn member_remove(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+    body: Bytes,
+) -> PageResult {
+    let actor = require_admin(&caller)?;
+    let input: RemoveInput = crate::http::extract::parse_form(&body)?;
+    accounts::remove_member(&s.db, &input.username, id, &actor).await?;
+    Ok(see_other(&format!("/projects/{id}/setup")))
+}
+
+/// Body of the disable / enable button beside a person.
+#[derive(serde::Deserialize)]
+struct AccessInput {
+    enabled: String,
+}
+
+async fn user_access(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(username): Path<String>,
+    body: Bytes,
+) -> PageResult {
+    let actor = require_admin(&caller)?;
+    let input: AccessInput = crate::http::extract::parse_form(&body)?;
+    accounts::set_enabled(&s.db, &username, input.enabled == "yes", &actor).await?;
+    Ok(see_other("/setup/users"))
+}
+
+fn reset_spec(username: &str) -> FormSpec {
+    FormSpec {
+        nav: None,
+        title: format!("Reset the password of {username}"),
+        intro: "Every session of theirs ends now, and they must choose their own password at their next sign-in.".into(),
+        action_url: format!("/setup/users/{username}/reset"),
+        back_href: "/setup/users".into(),
+        back_label: "Back to people".into(),
+        fields: vec![Field::new("new_password", "New password", Kind::Secret, true).hint("tell it to them privately")],
+        has_preview: false,
+        submit_label: "Reset".into(),
+    }
+}
+
+/// Body of the reset form.
+#[derive(serde::Deserialize)]
+struct ResetInput {
+    new_password: String,
+}
+
+async fn reset_form(caller: Caller, Path(username): Path<String>) -> PageResult {
+    require_admin(&caller)?;
+    reset_spec(&username).blank(&Values::new())
+}
+
+async fn reset_post(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(username): Path<String>,
+    body: Bytes,
+) -> PageResult {
+    let actor = require_admin(&caller)?;
+    let values = decode(&body);
+    let saved = reset_spec(&username)
+        .submit(&values, &si_units(), async |input: ResetInput| {
+            accounts::reset_password(&s.db, &username, &input.new_password, &actor).await
+        })
+        .await?;
+    Ok(saved.map_or_else(|r| r, |_| see_other("/setup/users")))
 }
