@@ -668,6 +668,8 @@ async fn the_clause_form_knows_every_term_of_the_ledger() {
         ("rc_plausible_max_pct", "104"),
         ("rounding", "absolute"),
         ("limit_decimals", "0"),
+        ("oversize_sieve_mm", "19"),
+        ("coarse_water_default_pct", "1.5"),
         ("action", "preview"),
     ];
     let (s, html, _) = post_form(&app, As::Qc, &path, &form).await;
@@ -697,6 +699,8 @@ async fn the_clause_form_knows_every_term_of_the_ledger() {
     assert_eq!(list[0]["rc_plausible_max_pct"], 104.0);
     assert_eq!(list[0]["rounding"], "absolute");
     assert_eq!(list[0]["limit_decimals"], 0);
+    assert_eq!(list[0]["oversize_sieve_mm"], 19.0);
+    assert_eq!(list[0]["coarse_water_default_pct"], 1.5);
 }
 
 #[tokio::test]

@@ -203,6 +203,20 @@ fn clause_fields() -> Vec<Field> {
             false,
         )
         .hint("empty: 1, as in 95.0 %"),
+        Field::new(
+            "oversize_sieve_mm",
+            "Oversize sieve (mm)",
+            Kind::Number,
+            false,
+        )
+        .hint("4.75 or 19; sets the correction's limit"),
+        Field::new(
+            "coarse_water_default_pct",
+            "Coarse water content assumed when not given (%)",
+            Kind::Number,
+            false,
+        )
+        .hint("shown as assumed on every test that uses it"),
     ]
 }
 
