@@ -120,45 +120,15 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
         })
         .collect();
     let field_fail = marks.iter().filter(|m| !m.passed).count();
-    let (lo, hi) = points
-        .iter()
-        .map(|p| p.water_content_pct)
-        .chain(marks.iter().map(|m| m.x))
-        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), w| {
-            (a.min(w), b.max(w))
-        });
-    let (lo, hi) = ((lo - 1.5).max(0.0), hi + 1.5);
-    let pairs = |v: Vec<crate::reduction::curve::CurvePoint>| -> Vec<(f64, f64)> {
-        v.into_iter()
-            .map(|p| (p.water_content_pct, p.dry_density_kg_m3))
-            .collect()
-    };
-    let chart = curve_chart(&CurveChartInput {
-        title: format!("Compaction curve {} ({})", lab.code, source.code),
-        x_label: "Water content (%)".into(),
-        y_label: "Dry density (kg/m³)".into(),
-        lab_points: points
-            .iter()
-            .map(|p| (p.water_content_pct, p.dry_density_kg_m3))
-            .collect(),
-        fitted: fit
-            .as_ref()
-            .map_or_else(Vec::new, |f| pairs(f.curve.clone())),
-        optimum: (lab.optimum_water_content_pct, lab.max_dry_density_kg_m3),
-        zero_air_voids: pairs(zero_air_voids_line(gs, lo, hi, 40)),
-        saturation_lines: [90.0, 80.0]
-            .iter()
-            .map(|sat| Series {
-                label: format!("S = {sat:.0} %"),
-                points: pairs(saturation_line(gs, *sat, lo, hi, 40)),
-            })
-            .collect(),
-        field_points: marks,
-        optimum_label: format!(
-            "MDD {:.0} kg/m³ at OMC {:.1} %",
-            lab.max_dry_density_kg_m3, lab.optimum_water_content_pct
-        ),
-    });
+    let fitted = fit.as_ref().map_or(&[][..], |f| f.curve.as_slice());
+    let chart = chart(
+        &format!("Compaction curve {} ({})", lab.code, source.code),
+        &points,
+        fitted,
+        (lab.optimum_water_content_pct, lab.max_dry_density_kg_m3),
+        gs,
+        marks,
+    );
     let effort = resolve_effort(&lab.effort, None).ok();
     let warnings: Vec<String> = serde_json::from_str::<Vec<serde_json::Value>>(&lab.warnings_json)
         .unwrap_or_default()
@@ -218,12 +188,14 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
     })
 }
 
-/// The compaction-curve chart: lab points, fitted curve, optimum, zero-air-voids and
-/// 90 %/80 % saturation lines at the curve's Gs, and any field points judged against it.
+/// The compaction-curve chart: lab points, fitted curve (empty when the points no longer
+/// fit), optimum (water content %, dry density kg/m³), zero-air-voids and 90 %/80 %
+/// saturation lines at the curve's Gs, and any field points judged against it.
 pub fn chart(
     title: &str,
     points: &[crate::reduction::curve::CurvePoint],
-    fit: &crate::reduction::curve::CurveFit,
+    fitted: &[crate::reduction::curve::CurvePoint],
+    (omc_pct, mdd_kg_m3): (f64, f64),
     gs: SpecificGravity,
     marks: Vec<FieldMark>,
 ) -> String {
@@ -248,8 +220,8 @@ pub fn chart(
             .iter()
             .map(|p| (p.water_content_pct, p.dry_density_kg_m3))
             .collect(),
-        fitted: pairs(fit.curve.clone()),
-        optimum: (fit.optimum_water_content.pct(), fit.max_dry_density.kg_m3()),
+        fitted: pairs(fitted.to_vec()),
+        optimum: (omc_pct, mdd_kg_m3),
         zero_air_voids: pairs(zero_air_voids_line(gs, lo, hi, 40)),
         saturation_lines: [90.0, 80.0]
             .iter()
@@ -259,10 +231,6 @@ pub fn chart(
             })
             .collect(),
         field_points: marks,
-        optimum_label: format!(
-            "MDD {:.0} kg/m³ at OMC {:.1} %",
-            fit.max_dry_density.kg_m3(),
-            fit.optimum_water_content.pct()
-        ),
+        optimum_label: format!("MDD {mdd_kg_m3:.0} kg/m³ at OMC {omc_pct:.1} %"),
     })
 }

@@ -422,7 +422,8 @@ fn preview_html(p: &Place, input: &LabTestInput) -> Result<String> {
         chart: chart(
             &format!("Preview of {}", input.code),
             &points,
-            &fit,
+            &fit.curve,
+            (fit.optimum_water_content.pct(), fit.max_dry_density.kg_m3()),
             gs,
             vec![],
         ),
