@@ -44,7 +44,7 @@ async fn wait_for(tx: &mut db::Tx<'_>, key: &str, now: &str) -> Result<i64> {
     let Some(last) = last else {
         return Ok(0);
     };
-    Ok((wait - seconds_between(&last, now)).max(0))
+    Ok(throttle::still_to_wait(wait, seconds_between(&last, now)))
 }
 
 /// Refuses an over-long name or password before anything is written or hashed.
