@@ -833,6 +833,52 @@ async fn plausibility_flags_travel_with_the_test_on_every_path() {
     );
     assert_eq!(app.count("field_tests").await, n);
 
+    // A file may carry the technician's confirmation in a mapped column: a value that is not
+    // yes or no is a problem at that column; "yes" records the row as read.
+    let import_with = |confirmed: &'static str| {
+        let mut header = crate::transfer::csv_bytes(b',', false, &[]);
+        header.pop(); // the header line's newline
+        let mut row = crate::transfer::row("F-IMP", "1080", 2000.0, 14.0);
+        row[3] = "LOT-2".into();
+        row.push(confirmed.into());
+        let mut bytes = header;
+        bytes.extend_from_slice(b",Confirmed\n");
+        bytes.extend_from_slice(format!("{}\n", row.join(",")).as_bytes());
+        let mut m = crate::transfer::mapping();
+        m.columns.insert(
+            "Confirmed".into(),
+            liftledger::transfer::mapping::Target::ConfirmImplausible,
+        );
+        (bytes, m)
+    };
+    let opts = liftledger::ledger::import::ImportOptions {
+        commit: true,
+        audit: liftledger::ledger::import::AuditMode::PerImport,
+        actor: liftledger::ledger::Actor::system("T. Importer"),
+    };
+    let (bytes, m) = import_with("maybe");
+    let report =
+        liftledger::transfer::import_csv(&app.pool, f.project, &bytes[..], "site.csv", &m, &opts)
+            .await
+            .unwrap();
+    assert!(!report.committed);
+    assert!(
+        report
+            .problems
+            .iter()
+            .any(|p| p.column == "Confirmed" && p.reason.contains("not yes or no")),
+        "{:?}",
+        report.problems
+    );
+    assert_eq!(app.count("field_tests").await, n);
+    let (bytes, m) = import_with("yes");
+    let report =
+        liftledger::transfer::import_csv(&app.pool, f.project, &bytes[..], "site.csv", &m, &opts)
+            .await
+            .unwrap();
+    assert!(report.committed, "{:?}", report.problems);
+    assert_eq!(app.count("field_tests").await, n + 1);
+
     // Lot sheet and test API carry the named warnings.
     let (_, html) = page(&app, &format!("/lots/{lot}")).await;
     assert!(
