@@ -66,11 +66,15 @@ fn bench_field_and_lots(n_tests: usize, lot_size: usize) {
     let reference = Reference {
         max_dry_density: Density::new(1880.0).expect("valid density"),
         optimum_water_content: WaterContent::new(12.0).expect("valid water content"),
+        specific_gravity: None,
     };
     let limits = SpecLimits {
         rc_min_pct: 95.0,
-        moisture_below_pct: 2.0,
-        moisture_above_pct: 2.0,
+        moisture: liftledger::reduction::verdict::MoistureWindow::PointsOfOmc {
+            below_pct: 2.0,
+            above_pct: 2.0,
+        },
+        max_air_voids_pct: None,
         rounding: liftledger::reduction::rounding::Rounding::E29_ONE_DECIMAL,
     };
     let rules = [
@@ -90,7 +94,8 @@ fn bench_field_and_lots(n_tests: usize, lot_size: usize) {
                     id: i as i64,
                     label: String::new(),
                     relative_compaction_pct: v.relative_compaction_pct,
-                    moisture_deviation_pct: v.moisture_deviation_pct,
+                    moisture_measure: v.moisture_measure,
+                    air_voids_ok: v.air_voids_ok,
                     passed: v.passed,
                     voided: i.is_multiple_of(97),
                     retest_of: (i % 10 == 9).then_some(i as i64 - 1),

@@ -23,7 +23,6 @@ use crate::ledger::import::{
 use crate::ledger::{self, Actor, setup};
 use crate::reduction::field::{FieldReadings, reduce_field};
 use crate::reduction::verdict::{Reference, SpecLimits, judge_test, reference_for_coarse_fraction};
-use crate::reduction::{Density, WaterContent};
 
 /// What to generate.
 #[derive(Debug, Clone)]
@@ -552,10 +551,7 @@ pub async fn generate(pool: &Pool, opts: ScaleOptions) -> anyhow::Result<ScaleSu
             .find(|c| c.code == z.clause)
             .ok_or_else(|| anyhow!("clause {} missing", z.clause))?;
         let lab = &lab_rows[z.source];
-        let reference = Reference {
-            max_dry_density: Density::new(lab.max_dry_density_kg_m3)?,
-            optimum_water_content: WaterContent::new(lab.optimum_water_content_pct)?,
-        };
+        let reference = crate::ledger::lot_report::reference_of(lab)?;
         for n in 1..=z.layers {
             let layer = setup::create_layer(
                 pool,
@@ -593,7 +589,7 @@ pub async fn generate(pool: &Pool, opts: ScaleOptions) -> anyhow::Result<ScaleSu
                     left_m: -z.half_width_m,
                     right_m: z.half_width_m,
                     layer_index,
-                    limits: crate::ledger::lot_report::limits_of(clause),
+                    limits: crate::ledger::lot_report::limits_of(clause)?,
                     reference,
                     gs_coarse: source_rows[z.source].gs_coarse.unwrap_or(2.65),
                     oversize_limit: clause.oversize_limit_pct,

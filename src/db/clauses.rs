@@ -37,13 +37,21 @@ pub struct Clause {
     pub oversize_sieve_mm: f64,
     /// Coarse water content assumed when a test gives none, percent (None: the test must give it).
     pub coarse_water_default_pct: Option<f64>,
+    /// "points_of_omc" (below/above are points), "percent_of_omc" or "absolute" (low/high).
+    pub moisture_basis: String,
+    /// Least allowed w / OMC × 100 or w, percent, under the other two forms.
+    pub moisture_low_pct: Option<f64>,
+    /// Greatest allowed w / OMC × 100 or w, percent, under the other two forms.
+    pub moisture_high_pct: Option<f64>,
+    /// Greatest air voids allowed, percent (None: not judged).
+    pub max_air_voids_pct: Option<f64>,
 }
 
 /// Every column, in the struct's order.
 const COLUMNS: &str = "id, project_id, code, title, rc_min_pct, moisture_below_pct, moisture_above_pct, effort, rule,
     allowance_pct, min_pwl_pct, area_per_test_m2, length_per_test_m, min_tests_per_lot, oversize_limit_pct, created_at,
     moisture_judgement, moisture_min_pwl_pct, rc_plausible_max_pct, rounding, limit_decimals, oversize_sieve_mm,
-    coarse_water_default_pct";
+    coarse_water_default_pct, moisture_basis, moisture_low_pct, moisture_high_pct, max_air_voids_pct";
 
 /// Inserts a clause; `c.id` and `c.created_at` are ignored and filled by the database.
 pub async fn insert(tx: &mut Tx<'_>, c: &Clause) -> sqlx::Result<Clause> {
@@ -51,8 +59,10 @@ pub async fn insert(tx: &mut Tx<'_>, c: &Clause) -> sqlx::Result<Clause> {
         "INSERT INTO clauses (project_id, code, title, rc_min_pct, moisture_below_pct, moisture_above_pct, effort, rule,
              allowance_pct, min_pwl_pct, area_per_test_m2, length_per_test_m, min_tests_per_lot, oversize_limit_pct, created_at,
              moisture_judgement, moisture_min_pwl_pct, rc_plausible_max_pct, rounding, limit_decimals,
-             oversize_sieve_mm, coarse_water_default_pct)
-         VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18, $19, $20, $21, $22)
+             oversize_sieve_mm, coarse_water_default_pct, moisture_basis, moisture_low_pct, moisture_high_pct,
+             max_air_voids_pct)
+         VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18, $19, $20, $21, $22,
+             $23, $24, $25, $26)
          RETURNING {COLUMNS}"
     )))
     .bind(c.project_id)
@@ -77,6 +87,10 @@ pub async fn insert(tx: &mut Tx<'_>, c: &Clause) -> sqlx::Result<Clause> {
     .bind(c.limit_decimals)
     .bind(c.oversize_sieve_mm)
     .bind(c.coarse_water_default_pct)
+    .bind(&c.moisture_basis)
+    .bind(c.moisture_low_pct)
+    .bind(c.moisture_high_pct)
+    .bind(c.max_air_voids_pct)
     .fetch_one(&mut **tx)
     .await
 }

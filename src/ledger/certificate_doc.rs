@@ -173,10 +173,10 @@ pub fn build(r: &LotReport, issue: Issue<'_>) -> CertificateDoc {
         clause: ClauseBlock {
             clause_code: format!("{} {}", c.code, c.title).trim().to_string(),
             rc_min: format!("{:.1} %", c.rc_min_pct),
-            moisture_window: format!(
-                "{:.1} to +{:.1} points of OMC",
-                -c.moisture_below_pct, c.moisture_above_pct
-            ),
+            moisture_window: match &v.air_voids_limit {
+                Some(av) => format!("{}; air voids {av}", v.moisture_window),
+                None => v.moisture_window.clone(),
+            },
             rule: format!(
                 "{}; moisture: {}; {}",
                 v.rule_label,

@@ -380,7 +380,7 @@ pub fn judge(ctx: &LotContext, r: &db::field_tests::FieldTest) -> Result<TestVer
         dry,
         w,
         &reference,
-        &lot_report::limits_of(&ctx.clause),
+        &lot_report::limits_of(&ctx.clause)?,
     ))
 }
 

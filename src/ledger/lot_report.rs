@@ -24,6 +24,8 @@ pub struct TestLine {
     pub reference_omc_pct: Option<f64>,
     pub relative_compaction_pct: Option<f64>,
     pub moisture_deviation_pct: Option<f64>,
+    /// Air voids, percent, when the clause sets a maximum.
+    pub air_voids_pct: Option<f64>,
     pub passed: bool,
     /// "counted", "voided", "superseded", "cannot_be_judged" or "earlier_sample".
     pub standing: String,
@@ -58,6 +60,9 @@ impl TestLine {
             out.push(format!("cannot be judged: {r}"));
         }
         out.extend(self.flags.iter().map(|f| format!("flag: {}", f.message)));
+        if let Some(av) = self.air_voids_pct {
+            out.push(format!("air voids {av:.2} %"));
+        }
         if let Some(w) = self.coarse_water_assumed_pct {
             out.push(format!(
                 "coarse water content assumed {w:.1} % (clause default)"
@@ -81,6 +86,10 @@ pub struct Verdict {
     pub pwl: Option<f64>,
     /// How moisture is judged, in words.
     pub moisture_judgement: String,
+    /// The clause's moisture window in its own terms, e.g. "−2.0 to +2.0 points of optimum".
+    pub moisture_window: String,
+    /// The clause's air-voids maximum in words, when it sets one.
+    pub air_voids_limit: Option<String>,
     /// Two-sided moisture percent within limits, when the clause judges moisture so.
     pub moisture_pwl: Option<f64>,
     /// Tests that stand for their location but cannot be judged.
@@ -129,17 +138,18 @@ pub fn reference_of(lab: &db::lab_tests::LabTest) -> Result<Reference> {
     Ok(Reference {
         max_dry_density: mdd,
         optimum_water_content: omc,
+        specific_gravity: crate::reduction::SpecificGravity::new(lab.specific_gravity).ok(),
     })
 }
 
-/// The limits of a stored clause.
-pub fn limits_of(c: &db::clauses::Clause) -> SpecLimits {
-    SpecLimits {
+/// The limits of a stored clause (an unknown stored moisture basis is an error, not a guess).
+pub fn limits_of(c: &db::clauses::Clause) -> anyhow::Result<SpecLimits> {
+    Ok(SpecLimits {
         rc_min_pct: c.rc_min_pct,
-        moisture_below_pct: c.moisture_below_pct,
-        moisture_above_pct: c.moisture_above_pct,
+        moisture: super::moisture_terms::window_of(c)?,
+        max_air_voids_pct: c.max_air_voids_pct,
         rounding: rounding_of(c),
-    }
+    })
 }
 
 /// The comparison convention of a stored clause.
@@ -225,10 +235,7 @@ fn judge_line(
                 );
             }
         },
-        _ => Reference {
-            max_dry_density: reference.max_dry_density,
-            optimum_water_content: reference.optimum_water_content,
-        },
+        _ => *reference,
     };
     let (Ok(dry), Ok(w)) = (
         Density::new(t.dry_density_kg_m3),
@@ -283,7 +290,7 @@ pub fn assemble(
     certificate: Option<db::certificates::Certificate>,
 ) -> Result<LotReport> {
     let reference = reference_of(&lab_test)?;
-    let limits = limits_of(&clause);
+    let limits = limits_of(&clause)?;
     let rule = clause_rule(&clause);
     let moisture = clause_moisture(&clause);
 
@@ -299,7 +306,8 @@ pub fn assemble(
             label: t.number.clone(),
             // A test that cannot be judged carries no figure: NaN never passes for 0 %.
             relative_compaction_pct: v.as_ref().map_or(f64::NAN, |v| v.relative_compaction_pct),
-            moisture_deviation_pct: v.as_ref().map_or(f64::NAN, |v| v.moisture_deviation_pct),
+            moisture_measure: v.as_ref().map_or(f64::NAN, |v| v.moisture_measure),
+            air_voids_ok: v.as_ref().is_none_or(|v| v.air_voids_ok),
             passed: v.as_ref().is_some_and(|v| v.passed),
             voided: t.void_reason.is_some(),
             retest_of: t.retest_of,
@@ -338,6 +346,7 @@ pub fn assemble(
                 reference_omc_pct: r.as_ref().map(|r| r.optimum_water_content.pct()),
                 relative_compaction_pct: v.as_ref().map(|v| v.relative_compaction_pct),
                 moisture_deviation_pct: v.as_ref().map(|v| v.moisture_deviation_pct),
+                air_voids_pct: v.as_ref().and_then(|v| v.air_voids_pct),
                 passed: v.as_ref().is_some_and(|v| v.passed),
                 standing: standing.to_string(),
                 superseded_by,
@@ -429,6 +438,10 @@ pub fn assemble(
         quality_index: lv.quality_index,
         pwl: lv.pwl,
         moisture_judgement: moisture.label(),
+        moisture_window: limits.moisture_window_words(),
+        air_voids_limit: limits
+            .max_air_voids_pct
+            .map(|m| format!("at most {} %", limits.rounding.limit_text(m))),
         moisture_pwl: lv.moisture_pwl,
         unjudged: lv.unjudged.len(),
         accepted: lv.accepted,
@@ -542,7 +555,7 @@ pub fn judge_alone(
     retest_of_number: Option<String>,
 ) -> Result<TestLine> {
     let reference = reference_of(lab)?;
-    let (r, v, reasons) = judge_line(t, &reference, &limits_of(clause), source, clause);
+    let (r, v, reasons) = judge_line(t, &reference, &limits_of(clause)?, source, clause);
     let rc = v.as_ref().map(|v| v.relative_compaction_pct);
     Ok(TestLine {
         unjudged_reason: v.is_none().then(|| reasons.join("; ")),
@@ -553,6 +566,7 @@ pub fn judge_alone(
         reference_omc_pct: r.as_ref().map(|r| r.optimum_water_content.pct()),
         relative_compaction_pct: v.as_ref().map(|v| v.relative_compaction_pct),
         moisture_deviation_pct: v.as_ref().map(|v| v.moisture_deviation_pct),
+        air_voids_pct: v.as_ref().and_then(|v| v.air_voids_pct),
         passed: v.as_ref().is_some_and(|v| v.passed),
         standing: if t.void_reason.is_some() {
             "voided"

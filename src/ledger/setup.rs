@@ -115,8 +115,19 @@ pub struct ClauseInput {
     #[serde(default)]
     pub title: String,
     pub rc_min_pct: f64,
-    pub moisture_below_pct: f64,
-    pub moisture_above_pct: f64,
+    /// Points allowed below OMC ("points_of_omc" windows only).
+    pub moisture_below_pct: Option<f64>,
+    /// Points allowed above OMC ("points_of_omc" windows only).
+    pub moisture_above_pct: Option<f64>,
+    /// How the moisture window is written: "points_of_omc" (default), "percent_of_omc"
+    /// (w / OMC × 100 within low…high) or "absolute" (w within low…high).
+    pub moisture_basis: Option<String>,
+    /// Lower bound of a percent-of-OMC or absolute window, percent.
+    pub moisture_low_pct: Option<f64>,
+    /// Upper bound of a percent-of-OMC or absolute window, percent.
+    pub moisture_high_pct: Option<f64>,
+    /// Greatest air voids allowed, percent (none: air voids are not judged).
+    pub max_air_voids_pct: Option<f64>,
     pub effort: String,
     pub rule: String,
     pub allowance_pct: Option<f64>,
@@ -238,8 +249,11 @@ fn verdict_terms(input: &ClauseInput) -> Result<(String, Option<f64>, f64, Strin
     };
     for (field, v) in [
         ("rc_min_pct", Some(input.rc_min_pct)),
-        ("moisture_below_pct", Some(input.moisture_below_pct)),
-        ("moisture_above_pct", Some(input.moisture_above_pct)),
+        ("moisture_below_pct", input.moisture_below_pct),
+        ("moisture_above_pct", input.moisture_above_pct),
+        ("moisture_low_pct", input.moisture_low_pct),
+        ("moisture_high_pct", input.moisture_high_pct),
+        ("max_air_voids_pct", input.max_air_voids_pct),
         ("allowance_pct", input.allowance_pct),
     ] {
         if let Some(v) = v.filter(|v| v.is_finite())
@@ -304,6 +318,14 @@ pub async fn create_clause(
     };
     let (moisture_judgement, moisture_min_pwl_pct, rc_plausible_max_pct, rounding, limit_decimals) =
         verdict_terms(input)?;
+    let moisture = super::moisture_terms::check(&super::moisture_terms::MoistureTermsInput {
+        basis: input.moisture_basis.clone(),
+        below_pct: input.moisture_below_pct,
+        above_pct: input.moisture_above_pct,
+        low_pct: input.moisture_low_pct,
+        high_pct: input.moisture_high_pct,
+        max_air_voids_pct: input.max_air_voids_pct,
+    })?;
     let sieve = input.oversize_sieve_mm.unwrap_or(4.75);
     let sieve_limit = reduction::oversize::limit_for_sieve(sieve).ok_or_else(|| {
         AppError::invalid(
@@ -324,20 +346,8 @@ pub async fn create_clause(
         code: code("code", &input.code)?,
         title: optional_text("title", &input.title, 200)?,
         rc_min_pct: number("rc_min_pct", input.rc_min_pct, 50.0, 110.0, "%")?,
-        moisture_below_pct: number(
-            "moisture_below_pct",
-            input.moisture_below_pct,
-            0.0,
-            20.0,
-            "points",
-        )?,
-        moisture_above_pct: number(
-            "moisture_above_pct",
-            input.moisture_above_pct,
-            0.0,
-            20.0,
-            "points",
-        )?,
+        moisture_below_pct: moisture.below_pct,
+        moisture_above_pct: moisture.above_pct,
         effort: effort.to_string(),
         rule: input.rule.clone(),
         allowance_pct: allowance,
@@ -366,6 +376,10 @@ pub async fn create_clause(
         limit_decimals,
         oversize_sieve_mm: sieve,
         coarse_water_default_pct,
+        moisture_basis: moisture.basis.to_string(),
+        moisture_low_pct: moisture.low_pct,
+        moisture_high_pct: moisture.high_pct,
+        max_air_voids_pct: moisture.max_air_voids_pct,
     };
     let mut tx = db::begin_write(pool).await?;
     let c = db::clauses::insert(&mut tx, &clause)

@@ -76,8 +76,9 @@ pub struct LotTestInput {
     pub label: String,
     /// Relative compaction, percent.
     pub relative_compaction_pct: f64,
-    /// Moisture deviation from OMC, points.
-    pub moisture_deviation_pct: f64,
+    /// The value the clause's moisture window bounds (`SpecLimits::moisture_measure`): points
+    /// from OMC under the default window, percent of OMC, or the water content itself.
+    pub moisture_measure: f64,
     /// The test's own verdict when reduced.
     pub passed: bool,
     /// Voided by the QC manager: out of every statistic.
@@ -93,6 +94,13 @@ pub struct LotTestInput {
     /// Taken for an earlier random sample of a re-sampled lot: on record, out of the statistics.
     #[serde(default)]
     pub earlier_sample: bool,
+    /// Air voids at most the clause's maximum (true when the clause sets none).
+    #[serde(default = "air_voids_ok_by_default")]
+    pub air_voids_ok: bool,
+}
+
+fn air_voids_ok_by_default() -> bool {
+    true
 }
 
 impl LotTestInput {
@@ -510,7 +518,7 @@ pub fn evaluate_lot_with(
     let values: Vec<f64> = counted.iter().map(|t| t.relative_compaction_pct).collect();
     let bad_value = counted
         .iter()
-        .find(|t| !t.relative_compaction_pct.is_finite() || !t.moisture_deviation_pct.is_finite());
+        .find(|t| !t.relative_compaction_pct.is_finite() || !t.moisture_measure.is_finite());
     let summary = summarize(&values);
     let mut verdict = LotVerdict {
         n: counted.len(),
@@ -569,6 +577,7 @@ pub fn evaluate_lot_with(
     accepted &= m.accepted;
     reasons.extend(m.reasons);
     verdict.moisture_pwl = m.pwl;
+    reasons.extend(air_voids_reasons(&counted, limits, &mut accepted));
     if !unjudged_reasons.is_empty() {
         accepted = false;
         reasons.extend(unjudged_reasons);
@@ -590,6 +599,36 @@ pub fn evaluate_lot_with(
     verdict
 }
 
+/// The air-voids part of a lot decision: a per-test criterion under every rule, when the
+/// clause sets a maximum.
+fn air_voids_reasons(
+    counted: &[&LotTestInput],
+    limits: &SpecLimits,
+    accepted: &mut bool,
+) -> Vec<String> {
+    let Some(max) = limits.max_air_voids_pct else {
+        return Vec::new();
+    };
+    let failing: Vec<String> = counted
+        .iter()
+        .filter(|t| !t.air_voids_ok)
+        .map(|t| {
+            format!(
+                "{} has air voids above the clause's maximum; under this clause that fails the lot",
+                t.name()
+            )
+        })
+        .collect();
+    if failing.is_empty() {
+        return vec![format!(
+            "every counted test has air voids at most {} %",
+            limits.rounding.limit_text(max)
+        )];
+    }
+    *accepted = false;
+    failing
+}
+
 /// The moisture part of a lot decision.
 struct MoistureDecision {
     accepted: bool,
@@ -608,8 +647,9 @@ fn decide_moisture(
     let mut reasons = Vec::new();
     let mut accepted = true;
     if let MoistureJudgement::PercentWithinLimits { min_pwl_pct } = moisture {
-        let devs: Vec<f64> = counted.iter().map(|t| t.moisture_deviation_pct).collect();
-        let pwl = two_sided_pwl(&devs, -limits.moisture_below_pct, limits.moisture_above_pct);
+        let devs: Vec<f64> = counted.iter().map(|t| t.moisture_measure).collect();
+        let (low, high) = limits.moisture.bounds();
+        let pwl = two_sided_pwl(&devs, low, high);
         return match pwl {
             Some(p) if p >= min_pwl_pct - COMPARE_EPS => MoistureDecision {
                 accepted: true,
@@ -637,7 +677,7 @@ fn decide_moisture(
     }
     let failures: Vec<&&LotTestInput> = counted
         .iter()
-        .filter(|t| !limits.moisture_ok(t.moisture_deviation_pct))
+        .filter(|t| !limits.moisture_ok(t.moisture_measure))
         .collect();
     if failures.is_empty() {
         reasons.push(format!(
@@ -649,15 +689,16 @@ fn decide_moisture(
             reasons.push(format!(
                 "{} at {} is outside the moisture window of {window}; under this clause that fails the lot",
                 t.name(),
-                limits.deviation_words(t.moisture_deviation_pct)
+                limits.measure_words(t.moisture_measure)
             ));
         }
     }
     if matches!(rule, AcceptanceRule::EveryTest) {
         for t in counted.iter().filter(|t| {
             !t.passed
+                && t.air_voids_ok
                 && limits.density_ok(t.relative_compaction_pct)
-                && limits.moisture_ok(t.moisture_deviation_pct)
+                && limits.moisture_ok(t.moisture_measure)
         }) {
             accepted = false;
             reasons.push(format!(
@@ -772,13 +813,17 @@ pub fn evaluate_values(
 
 #[cfg(test)]
 mod tests {
+    use super::super::verdict::MoistureWindow;
     use super::*;
     use proptest::prelude::*;
 
     const LIMITS: SpecLimits = SpecLimits {
         rc_min_pct: 95.0,
-        moisture_below_pct: 2.0,
-        moisture_above_pct: 2.0,
+        moisture: MoistureWindow::PointsOfOmc {
+            below_pct: 2.0,
+            above_pct: 2.0,
+        },
+        max_air_voids_pct: None,
         rounding: Rounding::E29_ONE_DECIMAL,
     };
 
@@ -787,12 +832,13 @@ mod tests {
             id,
             label: String::new(),
             relative_compaction_pct: rc,
-            moisture_deviation_pct: dev,
+            moisture_measure: dev,
             passed: rc >= 95.0 && dev.abs() <= 2.0,
             voided: false,
             retest_of: None,
             tested_at: String::new(),
             unjudged: None,
+            air_voids_ok: true,
             earlier_sample: false,
         }
     }
@@ -880,6 +926,49 @@ mod tests {
                     .iter()
                     .any(|r| r.contains("test 1 was judged failed"))
         );
+    }
+
+    #[test]
+    fn an_air_voids_maximum_fails_the_lot_under_every_rule() {
+        let limits = SpecLimits {
+            max_air_voids_pct: Some(8.0),
+            ..LIMITS
+        };
+        let mut tests = vec![t(1, 97.0, 0.0), t(2, 98.0, 0.5), t(3, 97.5, -0.5)];
+        for rule in [
+            AcceptanceRule::EveryTest,
+            AcceptanceRule::MeanAndMin { allowance_pct: 3.0 },
+        ] {
+            let v = evaluate_lot(&tests, &rule, &limits);
+            assert!(v.accepted, "{rule:?}: {:?}", v.reasons);
+            assert!(
+                v.reasons
+                    .iter()
+                    .any(|r| r == "every counted test has air voids at most 8.0 %")
+            );
+        }
+        tests[1].air_voids_ok = false;
+        tests[1].passed = false;
+        for rule in [
+            AcceptanceRule::EveryTest,
+            AcceptanceRule::MeanAndMin { allowance_pct: 3.0 },
+        ] {
+            let v = evaluate_lot(&tests, &rule, &limits);
+            assert!(!v.accepted, "{rule:?}");
+            assert!(
+                v.reasons
+                    .iter()
+                    .any(|r| r.contains("test 2 has air voids above")),
+                "{:?}",
+                v.reasons
+            );
+            // Not mistaken for a test judged failed with figures inside the limits.
+            assert!(
+                !v.reasons
+                    .iter()
+                    .any(|r| r.contains("though its figures meet"))
+            );
+        }
     }
 
     #[test]
@@ -1280,8 +1369,8 @@ mod tests {
         ) {
             let tests: Vec<LotTestInput> = raw.iter().map(|&(id, rc, dev, passed, voided, retest_of)| LotTestInput {
                 id,
-                label: String::new(), relative_compaction_pct: rc, moisture_deviation_pct: dev, passed, voided, retest_of,
-                tested_at: String::new(), unjudged: None, earlier_sample: false,
+                label: String::new(), relative_compaction_pct: rc, moisture_measure: dev, passed, voided, retest_of,
+                tested_at: String::new(), unjudged: None, earlier_sample: false, air_voids_ok: true,
             }).collect();
             let rule = match rule_kind {
                 0 => AcceptanceRule::EveryTest,

@@ -410,6 +410,22 @@ impl CellReader<'_> {
         self.cells.get(&t).map(|s| s.to_string())
     }
 
+    /// A yes/no cell: yes, true, y or 1 (any case) is yes; empty, no, false, n or 0 is no;
+    /// anything else is a problem named at its column.
+    fn yes(&mut self, t: Target) -> Option<bool> {
+        let Some(raw) = self.cells.get(&t).copied() else {
+            return Some(false);
+        };
+        match raw.trim().to_ascii_lowercase().as_str() {
+            "yes" | "true" | "y" | "1" => Some(true),
+            "" | "no" | "false" | "n" | "0" => Some(false),
+            _ => {
+                self.problem(t, raw, format!("'{raw}' is not yes or no"));
+                None
+            }
+        }
+    }
+
     fn problem(&mut self, t: Target, value: &str, reason: impl Into<String>) {
         let column = self.column(t);
         self.problems
@@ -623,7 +639,7 @@ fn build_input(
         easting,
         northing,
         readings,
-        confirm_implausible: false,
+        confirm_implausible: r.yes(Target::ConfirmImplausible)?,
     };
     Some((input, r.text(Target::Lot), r.text(Target::RetestOf)))
 }

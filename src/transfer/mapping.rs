@@ -62,11 +62,14 @@ pub enum Target {
     Northing,
     /// The number of the failed test this one retests.
     RetestOf,
+    /// The technician confirms a point far above zero air voids was read as recorded
+    /// (yes/true/1; empty or no/false/0 leaves it unconfirmed, and such a row is refused).
+    ConfirmImplausible,
 }
 
 impl Target {
     /// Every target, in the order a report lists them.
-    pub const ALL: [Target; 26] = [
+    pub const ALL: [Target; 27] = [
         Target::Number,
         Target::TestedAt,
         Target::Technician,
@@ -93,6 +96,7 @@ impl Target {
         Target::Easting,
         Target::Northing,
         Target::RetestOf,
+        Target::ConfirmImplausible,
     ];
 
     /// Stable code, as written in a mapping.
@@ -124,6 +128,7 @@ impl Target {
             Target::Easting => "easting",
             Target::Northing => "northing",
             Target::RetestOf => "retest_of",
+            Target::ConfirmImplausible => "confirm_implausible",
         }
     }
 
@@ -145,6 +150,7 @@ impl Target {
             "easting" => Target::Easting,
             "northing" => Target::Northing,
             "retest_of" | "test_id" => Target::RetestOf,
+            "confirm_implausible" => Target::ConfirmImplausible,
             "readings.wet_density_kg_m3" => Target::WetDensity,
             "readings.moisture_density_kg_m3" => Target::MoistureDensity,
             "readings.oven_water_content_pct" => Target::OvenWaterContentPct,

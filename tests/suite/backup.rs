@@ -416,14 +416,29 @@ fn recompute(
 ) -> (bool, usize) {
     use liftledger::reduction::acceptance::{AcceptanceRule, LotTestInput, evaluate_lot};
     use liftledger::reduction::verdict::{
-        Reference, SpecLimits, judge_test, reference_for_coarse_fraction,
+        MoistureWindow, Reference, SpecLimits, judge_test, reference_for_coarse_fraction,
     };
-    use liftledger::reduction::{Density, WaterContent};
+    use liftledger::reduction::{Density, SpecificGravity, WaterContent};
     let f = |v: &Value, k: &str| v[k].as_f64().unwrap_or_else(|| panic!("{k} in {v}"));
+    let moisture = match clause["moisture_basis"].as_str().unwrap() {
+        "points_of_omc" => MoistureWindow::PointsOfOmc {
+            below_pct: f(clause, "moisture_below_pct"),
+            above_pct: f(clause, "moisture_above_pct"),
+        },
+        "percent_of_omc" => MoistureWindow::PercentOfOmc {
+            low_pct: f(clause, "moisture_low_pct"),
+            high_pct: f(clause, "moisture_high_pct"),
+        },
+        "absolute" => MoistureWindow::Absolute {
+            min_pct: f(clause, "moisture_low_pct"),
+            max_pct: f(clause, "moisture_high_pct"),
+        },
+        other => panic!("moisture basis {other}"),
+    };
     let limits = SpecLimits {
         rc_min_pct: f(clause, "rc_min_pct"),
-        moisture_below_pct: f(clause, "moisture_below_pct"),
-        moisture_above_pct: f(clause, "moisture_above_pct"),
+        moisture,
+        max_air_voids_pct: clause["max_air_voids_pct"].as_f64(),
         rounding: liftledger::reduction::rounding::Rounding {
             method: match clause["rounding"].as_str() {
                 Some("absolute") => liftledger::reduction::rounding::RoundingMethod::Absolute,
@@ -445,6 +460,7 @@ fn recompute(
     let reference = Reference {
         max_dry_density: Density::new(f(curve, "max_dry_density_kg_m3")).unwrap(),
         optimum_water_content: WaterContent::new(f(curve, "optimum_water_content_pct")).unwrap(),
+        specific_gravity: SpecificGravity::new(f(curve, "specific_gravity")).ok(),
     };
     let id_of: BTreeMap<&str, i64> = tests
         .iter()
@@ -462,10 +478,7 @@ fn recompute(
                     f(clause, "oversize_limit_pct"),
                 )
                 .ok(),
-                _ => Some(Reference {
-                    max_dry_density: reference.max_dry_density,
-                    optimum_water_content: reference.optimum_water_content,
-                }),
+                _ => Some(reference),
             };
             let v = r.map(|r| {
                 judge_test(
@@ -479,7 +492,8 @@ fn recompute(
                 id: t["id"].as_i64().unwrap(),
                 label: t["number"].as_str().unwrap().to_string(),
                 relative_compaction_pct: v.as_ref().map_or(0.0, |v| v.relative_compaction_pct),
-                moisture_deviation_pct: v.as_ref().map_or(0.0, |v| v.moisture_deviation_pct),
+                moisture_measure: v.as_ref().map_or(0.0, |v| v.moisture_measure),
+                air_voids_ok: v.as_ref().is_none_or(|v| v.air_voids_ok),
                 passed: v.as_ref().is_some_and(|v| v.passed),
                 voided: !t["void_reason"].is_null(),
                 retest_of: t["retest_of"].as_str().map(|n| id_of[n]),

@@ -287,10 +287,10 @@ async fn sheet_with(
         clause: c.code.clone(),
         clause_title: c.title.clone(),
         rc_min: format!("{:.1} %", c.rc_min_pct),
-        window: format!(
-            "−{:.1} to +{:.1} points of OMC",
-            c.moisture_below_pct, c.moisture_above_pct
-        ),
+        window: match &v.air_voids_limit {
+            Some(av) => format!("{}; air voids {av}", v.moisture_window),
+            None => v.moisture_window.clone(),
+        },
         rule: v.rule_label.clone(),
         frequency: frequency.join(", "),
         lab_id: r.lab_test.id,

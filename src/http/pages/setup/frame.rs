@@ -98,17 +98,50 @@ fn clause_fields() -> Vec<Field> {
             true,
         ),
         Field::new(
+            "moisture_basis",
+            "Moisture window written as",
+            Kind::Choice(pairs(&[
+                ("points_of_omc", "Points dry and wet of optimum (default)"),
+                ("percent_of_omc", "Percent of optimum (w / OMC)"),
+                ("absolute", "A range of water content"),
+            ])),
+            false,
+        ),
+        Field::new(
             "moisture_below_pct",
             "Moisture window, dry of optimum (points)",
             Kind::Number,
-            true,
-        ),
+            false,
+        )
+        .hint("points-of-optimum windows"),
         Field::new(
             "moisture_above_pct",
             "Moisture window, wet of optimum (points)",
             Kind::Number,
-            true,
-        ),
+            false,
+        )
+        .hint("points-of-optimum windows"),
+        Field::new(
+            "moisture_low_pct",
+            "Moisture window, lower bound (%)",
+            Kind::Number,
+            false,
+        )
+        .hint("percent-of-optimum or water-content windows, e.g. 90 or 9.0"),
+        Field::new(
+            "moisture_high_pct",
+            "Moisture window, upper bound (%)",
+            Kind::Number,
+            false,
+        )
+        .hint("percent-of-optimum or water-content windows, e.g. 110 or 14.0"),
+        Field::new(
+            "max_air_voids_pct",
+            "Air voids at most (%)",
+            Kind::Number,
+            false,
+        )
+        .hint("empty: air voids are not judged"),
         Field::new(
             "rule",
             "Acceptance rule",
@@ -271,8 +304,12 @@ async fn clause_post(
         };
         let words = clause_words(&Terms {
             rc_min_pct: input.rc_min_pct,
+            moisture_basis: input.moisture_basis.as_deref(),
             moisture_below_pct: input.moisture_below_pct,
             moisture_above_pct: input.moisture_above_pct,
+            moisture_low_pct: input.moisture_low_pct,
+            moisture_high_pct: input.moisture_high_pct,
+            max_air_voids_pct: input.max_air_voids_pct,
             effort: &input.effort,
             rule: &input.rule,
             allowance_pct: input.allowance_pct,

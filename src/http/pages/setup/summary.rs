@@ -9,8 +9,13 @@ use crate::reduction::lab::EffortPreset;
 /// The terms the words are made from (a stored clause, or a form not yet saved).
 pub struct Terms<'a> {
     pub rc_min_pct: f64,
-    pub moisture_below_pct: f64,
-    pub moisture_above_pct: f64,
+    /// "points_of_omc", "percent_of_omc" or "absolute"; `None` reads as points of OMC.
+    pub moisture_basis: Option<&'a str>,
+    pub moisture_below_pct: Option<f64>,
+    pub moisture_above_pct: Option<f64>,
+    pub moisture_low_pct: Option<f64>,
+    pub moisture_high_pct: Option<f64>,
+    pub max_air_voids_pct: Option<f64>,
     pub effort: &'a str,
     pub rule: &'a str,
     pub allowance_pct: Option<f64>,
@@ -32,8 +37,12 @@ impl<'a> From<&'a Clause> for Terms<'a> {
     fn from(c: &'a Clause) -> Self {
         Self {
             rc_min_pct: c.rc_min_pct,
-            moisture_below_pct: c.moisture_below_pct,
-            moisture_above_pct: c.moisture_above_pct,
+            moisture_basis: Some(&c.moisture_basis),
+            moisture_below_pct: Some(c.moisture_below_pct),
+            moisture_above_pct: Some(c.moisture_above_pct),
+            moisture_low_pct: c.moisture_low_pct,
+            moisture_high_pct: c.moisture_high_pct,
+            max_air_voids_pct: c.max_air_voids_pct,
             effort: &c.effort,
             rule: &c.rule,
             allowance_pct: c.allowance_pct,
@@ -91,18 +100,40 @@ fn frequency_words(t: &Terms) -> String {
     format!("Tests owed: {}, whichever asks for more.", parts.join(", "))
 }
 
+/// A bound in words, or that it is missing (a form previewed before it is complete).
+fn bound(v: Option<f64>) -> String {
+    v.map_or_else(|| "(not given)".to_string(), |v| format!("{v:.1}"))
+}
+
+/// Where the window lies, as the clause writes it.
+fn window_words(t: &Terms) -> String {
+    match t.moisture_basis {
+        Some("percent_of_omc") => format!(
+            "between {} % and {} % of the optimum (water content divided by OMC)",
+            bound(t.moisture_low_pct),
+            bound(t.moisture_high_pct)
+        ),
+        Some("absolute") => format!(
+            "between {} % and {} % water content, whatever the optimum",
+            bound(t.moisture_low_pct),
+            bound(t.moisture_high_pct)
+        ),
+        _ => format!(
+            "between {} points dry and {} points wet of the optimum",
+            bound(t.moisture_below_pct),
+            bound(t.moisture_above_pct)
+        ),
+    }
+}
+
 fn moisture_words(t: &Terms) -> String {
     match t.moisture_judgement {
         Some("pwl") => format!(
-            "At least {:.0} % of the lot's water contents must lie between {:.1} points dry and {:.1} points wet of the optimum (percent within limits, both sides).",
+            "At least {:.0} % of the lot's water contents must lie {} (percent within limits, both sides).",
             t.moisture_min_pwl_pct.unwrap_or(90.0),
-            t.moisture_below_pct,
-            t.moisture_above_pct
+            window_words(t)
         ),
-        _ => format!(
-            "Each test's water content must lie between {:.1} points dry and {:.1} points wet of the optimum.",
-            t.moisture_below_pct, t.moisture_above_pct
-        ),
+        _ => format!("Each test's water content must lie {}.", window_words(t)),
     }
 }
 
@@ -114,6 +145,11 @@ pub fn clause_words(t: &Terms) -> Vec<String> {
         moisture_words(t),
         frequency_words(t),
     ];
+    if let Some(max) = t.max_air_voids_pct {
+        words.push(format!(
+            "Each test's air voids must be at most {max:.1} %, at the curve's specific gravity."
+        ));
+    }
     words.push(format!(
         "A test above {:.1} % relative compaction is flagged as implausible for a person to check.",
         t.rc_plausible_max_pct.unwrap_or(103.0)
@@ -138,8 +174,12 @@ mod tests {
     fn mean_and_minimum_reads_as_both_limits() {
         let t = Terms {
             rc_min_pct: 95.0,
-            moisture_below_pct: 2.0,
-            moisture_above_pct: 1.5,
+            moisture_basis: None,
+            moisture_below_pct: Some(2.0),
+            moisture_above_pct: Some(1.5),
+            moisture_low_pct: None,
+            moisture_high_pct: None,
+            max_air_voids_pct: None,
             effort: "astm_d1557_4in",
             rule: "mean_and_min",
             allowance_pct: Some(3.0),
