@@ -120,12 +120,39 @@ fn write_text_style(w: &mut SvgWriter, style: TextStyle<'_>) {
 
 /// Opens the root `<svg>` (viewBox, 100 % width, `role="img"`), with `<title>`, `<desc>` and a paper background.
 pub fn open_root(w: &mut SvgWriter, width: f64, height: f64, title: &str, desc: &str, class: &str) {
+    open_root_as(w, "img", width, height, title, desc, class);
+}
+
+/// Opens the root `<svg>` of a chart whose marks are links, as `role="group"`: an image's
+/// children are presentational, so links inside `role="img"` would be hidden from a screen
+/// reader and from keyboard users' assistive tools (axe rule nested-interactive).
+pub fn open_linked_root(
+    w: &mut SvgWriter,
+    width: f64,
+    height: f64,
+    title: &str,
+    desc: &str,
+    class: &str,
+) {
+    open_root_as(w, "group", width, height, title, desc, class);
+}
+
+fn open_root_as(
+    w: &mut SvgWriter,
+    role: &str,
+    width: f64,
+    height: f64,
+    title: &str,
+    desc: &str,
+    class: &str,
+) {
     let view_box = format!("0 0 {} {}", super::svg::num(width), super::svg::num(height));
     w.start("svg")
         .attr("xmlns", "http://www.w3.org/2000/svg")
         .attr("viewBox", &view_box)
         .attr("width", "100%")
-        .attr("role", "img")
+        .attr("role", role)
+        .attr("aria-label", title)
         .attr("class", class)
         .attr("font-family", FONT_FAMILY)
         .open();

@@ -163,7 +163,7 @@ pub fn lift_map(input: &LiftMapInput) -> String {
         rows.len(),
         if rows.len() == 1 { "" } else { "s" }
     );
-    frame::open_root(
+    frame::open_linked_root(
         &mut w,
         width,
         height,

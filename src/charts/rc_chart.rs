@@ -189,7 +189,12 @@ pub fn rc_chart(input: &RcChartInput) -> String {
     } else {
         input.title.as_str()
     };
-    frame::open_root(
+    let open = if input.tests.iter().any(|t| t.href.is_some()) {
+        frame::open_linked_root
+    } else {
+        frame::open_root
+    };
+    open(
         &mut w,
         WIDTH,
         height,
