@@ -306,7 +306,8 @@ pub fn refusal_words(lot: &LotRules, u: &Units, form: &EntryForm, field: &str, m
 }
 
 /// The live preview's answer to a form: `{"errors": {field: message}}`, or no errors with
-/// `preview` (the words shown) and `values` (the numbers, unformatted).
+/// `preview` (the words shown), `values` (the numbers, unformatted) and `input` (the API
+/// body the site app's queue sends).
 pub fn answer(lot: &LotRules, u: &Units, form: &EntryForm, retest: bool) -> serde_json::Value {
     let input = match parse_entry(form, u, retest) {
         Ok(i) => i,
@@ -318,7 +319,7 @@ pub fn answer(lot: &LotRules, u: &Units, form: &EntryForm, retest: bool) -> serd
     match crate::reduction::site::preview(lot, &input, None) {
         Ok(p) => {
             let v = serde_json::to_value(&p).unwrap_or_default();
-            json!({"errors": {}, "preview": preview_view(&v, u), "values": v})
+            json!({"errors": {}, "preview": preview_view(&v, u), "values": v, "input": input})
         }
         Err(e) => {
             let field = form_field(&e.field, &form.method);

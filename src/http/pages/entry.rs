@@ -51,6 +51,9 @@ struct EntryPage {
     density_unit: String,
     chainage_hint: String,
     cautions: Vec<String>,
+    /// The lot's rules and the project's units as JSON, kept by the site app for offline
+    /// previews (`static/site.js`).
+    site_json: String,
 }
 
 impl EntryPage {
@@ -133,6 +136,15 @@ fn page(c: &Context, form: EntryForm, errors: Errors, preview: Option<PreviewVie
             crate::reduction::ChainageStyle::FeetStation => "station, e.g. 12+34.50".into(),
         },
         cautions: cautions(),
+        site_json: json!({
+            "rules": c.rules,
+            "unit_system": c.units.system.code(),
+            "chainage_style": c.units.chainage.code(),
+            "lot_code": c.lot.code,
+            "project": c.nav.name,
+            "post_url": format!("/api/v1/lots/{}/field-tests", c.lot.id),
+        })
+        .to_string(),
     }
 }
 
