@@ -28,8 +28,8 @@
     }
     return wasm;
   }
-  // The server's preview answer for a form, worked out here: {errors, preview, values, input}.
-  site.answer = function (request) {
+  // The server's preview answer for a form, worked out here, as the library's JSON text.
+  site.answerText = function (request) {
     return library().then(function (x) {
       var bytes = new TextEncoder().encode(JSON.stringify(request));
       var p = x.site_alloc(bytes.length);
@@ -38,8 +38,12 @@
       var len = new DataView(x.memory.buffer).getUint32(out, true);
       var text = new TextDecoder().decode(new Uint8Array(x.memory.buffer, out + 4, len));
       x.site_free(out, len + 4);
-      return JSON.parse(text);
+      return text;
     });
+  };
+  // The same answer parsed: {errors, preview, values, input}.
+  site.answer = function (request) {
+    return site.answerText(request).then(JSON.parse);
   };
 
   // --- The queue ---------------------------------------------------------------------
@@ -198,6 +202,11 @@
   };
 
   window.addEventListener("online", function () { site.sync(); });
-  document.addEventListener("DOMContentLoaded", function () { site.changed(); site.sync(); });
+  document.addEventListener("DOMContentLoaded", function () {
+    // Load the library while there is signal, so the preview works when there is none.
+    if (document.getElementById("entry-form")) library().catch(function () {});
+    site.changed();
+    site.sync();
+  });
   setInterval(function () { if (navigator.onLine) site.sync(); }, 5000);
 })();
