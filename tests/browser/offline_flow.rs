@@ -308,3 +308,63 @@ async fn a_refused_queued_test_stays_with_its_reason_and_a_signed_out_queue_wait
     assert_eq!(rig.app.lot_test_count(lot_id).await, before + 1);
     rig.finish().await;
 }
+
+#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+async fn the_navigation_wraps_the_map_fits_and_entry_targets_are_touch_sized_at_360_px() {
+    let Some(rig) = Rig::start("phone-fit").await else {
+        return;
+    };
+    let b = &rig.browser;
+    rig.open(&format!("/projects/{PROJECT}/map")).await;
+    b.wait_for("#lift-map svg").await;
+    assert_eq!(pages::viewport_width(b).await, 360);
+    let fit = b
+        .script(
+            "var w = window.innerWidth;
+             var links = Array.prototype.slice.call(document.querySelectorAll('.top nav a'));
+             var nav = document.querySelector('.top nav');
+             var map = document.querySelector('#lift-map');
+             var svg = map.querySelector('svg').getBoundingClientRect();
+             return {
+               outside: links.filter(function (a) { var r = a.getBoundingClientRect(); return r.left < 0 || r.right > w; }).length,
+               short: links.filter(function (a) { return a.getBoundingClientRect().height < 44; }).length,
+               rows: new Set(links.map(function (a) { return Math.round(a.getBoundingClientRect().top); })).size,
+               navScroll: nav.scrollWidth - nav.clientWidth,
+               mapScroll: map.scrollWidth - map.clientWidth,
+               svgRight: svg.right, w: w };",
+            vec![],
+        )
+        .await;
+    assert_eq!(fit["outside"], 0, "every menu link on screen: {fit}");
+    assert_eq!(fit["short"], 0, "menu links are touch-sized (44 px): {fit}");
+    assert!(fit["rows"].as_i64().unwrap() > 1, "the menu wraps: {fit}");
+    assert_eq!(fit["navScroll"], 0, "the menu does not scroll sideways: {fit}");
+    assert_eq!(fit["mapScroll"], 0, "the lift map fits the width: {fit}");
+    assert!(fit["svgRight"].as_f64().unwrap() <= fit["w"].as_f64().unwrap(), "{fit}");
+    assert_eq!(pages::sideways_overflow(b).await, 0);
+    rig.shot("1-map-360").await;
+
+    let (lot_id, _) = pages::open_lot_from_map_owing(&rig, "owed", None).await;
+    rig.open(&format!("/lots/{lot_id}/entry")).await;
+    b.wait_for("#entry-form").await;
+    for method in ["nuclear", "sand_cone", "balloon", "drive_cylinder"] {
+        let small = b
+            .script(
+                "var m = document.getElementById('method'); m.value = arguments[0];
+                 m.dispatchEvent(new Event('change'));
+                 var out = [];
+                 document.querySelectorAll('#entry-form input, #entry-form select, #entry-form button').forEach(function (e) {
+                   if (e.type === 'hidden' || e.offsetParent === null) return;
+                   var target = e.type === 'checkbox' ? e.closest('label') : e;
+                   var r = target.getBoundingClientRect();
+                   if (r.height < 44 || r.width < 44) out.push((e.id || e.name) + ' ' + r.width + 'x' + r.height);
+                 });
+                 return out;",
+                vec![json!(method)],
+            )
+            .await;
+        assert_eq!(small, json!([]), "touch-sized entry targets ({method})");
+    }
+    assert_eq!(pages::sideways_overflow(b).await, 0);
+    rig.finish().await;
+}
