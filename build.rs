@@ -13,7 +13,14 @@ const TARGET: &str = "wasm32-unknown-unknown";
 fn main() {
     let root = PathBuf::from(std::env::var("CARGO_MANIFEST_DIR").expect("CARGO_MANIFEST_DIR"));
     let out = PathBuf::from(std::env::var("OUT_DIR").expect("OUT_DIR"));
-    for p in ["src/reduction", "src/present.rs", "src/site_form.rs", "wasm/src", "wasm/Cargo.toml", "wasm/Cargo.lock"] {
+    for p in [
+        "src/reduction",
+        "src/present.rs",
+        "src/site_form.rs",
+        "wasm/src",
+        "wasm/Cargo.toml",
+        "wasm/Cargo.lock",
+    ] {
         println!("cargo:rerun-if-changed={}", root.join(p).display());
     }
     let cargo = std::env::var("CARGO").unwrap_or_else(|_| "cargo".into());
@@ -31,7 +38,10 @@ fn main() {
         .env_remove("RUSTC_WORKSPACE_WRAPPER")
         .status()
         .expect("running cargo for the site WebAssembly");
-    assert!(status.success(), "building wasm/ for {TARGET} failed (see above)");
+    assert!(
+        status.success(),
+        "building wasm/ for {TARGET} failed (see above)"
+    );
     let built = target_dir.join(TARGET).join("release/liftledger_site.wasm");
     std::fs::copy(&built, out.join("liftledger_site.wasm")).expect("copying the site WebAssembly");
 }

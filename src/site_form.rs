@@ -280,7 +280,6 @@ pub fn preview_view(v: &serde_json::Value, u: &Units) -> PreviewView {
     }
 }
 
-
 /// Adds the lot-range problem of a readable chainage, so every problem shows at once.
 pub fn lot_range_error(lot: &LotRules, u: &Units, form: &EntryForm, errors: &mut Errors) {
     if errors.contains_key("chainage") || form.chainage.trim().is_empty() {
@@ -295,7 +294,13 @@ pub fn lot_range_error(lot: &LotRules, u: &Units, form: &EntryForm, errors: &mut
 
 /// The message beside a form field for a refusal of the pure checks (a chainage off the
 /// lot in the project's style).
-pub fn refusal_words(lot: &LotRules, u: &Units, form: &EntryForm, field: &str, message: &str) -> String {
+pub fn refusal_words(
+    lot: &LotRules,
+    u: &Units,
+    form: &EntryForm,
+    field: &str,
+    message: &str,
+) -> String {
     if field == "chainage"
         && let Ok(ch) = Chainage::parse(form.chainage.trim(), u.chainage)
         && crate::reduction::site::chainage_in_lot(lot, ch.metres()).is_err()

@@ -285,9 +285,7 @@ pub fn preview_checked(
         .map_err(|e| SiteError::new("readings", e.to_string()))?;
     let v = judge_test(dry, w, &reference, &r.limits);
     let flags = plausibility::flags(&PlausibilityInput {
-        nuclear_probe_depth_mm: r
-            .layer_thickness_mm
-            .and(nuclear_probe_depth_mm(input, c)),
+        nuclear_probe_depth_mm: r.layer_thickness_mm.and(nuclear_probe_depth_mm(input, c)),
         layer_thickness_mm: r.layer_thickness_mm,
         dry_density_kg_m3: c.dry_density_kg_m3,
         water_content_pct: c.water_content_pct,

@@ -87,7 +87,11 @@ impl DemoApp {
     }
 
     /// Serves the database on a bound listener until the returned sender fires.
-    fn serve_on(listener: tokio::net::TcpListener, pool: db::Pool, demo: bool) -> oneshot::Sender<()> {
+    fn serve_on(
+        listener: tokio::net::TcpListener,
+        pool: db::Pool,
+        demo: bool,
+    ) -> oneshot::Sender<()> {
         let state = AppState::new(
             pool,
             Settings {

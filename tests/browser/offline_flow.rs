@@ -88,7 +88,10 @@ async fn wait_stored(rig: &Rig, lot_id: i64, want: i64, kept: u64) {
     let b = &rig.browser;
     b.wait_until("the queue to be sent", async || {
         let n = rig.app.lot_test_count(lot_id).await;
-        assert!(n <= want, "lot {lot_id} holds {n} tests, more than the {want} sent");
+        assert!(
+            n <= want,
+            "lot {lot_id} holds {n} tests, more than the {want} sent"
+        );
         (n == want && queue(b).await.0 == kept).then_some(())
     })
     .await;
@@ -163,7 +166,10 @@ async fn the_phone_answers_digit_for_digit_as_the_server() {
         )
         .await;
     let rc = first["values"]["relative_compaction_pct"].as_f64().unwrap();
-    assert!((rc - 99.0).abs() < 0.01, "RC {rc} for a test at 99 % of MDD");
+    assert!(
+        (rc - 99.0).abs() < 0.01,
+        "RC {rc} for a test at 99 % of MDD"
+    );
     let bad = b
         .script(
             "var el = document.getElementById('entry-form'); var site = JSON.parse(el.getAttribute('data-site'));
@@ -173,7 +179,10 @@ async fn the_phone_answers_digit_for_digit_as_the_server() {
         )
         .await;
     for field in ["chainage", "offset_m", "wet_density"] {
-        assert!(bad["errors"][field].is_string(), "{field} named offline: {bad}");
+        assert!(
+            bad["errors"][field].is_string(),
+            "{field} named offline: {bad}"
+        );
     }
     assert_eq!(
         rig.app.lot_test_count(lot_id).await,
@@ -194,7 +203,11 @@ async fn three_tests_entered_offline_are_stored_exactly_once_when_the_network_is
 
     network(b, false, 0).await;
     let note = b.find("#offline-note").await;
-    assert_eq!(note.prop("hidden").await, json!(false), "the page says it has no signal");
+    assert_eq!(
+        note.prop("hidden").await,
+        json!(false),
+        "the page says it has no signal"
+    );
     enter_offline(b, mid - 10.0, 0.99 * mdd, omc, "", "99.0 %").await;
     enter_offline(b, mid, 0.97 * mdd, omc, "", "97.0 %").await;
     enter_offline(b, mid + 10.0, 0.96 * mdd, omc, "OFF-0003", "96.0 %").await;
@@ -267,18 +280,21 @@ async fn a_refused_queued_test_stays_with_its_reason_and_a_signed_out_queue_wait
     let b = &rig.browser;
     let (lot_id, mid, mdd, omc) = open_entry(&rig).await;
     let before = rig.app.lot_test_count(lot_id).await;
-    let taken: String =
-        sqlx::query_scalar("SELECT number FROM field_tests WHERE project_id = $1 ORDER BY id LIMIT 1")
-            .bind(PROJECT)
-            .fetch_one(&rig.app.pool)
-            .await
-            .unwrap();
+    let taken: String = sqlx::query_scalar(
+        "SELECT number FROM field_tests WHERE project_id = $1 ORDER BY id LIMIT 1",
+    )
+    .bind(PROJECT)
+    .fetch_one(&rig.app.pool)
+    .await
+    .unwrap();
 
     network(b, false, 0).await;
     enter_offline(b, mid, 0.99 * mdd, omc, &taken, "99.0 %").await;
     enter_offline(b, mid + 5.0, 0.98 * mdd, omc, "", "98.0 %").await;
     // The session ends while the phone is offline (as a sign-out or an expiry would).
-    b.cmd(reqwest::Method::DELETE, "/cookie", None).await.unwrap();
+    b.cmd(reqwest::Method::DELETE, "/cookie", None)
+        .await
+        .unwrap();
     network(b, true, 0).await;
     b.wait_until("the phone to ask for a sign-in", async || {
         let s = b.find("#queue-status").await.text().await;
@@ -338,9 +354,15 @@ async fn the_navigation_wraps_the_map_fits_and_entry_targets_are_touch_sized_at_
     assert_eq!(fit["outside"], 0, "every menu link on screen: {fit}");
     assert_eq!(fit["short"], 0, "menu links are touch-sized (44 px): {fit}");
     assert!(fit["rows"].as_i64().unwrap() > 1, "the menu wraps: {fit}");
-    assert_eq!(fit["navScroll"], 0, "the menu does not scroll sideways: {fit}");
+    assert_eq!(
+        fit["navScroll"], 0,
+        "the menu does not scroll sideways: {fit}"
+    );
     assert_eq!(fit["mapScroll"], 0, "the lift map fits the width: {fit}");
-    assert!(fit["svgRight"].as_f64().unwrap() <= fit["w"].as_f64().unwrap(), "{fit}");
+    assert!(
+        fit["svgRight"].as_f64().unwrap() <= fit["w"].as_f64().unwrap(),
+        "{fit}"
+    );
     assert_eq!(pages::sideways_overflow(b).await, 0);
     rig.shot("1-map-360").await;
 

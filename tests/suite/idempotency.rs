@@ -32,7 +32,11 @@ async fn count(app: &TestApp, sql: &str) -> i64 {
 }
 
 async fn tests_in_lot(app: &TestApp, lot: i64) -> i64 {
-    count(app, &format!("SELECT COUNT(*) FROM field_tests WHERE lot_id = {lot}")).await
+    count(
+        app,
+        &format!("SELECT COUNT(*) FROM field_tests WHERE lot_id = {lot}"),
+    )
+    .await
 }
 
 #[tokio::test]
@@ -56,11 +60,18 @@ async fn a_repeated_key_answers_the_stored_test_and_stores_nothing_more() {
     }
     assert_eq!(tests_in_lot(&app, f.lot).await, 1);
     assert_eq!(
-        count(&app, "SELECT COUNT(*) FROM audit_log WHERE entity = 'field_test' AND action = 'create'").await,
+        count(
+            &app,
+            "SELECT COUNT(*) FROM audit_log WHERE entity = 'field_test' AND action = 'create'"
+        )
+        .await,
         1,
         "one audit row for one test"
     );
-    assert_eq!(count(&app, "SELECT COUNT(*) FROM idempotency_keys").await, 1);
+    assert_eq!(
+        count(&app, "SELECT COUNT(*) FROM idempotency_keys").await,
+        1
+    );
 
     // A new key is a new test.
     let (s, _, second) = post_keyed(&app, f.lot, "a1b2c3d4-0002", &body).await;
@@ -73,9 +84,21 @@ async fn a_repeated_key_answers_the_stored_test_and_stores_nothing_more() {
 async fn a_key_reused_for_another_test_or_malformed_is_refused_naming_the_header() {
     let app = spawn_app().await;
     let f = build_frame(&app, json!({"rule": "every_test"})).await;
-    let (s, _, _) = post_keyed(&app, f.lot, "k-1", &nuclear_test("T-1", 1020.0, 1950.0, 10.0)).await;
+    let (s, _, _) = post_keyed(
+        &app,
+        f.lot,
+        "k-1",
+        &nuclear_test("T-1", 1020.0, 1950.0, 10.0),
+    )
+    .await;
     assert_eq!(s, 201);
-    let (s, _, e) = post_keyed(&app, f.lot, "k-1", &nuclear_test("T-2", 1030.0, 1900.0, 9.0)).await;
+    let (s, _, e) = post_keyed(
+        &app,
+        f.lot,
+        "k-1",
+        &nuclear_test("T-2", 1030.0, 1900.0, 9.0),
+    )
+    .await;
     assert_eq!(s, 422, "{e}");
     assert_eq!(e["error"]["field"], "Idempotency-Key");
     let long = "k".repeat(256);
@@ -92,7 +115,11 @@ async fn a_key_reused_for_another_test_or_malformed_is_refused_naming_the_header
         let e: Value = r.json().await.unwrap();
         assert_eq!(e["error"]["field"], "Idempotency-Key", "key {bad:?}");
     }
-    assert_eq!(tests_in_lot(&app, f.lot).await, 1, "nothing more was written");
+    assert_eq!(
+        tests_in_lot(&app, f.lot).await,
+        1,
+        "nothing more was written"
+    );
 }
 
 #[tokio::test]
@@ -100,11 +127,26 @@ async fn a_refused_test_keeps_no_key_so_its_fixed_retry_is_judged_anew() {
     let app = spawn_app().await;
     let f = build_frame(&app, json!({"rule": "every_test"})).await;
     // Chainage 2000 m lies outside LOT-1 (1000–1100 m).
-    let (s, _, e) = post_keyed(&app, f.lot, "fix-me", &nuclear_test("T-9", 2000.0, 1950.0, 10.0)).await;
+    let (s, _, e) = post_keyed(
+        &app,
+        f.lot,
+        "fix-me",
+        &nuclear_test("T-9", 2000.0, 1950.0, 10.0),
+    )
+    .await;
     assert_eq!(s, 422, "{e}");
     assert_eq!(e["error"]["field"], "chainage_m");
-    assert_eq!(count(&app, "SELECT COUNT(*) FROM idempotency_keys").await, 0);
-    let (s, _, t) = post_keyed(&app, f.lot, "fix-me", &nuclear_test("T-9", 1050.0, 1950.0, 10.0)).await;
+    assert_eq!(
+        count(&app, "SELECT COUNT(*) FROM idempotency_keys").await,
+        0
+    );
+    let (s, _, t) = post_keyed(
+        &app,
+        f.lot,
+        "fix-me",
+        &nuclear_test("T-9", 1050.0, 1950.0, 10.0),
+    )
+    .await;
     assert_eq!(s, 201, "{t}");
     assert_eq!(tests_in_lot(&app, f.lot).await, 1);
 }
@@ -129,7 +171,11 @@ async fn parallel_sends_of_one_key_store_one_test() {
                 .await
                 .expect("POST");
             let s = r.status().as_u16();
-            (s, String::new(), r.json::<Value>().await.unwrap_or(Value::Null))
+            (
+                s,
+                String::new(),
+                r.json::<Value>().await.unwrap_or(Value::Null),
+            )
         });
     }
     let answers = tasks.join_all().await;

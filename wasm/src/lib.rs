@@ -77,7 +77,11 @@ pub unsafe extern "C" fn site_answer(ptr: *mut u8, len: usize) -> *mut u8 {
     let bytes = unsafe { Vec::from_raw_parts(ptr, len, len.max(1)) };
     let answer = answer_json(&String::from_utf8_lossy(&bytes));
     let mut out = Vec::with_capacity(answer.len() + 4);
-    out.extend_from_slice(&u32::try_from(answer.len()).unwrap_or(u32::MAX).to_le_bytes());
+    out.extend_from_slice(
+        &u32::try_from(answer.len())
+            .unwrap_or(u32::MAX)
+            .to_le_bytes(),
+    );
     out.extend_from_slice(answer.as_bytes());
     out.shrink_to_fit();
     let p = out.as_mut_ptr();

@@ -289,7 +289,9 @@ async fn live_preview(
     }
     // The checks that need the server (test number, time, text lengths).
     let input = parse_entry(&form, &u, form.action == "retest").map_err(|_| {
-        AppError::Internal(anyhow::anyhow!("a form the preview accepted failed to parse"))
+        AppError::Internal(anyhow::anyhow!(
+            "a form the preview accepted failed to parse"
+        ))
     })?;
     match ledger::field::preview(&s.db, id, &input, &a).await {
         Ok(_) => Ok(Json(answer)),

@@ -34,20 +34,29 @@ async fn manifest() -> impl IntoResponse {
 
 async fn worker() -> impl IntoResponse {
     (
-        [(header::CONTENT_TYPE, "text/javascript; charset=utf-8"), CACHE],
+        [
+            (header::CONTENT_TYPE, "text/javascript; charset=utf-8"),
+            CACHE,
+        ],
         include_str!("../../../static/sw.js"),
     )
 }
 
 async fn script() -> impl IntoResponse {
     (
-        [(header::CONTENT_TYPE, "text/javascript; charset=utf-8"), CACHE],
+        [
+            (header::CONTENT_TYPE, "text/javascript; charset=utf-8"),
+            CACHE,
+        ],
         include_str!("../../../static/site.js"),
     )
 }
 
 async fn library() -> impl IntoResponse {
-    ([(header::CONTENT_TYPE, "application/wasm"), CACHE], SITE_WASM)
+    (
+        [(header::CONTENT_TYPE, "application/wasm"), CACHE],
+        SITE_WASM,
+    )
 }
 
 async fn icon() -> impl IntoResponse {
