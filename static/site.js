@@ -151,9 +151,14 @@
     if (cls) e.className = cls;
     return e;
   }
+  var shown = null;
   function render(items) {
     var box = document.getElementById("site-queue");
     if (!box) return;
+    // Redraw only when something changed, so a button is never swapped under a finger.
+    var now = JSON.stringify([items, status]);
+    if (now === shown) return;
+    shown = now;
     var list = document.getElementById("queue-list");
     box.hidden = items.length === 0 && !status;
     document.getElementById("queue-status").textContent =

@@ -131,6 +131,11 @@ async fn the_phone_answers_digit_for_digit_as_the_server() {
     forms.push(sand);
     // Far above zero air voids (the confirmation the server asks for).
     forms.push(good(1.25 * mdd, omc + 4.0));
+    // The same, confirmed: previewed with its plausibility flags.
+    let mut confirmed = good(1.25 * mdd, omc + 4.0);
+    confirmed["confirm_implausible"] = json!("on");
+    forms.push(confirmed);
+    let mut flagged = 0;
 
     for form in &forms {
         let both = b
@@ -155,7 +160,14 @@ async fn the_phone_answers_digit_for_digit_as_the_server() {
             "the phone's answer must be the server's, digit for digit, for {form}"
         );
         assert_eq!(server, phone);
+        if phone["values"]["flags"]
+            .as_array()
+            .is_some_and(|f| !f.is_empty())
+        {
+            flagged += 1;
+        }
     }
+    assert!(flagged > 0, "a plausibility flag was compared too");
     // The first form was built for 99 % of the lot's MDD (the test's own arithmetic).
     let first = b
         .script(
@@ -307,14 +319,26 @@ async fn a_refused_queued_test_stays_with_its_reason_and_a_signed_out_queue_wait
     rig.sign_in(b).await;
     wait_stored(&rig, lot_id, before + 1, 1).await;
     rig.open(&format!("/lots/{lot_id}/entry")).await;
-    let item = b.wait_for("#queue-list li.refused").await;
-    let reason = item.find(".reason").await.text().await;
+    let reason = b
+        .wait_until("the refused test with its reason", async || {
+            let r = b
+                .script(
+                    "var e = document.querySelector('#queue-list li.refused .reason'); return e ? e.textContent : null;",
+                    vec![],
+                )
+                .await;
+            r.as_str().map(str::to_string)
+        })
+        .await;
     assert!(
         reason.contains(&taken) && reason.contains("already used"),
         "the server's reason is shown: {reason}"
     );
     rig.shot_at("1-refused", "#site-queue").await;
-    item.find("button.fix").await.click().await;
+    b.find("#queue-list li.refused button.fix")
+        .await
+        .click()
+        .await;
     b.wait_until("the refused test back in the form", async || {
         let n = b.find("#number").await.prop("value").await;
         (n == json!(taken)).then_some(())
