@@ -15,6 +15,17 @@
   if ("serviceWorker" in navigator) {
     navigator.serviceWorker.register("/sw.js").catch(function () { /* no worker: online only */ });
   }
+  // The lot picked for the day: keep this entry page (with its lot's rules) for offline use
+  // now, not only from the next visit the worker sees.
+  site.kept = function () {
+    return window.caches ? caches.match(location.pathname) : Promise.resolve(undefined);
+  };
+  function keepThisPage() {
+    if (!window.caches || !navigator.serviceWorker || !navigator.onLine) return;
+    navigator.serviceWorker.ready.then(function () {
+      return caches.open("liftledger-site-v1").then(function (c) { return c.add(location.pathname); });
+    }).catch(function () {});
+  }
 
   // --- The reduction library -------------------------------------------------------
   var wasm = null;
@@ -209,7 +220,10 @@
   window.addEventListener("online", function () { site.sync(); });
   document.addEventListener("DOMContentLoaded", function () {
     // Load the library while there is signal, so the preview works when there is none.
-    if (document.getElementById("entry-form")) library().catch(function () {});
+    if (document.getElementById("entry-form")) {
+      library().catch(function () {});
+      keepThisPage();
+    }
     site.changed();
     site.sync();
   });

@@ -111,6 +111,13 @@ impl DemoApp {
         tx
     }
 
+    /// Stops the server (letting requests in flight finish); `restart` starts it again.
+    pub fn stop_server(&mut self) {
+        if let Some(s) = self.stop.take() {
+            let _ = s.send(());
+        }
+    }
+
     /// Stops the server (letting requests in flight finish) and starts it again on the
     /// same address and database, as a restart of the process would.
     pub async fn restart(&mut self) {

@@ -414,3 +414,36 @@ async fn the_navigation_wraps_the_map_fits_and_entry_targets_are_touch_sized_at_
     assert_eq!(pages::sideways_overflow(b).await, 0);
     rig.finish().await;
 }
+
+#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+async fn the_kept_entry_page_opens_and_previews_with_no_server_at_all() {
+    let Some(mut rig) = Rig::start("offline-page").await else {
+        return;
+    };
+    let (lot_id, mid, mdd, omc) = open_entry(&rig).await;
+    let before = rig.app.lot_test_count(lot_id).await;
+    let b = &rig.browser;
+    b.wait_until("the entry page to be kept on the phone", async || {
+        let kept = b
+            .script(
+                "return window.liftSite.kept().then(function (r) { return !!r; });",
+                vec![],
+            )
+            .await;
+        (kept == json!(true)).then_some(())
+    })
+    .await;
+    // No signal and no server: the page, its script and the library come from the phone.
+    rig.app.stop_server();
+    network(b, false, 0).await;
+    rig.open(&format!("/lots/{lot_id}/entry")).await;
+    b.wait_for("#entry-form").await;
+    enter_offline(b, mid, 0.98 * mdd, omc, "", "98.0 %").await;
+    assert_eq!(queue(b).await, (1, 0));
+    rig.shot_at("1-offline-page", "#entry-form").await;
+
+    rig.app.restart().await;
+    network(b, true, 0).await;
+    wait_stored(&rig, lot_id, before + 1, 0).await;
+    rig.finish().await;
+}
