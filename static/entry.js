@@ -25,7 +25,20 @@
     });
   }
   function offline() { return !navigator.onLine; }
-  function showNote() { if (note) note.hidden = navigator.onLine; }
+  // A page kept on the phone shows the time it was served: a test taken later without
+  // signal gets the phone's clock (UTC) unless the technician typed a time.
+  var taken = form.elements.tested_at;
+  var servedAt = taken ? taken.value : "";
+  function freshTime() {
+    if (taken && (taken.value === servedAt || taken.value === "")) {
+      servedAt = new Date().toISOString().slice(0, 16);
+      taken.value = servedAt;
+    }
+  }
+  function showNote() {
+    if (note) note.hidden = navigator.onLine;
+    if (offline()) freshTime();
+  }
 
   function showMethod() {
     var m = method.value;
@@ -128,6 +141,7 @@
         ["number", "wet_density", "moisture_density", "gauge_water_content_pct", "oven_water_content_pct",
          "mass_sand_used_g", "mass_sand_in_cone_g", "hole_volume_cm3", "cylinder_volume_cm3", "mass_wet_soil_g",
          "water_content_pct", "chainage"].forEach(function (k) { if (form.elements[k]) form.elements[k].value = ""; });
+        freshTime();
       });
     });
   });
