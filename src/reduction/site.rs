@@ -321,3 +321,110 @@ pub fn preview(
     }
     preview_checked(r, input, &c)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::reduction::rounding::{Rounding, RoundingMethod};
+
+    /// An invented lot: 1000–1100 m, ±5 m, MDD 2000 kg/m³ at 10 % (round numbers so the
+    /// expected values are worked by hand).
+    fn lot() -> LotRules {
+        LotRules {
+            lot_id: 1,
+            lot_code: "L-1".into(),
+            chainage_from_m: 1000.0,
+            chainage_to_m: 1100.0,
+            offset_left_m: -5.0,
+            offset_right_m: 5.0,
+            layer_thickness_mm: Some(150.0),
+            clause_code: "C1".into(),
+            limits: SpecLimits {
+                rc_min_pct: 95.0,
+                moisture_below_pct: 2.0,
+                moisture_above_pct: 2.0,
+                rounding: Rounding {
+                    method: RoundingMethod::AstmE29,
+                    decimals: 1,
+                },
+            },
+            rc_plausible_max_pct: 103.0,
+            oversize_limit_pct: 40.0,
+            oversize_sieve_mm: 4.75,
+            coarse_water_default_pct: None,
+            source_code: "S1".into(),
+            gs_coarse: None,
+            specific_gravity: 2.70,
+            max_dry_density_kg_m3: 2000.0,
+            optimum_water_content_pct: 10.0,
+        }
+    }
+
+    /// A nuclear test: wet 2090, moisture 190 → dry 1900 kg/m³, w = 10 % (worked by hand).
+    fn input(chainage_m: f64, offset_m: f64, depth_mm: f64) -> FieldTestInput {
+        FieldTestInput {
+            number: None,
+            tested_at: None,
+            technician: "A".into(),
+            instrument_serial: String::new(),
+            chainage_m: Some(chainage_m),
+            offset_m: Some(offset_m),
+            depth_mm: Some(depth_mm),
+            coarse_pct: None,
+            coarse_water_content_pct: None,
+            easting: None,
+            northing: None,
+            readings: FieldReadings::Nuclear {
+                wet_density_kg_m3: 2090.0,
+                moisture_density_kg_m3: Some(190.0),
+                water_content_pct: None,
+                oven_water_content_pct: None,
+                gauge_serial: None,
+                probe_depth_mm: None,
+            },
+            confirm_implausible: false,
+        }
+    }
+
+    #[test]
+    fn a_test_on_the_lot_is_reduced_judged_and_flagged() {
+        let p = preview(&lot(), &input(1050.0, 1.0, 200.0), None).unwrap();
+        // ρd = 2090 − 190 = 1900 kg/m³; RC = 1900 / 2000 = 95.0 % (hand arithmetic).
+        assert!((p.dry_density_kg_m3 - 1900.0).abs() < 1e-9);
+        assert!((p.relative_compaction_pct - 95.0).abs() < 1e-9);
+        assert!(p.passed, "{p:?}");
+        // A 200 mm probe in a 150 mm layer is flagged.
+        assert!(
+            p.flags.iter().any(|f| f.code == "probe_deeper_than_layer"),
+            "{p:?}"
+        );
+    }
+
+    #[test]
+    fn refusals_name_the_field_in_the_servers_order() {
+        let r = lot();
+        let e = preview(&r, &input(2000.0, 9.0, 100.0), None).unwrap_err();
+        assert_eq!(e.field, "chainage_m", "chainage before offset: {e:?}");
+        let e = preview(&r, &input(1050.0, 9.0, 100.0), None).unwrap_err();
+        assert_eq!(e.field, "offset_m");
+        let e = preview(&r, &input(1050.0, 0.0, 1500.0), None).unwrap_err();
+        assert_eq!(e.field, "depth_mm");
+        let mut coarse = input(1050.0, 0.0, 100.0);
+        coarse.coarse_pct = Some(20.0);
+        let e = preview(&r, &coarse, None).unwrap_err();
+        assert_eq!(e.field, "coarse_pct", "no coarse Gs on the source: {e:?}");
+    }
+
+    #[test]
+    fn a_retest_falls_back_on_the_failed_tests_spot() {
+        let mut i = input(0.0, 0.0, 100.0);
+        i.chainage_m = None;
+        i.offset_m = None;
+        let c = check_entry(&lot(), &i, Some((1020.0, -2.0))).unwrap();
+        assert_eq!((c.chainage_m, c.offset_m), (1020.0, -2.0));
+        assert_eq!(
+            check_entry(&lot(), &i, None).unwrap_err().field,
+            "chainage_m"
+        );
+    }
+}
