@@ -121,12 +121,21 @@
 
   // Without signal, Check previews on the phone and Save keeps the test for sending.
   form.addEventListener("submit", function (ev) {
-    if (!offline() || !window.liftSite || !site.post_url || form.getAttribute("data-retest") === "yes") return;
+    if (!offline() || !window.liftSite || !site.rules) return;
     ev.preventDefault();
     var action = ev.submitter ? ev.submitter.value : "check";
+    var retest = form.getAttribute("data-retest") === "yes";
     offlineAnswer().then(function (data) {
       render(data);
       if (action !== "save" || Object.keys(data.errors || {}).length) return;
+      if (retest) {
+        // A retest is judged against its failed test's chain on the server: it needs signal.
+        var wait = document.createElement("p");
+        wait.className = "offline-note";
+        wait.textContent = "A retest is saved with signal only: nothing was kept. Save it again when the phone is online.";
+        box.appendChild(wait);
+        return;
+      }
       var kept = formObject();
       return window.liftSite.enqueue({
         lot_id: site.rules.lot_id, lot_code: site.lot_code, post_url: site.post_url,
