@@ -20,6 +20,7 @@ pub mod pdf;
 pub mod present;
 pub mod reduction;
 pub mod scale;
+pub mod site_form;
 pub mod transfer;
 
 use tokio::net::TcpListener;

@@ -11,7 +11,8 @@ pub struct Units {
 }
 
 impl Units {
-    /// The display settings of a stored project.
+    /// The display settings of a stored project (not in the WebAssembly build, which has no store).
+    #[cfg(not(target_arch = "wasm32"))]
     pub fn of(project: &crate::db::projects::Project) -> Self {
         Self {
             system: UnitSystem::parse_code(&project.unit_system).unwrap_or(UnitSystem::Si),

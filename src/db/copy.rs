@@ -8,7 +8,7 @@ use sqlx::{Column, Row, ValueRef};
 use super::{Engine, Pool, engine_of};
 
 /// Every table, parents before children, so foreign keys hold at each insert.
-pub const TABLES: [&str; 18] = [
+pub const TABLES: [&str; 19] = [
     "projects",
     "users",
     "clauses",
@@ -27,6 +27,7 @@ pub const TABLES: [&str; 18] = [
     "sign_in_failures",
     "import_mappings",
     "moulds",
+    "idempotency_keys",
 ];
 
 /// What a copy moved and checked.

@@ -13,6 +13,7 @@ pub mod clauses;
 pub mod copy;
 pub mod field_tests;
 pub mod health;
+pub mod idempotency;
 pub mod lab_tests;
 pub mod layers;
 pub mod lots;

@@ -27,8 +27,9 @@ use crate::error::AppError;
 /// Largest request body accepted (an uploaded certificate PDF or a form).
 pub const MAX_BODY_BYTES: usize = 8 * 1024 * 1024;
 
-/// Content-Security-Policy: scripts and styles only from this server, no inline script, no framing.
-pub const CSP: &str = "default-src 'self'; script-src 'self'; style-src 'self'; img-src 'self' data:; \
+/// Content-Security-Policy: scripts and styles only from this server, no inline script, no framing;
+/// `'wasm-unsafe-eval'` lets the site app compile its WebAssembly (and allows no `eval`).
+pub const CSP: &str = "default-src 'self'; script-src 'self' 'wasm-unsafe-eval'; style-src 'self'; img-src 'self' data:; \
      object-src 'none'; base-uri 'none'; form-action 'self'; frame-ancestors 'none'";
 
 /// The whole application router with its middleware.

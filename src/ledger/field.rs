@@ -1,6 +1,5 @@
 //! Recording field density tests, voiding them and recording retests.
 
-use serde::Deserialize;
 use serde_json::json;
 
 use super::Actor;
@@ -12,29 +11,8 @@ use crate::error::{AppError, Result};
 use crate::reduction::verdict::{Reference, TestVerdict};
 use crate::reduction::{self, field::FieldReadings};
 
-/// Body of a new field test (also of a retest, whose location defaults to the failed test's).
-#[derive(Debug, Clone, Deserialize)]
-#[serde(deny_unknown_fields)]
-pub struct FieldTestInput {
-    /// Test number, unique in the project; generated when absent.
-    pub number: Option<String>,
-    /// When the test was taken (RFC 3339); now when absent.
-    pub tested_at: Option<String>,
-    pub technician: String,
-    #[serde(default)]
-    pub instrument_serial: String,
-    pub chainage_m: Option<f64>,
-    pub offset_m: Option<f64>,
-    pub depth_mm: Option<f64>,
-    pub coarse_pct: Option<f64>,
-    pub coarse_water_content_pct: Option<f64>,
-    pub easting: Option<f64>,
-    pub northing: Option<f64>,
-    pub readings: FieldReadings,
-    /// The technician confirms a reading far above zero air voids (refused otherwise).
-    #[serde(default)]
-    pub confirm_implausible: bool,
-}
+pub use crate::reduction::site::FieldTestInput;
+use crate::reduction::site::{LotRules, SiteError};
 
 /// A test checked and reduced, ready to store.
 pub struct CheckedTest {
@@ -53,6 +31,9 @@ pub struct LotContext {
     pub lab: db::lab_tests::LabTest,
     /// The lab curve's MDD and OMC (before any oversize correction).
     pub reference: Reference,
+    /// The same rules as one pure bundle: what `reduction::site` checks against, here and
+    /// on the phone.
+    pub rules: LotRules,
 }
 
 impl LotContext {
@@ -64,7 +45,9 @@ impl LotContext {
         lab: db::lab_tests::LabTest,
     ) -> Result<Self> {
         let reference = lot_report::reference_of(&lab)?;
+        let rules = rules_of(&lot, &clause, &source, &lab);
         Ok(Self {
+            rules,
             lot,
             clause,
             source,
@@ -107,45 +90,43 @@ impl LotContext {
         coarse_pct: Option<f64>,
         coarse_w_pct: Option<f64>,
     ) -> Result<Reference> {
-        let Some(coarse) = coarse_pct.filter(|c| *c > 0.0) else {
-            return Ok(self.reference);
-        };
-        let Some(gs_coarse) = self.source.gs_coarse else {
-            return Err(AppError::invalid(
-                "coarse_pct",
-                format!(
-                    "source {} has no coarse-fraction specific gravity to correct with",
-                    self.source.code
-                ),
-            ));
-        };
-        let coarse_w = coarse_w_pct
-            .or(self.clause.coarse_water_default_pct)
-            .ok_or_else(|| {
-                AppError::invalid(
-                    "coarse_water_content_pct",
-                    format!(
-                        "is required with a coarse fraction: clause {} assumes no coarse water content",
-                        self.clause.code
-                    ),
-                )
-            })?;
-        reduction::verdict::reference_for_coarse_fraction(
-            &self.reference,
-            coarse,
-            gs_coarse,
-            coarse_w,
-            self.clause.oversize_limit_pct,
-        )
-        .map_err(|e| {
-            AppError::invalid(
-                "coarse_pct",
-                format!(
-                    "{e} (oversize retained on the {} mm sieve)",
-                    self.clause.oversize_sieve_mm
-                ),
-            )
-        })
+        self.rules
+            .reference_for(coarse_pct, coarse_w_pct)
+            .map_err(site_error)
+    }
+}
+
+/// A pure check's refusal as the service's error (422 naming the field).
+pub fn site_error(e: SiteError) -> AppError {
+    AppError::invalid(e.field, e.message)
+}
+
+/// The bundle of rules a lot's tests are checked against, from its stored rows.
+pub fn rules_of(
+    lot: &db::lots::Lot,
+    clause: &db::clauses::Clause,
+    source: &db::sources::Source,
+    lab: &db::lab_tests::LabTest,
+) -> LotRules {
+    LotRules {
+        lot_id: lot.id,
+        lot_code: lot.code.clone(),
+        chainage_from_m: lot.chainage_from_m,
+        chainage_to_m: lot.chainage_to_m,
+        offset_left_m: lot.offset_left_m,
+        offset_right_m: lot.offset_right_m,
+        layer_thickness_mm: lot.layer_thickness_mm,
+        clause_code: clause.code.clone(),
+        limits: lot_report::limits_of(clause),
+        rc_plausible_max_pct: clause.rc_plausible_max_pct,
+        oversize_limit_pct: clause.oversize_limit_pct,
+        oversize_sieve_mm: clause.oversize_sieve_mm,
+        coarse_water_default_pct: clause.coarse_water_default_pct,
+        source_code: source.code.clone(),
+        gs_coarse: source.gs_coarse,
+        specific_gravity: lab.specific_gravity,
+        max_dry_density_kg_m3: lab.max_dry_density_kg_m3,
+        optimum_water_content_pct: lab.optimum_water_content_pct,
     }
 }
 
@@ -236,76 +217,28 @@ pub fn check_loaded(
     actor: &Actor,
     now: &str,
 ) -> Result<CheckedTest> {
-    let checked = check_record(
-        &ctx.lot,
+    let entry = reduction::site::check_entry(
+        &ctx.rules,
         input,
-        fallback,
-        actor,
-        now,
-        &|coarse, coarse_w| ctx.reference_for(coarse, coarse_w).map(|_| ()),
-    )?;
-    if !input.confirm_implausible
-        && let Ok(gs) = reduction::SpecificGravity::new(ctx.lab.specific_gravity)
-        && let Some(reason) = reduction::plausibility::refusal_without_confirmation(
-            gs,
-            checked.record.water_content_pct,
-            checked.record.dry_density_kg_m3,
-        )
-    {
-        return Err(AppError::invalid("confirm_implausible", reason));
+        fallback.map(|s| (s.chainage_m, s.offset_m)),
+    )
+    .map_err(site_error)?;
+    let checked = check_record(&ctx.lot, input, &entry, actor, now)?;
+    if let Some(refusal) = reduction::site::implausible_refusal(&ctx.rules, input, &entry) {
+        return Err(site_error(refusal));
     }
     Ok(checked)
 }
 
-/// The rules of [`check_loaded`], with the oversize check (which needs the lot's clause,
-/// source and lab curve, and is only reached for a coarse fraction above zero) passed in.
+/// The rules of [`check_loaded`] beyond the pure ones of `reduction::site::check_entry`
+/// (codes, times, texts), and the record to store.
 fn check_record(
     lot: &db::lots::Lot,
     input: &FieldTestInput,
-    fallback: Option<Spot>,
+    entry: &reduction::site::CheckedEntry,
     actor: &Actor,
     now: &str,
-    oversize: &dyn Fn(Option<f64>, Option<f64>) -> Result<()>,
 ) -> Result<CheckedTest> {
-    let reduced = reduction::field::reduce_field(&input.readings)
-        .map_err(|e| AppError::invalid(format!("readings.{}", e.field()), e.to_string()))?;
-    let chainage_m = input
-        .chainage_m
-        .or(fallback.map(|s| s.chainage_m))
-        .ok_or_else(|| AppError::invalid("chainage_m", "is required"))?;
-    let chainage = quantity("chainage_m", reduction::Chainage::new(chainage_m))?;
-    chainage_in_lot(lot, chainage.metres()).map_err(|m| AppError::invalid("chainage_m", m))?;
-    let offset_m = input
-        .offset_m
-        .or(fallback.map(|s| s.offset_m))
-        .unwrap_or(0.0);
-    let offset = quantity("offset_m", reduction::Offset::new(offset_m))?;
-    if offset.metres() < lot.offset_left_m - 0.01 || offset.metres() > lot.offset_right_m + 0.01 {
-        return Err(AppError::invalid(
-            "offset_m",
-            format!(
-                "{:.2} m is outside the lot's offset band {:.2} to {:.2} m",
-                offset.metres(),
-                lot.offset_left_m,
-                lot.offset_right_m
-            ),
-        ));
-    }
-    let depth = input
-        .depth_mm
-        .map(|d| number("depth_mm", d, 0.0, 1000.0, "mm"))
-        .transpose()?;
-    let coarse = input
-        .coarse_pct
-        .map(|c| number("coarse_pct", c, 0.0, 100.0, "%"))
-        .transpose()?;
-    let coarse_w = input
-        .coarse_water_content_pct
-        .map(|c| number("coarse_water_content_pct", c, 0.0, 20.0, "%"))
-        .transpose()?;
-    if coarse.is_some_and(|c| c > 0.0) {
-        oversize(coarse, coarse_w)?;
-    }
     let easting = input
         .easting
         .map(|v| number("easting", v, -1.0e8, 1.0e8, "m"))
@@ -344,18 +277,18 @@ fn check_record(
         technician: text("technician", &input.technician, 80)?,
         method: input.readings.method_code().to_string(),
         instrument_serial: optional_text("instrument_serial", &instrument, 40)?,
-        chainage_m: chainage.metres(),
-        offset_m: offset.metres(),
-        depth_mm: depth,
-        coarse_pct: coarse,
-        coarse_water_content_pct: coarse_w,
+        chainage_m: entry.chainage_m,
+        offset_m: entry.offset_m,
+        depth_mm: entry.depth_mm,
+        coarse_pct: entry.coarse_pct,
+        coarse_water_content_pct: entry.coarse_water_content_pct,
         easting,
         northing,
         readings_json: serde_json::to_string(&input.readings).map_err(anyhow::Error::from)?,
-        wet_density_kg_m3: reduced.wet_density.kg_m3(),
-        water_content_pct: reduced.water_content.pct(),
-        dry_density_kg_m3: reduced.dry_density.kg_m3(),
-        moisture_source: reduced.moisture_source.to_string(),
+        wet_density_kg_m3: entry.wet_density_kg_m3,
+        water_content_pct: entry.water_content_pct,
+        dry_density_kg_m3: entry.dry_density_kg_m3,
+        moisture_source: entry.moisture_source.to_string(),
         reduction_version: reduction::REDUCTION_VERSION.to_string(),
         retest_of: None,
         void_reason: None,
@@ -728,41 +661,8 @@ pub async fn preview(
 ) -> Result<serde_json::Value> {
     let lot = require_lot(pool, lot_id).await?;
     let ctx = LotContext::load(pool, &lot).await?;
-    let checked = check_loaded(&ctx, input, None, actor, &clock::now())?;
-    let r = &checked.record;
-    let reference = ctx.reference_for(r.coarse_pct, r.coarse_water_content_pct)?;
-    let v = judge(&ctx, r)?;
-    let flags = lot_report::flags_of(
-        r,
-        &ctx.lot,
-        &ctx.lab,
-        &ctx.clause,
-        Some(v.relative_compaction_pct),
-    );
-    Ok(json!({
-        "flags": flags,
-        "wet_density_kg_m3": r.wet_density_kg_m3,
-        "water_content_pct": r.water_content_pct,
-        "dry_density_kg_m3": r.dry_density_kg_m3,
-        "moisture_source": r.moisture_source,
-        "reference_mdd_kg_m3": reference.max_dry_density.kg_m3(),
-        "reference_omc_pct": reference.optimum_water_content.pct(),
-        "relative_compaction_pct": v.relative_compaction_pct,
-        "moisture_deviation_pct": v.moisture_deviation_pct,
-        "passed": v.passed,
-        "reasons": v.reasons,
-        "saved": false,
-    }))
-}
-
-/// Whether a chainage lies on a lot; a small tolerance at the ends lets a test on the
-/// boundary chainage belong to either lot. The message names the lot and its range.
-pub fn chainage_in_lot(lot: &db::lots::Lot, metres: f64) -> std::result::Result<(), String> {
-    if metres < lot.chainage_from_m - 0.5 || metres > lot.chainage_to_m + 0.5 {
-        return Err(format!(
-            "{:.3} m is outside lot {} ({:.3}–{:.3} m)",
-            metres, lot.code, lot.chainage_from_m, lot.chainage_to_m
-        ));
-    }
-    Ok(())
+    // The record's own checks first; the preview itself is the pure one the phone runs too.
+    check_loaded(&ctx, input, None, actor, &clock::now())?;
+    let p = reduction::site::preview(&ctx.rules, input, None).map_err(site_error)?;
+    Ok(serde_json::to_value(p).map_err(anyhow::Error::from)?)
 }

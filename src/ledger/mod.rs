@@ -8,6 +8,7 @@
 pub mod accounts;
 pub mod certificate_doc;
 pub mod field;
+pub mod idempotent;
 pub mod import;
 pub mod lot_report;
 pub mod lot_split;

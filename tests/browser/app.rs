@@ -74,8 +74,26 @@ impl DemoApp {
             .await
             .expect("bind");
         let addr = listener.local_addr().expect("addr");
+        let tx = Self::serve_on(listener, pool.clone(), demo);
+        (
+            DemoApp {
+                addr,
+                pool,
+                _dir: dir,
+                stop: Some(tx),
+            },
+            password,
+        )
+    }
+
+    /// Serves the database on a bound listener until the returned sender fires.
+    fn serve_on(
+        listener: tokio::net::TcpListener,
+        pool: db::Pool,
+        demo: bool,
+    ) -> oneshot::Sender<()> {
         let state = AppState::new(
-            pool.clone(),
+            pool,
             Settings {
                 demo,
                 secure_cookies: false,
@@ -90,15 +108,35 @@ impl DemoApp {
             .await
             .expect("server failed");
         });
-        (
-            DemoApp {
-                addr,
-                pool,
-                _dir: dir,
-                stop: Some(tx),
-            },
-            password,
-        )
+        tx
+    }
+
+    /// Stops the server (letting requests in flight finish); `restart` starts it again.
+    pub fn stop_server(&mut self) {
+        if let Some(s) = self.stop.take() {
+            let _ = s.send(());
+        }
+    }
+
+    /// Stops the server (letting requests in flight finish) and starts it again on the
+    /// same address and database, as a restart of the process would.
+    pub async fn restart(&mut self) {
+        if let Some(s) = self.stop.take() {
+            let _ = s.send(());
+        }
+        let mut tries = 0;
+        let listener = loop {
+            match tokio::net::TcpListener::bind(self.addr).await {
+                Ok(l) => break l,
+                Err(e) if tries < 100 => {
+                    tries += 1;
+                    let _ = e;
+                    tokio::time::sleep(std::time::Duration::from_millis(50)).await;
+                }
+                Err(e) => panic!("rebinding {}: {e}", self.addr),
+            }
+        };
+        self.stop = Some(Self::serve_on(listener, self.pool.clone(), true));
     }
 
     /// Full URL of a path on this server.

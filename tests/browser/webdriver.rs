@@ -400,6 +400,16 @@ impl Session {
         .await
     }
 
+    /// Runs a Chrome DevTools Protocol command on the page (network emulation and the like).
+    pub async fn cdp(&self, cmd: &str, params: Value) -> Value {
+        self.must(
+            reqwest::Method::POST,
+            "/goog/cdp/execute",
+            Some(json!({"cmd": cmd, "params": params})),
+        )
+        .await
+    }
+
     /// The visible part of the page as PNG bytes.
     pub async fn screenshot(&self) -> Vec<u8> {
         let v = self.must(reqwest::Method::GET, "/screenshot", None).await;

@@ -1,7 +1,7 @@
 //! Field tests: entry, preview, listing, voiding and retests.
 
 use axum::extract::State;
-use axum::http::StatusCode;
+use axum::http::{HeaderMap, HeaderValue, StatusCode};
 use axum::routing::{get, post};
 use axum::{Json, Router};
 use serde::Deserialize;
@@ -92,14 +92,44 @@ async fn create(
     State(s): State<AppState>,
     ApiPath(id): ApiPath<i64>,
     caller: Caller,
+    headers: axum::http::HeaderMap,
     ApiJson(input): ApiJson<FieldTestInput>,
-) -> Result<(StatusCode, Json<Value>)> {
+) -> Result<(StatusCode, HeaderMap, Json<Value>)> {
     let actor = require(&s.db, &caller, Scope::Lot(id), Action::EnterTests).await?;
+
+    if let Some(raw) = headers.get(ledger::idempotent::HEADER) {
+        let key = ledger::idempotent::check_key(raw.to_str().unwrap_or(""))?;
+        return create_once(&s, id, &input, &actor, &key).await;
+    }
 
     let (t, line) =
         ledger::field::record_judged(&s.db, s.writer.as_ref(), &s.rules, id, &input, &actor)
             .await?;
-    Ok((StatusCode::CREATED, Json(test_json(&t, Some(&line)))))
+    Ok((
+        StatusCode::CREATED,
+        HeaderMap::new(),
+        Json(test_json(&t, Some(&line))),
+    ))
+}
+
+/// A POST with an `Idempotency-Key`: 201 with the new test, or 200 with the test the key
+/// made before (marked `Idempotent-Replayed: true`).
+async fn create_once(
+    s: &AppState,
+    lot_id: i64,
+    input: &FieldTestInput,
+    actor: &ledger::Actor,
+    key: &str,
+) -> Result<(StatusCode, HeaderMap, Json<Value>)> {
+    use ledger::idempotent::Keyed;
+    let keyed = ledger::idempotent::record_once(&s.db, &s.rules, lot_id, input, actor, key).await?;
+    let (status, t, replayed) = match keyed {
+        Keyed::Created(t) => (StatusCode::CREATED, t, "false"),
+        Keyed::Replayed(t) => (StatusCode::OK, t, "true"),
+    };
+    let mut headers = HeaderMap::new();
+    headers.insert("idempotent-replayed", HeaderValue::from_static(replayed));
+    Ok((status, headers, Json(with_own_line(s, &t).await?)))
 }
 
 async fn preview(

@@ -164,7 +164,7 @@ pub const OPERATIONS: &[Operation] = &[
     op(
         "post",
         "/api/v1/lots/{id}/field-tests",
-        "Record a field test",
+        "Record a field test (with an Idempotency-Key header: stored once per key, a repeat answers 200 with the stored test)",
         Some("FieldTestInput"),
     ),
     op(

@@ -15,6 +15,7 @@ pub mod map;
 mod review;
 pub mod session;
 mod setup;
+mod site_app;
 mod test_page;
 mod tests_list;
 
@@ -34,6 +35,7 @@ pub fn router() -> Router<AppState> {
         .route("/static/entry.js", get(entry_js))
         .route("/static/import.js", get(import_js))
         .route("/static/setup.js", get(setup_js))
+        .merge(site_app::router())
         .merge(home::router())
         .merge(import::router())
         .merge(map::router())

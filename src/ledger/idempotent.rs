@@ -1,0 +1,107 @@
+//! A field test sent with an `Idempotency-Key` (the site app's offline queue): the key is
+//! stored once, in the transaction that writes the test and its audit row, so a repeat —
+//! a retry after a lost answer, a server restarted mid-sync — gets the stored test back
+//! instead of a second one. A refused test stores no key, so a fixed retry is judged anew.
+
+use sha2::{Digest, Sha256};
+
+use super::Actor;
+use super::field::{FieldTestInput, LotContext, RuleCache, check_loaded, require_lot};
+use super::field::{require_lot_takes_tests, require_test, store_in};
+use crate::clock;
+use crate::db::{self, Pool};
+use crate::error::{AppError, Result};
+
+/// The header's field name in error bodies.
+pub const HEADER: &str = "Idempotency-Key";
+
+/// What a keyed POST did.
+#[derive(Debug, Clone)]
+pub enum Keyed {
+    /// The test was written now.
+    Created(db::field_tests::FieldTest),
+    /// The key was seen before: the test it made then.
+    Replayed(db::field_tests::FieldTest),
+}
+
+/// A key as the draft describes it: a client-made unique string (1–255 visible ASCII
+/// characters; the site app sends a UUID).
+pub fn check_key(raw: &str) -> Result<String> {
+    let k = raw.trim().trim_matches('"');
+    if k.is_empty() || k.len() > 255 || !k.bytes().all(|b| b.is_ascii_graphic()) {
+        return Err(AppError::invalid(
+            HEADER,
+            "must be 1 to 255 visible ASCII characters",
+        ));
+    }
+    Ok(k.to_string())
+}
+
+/// SHA-256 of the lot and the body: the same key with another request is refused.
+fn fingerprint(lot_id: i64, input: &FieldTestInput) -> Result<String> {
+    let body = serde_json::to_string(input).map_err(anyhow::Error::from)?;
+    Ok(hex::encode(Sha256::digest(
+        format!("{lot_id}\n{body}").as_bytes(),
+    )))
+}
+
+/// The stored test of a key seen before, if the request is the same one.
+async fn replay(
+    pool: &Pool,
+    found: db::idempotency::StoredKey,
+    lot_id: i64,
+    sha: &str,
+) -> Result<Keyed> {
+    if found.lot_id != lot_id || found.request_sha256 != sha {
+        return Err(AppError::invalid(
+            HEADER,
+            "this key was already used for a different test; send a new key for a new test",
+        ));
+    }
+    let id = found
+        .field_test_id
+        .ok_or_else(|| anyhow::anyhow!("idempotency key stored without its test"))?;
+    Ok(Keyed::Replayed(require_test(pool, id).await?))
+}
+
+/// Records a new field test once per key; a repeat of the key answers the stored test.
+pub async fn record_once(
+    pool: &Pool,
+    rules: &RuleCache,
+    lot_id: i64,
+    input: &FieldTestInput,
+    actor: &Actor,
+    key: &str,
+) -> Result<Keyed> {
+    let sha = fingerprint(lot_id, input)?;
+    if let Some(found) = db::idempotency::get(pool, key).await? {
+        return replay(pool, found, lot_id, &sha).await;
+    }
+    let lot = require_lot(pool, lot_id).await?;
+    require_lot_takes_tests(&lot)?;
+    let ctx = LotContext::load_with(pool, rules, &lot).await?;
+    let now = clock::now();
+    let checked = check_loaded(&ctx, input, None, actor, &now)?;
+    let mut tx = db::begin_write(pool).await?;
+    if let Some(found) = db::idempotency::get_in(&mut tx, key).await? {
+        drop(tx);
+        return replay(pool, found, lot_id, &sha).await;
+    }
+    match db::idempotency::claim(&mut tx, key, lot_id, &sha, &actor.name, &now).await {
+        Ok(()) => {}
+        Err(e) if db::is_unique_violation(&e) => {
+            // Another request with this key committed first (PostgreSQL waits for it).
+            drop(tx);
+            let found = db::idempotency::get(pool, key)
+                .await?
+                .ok_or_else(|| anyhow::anyhow!("idempotency key vanished after a conflict"))?;
+            return replay(pool, found, lot_id, &sha).await;
+        }
+        Err(e) => return Err(e.into()),
+    }
+    let record = store_in(&mut tx, checked.record, actor, "create").await?;
+    db::idempotency::settle(&mut tx, key, record.id).await?;
+    tx.commit().await?;
+    crate::metrics::field_tests_recorded(crate::metrics::TestSource::Entry, 1);
+    Ok(Keyed::Created(record))
+}
