@@ -45,7 +45,7 @@ impl LotContext {
         lab: db::lab_tests::LabTest,
     ) -> Result<Self> {
         let reference = lot_report::reference_of(&lab)?;
-        let rules = rules_of(&lot, &clause, &source, &lab);
+        let rules = rules_of(&lot, &clause, &source, &lab)?;
         Ok(Self {
             rules,
             lot,
@@ -107,8 +107,8 @@ pub fn rules_of(
     clause: &db::clauses::Clause,
     source: &db::sources::Source,
     lab: &db::lab_tests::LabTest,
-) -> LotRules {
-    LotRules {
+) -> anyhow::Result<LotRules> {
+    Ok(LotRules {
         lot_id: lot.id,
         lot_code: lot.code.clone(),
         chainage_from_m: lot.chainage_from_m,
@@ -117,7 +117,7 @@ pub fn rules_of(
         offset_right_m: lot.offset_right_m,
         layer_thickness_mm: lot.layer_thickness_mm,
         clause_code: clause.code.clone(),
-        limits: lot_report::limits_of(clause),
+        limits: lot_report::limits_of(clause)?,
         rc_plausible_max_pct: clause.rc_plausible_max_pct,
         oversize_limit_pct: clause.oversize_limit_pct,
         oversize_sieve_mm: clause.oversize_sieve_mm,
@@ -127,7 +127,7 @@ pub fn rules_of(
         specific_gravity: lab.specific_gravity,
         max_dry_density_kg_m3: lab.max_dry_density_kg_m3,
         optimum_water_content_pct: lab.optimum_water_content_pct,
-    }
+    })
 }
 
 /// Clauses, sources and lab tests by id, kept once read.

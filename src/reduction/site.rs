@@ -125,6 +125,7 @@ impl LotRules {
             max_dry_density: Density::new(self.max_dry_density_kg_m3).map_err(bad)?,
             optimum_water_content: WaterContent::new(self.optimum_water_content_pct)
                 .map_err(bad)?,
+            specific_gravity: super::SpecificGravity::new(self.specific_gravity).ok(),
         })
     }
 
@@ -341,8 +342,11 @@ mod tests {
             clause_code: "C1".into(),
             limits: SpecLimits {
                 rc_min_pct: 95.0,
-                moisture_below_pct: 2.0,
-                moisture_above_pct: 2.0,
+                moisture: super::super::verdict::MoistureWindow::PointsOfOmc {
+                    below_pct: 2.0,
+                    above_pct: 2.0,
+                },
+                max_air_voids_pct: None,
                 rounding: Rounding {
                     method: RoundingMethod::AstmE29,
                     decimals: 1,
