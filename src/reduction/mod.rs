@@ -15,6 +15,7 @@ pub mod plausibility;
 pub mod pwl;
 pub mod quantities;
 pub mod rounding;
+pub mod sampling;
 pub mod split;
 pub mod verdict;
 pub mod voids;
