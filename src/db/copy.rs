@@ -8,7 +8,7 @@ use sqlx::{Column, Row, ValueRef};
 use super::{Engine, Pool, engine_of};
 
 /// Every table, parents before children, so foreign keys hold at each insert.
-pub const TABLES: [&str; 18] = [
+pub const TABLES: [&str; 20] = [
     "projects",
     "users",
     "clauses",
@@ -27,6 +27,8 @@ pub const TABLES: [&str; 18] = [
     "sign_in_failures",
     "import_mappings",
     "moulds",
+    "test_plans",
+    "one_point_checks",
 ];
 
 /// What a copy moved and checked.

@@ -14,6 +14,7 @@ pub mod lot_split;
 pub mod moulds;
 pub mod overview;
 pub mod people;
+pub mod planning;
 pub mod reference;
 pub mod reopen;
 pub mod repoint;
