@@ -12,6 +12,7 @@ pub mod import;
 pub mod lot_report;
 pub mod lot_split;
 pub mod moulds;
+pub mod one_point;
 pub mod overview;
 pub mod people;
 pub mod planning;
@@ -27,6 +28,7 @@ pub mod test_writer;
 pub mod tokens;
 pub mod validate;
 pub mod verify;
+pub mod watch;
 
 /// Who is making a change and from where; written to every audit row.
 #[derive(Debug, Clone)]

@@ -49,6 +49,12 @@ pub enum OnePointError {
     OutsideWindow { dev: f64, window: f64 },
 }
 
+/// Dry density of the compacted specimen, ρd = ρ / (1 + w/100) (the phase relation, as for
+/// every field and lab specimen here).
+pub fn dry_density_of(wet_density_kg_m3: f64, water_content_pct: f64) -> f64 {
+    wet_density_kg_m3 / (1.0 + water_content_pct / 100.0)
+}
+
 /// Density of a sampled curve at `w` by linear interpolation; None outside its samples.
 pub fn density_on(samples: &[CurvePoint], w: f64) -> Option<f64> {
     samples.windows(2).find_map(|s| {
@@ -164,6 +170,12 @@ mod tests {
             one_point(&family()[..1], 9.0, 1846.0, 4.0),
             Err(OnePointError::TooFewCurves(1))
         );
+    }
+
+    #[test]
+    fn dry_density_from_wet() {
+        // Hand arithmetic: 2070 / 1.15 = 1800 kg/m³.
+        assert!((dry_density_of(2070.0, 15.0) - 1800.0).abs() < 1e-9);
     }
 
     #[test]
