@@ -11,6 +11,7 @@ mod entry;
 mod home;
 mod import;
 mod lot;
+mod planning;
 pub mod map;
 mod review;
 pub mod session;
@@ -46,6 +47,7 @@ pub fn router() -> Router<AppState> {
         .merge(account::router())
         .merge(test_page::router())
         .merge(setup::router())
+        .merge(planning::router())
 }
 
 async fn style() -> impl IntoResponse {
