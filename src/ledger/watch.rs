@@ -216,3 +216,48 @@ pub async fn control_charts(pool: &Pool, project_id: i64, by: GroupBy, measure: 
         })
         .collect())
 }
+
+/// A drift warning as a page shows it: the curve, the warning, one line per rule broken.
+#[derive(Debug, Clone, Serialize)]
+pub struct DriftNote {
+    pub lab_test_id: i64,
+    pub lab_code: String,
+    pub warning: &'static str,
+    pub lines: Vec<String>,
+}
+
+impl From<&CurveDrift> for DriftNote {
+    fn from(d: &CurveDrift) -> Self {
+        Self {
+            lab_test_id: d.lab_test_id,
+            lab_code: d.lab_code.clone(),
+            warning: DRIFT_WARNING,
+            lines: d
+                .findings
+                .iter()
+                .zip(&d.test_numbers)
+                .map(|(f, n)| format!("{}: {}", f.message, n.join(", ")))
+                .collect(),
+        }
+    }
+}
+
+/// Drift notes per project with the revision they show (held in the app state).
+#[derive(Default)]
+pub struct DriftCache(std::sync::Mutex<std::collections::HashMap<i64, (i64, Vec<DriftNote>)>>);
+
+/// Drift notes of a project, recomputed only when its revision moved (every audited change
+/// bumps it), so the project home does not judge every test on every view.
+pub async fn drift_notes_cached(pool: &Pool, cache: &DriftCache, project_id: i64) -> Result<Vec<DriftNote>> {
+    let revision = db::projects::revision(pool, project_id).await?.unwrap_or(0);
+    if let Some((rev, notes)) = cache.0.lock().ok().and_then(|c| c.get(&project_id).cloned())
+        && rev == revision
+    {
+        return Ok(notes);
+    }
+    let notes: Vec<DriftNote> = drift_warnings(pool, project_id).await?.iter().map(DriftNote::from).collect();
+    if let Ok(mut c) = cache.0.lock() {
+        c.insert(project_id, (revision, notes.clone()));
+    }
+    Ok(notes)
+}
