@@ -64,6 +64,8 @@ pub struct ImrChart {
     pub lcl: f64,
     pub mr_ucl: f64,
     pub signals: Vec<Signal>,
+    /// Indices of moving ranges above their upper limit (`moving_ranges[i]`, point i + 1).
+    pub mr_beyond: Vec<usize>,
 }
 
 /// Builds the charts; None with fewer than two points (no moving range exists).
@@ -77,6 +79,8 @@ pub fn imr_chart(values: &[f64]) -> Option<ImrChart> {
     let mr_bar = moving_ranges.iter().sum::<f64>() / moving_ranges.len() as f64;
     let sigma = mr_bar / D2;
     let signals = run_rules(values, mean, sigma);
+    let mr_ucl = D4 * mr_bar;
+    let mr_beyond = (0..moving_ranges.len()).filter(|&i| moving_ranges[i] > mr_ucl).collect();
     Some(ImrChart {
         values: values.to_vec(),
         moving_ranges,
@@ -85,8 +89,9 @@ pub fn imr_chart(values: &[f64]) -> Option<ImrChart> {
         sigma,
         ucl: mean + E2 * mr_bar,
         lcl: mean - E2 * mr_bar,
-        mr_ucl: D4 * mr_bar,
+        mr_ucl,
         signals,
+        mr_beyond,
     })
 }
 
@@ -143,6 +148,11 @@ mod tests {
         assert!((c.mr_ucl - 5.717_25).abs() < 1e-9);
         assert!((c.sigma - 1.551_42).abs() < 1e-5);
         assert!(c.signals.is_empty());
+        assert!(c.mr_beyond.is_empty());
+        // Hand arithmetic: 0, 0, 0, 6 → MR 0, 0, 6, MR̄ = 2, UCL_MR = 6.534: not beyond;
+        // 0, 0, 0, 0, 9 → MR̄ = 9/4 = 2.25, UCL_MR = 7.35: the last range (9) is beyond.
+        assert!(imr_chart(&[0.0, 0.0, 0.0, 6.0]).unwrap().mr_beyond.is_empty());
+        assert_eq!(imr_chart(&[0.0, 0.0, 0.0, 0.0, 9.0]).unwrap().mr_beyond, vec![3]);
     }
 
     #[test]

@@ -314,7 +314,17 @@ fn chart_block(g: &ChartGroup, measure: Measure) -> ChartBlock {
     });
     let moving_range = control_panel(&ControlPanel {
         title: format!("{} — moving range", g.label),
-        points: g.tests.iter().skip(1).zip(&c.moving_ranges).map(|(t, r)| (t.number.clone(), *r, String::new())).collect(),
+        points: g
+            .tests
+            .iter()
+            .skip(1)
+            .zip(&c.moving_ranges)
+            .enumerate()
+            .map(|(i, (t, r))| {
+                let beyond = c.mr_beyond.contains(&i);
+                (t.number.clone(), *r, if beyond { "moving range above 3.267·MR̄".to_string() } else { String::new() })
+            })
+            .collect(),
         centre: c.mean_moving_range,
         upper: c.mr_ucl,
         lower: None,
@@ -328,7 +338,12 @@ fn chart_block(g: &ChartGroup, measure: Measure) -> ChartBlock {
         ),
         individuals,
         moving_range,
-        signals: c.signals.iter().map(|s| format!("{}: {}", g.tests[s.index].number, s.rule.words())).collect(),
+        signals: c
+            .signals
+            .iter()
+            .map(|s| format!("{}: {}", g.tests[s.index].number, s.rule.words()))
+            .chain(c.mr_beyond.iter().map(|i| format!("{}: moving range above 3.267·MR̄", g.tests[i + 1].number)))
+            .collect(),
     }
 }
 
