@@ -2,6 +2,7 @@
 //! control charts.
 
 use axum::extract::{Path, State};
+use axum::http::StatusCode;
 use axum::routing::{get, post, put};
 use axum::{Json, Router};
 use serde::Deserialize;
@@ -37,10 +38,10 @@ async fn draw_plan(
     Path(id): Path<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<planning::PlanRequest>,
-) -> Result<Json<planning::PlanView>> {
+) -> Result<(StatusCode, Json<planning::PlanView>)> {
     let actor = require(&s.db, &caller, Scope::Lot(id), Action::ManageSetup).await?;
     planning::draw(&s.db, id, &input, &actor).await?;
-    Ok(Json(planning::view(&s.db, id).await?))
+    Ok((StatusCode::CREATED, Json(planning::view(&s.db, id).await?)))
 }
 
 async fn set_terms(
@@ -62,9 +63,10 @@ async fn one_point(
     Path(id): Path<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<ledger::one_point::OnePointInput>,
-) -> Result<Json<ledger::one_point::OnePointAnswer>> {
+) -> Result<(StatusCode, Json<ledger::one_point::OnePointAnswer>)> {
     let actor = require(&s.db, &caller, Scope::Source(id), Action::ManageSetup).await?;
-    Ok(Json(ledger::one_point::record(&s.db, id, &input, &actor).await?))
+    let answer = ledger::one_point::record(&s.db, id, &input, &actor).await?;
+    Ok((StatusCode::CREATED, Json(answer)))
 }
 
 async fn drift(
