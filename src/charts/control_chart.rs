@@ -52,11 +52,20 @@ pub fn control_panel(input: &ControlPanel) -> String {
         input.points.len(),
         num(input.centre),
         num(input.upper),
-        input.lower.map(|l| format!(", lower limit {}", num(l))).unwrap_or_default(),
+        input
+            .lower
+            .map(|l| format!(", lower limit {}", num(l)))
+            .unwrap_or_default(),
         broken
     );
     frame::open_root(&mut w, W, H, &input.title, &desc, "chart control-chart");
-    frame::text(&mut w, 10.0, 20.0, &input.title, TextStyle::new(14.0).bold());
+    frame::text(
+        &mut w,
+        10.0,
+        20.0,
+        &input.title,
+        TextStyle::new(14.0).bold(),
+    );
     let p = plot();
     let mut lo = input.lower.unwrap_or(0.0).min(input.centre);
     let mut hi = input.upper;
@@ -69,12 +78,36 @@ pub fn control_panel(input: &ControlPanel) -> String {
     let t = ticks(lo, hi, 5);
     frame::y_grid(&mut w, &p, &y, &t);
     for v in &t.values {
-        frame::text(&mut w, p.left - 6.0, y.map(*v) + 4.0, &num(*v), TextStyle::new(11.0).anchor("end"));
+        frame::text(
+            &mut w,
+            p.left - 6.0,
+            y.map(*v) + 4.0,
+            &num(*v),
+            TextStyle::new(11.0).anchor("end"),
+        );
     }
-    hline(&mut w, &p, y.map(input.centre), palette::MEAN_DASH, &format!("CL {}", num(input.centre)));
-    hline(&mut w, &p, y.map(input.upper), palette::LIMIT_DASH, &format!("UCL {}", num(input.upper)));
+    hline(
+        &mut w,
+        &p,
+        y.map(input.centre),
+        palette::MEAN_DASH,
+        &format!("CL {}", num(input.centre)),
+    );
+    hline(
+        &mut w,
+        &p,
+        y.map(input.upper),
+        palette::LIMIT_DASH,
+        &format!("UCL {}", num(input.upper)),
+    );
     if let Some(l) = input.lower {
-        hline(&mut w, &p, y.map(l), palette::LIMIT_DASH, &format!("LCL {}", num(l)));
+        hline(
+            &mut w,
+            &p,
+            y.map(l),
+            palette::LIMIT_DASH,
+            &format!("LCL {}", num(l)),
+        );
     }
     let n = input.points.len().max(2) as f64;
     let x = |i: usize| p.left + (p.right - p.left) * (i as f64 + 0.5) / n;
@@ -93,7 +126,9 @@ pub fn control_panel(input: &ControlPanel) -> String {
     }
     for (i, (label, v, rule)) in input.points.iter().enumerate() {
         let (cx, cy) = (x(i), y.map(*v));
-        w.start("g").attr("class", if rule.is_empty() { "pt" } else { "pt signal" }).open();
+        w.start("g")
+            .attr("class", if rule.is_empty() { "pt" } else { "pt signal" })
+            .open();
         let tip = if rule.is_empty() {
             format!("{label}: {}", num(*v))
         } else {
@@ -101,7 +136,12 @@ pub fn control_panel(input: &ControlPanel) -> String {
         };
         w.simple("title", &tip);
         if rule.is_empty() {
-            w.start("circle").num("cx", cx).num("cy", cy).num("r", 3.5).attr("fill", palette::BLUE).leaf();
+            w.start("circle")
+                .num("cx", cx)
+                .num("cy", cy)
+                .num("r", 3.5)
+                .attr("fill", palette::BLUE)
+                .leaf();
         } else {
             let d = format!(
                 "M{} {}L{} {}L{} {}L{} {}Z",
@@ -114,7 +154,11 @@ pub fn control_panel(input: &ControlPanel) -> String {
                 num(cx - 7.0),
                 num(cy)
             );
-            w.start("path").attr("d", &d).attr("fill", palette::VERMILLION).attr("stroke", palette::INK).leaf();
+            w.start("path")
+                .attr("d", &d)
+                .attr("fill", palette::VERMILLION)
+                .attr("stroke", palette::INK)
+                .leaf();
         }
         w.close();
     }
@@ -132,12 +176,24 @@ pub struct FamilyLine {
 /// The family of curves with the one-point checks placed on it (water content %, dry density).
 pub fn family_chart(title: &str, curves: &[FamilyLine], checks: &[(String, f64, f64)]) -> String {
     let mut w = SvgWriter::with_capacity(8192);
-    let desc = format!("{} curves of the family; {} one-point checks", curves.len(), checks.len());
+    let desc = format!(
+        "{} curves of the family; {} one-point checks",
+        curves.len(),
+        checks.len()
+    );
     let (width, height) = (720.0, 420.0);
     frame::open_root(&mut w, width, height, title, &desc, "chart family-chart");
     frame::text(&mut w, 10.0, 20.0, title, TextStyle::new(14.0).bold());
-    let p = Plot { left: 64.0, top: 34.0, right: width - 110.0, bottom: height - 40.0 };
-    let all = curves.iter().flat_map(|c| c.points.iter().copied()).chain(checks.iter().map(|c| (c.1, c.2)));
+    let p = Plot {
+        left: 64.0,
+        top: 34.0,
+        right: width - 110.0,
+        bottom: height - 40.0,
+    };
+    let all = curves
+        .iter()
+        .flat_map(|c| c.points.iter().copied())
+        .chain(checks.iter().map(|c| (c.1, c.2)));
     let (mut x0, mut x1, mut y0, mut y1) = (f64::MAX, f64::MIN, f64::MAX, f64::MIN);
     for (a, b) in all {
         x0 = x0.min(a);
@@ -158,14 +214,36 @@ pub fn family_chart(title: &str, curves: &[FamilyLine], checks: &[(String, f64, 
     frame::y_grid(&mut w, &p, &ys, &ty);
     frame::x_grid(&mut w, &p, &xs, &tx);
     for v in &ty.values {
-        frame::text(&mut w, p.left - 6.0, ys.map(*v) + 4.0, &num(*v), TextStyle::new(11.0).anchor("end"));
+        frame::text(
+            &mut w,
+            p.left - 6.0,
+            ys.map(*v) + 4.0,
+            &num(*v),
+            TextStyle::new(11.0).anchor("end"),
+        );
     }
     for v in &tx.values {
-        frame::text(&mut w, xs.map(*v), p.bottom + 16.0, &num(*v), TextStyle::new(11.0).anchor("middle"));
+        frame::text(
+            &mut w,
+            xs.map(*v),
+            p.bottom + 16.0,
+            &num(*v),
+            TextStyle::new(11.0).anchor("middle"),
+        );
     }
-    frame::text(&mut w, p.mid_x(), height - 8.0, "water content, %", TextStyle::new(12.0).anchor("middle"));
+    frame::text(
+        &mut w,
+        p.mid_x(),
+        height - 8.0,
+        "water content, %",
+        TextStyle::new(12.0).anchor("middle"),
+    );
     for (i, c) in curves.iter().enumerate() {
-        let pts: Vec<String> = c.points.iter().map(|(a, b)| format!("{},{}", num(xs.map(*a)), num(ys.map(*b)))).collect();
+        let pts: Vec<String> = c
+            .points
+            .iter()
+            .map(|(a, b)| format!("{},{}", num(xs.map(*a)), num(ys.map(*b))))
+            .collect();
         let dash = palette::SATURATION_DASHES[i % palette::SATURATION_DASHES.len()];
         w.start("polyline")
             .attr("points", &pts.join(" "))
@@ -174,17 +252,38 @@ pub fn family_chart(title: &str, curves: &[FamilyLine], checks: &[(String, f64, 
             .attr("stroke-dasharray", if i == 0 { "" } else { dash })
             .leaf();
         if let Some(last) = c.points.last() {
-            frame::text(&mut w, xs.map(last.0) + 4.0, ys.map(last.1), &c.label, TextStyle::new(11.0));
+            frame::text(
+                &mut w,
+                xs.map(last.0) + 4.0,
+                ys.map(last.1),
+                &c.label,
+                TextStyle::new(11.0),
+            );
         }
     }
     for (label, a, b) in checks {
         let (cx, cy) = (xs.map(*a), ys.map(*b));
         w.start("g").attr("class", "one-point").open();
-        w.simple("title", &format!("{label}: {} %, {} kg/m³", num(*a), num(*b)));
-        w.start("rect").num("x", cx - 5.0).num("y", cy - 5.0).num("width", 10.0).num("height", 10.0)
-            .attr("fill", palette::ORANGE).attr("stroke", palette::INK).leaf();
+        w.simple(
+            "title",
+            &format!("{label}: {} %, {} kg/m³", num(*a), num(*b)),
+        );
+        w.start("rect")
+            .num("x", cx - 5.0)
+            .num("y", cy - 5.0)
+            .num("width", 10.0)
+            .num("height", 10.0)
+            .attr("fill", palette::ORANGE)
+            .attr("stroke", palette::INK)
+            .leaf();
         w.close();
-        frame::text(&mut w, cx + 8.0, cy - 6.0, label, TextStyle::new(11.0).bold().halo());
+        frame::text(
+            &mut w,
+            cx + 8.0,
+            cy - 6.0,
+            label,
+            TextStyle::new(11.0).bold().halo(),
+        );
     }
     w.close();
     w.finish()

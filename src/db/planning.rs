@@ -22,7 +22,8 @@ pub struct TestPlan {
     pub superseded_reason: Option<String>,
 }
 
-const PLAN_COLUMNS: &str = "id, project_id, lot_id, revision, seed, location_count, edge_m, exclusions_json,
+const PLAN_COLUMNS: &str =
+    "id, project_id, lot_id, revision, seed, location_count, edge_m, exclusions_json,
     locations_json, created_at, created_by, superseded_at, superseded_reason";
 
 /// Every plan of a lot, newest first.
@@ -98,7 +99,11 @@ pub async fn clause_terms(pool: &Pool, clause_id: i64) -> sqlx::Result<Option<Cl
 }
 
 /// Sets the planning terms of a clause.
-pub async fn set_clause_terms(tx: &mut Tx<'_>, clause_id: i64, t: &ClauseTerms) -> sqlx::Result<()> {
+pub async fn set_clause_terms(
+    tx: &mut Tx<'_>,
+    clause_id: i64,
+    t: &ClauseTerms,
+) -> sqlx::Result<()> {
     sqlx::query(
         "UPDATE clauses SET plan_tolerance_m = $1, one_point_allowed = $2, one_point_dry_window_pct = $3
           WHERE id = $4",
@@ -167,7 +172,10 @@ pub async fn insert_one_point(tx: &mut Tx<'_>, c: &OnePointCheck) -> sqlx::Resul
 }
 
 /// One-point checks of a source, oldest first.
-pub async fn one_points_for_source(pool: &Pool, source_id: i64) -> sqlx::Result<Vec<OnePointCheck>> {
+pub async fn one_points_for_source(
+    pool: &Pool,
+    source_id: i64,
+) -> sqlx::Result<Vec<OnePointCheck>> {
     sqlx::query_as::<_, OnePointCheck>(sqlx::AssertSqlSafe(format!(
         "SELECT {OP_COLUMNS} FROM one_point_checks WHERE source_id = $1 ORDER BY id"
     )))
@@ -201,7 +209,10 @@ pub async fn reference_one_points(
     .bind(lot_id)
     .fetch_all(pool)
     .await?;
-    Ok(rows.into_iter().map(|r| (r.paired_lot_id, r.check)).collect())
+    Ok(rows
+        .into_iter()
+        .map(|r| (r.paired_lot_id, r.check))
+        .collect())
 }
 
 #[derive(sqlx::FromRow)]

@@ -314,7 +314,13 @@ pub fn assemble(
         .iter()
         .map(|t| {
             let own = extras.reference_of_test(t.id);
-            judge_line(t, own.as_ref().unwrap_or(&reference), &limits, &source, &clause)
+            judge_line(
+                t,
+                own.as_ref().unwrap_or(&reference),
+                &limits,
+                &source,
+                &clause,
+            )
         })
         .collect();
     let inputs: Vec<LotTestInput> = tests

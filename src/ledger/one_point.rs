@@ -31,7 +31,11 @@ pub fn fitted_samples(lab: &db::lab_tests::LabTest) -> Option<Vec<CurvePoint>> {
 }
 
 /// A source's family of curves for one effort: its lab tests of that effort still in force.
-pub async fn family(pool: &Pool, source_id: i64, effort: &str) -> Result<Vec<(db::lab_tests::LabTest, FamilyCurve)>> {
+pub async fn family(
+    pool: &Pool,
+    source_id: i64,
+    effort: &str,
+) -> Result<Vec<(db::lab_tests::LabTest, FamilyCurve)>> {
     let labs = db::lab_tests::list_for_source(pool, source_id).await?;
     Ok(labs
         .into_iter()
@@ -87,25 +91,48 @@ async fn paired_test(pool: &Pool, source_id: i64, test_id: Option<i64>) -> Resul
     if lot.source_id != source_id {
         return Err(AppError::invalid(
             "field_test_id",
-            format!("test {} is on lot {}, whose material is another source", t.number, lot.code),
+            format!(
+                "test {} is on lot {}, whose material is another source",
+                t.number, lot.code
+            ),
         ));
     }
     require_lot_takes_tests(&lot).map_err(|_| {
-        AppError::invalid("field_test_id", format!("lot {} is {}; its tests are frozen", lot.code, lot.state))
+        AppError::invalid(
+            "field_test_id",
+            format!("lot {} is {}; its tests are frozen", lot.code, lot.state),
+        )
     })?;
     Ok(Some(id))
 }
 
 /// Records a one-point check (audited); a point outside the family or its window is refused
 /// with advice to run a full curve.
-pub async fn record(pool: &Pool, source_id: i64, input: &OnePointInput, actor: &Actor) -> Result<OnePointAnswer> {
-    let source = db::sources::get(pool, source_id)
-        .await?
-        .ok_or_else(|| AppError::not_found("source_id", format!("source {source_id} does not exist")))?;
+pub async fn record(
+    pool: &Pool,
+    source_id: i64,
+    input: &OnePointInput,
+    actor: &Actor,
+) -> Result<OnePointAnswer> {
+    let source = db::sources::get(pool, source_id).await?.ok_or_else(|| {
+        AppError::not_found("source_id", format!("source {source_id} does not exist"))
+    })?;
     let code = code("code", &input.code)?;
     let tested_on = date("tested_on", &input.tested_on)?;
-    let wet = number("wet_density_kg_m3", input.wet_density_kg_m3, 500.0, 3500.0, "kg/m³")?;
-    let w = number("water_content_pct", input.water_content_pct, 0.0, 100.0, "%")?;
+    let wet = number(
+        "wet_density_kg_m3",
+        input.wet_density_kg_m3,
+        500.0,
+        3500.0,
+        "kg/m³",
+    )?;
+    let w = number(
+        "water_content_pct",
+        input.water_content_pct,
+        0.0,
+        100.0,
+        "%",
+    )?;
     let field_test_id = paired_test(pool, source_id, input.field_test_id).await?;
     let fam = family(pool, source_id, &input.effort).await?;
     let curves: Vec<FamilyCurve> = fam.iter().map(|(_, c)| c.clone()).collect();
@@ -114,16 +141,25 @@ pub async fn record(pool: &Pool, source_id: i64, input: &OnePointInput, actor: &
         Some(id) => {
             let t = require_test(pool, id).await?;
             let lot = require_lot(pool, t.lot_id).await?;
-            super::planning::clause_terms(pool, lot.clause_id).await?.one_point_dry_window_pct
+            super::planning::clause_terms(pool, lot.clause_id)
+                .await?
+                .one_point_dry_window_pct
         }
         None => 4.0,
     };
     let dry = dry_density_of(wet, w);
     let r = one_point(&curves, w, dry, window).map_err(|e| match e {
-        OnePointError::TooFewCurves(_) => AppError::invalid("effort", format!("{e} (source {})", source.code)),
+        OnePointError::TooFewCurves(_) => {
+            AppError::invalid("effort", format!("{e} (source {})", source.code))
+        }
         _ => AppError::invalid("water_content_pct", e.to_string()),
     })?;
-    let name = |id: i64| fam.iter().find(|(l, _)| l.id == id).map(|(l, _)| l.code.clone()).unwrap_or_default();
+    let name = |id: i64| {
+        fam.iter()
+            .find(|(l, _)| l.id == id)
+            .map(|(l, _)| l.code.clone())
+            .unwrap_or_default()
+    };
     let now = clock::now();
     let mut check = OnePointCheck {
         id: 0,
@@ -145,13 +181,20 @@ pub async fn record(pool: &Pool, source_id: i64, input: &OnePointInput, actor: &
         created_by: actor.name.clone(),
     };
     let mut tx = db::begin_write(pool).await?;
-    check.id = db::planning::insert_one_point(&mut tx, &check).await.map_err(|e| {
-        if e.as_database_error().is_some_and(|d| d.is_unique_violation()) {
-            AppError::invalid("code", "a one-point check with this code, or for this test, exists")
-        } else {
-            e.into()
-        }
-    })?;
+    check.id = db::planning::insert_one_point(&mut tx, &check)
+        .await
+        .map_err(|e| {
+            if e.as_database_error()
+                .is_some_and(|d| d.is_unique_violation())
+            {
+                AppError::invalid(
+                    "code",
+                    "a one-point check with this code, or for this test, exists",
+                )
+            } else {
+                e.into()
+            }
+        })?;
     audit::record(
         &mut tx,
         &audit::Change {
@@ -161,7 +204,9 @@ pub async fn record(pool: &Pool, source_id: i64, input: &OnePointInput, actor: &
             entity_id: Some(check.id),
             project_id: Some(source.project_id),
             before: None,
-            after: Some(json!({"check": check, "wet_density_kg_m3": wet, "interpolation": INTERPOLATION})),
+            after: Some(
+                json!({"check": check, "wet_density_kg_m3": wet, "interpolation": INTERPOLATION}),
+            ),
             origin: &actor.origin,
         },
         &now,

@@ -13,8 +13,8 @@ use super::field::{require_lot, require_lot_takes_tests};
 use super::lot_report;
 use super::validate::{number, optional_text};
 use crate::clock;
-use crate::db::{self, Pool, audit};
 use crate::db::planning::{ClauseTerms, OnePointCheck, TestPlan};
+use crate::db::{self, Pool, audit};
 use crate::error::{AppError, Result};
 use crate::reduction::sampling::{
     Exclusion, PlanError, PlanInput, PlanMatch, PlannedLocation, draw_plan, match_test,
@@ -152,14 +152,23 @@ fn check_request(req: &PlanRequest, lot: &db::lots::Lot) -> Result<u64> {
         if !(e.chainage_from_m.is_finite() && e.chainage_to_m.is_finite())
             || e.chainage_to_m <= e.chainage_from_m
         {
-            return Err(AppError::invalid(field, "chainage_to_m must be above chainage_from_m"));
+            return Err(AppError::invalid(
+                field,
+                "chainage_to_m must be above chainage_from_m",
+            ));
         }
         if e.chainage_to_m <= lot.chainage_from_m || e.chainage_from_m >= lot.chainage_to_m {
-            return Err(AppError::invalid(field, format!("lies outside lot {}", lot.code)));
+            return Err(AppError::invalid(
+                field,
+                format!("lies outside lot {}", lot.code),
+            ));
         }
     }
     match req.seed {
-        Some(s) if s > MAX_SEED => Err(AppError::invalid("seed", format!("must be at most {MAX_SEED}"))),
+        Some(s) if s > MAX_SEED => Err(AppError::invalid(
+            "seed",
+            format!("must be at most {MAX_SEED}"),
+        )),
         Some(s) => Ok(s),
         None => fresh_seed(),
     }
@@ -191,7 +200,10 @@ pub async fn draw(pool: &Pool, lot_id: i64, req: &PlanRequest, actor: &Actor) ->
     if previous.is_some() && reason.is_empty() {
         return Err(AppError::invalid(
             "reason",
-            format!("lot {} already has a plan: say why it is replanned", lot.code),
+            format!(
+                "lot {} already has a plan: say why it is replanned",
+                lot.code
+            ),
         ));
     }
     db::planning::supersede(&mut tx, lot_id, &reason, &now).await?;
@@ -260,7 +272,11 @@ pub async fn view(pool: &Pool, lot_id: i64) -> Result<PlanView> {
     let report = lot_report::build(pool, lot_id).await?;
     let history = db::planning::plans_for_lot(pool, lot_id).await?;
     let current = history.iter().find(|p| p.superseded_at.is_none()).cloned();
-    let locations = current.as_ref().map(locations_of).transpose()?.unwrap_or_default();
+    let locations = current
+        .as_ref()
+        .map(locations_of)
+        .transpose()?
+        .unwrap_or_default();
     let exclusions = current.as_ref().map(exclusions_of).unwrap_or_default();
     let terms = clause_terms(pool, report.lot.clause_id).await?;
     let matches = report
@@ -284,7 +300,9 @@ pub async fn view(pool: &Pool, lot_id: i64) -> Result<PlanView> {
 pub async fn clause_terms(pool: &Pool, clause_id: i64) -> Result<ClauseTerms> {
     db::planning::clause_terms(pool, clause_id)
         .await?
-        .ok_or_else(|| AppError::not_found("clause_id", format!("clause {clause_id} does not exist")))
+        .ok_or_else(|| {
+            AppError::not_found("clause_id", format!("clause {clause_id} does not exist"))
+        })
 }
 
 /// New planning terms of a clause.
@@ -297,11 +315,16 @@ pub struct TermsInput {
 }
 
 /// Sets a clause's planning terms (audited).
-pub async fn set_terms(pool: &Pool, clause_id: i64, input: &TermsInput, actor: &Actor) -> Result<ClauseTerms> {
+pub async fn set_terms(
+    pool: &Pool,
+    clause_id: i64,
+    input: &TermsInput,
+    actor: &Actor,
+) -> Result<ClauseTerms> {
     let before = clause_terms(pool, clause_id).await?;
-    let clause = db::clauses::get(pool, clause_id)
-        .await?
-        .ok_or_else(|| AppError::not_found("clause_id", format!("clause {clause_id} does not exist")))?;
+    let clause = db::clauses::get(pool, clause_id).await?.ok_or_else(|| {
+        AppError::not_found("clause_id", format!("clause {clause_id} does not exist"))
+    })?;
     let terms = ClauseTerms {
         plan_tolerance_m: number("plan_tolerance_m", input.plan_tolerance_m, 0.1, 1000.0, "m")?,
         one_point_allowed: i64::from(input.one_point_allowed),

@@ -52,7 +52,11 @@ fn watched(lot: &db::lots::Lot, l: &TestLine) -> Option<WatchedTest> {
 }
 
 /// Every counted test of the project (or of lots on one curve), oldest first.
-pub async fn counted_tests(pool: &Pool, project_id: i64, lab_test_id: Option<i64>) -> Result<Vec<WatchedTest>> {
+pub async fn counted_tests(
+    pool: &Pool,
+    project_id: i64,
+    lab_test_id: Option<i64>,
+) -> Result<Vec<WatchedTest>> {
     let mut out = Vec::new();
     each_report(
         pool,
@@ -70,7 +74,11 @@ pub async fn counted_tests(pool: &Pool, project_id: i64, lab_test_id: Option<i64
         },
     )
     .await?;
-    out.sort_by(|a, b| a.tested_at.cmp(&b.tested_at).then(a.test_id.cmp(&b.test_id)));
+    out.sort_by(|a, b| {
+        a.tested_at
+            .cmp(&b.tested_at)
+            .then(a.test_id.cmp(&b.test_id))
+    });
     Ok(out)
 }
 
@@ -106,7 +114,11 @@ fn curve_drift(lab: &db::lab_tests::LabTest, tests: &[WatchedTest]) -> CurveDrif
     let rules = DriftRules::default();
     let samples = fitted_samples(lab).unwrap_or_default();
     let findings = drift(&samples, &points, &rules);
-    let number = |id: &i64| mine.iter().find(|t| t.test_id == *id).map(|t| t.number.clone());
+    let number = |id: &i64| {
+        mine.iter()
+            .find(|t| t.test_id == *id)
+            .map(|t| t.number.clone())
+    };
     let test_numbers = findings
         .iter()
         .map(|f| f.test_ids.iter().filter_map(number).collect())
@@ -121,7 +133,11 @@ fn curve_drift(lab: &db::lab_tests::LabTest, tests: &[WatchedTest]) -> CurveDrif
 }
 
 /// Drift of one curve.
-pub async fn drift_of(pool: &Pool, project_id: i64, lab: &db::lab_tests::LabTest) -> Result<CurveDrift> {
+pub async fn drift_of(
+    pool: &Pool,
+    project_id: i64,
+    lab: &db::lab_tests::LabTest,
+) -> Result<CurveDrift> {
     let tests = counted_tests(pool, project_id, Some(lab.id)).await?;
     Ok(curve_drift(lab, &tests))
 }
@@ -184,7 +200,12 @@ pub struct ChartGroup {
 }
 
 /// The charts of a project, one per group, groups in name order.
-pub async fn control_charts(pool: &Pool, project_id: i64, by: GroupBy, measure: Measure) -> Result<Vec<ChartGroup>> {
+pub async fn control_charts(
+    pool: &Pool,
+    project_id: i64,
+    by: GroupBy,
+    measure: Measure,
+) -> Result<Vec<ChartGroup>> {
     let tests = counted_tests(pool, project_id, None).await?;
     let sources: BTreeMap<i64, String> = db::sources::list(pool, project_id)
         .await?
@@ -201,7 +222,11 @@ pub async fn control_charts(pool: &Pool, project_id: i64, by: GroupBy, measure: 
             GroupBy::Layer => (format!("layer-{}", t.layer_id), t.layer_label.clone()),
             GroupBy::Technician => (format!("tech-{}", t.technician), t.technician.clone()),
         };
-        groups.entry(key).or_insert_with(|| (label, Vec::new())).1.push(t);
+        groups
+            .entry(key)
+            .or_insert_with(|| (label, Vec::new()))
+            .1
+            .push(t);
     }
     Ok(groups
         .into_iter()
@@ -248,14 +273,26 @@ pub struct DriftCache(std::sync::Mutex<std::collections::HashMap<i64, (i64, Vec<
 
 /// Drift notes of a project, recomputed only when its revision moved (every audited change
 /// bumps it), so the project home does not judge every test on every view.
-pub async fn drift_notes_cached(pool: &Pool, cache: &DriftCache, project_id: i64) -> Result<Vec<DriftNote>> {
+pub async fn drift_notes_cached(
+    pool: &Pool,
+    cache: &DriftCache,
+    project_id: i64,
+) -> Result<Vec<DriftNote>> {
     let revision = db::projects::revision(pool, project_id).await?.unwrap_or(0);
-    if let Some((rev, notes)) = cache.0.lock().ok().and_then(|c| c.get(&project_id).cloned())
+    if let Some((rev, notes)) = cache
+        .0
+        .lock()
+        .ok()
+        .and_then(|c| c.get(&project_id).cloned())
         && rev == revision
     {
         return Ok(notes);
     }
-    let notes: Vec<DriftNote> = drift_warnings(pool, project_id).await?.iter().map(DriftNote::from).collect();
+    let notes: Vec<DriftNote> = drift_warnings(pool, project_id)
+        .await?
+        .iter()
+        .map(DriftNote::from)
+        .collect();
     if let Ok(mut c) = cache.0.lock() {
         c.insert(project_id, (revision, notes.clone()));
     }

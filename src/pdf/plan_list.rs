@@ -31,7 +31,14 @@ fn header(c: &mut Canvas, doc: &PlanListDoc, page: usize, pages: usize) -> f32 {
         c.text(left, y, Face::Regular, 10.0, Ink::Text, f);
         y -= 14.0;
     }
-    c.text_right(WIDTH_MM * PT_PER_MM - 50.0, 40.0, Face::Regular, 8.0, Ink::Muted, &format!("Page {page} of {pages}"));
+    c.text_right(
+        WIDTH_MM * PT_PER_MM - 50.0,
+        40.0,
+        Face::Regular,
+        8.0,
+        Ink::Muted,
+        &format!("Page {page} of {pages}"),
+    );
     y -= 10.0;
     let cols = ["Sub-lot", "Chainage", "Offset", "Tested (initials, time)"];
     for (i, h) in cols.iter().enumerate() {
@@ -62,7 +69,12 @@ pub fn render_plan_list(doc: &PlanListDoc) -> Result<Vec<u8>, PdfError> {
                 for (k, cell) in r.iter().enumerate() {
                     c.text(50.0 + COL_X[k], y, Face::Regular, 10.0, Ink::Text, cell);
                 }
-                c.line((50.0, y - 5.0), (WIDTH_MM * PT_PER_MM - 50.0, y - 5.0), 0.3, Ink::Rule);
+                c.line(
+                    (50.0, y - 5.0),
+                    (WIDTH_MM * PT_PER_MM - 50.0, y - 5.0),
+                    0.3,
+                    Ink::Rule,
+                );
                 y -= 18.0;
             }
             PdfPage::new(Mm(WIDTH_MM), Mm(HEIGHT_MM), c.into_ops())

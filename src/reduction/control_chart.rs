@@ -80,7 +80,9 @@ pub fn imr_chart(values: &[f64]) -> Option<ImrChart> {
     let sigma = mr_bar / D2;
     let signals = run_rules(values, mean, sigma);
     let mr_ucl = D4 * mr_bar;
-    let mr_beyond = (0..moving_ranges.len()).filter(|&i| moving_ranges[i] > mr_ucl).collect();
+    let mr_beyond = (0..moving_ranges.len())
+        .filter(|&i| moving_ranges[i] > mr_ucl)
+        .collect();
     Some(ImrChart {
         values: values.to_vec(),
         moving_ranges,
@@ -151,21 +153,53 @@ mod tests {
         assert!(c.mr_beyond.is_empty());
         // Hand arithmetic: 0, 0, 0, 6 → MR 0, 0, 6, MR̄ = 2, UCL_MR = 6.534: not beyond;
         // 0, 0, 0, 0, 9 → MR̄ = 9/4 = 2.25, UCL_MR = 7.35: the last range (9) is beyond.
-        assert!(imr_chart(&[0.0, 0.0, 0.0, 6.0]).unwrap().mr_beyond.is_empty());
-        assert_eq!(imr_chart(&[0.0, 0.0, 0.0, 0.0, 9.0]).unwrap().mr_beyond, vec![3]);
+        assert!(
+            imr_chart(&[0.0, 0.0, 0.0, 6.0])
+                .unwrap()
+                .mr_beyond
+                .is_empty()
+        );
+        assert_eq!(
+            imr_chart(&[0.0, 0.0, 0.0, 0.0, 9.0]).unwrap().mr_beyond,
+            vec![3]
+        );
     }
 
     #[test]
     fn each_run_rule_is_flagged() {
         // Constructed with mean 0, σ = 1 (rules as the e-Handbook §6.3.2 lists them).
         let s = run_rules(&[0.0, 3.5], 0.0, 1.0);
-        assert_eq!(s, vec![Signal { index: 1, rule: RunRule::BeyondThreeSigma }]);
+        assert_eq!(
+            s,
+            vec![Signal {
+                index: 1,
+                rule: RunRule::BeyondThreeSigma
+            }]
+        );
         let s = run_rules(&[2.5, 0.0, 2.2], 0.0, 1.0);
-        assert_eq!(s, vec![Signal { index: 2, rule: RunRule::TwoOfThreeBeyondTwoSigma }]);
+        assert_eq!(
+            s,
+            vec![Signal {
+                index: 2,
+                rule: RunRule::TwoOfThreeBeyondTwoSigma
+            }]
+        );
         let s = run_rules(&[-1.5, -1.2, 0.5, -1.1, -1.4], 0.0, 1.0);
-        assert_eq!(s, vec![Signal { index: 4, rule: RunRule::FourOfFiveBeyondOneSigma }]);
+        assert_eq!(
+            s,
+            vec![Signal {
+                index: 4,
+                rule: RunRule::FourOfFiveBeyondOneSigma
+            }]
+        );
         let s = run_rules(&[0.2; 8], 0.0, 1.0);
-        assert_eq!(s, vec![Signal { index: 7, rule: RunRule::EightOnOneSide }]);
+        assert_eq!(
+            s,
+            vec![Signal {
+                index: 7,
+                rule: RunRule::EightOnOneSide
+            }]
+        );
         // Two beyond 2σ but on opposite sides break nothing.
         assert!(run_rules(&[2.5, 0.0, -2.5], 0.0, 1.0).is_empty());
     }

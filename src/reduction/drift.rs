@@ -67,8 +67,7 @@ pub struct DriftFinding {
 /// A point's distance above the curve at its water content, percent of the curve's density there;
 /// None when the water content is outside the curve's samples.
 pub fn above_curve_pct(samples: &[CurvePoint], p: &DriftPoint) -> Option<f64> {
-    density_on(samples, p.water_content_pct)
-        .map(|d| (p.dry_density_kg_m3 - d) / d * 100.0)
+    density_on(samples, p.water_content_pct).map(|d| (p.dry_density_kg_m3 - d) / d * 100.0)
 }
 
 /// Every rule broken by the points (empty when the material still matches).
@@ -144,12 +143,20 @@ mod tests {
     fn curve() -> Vec<CurvePoint> {
         [(8.0, 1700.0), (12.0, 1800.0), (16.0, 1700.0)]
             .iter()
-            .map(|&(w, d)| CurvePoint { water_content_pct: w, dry_density_kg_m3: d })
+            .map(|&(w, d)| CurvePoint {
+                water_content_pct: w,
+                dry_density_kg_m3: d,
+            })
             .collect()
     }
 
     fn pt(id: i64, w: f64, d: f64, rc: f64) -> DriftPoint {
-        DriftPoint { test_id: id, water_content_pct: w, dry_density_kg_m3: d, relative_compaction_pct: rc }
+        DriftPoint {
+            test_id: id,
+            water_content_pct: w,
+            dry_density_kg_m3: d,
+            relative_compaction_pct: rc,
+        }
     }
 
     #[test]

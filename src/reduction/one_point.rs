@@ -88,7 +88,11 @@ pub fn one_point(
         .find(|p| rho >= p[0].0 && rho <= p[1].0)
         .ok_or(outside)?;
     let ((d_lo, lo), (d_hi, hi)) = (pair[0], pair[1]);
-    let f = if d_hi > d_lo { (rho - d_lo) / (d_hi - d_lo) } else { 0.0 };
+    let f = if d_hi > d_lo {
+        (rho - d_lo) / (d_hi - d_lo)
+    } else {
+        0.0
+    };
     let lerp = |a: f64, b: f64| a + f * (b - a);
     let omc = lerp(lo.optimum_water_content_pct, hi.optimum_water_content_pct);
     let dev = w - omc;
@@ -113,7 +117,10 @@ mod tests {
 
     fn line(pts: &[(f64, f64)]) -> Vec<CurvePoint> {
         pts.iter()
-            .map(|&(w, d)| CurvePoint { water_content_pct: w, dry_density_kg_m3: d })
+            .map(|&(w, d)| CurvePoint {
+                water_content_pct: w,
+                dry_density_kg_m3: d,
+            })
             .collect()
     }
 

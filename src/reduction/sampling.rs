@@ -217,7 +217,10 @@ mod tests {
         assert_eq!(plan.len(), 5);
         for (k, p) in plan.iter().enumerate() {
             let start = 1000.5 + 19.8 * k as f64;
-            assert!(p.chainage_m >= start && p.chainage_m < start + 19.8, "{p:?}");
+            assert!(
+                p.chainage_m >= start && p.chainage_m < start + 19.8,
+                "{p:?}"
+            );
             assert!(p.offset_m >= -5.5 && p.offset_m <= 5.5, "{p:?}");
             assert_eq!(p.sublot, k as u32 + 1);
         }
@@ -230,7 +233,12 @@ mod tests {
         let plan = draw_plan(&lot(20261203)).unwrap();
         let got: Vec<(f64, f64)> = plan
             .iter()
-            .map(|p| ((p.chainage_m * 100.0).round() / 100.0, (p.offset_m * 100.0).round() / 100.0))
+            .map(|p| {
+                (
+                    (p.chainage_m * 100.0).round() / 100.0,
+                    (p.offset_m * 100.0).round() / 100.0,
+                )
+            })
             .collect();
         assert_eq!(got, PINNED.to_vec());
         assert_eq!(draw_plan(&lot(20261203)).unwrap(), plan);
@@ -253,9 +261,10 @@ mod tests {
             chainage_to_m: 1035.0,
         }];
         let plan = draw_plan(&input).unwrap();
-        assert!(plan
-            .iter()
-            .all(|p| !(1025.0..=1035.0).contains(&p.chainage_m)));
+        assert!(
+            plan.iter()
+                .all(|p| !(1025.0..=1035.0).contains(&p.chainage_m))
+        );
         input.exclusions[0].chainage_to_m = 1050.0; // covers all of sub-lot 2 (1020.3–1040.1)
         input.exclusions[0].chainage_from_m = 1019.0;
         assert_eq!(draw_plan(&input), Err(PlanError::SublotExcluded(2)));
@@ -275,8 +284,16 @@ mod tests {
     fn a_test_is_matched_to_its_nearest_planned_location() {
         // Hand arithmetic: (1032, 1.0) vs (1030, -2.0): Δch = 2, Δoff = 3, distance √13 = 3.606 m.
         let plan = [
-            PlannedLocation { sublot: 1, chainage_m: 1010.0, offset_m: 0.0 },
-            PlannedLocation { sublot: 2, chainage_m: 1030.0, offset_m: -2.0 },
+            PlannedLocation {
+                sublot: 1,
+                chainage_m: 1010.0,
+                offset_m: 0.0,
+            },
+            PlannedLocation {
+                sublot: 2,
+                chainage_m: 1030.0,
+                offset_m: -2.0,
+            },
         ];
         let m = match_test(&plan, 1032.0, 1.0, 5.0).unwrap();
         assert_eq!(m.sublot, 2);

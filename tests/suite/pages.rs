@@ -65,7 +65,10 @@ async fn crawling_the_demo_finds_no_broken_page() {
         .iter()
         .filter(|p| p.starts_with("/field-tests/") && !p.ends_with("/retest"))
         .count();
-    assert_eq!(test_pages, 460, "every test has its page (10 on the Haul ramp)");
+    assert_eq!(
+        test_pages, 460,
+        "every test has its page (10 on the Haul ramp)"
+    );
 }
 
 #[tokio::test]

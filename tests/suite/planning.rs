@@ -3,18 +3,25 @@
 
 use serde_json::{Value, json};
 
-use crate::helpers::{As, Frame, TestApp, answer, build_frame, nuclear_test, page, pdf_pages, spawn_app, svgs};
+use crate::helpers::{
+    As, Frame, TestApp, answer, build_frame, nuclear_test, page, pdf_pages, spawn_app, svgs,
+};
 
 async fn mdd_omc(app: &TestApp, lab: i64) -> (f64, f64) {
     let (_, l) = app.get(&format!("/api/v1/lab-tests/{lab}")).await;
-    (l["max_dry_density_kg_m3"].as_f64().unwrap(), l["optimum_water_content_pct"].as_f64().unwrap())
+    (
+        l["max_dry_density_kg_m3"].as_f64().unwrap(),
+        l["optimum_water_content_pct"].as_f64().unwrap(),
+    )
 }
 
 async fn test_at(app: &TestApp, f: &Frame, number: &str, ch: f64, off: f64, rc: f64) -> Value {
     let (mdd, omc) = mdd_omc(app, f.lab_test).await;
     let mut body = nuclear_test(number, ch, rc * mdd, omc);
     body["offset_m"] = json!(off);
-    let (s, t) = app.post(&format!("/api/v1/lots/{}/field-tests", f.lot), &body).await;
+    let (s, t) = app
+        .post(&format!("/api/v1/lots/{}/field-tests", f.lot), &body)
+        .await;
     assert_eq!(s, 201, "{t}");
     t
 }
@@ -24,7 +31,12 @@ fn locations(plan: &Value) -> Vec<(f64, f64)> {
         .as_array()
         .unwrap()
         .iter()
-        .map(|l| (l["chainage_m"].as_f64().unwrap(), l["offset_m"].as_f64().unwrap()))
+        .map(|l| {
+            (
+                l["chainage_m"].as_f64().unwrap(),
+                l["offset_m"].as_f64().unwrap(),
+            )
+        })
         .collect()
 }
 
@@ -42,7 +54,10 @@ async fn a_plan_is_drawn_from_its_seed_replanned_on_record_and_tests_are_matched
     assert_eq!(locs.len(), 3);
     for (k, (ch, off)) in locs.iter().enumerate() {
         let start = 1000.5 + 33.0 * k as f64;
-        assert!(*ch >= start && *ch < start + 33.0, "{ch} outside sub-lot {k}");
+        assert!(
+            *ch >= start && *ch < start + 33.0,
+            "{ch} outside sub-lot {k}"
+        );
         assert!(!(1040.0..=1045.0).contains(ch), "{ch} in the exclusion");
         assert!((-4.5..=4.5).contains(off), "{off} inside the edge distance");
     }
@@ -65,7 +80,10 @@ async fn a_plan_is_drawn_from_its_seed_replanned_on_record_and_tests_are_matched
     let history = p2["history"].as_array().unwrap();
     assert_eq!(history.len(), 2);
     assert!(history[1]["superseded_at"].is_string());
-    assert_eq!(history[1]["superseded_reason"], "culvert moved; same seed to check reproduction");
+    assert_eq!(
+        history[1]["superseded_reason"],
+        "culvert moved; same seed to check reproduction"
+    );
 
     // One test 1 m off its location, one 30 m away (tolerance 5 m, the default clause term).
     let (c0, o0) = locs[0];
@@ -82,16 +100,37 @@ async fn a_plan_is_drawn_from_its_seed_replanned_on_record_and_tests_are_matched
     // Flagged on the lot sheet and on the certificate.
     let (s, html) = page(&app, &format!("/lots/{}", f.lot)).await;
     assert_eq!(s, 200);
-    assert_eq!(html.matches("not at a planned location").count(), 1, "only P-2 is flagged");
-    let (s, r) = app.post(&format!("/api/v1/lots/{}/submit", f.lot), &json!({})).await;
+    assert_eq!(
+        html.matches("not at a planned location").count(),
+        1,
+        "only P-2 is flagged"
+    );
+    let (s, r) = app
+        .post(&format!("/api/v1/lots/{}/submit", f.lot), &json!({}))
+        .await;
     assert_eq!(s, 200, "{r}");
-    let (s, r) = app.post_as(As::Engineer, &format!("/api/v1/lots/{}/accept", f.lot), &json!({})).await;
+    let (s, r) = app
+        .post_as(
+            As::Engineer,
+            &format!("/api/v1/lots/{}/accept", f.lot),
+            &json!({}),
+        )
+        .await;
     assert_eq!(s, 200, "{r}");
     let cert = r["certificate"]["id"].as_i64().unwrap();
-    let pdf = app.client.get(app.url(&format!("/api/v1/certificates/{cert}/pdf"))).send().await.unwrap();
+    let pdf = app
+        .client
+        .get(app.url(&format!("/api/v1/certificates/{cert}/pdf")))
+        .send()
+        .await
+        .unwrap();
     let text = pdf_pages(&pdf.bytes().await.unwrap()).join(" ");
     let text = text.split_whitespace().collect::<Vec<_>>().join(" "); // notes wrap in the PDF
-    assert_eq!(text.matches("not at a planned location").count(), 1, "certificate flags P-2: {text}");
+    assert_eq!(
+        text.matches("not at a planned location").count(),
+        1,
+        "certificate flags P-2: {text}"
+    );
 
     // An accepted lot is frozen: no replan.
     let (s, e) = app.post(&url, &again).await;
@@ -109,11 +148,19 @@ async fn the_plan_page_lists_locations_and_the_pdf_reads_back() {
     let r = app
         .client
         .post(app.url(&format!("/lots/{}/plan", f.lot)))
-        .form(&[("edge_m", "0.5"), ("exclusions", "1010-1020"), ("seed", "31")])
+        .form(&[
+            ("edge_m", "0.5"),
+            ("exclusions", "1010-1020"),
+            ("seed", "31"),
+        ])
         .send()
         .await
         .unwrap();
-    assert!(r.status().is_success() || r.status().is_redirection(), "{}", r.status());
+    assert!(
+        r.status().is_success() || r.status().is_redirection(),
+        "{}",
+        r.status()
+    );
     let (_, v) = app.get(&format!("/api/v1/lots/{}/plan", f.lot)).await;
     assert_eq!(v["current"]["seed"], 31);
     let (_, html) = page(&app, &format!("/lots/{}/plan", f.lot)).await;
@@ -130,7 +177,12 @@ async fn the_plan_page_lists_locations_and_the_pdf_reads_back() {
     assert!(r.text().await.unwrap().contains("exclusions"));
     assert_eq!(app.count("test_plans").await, 1);
 
-    let r = app.client.get(app.url(&format!("/lots/{}/plan.pdf", f.lot))).send().await.unwrap();
+    let r = app
+        .client
+        .get(app.url(&format!("/lots/{}/plan.pdf", f.lot)))
+        .send()
+        .await
+        .unwrap();
     assert_eq!(r.status().as_u16(), 200);
     assert_eq!(r.headers()["content-type"], "application/pdf");
     let text = pdf_pages(&r.bytes().await.unwrap()).join("\n");
@@ -138,7 +190,11 @@ async fn the_plan_page_lists_locations_and_the_pdf_reads_back() {
     assert!(text.contains("seed 31"), "{text}");
     let first = v["locations"][0]["chainage_m"].as_f64().unwrap();
     // The project's chainage style (km+metre, 3 decimals): e.g. 1+012.345.
-    let km = format!("{}+{:07.3}", (first / 1000.0).floor() as i64, first % 1000.0);
+    let km = format!(
+        "{}+{:07.3}",
+        (first / 1000.0).floor() as i64,
+        first % 1000.0
+    );
     assert!(text.contains(&km), "{km} in {text}");
 }
 
@@ -149,13 +205,25 @@ async fn plan_refusals_name_their_field() {
     let url = format!("/api/v1/lots/{}/plan", f.lot);
     for (body, field) in [
         (json!({"edge_m": 5.0}), "edge_m"), // 10 m wide lot less 2 × 5 m: no room
-        (json!({"exclusions": [{"chainage_from_m": 2000.0, "chainage_to_m": 2010.0}]}), "exclusions[0]"),
-        (json!({"exclusions": [{"chainage_from_m": 1000.0, "chainage_to_m": 1100.0}]}), "exclusions"),
+        (
+            json!({"exclusions": [{"chainage_from_m": 2000.0, "chainage_to_m": 2010.0}]}),
+            "exclusions[0]",
+        ),
+        (
+            json!({"exclusions": [{"chainage_from_m": 1000.0, "chainage_to_m": 1100.0}]}),
+            "exclusions",
+        ),
         (json!({"seed": -1}), "seed"),
     ] {
         let (s, e) = app.post(&url, &body).await;
         assert!(s == 422 || s == 400, "{body}: {e}");
-        assert!(e["error"]["field"].as_str().unwrap().starts_with(field.split('[').next().unwrap()), "{body}: {e}");
+        assert!(
+            e["error"]["field"]
+                .as_str()
+                .unwrap()
+                .starts_with(field.split('[').next().unwrap()),
+            "{body}: {e}"
+        );
     }
     assert_eq!(app.count("test_plans").await, 0);
 }
@@ -191,7 +259,13 @@ async fn a_one_point_check_is_its_tests_reference_where_the_clause_allows() {
     let (s, e) = app.post(&url, &outside).await;
     assert_eq!(s, 422, "{e}");
     assert_eq!(e["error"]["field"], "water_content_pct");
-    assert!(e["error"]["message"].as_str().unwrap().contains("run a full curve"), "{e}");
+    assert!(
+        e["error"]["message"]
+            .as_str()
+            .unwrap()
+            .contains("run a full curve"),
+        "{e}"
+    );
     assert_eq!(app.count("one_point_checks").await, 0);
 
     // 2.20 t/m³ wet at 9 % → ρd = 2018.3 kg/m³, between the curves at 9 %, dry of both optima.
@@ -202,7 +276,10 @@ async fn a_one_point_check_is_its_tests_reference_where_the_clause_allows() {
     let c = &a["check"];
     assert!((c["dry_density_kg_m3"].as_f64().unwrap() - 2200.0 / 1.09).abs() < 1e-9);
     let (mdd1, omc1) = mdd_omc(&app, f.lab_test).await;
-    let (mdd, omc) = (c["max_dry_density_kg_m3"].as_f64().unwrap(), c["optimum_water_content_pct"].as_f64().unwrap());
+    let (mdd, omc) = (
+        c["max_dry_density_kg_m3"].as_f64().unwrap(),
+        c["optimum_water_content_pct"].as_f64().unwrap(),
+    );
     let fr = c["fraction"].as_f64().unwrap();
     assert!(fr > 0.0 && fr < 1.0);
     assert!(mdd > mdd1 && mdd < 2090.0 && omc < omc1, "{a}");
@@ -211,9 +288,18 @@ async fn a_one_point_check_is_its_tests_reference_where_the_clause_allows() {
 
     // The clause does not allow it yet: the test is still judged on the lot's curve.
     let (_, lot) = app.get(&format!("/api/v1/lots/{}", f.lot)).await;
-    assert_eq!(lot["tests"][0]["reference_mdd_kg_m3"].as_f64().unwrap(), mdd1, "{lot}");
+    assert_eq!(
+        lot["tests"][0]["reference_mdd_kg_m3"].as_f64().unwrap(),
+        mdd1,
+        "{lot}"
+    );
     let terms = json!({"plan_tolerance_m": 5.0, "one_point_allowed": true, "one_point_dry_window_pct": 4.0});
-    let (s, r) = answer(app.client.put(app.url(&format!("/api/v1/clauses/{}/planning-terms", f.clause))).json(&terms)).await;
+    let (s, r) = answer(
+        app.client
+            .put(app.url(&format!("/api/v1/clauses/{}/planning-terms", f.clause)))
+            .json(&terms),
+    )
+    .await;
     assert_eq!(s, 200, "{r}");
     let (_, lot) = app.get(&format!("/api/v1/lots/{}", f.lot)).await;
     let line = &lot["tests"][0];
@@ -241,44 +327,104 @@ async fn a_one_point_check_is_its_tests_reference_where_the_clause_allows() {
 #[tokio::test]
 async fn drift_is_flagged_and_control_charts_break_a_rule() {
     let app = spawn_app().await;
-    let f = build_frame(&app, json!({"rule": "every_test", "area_per_test_m2": 100.0})).await;
+    let f = build_frame(
+        &app,
+        json!({"rule": "every_test", "area_per_test_m2": 100.0}),
+    )
+    .await;
     let rcs = [0.96, 0.962, 0.958, 0.961, 0.959, 0.96, 1.006, 1.009, 1.013];
     for (i, rc) in rcs.iter().enumerate() {
-        test_at(&app, &f, &format!("D-{i}"), 1005.0 + 10.0 * i as f64, 0.0, *rc).await;
+        test_at(
+            &app,
+            &f,
+            &format!("D-{i}"),
+            1005.0 + 10.0 * i as f64,
+            0.0,
+            *rc,
+        )
+        .await;
     }
-    let (s, d) = app.get(&format!("/api/v1/lab-tests/{}/drift", f.lab_test)).await;
+    let (s, d) = app
+        .get(&format!("/api/v1/lab-tests/{}/drift", f.lab_test))
+        .await;
     assert_eq!(s, 200, "{d}");
-    let rules: Vec<&str> = d["findings"].as_array().unwrap().iter().map(|x| x["rule"].as_str().unwrap()).collect();
+    let rules: Vec<&str> = d["findings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|x| x["rule"].as_str().unwrap())
+        .collect();
     // Stated rules (reduction::drift): RC > 100 % in 2 of the last 3; at OMC, ρd above the
     // curve by more than 2 % (RC 100.6–101.3 % at OMC is not, so only the RC rule fires).
     assert!(rules.contains(&"rc_over100"), "{d}");
-    assert_eq!(d["test_numbers"][rules.iter().position(|r| *r == "rc_over100").unwrap()], json!(["D-6", "D-7", "D-8"]));
+    assert_eq!(
+        d["test_numbers"][rules.iter().position(|r| *r == "rc_over100").unwrap()],
+        json!(["D-6", "D-7", "D-8"])
+    );
     let (_, html) = page(&app, &format!("/lab-tests/{}", f.lab_test)).await;
     assert!(html.contains("material may have changed: new curve or one-point check due"));
     let (_, html) = page(&app, &format!("/projects/{}", f.project)).await;
-    assert!(html.contains("material may have changed"), "project home warns");
+    assert!(
+        html.contains("material may have changed"),
+        "project home warns"
+    );
 
-    let (s, charts) = app.get(&format!("/api/v1/projects/{}/control-charts?by=source&measure=rc", f.project)).await;
+    let (s, charts) = app
+        .get(&format!(
+            "/api/v1/projects/{}/control-charts?by=source&measure=rc",
+            f.project
+        ))
+        .await;
     assert_eq!(s, 200, "{charts}");
     let c = &charts[0]["chart"];
     // Limits against hand arithmetic of the values returned: x̄ ± 2.66·MR̄ (NIST/SEMATECH 6.3.2.2).
-    let vals: Vec<f64> = c["values"].as_array().unwrap().iter().map(|v| v.as_f64().unwrap()).collect();
+    let vals: Vec<f64> = c["values"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|v| v.as_f64().unwrap())
+        .collect();
     let mean = vals.iter().sum::<f64>() / vals.len() as f64;
     let mr = vals.windows(2).map(|w| (w[1] - w[0]).abs()).sum::<f64>() / (vals.len() - 1) as f64;
     assert!((c["ucl"].as_f64().unwrap() - (mean + 2.66 * mr)).abs() < 1e-9);
     assert!((c["mr_ucl"].as_f64().unwrap() - 3.267 * mr).abs() < 1e-9);
-    let broke: Vec<&str> = c["signals"].as_array().unwrap().iter().map(|s| s["rule"].as_str().unwrap()).collect();
+    let broke: Vec<&str> = c["signals"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|s| s["rule"].as_str().unwrap())
+        .collect();
     assert!(broke.contains(&"beyond_three_sigma"), "{c}");
 
-    let (s, html) = page(&app, &format!("/projects/{}/control-charts?by=technician&measure=moisture", f.project)).await;
+    let (s, html) = page(
+        &app,
+        &format!(
+            "/projects/{}/control-charts?by=technician&measure=moisture",
+            f.project
+        ),
+    )
+    .await;
     assert_eq!(s, 200);
     for svg in svgs(&html) {
         roxmltree::Document::parse(svg).expect("chart SVG is well-formed");
     }
     let (_, html) = page(&app, &format!("/projects/{}/control-charts", f.project)).await;
     assert!(html.contains("1 point beyond 3σ"));
-    let csv = app.client.get(app.url(&format!("/projects/{}/control-charts.csv?by=layer", f.project))).send().await.unwrap();
-    assert!(csv.headers()["content-type"].to_str().unwrap().starts_with("text/csv"));
+    let csv = app
+        .client
+        .get(app.url(&format!(
+            "/projects/{}/control-charts.csv?by=layer",
+            f.project
+        )))
+        .send()
+        .await
+        .unwrap();
+    assert!(
+        csv.headers()["content-type"]
+            .to_str()
+            .unwrap()
+            .starts_with("text/csv")
+    );
     let text = csv.text().await.unwrap();
     let mut rd = csv::Reader::from_reader(text.as_bytes());
     assert_eq!(rd.records().count(), rcs.len());

@@ -53,7 +53,9 @@ async fn set_terms(
     let project = crate::db::clauses::get(&s.db, id)
         .await?
         .map(|c| c.project_id)
-        .ok_or_else(|| AppError::not_found("clause_id", format!("no clause {id} in your projects")))?;
+        .ok_or_else(|| {
+            AppError::not_found("clause_id", format!("no clause {id} in your projects"))
+        })?;
     let actor = require(&s.db, &caller, Scope::Project(project), Action::ManageSetup).await?;
     Ok(Json(planning::set_terms(&s.db, id, &input, &actor).await?))
 }
@@ -75,9 +77,9 @@ async fn drift(
     caller: Caller,
 ) -> Result<Json<watch::CurveDrift>> {
     require(&s.db, &caller, Scope::LabTest(id), Action::Read).await?;
-    let lab = crate::db::lab_tests::get(&s.db, id)
-        .await?
-        .ok_or_else(|| AppError::not_found("lab_test_id", format!("lab test {id} does not exist")))?;
+    let lab = crate::db::lab_tests::get(&s.db, id).await?.ok_or_else(|| {
+        AppError::not_found("lab_test_id", format!("lab test {id} does not exist"))
+    })?;
     let source = crate::db::sources::get(&s.db, lab.source_id)
         .await?
         .ok_or_else(|| anyhow::anyhow!("lab test {id} has no source"))?;
@@ -101,5 +103,7 @@ async fn charts(
     ApiQuery(q): ApiQuery<ChartQuery>,
 ) -> Result<Json<Vec<watch::ChartGroup>>> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
-    Ok(Json(watch::control_charts(&s.db, id, q.by, q.measure).await?))
+    Ok(Json(
+        watch::control_charts(&s.db, id, q.by, q.measure).await?,
+    ))
 }

@@ -123,7 +123,11 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
         .collect();
     let field_fail = marks.iter().filter(|m| !m.passed).count();
     let drift = crate::ledger::watch::drift_of(&s.db, project.id, &lab).await?;
-    let drift: Vec<_> = drift.warned().then(|| (&drift).into()).into_iter().collect();
+    let drift: Vec<_> = drift
+        .warned()
+        .then(|| (&drift).into())
+        .into_iter()
+        .collect();
     let fitted = fit.as_ref().map_or(&[][..], |f| f.curve.as_slice());
     let chart = chart(
         &format!("Compaction curve {} ({})", lab.code, source.code),

@@ -95,11 +95,23 @@ impl PlanForm {
                 .parse::<f64>()
                 .map_err(|_| AppError::invalid(field, format!("'{}' is not a number", s.trim())))
         };
-        let edge_m = if self.edge_m.trim().is_empty() { 0.3 } else { num("edge_m", &self.edge_m)? };
+        let edge_m = if self.edge_m.trim().is_empty() {
+            0.3
+        } else {
+            num("edge_m", &self.edge_m)?
+        };
         let mut exclusions = Vec::new();
-        for part in self.exclusions.split(',').map(str::trim).filter(|p| !p.is_empty()) {
+        for part in self
+            .exclusions
+            .split(',')
+            .map(str::trim)
+            .filter(|p| !p.is_empty())
+        {
             let (a, b) = part.split_once('-').ok_or_else(|| {
-                AppError::invalid("exclusions", format!("'{part}' is not a chainage band like 1020-1030"))
+                AppError::invalid(
+                    "exclusions",
+                    format!("'{part}' is not a chainage band like 1020-1030"),
+                )
             })?;
             exclusions.push(Exclusion {
                 chainage_from_m: num("exclusions", a)?,
@@ -108,9 +120,17 @@ impl PlanForm {
         }
         let seed = match self.seed.trim() {
             "" => None,
-            s => Some(s.parse::<u64>().map_err(|_| AppError::invalid("seed", "must be a whole number 0 or more"))?),
+            s => Some(
+                s.parse::<u64>()
+                    .map_err(|_| AppError::invalid("seed", "must be a whole number 0 or more"))?,
+            ),
         };
-        Ok(PlanRequest { seed, edge_m, exclusions, reason: self.reason.clone() })
+        Ok(PlanRequest {
+            seed,
+            edge_m,
+            exclusions,
+            reason: self.reason.clone(),
+        })
     }
 }
 
@@ -162,29 +182,52 @@ fn plan_facts(v: &PlanView, u: &Units) -> Vec<String> {
             "Plan revision {} · seed {} · {} locations, one per equal sub-lot (ASTM D3665, stratified)",
             p.revision, p.seed, p.location_count
         ),
-        format!("Kept {:.1} m from the lot's edges · drawn {} by {}", p.edge_m, p.created_at, p.created_by),
-        format!("A test more than {:.1} m from its planned location is flagged (clause tolerance)", v.tolerance_m),
+        format!(
+            "Kept {:.1} m from the lot's edges · drawn {} by {}",
+            p.edge_m, p.created_at, p.created_by
+        ),
+        format!(
+            "A test more than {:.1} m from its planned location is flagged (clause tolerance)",
+            v.tolerance_m
+        ),
     ];
     if !v.exclusions.is_empty() {
         let bands: Vec<String> = v
             .exclusions
             .iter()
-            .map(|e| format!("{} to {}", u.chainage(e.chainage_from_m), u.chainage(e.chainage_to_m)))
+            .map(|e| {
+                format!(
+                    "{} to {}",
+                    u.chainage(e.chainage_from_m),
+                    u.chainage(e.chainage_to_m)
+                )
+            })
             .collect();
         f.push(format!("Excluded: {}", bands.join("; ")));
     }
     f
 }
 
-async fn plan_model(s: &AppState, caller: &Caller, id: i64, form: PlanForm, error: String) -> Result<PlanPage, PageError> {
+async fn plan_model(
+    s: &AppState,
+    caller: &Caller,
+    id: i64,
+    form: PlanForm,
+    error: String,
+) -> Result<PlanPage, PageError> {
     require(&s.db, caller, Scope::Lot(id), Action::Read).await?;
-    let may_plan = require(&s.db, caller, Scope::Lot(id), Action::ManageSetup).await.is_ok();
+    let may_plan = require(&s.db, caller, Scope::Lot(id), Action::ManageSetup)
+        .await
+        .is_ok();
     let v = crate::ledger::planning::view(&s.db, id).await?;
     let project = crate::ledger::setup::require_project(&s.db, v.lot.project_id).await?;
     let u = Units::of(&project);
     let (locations, matches) = plan_rows(&v, &u);
     Ok(PlanPage {
-        nav: ProjectNav { id: project.id, name: project.code.clone() },
+        nav: ProjectNav {
+            id: project.id,
+            name: project.code.clone(),
+        },
         lot_id: id,
         lot_code: v.lot.code.clone(),
         has_plan: v.current.is_some(),
@@ -201,7 +244,12 @@ async fn plan_model(s: &AppState, caller: &Caller, id: i64, form: PlanForm, erro
                 superseded: p
                     .superseded_at
                     .as_ref()
-                    .map(|at| format!("superseded {at}: {}", p.superseded_reason.as_deref().unwrap_or("")))
+                    .map(|at| {
+                        format!(
+                            "superseded {at}: {}",
+                            p.superseded_reason.as_deref().unwrap_or("")
+                        )
+                    })
                     .unwrap_or_else(|| "current".into()),
             })
             .collect(),
@@ -217,11 +265,18 @@ async fn plan_page(State(s): State<AppState>, caller: Caller, Path(id): Path<i64
     render(&page)
 }
 
-async fn plan_post(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>, body: Bytes) -> PageResult {
+async fn plan_post(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+    body: Bytes,
+) -> PageResult {
     let actor = require(&s.db, &caller, Scope::Lot(id), Action::ManageSetup).await?;
     let form: PlanForm = parse_form(&body).map_err(PageError)?;
     let outcome = match form.request() {
-        Ok(req) => crate::ledger::planning::draw(&s.db, id, &req, &actor).await.map(|_| ()),
+        Ok(req) => crate::ledger::planning::draw(&s.db, id, &req, &actor)
+            .await
+            .map(|_| ()),
         Err(e) => Err(e),
     };
     match outcome {
@@ -239,7 +294,11 @@ async fn plan_pdf(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>
     require(&s.db, &caller, Scope::Lot(id), Action::Read).await?;
     let v = crate::ledger::planning::view(&s.db, id).await?;
     if v.current.is_none() {
-        return Err(AppError::not_found("lot_id", format!("lot {} has no test-location plan yet", v.lot.code)).into());
+        return Err(AppError::not_found(
+            "lot_id",
+            format!("lot {} has no test-location plan yet", v.lot.code),
+        )
+        .into());
     }
     let project = crate::ledger::setup::require_project(&s.db, v.lot.project_id).await?;
     let u = Units::of(&project);
@@ -252,11 +311,15 @@ async fn plan_pdf(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>
             .map(|l| [l.sublot.to_string(), l.chainage, l.offset, l.tests])
             .collect(),
     };
-    let bytes = crate::pdf::render_plan_list(&doc).map_err(|e| AppError::Internal(anyhow::anyhow!("{e}")))?;
+    let bytes = crate::pdf::render_plan_list(&doc)
+        .map_err(|e| AppError::Internal(anyhow::anyhow!("{e}")))?;
     Ok((
         [
             (header::CONTENT_TYPE, "application/pdf".to_string()),
-            (header::CONTENT_DISPOSITION, format!("inline; filename=\"plan-{}.pdf\"", v.lot.code)),
+            (
+                header::CONTENT_DISPOSITION,
+                format!("inline; filename=\"plan-{}.pdf\"", v.lot.code),
+            ),
         ],
         bytes,
     )
@@ -303,11 +366,21 @@ fn chart_block(g: &ChartGroup, measure: Measure) -> ChartBlock {
         };
     };
     let rule_at = |i: usize| -> String {
-        c.signals.iter().filter(|s| s.index == i).map(|s| s.rule.words()).collect::<Vec<_>>().join("; ")
+        c.signals
+            .iter()
+            .filter(|s| s.index == i)
+            .map(|s| s.rule.words())
+            .collect::<Vec<_>>()
+            .join("; ")
     };
     let individuals = control_panel(&ControlPanel {
         title: format!("{} — individuals, {}", g.label, measure.label()),
-        points: g.tests.iter().enumerate().map(|(i, t)| (t.number.clone(), c.values[i], rule_at(i))).collect(),
+        points: g
+            .tests
+            .iter()
+            .enumerate()
+            .map(|(i, t)| (t.number.clone(), c.values[i], rule_at(i)))
+            .collect(),
         centre: c.mean,
         upper: c.ucl,
         lower: Some(c.lcl),
@@ -322,7 +395,15 @@ fn chart_block(g: &ChartGroup, measure: Measure) -> ChartBlock {
             .enumerate()
             .map(|(i, (t, r))| {
                 let beyond = c.mr_beyond.contains(&i);
-                (t.number.clone(), *r, if beyond { "moving range above 3.267·MR̄".to_string() } else { String::new() })
+                (
+                    t.number.clone(),
+                    *r,
+                    if beyond {
+                        "moving range above 3.267·MR̄".to_string()
+                    } else {
+                        String::new()
+                    },
+                )
             })
             .collect(),
         centre: c.mean_moving_range,
@@ -342,7 +423,11 @@ fn chart_block(g: &ChartGroup, measure: Measure) -> ChartBlock {
             .signals
             .iter()
             .map(|s| format!("{}: {}", g.tests[s.index].number, s.rule.words()))
-            .chain(c.mr_beyond.iter().map(|i| format!("{}: moving range above 3.267·MR̄", g.tests[i + 1].number)))
+            .chain(
+                c.mr_beyond
+                    .iter()
+                    .map(|i| format!("{}: moving range above 3.267·MR̄", g.tests[i + 1].number)),
+            )
             .collect(),
     }
 }
@@ -357,9 +442,16 @@ async fn charts_page(
     let project = crate::ledger::setup::require_project(&s.db, id).await?;
     let groups = watch::control_charts(&s.db, id, q.by, q.measure).await?;
     render(&ChartsPage {
-        nav: ProjectNav { id, name: project.code.clone() },
+        nav: ProjectNav {
+            id,
+            name: project.code.clone(),
+        },
         by: by_code(q.by).into(),
-        measure: if q.measure == Measure::Rc { "rc".into() } else { "moisture".into() },
+        measure: if q.measure == Measure::Rc {
+            "rc".into()
+        } else {
+            "moisture".into()
+        },
         measure_label: q.measure.label().into(),
         blocks: groups.iter().map(|g| chart_block(g, q.measure)).collect(),
         cautions: super::cautions(),
@@ -376,13 +468,33 @@ async fn charts_csv(
     let groups = watch::control_charts(&s.db, id, q.by, q.measure).await?;
     let mut out = csv::Writer::from_writer(Vec::new());
     let w = |e: csv::Error| PageError(AppError::Internal(e.into()));
-    out.write_record(["group", "test", "tested_at", "value", "moving_range", "centre", "lcl", "ucl", "mr_ucl", "rules_broken"])
-        .map_err(w)?;
+    out.write_record([
+        "group",
+        "test",
+        "tested_at",
+        "value",
+        "moving_range",
+        "centre",
+        "lcl",
+        "ucl",
+        "mr_ucl",
+        "rules_broken",
+    ])
+    .map_err(w)?;
     for g in &groups {
         let Some(c) = &g.chart else { continue };
         for (i, t) in g.tests.iter().enumerate() {
-            let rules: Vec<&str> = c.signals.iter().filter(|s| s.index == i).map(|s| s.rule.words()).collect();
-            let mr = if i == 0 { String::new() } else { format!("{:.3}", c.moving_ranges[i - 1]) };
+            let rules: Vec<&str> = c
+                .signals
+                .iter()
+                .filter(|s| s.index == i)
+                .map(|s| s.rule.words())
+                .collect();
+            let mr = if i == 0 {
+                String::new()
+            } else {
+                format!("{:.3}", c.moving_ranges[i - 1])
+            };
             out.write_record([
                 crate::transfer::csv_safe::cell(&g.label).as_ref(),
                 crate::transfer::csv_safe::cell(&t.number).as_ref(),
@@ -398,7 +510,9 @@ async fn charts_csv(
             .map_err(w)?;
         }
     }
-    let bytes = out.into_inner().map_err(|e| PageError(AppError::Internal(anyhow::anyhow!("{e}"))))?;
+    let bytes = out
+        .into_inner()
+        .map_err(|e| PageError(AppError::Internal(anyhow::anyhow!("{e}"))))?;
     Ok(([(header::CONTENT_TYPE, "text/csv; charset=utf-8")], bytes).into_response())
 }
 
@@ -434,7 +548,10 @@ async fn family_page(
         .ok_or_else(|| AppError::not_found("source_id", format!("source {id} does not exist")))?;
     let project = crate::ledger::setup::require_project(&s.db, source.project_id).await?;
     let labs = db::lab_tests::list_for_source(&s.db, id).await?;
-    let effort = q.effort.or_else(|| labs.first().map(|l| l.effort.clone())).unwrap_or_default();
+    let effort = q
+        .effort
+        .or_else(|| labs.first().map(|l| l.effort.clone()))
+        .unwrap_or_default();
     let fam = crate::ledger::one_point::family(&s.db, id, &effort).await?;
     let checks: Vec<_> = db::planning::one_points_for_source(&s.db, id)
         .await?
@@ -447,12 +564,24 @@ async fn family_page(
         &fam.iter()
             .map(|(l, c)| FamilyLine {
                 label: l.code.clone(),
-                points: c.samples.iter().map(|p| (p.water_content_pct, p.dry_density_kg_m3)).collect(),
+                points: c
+                    .samples
+                    .iter()
+                    .map(|p| (p.water_content_pct, p.dry_density_kg_m3))
+                    .collect(),
             })
             .collect::<Vec<_>>(),
-        &checks.iter().map(|c| (c.code.clone(), c.water_content_pct, c.dry_density_kg_m3)).collect::<Vec<_>>(),
+        &checks
+            .iter()
+            .map(|c| (c.code.clone(), c.water_content_pct, c.dry_density_kg_m3))
+            .collect::<Vec<_>>(),
     );
-    let code_of = |lid: i64| fam.iter().find(|(l, _)| l.id == lid).map(|(l, _)| l.code.clone()).unwrap_or_else(|| format!("#{lid}"));
+    let code_of = |lid: i64| {
+        fam.iter()
+            .find(|(l, _)| l.id == lid)
+            .map(|(l, _)| l.code.clone())
+            .unwrap_or_else(|| format!("#{lid}"))
+    };
     render(&FamilyPage {
         nav: ProjectNav { id: project.id, name: project.code.clone() },
         source: format!("{} {}", source.code, source.name),
