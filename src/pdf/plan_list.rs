@@ -40,7 +40,12 @@ fn header(c: &mut Canvas, doc: &PlanListDoc, page: usize, pages: usize) -> f32 {
         &format!("Page {page} of {pages}"),
     );
     y -= 10.0;
-    let cols = ["Sub-lot", "Chainage", "Offset", "Tested (initials, time)"];
+    let cols = [
+        "Sub-lot",
+        "Chainage",
+        "Offset",
+        "Tested (test no., or initials and time)",
+    ];
     for (i, h) in cols.iter().enumerate() {
         c.text(left + COL_X[i], y, Face::Bold, 10.0, Ink::Text, h);
     }
