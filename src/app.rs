@@ -28,6 +28,8 @@ pub struct Inner {
     pub settings: Settings,
     /// Judged lots per project, reused while the project's revision holds.
     pub views: crate::ledger::overview::SummaryCache,
+    /// Drift warnings per project, reused while the project's revision holds.
+    pub drift: crate::ledger::watch::DriftCache,
     /// Clauses, sources and lab tests once read (rows that never change).
     pub rules: crate::ledger::field::RuleCache,
     /// Group commit of new field tests (SQLite only).
@@ -42,6 +44,7 @@ impl AppState {
         Self(Arc::new(Inner {
             settings,
             views: Default::default(),
+            drift: Default::default(),
             rules: Default::default(),
             backups: Default::default(),
             writer: crate::ledger::test_writer::TestWriter::start(&db),

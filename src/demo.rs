@@ -7,6 +7,8 @@ use anyhow::{Context, anyhow};
 use serde::de::DeserializeOwned;
 use serde_json::Value;
 
+mod planning;
+
 use crate::db::Pool;
 use crate::ledger::{self, Actor};
 
@@ -186,6 +188,7 @@ pub async fn load(pool: &Pool) -> anyhow::Result<String> {
             .map_err(user_error)
             .with_context(|| format!("demo action {a}"))?;
     }
+    planning::load(pool, pid, &setup_actor, &entry_actor).await?;
     Ok(format!(
         "project {} with {} lots, {} field tests, {} review actions",
         project.code,

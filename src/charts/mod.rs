@@ -13,6 +13,7 @@ pub mod palette;
 pub mod placement;
 pub mod svg;
 
+mod control_chart;
 mod curve_chart;
 mod lift_map;
 mod map_cells;
@@ -22,6 +23,7 @@ mod rc_chart;
 #[cfg(test)]
 mod tests;
 
+pub use control_chart::{ControlPanel, FamilyLine, control_panel, family_chart};
 pub use curve_chart::{CurveChartInput, FieldMark, curve_chart};
 pub use lift_map::{LiftMapInput, MapLot, MapRow, MapState, lift_map};
 pub use map_cells::{MAX_CELLS, MIN_LOT_PX, cell_width_px};

@@ -8,7 +8,7 @@ use sqlx::{Column, Row, ValueRef};
 use super::{Engine, Pool, engine_of};
 
 /// Every table, parents before children, so foreign keys hold at each insert.
-pub const TABLES: [&str; 19] = [
+pub const TABLES: [&str; 21] = [
     "projects",
     "users",
     "clauses",
@@ -28,6 +28,8 @@ pub const TABLES: [&str; 19] = [
     "import_mappings",
     "moulds",
     "idempotency_keys",
+    "test_plans",
+    "one_point_checks",
 ];
 
 /// What a copy moved and checked.

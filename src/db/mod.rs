@@ -18,6 +18,7 @@ pub mod lab_tests;
 pub mod layers;
 pub mod lots;
 pub mod moulds;
+pub mod planning;
 pub mod projects;
 pub mod scope;
 pub mod snapshot;

@@ -38,6 +38,10 @@ pub struct TestLine {
     pub superseded_by: Option<String>,
     pub retest_of_number: Option<String>,
     pub reasons: Vec<String>,
+    /// The one-point check the test was judged against instead of the lot's curve, when one is.
+    pub one_point_code: Option<String>,
+    /// The test's nearest planned location, when the lot has a plan.
+    pub plan_match: Option<crate::reduction::sampling::PlanMatch>,
 }
 
 impl TestLine {
@@ -67,6 +71,12 @@ impl TestLine {
             out.push(format!(
                 "coarse water content assumed {w:.1} % (clause default)"
             ));
+        }
+        if let Some(code) = &self.one_point_code {
+            out.push(format!("reference: one-point check {code}"));
+        }
+        if let Some(m) = self.plan_match.filter(|m| m.misplaced) {
+            out.push(super::planning::misplaced_words(&m));
         }
         out
     }
@@ -276,10 +286,22 @@ pub async fn build(pool: &Pool, lot_id: i64) -> Result<LotReport> {
         .await?
         .into_iter()
         .find(|c| c.superseded_at.is_none());
-    assemble(lot, project, clause, source, lab_test, tests, certificate)
+    let extras = super::planning::LotExtras::for_lot(pool, &lot).await?;
+    assemble(
+        lot,
+        project,
+        clause,
+        source,
+        lab_test,
+        tests,
+        certificate,
+        &extras,
+    )
 }
 
-/// Judges a lot from already-loaded rows (also used for bulk views).
+/// Judges a lot from already-loaded rows (also used for bulk views). `extras` holds the
+/// one-point references of its tests (where the clause allows) and its current plan.
+#[allow(clippy::too_many_arguments)]
 pub fn assemble(
     lot: db::lots::Lot,
     project: db::projects::Project,
@@ -288,6 +310,7 @@ pub fn assemble(
     lab_test: db::lab_tests::LabTest,
     tests: Vec<db::field_tests::FieldTest>,
     certificate: Option<db::certificates::Certificate>,
+    extras: &super::planning::LotExtras,
 ) -> Result<LotReport> {
     let reference = reference_of(&lab_test)?;
     let limits = limits_of(&clause)?;
@@ -296,7 +319,16 @@ pub fn assemble(
 
     let judged: Vec<_> = tests
         .iter()
-        .map(|t| judge_line(t, &reference, &limits, &source, &clause))
+        .map(|t| {
+            let own = extras.reference_of_test(t.id, reference.specific_gravity);
+            judge_line(
+                t,
+                own.as_ref().unwrap_or(&reference),
+                &limits,
+                &source,
+                &clause,
+            )
+        })
         .collect();
     let inputs: Vec<LotTestInput> = tests
         .iter()
@@ -352,6 +384,8 @@ pub fn assemble(
                 superseded_by,
                 retest_of_number: t.retest_of.and_then(number_of),
                 reasons,
+                one_point_code: extras.one_point_of(t.id).map(|c| c.code.clone()),
+                plan_match: extras.match_test(t),
             }
         })
         .collect();
@@ -414,7 +448,11 @@ pub fn assemble(
         submit_blockers.push("the lot has no counted tests".to_string());
     }
 
-    let fingerprint = fingerprint(&lot, &clause, &lab_test, &tests);
+    let mut fingerprint = fingerprint(&lot, &clause, &lab_test, &tests);
+    if let Some(extra) = extras.fingerprint_part() {
+        // Only a lot with one-point references changes its fingerprint, so older certificates stay current.
+        fingerprint = format!("{:x}", Sha256::digest(format!("{fingerprint}|{extra}")));
+    }
     let certificate_current = certificate
         .as_ref()
         .is_some_and(|c| c.withdrawn_at.is_none() && c.record_fingerprint == fingerprint);
@@ -579,6 +617,8 @@ pub fn judge_alone(
         superseded_by: None,
         retest_of_number,
         reasons,
+        one_point_code: None,
+        plan_match: None,
     })
 }
 

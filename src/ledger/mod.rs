@@ -14,8 +14,10 @@ pub mod lot_report;
 pub mod lot_split;
 pub mod moisture_terms;
 pub mod moulds;
+pub mod one_point;
 pub mod overview;
 pub mod people;
+pub mod planning;
 pub mod reference;
 pub mod reopen;
 pub mod repoint;
@@ -28,6 +30,7 @@ pub mod test_writer;
 pub mod tokens;
 pub mod validate;
 pub mod verify;
+pub mod watch;
 
 /// Who is making a change and from where; written to every audit row.
 #[derive(Debug, Clone)]

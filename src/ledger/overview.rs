@@ -23,6 +23,7 @@ pub struct ProjectRows {
     sources: HashMap<i64, db::sources::Source>,
     labs: HashMap<i64, db::lab_tests::LabTest>,
     certificates: HashMap<i64, db::certificates::Certificate>,
+    extras: HashMap<i64, super::planning::LotExtras>,
 }
 
 impl ProjectRows {
@@ -43,12 +44,14 @@ impl ProjectRows {
             .filter(|c| c.superseded_at.is_none())
             .map(|c| (c.lot_id, c))
             .collect();
+        let extras = super::planning::LotExtras::for_project(pool, project_id).await?;
         Ok(Self {
             project,
             clauses,
             sources,
             labs,
             certificates,
+            extras,
         })
     }
 
@@ -85,6 +88,7 @@ impl ProjectRows {
     ) -> Result<LotReport> {
         let (clause, source, lab) = self.rules_of(&lot)?;
         let certificate = self.certificates.remove(&lot.id);
+        let extras = self.extras.remove(&lot.id).unwrap_or_default();
         lot_report::assemble(
             lot,
             self.project.clone(),
@@ -93,6 +97,7 @@ impl ProjectRows {
             lab,
             tests,
             certificate,
+            &extras,
         )
     }
 }

@@ -18,6 +18,7 @@ mod font_metrics;
 mod footer;
 mod layout;
 mod model;
+mod plan_list;
 mod render;
 mod sample;
 mod signoff;
@@ -32,6 +33,7 @@ pub use model::{
     CertificateDoc, ClauseBlock, LotBlock, MaterialBlock, Paper, ReferenceBlock, SignoffBlock,
     SummaryBlock, TestRow,
 };
+pub use plan_list::{PlanListDoc, render_plan_list};
 pub use render::{MAX_TESTS, render_certificate};
 #[doc(hidden)]
 pub use sample::sample_doc;

@@ -226,6 +226,8 @@ pub fn test_object(units: &Units, r: &LotReport, line: &TestLine) -> Value {
         "moisture_source": t.moisture_source,
         "reference_mdd_kg_m3": line.reference_mdd_kg_m3,
         "reference_omc_pct": line.reference_omc_pct,
+        // The one-point check (AASHTO T 272) the test was judged against instead of the curve.
+        "reference_one_point": line.one_point_code,
         "relative_compaction_pct": line.relative_compaction_pct,
         "moisture_deviation_pct": line.moisture_deviation_pct,
         "passed": line.passed,

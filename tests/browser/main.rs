@@ -12,5 +12,6 @@ mod webdriver;
 mod entry_flow;
 mod import_flow;
 mod offline_flow;
+mod planning_flow;
 mod retest_flow;
 mod setup_flow;

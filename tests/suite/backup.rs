@@ -470,6 +470,12 @@ fn recompute(
         .iter()
         .map(|t| {
             let r = match t["coarse_pct"].as_f64() {
+                // A test whose reference is a one-point check: its record states that reference.
+                _ if t["reference_one_point"].is_string() => Some(Reference {
+                    max_dry_density: Density::new(f(t, "reference_mdd_kg_m3")).unwrap(),
+                    optimum_water_content: WaterContent::new(f(t, "reference_omc_pct")).unwrap(),
+                    specific_gravity: reference.specific_gravity,
+                }),
                 Some(c) if c > 0.0 => reference_for_coarse_fraction(
                     &reference,
                     c,

@@ -16,6 +16,7 @@ mod import_page;
 mod openapi;
 mod operations;
 mod pages;
+mod planning;
 mod restart;
 mod setup_pages;
 mod shared_postgres;

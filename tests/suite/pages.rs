@@ -59,13 +59,16 @@ async fn crawling_the_demo_finds_no_broken_page() {
         "{seen:?}"
     );
     assert!(seen.iter().any(|p| p.starts_with("/lab-tests/")));
-    // 19 certified lots plus one lot reissued as revision 2.
-    assert_eq!(pdfs, 20, "certificate PDFs reachable");
+    // 19 certified lots plus one lot reissued as revision 2, and the Haul ramp plan's list.
+    assert_eq!(pdfs, 21, "certificate and plan PDFs reachable");
     let test_pages = seen
         .iter()
         .filter(|p| p.starts_with("/field-tests/") && !p.ends_with("/retest"))
         .count();
-    assert_eq!(test_pages, 450, "every test has its page");
+    assert_eq!(
+        test_pages, 460,
+        "every test has its page (10 on the Haul ramp)"
+    );
 }
 
 #[tokio::test]
@@ -128,7 +131,8 @@ async fn lift_map_lists_every_lot_with_a_state_mark_and_zooms() {
     let app = spawn_demo().await;
     let (s, html) = page(&app, "/projects/1/map").await;
     assert_eq!(s, 200);
-    assert_eq!(html.matches("<tr data-state=").count(), 38);
+    // 38 lots of the main demo and 2 of the Haul ramp (src/demo/planning.rs).
+    assert_eq!(html.matches("<tr data-state=").count(), 40);
     let svg = svgs(&html)[0];
     let doc = roxmltree::Document::parse(svg).unwrap();
     let links: Vec<_> = doc.descendants().filter(|n| n.has_tag_name("a")).collect();
@@ -148,8 +152,8 @@ async fn lift_map_lists_every_lot_with_a_state_mark_and_zooms() {
     assert_eq!(s, 200);
     assert_eq!(
         zoomed.matches("<tr data-state=").count(),
-        8 + 3,
-        "8 fill lots and 3 capping lots start at 0+000"
+        8 + 3 + 2, // and the Haul ramp's two lots (0–200 m, 200–400 m)
+        "8 fill lots, 3 capping lots and 2 Haul ramp lots reach into 0+000–0+400"
     );
     let (s, _) = page(&app, "/projects/1/map?from=later").await;
     assert_eq!(s, 422);
@@ -208,7 +212,8 @@ async fn test_list_filters_and_downloads_what_it_shows() {
         .unwrap()
         .parse()
         .unwrap();
-    assert_eq!(total, 450);
+    // 450 tests of the main demo and 10 of the Haul ramp (src/demo/planning.rs).
+    assert_eq!(total, 460);
     let (_, failed) = page(&app, "/projects/1/tests?verdict=fail").await;
     let n_fail: usize = failed
         .split("id=\"total\">")

@@ -7,6 +7,7 @@ mod certificates;
 mod field_tests;
 pub mod openapi;
 mod people;
+pub mod planning;
 mod projects;
 mod signoff;
 pub mod transfer;
@@ -30,6 +31,7 @@ pub fn router() -> Router<AppState> {
         .merge(people::router())
         .merge(signoff::router())
         .merge(archive::router())
+        .merge(planning::router())
 }
 
 /// Paging parameters shared by every list.

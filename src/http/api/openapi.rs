@@ -378,6 +378,42 @@ pub const OPERATIONS: &[Operation] = &[
         "The project's handover archive (zip): every certificate revision, records as CSV and JSON, the audit log, a manifest of SHA-256 hashes (admins and client engineers)",
         None,
     ),
+    op(
+        "get",
+        "/api/v1/lots/{id}/plan",
+        "A lot's test-location plan (ASTM D3665, stratified), its earlier plans and how each test lies against it",
+        None,
+    ),
+    op(
+        "post",
+        "/api/v1/lots/{id}/plan",
+        "Declare a lot ready for testing: draw its random test locations from a recorded seed (a replan needs a reason; the old plan is kept)",
+        Some("PlanInput"),
+    ),
+    op(
+        "put",
+        "/api/v1/clauses/{id}/planning-terms",
+        "Set a clause's planning terms: plan tolerance, one-point references allowed, one-point dry window",
+        Some("PlanningTermsInput"),
+    ),
+    op(
+        "post",
+        "/api/v1/sources/{id}/one-point-checks",
+        "Record a one-point check (AASHTO T 272): MDD and OMC interpolated in the source's family of curves",
+        Some("OnePointInput"),
+    ),
+    op(
+        "get",
+        "/api/v1/lab-tests/{id}/drift",
+        "Whether a curve's field points say its material may have changed, with the tests that triggered it",
+        None,
+    ),
+    op(
+        "get",
+        "/api/v1/projects/{id}/control-charts",
+        "Individuals and moving-range charts of RC or moisture deviation per source, layer or technician, with run rules",
+        None,
+    ),
     op("get", "/api/v1/openapi.json", "This document", None),
 ];
 
@@ -502,6 +538,13 @@ fn schemas() -> Value {
         "OversizeInput": obj(&["fine_dry_density_kg_m3", "fine_water_content_pct", "coarse_pct", "coarse_specific_gravity", "coarse_water_content_pct"],
             json!({"fine_dry_density_kg_m3": num, "fine_water_content_pct": num, "coarse_pct": num, "coarse_specific_gravity": num,
                 "coarse_water_content_pct": num, "limit_pct": num})),
+        "PlanInput": obj(&[], json!({"seed": int, "edge_m": num, "reason": s,
+            "exclusions": {"type": "array", "items": obj(&["chainage_from_m", "chainage_to_m"], json!({"chainage_from_m": num, "chainage_to_m": num}))}})),
+        "PlanningTermsInput": obj(&["plan_tolerance_m", "one_point_allowed", "one_point_dry_window_pct"],
+            json!({"plan_tolerance_m": num, "one_point_allowed": {"type": "boolean"}, "one_point_dry_window_pct": num})),
+        "OnePointInput": obj(&["code", "tested_on", "effort", "wet_density_kg_m3", "water_content_pct"],
+            json!({"code": s, "tested_on": {"type": "string", "format": "date"}, "effort": s, "wet_density_kg_m3": num,
+                "water_content_pct": num, "field_test_id": int})),
         "AcceptanceInput": obj(&["rule", "values", "lower_limit"], json!({"rule": {"enum": ["every_test", "mean_and_min", "quality_index"]},
             "values": {"type": "array", "items": num}, "lower_limit": num, "allowance": num, "min_pwl": num})),
     })

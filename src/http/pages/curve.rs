@@ -60,6 +60,8 @@ struct CurvePage {
     chart: String,
     field_count: usize,
     field_fail: usize,
+    /// Drift warning of this curve's field points (empty when the material still matches).
+    drift: Vec<crate::ledger::watch::DriftNote>,
     cautions: Vec<String>,
 }
 
@@ -120,6 +122,12 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
         })
         .collect();
     let field_fail = marks.iter().filter(|m| !m.passed).count();
+    let drift = crate::ledger::watch::drift_of(&s.db, project.id, &lab).await?;
+    let drift: Vec<_> = drift
+        .warned()
+        .then(|| (&drift).into())
+        .into_iter()
+        .collect();
     let fitted = fit.as_ref().map_or(&[][..], |f| f.curve.as_slice());
     let chart = chart(
         &format!("Compaction curve {} ({})", lab.code, source.code),
@@ -184,6 +192,7 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
         chart,
         field_count: counted.len(),
         field_fail,
+        drift,
         cautions: super::cautions(),
     })
 }

@@ -115,6 +115,8 @@ struct ProjectPage {
     /// The caller may import a CSV file (links the import page).
     may_import: bool,
     may_setup: bool,
+    /// Curves whose field points say the material may have changed.
+    drift: Vec<crate::ledger::watch::DriftNote>,
 }
 
 async fn project_home(
@@ -132,6 +134,7 @@ async fn project_home(
         || role.is_some_and(|r| allows(r, Action::ManageSetup) || allows(r, Action::ManageTokens));
     let u = Units::of(&p);
     let reports = overview::summaries(&s.db, &s.views, id).await?;
+    let drift = crate::ledger::watch::drift_notes_cached(&s.db, &s.drift, id).await?;
     let states = [
         "open",
         "owed_tests",
@@ -231,6 +234,7 @@ async fn project_home(
         activity,
         may_import,
         may_setup,
+        drift,
         code: p.code,
         name: p.name,
         contract: p.contract,

@@ -12,6 +12,7 @@ mod home;
 mod import;
 mod lot;
 pub mod map;
+mod planning;
 mod review;
 pub mod session;
 mod setup;
@@ -48,6 +49,7 @@ pub fn router() -> Router<AppState> {
         .merge(account::router())
         .merge(test_page::router())
         .merge(setup::router())
+        .merge(planning::router())
 }
 
 async fn style() -> impl IntoResponse {
