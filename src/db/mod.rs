@@ -16,6 +16,7 @@ pub mod health;
 pub mod lab_tests;
 pub mod layers;
 pub mod lots;
+pub mod instruments;
 pub mod moulds;
 pub mod projects;
 pub mod scope;

@@ -11,6 +11,7 @@ pub mod field;
 pub mod import;
 pub mod lot_report;
 pub mod lot_split;
+pub mod instruments;
 pub mod moulds;
 pub mod overview;
 pub mod people;

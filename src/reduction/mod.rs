@@ -9,6 +9,7 @@ pub mod curve;
 pub mod curve_quality;
 pub mod field;
 pub mod frequency;
+pub mod instruments;
 pub mod lab;
 pub mod oversize;
 pub mod plausibility;

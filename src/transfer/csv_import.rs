@@ -624,6 +624,7 @@ fn build_input(
         northing,
         readings,
         confirm_implausible: false,
+        calibration_override_reason: None,
     };
     Some((input, r.text(Target::Lot), r.text(Target::RetestOf)))
 }
