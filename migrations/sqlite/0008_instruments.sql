@@ -69,7 +69,8 @@ CREATE INDEX standard_counts_by_instrument ON standard_counts (instrument_id, co
 
 -- A project's standard-count tolerances (absent: the defaults recalled in DOMAIN.md).
 CREATE TABLE instrument_tolerances (
-    project_id INTEGER PRIMARY KEY REFERENCES projects(id),
+    id INTEGER PRIMARY KEY,
+    project_id INTEGER NOT NULL UNIQUE REFERENCES projects(id),
     density_pct REAL NOT NULL,
     moisture_pct REAL NOT NULL,
     updated_at TEXT NOT NULL,
@@ -79,7 +80,8 @@ CREATE TABLE instrument_tolerances (
 -- Whether a clause lets a test from an instrument out of check be recorded (marked,
 -- out of the statistics, blocking submission) instead of refused.
 CREATE TABLE clause_instrument_policy (
-    clause_id INTEGER PRIMARY KEY REFERENCES clauses(id),
+    id INTEGER PRIMARY KEY,
+    clause_id INTEGER NOT NULL UNIQUE REFERENCES clauses(id),
     record_out_of_check INTEGER NOT NULL,
     updated_at TEXT NOT NULL,
     updated_by TEXT NOT NULL

@@ -13,6 +13,7 @@ pub mod palette;
 pub mod placement;
 pub mod svg;
 
+pub mod count_chart;
 mod curve_chart;
 mod lift_map;
 mod map_cells;

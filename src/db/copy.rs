@@ -8,7 +8,7 @@ use sqlx::{Column, Row, ValueRef};
 use super::{Engine, Pool, engine_of};
 
 /// Every table, parents before children, so foreign keys hold at each insert.
-pub const TABLES: [&str; 18] = [
+pub const TABLES: [&str; 26] = [
     "projects",
     "users",
     "clauses",
@@ -27,6 +27,14 @@ pub const TABLES: [&str; 18] = [
     "sign_in_failures",
     "import_mappings",
     "moulds",
+    "instruments",
+    "instrument_records",
+    "instrument_assignments",
+    "gauge_operators",
+    "standard_counts",
+    "instrument_tolerances",
+    "clause_instrument_policy",
+    "gauge_offsets",
 ];
 
 /// What a copy moved and checked.

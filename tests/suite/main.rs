@@ -12,6 +12,7 @@ mod concurrency;
 mod deploy;
 mod edge;
 mod import_page;
+mod instruments;
 mod openapi;
 mod operations;
 mod pages;

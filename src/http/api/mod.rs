@@ -5,6 +5,7 @@ mod archive;
 mod calc;
 mod certificates;
 mod field_tests;
+pub mod instruments;
 pub mod openapi;
 mod people;
 mod projects;
@@ -30,6 +31,7 @@ pub fn router() -> Router<AppState> {
         .merge(people::router())
         .merge(signoff::router())
         .merge(archive::router())
+        .merge(instruments::router())
 }
 
 /// Paging parameters shared by every list.

@@ -115,6 +115,8 @@ struct ProjectPage {
     /// The caller may import a CSV file (links the import page).
     may_import: bool,
     may_setup: bool,
+    /// Calibrations, leak tests and licences of the project's instruments due within 30 days.
+    calibrations_due: Vec<(i64, String)>,
 }
 
 async fn project_home(
@@ -215,7 +217,18 @@ async fn project_home(
             ),
         })
         .collect();
+    let calibrations_due = crate::ledger::instruments::due_for_project(
+        &s.db,
+        id,
+        &crate::clock::date_of(&crate::clock::now()),
+        30,
+    )
+    .await?
+    .into_iter()
+    .map(|(i, r, days)| (i.id, present::due_words(&i.serial, &r.kind, r.due_on.as_deref(), days)))
+    .collect();
     render(&ProjectPage {
+        calibrations_due,
         nav: ProjectNav {
             id,
             name: p.code.clone(),

@@ -10,6 +10,7 @@ pub mod curve;
 mod entry;
 mod home;
 mod import;
+mod instruments;
 mod lot;
 pub mod map;
 mod review;
@@ -46,6 +47,7 @@ pub fn router() -> Router<AppState> {
         .merge(account::router())
         .merge(test_page::router())
         .merge(setup::router())
+        .merge(instruments::router())
 }
 
 async fn style() -> impl IntoResponse {
