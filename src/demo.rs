@@ -10,6 +10,8 @@ use serde_json::Value;
 use crate::db::Pool;
 use crate::ledger::{self, Actor};
 
+mod instruments;
+
 const PROJECT: &str = include_str!("../demo-data/project.json");
 const FIELD_TESTS: &str = include_str!("../demo-data/field-tests.json");
 const ACTIONS: &str = include_str!("../demo-data/actions.json");
@@ -186,6 +188,9 @@ pub async fn load(pool: &Pool) -> anyhow::Result<String> {
             .map_err(user_error)
             .with_context(|| format!("demo action {a}"))?;
     }
+    instruments::load(pool, pid)
+        .await
+        .context("demo instrument register")?;
     Ok(format!(
         "project {} with {} lots, {} field tests, {} review actions",
         project.code,
