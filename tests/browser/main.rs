@@ -11,5 +11,6 @@ mod webdriver;
 
 mod entry_flow;
 mod import_flow;
+mod instrument_flow;
 mod retest_flow;
 mod setup_flow;
