@@ -51,13 +51,20 @@ impl TestLine {
         }
     }
 
-    /// What a reader is told beside the result: "cannot be judged: reason", the flags.
+    /// What a reader is told beside the result: "cannot be judged: reason", the flags,
+    /// then the test's instrument (see [`instrument_cautions`]).
     pub fn cautions(&self) -> Vec<String> {
+        let mut out = self.cautions_without_instrument();
+        out.extend(instrument_cautions(&self.test));
+        out
+    }
+
+    /// [`Self::cautions`] without the instrument's lines (the certificate prints those last).
+    pub fn cautions_without_instrument(&self) -> Vec<String> {
         let mut out = Vec::new();
         if let Some(r) = &self.unjudged_reason {
             out.push(format!("cannot be judged: {r}"));
         }
-        out.extend(instrument_cautions(&self.test));
         out.extend(self.flags.iter().map(|f| format!("flag: {}", f.message)));
         if let Some(w) = self.coarse_water_assumed_pct {
             out.push(format!(

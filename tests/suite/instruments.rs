@@ -348,3 +348,39 @@ async fn the_register_imports_from_csv_all_or_nothing_and_lists_calibrations_due
         .unwrap();
     assert_eq!(audited, 2 + 2 + 1);
 }
+
+#[tokio::test]
+async fn the_instrument_page_charts_counts_and_its_form_refuses_a_zero_count() {
+    let app = spawn_app().await;
+    let f = build_frame(&app, json!({"rule": "every_test"})).await;
+    let g = gauge(&app, &f, "GX-400", "2026-01-05", "2027-01-05").await;
+    baseline(&app, &f, g).await;
+    // 2750 is −1.79 % of the baseline mean 2800 (hand arithmetic): failed, drawn red.
+    let (_, c) = count(&app, &f, g, "2026-11-20", 2750, 700).await;
+    assert_eq!(c["outcome"], "failed");
+    let (s, html) = crate::helpers::page(&app, &format!("/instruments/{g}")).await;
+    assert_eq!(s, 200);
+    let svgs = crate::helpers::svgs(&html);
+    assert_eq!(svgs.len(), 1, "one control chart");
+    assert!(svgs[0].contains("tolerance-band") && svgs[0].contains("count failed"));
+    assert_eq!(svgs[0].matches("<circle").count(), 5, "one mark per count");
+    let (_, list) = crate::helpers::page(&app, "/instruments").await;
+    assert!(list.contains("GX-400") && list.contains("2027-01-05"));
+
+    // The form: a zero count is re-shown with its field named, and nothing is saved.
+    let before = app.count("standard_counts").await;
+    let form = [("project_id", f.project.to_string()), ("counted_on", "2026-11-21".into()),
+        ("density_count", "0".into()), ("moisture_count", "700".into())];
+    let r = app.client_as(As::Tech).post(app.url(&format!("/instruments/{g}/standard-counts"))).form(&form).send().await.unwrap();
+    assert_eq!(r.status().as_u16(), 422);
+    assert!(r.text().await.unwrap().contains("density_count: 0 is not a count"));
+    assert_eq!(app.count("standard_counts").await, before);
+    // A viewer may not enter counts.
+    let mut ok = form.clone();
+    ok[2].1 = "2801".into();
+    let r = app.client_as(As::Viewer).post(app.url(&format!("/instruments/{g}/standard-counts"))).form(&ok).send().await.unwrap();
+    assert_eq!(r.status().as_u16(), 403);
+    let r = app.client_as(As::Tech).post(app.url(&format!("/instruments/{g}/standard-counts"))).form(&ok).send().await.unwrap();
+    assert!(r.status().is_success() || r.status().is_redirection(), "{}", r.status());
+    assert_eq!(app.count("standard_counts").await, before + 1);
+}
