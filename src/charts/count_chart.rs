@@ -67,8 +67,16 @@ pub fn count_chart(points: &[CountPoint], density_tol_pct: f64, moisture_tol_pct
         ));
     }
     for (i, p) in points.iter().enumerate() {
-        let colour = if p.outcome == "failed" { "#c0392b" } else { "#2d6a2d" };
-        let fill = if p.outcome == "baseline" { "none" } else { colour };
+        let colour = if p.outcome == "failed" {
+            "#c0392b"
+        } else {
+            "#2d6a2d"
+        };
+        let fill = if p.outcome == "baseline" {
+            "none"
+        } else {
+            colour
+        };
         let d = p.density_deviation_pct.unwrap_or(0.0);
         let m = p.moisture_deviation_pct.unwrap_or(0.0);
         s.push_str(&format!(
@@ -105,15 +113,33 @@ mod tests {
     #[test]
     fn the_chart_draws_a_band_and_one_mark_per_count() {
         let pts = vec![
-            CountPoint { day: "2026-11-16".into(), density_deviation_pct: None, moisture_deviation_pct: None, outcome: "baseline".into() },
-            CountPoint { day: "2026-11-20".into(), density_deviation_pct: Some(0.5), moisture_deviation_pct: Some(-1.0), outcome: "accepted".into() },
-            CountPoint { day: "2026-11-21".into(), density_deviation_pct: Some(-1.8), moisture_deviation_pct: Some(0.0), outcome: "failed".into() },
+            CountPoint {
+                day: "2026-11-16".into(),
+                density_deviation_pct: None,
+                moisture_deviation_pct: None,
+                outcome: "baseline".into(),
+            },
+            CountPoint {
+                day: "2026-11-20".into(),
+                density_deviation_pct: Some(0.5),
+                moisture_deviation_pct: Some(-1.0),
+                outcome: "accepted".into(),
+            },
+            CountPoint {
+                day: "2026-11-21".into(),
+                density_deviation_pct: Some(-1.8),
+                moisture_deviation_pct: Some(0.0),
+                outcome: "failed".into(),
+            },
         ];
         let svg = count_chart(&pts, 1.0, 2.0);
         assert_eq!(svg.matches("<circle").count(), 3);
         assert!(svg.contains("tolerance-band"));
         assert_eq!(svg.matches("moisture-limit").count(), 2);
         assert!(svg.contains("class=\"count failed\""));
-        assert!(svg.contains("+1.0 %") && svg.contains("-1.0 %"), "band limits labelled");
+        assert!(
+            svg.contains("+1.0 %") && svg.contains("-1.0 %"),
+            "band limits labelled"
+        );
     }
 }

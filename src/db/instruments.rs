@@ -38,7 +38,7 @@ pub struct InstrumentRecord {
 }
 
 impl crate::reduction::instruments::Dated for InstrumentRecord {
-    fn from_day(&self) -> &str {
+    fn effective_day(&self) -> &str {
         &self.done_on
     }
 }
@@ -112,13 +112,14 @@ pub struct GaugeOffset {
 }
 
 impl crate::reduction::instruments::Dated for GaugeOffset {
-    fn from_day(&self) -> &str {
+    fn effective_day(&self) -> &str {
         &self.effective_on
     }
 }
 
 const INSTRUMENT: &str = "id, kind, serial, description, created_at, created_by";
-const RECORD: &str = "id, instrument_id, kind, done_on, due_on, reference, cone_sand_mass_g, sand_density_kg_m3,
+const RECORD: &str =
+    "id, instrument_id, kind, done_on, due_on, reference, cone_sand_mass_g, sand_density_kg_m3,
     volume_cm3, created_at, created_by";
 const ASSIGNMENT: &str = "id, instrument_id, project_id, from_on, to_on, created_at, created_by";
 const OPERATOR: &str = "id, code, name, certification, expires_on, created_at, created_by";
@@ -173,7 +174,10 @@ pub async fn by_serial(pool: &Pool, serial: &str) -> sqlx::Result<Option<Instrum
 }
 
 /// Inserts a dated record; `id` ignored.
-pub async fn insert_record(tx: &mut Tx<'_>, r: &InstrumentRecord) -> sqlx::Result<InstrumentRecord> {
+pub async fn insert_record(
+    tx: &mut Tx<'_>,
+    r: &InstrumentRecord,
+) -> sqlx::Result<InstrumentRecord> {
     sqlx::query_as::<_, InstrumentRecord>(sqlx::AssertSqlSafe(format!(
         "INSERT INTO instrument_records (instrument_id, kind, done_on, due_on, reference, cone_sand_mass_g,
              sand_density_kg_m3, volume_cm3, created_at, created_by)
@@ -194,8 +198,15 @@ pub async fn insert_record(tx: &mut Tx<'_>, r: &InstrumentRecord) -> sqlx::Resul
 }
 
 /// Every record of one instrument (or of all, with `None`), oldest first.
-pub async fn records(pool: &Pool, instrument_id: Option<i64>) -> sqlx::Result<Vec<InstrumentRecord>> {
-    let filter = if instrument_id.is_some() { "WHERE instrument_id = $1" } else { "" };
+pub async fn records(
+    pool: &Pool,
+    instrument_id: Option<i64>,
+) -> sqlx::Result<Vec<InstrumentRecord>> {
+    let filter = if instrument_id.is_some() {
+        "WHERE instrument_id = $1"
+    } else {
+        ""
+    };
     let q = sqlx::query_as::<_, InstrumentRecord>(sqlx::AssertSqlSafe(format!(
         "SELECT {RECORD} FROM instrument_records {filter} ORDER BY done_on, id"
     )));
@@ -445,7 +456,10 @@ pub async fn set_tolerances(
 }
 
 /// Clauses of a project that let out-of-check tests be recorded, marked.
-pub async fn clauses_recording_out_of_check(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<i64>> {
+pub async fn clauses_recording_out_of_check(
+    pool: &Pool,
+    project_id: i64,
+) -> sqlx::Result<Vec<i64>> {
     sqlx::query_scalar(
         "SELECT p.clause_id FROM clause_instrument_policy p JOIN clauses c ON c.id = p.clause_id
          WHERE c.project_id = $1 AND p.record_out_of_check = 1",
@@ -487,7 +501,7 @@ pub async fn tests_for_offset(
     tx: &mut Tx<'_>,
     serial: &str,
     source_id: i64,
-    from_day: &str,
+    effective_day: &str,
 ) -> sqlx::Result<Vec<super::field_tests::FieldTest>> {
     let cols = super::field_tests::COLUMNS;
     sqlx::query_as::<_, super::field_tests::FieldTest>(sqlx::AssertSqlSafe(format!(
@@ -500,7 +514,7 @@ pub async fn tests_for_offset(
     )))
     .bind(serial)
     .bind(source_id)
-    .bind(from_day)
+    .bind(effective_day)
     .fetch_all(&mut **tx)
     .await
 }

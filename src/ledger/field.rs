@@ -592,8 +592,15 @@ pub async fn record_judged(
     require_lot_takes_tests(&lot)?;
     let ctx = LotContext::load_with(pool, rules, &lot).await?;
     let book = InstrumentBook::load(pool, lot.project_id).await?;
-    let checked =
-        check_with_instruments(&book, &ctx, input, None, actor, &clock::now(), Arrival::Single)?;
+    let checked = check_with_instruments(
+        &book,
+        &ctx,
+        input,
+        None,
+        actor,
+        &clock::now(),
+        Arrival::Single,
+    )?;
     let test = match writer {
         Some(w) => w.store(checked.record, actor, "create").await?,
         None => store(pool, checked, actor, "create").await?,
@@ -745,8 +752,15 @@ pub async fn preview(
     let lot = require_lot(pool, lot_id).await?;
     let ctx = LotContext::load(pool, &lot).await?;
     let book = InstrumentBook::load(pool, lot.project_id).await?;
-    let checked =
-        check_with_instruments(&book, &ctx, input, None, actor, &clock::now(), Arrival::Single)?;
+    let checked = check_with_instruments(
+        &book,
+        &ctx,
+        input,
+        None,
+        actor,
+        &clock::now(),
+        Arrival::Single,
+    )?;
     let r = &checked.record;
     let reference = ctx.reference_for(r.coarse_pct, r.coarse_water_content_pct)?;
     let v = judge(&ctx, r)?;

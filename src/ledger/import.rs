@@ -558,23 +558,22 @@ impl Run<'_> {
         let fallback = target
             .as_ref()
             .and_then(|(n, _)| self.failed_spots.get(n.as_str()).copied());
-        let mut record =
-            match super::instruments::check::check_with_instruments(
-                self.instruments,
-                ctx,
-                &row.input,
-                fallback,
-                &self.opts.actor,
-                &self.now,
-                super::instruments::check::Arrival::Import,
-            ) {
-                Ok(c) => c.record,
-                Err(AppError::Internal(e)) => return Err(AppError::Internal(e)),
-                Err(e) => {
-                    self.refuse(&number, vec![row.problem(e.field(), e.user_message())]);
-                    return Ok(());
-                }
-            };
+        let mut record = match super::instruments::check::check_with_instruments(
+            self.instruments,
+            ctx,
+            &row.input,
+            fallback,
+            &self.opts.actor,
+            &self.now,
+            super::instruments::check::Arrival::Import,
+        ) {
+            Ok(c) => c.record,
+            Err(AppError::Internal(e)) => return Err(AppError::Internal(e)),
+            Err(e) => {
+                self.refuse(&number, vec![row.problem(e.field(), e.user_message())]);
+                return Ok(());
+            }
+        };
         record.retest_of = target.as_ref().map(|(_, s)| s.id);
         let hash = content_hash(&record);
 

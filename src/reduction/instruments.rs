@@ -184,7 +184,7 @@ pub fn judge_count(
 /// they compare as text.
 pub trait Dated {
     /// The day it took effect.
-    fn from_day(&self) -> &str;
+    fn effective_day(&self) -> &str;
 }
 
 /// The record in force on `day`: the latest taking effect on or before it (ties: the
@@ -192,8 +192,8 @@ pub trait Dated {
 pub fn in_force_on<'a, T: Dated>(records: &'a [T], day: &str) -> Option<&'a T> {
     records
         .iter()
-        .filter(|r| r.from_day() <= day)
-        .max_by(|a, b| a.from_day().cmp(b.from_day()))
+        .filter(|r| r.effective_day() <= day)
+        .max_by(|a, b| a.effective_day().cmp(b.effective_day()))
 }
 
 /// Whether a calibration due on `due` still covers `day` (the due day itself is covered).
@@ -319,7 +319,10 @@ pub fn apply_offsets(
     raw: super::field::FieldDensity,
     offsets: Offsets,
 ) -> Result<super::field::FieldDensity, super::QuantityError> {
-    let wet = super::Density::named("wet density", raw.wet_density.kg_m3() + offsets.density_kg_m3)?;
+    let wet = super::Density::named(
+        "wet density",
+        raw.wet_density.kg_m3() + offsets.density_kg_m3,
+    )?;
     let w = if raw.moisture_source == "oven" {
         raw.water_content
     } else {
@@ -351,7 +354,12 @@ mod tests {
         // Rule stated in judge_count (ASTM D6938, from memory): < 4 accepted → baseline.
         let mut past = Vec::new();
         for i in 0..4 {
-            let j = judge_count(&past, 2800.0 + f64::from(i), 700.0, CountTolerances::default());
+            let j = judge_count(
+                &past,
+                2800.0 + f64::from(i),
+                700.0,
+                CountTolerances::default(),
+            );
             assert_eq!(j.outcome, CountOutcome::Baseline, "count {i}");
             assert_eq!(j.density_mean, None);
             past.push(PastCount {
@@ -387,15 +395,24 @@ mod tests {
         assert!((j.density_deviation_pct.unwrap() - 1.0).abs() < 1e-9);
         // 714 is +2.0 % of 700: on the moisture tolerance; 715 (+2.14 %) fails.
         assert!((j.moisture_deviation_pct.unwrap() - 2.0).abs() < 1e-9);
-        assert_eq!(judge_count(&past, 2800.0, 715.0, t).outcome, CountOutcome::Failed);
+        assert_eq!(
+            judge_count(&past, 2800.0, 715.0, t).outcome,
+            CountOutcome::Failed
+        );
         // 2771 is −1.04 % of 2800: fails on density.
-        assert_eq!(judge_count(&past, 2771.0, 700.0, t).outcome, CountOutcome::Failed);
+        assert_eq!(
+            judge_count(&past, 2771.0, 700.0, t).outcome,
+            CountOutcome::Failed
+        );
         // A project's wider tolerance (1.5 %) accepts it.
         let wide = CountTolerances {
             density_pct: 1.5,
             moisture_pct: 2.0,
         };
-        assert_eq!(judge_count(&past, 2771.0, 700.0, wide).outcome, CountOutcome::Accepted);
+        assert_eq!(
+            judge_count(&past, 2771.0, 700.0, wide).outcome,
+            CountOutcome::Accepted
+        );
     }
 
     #[test]
@@ -412,7 +429,7 @@ mod tests {
 
     struct R(&'static str);
     impl Dated for R {
-        fn from_day(&self) -> &str {
+        fn effective_day(&self) -> &str {
             self.0
         }
     }
@@ -421,9 +438,18 @@ mod tests {
     fn the_record_in_force_is_the_latest_taking_effect_on_or_before_the_day() {
         let rs = [R("2026-01-10"), R("2026-06-01"), R("2026-03-05")];
         assert_eq!(in_force_on(&rs, "2026-01-09").map(|r| r.0), None);
-        assert_eq!(in_force_on(&rs, "2026-01-10").map(|r| r.0), Some("2026-01-10"));
-        assert_eq!(in_force_on(&rs, "2026-05-31").map(|r| r.0), Some("2026-03-05"));
-        assert_eq!(in_force_on(&rs, "2026-12-31").map(|r| r.0), Some("2026-06-01"));
+        assert_eq!(
+            in_force_on(&rs, "2026-01-10").map(|r| r.0),
+            Some("2026-01-10")
+        );
+        assert_eq!(
+            in_force_on(&rs, "2026-05-31").map(|r| r.0),
+            Some("2026-03-05")
+        );
+        assert_eq!(
+            in_force_on(&rs, "2026-12-31").map(|r| r.0),
+            Some("2026-06-01")
+        );
     }
 
     #[test]
@@ -435,7 +461,10 @@ mod tests {
         assert_eq!(days_until("2026-12-03", "2027-01-02"), Some(30));
         assert!(due_within("2026-12-03", "2027-01-02", 30));
         assert!(!due_within("2026-12-03", "2027-01-03", 30));
-        assert!(due_within("2026-12-03", "2026-11-01", 30), "overdue counts as due");
+        assert!(
+            due_within("2026-12-03", "2026-11-01", 30),
+            "overdue counts as due"
+        );
     }
 
     #[test]
@@ -453,6 +482,13 @@ mod tests {
             p(2120.0, 2090.0, 9.5, 11.0),
         ];
         let o = offsets_from_pairs(&pairs).unwrap();
+        // Cross-check with statrs: the mean of the differences.
+        use statrs::statistics::Statistics;
+        let d: Vec<f64> = pairs
+            .iter()
+            .map(|p| p.reference_wet_density_kg_m3 - p.gauge_wet_density_kg_m3)
+            .collect();
+        assert!((o.density_kg_m3 - d.mean()).abs() < 1e-12);
         assert!((o.density_kg_m3 + 20.0).abs() < 1e-9);
         assert!((o.moisture_pct - 1.0).abs() < 1e-9);
         assert_eq!(
@@ -485,19 +521,25 @@ mod tests {
         let c = apply_offsets(raw, o).unwrap();
         assert!((c.wet_density.kg_m3() - 2080.0).abs() < 1e-9);
         assert!((c.water_content.pct() - 11.0).abs() < 1e-9);
-        assert!((c.dry_density.kg_m3() - 1873.873_873_873_874).abs() < 1e-6);
+        assert!((c.dry_density.kg_m3() - 1_873.873_873_873_874).abs() < 1e-6);
         let oven = FieldDensity {
             moisture_source: "oven",
             ..raw
         };
         let c = apply_offsets(oven, o).unwrap();
-        assert!((c.water_content.pct() - 10.0).abs() < 1e-9, "oven moisture is not offset");
+        assert!(
+            (c.water_content.pct() - 10.0).abs() < 1e-9,
+            "oven moisture is not offset"
+        );
         assert!((c.dry_density.kg_m3() - 2080.0 / 1.1).abs() < 1e-6);
     }
 
     #[test]
     fn the_gauge_mode_follows_the_probe_depth() {
-        assert_eq!(GaugeMode::of_probe_depth(Some(200.0)), GaugeMode::DirectTransmission);
+        assert_eq!(
+            GaugeMode::of_probe_depth(Some(200.0)),
+            GaugeMode::DirectTransmission
+        );
         assert_eq!(GaugeMode::of_probe_depth(Some(0.0)), GaugeMode::Backscatter);
         assert_eq!(GaugeMode::of_probe_depth(None), GaugeMode::Backscatter);
     }

@@ -28,7 +28,11 @@ async fn a_technician_enters_a_standard_count_on_a_phone() {
     wait_for_new_page(b).await;
     assert_eq!(b.find("h1").await.text().await, "NG-4471 (nuclear gauge)");
     b.wait_for(".count-chart").await;
-    assert_eq!(sideways_overflow(b).await, 0, "the count form fits a 360 px screen");
+    assert_eq!(
+        sideways_overflow(b).await,
+        0,
+        "the count form fits a 360 px screen"
+    );
     let before = counts_of(&rig, "NG-4471").await;
 
     // A count of zero comes back with the field named; nothing is saved.
@@ -51,7 +55,10 @@ async fn a_technician_enters_a_standard_count_on_a_phone() {
     wait_for_new_page(b).await;
     assert_eq!(counts_of(&rig, "NG-4471").await, before + 1);
     let first = b.find("#count-table tbody tr").await.text().await;
-    assert!(first.contains("2810") && first.contains("accepted"), "{first}");
+    assert!(
+        first.contains("2810") && first.contains("accepted"),
+        "{first}"
+    );
     rig.shot("2-count-saved").await;
     rig.finish().await;
 }

@@ -65,7 +65,10 @@ async fn crawling_the_demo_finds_no_broken_page() {
         .iter()
         .filter(|p| p.starts_with("/field-tests/") && !p.ends_with("/retest"))
         .count();
-    assert_eq!(test_pages, 453, "every test has its page (450 + 3 of the instrument register)");
+    assert_eq!(
+        test_pages, 453,
+        "every test has its page (450 + 3 of the instrument register)"
+    );
 }
 
 #[tokio::test]

@@ -71,7 +71,10 @@ pub async fn detail(pool: &db::Pool, id: i64) -> Result<Value> {
     }))
 }
 
-async fn list(State(s): State<AppState>, _caller: Caller) -> Result<Json<Vec<db::instruments::Instrument>>> {
+async fn list(
+    State(s): State<AppState>,
+    _caller: Caller,
+) -> Result<Json<Vec<db::instruments::Instrument>>> {
     Ok(Json(db::instruments::list_instruments(&s.db).await?))
 }
 
@@ -81,16 +84,26 @@ async fn create(
     ApiJson(input): ApiJson<reg::InstrumentInput>,
 ) -> Result<Created<db::instruments::Instrument>> {
     let actor = require_register_editor(&s.db, &caller).await?;
-    Ok((StatusCode::CREATED, Json(reg::create_instrument(&s.db, &input, &actor).await?)))
+    Ok((
+        StatusCode::CREATED,
+        Json(reg::create_instrument(&s.db, &input, &actor).await?),
+    ))
 }
 
 async fn import(State(s): State<AppState>, caller: Caller, body: String) -> Result<Created<Value>> {
     let actor = require_register_editor(&s.db, &caller).await?;
     let made = reg::import_csv(&s.db, &body, &actor).await?;
-    Ok((StatusCode::CREATED, Json(json!({"created": made.len(), "instruments": made}))))
+    Ok((
+        StatusCode::CREATED,
+        Json(json!({"created": made.len(), "instruments": made})),
+    ))
 }
 
-async fn one(State(s): State<AppState>, _caller: Caller, ApiPath(id): ApiPath<i64>) -> Result<Json<Value>> {
+async fn one(
+    State(s): State<AppState>,
+    _caller: Caller,
+    ApiPath(id): ApiPath<i64>,
+) -> Result<Json<Value>> {
     Ok(Json(detail(&s.db, id).await?))
 }
 
@@ -101,7 +114,10 @@ async fn add_record(
     ApiJson(input): ApiJson<reg::RecordInput>,
 ) -> Result<Created<db::instruments::InstrumentRecord>> {
     let actor = require_register_editor(&s.db, &caller).await?;
-    Ok((StatusCode::CREATED, Json(reg::add_record(&s.db, id, &input, &actor).await?)))
+    Ok((
+        StatusCode::CREATED,
+        Json(reg::add_record(&s.db, id, &input, &actor).await?),
+    ))
 }
 
 async fn assign(
@@ -111,7 +127,10 @@ async fn assign(
     ApiJson(input): ApiJson<reg::AssignmentInput>,
 ) -> Result<Created<db::instruments::Assignment>> {
     let actor = require_register_editor(&s.db, &caller).await?;
-    Ok((StatusCode::CREATED, Json(reg::assign(&s.db, id, &input, &actor).await?)))
+    Ok((
+        StatusCode::CREATED,
+        Json(reg::assign(&s.db, id, &input, &actor).await?),
+    ))
 }
 
 async fn count(
@@ -120,7 +139,13 @@ async fn count(
     ApiPath(id): ApiPath<i64>,
     ApiJson(input): ApiJson<reg::counts::CountInput>,
 ) -> Result<Created<db::instruments::StandardCount>> {
-    let actor = require(&s.db, &caller, Scope::Project(input.project_id), Action::EnterTests).await?;
+    let actor = require(
+        &s.db,
+        &caller,
+        Scope::Project(input.project_id),
+        Action::EnterTests,
+    )
+    .await?;
     Ok((
         StatusCode::CREATED,
         Json(reg::counts::record_count(&s.db, id, &input, &actor).await?),
@@ -133,14 +158,23 @@ async fn offset(
     ApiPath(id): ApiPath<i64>,
     ApiJson(input): ApiJson<reg::offsets::OffsetInput>,
 ) -> Result<Created<reg::offsets::OffsetResult>> {
-    let actor = require(&s.db, &caller, Scope::Source(input.source_id), Action::ManageSetup).await?;
+    let actor = require(
+        &s.db,
+        &caller,
+        Scope::Source(input.source_id),
+        Action::ManageSetup,
+    )
+    .await?;
     Ok((
         StatusCode::CREATED,
         Json(reg::offsets::create_offset(&s.db, id, &input, &actor).await?),
     ))
 }
 
-async fn list_operators(State(s): State<AppState>, _caller: Caller) -> Result<Json<Vec<db::instruments::Operator>>> {
+async fn list_operators(
+    State(s): State<AppState>,
+    _caller: Caller,
+) -> Result<Json<Vec<db::instruments::Operator>>> {
     Ok(Json(db::instruments::operators(&s.db).await?))
 }
 
@@ -150,10 +184,17 @@ async fn create_operator(
     ApiJson(input): ApiJson<reg::OperatorInput>,
 ) -> Result<Created<db::instruments::Operator>> {
     let actor = require_register_editor(&s.db, &caller).await?;
-    Ok((StatusCode::CREATED, Json(reg::create_operator(&s.db, &input, &actor).await?)))
+    Ok((
+        StatusCode::CREATED,
+        Json(reg::create_operator(&s.db, &input, &actor).await?),
+    ))
 }
 
-async fn tolerances(State(s): State<AppState>, caller: Caller, ApiPath(id): ApiPath<i64>) -> Result<Json<Value>> {
+async fn tolerances(
+    State(s): State<AppState>,
+    caller: Caller,
+    ApiPath(id): ApiPath<i64>,
+) -> Result<Json<Value>> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
     Ok(Json(json!(reg::counts::tolerances_of(&s.db, id).await?)))
 }
@@ -165,7 +206,9 @@ async fn set_tolerances(
     ApiJson(input): ApiJson<reg::counts::TolerancesInput>,
 ) -> Result<Json<Value>> {
     let actor = require(&s.db, &caller, Scope::Project(id), Action::ManageSetup).await?;
-    Ok(Json(json!(reg::counts::set_tolerances(&s.db, id, &input, &actor).await?)))
+    Ok(Json(json!(
+        reg::counts::set_tolerances(&s.db, id, &input, &actor).await?
+    )))
 }
 
 async fn set_policy(
@@ -174,21 +217,36 @@ async fn set_policy(
     ApiPath(id): ApiPath<i64>,
     ApiJson(input): ApiJson<reg::counts::PolicyInput>,
 ) -> Result<Json<Value>> {
-    let clause = db::clauses::get(&s.db, id)
-        .await?
-        .ok_or_else(|| AppError::not_found("clause_id", format!("no clause {id} in your projects")))?;
-    let actor = require(&s.db, &caller, Scope::Project(clause.project_id), Action::ManageSetup).await?;
+    let clause = db::clauses::get(&s.db, id).await?.ok_or_else(|| {
+        AppError::not_found("clause_id", format!("no clause {id} in your projects"))
+    })?;
+    let actor = require(
+        &s.db,
+        &caller,
+        Scope::Project(clause.project_id),
+        Action::ManageSetup,
+    )
+    .await?;
     reg::counts::set_policy(&s.db, &clause, &input, &actor).await?;
-    Ok(Json(json!({"clause_id": id, "record_out_of_check": input.record_out_of_check})))
+    Ok(Json(
+        json!({"clause_id": id, "record_out_of_check": input.record_out_of_check}),
+    ))
 }
 
-async fn due(State(s): State<AppState>, caller: Caller, ApiPath(id): ApiPath<i64>) -> Result<Json<Value>> {
+async fn due(
+    State(s): State<AppState>,
+    caller: Caller,
+    ApiPath(id): ApiPath<i64>,
+) -> Result<Json<Value>> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
     let today = crate::clock::date_of(&crate::clock::now());
     let rows = ledger::instruments::due_for_project(&s.db, id, &today, 30).await?;
-    Ok(Json(json!(rows
-        .into_iter()
-        .map(|(i, r, days)| json!({"serial": i.serial, "kind": i.kind, "record": r.kind,
-            "done_on": r.done_on, "due_on": r.due_on, "days_left": days}))
-        .collect::<Vec<_>>())))
+    Ok(Json(json!(
+        rows.into_iter()
+            .map(
+                |(i, r, days)| json!({"serial": i.serial, "kind": i.kind, "record": r.kind,
+            "done_on": r.done_on, "due_on": r.due_on, "days_left": days})
+            )
+            .collect::<Vec<_>>()
+    )))
 }

@@ -354,7 +354,12 @@ pub const OPERATIONS: &[Operation] = &[
         "Change one's own password with the current one; every session ends, a new one is set",
         Some("PasswordChangeInput"),
     ),
-    op("get", "/api/v1/instruments", "The instrument register (organisation-wide)", None),
+    op(
+        "get",
+        "/api/v1/instruments",
+        "The instrument register (organisation-wide)",
+        None,
+    ),
     op(
         "post",
         "/api/v1/instruments",
@@ -397,7 +402,12 @@ pub const OPERATIONS: &[Operation] = &[
         "Compute a gauge's material offsets from at least three pairs and apply them from a date",
         Some("OffsetInput"),
     ),
-    op("get", "/api/v1/gauge-operators", "Registered gauge operators", None),
+    op(
+        "get",
+        "/api/v1/gauge-operators",
+        "Registered gauge operators",
+        None,
+    ),
     op(
         "post",
         "/api/v1/gauge-operators",

@@ -225,7 +225,12 @@ async fn project_home(
     )
     .await?
     .into_iter()
-    .map(|(i, r, days)| (i.id, present::due_words(&i.serial, &r.kind, r.due_on.as_deref(), days)))
+    .map(|(i, r, days)| {
+        (
+            i.id,
+            present::due_words(&i.serial, &r.kind, r.due_on.as_deref(), days),
+        )
+    })
     .collect();
     render(&ProjectPage {
         calibrations_due,

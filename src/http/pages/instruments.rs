@@ -113,13 +113,18 @@ struct InstrumentPage {
     projects: Vec<(i64, String)>,
 }
 
-async fn build(s: &AppState, id: i64, form: CountForm, error: Option<AppError>) -> Result<InstrumentPage, AppError> {
+async fn build(
+    s: &AppState,
+    id: i64,
+    form: CountForm,
+    error: Option<AppError>,
+) -> Result<InstrumentPage, AppError> {
     let instrument = reg::require_instrument(&s.db, id).await?;
     let assignments = db::instruments::assignments(&s.db, Some(id), None).await?;
     let counts = db::instruments::counts(&s.db, Some(id), None).await?;
-    let (dt, mt) = counts
-        .last()
-        .map_or((1.0, 2.0), |c| (c.density_tolerance_pct, c.moisture_tolerance_pct));
+    let (dt, mt) = counts.last().map_or((1.0, 2.0), |c| {
+        (c.density_tolerance_pct, c.moisture_tolerance_pct)
+    });
     let points: Vec<CountPoint> = counts
         .iter()
         .map(|c| CountPoint {
@@ -135,13 +140,20 @@ async fn build(s: &AppState, id: i64, form: CountForm, error: Option<AppError>) 
             projects.push((p.id, p.code));
         }
     }
-    let pct = |v: Option<f64>| v.map(|v| format!("{v:+.2} %")).unwrap_or_else(|| "–".into());
+    let pct = |v: Option<f64>| {
+        v.map(|v| format!("{v:+.2} %"))
+            .unwrap_or_else(|| "–".into())
+    };
     Ok(InstrumentPage {
         kind: kind_label(&instrument.kind).to_string(),
         gauge: instrument.kind == "nuclear_gauge",
         records: db::instruments::records(&s.db, Some(id)).await?,
         offsets: db::instruments::offsets(&s.db, Some(id), None).await?,
-        chart: if points.is_empty() { String::new() } else { count_chart(&points, dt, mt) },
+        chart: if points.is_empty() {
+            String::new()
+        } else {
+            count_chart(&points, dt, mt)
+        },
         counts: counts
             .iter()
             .rev()
@@ -164,7 +176,10 @@ async fn build(s: &AppState, id: i64, form: CountForm, error: Option<AppError>) 
             },
             ..form
         },
-        error_field: error.as_ref().map(|e| e.field().to_string()).unwrap_or_default(),
+        error_field: error
+            .as_ref()
+            .map(|e| e.field().to_string())
+            .unwrap_or_default(),
         error: error.map(|e| e.user_message()).unwrap_or_default(),
         projects,
     })
@@ -198,7 +213,13 @@ async fn post_count(
     })();
     let result = match parsed {
         Ok(input) => {
-            let actor = require(&s.db, &caller, Scope::Project(input.project_id), Action::EnterTests).await?;
+            let actor = require(
+                &s.db,
+                &caller,
+                Scope::Project(input.project_id),
+                Action::EnterTests,
+            )
+            .await?;
             reg::counts::record_count(&s.db, id, &input, &actor).await
         }
         Err(e) => Err(e),
@@ -206,6 +227,9 @@ async fn post_count(
     match result {
         Ok(_) => Ok(see_other(&format!("/instruments/{id}#counts"))),
         Err(AppError::Internal(e)) => Err(AppError::Internal(e).into()),
-        Err(e) => render_status(StatusCode::UNPROCESSABLE_ENTITY, &build(&s, id, form, Some(e)).await?),
+        Err(e) => render_status(
+            StatusCode::UNPROCESSABLE_ENTITY,
+            &build(&s, id, form, Some(e)).await?,
+        ),
     }
 }

@@ -205,7 +205,11 @@ pub fn kind_label(kind: &str) -> &'static str {
 }
 
 /// Why a gauge is out of check on a day (empty when in check), and its evidence.
-pub fn gauge_standing(book: &InstrumentBook, gauge: &Instrument, day: &str) -> (Vec<String>, String) {
+pub fn gauge_standing(
+    book: &InstrumentBook,
+    gauge: &Instrument,
+    day: &str,
+) -> (Vec<String>, String) {
     let mut reasons = Vec::new();
     let mut evidence = format!("gauge {}", gauge.serial);
     match book.calibration_on(gauge.id, day) {
@@ -214,7 +218,10 @@ pub fn gauge_standing(book: &InstrumentBook, gauge: &Instrument, day: &str) -> (
             evidence.push_str(&format!(
                 ": calibrated {}{}",
                 c.done_on,
-                c.due_on.as_deref().map(|d| format!(" (due {d})")).unwrap_or_default()
+                c.due_on
+                    .as_deref()
+                    .map(|d| format!(" (due {d})"))
+                    .unwrap_or_default()
             ));
             if !rules::covers(c.due_on.as_deref(), day) {
                 reasons.push(format!(
@@ -333,7 +340,9 @@ pub fn offset_for<'a>(
     let mine: Vec<GaugeOffset> = book
         .offsets
         .iter()
-        .filter(|o| o.instrument_id == gauge_id && o.source_id == source_id && o.mode == mode.code())
+        .filter(|o| {
+            o.instrument_id == gauge_id && o.source_id == source_id && o.mode == mode.code()
+        })
         .cloned()
         .collect();
     let id = in_force_on(&mine, day)?.id;
@@ -400,7 +409,10 @@ fn sand_cone(
         .ok_or_else(|| {
             AppError::invalid(
                 "readings.sand_density_kg_m3",
-                format!("sand batch {} has no calibration on or before {day}", batch.serial),
+                format!(
+                    "sand batch {} has no calibration on or before {day}",
+                    batch.serial
+                ),
             )
         })?;
     let reason = input
@@ -417,8 +429,20 @@ fn sand_cone(
     } = &mut input.readings
     {
         let fields = [
-            (mass_sand_in_cone_g, cone_cal.1, SAME_MASS_G, "mass_sand_in_cone_g", "g"),
-            (sand_density_kg_m3, batch_cal.1, SAME_DENSITY_KG_M3, "sand_density_kg_m3", "kg/m³"),
+            (
+                mass_sand_in_cone_g,
+                cone_cal.1,
+                SAME_MASS_G,
+                "mass_sand_in_cone_g",
+                "g",
+            ),
+            (
+                sand_density_kg_m3,
+                batch_cal.1,
+                SAME_DENSITY_KG_M3,
+                "sand_density_kg_m3",
+                "kg/m³",
+            ),
         ];
         for (value, calibrated, same, field, unit) in fields {
             if *value == 0.0 {
@@ -432,7 +456,9 @@ fn sand_cone(
                         ),
                     ));
                 }
-                overridden.push(format!("{field} {value} {unit} instead of {calibrated} {unit}"));
+                overridden.push(format!(
+                    "{field} {value} {unit} instead of {calibrated} {unit}"
+                ));
             }
         }
     }

@@ -72,7 +72,10 @@ pub async fn record_count(
     if gauge.kind != "nuclear_gauge" {
         return Err(AppError::invalid(
             "instrument_id",
-            format!("{} is not a nuclear gauge; only gauges take standard counts", gauge.serial),
+            format!(
+                "{} is not a nuclear gauge; only gauges take standard counts",
+                gauge.serial
+            ),
         ));
     }
     let day = date("counted_on", &input.counted_on)?;
@@ -85,13 +88,19 @@ pub async fn record_count(
     if !assigned {
         return Err(AppError::invalid(
             "project_id",
-            format!("gauge {} is not assigned to project {} on {day}", gauge.serial, input.project_id),
+            format!(
+                "gauge {} is not assigned to project {} on {day}",
+                gauge.serial, input.project_id
+            ),
         ));
     }
     let now = clock::now();
     let mut tx = db::begin_write(pool).await?;
     let t = match db::instruments::tolerances_in(&mut tx, input.project_id).await? {
-        Some((d, m)) => CountTolerances { density_pct: d, moisture_pct: m },
+        Some((d, m)) => CountTolerances {
+            density_pct: d,
+            moisture_pct: m,
+        },
         None => CountTolerances::default(),
     };
     // The baseline begins at the calibration in force on the count's day.
@@ -133,7 +142,16 @@ pub async fn record_count(
         },
     )
     .await?;
-    audit_row(&mut tx, actor, "standard_count", c.id, Some(c.project_id), json!(c), &now).await?;
+    audit_row(
+        &mut tx,
+        actor,
+        "standard_count",
+        c.id,
+        Some(c.project_id),
+        json!(c),
+        &now,
+    )
+    .await?;
     tx.commit().await?;
     Ok(c)
 }
@@ -163,7 +181,10 @@ pub async fn set_tolerances(
     )
     .await?;
     tx.commit().await?;
-    Ok(CountTolerances { density_pct: d, moisture_pct: m })
+    Ok(CountTolerances {
+        density_pct: d,
+        moisture_pct: m,
+    })
 }
 
 /// Sets whether a clause records tests from an instrument out of check (marked) or refuses them.
@@ -175,7 +196,14 @@ pub async fn set_policy(
 ) -> Result<()> {
     let now = clock::now();
     let mut tx = db::begin_write(pool).await?;
-    db::instruments::set_policy(&mut tx, clause.id, input.record_out_of_check, &actor.name, &now).await?;
+    db::instruments::set_policy(
+        &mut tx,
+        clause.id,
+        input.record_out_of_check,
+        &actor.name,
+        &now,
+    )
+    .await?;
     audit_row(
         &mut tx,
         actor,

@@ -150,9 +150,11 @@ pub(crate) async fn audit_row(
 
 /// Loads an instrument or fails with 404 naming `instrument_id`.
 pub async fn require_instrument(pool: &Pool, id: i64) -> Result<Instrument> {
-    db::instruments::get_instrument(pool, id).await?.ok_or_else(|| {
-        AppError::not_found("instrument_id", format!("instrument {id} does not exist"))
-    })
+    db::instruments::get_instrument(pool, id)
+        .await?
+        .ok_or_else(|| {
+            AppError::not_found("instrument_id", format!("instrument {id} does not exist"))
+        })
 }
 
 /// Loads an instrument by serial or fails with 404 naming `serial`.
@@ -176,7 +178,11 @@ fn checked_record(
     now: &str,
 ) -> Result<db::instruments::InstrumentRecord> {
     let done_on = date("done_on", &input.done_on)?;
-    let due_on = input.due_on.as_deref().map(|d| date("due_on", d)).transpose()?;
+    let due_on = input
+        .due_on
+        .as_deref()
+        .map(|d| date("due_on", d))
+        .transpose()?;
     if let Some(due) = &due_on
         && due < &done_on
     {
@@ -186,18 +192,20 @@ fn checked_record(
         ));
     }
     if input.kind == RecordKind::Licence && due_on.is_none() {
-        return Err(AppError::invalid("due_on", "a licence needs its expiry date"));
+        return Err(AppError::invalid(
+            "due_on",
+            "a licence needs its expiry date",
+        ));
     }
     let cal = input.kind == RecordKind::Calibration;
-    let needed = |v: Option<f64>, field: &str, min: f64, max: f64, unit: &str, wanted: bool| {
-        match v {
-            Some(x) => number(field, x, min, max, unit).map(Some),
-            None if wanted => Err(AppError::invalid(
-                field,
-                "is required for this instrument's calibration",
-            )),
-            None => Ok(None),
-        }
+    let needed = |v: Option<f64>, field: &str, min: f64, max: f64, unit: &str, wanted: bool| match v
+    {
+        Some(x) => number(field, x, min, max, unit).map(Some),
+        None if wanted => Err(AppError::invalid(
+            field,
+            "is required for this instrument's calibration",
+        )),
+        None => Ok(None),
     };
     // Ranges (common practice): cone-and-plate sand 500–4000 g; sand 1000–2000 kg/m³ (as
     // the field reduction accepts); volumes 100–10,000 cm³.
@@ -252,25 +260,27 @@ fn checked_instrument(
         created_by: actor.name.clone(),
     };
     let first = match &input.calibrated_on {
-        Some(on) => Some(checked_record(
-            input.kind,
-            &RecordInput {
-                kind: RecordKind::Calibration,
-                done_on: on.clone(),
-                due_on: input.due_on.clone(),
-                reference: String::new(),
-                cone_sand_mass_g: input.cone_sand_mass_g,
-                sand_density_kg_m3: input.sand_density_kg_m3,
-                volume_cm3: input.volume_cm3,
-            },
-            0,
-            actor,
-            now,
-        )
-        .map_err(|e| match e.field() {
-            "done_on" => AppError::invalid("calibrated_on", e.user_message()),
-            _ => e,
-        })?),
+        Some(on) => Some(
+            checked_record(
+                input.kind,
+                &RecordInput {
+                    kind: RecordKind::Calibration,
+                    done_on: on.clone(),
+                    due_on: input.due_on.clone(),
+                    reference: String::new(),
+                    cone_sand_mass_g: input.cone_sand_mass_g,
+                    sand_density_kg_m3: input.sand_density_kg_m3,
+                    volume_cm3: input.volume_cm3,
+                },
+                0,
+                actor,
+                now,
+            )
+            .map_err(|e| match e.field() {
+                "done_on" => AppError::invalid("calibrated_on", e.user_message()),
+                _ => e,
+            })?,
+        ),
         None if input.due_on.is_some() => {
             return Err(AppError::invalid(
                 "calibrated_on",
@@ -313,7 +323,11 @@ async fn insert_checked(
 }
 
 /// Registers an instrument.
-pub async fn create_instrument(pool: &Pool, input: &InstrumentInput, actor: &Actor) -> Result<Instrument> {
+pub async fn create_instrument(
+    pool: &Pool,
+    input: &InstrumentInput,
+    actor: &Actor,
+) -> Result<Instrument> {
     let now = clock::now();
     let (instrument, first) = checked_instrument(input, actor, &now)?;
     let mut tx = db::begin_write(pool).await?;
@@ -336,7 +350,16 @@ pub async fn add_record(
     let r = checked_record(kind, input, i.id, actor, &now)?;
     let mut tx = db::begin_write(pool).await?;
     let r = db::instruments::insert_record(&mut tx, &r).await?;
-    audit_row(&mut tx, actor, "instrument_record", r.id, None, json!(r), &now).await?;
+    audit_row(
+        &mut tx,
+        actor,
+        "instrument_record",
+        r.id,
+        None,
+        json!(r),
+        &now,
+    )
+    .await?;
     tx.commit().await?;
     Ok(r)
 }
@@ -351,7 +374,11 @@ pub async fn assign(
     let i = require_instrument(pool, instrument_id).await?;
     super::setup::require_project(pool, input.project_id).await?;
     let from_on = date("from_on", &input.from_on)?;
-    let to_on = input.to_on.as_deref().map(|d| date("to_on", d)).transpose()?;
+    let to_on = input
+        .to_on
+        .as_deref()
+        .map(|d| date("to_on", d))
+        .transpose()?;
     if to_on.as_ref().is_some_and(|t| t < &from_on) {
         return Err(AppError::invalid("to_on", "is before from_on"));
     }
@@ -371,13 +398,26 @@ pub async fn assign(
         },
     )
     .await?;
-    audit_row(&mut tx, actor, "instrument_assignment", a.id, Some(a.project_id), json!(a), &now).await?;
+    audit_row(
+        &mut tx,
+        actor,
+        "instrument_assignment",
+        a.id,
+        Some(a.project_id),
+        json!(a),
+        &now,
+    )
+    .await?;
     tx.commit().await?;
     Ok(a)
 }
 
 /// Registers a gauge operator.
-pub async fn create_operator(pool: &Pool, input: &OperatorInput, actor: &Actor) -> Result<db::instruments::Operator> {
+pub async fn create_operator(
+    pool: &Pool,
+    input: &OperatorInput,
+    actor: &Actor,
+) -> Result<db::instruments::Operator> {
     let now = clock::now();
     let o = db::instruments::Operator {
         id: 0,
@@ -389,13 +429,19 @@ pub async fn create_operator(pool: &Pool, input: &OperatorInput, actor: &Actor) 
         created_by: actor.name.clone(),
     };
     let mut tx = db::begin_write(pool).await?;
-    let o = db::instruments::insert_operator(&mut tx, &o).await.map_err(|e| {
-        if db::is_unique_violation(&e) {
-            AppError::conflict("code", format!("operator {} already exists", o.code), vec![])
-        } else {
-            e.into()
-        }
-    })?;
+    let o = db::instruments::insert_operator(&mut tx, &o)
+        .await
+        .map_err(|e| {
+            if db::is_unique_violation(&e) {
+                AppError::conflict(
+                    "code",
+                    format!("operator {} already exists", o.code),
+                    vec![],
+                )
+            } else {
+                e.into()
+            }
+        })?;
     audit_row(&mut tx, actor, "gauge_operator", o.id, None, json!(o), &now).await?;
     tx.commit().await?;
     Ok(o)
@@ -407,14 +453,19 @@ pub async fn create_operator(pool: &Pool, input: &OperatorInput, actor: &Actor) 
 /// and nothing is written.
 pub async fn import_csv(pool: &Pool, body: &str, actor: &Actor) -> Result<Vec<Instrument>> {
     let now = clock::now();
-    let mut reader = csv::ReaderBuilder::new().trim(csv::Trim::All).from_reader(body.as_bytes());
+    let mut reader = csv::ReaderBuilder::new()
+        .trim(csv::Trim::All)
+        .from_reader(body.as_bytes());
     let headers = reader
         .headers()
         .map_err(|e| AppError::invalid("file", format!("cannot read the header: {e}")))?
         .clone();
     let col = |name: &str| headers.iter().position(|h| h == name);
     let (Some(kind_col), Some(serial_col)) = (col("kind"), col("serial")) else {
-        return Err(AppError::invalid("file", "the header must name 'kind' and 'serial'"));
+        return Err(AppError::invalid(
+            "file",
+            "the header must name 'kind' and 'serial'",
+        ));
     };
     let mut rows = Vec::new();
     for (n, rec) in reader.records().enumerate() {
@@ -425,7 +476,10 @@ pub async fn import_csv(pool: &Pool, body: &str, actor: &Actor) -> Result<Vec<In
             field(name)
                 .map(|v| {
                     v.parse::<f64>().map_err(|_| {
-                        AppError::invalid(format!("rows[{n}].{name}"), format!("'{v}' is not a number"))
+                        AppError::invalid(
+                            format!("rows[{n}].{name}"),
+                            format!("'{v}' is not a number"),
+                        )
                     })
                 })
                 .transpose()
@@ -461,7 +515,9 @@ pub async fn import_csv(pool: &Pool, body: &str, actor: &Actor) -> Result<Vec<In
             .await
             .map_err(|e| match e {
                 AppError::Internal(_) => e,
-                e => AppError::conflict(format!("rows[{n}].{}", e.field()), e.user_message(), vec![]),
+                e => {
+                    AppError::conflict(format!("rows[{n}].{}", e.field()), e.user_message(), vec![])
+                }
             })?;
         out.push(i);
     }
@@ -480,14 +536,20 @@ pub async fn due_for_project(
     let book = check::InstrumentBook::load(pool, project_id).await?;
     let mut out = Vec::new();
     for i in &book.instruments {
-        if !book.assignments.iter().any(|a| a.instrument_id == i.id && a.covers(today)) {
+        if !book
+            .assignments
+            .iter()
+            .any(|a| a.instrument_id == i.id && a.covers(today))
+        {
             continue;
         }
         for kind in ["calibration", "leak_test", "licence"] {
             let latest = book
                 .records
                 .iter()
-                .filter(|r| r.instrument_id == i.id && r.kind == kind && r.done_on.as_str() <= today)
+                .filter(|r| {
+                    r.instrument_id == i.id && r.kind == kind && r.done_on.as_str() <= today
+                })
                 .max_by(|a, b| a.done_on.cmp(&b.done_on).then(a.id.cmp(&b.id)));
             if let Some(r) = latest
                 && let Some(due) = &r.due_on

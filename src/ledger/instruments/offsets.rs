@@ -49,9 +49,14 @@ pub async fn create_offset(
             format!("{} is not a nuclear gauge", gauge.serial),
         ));
     }
-    let source = db::sources::get(pool, input.source_id).await?.ok_or_else(|| {
-        AppError::not_found("source_id", format!("source {} does not exist", input.source_id))
-    })?;
+    let source = db::sources::get(pool, input.source_id)
+        .await?
+        .ok_or_else(|| {
+            AppError::not_found(
+                "source_id",
+                format!("source {} does not exist", input.source_id),
+            )
+        })?;
     let effective_on = date("effective_on", &input.effective_on)?;
     let o = offsets_from_pairs(&input.pairs).map_err(|e| match &e {
         OffsetError::TooFewPairs { .. } => AppError::invalid("pairs", e.to_string()),
@@ -79,11 +84,22 @@ pub async fn create_offset(
         },
     )
     .await?;
-    audit_row(&mut tx, actor, "gauge_offset", offset.id, Some(source.project_id), json!(offset), &now).await?;
+    audit_row(
+        &mut tx,
+        actor,
+        "gauge_offset",
+        offset.id,
+        Some(source.project_id),
+        json!(offset),
+        &now,
+    )
+    .await?;
     known.push(offset.clone());
     known.retain(|k| k.source_id == offset.source_id && k.mode == offset.mode);
     let mut applied_to = Vec::new();
-    for mut t in db::instruments::tests_for_offset(&mut tx, &gauge.serial, source.id, &effective_on).await? {
+    for mut t in
+        db::instruments::tests_for_offset(&mut tx, &gauge.serial, source.id, &effective_on).await?
+    {
         let Ok(readings) = serde_json::from_str::<FieldReadings>(&t.readings_json) else {
             continue;
         };
