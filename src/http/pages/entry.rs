@@ -163,8 +163,10 @@ pub fn parse_entry(f: &EntryForm, u: &Units, retest: bool) -> Result<FieldTestIn
         }
         "sand_cone" => {
             let used = num(&mut e, "mass_sand_used_g", &f.mass_sand_used_g, true);
-            let cone = num(&mut e, "mass_sand_in_cone_g", &f.mass_sand_in_cone_g, true);
-            let rho = num(&mut e, "sand_density_kg_m3", &f.sand_density_kg_m3, true);
+            // Blank: taken from the registered cone's and sand batch's calibrations in force.
+            let cone =
+                num(&mut e, "mass_sand_in_cone_g", &f.mass_sand_in_cone_g, false).or(Some(0.0));
+            let rho = num(&mut e, "sand_density_kg_m3", &f.sand_density_kg_m3, false).or(Some(0.0));
             let soil = num(&mut e, "mass_wet_soil_g", &f.mass_wet_soil_g, true);
             let w = num(&mut e, "water_content_pct", &f.water_content_pct, true);
             match (used, cone, rho, soil, w) {
