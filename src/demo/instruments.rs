@@ -1,9 +1,9 @@
 //! The demo's instrument register, loaded after the demo project through the same
-//! ledger functions the API uses. The register starts late in November (earlier tests
-//! stay "instrument not recorded"): two gauges with their daily counts — NG-5120 drifts
+//! ledger functions the API uses. The register starts late in November with two newly
+//! registered gauges (earlier tests, from unregistered gauges, stay "instrument not recorded"): two gauges with their daily counts — NG-6310 drifts
 //! out of tolerance on 2 December and is caught (its counts fail twice, so the register
 //! refuses its tests that day) —, a sand-cone apparatus with a sand batch change, one set
-//! of material offsets for NG-4471, and three tests on an open lot that pass the checks.
+//! of material offsets for NG-6203, and three tests on an open lot that pass the checks.
 
 use anyhow::{Context, anyhow};
 
@@ -122,7 +122,7 @@ pub async fn load(pool: &Pool, pid: i64) -> anyhow::Result<()> {
         pid,
         instrument(
             InstrumentKind::NuclearGauge,
-            "NG-4471",
+            "NG-6203",
             "moisture-density gauge, unit A",
             "2026-02-10",
             Some("2027-02-10"),
@@ -137,7 +137,7 @@ pub async fn load(pool: &Pool, pid: i64) -> anyhow::Result<()> {
         pid,
         instrument(
             InstrumentKind::NuclearGauge,
-            "NG-5120",
+            "NG-6310",
             "moisture-density gauge, unit B",
             "2025-12-20",
             Some("2026-12-20"),
@@ -153,7 +153,7 @@ pub async fn load(pool: &Pool, pid: i64) -> anyhow::Result<()> {
             kind: reg::RecordKind::LeakTest,
             done_on: "2026-06-20".into(),
             due_on: Some("2026-12-20".into()),
-            reference: "wipe test WT-5120-2".into(),
+            reference: "wipe test WT-6310-2".into(),
             cone_sand_mass_g: None,
             sand_density_kg_m3: None,
             volume_cm3: None,
@@ -314,8 +314,8 @@ async fn tests_on_an_open_lot(
             .await
             .map_err(user_error)
     };
-    record(nuclear(lot, mdd, omc, "NG-4471", "2026-12-01", 0.01)?).await?;
-    record(nuclear(lot, mdd, omc, "NG-5120", "2026-12-01", 0.005)?).await?;
+    record(nuclear(lot, mdd, omc, "NG-6203", "2026-12-01", 0.01)?).await?;
+    record(nuclear(lot, mdd, omc, "NG-6310", "2026-12-01", 0.005)?).await?;
     let sand = serde_json::from_value(serde_json::json!({
         "tested_at": "2026-12-01T11:00:00Z", "technician": "M. Lindqvist", "instrument_serial": "SC-07",
         "chainage_m": lot.chainage_from_m + (lot.chainage_to_m - lot.chainage_from_m) * 0.6,

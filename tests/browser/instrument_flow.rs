@@ -26,14 +26,14 @@ async fn a_technician_enters_a_standard_count_on_a_phone() {
     mark_page(b).await;
     b.find("a[href^='/instruments/']").await.click().await;
     wait_for_new_page(b).await;
-    assert_eq!(b.find("h1").await.text().await, "NG-4471 (nuclear gauge)");
+    assert_eq!(b.find("h1").await.text().await, "NG-6203 (nuclear gauge)");
     b.wait_for(".count-chart").await;
     assert_eq!(
         sideways_overflow(b).await,
         0,
         "the count form fits a 360 px screen"
     );
-    let before = counts_of(&rig, "NG-4471").await;
+    let before = counts_of(&rig, "NG-6203").await;
 
     // A count of zero comes back with the field named; nothing is saved.
     b.find("#density_count").await.type_over("0").await;
@@ -43,17 +43,17 @@ async fn a_technician_enters_a_standard_count_on_a_phone() {
     wait_for_new_page(b).await;
     let error = b.find("#count-error").await.text().await;
     assert!(error.starts_with("density_count:"), "{error}");
-    assert_eq!(counts_of(&rig, "NG-4471").await, before);
+    assert_eq!(counts_of(&rig, "NG-6203").await, before);
     rig.shot("1-zero-refused").await;
 
-    // The demo's last four accepted counts of NG-4471 average 2806.75 / 699.5 (hand
+    // The demo's last four accepted counts of NG-6203 average 2806.75 / 699.5 (hand
     // arithmetic over demo/instruments.rs); 2810 / 701 are well inside 1 % and 2 % (from memory).
     b.find("#density_count").await.type_over("2810").await;
     b.find("#moisture_count").await.type_over("701").await;
     mark_page(b).await;
     b.find("#save-count").await.click().await;
     wait_for_new_page(b).await;
-    assert_eq!(counts_of(&rig, "NG-4471").await, before + 1);
+    assert_eq!(counts_of(&rig, "NG-6203").await, before + 1);
     let first = b.find("#count-table tbody tr").await.text().await;
     assert!(
         first.contains("2810") && first.contains("accepted"),

@@ -173,14 +173,7 @@ async fn standard_counts_are_judged_and_tests_check_their_gauge() {
         e["error"]["message"].as_str().unwrap().contains("failed"),
         "{e}"
     );
-    // An unknown serial on a project using the register, and an unregistered tester.
-    let (s, e) = app
-        .post(&lot, &gauge_test("G-3", 1020.0, "2026-11-20", "NOPE-9"))
-        .await;
-    assert_eq!(
-        (s, e["error"]["field"].as_str()),
-        (422, Some("instrument_serial"))
-    );
+    // An unregistered tester is refused.
     let mut t = gauge_test("G-3", 1020.0, "2026-11-20", "GX-101");
     t["technician"] = json!("Somebody Else");
     let (s, e) = app.post(&lot, &t).await;
@@ -202,7 +195,13 @@ async fn standard_counts_are_judged_and_tests_check_their_gauge() {
         .await;
     assert_eq!(s, 201, "{t}");
     assert_eq!(t["instrument_check"], "out_of_check");
-    // A test naming no instrument is not recorded, and not blocked.
+    // A test naming an unregistered serial is not recorded, and not blocked.
+    let (s, t) = app
+        .post(&lot, &gauge_test("G-6", 1050.0, "2026-11-21", "NOPE-9"))
+        .await;
+    assert_eq!(s, 201, "{t}");
+    assert_eq!(t["instrument_check"], "not_recorded");
+    // Nor is one naming no instrument.
     let mut plain = gauge_test("G-4", 1030.0, "2026-11-20", "");
     plain["readings"]
         .as_object_mut()
@@ -224,8 +223,8 @@ async fn standard_counts_are_judged_and_tests_check_their_gauge() {
     };
     assert_eq!(line("G-2")["standing"], "cannot_be_judged");
     assert_eq!(
-        r["verdict"]["n"], 2,
-        "G-1 and G-4 count; G-2 is out of the statistics"
+        r["verdict"]["n"], 3,
+        "G-1, G-4 and G-6 count; G-2 is out of the statistics"
     );
     assert!(
         r["submit_blockers"]

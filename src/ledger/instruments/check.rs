@@ -3,10 +3,10 @@
 //! further database access.
 //!
 //! The rules (stated once, here):
-//! - A test naming no serial, or (imports, and projects with no instrument assigned)
-//!   a serial the register does not know, is *instrument not recorded*: shown as such,
-//!   never blocked. A test entered one at a time on a project that uses the register
-//!   must name a registered serial (422 on `instrument_serial`).
+//! - A test naming no serial, or a serial the register does not know (tests entered
+//!   before the register existed, their retests, imports), is *instrument not recorded*:
+//!   shown as such, never blocked. Unknown serials are refused (404 naming `serial`)
+//!   where the register itself is addressed, not on tests.
 //! - A registered instrument must be assigned to the test's project on the test's date.
 //! - A nuclear test needs a registered operator (the `technician`, by code or name) whose
 //!   certification covers the date, an accepted standard count of the gauge that day and
@@ -35,8 +35,8 @@ use crate::reduction::instruments::{
 const SAME_MASS_G: f64 = 0.05;
 const SAME_DENSITY_KG_M3: f64 = 0.5;
 
-/// How a test arrives: one at a time (unknown serials refused on a register project)
-/// or in an import (unknown serials recorded as not recorded).
+/// How a test arrives: one at a time or in an import (both checked by the same rules;
+/// kept so a caller says which path it is).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Arrival {
     Single,
@@ -136,13 +136,8 @@ pub fn check_with_instruments(
         Some(t) => crate::clock::date_of(&validate::timestamp("tested_at", t)?),
         None => crate::clock::date_of(now),
     };
+    let _ = arrival;
     let Some(instrument) = book.instrument(&serial) else {
-        if arrival == Arrival::Single && !serial.is_empty() && !book.assignments.is_empty() {
-            return Err(AppError::invalid(
-                "instrument_serial",
-                format!("'{serial}' is not in the instrument register"),
-            ));
-        }
         return check_loaded(ctx, input, fallback, actor, now);
     };
     if !book.assigned(instrument.id, &day) {
