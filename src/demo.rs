@@ -12,6 +12,8 @@ mod planning;
 use crate::db::Pool;
 use crate::ledger::{self, Actor};
 
+mod instruments;
+
 const PROJECT: &str = include_str!("../demo-data/project.json");
 const FIELD_TESTS: &str = include_str!("../demo-data/field-tests.json");
 const ACTIONS: &str = include_str!("../demo-data/actions.json");
@@ -189,6 +191,9 @@ pub async fn load(pool: &Pool) -> anyhow::Result<String> {
             .with_context(|| format!("demo action {a}"))?;
     }
     planning::load(pool, pid, &setup_actor, &entry_actor).await?;
+    instruments::load(pool, pid)
+        .await
+        .context("demo instrument register")?;
     Ok(format!(
         "project {} with {} lots, {} field tests, {} review actions",
         project.code,

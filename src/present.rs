@@ -132,3 +132,18 @@ pub fn state_label(state: &str) -> &'static str {
         _ => "unknown",
     }
 }
+
+/// A record falling due, in words: "GX-101 calibration due 2026-12-13 (in 10 days)".
+pub fn due_words(serial: &str, record: &str, due: Option<&str>, days: i64) -> String {
+    let when = match days {
+        d if d < 0 => format!("{} days overdue", -d),
+        0 => "today".to_string(),
+        1 => "in 1 day".to_string(),
+        d => format!("in {d} days"),
+    };
+    format!(
+        "{serial} {} due {} ({when})",
+        record.replace('_', " "),
+        due.unwrap_or("")
+    )
+}

@@ -335,6 +335,7 @@ impl TestGenerator {
             northing: Some((northing * 1000.0).round() / 1000.0),
             readings,
             confirm_implausible: false,
+            calibration_override_reason: None,
         };
         (
             ImportRow {

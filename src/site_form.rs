@@ -202,6 +202,7 @@ pub fn parse_entry(f: &EntryForm, u: &Units, retest: bool) -> Result<FieldTestIn
             northing: None,
             readings,
             confirm_implausible: !f.confirm_implausible.trim().is_empty(),
+            calibration_override_reason: None,
         }),
         _ => Err(e),
     }

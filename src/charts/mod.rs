@@ -14,6 +14,7 @@ pub mod placement;
 pub mod svg;
 
 mod control_chart;
+pub mod count_chart;
 mod curve_chart;
 mod lift_map;
 mod map_cells;

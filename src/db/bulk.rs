@@ -16,11 +16,12 @@ use super::field_tests::FieldTest;
 const TEST_COLUMNS: &str = "id, project_id, lot_id, number, tested_at, technician, method, instrument_serial, chainage_m,
     offset_m, depth_mm, coarse_pct, coarse_water_content_pct, easting, northing, readings_json, wet_density_kg_m3,
     water_content_pct, dry_density_kg_m3, moisture_source, reduction_version, retest_of, void_reason, voided_by,
-    voided_at, created_at, created_by";
+    voided_at, created_at, created_by, instrument_check, instrument_note, operator_id, density_offset_kg_m3,
+    moisture_offset_pct";
 
-const INSERT_WIDTH: usize = 27;
+const INSERT_WIDTH: usize = 32;
 
-/// Rows per multi-row INSERT: 64 × 27 parameters stays far below SQLite's 32,766 limit.
+/// Rows per multi-row INSERT: 64 × 32 parameters stays far below SQLite's 32,766 limit.
 pub const INSERT_ROWS: usize = 64;
 
 /// Largest id used so far in `field_tests` (0 when empty).
@@ -231,7 +232,12 @@ pub async fn insert_field_tests(
                 .bind(&t.voided_by)
                 .bind(&t.voided_at)
                 .bind(&t.created_at)
-                .bind(&t.created_by);
+                .bind(&t.created_by)
+                .bind(&t.instrument_check)
+                .bind(&t.instrument_note)
+                .bind(t.operator_id)
+                .bind(t.density_offset_kg_m3)
+                .bind(t.moisture_offset_pct);
         }
         q.execute(&mut *conn).await?;
     }
@@ -287,7 +293,7 @@ pub const VERDICT_COLUMNS: &str = "id, project_id, lot_id, number, '' AS tested_
     '' AS instrument_serial, chainage_m, offset_m, depth_mm, coarse_pct, coarse_water_content_pct, easting, northing,
     '' AS readings_json, wet_density_kg_m3, water_content_pct, dry_density_kg_m3, '' AS moisture_source,
     '' AS reduction_version, retest_of, void_reason, CAST(NULL AS TEXT) AS voided_by, CAST(NULL AS TEXT) AS voided_at, '' AS created_at,
-    '' AS created_by";
+    '' AS created_by, instrument_check, instrument_note, operator_id, density_offset_kg_m3, moisture_offset_pct";
 
 /// The columns of a test the lot verdict and the whole-project views need.
 ///
@@ -296,7 +302,8 @@ pub const VERDICT_COLUMNS: &str = "id, project_id, lot_id, number, '' AS tested_
 pub const VIEW_COLUMNS: &str = "id, project_id, lot_id, number, tested_at, technician, method, instrument_serial, chainage_m,
     offset_m, depth_mm, coarse_pct, coarse_water_content_pct, easting, northing, '' AS readings_json, wet_density_kg_m3,
     water_content_pct, dry_density_kg_m3, moisture_source, reduction_version, retest_of, void_reason, voided_by,
-    voided_at, created_at, created_by";
+    voided_at, created_at, created_by, instrument_check, instrument_note, operator_id, density_offset_kg_m3,
+    moisture_offset_pct";
 
 /// A saved column mapping of a project.
 #[derive(Debug, Clone, Serialize, sqlx::FromRow)]

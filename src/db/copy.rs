@@ -8,7 +8,7 @@ use sqlx::{Column, Row, ValueRef};
 use super::{Engine, Pool, engine_of};
 
 /// Every table, parents before children, so foreign keys hold at each insert.
-pub const TABLES: [&str; 21] = [
+pub const TABLES: [&str; 29] = [
     "projects",
     "users",
     "clauses",
@@ -30,6 +30,14 @@ pub const TABLES: [&str; 21] = [
     "idempotency_keys",
     "test_plans",
     "one_point_checks",
+    "instruments",
+    "instrument_records",
+    "instrument_assignments",
+    "gauge_operators",
+    "standard_counts",
+    "instrument_tolerances",
+    "clause_instrument_policy",
+    "gauge_offsets",
 ];
 
 /// What a copy moved and checked.

@@ -34,12 +34,24 @@ pub struct FieldTest {
     pub voided_at: Option<String>,
     pub created_at: String,
     pub created_by: String,
+    /// What the register said of the instrument: "not_recorded", "in_check" or "out_of_check"
+    /// (see `ledger::instruments::check`).
+    pub instrument_check: String,
+    /// The instrument's evidence as recorded (calibration, that day's standard count), the
+    /// reason it was out of check, or the reason a calibrated value was overridden.
+    pub instrument_note: Option<String>,
+    /// The registered gauge operator who ran the test.
+    pub operator_id: Option<i64>,
+    /// Material offsets applied to the gauge reading (the raw reading stays in `readings_json`).
+    pub density_offset_kg_m3: Option<f64>,
+    pub moisture_offset_pct: Option<f64>,
 }
 
-const COLUMNS: &str = "id, project_id, lot_id, number, tested_at, technician, method, instrument_serial, chainage_m,
+pub(crate) const COLUMNS: &str = "id, project_id, lot_id, number, tested_at, technician, method, instrument_serial, chainage_m,
     offset_m, depth_mm, coarse_pct, coarse_water_content_pct, easting, northing, readings_json, wet_density_kg_m3,
     water_content_pct, dry_density_kg_m3, moisture_source, reduction_version, retest_of, void_reason, voided_by,
-    voided_at, created_at, created_by";
+    voided_at, created_at, created_by, instrument_check, instrument_note, operator_id, density_offset_kg_m3,
+    moisture_offset_pct";
 
 /// Filters for listing tests across a project; `None` means "any".
 #[derive(Debug, Clone, Default)]
@@ -61,8 +73,10 @@ pub async fn insert(tx: &mut Tx<'_>, t: &FieldTest) -> sqlx::Result<i64> {
         "INSERT INTO field_tests (project_id, lot_id, number, tested_at, technician, method, instrument_serial,
              chainage_m, offset_m, depth_mm, coarse_pct, coarse_water_content_pct, easting, northing, readings_json,
              wet_density_kg_m3, water_content_pct, dry_density_kg_m3, moisture_source, reduction_version, retest_of,
-             void_reason, voided_by, voided_at, created_at, created_by)
-         VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18, $19, $20, $21, $22, $23, $24, $25, $26) RETURNING id",
+             void_reason, voided_by, voided_at, created_at, created_by, instrument_check, instrument_note,
+             operator_id, density_offset_kg_m3, moisture_offset_pct)
+         VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18, $19, $20, $21, $22, $23, $24, $25, $26,
+             $27, $28, $29, $30, $31) RETURNING id",
     )
     .bind(t.project_id)
     .bind(t.lot_id)
@@ -90,6 +104,11 @@ pub async fn insert(tx: &mut Tx<'_>, t: &FieldTest) -> sqlx::Result<i64> {
     .bind(&t.voided_at)
     .bind(&t.created_at)
     .bind(&t.created_by)
+    .bind(&t.instrument_check)
+    .bind(&t.instrument_note)
+    .bind(t.operator_id)
+    .bind(t.density_offset_kg_m3)
+    .bind(t.moisture_offset_pct)
     .fetch_one(&mut **tx)
     .await
 }

@@ -14,6 +14,7 @@ pub mod copy;
 pub mod field_tests;
 pub mod health;
 pub mod idempotency;
+pub mod instruments;
 pub mod lab_tests;
 pub mod layers;
 pub mod lots;

@@ -59,7 +59,7 @@ pub fn build(r: &LotReport, issue: Issue<'_>) -> CertificateDoc {
         .iter()
         .map(|t| {
             let result = t.result();
-            let mut notes = t.cautions();
+            let mut notes = t.cautions_without_instrument();
             if let Some(n) = &t.retest_of_number {
                 notes.push(format!("retest of {n}"));
             }
@@ -75,6 +75,8 @@ pub fn build(r: &LotReport, issue: Issue<'_>) -> CertificateDoc {
                     t.test.coarse_pct.unwrap_or(0.0)
                 ));
             }
+            // The test's instrument, its calibration and that day's standard count.
+            notes.extend(super::lot_report::instrument_cautions(&t.test));
             TestRow {
                 number: t.test.number.clone(),
                 date: clock::date_of(&t.test.tested_at),

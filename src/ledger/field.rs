@@ -3,6 +3,7 @@
 use serde_json::json;
 
 use super::Actor;
+use super::instruments::check::{Arrival, InstrumentBook, check_with_instruments};
 use super::lot_report;
 use super::validate::{code, number, optional_text, quantity, text, timestamp};
 use crate::clock;
@@ -201,7 +202,9 @@ pub async fn check(
     let now = clock::now();
     // The plausibility check needs the lab curve's Gs, the oversize check the clause and source.
     let ctx = LotContext::load(pool, lot).await?;
-    let mut checked = check_loaded(&ctx, input, fallback, actor, &now)?;
+    let book = InstrumentBook::load(pool, lot.project_id).await?;
+    let mut checked =
+        check_with_instruments(&book, &ctx, input, fallback, actor, &now, Arrival::Single)?;
     checked.record.retest_of = retest_of.map(|t| t.id);
     Ok(checked)
 }
@@ -296,6 +299,13 @@ fn check_record(
         voided_at: None,
         created_at: now.to_string(),
         created_by: actor.name.clone(),
+        instrument_check: crate::reduction::instruments::InstrumentCheck::NotRecorded
+            .code()
+            .to_string(),
+        instrument_note: None,
+        operator_id: None,
+        density_offset_kg_m3: None,
+        moisture_offset_pct: None,
     };
     Ok(CheckedTest { record })
 }
@@ -510,7 +520,16 @@ pub async fn record_judged(
     let lot = require_lot(pool, lot_id).await?;
     require_lot_takes_tests(&lot)?;
     let ctx = LotContext::load_with(pool, rules, &lot).await?;
-    let checked = check_loaded(&ctx, input, None, actor, &clock::now())?;
+    let book = InstrumentBook::load(pool, lot.project_id).await?;
+    let checked = check_with_instruments(
+        &book,
+        &ctx,
+        input,
+        None,
+        actor,
+        &clock::now(),
+        Arrival::Single,
+    )?;
     let test = match writer {
         Some(w) => w.store(checked.record, actor, "create").await?,
         None => store(pool, checked, actor, "create").await?,
@@ -661,8 +680,42 @@ pub async fn preview(
 ) -> Result<serde_json::Value> {
     let lot = require_lot(pool, lot_id).await?;
     let ctx = LotContext::load(pool, &lot).await?;
-    // The record's own checks first; the preview itself is the pure one the phone runs too.
-    check_loaded(&ctx, input, None, actor, &clock::now())?;
-    let p = reduction::site::preview(&ctx.rules, input, None).map_err(site_error)?;
-    Ok(serde_json::to_value(p).map_err(anyhow::Error::from)?)
+    let book = InstrumentBook::load(pool, lot.project_id).await?;
+    let checked = check_with_instruments(
+        &book,
+        &ctx,
+        input,
+        None,
+        actor,
+        &clock::now(),
+        Arrival::Single,
+    )?;
+    let r = &checked.record;
+    let reference = ctx.reference_for(r.coarse_pct, r.coarse_water_content_pct)?;
+    let v = judge(&ctx, r)?;
+    let flags = lot_report::flags_of(
+        r,
+        &ctx.lot,
+        &ctx.lab,
+        &ctx.clause,
+        Some(v.relative_compaction_pct),
+    );
+    Ok(json!({
+        "flags": flags,
+        "wet_density_kg_m3": r.wet_density_kg_m3,
+        "water_content_pct": r.water_content_pct,
+        "dry_density_kg_m3": r.dry_density_kg_m3,
+        "moisture_source": r.moisture_source,
+        "instrument_check": r.instrument_check,
+        "instrument_note": r.instrument_note,
+        "density_offset_kg_m3": r.density_offset_kg_m3,
+        "moisture_offset_pct": r.moisture_offset_pct,
+        "reference_mdd_kg_m3": reference.max_dry_density.kg_m3(),
+        "reference_omc_pct": reference.optimum_water_content.pct(),
+        "relative_compaction_pct": v.relative_compaction_pct,
+        "moisture_deviation_pct": v.moisture_deviation_pct,
+        "passed": v.passed,
+        "reasons": v.reasons,
+        "saved": false,
+    }))
 }

@@ -375,6 +375,8 @@ impl Lots {
 struct Run<'a> {
     project_id: i64,
     lots: &'a Lots,
+    /// The instrument register as the project's tests are checked against it.
+    instruments: &'a super::instruments::check::InstrumentBook,
     opts: &'a ImportOptions,
     now: String,
     next_id: i64,
@@ -556,15 +558,22 @@ impl Run<'_> {
         let fallback = target
             .as_ref()
             .and_then(|(n, _)| self.failed_spots.get(n.as_str()).copied());
-        let mut record =
-            match field::check_loaded(ctx, &row.input, fallback, &self.opts.actor, &self.now) {
-                Ok(c) => c.record,
-                Err(AppError::Internal(e)) => return Err(AppError::Internal(e)),
-                Err(e) => {
-                    self.refuse(&number, vec![row.problem(e.field(), e.user_message())]);
-                    return Ok(());
-                }
-            };
+        let mut record = match super::instruments::check::check_with_instruments(
+            self.instruments,
+            ctx,
+            &row.input,
+            fallback,
+            &self.opts.actor,
+            &self.now,
+            super::instruments::check::Arrival::Import,
+        ) {
+            Ok(c) => c.record,
+            Err(AppError::Internal(e)) => return Err(AppError::Internal(e)),
+            Err(e) => {
+                self.refuse(&number, vec![row.problem(e.field(), e.user_message())]);
+                return Ok(());
+            }
+        };
         record.retest_of = target.as_ref().map(|(_, s)| s.id);
         let hash = content_hash(&record);
 
@@ -831,9 +840,11 @@ pub async fn import_field_tests(
         pool.begin().await?
     };
     let lots = load_lots(pool, project_id).await?;
+    let book = super::instruments::check::InstrumentBook::load(pool, project_id).await?;
     let mut run = Run {
         project_id,
         lots: &lots,
+        instruments: &book,
         opts,
         now: clock::now(),
         next_id: bulk::max_field_test_id(&mut tx).await? + 1,

@@ -57,8 +57,16 @@ impl TestLine {
         }
     }
 
-    /// What a reader is told beside the result: "cannot be judged: reason", the flags.
+    /// What a reader is told beside the result: "cannot be judged: reason", the flags,
+    /// then the test's instrument (see [`instrument_cautions`]).
     pub fn cautions(&self) -> Vec<String> {
+        let mut out = self.cautions_without_instrument();
+        out.extend(instrument_cautions(&self.test));
+        out
+    }
+
+    /// [`Self::cautions`] without the instrument's lines (the certificate prints those last).
+    pub fn cautions_without_instrument(&self) -> Vec<String> {
         let mut out = Vec::new();
         if let Some(r) = &self.unjudged_reason {
             out.push(format!("cannot be judged: {r}"));
@@ -80,6 +88,29 @@ impl TestLine {
         }
         out
     }
+}
+
+/// What a reader is told of a test's instrument: not recorded, its evidence (calibration,
+/// that day's standard count, an override) and any offsets applied. A test out of check
+/// says so through its "cannot be judged" reason.
+pub fn instrument_cautions(t: &db::field_tests::FieldTest) -> Vec<String> {
+    use crate::reduction::instruments::InstrumentCheck;
+    let mut out = Vec::new();
+    match InstrumentCheck::parse_code(&t.instrument_check) {
+        InstrumentCheck::NotRecorded => out.push(InstrumentCheck::NotRecorded.label().to_string()),
+        InstrumentCheck::InCheck => {
+            out.extend(t.instrument_note.iter().map(|n| format!("instrument: {n}")));
+        }
+        InstrumentCheck::OutOfCheck => {}
+    }
+    if t.density_offset_kg_m3.is_some() || t.moisture_offset_pct.is_some() {
+        out.push(format!(
+            "gauge offsets applied: density {:+.1} kg/m³, moisture {:+.2} % (raw reading kept)",
+            t.density_offset_kg_m3.unwrap_or(0.0),
+            t.moisture_offset_pct.unwrap_or(0.0)
+        ));
+    }
+    out
 }
 
 /// The statistics and verdict of a lot under its clause's rule.
@@ -262,6 +293,18 @@ fn judge_line(
     (Some(reference), Some(v), reasons)
 }
 
+/// Why a test recorded from an instrument out of check cannot be judged (None otherwise):
+/// it stays on record, out of the statistics, and blocks submission.
+fn out_of_check(t: &db::field_tests::FieldTest) -> Option<String> {
+    use crate::reduction::instruments::InstrumentCheck;
+    (InstrumentCheck::parse_code(&t.instrument_check) == InstrumentCheck::OutOfCheck).then(|| {
+        format!(
+            "instrument out of check ({})",
+            t.instrument_note.as_deref().unwrap_or("no record")
+        )
+    })
+}
+
 /// Builds the report of a lot from the store.
 #[tracing::instrument(skip(pool))]
 pub async fn build(pool: &Pool, lot_id: i64) -> Result<LotReport> {
@@ -319,15 +362,18 @@ pub fn assemble(
 
     let judged: Vec<_> = tests
         .iter()
-        .map(|t| {
-            let own = extras.reference_of_test(t.id, reference.specific_gravity);
-            judge_line(
-                t,
-                own.as_ref().unwrap_or(&reference),
-                &limits,
-                &source,
-                &clause,
-            )
+        .map(|t| match out_of_check(t) {
+            Some(reason) => (None, None, vec![reason]),
+            None => {
+                let own = extras.reference_of_test(t.id, reference.specific_gravity);
+                judge_line(
+                    t,
+                    own.as_ref().unwrap_or(&reference),
+                    &limits,
+                    &source,
+                    &clause,
+                )
+            }
         })
         .collect();
     let inputs: Vec<LotTestInput> = tests
@@ -556,6 +602,9 @@ fn fingerprint(
             t.retest_of,
             t.void_reason
         ));
+        if t.instrument_check == "out_of_check" {
+            h.update("instrument out of check|");
+        }
     }
     hex::encode(h.finalize())
 }
@@ -593,7 +642,10 @@ pub fn judge_alone(
     retest_of_number: Option<String>,
 ) -> Result<TestLine> {
     let reference = reference_of(lab)?;
-    let (r, v, reasons) = judge_line(t, &reference, &limits_of(clause)?, source, clause);
+    let (r, v, reasons) = match out_of_check(t) {
+        Some(reason) => (None, None, vec![reason]),
+        None => judge_line(t, &reference, &limits_of(clause)?, source, clause),
+    };
     let rc = v.as_ref().map(|v| v.relative_compaction_pct);
     Ok(TestLine {
         unjudged_reason: v.is_none().then(|| reasons.join("; ")),

@@ -10,6 +10,7 @@ pub mod certificate_doc;
 pub mod field;
 pub mod idempotent;
 pub mod import;
+pub mod instruments;
 pub mod lot_report;
 pub mod lot_split;
 pub mod moisture_terms;

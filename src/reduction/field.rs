@@ -37,9 +37,13 @@ pub enum FieldReadings {
     SandCone {
         /// Sand poured from the jar in total, g.
         mass_sand_used_g: f64,
-        /// Sand that fills the cone and plate (calibrated), g.
+        /// Sand that fills the cone and plate (calibrated), g. Absent (0): taken from
+        /// the registered cone's calibration in force on the test's date.
+        #[serde(default)]
         mass_sand_in_cone_g: f64,
-        /// Calibrated bulk density of the sand, kg/m³.
+        /// Calibrated bulk density of the sand, kg/m³. Absent (0): taken from the sand
+        /// batch on the project on the test's date.
+        #[serde(default)]
         sand_density_kg_m3: f64,
         /// Wet soil dug from the hole, g.
         mass_wet_soil_g: f64,

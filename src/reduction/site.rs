@@ -33,6 +33,10 @@ pub struct FieldTestInput {
     /// The technician confirms a reading far above zero air voids (refused otherwise).
     #[serde(default)]
     pub confirm_implausible: bool,
+    /// Why a sand-cone test uses a cone mass or sand density other than the calibration
+    /// in force on its date (required for such an override; see `ledger::instruments`).
+    #[serde(default)]
+    pub calibration_override_reason: Option<String>,
 }
 
 /// What a test on one lot is checked and judged against: the lot's place, its clause's
@@ -387,6 +391,7 @@ mod tests {
                 probe_depth_mm: None,
             },
             confirm_implausible: false,
+            calibration_override_reason: None,
         }
     }
 

@@ -640,6 +640,7 @@ fn build_input(
         northing,
         readings,
         confirm_implausible: r.yes(Target::ConfirmImplausible)?,
+        calibration_override_reason: None,
     };
     Some((input, r.text(Target::Lot), r.text(Target::RetestOf)))
 }

@@ -11,6 +11,7 @@ mod webdriver;
 
 mod entry_flow;
 mod import_flow;
+mod instrument_flow;
 mod offline_flow;
 mod planning_flow;
 mod retest_flow;

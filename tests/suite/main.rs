@@ -13,6 +13,7 @@ mod deploy;
 mod edge;
 mod idempotency;
 mod import_page;
+mod instruments;
 mod openapi;
 mod operations;
 mod pages;

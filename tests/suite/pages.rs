@@ -66,8 +66,8 @@ async fn crawling_the_demo_finds_no_broken_page() {
         .filter(|p| p.starts_with("/field-tests/") && !p.ends_with("/retest"))
         .count();
     assert_eq!(
-        test_pages, 460,
-        "every test has its page (10 on the Haul ramp)"
+        test_pages, 463,
+        "every test has its page (450, 10 on the Haul ramp, 3 of the instrument register)"
     );
 }
 
@@ -212,8 +212,9 @@ async fn test_list_filters_and_downloads_what_it_shows() {
         .unwrap()
         .parse()
         .unwrap();
-    // 450 tests of the main demo and 10 of the Haul ramp (src/demo/planning.rs).
-    assert_eq!(total, 460);
+    // 450 tests of the main demo, 10 of the Haul ramp (src/demo/planning.rs) and 3 of the
+    // instrument register (src/demo/instruments.rs).
+    assert_eq!(total, 463);
     let (_, failed) = page(&app, "/projects/1/tests?verdict=fail").await;
     let n_fail: usize = failed
         .split("id=\"total\">")

@@ -5,6 +5,7 @@ mod archive;
 mod calc;
 mod certificates;
 mod field_tests;
+pub mod instruments;
 pub mod openapi;
 mod people;
 pub mod planning;
@@ -32,6 +33,7 @@ pub fn router() -> Router<AppState> {
         .merge(signoff::router())
         .merge(archive::router())
         .merge(planning::router())
+        .merge(instruments::router())
 }
 
 /// Paging parameters shared by every list.

@@ -356,6 +356,90 @@ pub const OPERATIONS: &[Operation] = &[
     ),
     op(
         "get",
+        "/api/v1/instruments",
+        "The instrument register (organisation-wide)",
+        None,
+    ),
+    op(
+        "post",
+        "/api/v1/instruments",
+        "Register an instrument, with its first calibration (admins and QC managers)",
+        Some("InstrumentInput"),
+    ),
+    op(
+        "post",
+        "/api/v1/instruments/import",
+        "Import register rows from CSV (kind, serial, description, calibrated_on, due_on, cone_sand_mass_g, sand_density_kg_m3, volume_cm3); all or none",
+        Some("CsvFile"),
+    ),
+    op(
+        "get",
+        "/api/v1/instruments/{id}",
+        "An instrument with its records, assignments, standard counts and offsets",
+        None,
+    ),
+    op(
+        "post",
+        "/api/v1/instruments/{id}/records",
+        "Add a calibration, leak test or licence record",
+        Some("InstrumentRecordInput"),
+    ),
+    op(
+        "post",
+        "/api/v1/instruments/{id}/assignments",
+        "Assign an instrument to a project from a date (its open assignment ends that day)",
+        Some("AssignmentInput"),
+    ),
+    op(
+        "post",
+        "/api/v1/instruments/{id}/standard-counts",
+        "Record a gauge's daily standard count, judged against its last four accepted counts",
+        Some("StandardCountInput"),
+    ),
+    op(
+        "post",
+        "/api/v1/instruments/{id}/offsets",
+        "Compute a gauge's material offsets from at least three pairs and apply them from a date",
+        Some("OffsetInput"),
+    ),
+    op(
+        "get",
+        "/api/v1/gauge-operators",
+        "Registered gauge operators",
+        None,
+    ),
+    op(
+        "post",
+        "/api/v1/gauge-operators",
+        "Register a gauge operator with certification and expiry",
+        Some("OperatorInput"),
+    ),
+    op(
+        "get",
+        "/api/v1/projects/{id}/instrument-tolerances",
+        "The project's standard-count tolerances",
+        None,
+    ),
+    op(
+        "put",
+        "/api/v1/projects/{id}/instrument-tolerances",
+        "Set the project's standard-count tolerances",
+        Some("TolerancesInput"),
+    ),
+    op(
+        "put",
+        "/api/v1/clauses/{id}/instrument-policy",
+        "Whether the clause records tests from an instrument out of check (marked) or refuses them",
+        Some("InstrumentPolicyInput"),
+    ),
+    op(
+        "get",
+        "/api/v1/projects/{id}/calibrations-due",
+        "Calibrations, leak tests and licences of the project's instruments due within 30 days",
+        None,
+    ),
+    op(
+        "get",
         "/api/v1/projects/{id}/moulds",
         "List the project's registered compaction moulds",
         None,
@@ -460,7 +544,7 @@ pub fn document() -> Value {
         },
         "paths": paths,
         "components": {
-            "schemas": schemas(),
+            "schemas": with_instrument_schemas(schemas()),
             "securitySchemes": {
                 "session": {"type": "apiKey", "in": "cookie", "name": "liftledger_session"},
                 "token": {"type": "http", "scheme": "bearer", "description": "a project-scoped API token (llt_…)"}
@@ -471,6 +555,34 @@ pub fn document() -> Value {
 
 fn obj(required: &[&str], props: Value) -> Value {
     json!({"type": "object", "required": required, "properties": props})
+}
+
+/// The register's bodies (kept apart: one `json!` of every schema passes the macro's recursion limit).
+fn with_instrument_schemas(mut all: Value) -> Value {
+    let num = json!({"type": "number"});
+    let s = json!({"type": "string"});
+    let int = json!({"type": "integer"});
+    let mine = json!({
+        "InstrumentInput": obj(&["kind", "serial"], json!({"kind": {"enum": ["nuclear_gauge", "sand_cone", "sand_batch", "balloon", "drive_cylinder"]},
+            "serial": s, "description": s, "calibrated_on": {"type": "string", "format": "date"}, "due_on": {"type": "string", "format": "date"},
+            "cone_sand_mass_g": num, "sand_density_kg_m3": num, "volume_cm3": num})),
+        "InstrumentRecordInput": obj(&["kind", "done_on"], json!({"kind": {"enum": ["calibration", "leak_test", "licence"]},
+            "done_on": {"type": "string", "format": "date"}, "due_on": {"type": "string", "format": "date"}, "reference": s,
+            "cone_sand_mass_g": num, "sand_density_kg_m3": num, "volume_cm3": num})),
+        "AssignmentInput": obj(&["project_id", "from_on"], json!({"project_id": int, "from_on": {"type": "string", "format": "date"}, "to_on": {"type": "string", "format": "date"}})),
+        "StandardCountInput": obj(&["project_id", "counted_on", "density_count", "moisture_count"], json!({"project_id": int,
+            "counted_on": {"type": "string", "format": "date"}, "density_count": int, "moisture_count": int})),
+        "OffsetInput": obj(&["source_id", "mode", "effective_on", "pairs"], json!({"source_id": int, "mode": {"enum": ["direct_transmission", "backscatter"]},
+            "effective_on": {"type": "string", "format": "date"}, "pairs": {"type": "array", "minItems": 3, "items": obj(&["gauge_wet_density_kg_m3", "reference_wet_density_kg_m3", "gauge_water_content_pct", "oven_water_content_pct"],
+                json!({"gauge_wet_density_kg_m3": num, "reference_wet_density_kg_m3": num, "gauge_water_content_pct": num, "oven_water_content_pct": num}))}})),
+        "OperatorInput": obj(&["code", "name", "certification", "expires_on"], json!({"code": s, "name": s, "certification": s, "expires_on": {"type": "string", "format": "date"}})),
+        "TolerancesInput": obj(&["density_pct", "moisture_pct"], json!({"density_pct": num, "moisture_pct": num})),
+        "InstrumentPolicyInput": obj(&["record_out_of_check"], json!({"record_out_of_check": {"type": "boolean"}})),
+    });
+    if let (Some(all), Some(mine)) = (all.as_object_mut(), mine.as_object()) {
+        all.extend(mine.clone());
+    }
+    all
 }
 
 fn schemas() -> Value {
@@ -529,7 +641,7 @@ fn schemas() -> Value {
             "gauge_serial": s, "probe_depth_mm": num, "mass_sand_used_g": num, "mass_sand_in_cone_g": num, "sand_density_kg_m3": num,
             "mass_wet_soil_g": num, "hole_volume_cm3": num, "cylinder_volume_cm3": num}},
         "FieldTestInput": obj(&["technician", "readings"], json!({"number": s, "tested_at": {"type": "string", "format": "date-time"},
-            "technician": s, "instrument_serial": s, "chainage_m": num, "offset_m": num, "depth_mm": num, "coarse_pct": num,
+            "technician": s, "instrument_serial": s, "calibration_override_reason": s, "chainage_m": num, "offset_m": num, "depth_mm": num, "coarse_pct": num,
             "coarse_water_content_pct": num, "easting": num, "northing": num, "readings": {"$ref": "#/components/schemas/Readings"},
             "confirm_implausible": {"type": "boolean"}})),
         "LabCurveInput": obj(&["specific_gravity", "points"], json!({"specific_gravity": num,

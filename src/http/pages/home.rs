@@ -117,6 +117,8 @@ struct ProjectPage {
     may_setup: bool,
     /// Curves whose field points say the material may have changed.
     drift: Vec<crate::ledger::watch::DriftNote>,
+    /// Calibrations, leak tests and licences of the project's instruments due within 30 days.
+    calibrations_due: Vec<(i64, String)>,
 }
 
 async fn project_home(
@@ -218,7 +220,23 @@ async fn project_home(
             ),
         })
         .collect();
+    let calibrations_due = crate::ledger::instruments::due_for_project(
+        &s.db,
+        id,
+        &crate::clock::date_of(&crate::clock::now()),
+        30,
+    )
+    .await?
+    .into_iter()
+    .map(|(i, r, days)| {
+        (
+            i.id,
+            present::due_words(&i.serial, &r.kind, r.due_on.as_deref(), days),
+        )
+    })
+    .collect();
     render(&ProjectPage {
+        calibrations_due,
         nav: ProjectNav {
             id,
             name: p.code.clone(),

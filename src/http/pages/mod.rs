@@ -10,6 +10,7 @@ pub mod curve;
 mod entry;
 mod home;
 mod import;
+mod instruments;
 mod lot;
 pub mod map;
 mod planning;
@@ -50,6 +51,7 @@ pub fn router() -> Router<AppState> {
         .merge(test_page::router())
         .merge(setup::router())
         .merge(planning::router())
+        .merge(instruments::router())
 }
 
 async fn style() -> impl IntoResponse {
