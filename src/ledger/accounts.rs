@@ -31,9 +31,9 @@ pub struct UserInput {
 }
 
 /// Which record a change touched: (entity, id, project).
-pub(super) type Target<'a> = (&'a str, i64, Option<i64>);
+pub(crate) type Target<'a> = (&'a str, i64, Option<i64>);
 
-pub(super) async fn audit_change(
+pub(crate) async fn audit_change(
     tx: &mut db::Tx<'_>,
     actor: &Actor,
     action: &str,

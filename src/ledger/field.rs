@@ -520,16 +520,7 @@ pub async fn record_judged(
     let lot = require_lot(pool, lot_id).await?;
     require_lot_takes_tests(&lot)?;
     let ctx = LotContext::load_with(pool, rules, &lot).await?;
-    let book = InstrumentBook::load(pool, lot.project_id).await?;
-    let checked = check_with_instruments(
-        &book,
-        &ctx,
-        input,
-        None,
-        actor,
-        &clock::now(),
-        Arrival::Single,
-    )?;
+    let checked = check_single(pool, &ctx, input, actor).await?;
     let test = match writer {
         Some(w) => w.store(checked.record, actor, "create").await?,
         None => store(pool, checked, actor, "create").await?,
@@ -671,6 +662,26 @@ pub async fn history(
     Ok(rows)
 }
 
+/// A single entry checked against its lot and the instrument register in force, as
+/// recording and previewing it both need.
+async fn check_single(
+    pool: &Pool,
+    ctx: &LotContext,
+    input: &FieldTestInput,
+    actor: &Actor,
+) -> Result<CheckedTest> {
+    let book = InstrumentBook::load(pool, ctx.lot.project_id).await?;
+    check_with_instruments(
+        &book,
+        ctx,
+        input,
+        None,
+        actor,
+        &clock::now(),
+        Arrival::Single,
+    )
+}
+
 /// Reduces and judges a field test against its lot without saving it (the site-entry preview).
 pub async fn preview(
     pool: &Pool,
@@ -680,16 +691,7 @@ pub async fn preview(
 ) -> Result<serde_json::Value> {
     let lot = require_lot(pool, lot_id).await?;
     let ctx = LotContext::load(pool, &lot).await?;
-    let book = InstrumentBook::load(pool, lot.project_id).await?;
-    let checked = check_with_instruments(
-        &book,
-        &ctx,
-        input,
-        None,
-        actor,
-        &clock::now(),
-        Arrival::Single,
-    )?;
+    let checked = check_single(pool, &ctx, input, actor).await?;
     let r = &checked.record;
     let reference = ctx.reference_for(r.coarse_pct, r.coarse_water_content_pct)?;
     let v = judge(&ctx, r)?;

@@ -13,7 +13,7 @@ use serde_json::json;
 use super::Actor;
 use super::validate::{code, date, number, optional_text, text};
 use crate::clock;
-use crate::db::{self, Pool, audit, instruments::Instrument};
+use crate::db::{self, Pool, instruments::Instrument};
 use crate::error::{AppError, Result};
 
 /// What an instrument is.
@@ -120,7 +120,7 @@ pub struct OperatorInput {
     pub expires_on: String,
 }
 
-/// Writes one audit row of the register.
+/// Writes one audit row of the register (a creation; the accounts' audit writer).
 pub(crate) async fn audit_row(
     tx: &mut db::Tx<'_>,
     actor: &Actor,
@@ -130,22 +130,7 @@ pub(crate) async fn audit_row(
     after: serde_json::Value,
     now: &str,
 ) -> Result<()> {
-    audit::record(
-        tx,
-        &audit::Change {
-            actor: &actor.name,
-            action: "create",
-            entity,
-            entity_id: Some(id),
-            project_id,
-            before: None,
-            after: Some(after),
-            origin: &actor.origin,
-        },
-        now,
-    )
-    .await?;
-    Ok(())
+    super::accounts::audit_change(tx, actor, "create", (entity, id, project_id), after, now).await
 }
 
 /// Loads an instrument or fails with 404 naming `instrument_id`.
