@@ -4,7 +4,9 @@ use anyhow::Context;
 use clap::Parser;
 use std::io::BufRead;
 
-use liftledger::cli::{ArchiveArgs, ArchiveCommand, Cli, Command, LogFormat, UserCommand};
+use liftledger::cli::{
+    ArchiveArgs, ArchiveCommand, Cli, Command, LogFormat, ServeArgs, UserCommand,
+};
 use liftledger::ledger::{Actor, accounts};
 use liftledger::{AppState, Settings, db, demo};
 use tracing_subscriber::EnvFilter;
@@ -31,40 +33,13 @@ async fn main() -> anyhow::Result<()> {
             username,
             name,
             admin,
-        }) => {
-            let pool = db::connect(&db.location()).await?;
-            let mut password = String::new();
-            std::io::stdin().lock().read_line(&mut password)?;
-            let input = accounts::UserInput {
-                username,
-                display_name: name,
-                password: password.trim_end_matches(['\r', '\n']).to_string(),
-                is_admin: admin,
-            };
-            let u = accounts::create_user(&pool, &input, false, &Actor::system("cli"))
-                .await
-                .map_err(|e| anyhow::anyhow!("{}: {}", e.field(), e.user_message()))?;
-            println!(
-                "user {} created{}",
-                u.username,
-                if u.admin() { " (administrator)" } else { "" }
-            );
-        }
+        }) => add_user(&db, username, name, admin).await?,
         Command::User(UserCommand::Grant {
             db,
             username,
             project,
             role,
-        }) => {
-            let pool = db::connect(&db.location()).await?;
-            let p = db::projects::get_by_code(&pool, &project.to_ascii_uppercase())
-                .await?
-                .ok_or_else(|| anyhow::anyhow!("no project with code {project}"))?;
-            accounts::grant(&pool, &username, p.id, &role, &Actor::system("cli"))
-                .await
-                .map_err(|e| anyhow::anyhow!("{}: {}", e.field(), e.user_message()))?;
-            println!("{username} is now {role} in {}", p.code);
-        }
+        }) => grant(&db, &username, &project, &role).await?,
         Command::User(other) => user_command(other).await?,
         Command::Import {
             db,
@@ -89,126 +64,195 @@ async fn main() -> anyhow::Result<()> {
                 std::process::exit(1);
             }
         }
-        Command::Copy { from, to } => {
-            let source = db::connect(&db::Location::parse(&from, 4)).await?;
-            let target = db::connect(&db::Location::parse(&to, 4)).await?;
-            let report = db::copy::copy_all(&source, &target).await?;
-            for (table, n) in &report.rows {
-                println!("{table:<18} {n:>9} rows");
-            }
-            println!(
-                "copied and verified: row counts equal, {} certificate hashes match",
-                report.certificates_verified
-            );
-        }
-        Command::Backup { db, to } => {
-            let location = db::Location::parse(&db, 2);
-            let r =
-                liftledger::backup::take(&location, &to, &mut |line| println!("{line}")).await?;
-            println!(
-                "backup {} written and checked: {:.1} MB in {:.1} s, {} tables, {} certificates",
-                r.path.display(),
-                r.bytes as f64 / 1e6,
-                r.seconds,
-                r.rows.len(),
-                r.certificates_verified
-            );
-        }
-        Command::Restore { from, db } => {
-            let target = db::Location::parse(&db, 4);
-            let r = liftledger::backup::restore::restore(&from, &target, &mut |line| {
-                println!("{line}")
-            })
-            .await?;
-            println!(
-                "restored into {} and verified: row counts equal, {} certificate hashes match",
-                target.redacted(),
-                r.certificates_verified
-            );
-        }
+        Command::Copy { from, to } => copy(&from, &to).await?,
+        Command::Backup { db, to } => backup(&db, &to).await?,
+        Command::Restore { from, db } => restore(&from, &db).await?,
         Command::Archive(a) => archive(a).await?,
-        Command::Serve(a) => {
-            // Checked before anything is opened, so a bad argument writes nothing.
-            let schedule = a
-                .backup_dir
-                .clone()
-                .map(|dir| {
-                    liftledger::backup::schedule::Schedule::new(dir, &a.backup_every, a.backup_keep)
-                })
-                .transpose()?;
-            let typed = a.db.clone().unwrap_or_else(|| {
-                if a.demo {
-                    "liftledger-demo.sqlite"
-                } else {
-                    "liftledger.sqlite"
-                }
-                .into()
-            });
-            let location = db::Location::parse(&typed, a.db_pool);
-            let pool = db::connect(&location).await?;
-            // The demo is loaded into a database that holds no project yet.
-            let fresh = db::projects::list(&pool).await?.is_empty();
-            if a.demo && fresh {
-                let summary = demo::load(&pool)
-                    .await
-                    .context("loading the demo project")?;
-                println!(
-                    "demo project loaded into {} ({summary})",
-                    location.redacted()
-                );
-            }
-            if a.demo {
-                println!("demo sign-ins (invented people; demo use only):");
-                for (user, _, role, password) in accounts::DEMO_USERS {
-                    println!("  {user:<12} {role:<16} password {password}");
-                }
-            } else if let Some(password) = accounts::ensure_first_admin(&pool)
-                .await
-                .map_err(|e| anyhow::anyhow!("creating the first admin: {}", e.user_message()))?
-            {
-                println!(
-                    "new database: sign in as 'admin' with password {password} (shown once; change it)"
-                );
-            }
-            if let Some(metrics_addr) = a.metrics_addr {
-                liftledger::metrics::install()?;
-                let listener = liftledger::metrics::bind(metrics_addr).await?;
-                println!("metrics at http://{}/metrics", listener.local_addr()?);
-                tokio::spawn(liftledger::metrics::serve(listener, pool.clone()));
-            }
-            let listener = tokio::net::TcpListener::bind(a.addr)
-                .await
-                .with_context(|| format!("binding {}", a.addr))?;
-            let addr = listener.local_addr()?;
+        Command::Serve(a) => serve(a).await?,
+    }
+    Ok(())
+}
+
+/// A password read from the first line of standard input (never from the command line).
+fn password_from_stdin() -> anyhow::Result<String> {
+    let mut password = String::new();
+    std::io::stdin().lock().read_line(&mut password)?;
+    Ok(password.trim_end_matches(['\r', '\n']).to_string())
+}
+
+/// `liftledger user add`: the password is read from standard input.
+async fn add_user(
+    db: &liftledger::cli::DbArgs,
+    username: String,
+    name: String,
+    admin: bool,
+) -> anyhow::Result<()> {
+    let pool = db::connect(&db.location()).await?;
+    let input = accounts::UserInput {
+        username,
+        display_name: name,
+        password: password_from_stdin()?,
+        is_admin: admin,
+    };
+    let u = accounts::create_user(&pool, &input, false, &Actor::system("cli"))
+        .await
+        .map_err(|e| anyhow::anyhow!("{}: {}", e.field(), e.user_message()))?;
+    println!(
+        "user {} created{}",
+        u.username,
+        if u.admin() { " (administrator)" } else { "" }
+    );
+    Ok(())
+}
+
+/// `liftledger user grant`: a role in a project named by its code.
+async fn grant(
+    db: &liftledger::cli::DbArgs,
+    username: &str,
+    project: &str,
+    role: &str,
+) -> anyhow::Result<()> {
+    let pool = db::connect(&db.location()).await?;
+    let p = project_by_code(&pool, project).await?;
+    accounts::grant(&pool, username, p.id, role, &Actor::system("cli"))
+        .await
+        .map_err(|e| anyhow::anyhow!("{}: {}", e.field(), e.user_message()))?;
+    println!("{username} is now {role} in {}", p.code);
+    Ok(())
+}
+
+/// The project with this code (codes are stored upper case).
+async fn project_by_code(pool: &db::Pool, project: &str) -> anyhow::Result<db::projects::Project> {
+    db::projects::get_by_code(pool, &project.to_ascii_uppercase())
+        .await?
+        .ok_or_else(|| anyhow::anyhow!("no project with code {project}"))
+}
+
+/// `liftledger copy --from URL --to URL`: a whole database into an empty one, verified.
+async fn copy(from: &str, to: &str) -> anyhow::Result<()> {
+    let source = db::connect(&db::Location::parse(from, 4)).await?;
+    let target = db::connect(&db::Location::parse(to, 4)).await?;
+    let report = db::copy::copy_all(&source, &target).await?;
+    for (table, n) in &report.rows {
+        println!("{table:<18} {n:>9} rows");
+    }
+    println!(
+        "copied and verified: row counts equal, {} certificate hashes match",
+        report.certificates_verified
+    );
+    Ok(())
+}
+
+/// `liftledger backup --db URL --to DIR`.
+async fn backup(db: &str, to: &std::path::Path) -> anyhow::Result<()> {
+    let location = db::Location::parse(db, 2);
+    let r = liftledger::backup::take(&location, to, &mut |line| println!("{line}")).await?;
+    println!(
+        "backup {} written and checked: {:.1} MB in {:.1} s, {} tables, {} certificates",
+        r.path.display(),
+        r.bytes as f64 / 1e6,
+        r.seconds,
+        r.rows.len(),
+        r.certificates_verified
+    );
+    Ok(())
+}
+
+/// `liftledger restore --from FILE --db URL` into an empty database, verified.
+async fn restore(from: &std::path::Path, db: &str) -> anyhow::Result<()> {
+    let target = db::Location::parse(db, 4);
+    let r =
+        liftledger::backup::restore::restore(from, &target, &mut |line| println!("{line}")).await?;
+    println!(
+        "restored into {} and verified: row counts equal, {} certificate hashes match",
+        target.redacted(),
+        r.certificates_verified
+    );
+    Ok(())
+}
+
+/// `liftledger serve`: open (and with --demo fill) the database, then serve until stopped.
+async fn serve(a: ServeArgs) -> anyhow::Result<()> {
+    // Checked before anything is opened, so a bad argument writes nothing.
+    let schedule = a
+        .backup_dir
+        .clone()
+        .map(|dir| liftledger::backup::schedule::Schedule::new(dir, &a.backup_every, a.backup_keep))
+        .transpose()?;
+    let typed = a.db.clone().unwrap_or_else(|| {
+        if a.demo {
+            "liftledger-demo.sqlite"
+        } else {
+            "liftledger.sqlite"
+        }
+        .into()
+    });
+    let location = db::Location::parse(&typed, a.db_pool);
+    let pool = db::connect(&location).await?;
+    first_sign_ins(&pool, &location, a.demo).await?;
+    if let Some(metrics_addr) = a.metrics_addr {
+        liftledger::metrics::install()?;
+        let listener = liftledger::metrics::bind(metrics_addr).await?;
+        println!("metrics at http://{}/metrics", listener.local_addr()?);
+        tokio::spawn(liftledger::metrics::serve(listener, pool.clone()));
+    }
+    let listener = tokio::net::TcpListener::bind(a.addr)
+        .await
+        .with_context(|| format!("binding {}", a.addr))?;
+    let addr = listener.local_addr()?;
+    println!(
+        "liftledger is serving {} at http://{addr}/",
+        location.redacted()
+    );
+    let state = AppState::new(
+        pool.clone(),
+        Settings {
+            demo: a.demo,
+            secure_cookies: a.secure_cookies,
+            trust_proxy: a.trust_proxy,
+        },
+    );
+    if let Some(schedule) = schedule {
+        println!(
+            "backups into {} every {}, keeping {}",
+            schedule.dir.display(),
+            a.backup_every,
+            schedule.keep
+        );
+        liftledger::backup::schedule::spawn(location.clone(), schedule, state.backups.clone());
+    }
+    liftledger::serve(listener, state, shutdown_signal()).await?;
+    pool.close().await;
+    println!("liftledger stopped");
+    Ok(())
+}
+
+/// With --demo: the demo loaded into a database that holds no project yet, and its
+/// sign-ins printed. Otherwise the first admin of a new database, its password printed once.
+async fn first_sign_ins(
+    pool: &db::Pool,
+    location: &db::Location,
+    demo: bool,
+) -> anyhow::Result<()> {
+    if demo {
+        if db::projects::list(pool).await?.is_empty() {
+            let summary = demo::load(pool).await.context("loading the demo project")?;
             println!(
-                "liftledger is serving {} at http://{addr}/",
+                "demo project loaded into {} ({summary})",
                 location.redacted()
             );
-            let state = AppState::new(
-                pool.clone(),
-                Settings {
-                    demo: a.demo,
-                    secure_cookies: a.secure_cookies,
-                    trust_proxy: a.trust_proxy,
-                },
-            );
-            if let Some(schedule) = schedule {
-                println!(
-                    "backups into {} every {}, keeping {}",
-                    schedule.dir.display(),
-                    a.backup_every,
-                    schedule.keep
-                );
-                liftledger::backup::schedule::spawn(
-                    location.clone(),
-                    schedule,
-                    state.backups.clone(),
-                );
-            }
-            liftledger::serve(listener, state, shutdown_signal()).await?;
-            pool.close().await;
-            println!("liftledger stopped");
         }
+        println!("demo sign-ins (invented people; demo use only):");
+        for (user, _, role, password) in accounts::DEMO_USERS {
+            println!("  {user:<12} {role:<16} password {password}");
+        }
+    } else if let Some(password) = accounts::ensure_first_admin(pool)
+        .await
+        .map_err(|e| anyhow::anyhow!("creating the first admin: {}", e.user_message()))?
+    {
+        println!(
+            "new database: sign in as 'admin' with password {password} (shown once; change it)"
+        );
     }
     Ok(())
 }
@@ -225,9 +269,7 @@ async fn user_command(cmd: UserCommand) -> anyhow::Result<()> {
             project,
         } => {
             let pool = db::connect(&db.location()).await?;
-            let p = db::projects::get_by_code(&pool, &project.to_ascii_uppercase())
-                .await?
-                .ok_or_else(|| anyhow::anyhow!("no project with code {project}"))?;
+            let p = project_by_code(&pool, &project).await?;
             accounts::remove_member(&pool, &username, p.id, &cli)
                 .await
                 .map_err(fail)?;
@@ -249,16 +291,10 @@ async fn user_command(cmd: UserCommand) -> anyhow::Result<()> {
         }
         UserCommand::ResetPassword { db, username } => {
             let pool = db::connect(&db.location()).await?;
-            let mut password = String::new();
-            std::io::stdin().lock().read_line(&mut password)?;
-            let ended = accounts::reset_password(
-                &pool,
-                &username,
-                password.trim_end_matches(['\r', '\n']),
-                &cli,
-            )
-            .await
-            .map_err(fail)?;
+            let password = password_from_stdin()?;
+            let ended = accounts::reset_password(&pool, &username, &password, &cli)
+                .await
+                .map_err(fail)?;
             println!(
                 "password of {username} set; {ended} sessions ended; it must be changed at next sign-in"
             );

@@ -172,19 +172,7 @@ async fn write_lots_and_tests(
         writer(ExportKind::TestsJson)?,
     );
     let mut lots_csv = writer(ExportKind::LotsCsv)?;
-    let mut transitions: HashMap<i64, Vec<db::lots::Transition>> = HashMap::new();
-    let lots = db::lots::list(
-        pool,
-        project.id,
-        &db::lots::LotFilter {
-            limit: i64::MAX,
-            ..Default::default()
-        },
-    )
-    .await?;
-    for lot in &lots {
-        transitions.insert(lot.id, db::lots::transitions(pool, lot.id).await?);
-    }
+    let mut transitions = lot_transitions(pool, project.id).await?;
     let mut lots_json = temp()?;
     lots_json.write_all(b"[").map_err(io)?;
     let mut n_lots = 0usize;
@@ -197,15 +185,11 @@ async fn write_lots_and_tests(
             tests_csv.lot(&r)?;
             tests_json.lot(&r)?;
             lots_csv.lot(&r)?;
-            let mut v = export::lot_object(&units, &r);
-            v["source"] = json!(r.source.code);
-            v["layer_id"] = json!(r.lot.layer_id);
-            v["clause_id"] = json!(r.lot.clause_id);
-            v["source_id"] = json!(r.lot.source_id);
-            v["lab_test_id"] = json!(r.lot.lab_test_id);
-            v["created_at"] = json!(r.lot.created_at);
-            v["created_by"] = json!(r.lot.created_by);
-            v["transitions"] = json!(transitions.remove(&r.lot.id).unwrap_or_default());
+            let v = archived_lot(
+                &units,
+                &r,
+                transitions.remove(&r.lot.id).unwrap_or_default(),
+            );
             lots_json
                 .write_all(if n_lots == 0 { b"\n" } else { b",\n" })
                 .map_err(io)?;
@@ -239,14 +223,64 @@ async fn write_lots_and_tests(
             lots_json.into_inner().map_err(|e| io(e.into_error()))?,
         ),
     ];
-    for (path, what, mut file) in files {
-        file.seek(SeekFrom::Start(0)).map_err(io)?;
-        pack.add_from(path, what, std::io::BufReader::new(file))?;
+    for (path, what, file) in files {
+        add_temp(pack, path, what, file)?;
     }
     Ok(Counts {
         lots: n_lots,
         field_tests,
     })
+}
+
+/// Each lot's state changes, read before the lots are judged (one query per lot).
+async fn lot_transitions(
+    pool: &Pool,
+    project_id: i64,
+) -> Result<HashMap<i64, Vec<db::lots::Transition>>> {
+    let lots = db::lots::list(
+        pool,
+        project_id,
+        &db::lots::LotFilter {
+            limit: i64::MAX,
+            ..Default::default()
+        },
+    )
+    .await?;
+    let mut transitions = HashMap::new();
+    for lot in &lots {
+        transitions.insert(lot.id, db::lots::transitions(pool, lot.id).await?);
+    }
+    Ok(transitions)
+}
+
+/// A lot as the export shows it, with what the archive adds: the record's ids, who made it
+/// and when, and every state change.
+fn archived_lot(
+    units: &Units,
+    r: &crate::ledger::lot_report::LotReport,
+    transitions: Vec<db::lots::Transition>,
+) -> serde_json::Value {
+    let mut v = export::lot_object(units, r);
+    v["source"] = json!(r.source.code);
+    v["layer_id"] = json!(r.lot.layer_id);
+    v["clause_id"] = json!(r.lot.clause_id);
+    v["source_id"] = json!(r.lot.source_id);
+    v["lab_test_id"] = json!(r.lot.lab_test_id);
+    v["created_at"] = json!(r.lot.created_at);
+    v["created_by"] = json!(r.lot.created_by);
+    v["transitions"] = json!(transitions);
+    v
+}
+
+/// A finished temporary file copied into the archive from its start.
+fn add_temp(
+    pack: &mut Packer<impl Write + Seek>,
+    path: &str,
+    what: &str,
+    mut file: std::fs::File,
+) -> Result<()> {
+    file.seek(SeekFrom::Start(0)).map_err(io)?;
+    pack.add_from(path, what, std::io::BufReader::new(file))
 }
 
 fn finish(w: ExportWriter<TempOut>) -> Result<std::fs::File> {

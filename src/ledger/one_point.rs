@@ -136,17 +136,7 @@ pub async fn record(
     let field_test_id = paired_test(pool, source_id, input.field_test_id).await?;
     let fam = family(pool, source_id, &input.effort).await?;
     let curves: Vec<FamilyCurve> = fam.iter().map(|(_, c)| c.clone()).collect();
-    // The clause of the paired test sets the window; 4 points (from memory) otherwise.
-    let window = match field_test_id {
-        Some(id) => {
-            let t = require_test(pool, id).await?;
-            let lot = require_lot(pool, t.lot_id).await?;
-            super::planning::clause_terms(pool, lot.clause_id)
-                .await?
-                .one_point_dry_window_pct
-        }
-        None => 4.0,
-    };
+    let window = dry_window_pct(pool, field_test_id).await?;
     let dry = dry_density_of(wet, w);
     let r = one_point(&curves, w, dry, window).map_err(|e| match e {
         OnePointError::TooFewCurves(_) => {
@@ -180,8 +170,33 @@ pub async fn record(
         created_at: now.clone(),
         created_by: actor.name.clone(),
     };
+    check.id = store(pool, &check, wet, actor).await?;
+    Ok(OnePointAnswer {
+        lower_curve: name(check.lower_lab_test_id),
+        upper_curve: name(check.upper_lab_test_id),
+        check,
+        interpolation: INTERPOLATION,
+    })
+}
+
+/// The dry-side window of a check: the paired test's clause sets it; 4 points (from memory)
+/// when the check is not paired with a test.
+async fn dry_window_pct(pool: &Pool, field_test_id: Option<i64>) -> Result<f64> {
+    let Some(id) = field_test_id else {
+        return Ok(4.0);
+    };
+    let t = require_test(pool, id).await?;
+    let lot = require_lot(pool, t.lot_id).await?;
+    Ok(super::planning::clause_terms(pool, lot.clause_id)
+        .await?
+        .one_point_dry_window_pct)
+}
+
+/// Writes the check and its audit row in one transaction; a repeated code, or a second
+/// check of one test, is refused naming `code`.
+async fn store(pool: &Pool, check: &OnePointCheck, wet: f64, actor: &Actor) -> Result<i64> {
     let mut tx = db::begin_write(pool).await?;
-    check.id = db::planning::insert_one_point(&mut tx, &check)
+    let id = db::planning::insert_one_point(&mut tx, check)
         .await
         .map_err(|e| {
             if e.as_database_error()
@@ -195,28 +210,27 @@ pub async fn record(
                 e.into()
             }
         })?;
+    let stored = OnePointCheck {
+        id,
+        ..check.clone()
+    };
     audit::record(
         &mut tx,
         &audit::Change {
             actor: &actor.name,
             action: "record_one_point",
             entity: "one_point_check",
-            entity_id: Some(check.id),
-            project_id: Some(source.project_id),
+            entity_id: Some(id),
+            project_id: Some(check.project_id),
             before: None,
             after: Some(
-                json!({"check": check, "wet_density_kg_m3": wet, "interpolation": INTERPOLATION}),
+                json!({"check": stored, "wet_density_kg_m3": wet, "interpolation": INTERPOLATION}),
             ),
             origin: &actor.origin,
         },
-        &now,
+        &check.created_at,
     )
     .await?;
     tx.commit().await?;
-    Ok(OnePointAnswer {
-        lower_curve: name(check.lower_lab_test_id),
-        upper_curve: name(check.upper_lab_test_id),
-        check,
-        interpolation: INTERPOLATION,
-    })
+    Ok(id)
 }

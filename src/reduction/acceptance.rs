@@ -354,131 +354,178 @@ fn decide_density(
     noun: &str,
     rounding: &Rounding,
 ) -> DensityDecision {
-    let mut reasons = Vec::new();
-    let mut accepted = true;
-    let mut quality_index = None;
-    let mut pwl = None;
-    let meets = |v: f64, limit: f64| rounding.at_least(v, limit);
-    let shown = |v: f64| rounding.shown_against_lower(v);
-    let lim = |v: f64| rounding.limit_text(v);
+    let judged = Judged {
+        labelled,
+        lower,
+        summary,
+        noun,
+        rounding,
+    };
     match rule {
-        AcceptanceRule::EveryTest => {
-            let below: Vec<&(String, f64)> =
-                labelled.iter().filter(|(_, v)| !meets(*v, lower)).collect();
-            if below.is_empty() {
-                reasons.push(format!(
-                    "all {} counted {noun}s are at or above the {} % minimum (lowest {} %)",
-                    summary.n,
-                    lim(lower),
-                    shown(summary.min)
-                ));
-            } else {
-                accepted = false;
-                for (label, v) in below {
-                    reasons.push(format!(
+        AcceptanceRule::EveryTest => judged.every_test(),
+        AcceptanceRule::MeanAndMin { allowance_pct } => judged.mean_and_min(*allowance_pct),
+        AcceptanceRule::QualityIndex { min_pwl_pct } => judged.quality_index(*min_pwl_pct),
+    }
+}
+
+/// The values, limit and rounding one density decision works on.
+struct Judged<'a> {
+    labelled: &'a [(String, f64)],
+    lower: f64,
+    summary: &'a Summary,
+    noun: &'a str,
+    rounding: &'a Rounding,
+}
+
+impl Judged<'_> {
+    fn meets(&self, v: f64, limit: f64) -> bool {
+        self.rounding.at_least(v, limit)
+    }
+
+    fn shown(&self, v: f64) -> String {
+        self.rounding.shown_against_lower(v)
+    }
+
+    fn lim(&self, v: f64) -> String {
+        self.rounding.limit_text(v)
+    }
+
+    /// The labelled values below `limit`, as the clause rounds.
+    fn below(&self, limit: f64) -> Vec<&(String, f64)> {
+        self.labelled
+            .iter()
+            .filter(|(_, v)| !self.meets(*v, limit))
+            .collect()
+    }
+
+    /// Every counted value must reach the minimum.
+    fn every_test(&self) -> DensityDecision {
+        let (noun, lower) = (self.noun, self.lower);
+        let below = self.below(lower);
+        let reasons = if below.is_empty() {
+            vec![format!(
+                "all {} counted {noun}s are at or above the {} % minimum (lowest {} %)",
+                self.summary.n,
+                self.lim(lower),
+                self.shown(self.summary.min)
+            )]
+        } else {
+            below
+                .iter()
+                .map(|(label, v)| {
+                    format!(
                         "{label} at {} % is below the {} % minimum",
-                        shown(*v),
-                        lim(lower)
-                    ));
-                }
-            }
-        }
-        AcceptanceRule::MeanAndMin { allowance_pct } => {
-            if !allowance_pct.is_finite() || *allowance_pct < 0.0 {
-                return DensityDecision {
-                    accepted: false,
-                    reasons: vec![format!(
-                        "the allowance {allowance_pct} is not a usable number of points; the lot cannot be judged"
-                    )],
-                    quality_index,
-                    pwl,
-                };
-            }
-            let floor = lower - allowance_pct;
-            let mean_ok = meets(summary.mean, lower);
-            accepted &= mean_ok;
-            reasons.push(format!(
-                "mean relative compaction {} % {} the {} % minimum",
-                shown(summary.mean),
-                if mean_ok { "meets" } else { "is below" },
-                lim(lower)
-            ));
-            let below: Vec<&(String, f64)> =
-                labelled.iter().filter(|(_, v)| !meets(*v, floor)).collect();
-            let floor_words = format!(
-                "{} % floor ({} % less {} allowance)",
-                lim(floor),
-                lim(lower),
-                lim(*allowance_pct)
+                        self.shown(*v),
+                        self.lim(lower)
+                    )
+                })
+                .collect()
+        };
+        DensityDecision::plain(below.is_empty(), reasons)
+    }
+
+    /// The mean must reach the minimum and every value the floor (minimum less the allowance).
+    fn mean_and_min(&self, allowance_pct: f64) -> DensityDecision {
+        let (noun, lower) = (self.noun, self.lower);
+        if !allowance_pct.is_finite() || allowance_pct < 0.0 {
+            return DensityDecision::plain(
+                false,
+                vec![format!(
+                    "the allowance {allowance_pct} is not a usable number of points; the lot cannot be judged"
+                )],
             );
-            if below.is_empty() {
+        }
+        let floor = lower - allowance_pct;
+        let mean_ok = self.meets(self.summary.mean, lower);
+        let mut reasons = vec![format!(
+            "mean relative compaction {} % {} the {} % minimum",
+            self.shown(self.summary.mean),
+            if mean_ok { "meets" } else { "is below" },
+            self.lim(lower)
+        )];
+        let below = self.below(floor);
+        let floor_words = format!(
+            "{} % floor ({} % less {} allowance)",
+            self.lim(floor),
+            self.lim(lower),
+            self.lim(allowance_pct)
+        );
+        if below.is_empty() {
+            reasons.push(format!(
+                "every counted {noun} is at or above the {floor_words}; lowest {} %",
+                self.shown(self.summary.min)
+            ));
+        } else {
+            for (label, v) in &below {
                 reasons.push(format!(
-                    "every counted {noun} is at or above the {floor_words}; lowest {} %",
-                    shown(summary.min)
+                    "{label} at {} % is below the {floor_words}",
+                    self.shown(*v)
                 ));
-            } else {
-                accepted = false;
-                for (label, v) in below {
-                    reasons.push(format!(
-                        "{label} at {} % is below the {floor_words}",
-                        shown(*v)
-                    ));
-                }
             }
         }
-        AcceptanceRule::QualityIndex { min_pwl_pct } => {
-            if summary.n < 3 {
-                return DensityDecision {
-                    accepted: false,
-                    reasons: vec![format!(
-                        "the quality-index rule needs at least 3 counted {noun}s; there {} {}",
-                        if summary.n == 1 { "is" } else { "are" },
-                        summary.n
-                    )],
-                    quality_index,
-                    pwl,
-                };
-            }
-            let s = summary.std_dev.unwrap_or(0.0);
-            let no_spread = s <= 1e-12 * summary.mean.abs().max(1.0);
-            let estimate = if no_spread {
-                let p = if meets(summary.mean, lower) {
-                    100.0
-                } else {
-                    0.0
-                };
-                reasons.push(format!(
-                    "all {} counted {noun}s read {:.1} %: with no spread the percent within limits is {p:.0} %",
-                    summary.n, summary.mean
-                ));
-                p
+        DensityDecision::plain(mean_ok && below.is_empty(), reasons)
+    }
+
+    /// The estimated percent within limits from the quality index must reach the minimum.
+    fn quality_index(&self, min_pwl_pct: f64) -> DensityDecision {
+        let (noun, lower, summary) = (self.noun, self.lower, self.summary);
+        if summary.n < 3 {
+            return DensityDecision::plain(
+                false,
+                vec![format!(
+                    "the quality-index rule needs at least 3 counted {noun}s; there {} {}",
+                    if summary.n == 1 { "is" } else { "are" },
+                    summary.n
+                )],
+            );
+        }
+        let mut reasons = Vec::new();
+        let mut quality_index = None;
+        let s = summary.std_dev.unwrap_or(0.0);
+        let no_spread = s <= 1e-12 * summary.mean.abs().max(1.0);
+        let estimate = if no_spread {
+            let p = if self.meets(summary.mean, lower) {
+                100.0
             } else {
-                let q = (summary.mean - lower) / s;
-                quality_index = Some(q);
-                reasons.push(format!(
-                    "quality index {q:.2} = (mean {:.2} % − limit {lower:.1} %) / standard deviation {s:.2} over {} {noun}s",
-                    summary.mean, summary.n
-                ));
-                percent_within_limits(summary.n, q).unwrap_or(0.0)
+                0.0
             };
-            pwl = Some(estimate);
-            if estimate >= min_pwl_pct - COMPARE_EPS {
-                reasons.push(format!(
-                    "estimated percent within limits {estimate:.1} % meets the {min_pwl_pct:.1} % required"
-                ));
-            } else {
-                accepted = false;
-                reasons.push(format!(
-                    "estimated percent within limits {estimate:.1} % is below the {min_pwl_pct:.1} % required"
-                ));
-            }
+            reasons.push(format!(
+                "all {} counted {noun}s read {:.1} %: with no spread the percent within limits is {p:.0} %",
+                summary.n, summary.mean
+            ));
+            p
+        } else {
+            let q = (summary.mean - lower) / s;
+            quality_index = Some(q);
+            reasons.push(format!(
+                "quality index {q:.2} = (mean {:.2} % − limit {lower:.1} %) / standard deviation {s:.2} over {} {noun}s",
+                summary.mean, summary.n
+            ));
+            percent_within_limits(summary.n, q).unwrap_or(0.0)
+        };
+        let accepted = estimate >= min_pwl_pct - COMPARE_EPS;
+        reasons.push(format!(
+            "estimated percent within limits {estimate:.1} % {} the {min_pwl_pct:.1} % required",
+            if accepted { "meets" } else { "is below" }
+        ));
+        DensityDecision {
+            accepted,
+            reasons,
+            quality_index,
+            pwl: Some(estimate),
         }
     }
-    DensityDecision {
-        accepted,
-        reasons,
-        quality_index,
-        pwl,
+}
+
+impl DensityDecision {
+    /// A decision with no quality-index figures.
+    fn plain(accepted: bool, reasons: Vec<String>) -> Self {
+        Self {
+            accepted,
+            reasons,
+            quality_index: None,
+            pwl: None,
+        }
     }
 }
 
@@ -500,25 +547,9 @@ pub fn evaluate_lot_with(
     moisture: &MoistureJudgement,
 ) -> LotVerdict {
     let standings = standings(tests);
-    let mut counted: Vec<&LotTestInput> = Vec::new();
-    let mut unjudged: Vec<&LotTestInput> = Vec::new();
-    for (t, (_, s)) in tests.iter().zip(&standings) {
-        match s {
-            TestStanding::Counted => counted.push(t),
-            TestStanding::CannotBeJudged => unjudged.push(t),
-            _ => {}
-        }
-    }
-    let failing_without_retest: Vec<i64> =
-        counted.iter().filter(|t| !t.passed).map(|t| t.id).collect();
-    let count = |f: &dyn Fn(&TestStanding) -> bool| standings.iter().filter(|(_, s)| f(s)).count();
-    let voided = count(&|s| *s == TestStanding::Voided);
-    let superseded = count(&|s| matches!(s, TestStanding::Superseded { .. }));
-    let earlier = count(&|s| *s == TestStanding::EarlierSample);
+    let sorted = SortedTests::of(tests, &standings);
+    let counted = &sorted.counted;
     let values: Vec<f64> = counted.iter().map(|t| t.relative_compaction_pct).collect();
-    let bad_value = counted
-        .iter()
-        .find(|t| !t.relative_compaction_pct.is_finite() || !t.moisture_measure.is_finite());
     let summary = summarize(&values);
     let mut verdict = LotVerdict {
         n: counted.len(),
@@ -531,28 +562,23 @@ pub fn evaluate_lot_with(
         accepted: false,
         reasons: Vec::new(),
         standings: standings.clone(),
-        failing_without_retest,
-        unjudged: unjudged.iter().map(|t| t.id).collect(),
+        failing_without_retest: counted.iter().filter(|t| !t.passed).map(|t| t.id).collect(),
+        unjudged: sorted.unjudged.iter().map(|t| t.id).collect(),
         moisture_pwl: None,
     };
-    let unjudged_reasons: Vec<String> = unjudged
-        .iter()
-        .map(|t| {
-            format!(
-                "{} cannot be judged: {}; it is out of the statistics and the lot cannot be accepted until it is voided or retested",
-                t.name(),
-                t.unjudged.as_deref().unwrap_or("no usable figures")
-            )
-        })
-        .collect();
+    let unjudged_reasons = sorted.unjudged_reasons();
     let Some(summary) = summary else {
         verdict.reasons.push(format!(
-            "no counted tests in the lot ({voided} voided, {superseded} superseded): nothing to accept"
+            "no counted tests in the lot ({} voided, {} superseded): nothing to accept",
+            sorted.voided, sorted.superseded
         ));
         verdict.reasons.extend(unjudged_reasons);
         return verdict;
     };
-    if let Some(t) = bad_value {
+    if let Some(t) = counted
+        .iter()
+        .find(|t| !t.relative_compaction_pct.is_finite() || !t.moisture_measure.is_finite())
+    {
         verdict.reasons.push(format!(
             "{} has no usable relative compaction or moisture deviation; the lot cannot be judged",
             t.name()
@@ -573,30 +599,84 @@ pub fn evaluate_lot_with(
     );
     let mut accepted = density.accepted;
     let mut reasons = density.reasons;
-    let m = decide_moisture(&counted, rule, limits, moisture);
+    let m = decide_moisture(counted, rule, limits, moisture);
     accepted &= m.accepted;
     reasons.extend(m.reasons);
     verdict.moisture_pwl = m.pwl;
-    reasons.extend(air_voids_reasons(&counted, limits, &mut accepted));
+    reasons.extend(air_voids_reasons(counted, limits, &mut accepted));
     if !unjudged_reasons.is_empty() {
         accepted = false;
         reasons.extend(unjudged_reasons);
     }
-    if voided + superseded > 0 {
-        reasons.push(format!(
-            "{voided} voided and {superseded} superseded test(s) are on record but out of the statistics"
-        ));
-    }
-    if earlier > 0 {
-        reasons.push(format!(
-            "{earlier} test(s) of an earlier sample are on record but out of the statistics: the lot is judged on its latest random sample"
-        ));
-    }
+    reasons.extend(sorted.out_of_statistics_reasons());
     verdict.accepted = accepted;
     verdict.reasons = reasons;
     verdict.quality_index = density.quality_index;
     verdict.pwl = density.pwl;
     verdict
+}
+
+/// A lot's tests sorted by standing: those counted, those that cannot be judged, and how
+/// many are out of the statistics for each other reason.
+struct SortedTests<'a> {
+    counted: Vec<&'a LotTestInput>,
+    unjudged: Vec<&'a LotTestInput>,
+    voided: usize,
+    superseded: usize,
+    earlier: usize,
+}
+
+impl<'a> SortedTests<'a> {
+    fn of(tests: &'a [LotTestInput], standings: &[(i64, TestStanding)]) -> Self {
+        let mut sorted = SortedTests {
+            counted: Vec::new(),
+            unjudged: Vec::new(),
+            voided: 0,
+            superseded: 0,
+            earlier: 0,
+        };
+        for (t, (_, s)) in tests.iter().zip(standings) {
+            match s {
+                TestStanding::Counted => sorted.counted.push(t),
+                TestStanding::CannotBeJudged => sorted.unjudged.push(t),
+                TestStanding::Voided => sorted.voided += 1,
+                TestStanding::Superseded { .. } => sorted.superseded += 1,
+                TestStanding::EarlierSample => sorted.earlier += 1,
+            }
+        }
+        sorted
+    }
+
+    /// One reason per test that cannot be judged: it blocks acceptance until voided or retested.
+    fn unjudged_reasons(&self) -> Vec<String> {
+        self.unjudged
+            .iter()
+            .map(|t| {
+                format!(
+                    "{} cannot be judged: {}; it is out of the statistics and the lot cannot be accepted until it is voided or retested",
+                    t.name(),
+                    t.unjudged.as_deref().unwrap_or("no usable figures")
+                )
+            })
+            .collect()
+    }
+
+    /// What is on record but out of the statistics, said so on the verdict.
+    fn out_of_statistics_reasons(&self) -> Vec<String> {
+        let (voided, superseded, earlier) = (self.voided, self.superseded, self.earlier);
+        let mut reasons = Vec::new();
+        if voided + superseded > 0 {
+            reasons.push(format!(
+                "{voided} voided and {superseded} superseded test(s) are on record but out of the statistics"
+            ));
+        }
+        if earlier > 0 {
+            reasons.push(format!(
+                "{earlier} test(s) of an earlier sample are on record but out of the statistics: the lot is judged on its latest random sample"
+            ));
+        }
+        reasons
+    }
 }
 
 /// The air-voids part of a lot decision: a per-test criterion under every rule, when the

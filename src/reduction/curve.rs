@@ -352,61 +352,16 @@ fn fit(
     sorted.sort_by(|a, b| a.water_content_pct.total_cmp(&b.water_content_pct));
     let ws: Vec<f64> = sorted.iter().map(|p| p.water_content_pct).collect();
     let ys: Vec<f64> = sorted.iter().map(|p| p.dry_density_kg_m3).collect();
-    let distinct = distinct_water_contents(&ws);
+    let distinct = check_spread(&ws)?;
     let (w_min, w_max) = (ws[0], ws[ws.len() - 1]);
-    if distinct == 1 {
-        return Err(CurveError::SameWaterContent {
-            water_content_pct: w_min,
-        });
-    }
-    if distinct < MIN_DISTINCT_WATER_CONTENTS {
-        return Err(CurveError::TooFewDistinctWaterContents { distinct });
-    }
     let center = (w_min + w_max) / 2.0;
     let scale = (w_max - w_min) / 2.0;
     let ts: Vec<f64> = ws.iter().map(|w| (w - center) / scale).collect();
 
-    let mut warnings = Vec::new();
     let preferred = forced.unwrap_or(if distinct >= 5 { 3 } else { 2 });
-    let mut chosen = None;
-    let mut tried_cubic = false;
-    for degree in [3u32, 2] {
-        if degree > preferred || (degree == 3 && distinct < 4) {
-            continue;
-        }
-        let Some(c) = least_squares(&ts, &ys, degree as usize) else {
-            continue;
-        };
-        if degree == 3 {
-            tried_cubic = true;
-        }
-        if let Some(t_peak) = interior_peak(&c, -1.0, 1.0) {
-            chosen = Some((degree, c, t_peak));
-            break;
-        }
-    }
-    let Some((degree, coefficients, t_peak)) = chosen else {
-        let c = least_squares(&ts, &ys, 2).ok_or(CurveError::Singular)?;
-        // The quadratic's value at t = +1 less that at t = −1 is 2 c₁: its sign tells the trend.
-        let (trend, advice) = if c[1] > 0.0 {
-            (
-                "rising towards the wettest point",
-                "wetter than the wettest point",
-            )
-        } else {
-            (
-                "falling from the driest point",
-                "drier than the driest point",
-            )
-        };
-        return Err(CurveError::NoInteriorPeak {
-            from_pct: w_min,
-            to_pct: w_max,
-            trend,
-            advice,
-        });
-    };
-    if tried_cubic && degree == 2 {
+    let chosen = choose_polynomial(&ts, &ys, preferred, distinct, (w_min, w_max))?;
+    let mut warnings = Vec::new();
+    if chosen.cubic_fell_back {
         warnings.push(CurveWarning {
             code: "fit_degree_reduced",
             message: "the cubic fit had no peak inside the measured range, so a quadratic was fitted instead".to_string(),
@@ -415,72 +370,179 @@ fn fit(
     let polynomial = FittedPolynomial {
         center_pct: center,
         scale_pct: scale,
-        coefficients,
+        coefficients: chosen.coefficients,
     };
-    let omc = center + scale * t_peak;
+    let omc = center + scale * chosen.t_peak;
     let mdd = polynomial.evaluate(omc);
     let max_dry_density =
         Density::named("maximum dry density", mdd).map_err(CurveError::PeakOutOfBounds)?;
     let optimum_water_content =
         WaterContent::named("optimum water content", omc).map_err(CurveError::PeakOutOfBounds)?;
 
-    // Bracketing: points strictly drier and wetter than the optimum (from memory: two each side).
+    warnings.extend(bracketing_warning(&ws, omc));
+    warnings.extend(repeated_water_warnings(&sorted));
+    if let Some(gs) = gs {
+        warnings.extend(zero_air_voids_warnings(points, gs, omc, mdd));
+    }
+    let (r_squared, rms_residual_kg_m3) = goodness_of_fit(&ws, &ys, &polynomial);
+    Ok(CurveFit {
+        max_dry_density,
+        optimum_water_content,
+        method: FitMethod::Polynomial {
+            degree: chosen.degree,
+        },
+        warnings,
+        curve: sample_curve(&polynomial, w_min, w_max),
+        polynomial,
+        r_squared,
+        rms_residual_kg_m3,
+    })
+}
+
+/// How many distinct water contents the points have, refusing a set too narrow to fit.
+fn check_spread(ws: &[f64]) -> Result<usize, CurveError> {
+    let distinct = distinct_water_contents(ws);
+    if distinct == 1 {
+        return Err(CurveError::SameWaterContent {
+            water_content_pct: ws[0],
+        });
+    }
+    if distinct < MIN_DISTINCT_WATER_CONTENTS {
+        return Err(CurveError::TooFewDistinctWaterContents { distinct });
+    }
+    Ok(distinct)
+}
+
+/// The polynomial chosen for the points, in the scaled water content t ∈ [−1, 1].
+struct ChosenPolynomial {
+    degree: u32,
+    coefficients: Vec<f64>,
+    t_peak: f64,
+    /// A cubic was fitted but had no interior peak, so the quadratic stands.
+    cubic_fell_back: bool,
+}
+
+/// The highest degree up to `preferred` whose least-squares fit peaks inside the range;
+/// refuses (saying which way the points trend) when neither the cubic nor the quadratic does.
+fn choose_polynomial(
+    ts: &[f64],
+    ys: &[f64],
+    preferred: u32,
+    distinct: usize,
+    (w_min, w_max): (f64, f64),
+) -> Result<ChosenPolynomial, CurveError> {
+    let mut tried_cubic = false;
+    for degree in [3u32, 2] {
+        if degree > preferred || (degree == 3 && distinct < 4) {
+            continue;
+        }
+        let Some(c) = least_squares(ts, ys, degree as usize) else {
+            continue;
+        };
+        if degree == 3 {
+            tried_cubic = true;
+        }
+        if let Some(t_peak) = interior_peak(&c, -1.0, 1.0) {
+            return Ok(ChosenPolynomial {
+                degree,
+                coefficients: c,
+                t_peak,
+                cubic_fell_back: tried_cubic && degree == 2,
+            });
+        }
+    }
+    let c = least_squares(ts, ys, 2).ok_or(CurveError::Singular)?;
+    // The quadratic's value at t = +1 less that at t = −1 is 2 c₁: its sign tells the trend.
+    let (trend, advice) = if c[1] > 0.0 {
+        (
+            "rising towards the wettest point",
+            "wetter than the wettest point",
+        )
+    } else {
+        (
+            "falling from the driest point",
+            "drier than the driest point",
+        )
+    };
+    Err(CurveError::NoInteriorPeak {
+        from_pct: w_min,
+        to_pct: w_max,
+        trend,
+        advice,
+    })
+}
+
+/// Bracketing: points strictly drier and wetter than the optimum (from memory: two each side).
+fn bracketing_warning(ws: &[f64], omc: f64) -> Option<CurveWarning> {
     let drier = ws.iter().filter(|&&w| w < omc).count();
     let wetter = ws.iter().filter(|&&w| w > omc).count();
-    if drier < MIN_POINTS_EACH_SIDE || wetter < MIN_POINTS_EACH_SIDE {
-        warnings.push(CurveWarning {
-            code: "peak_not_bracketed",
+    (drier < MIN_POINTS_EACH_SIDE || wetter < MIN_POINTS_EACH_SIDE).then(|| CurveWarning {
+        code: "peak_not_bracketed",
+        message: format!(
+            "{drier} point(s) drier and {wetter} wetter than the optimum {omc:.1} %; \
+             at least {MIN_POINTS_EACH_SIDE} are wanted on each side for the peak to be bracketed"
+        ),
+    })
+}
+
+/// Neighbouring specimens (sorted by water content) closer than the repeat tolerance.
+fn repeated_water_warnings(sorted: &[CurvePoint]) -> Vec<CurveWarning> {
+    sorted
+        .windows(2)
+        .filter(|pair| pair[1].water_content_pct - pair[0].water_content_pct < REPEATED_WATER_TOLERANCE_PCT)
+        .map(|pair| CurveWarning {
+            code: "repeated_water_content",
             message: format!(
-                "{drier} point(s) drier and {wetter} wetter than the optimum {omc:.1} %; \
-                 at least {MIN_POINTS_EACH_SIDE} are wanted on each side for the peak to be bracketed"
+                "two points share a water content of {:.1} % ({:.0} and {:.0} kg/m³); each specimen should be at a new water content",
+                pair[0].water_content_pct, pair[0].dry_density_kg_m3, pair[1].dry_density_kg_m3
+            ),
+        })
+        .collect()
+}
+
+/// Specimens and the fitted peak lying above the zero-air-voids line at Gs.
+fn zero_air_voids_warnings(
+    points: &[CurvePoint],
+    gs: SpecificGravity,
+    omc: f64,
+    mdd: f64,
+) -> Vec<CurveWarning> {
+    let mut warnings: Vec<CurveWarning> = points
+        .iter()
+        .filter_map(|p| {
+            let zav = zero_air_voids_density(gs, p.water_content_pct);
+            (p.dry_density_kg_m3 > zav).then(|| CurveWarning {
+                code: "above_zero_air_voids",
+                message: format!(
+                    "point at {:.1} % and {:.0} kg/m³ lies above the zero-air-voids density {:.0} kg/m³ for Gs {:.2}; check the masses, the water content or Gs",
+                    p.water_content_pct,
+                    p.dry_density_kg_m3,
+                    zav,
+                    gs.value()
+                ),
+            })
+        })
+        .collect();
+    let zav_peak = zero_air_voids_density(gs, omc);
+    if mdd > zav_peak {
+        warnings.push(CurveWarning {
+            code: "peak_above_zero_air_voids",
+            message: format!(
+                "fitted peak {mdd:.0} kg/m³ at {omc:.1} % lies above the zero-air-voids density {zav_peak:.0} kg/m³ for Gs {:.2}",
+                gs.value()
             ),
         });
     }
-    for pair in sorted.windows(2) {
-        let dw = pair[1].water_content_pct - pair[0].water_content_pct;
-        if dw < REPEATED_WATER_TOLERANCE_PCT {
-            warnings.push(CurveWarning {
-                code: "repeated_water_content",
-                message: format!(
-                    "two points share a water content of {:.1} % ({:.0} and {:.0} kg/m³); each specimen should be at a new water content",
-                    pair[0].water_content_pct, pair[0].dry_density_kg_m3, pair[1].dry_density_kg_m3
-                ),
-            });
-        }
-    }
-    if let Some(gs) = gs {
-        for p in points {
-            let zav = zero_air_voids_density(gs, p.water_content_pct);
-            if p.dry_density_kg_m3 > zav {
-                warnings.push(CurveWarning {
-                    code: "above_zero_air_voids",
-                    message: format!(
-                        "point at {:.1} % and {:.0} kg/m³ lies above the zero-air-voids density {:.0} kg/m³ for Gs {:.2}; check the masses, the water content or Gs",
-                        p.water_content_pct,
-                        p.dry_density_kg_m3,
-                        zav,
-                        gs.value()
-                    ),
-                });
-            }
-        }
-        let zav_peak = zero_air_voids_density(gs, omc);
-        if mdd > zav_peak {
-            warnings.push(CurveWarning {
-                code: "peak_above_zero_air_voids",
-                message: format!(
-                    "fitted peak {mdd:.0} kg/m³ at {omc:.1} % lies above the zero-air-voids density {zav_peak:.0} kg/m³ for Gs {:.2}",
-                    gs.value()
-                ),
-            });
-        }
-    }
+    warnings
+}
 
+/// R² and the RMS residual (kg/m³) of the fitted polynomial over the specimens.
+fn goodness_of_fit(ws: &[f64], ys: &[f64], polynomial: &FittedPolynomial) -> (f64, f64) {
     let mean = ys.iter().sum::<f64>() / ys.len() as f64;
     let ss_tot: f64 = ys.iter().map(|y| (y - mean).powi(2)).sum();
     let ss_res: f64 = ws
         .iter()
-        .zip(&ys)
+        .zip(ys)
         .map(|(&w, &y)| (y - polynomial.evaluate(w)).powi(2))
         .sum();
     let r_squared = if ss_tot > 0.0 {
@@ -488,9 +550,13 @@ fn fit(
     } else {
         1.0
     };
-    let rms_residual_kg_m3 = (ss_res / ys.len() as f64).sqrt();
+    (r_squared, (ss_res / ys.len() as f64).sqrt())
+}
+
+/// The fitted curve sampled evenly across the measured range, for charts.
+fn sample_curve(polynomial: &FittedPolynomial, w_min: f64, w_max: f64) -> Vec<CurvePoint> {
     let step = (w_max - w_min) / (CURVE_SAMPLES - 1) as f64;
-    let curve = (0..CURVE_SAMPLES)
+    (0..CURVE_SAMPLES)
         .map(|i| {
             let w = w_min + step * i as f64;
             CurvePoint {
@@ -498,17 +564,7 @@ fn fit(
                 dry_density_kg_m3: polynomial.evaluate(w),
             }
         })
-        .collect();
-    Ok(CurveFit {
-        max_dry_density,
-        optimum_water_content,
-        method: FitMethod::Polynomial { degree },
-        warnings,
-        curve,
-        polynomial,
-        r_squared,
-        rms_residual_kg_m3,
-    })
+        .collect()
 }
 
 #[cfg(test)]

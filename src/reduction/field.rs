@@ -154,54 +154,13 @@ pub fn reduce_field(readings: &FieldReadings) -> Result<FieldDensity, ReductionE
             sand_density_kg_m3,
             mass_wet_soil_g,
             water_content_pct,
-        } => {
-            positive("mass_sand_used_g", "sand used", *mass_sand_used_g)?;
-            finite(
-                "mass_sand_in_cone_g",
-                "cone sand mass",
-                *mass_sand_in_cone_g,
-            )?;
-            if *mass_sand_in_cone_g < 0.0 {
-                return Err(ReductionError::OutOfRange {
-                    field: "mass_sand_in_cone_g",
-                    reason: format!(
-                        "cone sand mass {} g must not be negative",
-                        num(*mass_sand_in_cone_g)
-                    ),
-                });
-            }
-            if *mass_sand_in_cone_g >= *mass_sand_used_g {
-                return Err(ReductionError::Inconsistent {
-                    field: "mass_sand_in_cone_g",
-                    reason: format!(
-                        "cone sand mass {} g is not less than sand used {} g",
-                        num(*mass_sand_in_cone_g),
-                        num(*mass_sand_used_g)
-                    ),
-                });
-            }
-            within(
-                "sand_density_kg_m3",
-                "sand density",
-                *sand_density_kg_m3,
-                SAND_DENSITY_MIN_KG_M3,
-                SAND_DENSITY_MAX_KG_M3,
-                "kg/m³",
-            )?;
-            positive("mass_wet_soil_g", "wet soil mass", *mass_wet_soil_g)?;
-            let w = water_field("water_content_pct", *water_content_pct)?;
-            // V_hole (cm³) = sand in hole (g) / ρ_sand (g/cm³).
-            let sand_in_hole_g = mass_sand_used_g - mass_sand_in_cone_g;
-            let volume_cm3 = sand_in_hole_g / (sand_density_kg_m3 / 1000.0);
-            let wet = wet_from_mass_volume(*mass_wet_soil_g, volume_cm3, "mass_wet_soil_g")?;
-            let dry = dry_from_wet(wet, w, "water_content_pct")?;
-            Ok(FieldDensity {
-                wet_density: wet,
-                water_content: w,
-                dry_density: dry,
-                moisture_source: "entered",
-            })
-        }
+        } => reduce_sand_cone(
+            *mass_sand_used_g,
+            *mass_sand_in_cone_g,
+            *sand_density_kg_m3,
+            *mass_wet_soil_g,
+            *water_content_pct,
+        ),
         FieldReadings::Balloon {
             hole_volume_cm3,
             mass_wet_soil_g,
@@ -225,6 +184,58 @@ pub fn reduce_field(readings: &FieldReadings) -> Result<FieldDensity, ReductionE
             *water_content_pct,
         ),
     }
+}
+
+/// Sand cone (ASTM D1556): the hole's volume from the sand that filled it, then ρ = m / V.
+fn reduce_sand_cone(
+    mass_sand_used_g: f64,
+    mass_sand_in_cone_g: f64,
+    sand_density_kg_m3: f64,
+    mass_wet_soil_g: f64,
+    water_content_pct: f64,
+) -> Result<FieldDensity, ReductionError> {
+    positive("mass_sand_used_g", "sand used", mass_sand_used_g)?;
+    finite("mass_sand_in_cone_g", "cone sand mass", mass_sand_in_cone_g)?;
+    if mass_sand_in_cone_g < 0.0 {
+        return Err(ReductionError::OutOfRange {
+            field: "mass_sand_in_cone_g",
+            reason: format!(
+                "cone sand mass {} g must not be negative",
+                num(mass_sand_in_cone_g)
+            ),
+        });
+    }
+    if mass_sand_in_cone_g >= mass_sand_used_g {
+        return Err(ReductionError::Inconsistent {
+            field: "mass_sand_in_cone_g",
+            reason: format!(
+                "cone sand mass {} g is not less than sand used {} g",
+                num(mass_sand_in_cone_g),
+                num(mass_sand_used_g)
+            ),
+        });
+    }
+    within(
+        "sand_density_kg_m3",
+        "sand density",
+        sand_density_kg_m3,
+        SAND_DENSITY_MIN_KG_M3,
+        SAND_DENSITY_MAX_KG_M3,
+        "kg/m³",
+    )?;
+    positive("mass_wet_soil_g", "wet soil mass", mass_wet_soil_g)?;
+    let w = water_field("water_content_pct", water_content_pct)?;
+    // V_hole (cm³) = sand in hole (g) / ρ_sand (g/cm³).
+    let sand_in_hole_g = mass_sand_used_g - mass_sand_in_cone_g;
+    let volume_cm3 = sand_in_hole_g / (sand_density_kg_m3 / 1000.0);
+    let wet = wet_from_mass_volume(mass_wet_soil_g, volume_cm3, "mass_wet_soil_g")?;
+    let dry = dry_from_wet(wet, w, "water_content_pct")?;
+    Ok(FieldDensity {
+        wet_density: wet,
+        water_content: w,
+        dry_density: dry,
+        moisture_source: "entered",
+    })
 }
 
 /// Balloon and drive cylinder: ρ = m / V, ρd = ρ / (1 + w/100).

@@ -233,91 +233,28 @@ impl EffortPreset {
 
     /// Mold, rammer, layer and blow data. All values are from memory of the standards.
     pub fn data(self) -> PresetData {
-        // From memory: ASTM 4-in mold 4.000 in × 4.584 in = 1/30 ft³ (944 cm³);
-        // 6-in mold 6.000 in × 4.584 in = 1/13.33 ft³ (2124 cm³).
-        let mold_4in = PresetData {
-            mold_diameter_mm: 4.0 * 25.4,
-            mold_height_mm: 4.584 * 25.4,
-            mold_volume_m3: M3_PER_FT3 / 30.0,
-            rammer_mass_kg: 5.5 * KG_PER_LB,
-            drop_m: 12.0 * M_PER_IN,
-            layers: 3,
-            blows_per_layer: 25,
-        };
-        let mold_6in = PresetData {
-            mold_diameter_mm: 6.0 * 25.4,
-            mold_height_mm: 4.584 * 25.4,
-            mold_volume_m3: M3_PER_FT3 * 0.075,
-            blows_per_layer: 56,
-            ..mold_4in
-        };
-        // From memory: modified rammer 10 lb dropped 18 in, 5 layers.
-        let modified = |d: PresetData| PresetData {
-            rammer_mass_kg: 10.0 * KG_PER_LB,
-            drop_m: 18.0 * M_PER_IN,
-            layers: 5,
-            ..d
-        };
-        // From memory: BS 1377-4 1 L mold 105 mm × 115.5 mm, 27 blows per layer.
-        let bs_mold = PresetData {
-            mold_diameter_mm: 105.0,
-            mold_height_mm: 115.5,
-            mold_volume_m3: 0.001,
-            rammer_mass_kg: 2.5,
-            drop_m: 0.300,
-            layers: 3,
-            blows_per_layer: 27,
-        };
-        // From memory: IS 2720 1000 ml mold 100 mm × 127.3 mm, 25 blows per layer.
-        let is_mold = PresetData {
-            mold_diameter_mm: 100.0,
-            mold_height_mm: 127.3,
-            mold_volume_m3: 0.001,
-            rammer_mass_kg: 2.6,
-            drop_m: 0.310,
-            layers: 3,
-            blows_per_layer: 25,
-        };
         match self {
-            Self::AstmD698Mold4in => mold_4in,
-            Self::AstmD698Mold6in => mold_6in,
-            Self::AstmD1557Mold4in => modified(mold_4in),
-            Self::AstmD1557Mold6in => modified(mold_6in),
-            // From memory: AASHTO T 99 method A, 2.5 kg rammer, 305 mm drop, 944 cm³ mold.
-            Self::AashtoT99 => PresetData {
-                mold_diameter_mm: 101.6,
-                mold_height_mm: 116.4,
-                mold_volume_m3: 0.000_944,
-                rammer_mass_kg: 2.495,
-                drop_m: 0.305,
-                layers: 3,
-                blows_per_layer: 25,
-            },
-            // From memory: AASHTO T 180 method A, 4.54 kg rammer, 457 mm drop, 5 layers.
-            Self::AashtoT180 => PresetData {
-                mold_diameter_mm: 101.6,
-                mold_height_mm: 116.4,
-                mold_volume_m3: 0.000_944,
-                rammer_mass_kg: 4.536,
-                drop_m: 0.457,
-                layers: 5,
-                blows_per_layer: 25,
-            },
-            Self::Bs1377Light => bs_mold,
+            Self::AstmD698Mold4in => ASTM_MOLD_4IN,
+            Self::AstmD698Mold6in => ASTM_MOLD_6IN,
+            Self::AstmD1557Mold4in => modified_rammer(ASTM_MOLD_4IN),
+            Self::AstmD1557Mold6in => modified_rammer(ASTM_MOLD_6IN),
+            Self::AashtoT99 => AASHTO_T99,
+            Self::AashtoT180 => AASHTO_T180,
+            Self::Bs1377Light => BS_MOLD,
             // From memory: 4.5 kg rammer, 450 mm drop, 5 layers × 27 blows.
             Self::Bs1377Heavy => PresetData {
                 rammer_mass_kg: 4.5,
                 drop_m: 0.450,
                 layers: 5,
-                ..bs_mold
+                ..BS_MOLD
             },
-            Self::Is2720Light => is_mold,
+            Self::Is2720Light => IS_MOLD,
             // From memory: IS 2720 (Part 8) cl. 3.2 and 5.2: 4.9 kg rammer, 450 mm drop, 5 layers × 25 blows.
             Self::Is2720Heavy => PresetData {
                 rammer_mass_kg: 4.9,
                 drop_m: 0.450,
                 layers: 5,
-                ..is_mold
+                ..IS_MOLD
             },
         }
     }
@@ -335,6 +272,78 @@ impl EffortPreset {
         }
     }
 }
+
+// From memory: ASTM 4-in mold 4.000 in × 4.584 in = 1/30 ft³ (944 cm³), standard rammer
+// 5.5 lb dropped 12 in, 3 layers × 25 blows.
+const ASTM_MOLD_4IN: PresetData = PresetData {
+    mold_diameter_mm: 4.0 * 25.4,
+    mold_height_mm: 4.584 * 25.4,
+    mold_volume_m3: M3_PER_FT3 / 30.0,
+    rammer_mass_kg: 5.5 * KG_PER_LB,
+    drop_m: 12.0 * M_PER_IN,
+    layers: 3,
+    blows_per_layer: 25,
+};
+
+// From memory: 6-in mold 6.000 in × 4.584 in = 1/13.33 ft³ (2124 cm³), 56 blows per layer.
+const ASTM_MOLD_6IN: PresetData = PresetData {
+    mold_diameter_mm: 6.0 * 25.4,
+    mold_height_mm: 4.584 * 25.4,
+    mold_volume_m3: M3_PER_FT3 * 0.075,
+    blows_per_layer: 56,
+    ..ASTM_MOLD_4IN
+};
+
+/// From memory: modified rammer 10 lb dropped 18 in, 5 layers.
+const fn modified_rammer(d: PresetData) -> PresetData {
+    PresetData {
+        rammer_mass_kg: 10.0 * KG_PER_LB,
+        drop_m: 18.0 * M_PER_IN,
+        layers: 5,
+        ..d
+    }
+}
+
+// From memory: AASHTO T 99 method A, 2.5 kg rammer, 305 mm drop, 944 cm³ mold.
+const AASHTO_T99: PresetData = PresetData {
+    mold_diameter_mm: 101.6,
+    mold_height_mm: 116.4,
+    mold_volume_m3: 0.000_944,
+    rammer_mass_kg: 2.495,
+    drop_m: 0.305,
+    layers: 3,
+    blows_per_layer: 25,
+};
+
+// From memory: AASHTO T 180 method A, 4.54 kg rammer, 457 mm drop, 5 layers.
+const AASHTO_T180: PresetData = PresetData {
+    rammer_mass_kg: 4.536,
+    drop_m: 0.457,
+    layers: 5,
+    ..AASHTO_T99
+};
+
+// From memory: BS 1377-4 1 L mold 105 mm × 115.5 mm, 2.5 kg rammer, 300 mm drop, 27 blows per layer.
+const BS_MOLD: PresetData = PresetData {
+    mold_diameter_mm: 105.0,
+    mold_height_mm: 115.5,
+    mold_volume_m3: 0.001,
+    rammer_mass_kg: 2.5,
+    drop_m: 0.300,
+    layers: 3,
+    blows_per_layer: 27,
+};
+
+// From memory: IS 2720 1000 ml mold 100 mm × 127.3 mm, 2.6 kg rammer, 310 mm drop, 25 blows per layer.
+const IS_MOLD: PresetData = PresetData {
+    mold_diameter_mm: 100.0,
+    mold_height_mm: 127.3,
+    mold_volume_m3: 0.001,
+    rammer_mass_kg: 2.6,
+    drop_m: 0.310,
+    layers: 3,
+    blows_per_layer: 25,
+};
 
 /// The two families of compaction effort a clause can name. A lot's reference curve must be
 /// of its clause's family: judging a modified-effort clause on a standard curve reads RC

@@ -14,7 +14,7 @@ use crate::error::AppError;
 use crate::http::caller::{Caller, Scope, require};
 use crate::http::extract::ApiQuery;
 use crate::ledger::setup;
-use crate::ledger::test_list::{Filters, select};
+use crate::ledger::test_list::{Filters, Listed, select};
 use crate::present::{self, Units};
 
 /// Routes of this module.
@@ -147,60 +147,12 @@ async fn csv(
     let u = Units::of(&p);
     let (selected, _) = select(&s.db, id, &f, &u, None).await?;
     let mut w = csv::WriterBuilder::new().from_writer(Vec::new());
-    let du = u.density_unit();
-    let header = [
-        "test".to_string(),
-        "lot".into(),
-        "zone".into(),
-        "layer".into(),
-        "tested_at_utc".into(),
-        "technician".into(),
-        "method".into(),
-        "chainage".into(),
-        "chainage_m".into(),
-        "offset_m".into(),
-        format!("wet_density_{}", du.replace('/', "_per_").replace('³', "3")),
-        "water_content_pct".into(),
-        format!("dry_density_{}", du.replace('/', "_per_").replace('³', "3")),
-        "relative_compaction_pct".into(),
-        "moisture_deviation_pct".into(),
-        "result".into(),
-        "retest_of".into(),
-        "void_reason".into(),
-        "reduction_version".into(),
-    ];
     let io = |e: csv::Error| PageError(AppError::Internal(anyhow::Error::new(e)));
-    w.write_record(&header).map_err(io)?;
+    w.write_record(csv_header(u.density_unit())).map_err(io)?;
     for x in &selected {
-        let t = &x.line.test;
-        let record = [
-            t.number.clone(),
-            x.lot.code.clone(),
-            x.lot.zone_name.clone(),
-            x.lot.layer_number.to_string(),
-            t.tested_at.clone(),
-            t.technician.clone(),
-            t.method.clone(),
-            u.chainage(t.chainage_m),
-            format!("{:.3}", t.chainage_m),
-            format!("{:.2}", t.offset_m),
-            u.density(t.wet_density_kg_m3),
-            format!("{:.2}", t.water_content_pct),
-            u.density(t.dry_density_kg_m3),
-            x.line
-                .relative_compaction_pct
-                .map_or(String::new(), |v| format!("{v:.2}")),
-            x.line
-                .moisture_deviation_pct
-                .map_or(String::new(), |v| format!("{v:.2}")),
-            x.line.result().to_string(),
-            x.line.retest_of_number.clone().unwrap_or_default(),
-            t.void_reason.clone().unwrap_or_default(),
-            t.reduction_version.clone(),
-        ];
-        let safe = record
-            .iter()
-            .map(|c| crate::transfer::csv_safe::cell(c).into_owned());
+        let safe = csv_row(x, &u)
+            .into_iter()
+            .map(|c| crate::transfer::csv_safe::cell(&c).into_owned());
         w.write_record(safe).map_err(io)?;
     }
     let body = w
@@ -219,4 +171,60 @@ async fn csv(
         ],
         bytes,
     ))
+}
+
+/// The CSV's columns; densities carry the project's unit in their names.
+fn csv_header(du: &str) -> [String; 19] {
+    let unit = du.replace('/', "_per_").replace('³', "3");
+    [
+        "test".to_string(),
+        "lot".into(),
+        "zone".into(),
+        "layer".into(),
+        "tested_at_utc".into(),
+        "technician".into(),
+        "method".into(),
+        "chainage".into(),
+        "chainage_m".into(),
+        "offset_m".into(),
+        format!("wet_density_{}", unit),
+        "water_content_pct".into(),
+        format!("dry_density_{}", unit),
+        "relative_compaction_pct".into(),
+        "moisture_deviation_pct".into(),
+        "result".into(),
+        "retest_of".into(),
+        "void_reason".into(),
+        "reduction_version".into(),
+    ]
+}
+
+/// One test's CSV cells, in the columns of [`csv_header`].
+fn csv_row(x: &Listed, u: &Units) -> [String; 19] {
+    let t = &x.line.test;
+    [
+        t.number.clone(),
+        x.lot.code.clone(),
+        x.lot.zone_name.clone(),
+        x.lot.layer_number.to_string(),
+        t.tested_at.clone(),
+        t.technician.clone(),
+        t.method.clone(),
+        u.chainage(t.chainage_m),
+        format!("{:.3}", t.chainage_m),
+        format!("{:.2}", t.offset_m),
+        u.density(t.wet_density_kg_m3),
+        format!("{:.2}", t.water_content_pct),
+        u.density(t.dry_density_kg_m3),
+        x.line
+            .relative_compaction_pct
+            .map_or(String::new(), |v| format!("{v:.2}")),
+        x.line
+            .moisture_deviation_pct
+            .map_or(String::new(), |v| format!("{v:.2}")),
+        x.line.result().to_string(),
+        x.line.retest_of_number.clone().unwrap_or_default(),
+        t.void_reason.clone().unwrap_or_default(),
+        t.reduction_version.clone(),
+    ]
 }

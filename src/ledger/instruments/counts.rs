@@ -81,19 +81,7 @@ pub async fn record_count(
     let day = date("counted_on", &input.counted_on)?;
     let density = count("density_count", input.density_count)?;
     let moisture = count("moisture_count", input.moisture_count)?;
-    let assigned = db::instruments::assignments(pool, Some(gauge.id), None)
-        .await?
-        .iter()
-        .any(|a| a.project_id == input.project_id && a.covers(&day));
-    if !assigned {
-        return Err(AppError::invalid(
-            "project_id",
-            format!(
-                "gauge {} is not assigned to project {} on {day}",
-                gauge.serial, input.project_id
-            ),
-        ));
-    }
+    require_assigned(pool, &gauge, input.project_id, &day).await?;
     let now = clock::now();
     let mut tx = db::begin_write(pool).await?;
     let t = match db::instruments::tolerances_in(&mut tx, input.project_id).await? {
@@ -103,23 +91,7 @@ pub async fn record_count(
         },
         None => CountTolerances::default(),
     };
-    // The baseline begins at the calibration in force on the count's day.
-    let since = db::instruments::latest_calibration_in(&mut tx, gauge.id, &day)
-        .await?
-        .map(|c| c.done_on)
-        .unwrap_or_default();
-    let past: Vec<PastCount> = db::instruments::counts_in(&mut tx, gauge.id)
-        .await?
-        .into_iter()
-        .filter(|c| c.counted_on >= since && c.counted_on <= day)
-        .filter_map(|c| {
-            Some(PastCount {
-                density: c.density_count as f64,
-                moisture: c.moisture_count as f64,
-                outcome: CountOutcome::parse_code(&c.outcome)?,
-            })
-        })
-        .collect();
+    let past = baseline(&mut tx, gauge.id, &day).await?;
     let j = judge_count(&past, density as f64, moisture as f64, t);
     let c = db::instruments::insert_count(
         &mut tx,
@@ -154,6 +126,50 @@ pub async fn record_count(
     .await?;
     tx.commit().await?;
     Ok(c)
+}
+
+/// Refuses a count on a day the gauge is not assigned to the project.
+async fn require_assigned(
+    pool: &Pool,
+    gauge: &db::instruments::Instrument,
+    project_id: i64,
+    day: &str,
+) -> Result<()> {
+    let assigned = db::instruments::assignments(pool, Some(gauge.id), None)
+        .await?
+        .iter()
+        .any(|a| a.project_id == project_id && a.covers(day));
+    if assigned {
+        return Ok(());
+    }
+    Err(AppError::invalid(
+        "project_id",
+        format!(
+            "gauge {} is not assigned to project {project_id} on {day}",
+            gauge.serial
+        ),
+    ))
+}
+
+/// The counts a new one is judged against: since the calibration in force on its day
+/// (the baseline begins there), up to that day.
+async fn baseline(tx: &mut db::Tx<'_>, gauge_id: i64, day: &str) -> Result<Vec<PastCount>> {
+    let since = db::instruments::latest_calibration_in(tx, gauge_id, day)
+        .await?
+        .map(|c| c.done_on)
+        .unwrap_or_default();
+    Ok(db::instruments::counts_in(tx, gauge_id)
+        .await?
+        .into_iter()
+        .filter(|c| c.counted_on.as_str() >= since.as_str() && c.counted_on.as_str() <= day)
+        .filter_map(|c| {
+            Some(PastCount {
+                density: c.density_count as f64,
+                moisture: c.moisture_count as f64,
+                outcome: CountOutcome::parse_code(&c.outcome)?,
+            })
+        })
+        .collect())
 }
 
 /// Sets a project's standard-count tolerances.

@@ -96,9 +96,26 @@ pub async fn create_offset(
     .await?;
     known.push(offset.clone());
     known.retain(|k| k.source_id == offset.source_id && k.mode == offset.mode);
+    let applied_to =
+        apply_to_stored_tests(&mut tx, &gauge.serial, &offset, &known, actor, &now).await?;
+    tx.commit().await?;
+    Ok(OffsetResult { offset, applied_to })
+}
+
+/// Re-reduces the gauge's stored readings that the new offset governs: same mode, and no
+/// later offset in force on the test's day. Each change is audited; returns the numbers.
+async fn apply_to_stored_tests(
+    tx: &mut db::Tx<'_>,
+    serial: &str,
+    offset: &GaugeOffset,
+    known: &[GaugeOffset],
+    actor: &Actor,
+    now: &str,
+) -> Result<Vec<String>> {
     let mut applied_to = Vec::new();
     for mut t in
-        db::instruments::tests_for_offset(&mut tx, &gauge.serial, source.id, &effective_on).await?
+        db::instruments::tests_for_offset(tx, serial, offset.source_id, &offset.effective_on)
+            .await?
     {
         let Ok(readings) = serde_json::from_str::<FieldReadings>(&t.readings_json) else {
             continue;
@@ -108,17 +125,19 @@ pub async fn create_offset(
         };
         let day = clock::date_of(&t.tested_at);
         // A later offset already in force on the test's day keeps its test.
-        let in_force = crate::reduction::instruments::in_force_on(&known, &day).map(|k| k.id);
-        if GaugeMode::of_probe_depth(*probe_depth_mm) != input.mode || in_force != Some(offset.id) {
+        let in_force = crate::reduction::instruments::in_force_on(known, &day).map(|k| k.id);
+        if GaugeMode::of_probe_depth(*probe_depth_mm).code() != offset.mode
+            || in_force != Some(offset.id)
+        {
             continue;
         }
         let before = json!({"wet_density_kg_m3": t.wet_density_kg_m3, "water_content_pct": t.water_content_pct,
             "dry_density_kg_m3": t.dry_density_kg_m3, "density_offset_kg_m3": t.density_offset_kg_m3,
             "moisture_offset_pct": t.moisture_offset_pct});
-        apply_offset(&mut t, &readings, &offset)?;
-        db::instruments::set_offset_reduction(&mut tx, &t).await?;
+        apply_offset(&mut t, &readings, offset)?;
+        db::instruments::set_offset_reduction(tx, &t).await?;
         audit::record(
-            &mut tx,
+            tx,
             &audit::Change {
                 actor: &actor.name,
                 action: "apply_offset",
@@ -131,11 +150,10 @@ pub async fn create_offset(
                     "moisture_offset_pct": t.moisture_offset_pct, "gauge_offset_id": offset.id})),
                 origin: &actor.origin,
             },
-            &now,
+            now,
         )
         .await?;
         applied_to.push(t.number.clone());
     }
-    tx.commit().await?;
-    Ok(OffsetResult { offset, applied_to })
+    Ok(applied_to)
 }

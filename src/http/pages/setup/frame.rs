@@ -79,7 +79,20 @@ pub fn clause_efforts() -> Vec<(String, String)> {
     v
 }
 
+/// Every field of a new clause, in the order the form shows them.
 fn clause_fields() -> Vec<Field> {
+    [
+        identity_fields(),
+        moisture_fields(),
+        rule_fields(),
+        frequency_fields(),
+        judging_fields(),
+    ]
+    .concat()
+}
+
+/// The clause's code, title, effort and density limit.
+fn identity_fields() -> Vec<Field> {
     vec![
         Field::new("code", "Clause code", Kind::Text, true)
             .hint("as the specification numbers it, e.g. 6.4.2"),
@@ -97,6 +110,12 @@ fn clause_fields() -> Vec<Field> {
             Kind::Number,
             true,
         ),
+    ]
+}
+
+/// The moisture window in any of its three forms, and the air-voids limit.
+fn moisture_fields() -> Vec<Field> {
+    vec![
         Field::new(
             "moisture_basis",
             "Moisture window written as",
@@ -142,6 +161,12 @@ fn clause_fields() -> Vec<Field> {
             false,
         )
         .hint("empty: air voids are not judged"),
+    ]
+}
+
+/// The acceptance rule and its figures.
+fn rule_fields() -> Vec<Field> {
+    vec![
         Field::new(
             "rule",
             "Acceptance rule",
@@ -166,6 +191,12 @@ fn clause_fields() -> Vec<Field> {
             false,
         )
         .hint("percent-within-limits rule only"),
+    ]
+}
+
+/// How many tests a lot owes.
+fn frequency_fields() -> Vec<Field> {
+    vec![
         Field::new(
             "min_tests_per_lot",
             "Least tests per lot",
@@ -184,6 +215,12 @@ fn clause_fields() -> Vec<Field> {
             Kind::Number,
             false,
         ),
+    ]
+}
+
+/// How values are corrected, flagged, rounded and judged for moisture.
+fn judging_fields() -> Vec<Field> {
+    vec![
         Field::new(
             "oversize_limit_pct",
             "Oversize correction up to (% coarse)",
