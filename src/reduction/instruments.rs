@@ -76,8 +76,54 @@ impl Default for CountTolerances {
     }
 }
 
+/// What an instrument is.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, serde::Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum InstrumentKind {
+    NuclearGauge,
+    SandCone,
+    SandBatch,
+    Balloon,
+    DriveCylinder,
+}
+
+impl InstrumentKind {
+    /// Every kind.
+    pub const ALL: [InstrumentKind; 5] = [
+        Self::NuclearGauge,
+        Self::SandCone,
+        Self::SandBatch,
+        Self::Balloon,
+        Self::DriveCylinder,
+    ];
+    /// Stored code.
+    pub fn code(self) -> &'static str {
+        match self {
+            Self::NuclearGauge => "nuclear_gauge",
+            Self::SandCone => "sand_cone",
+            Self::SandBatch => "sand_batch",
+            Self::Balloon => "balloon",
+            Self::DriveCylinder => "drive_cylinder",
+        }
+    }
+    /// Reads a code (stored, or a CSV cell).
+    pub fn parse_code(s: &str) -> Option<Self> {
+        Self::ALL.into_iter().find(|k| k.code() == s.trim())
+    }
+    /// Words for people.
+    pub fn label(self) -> &'static str {
+        match self {
+            Self::NuclearGauge => "nuclear gauge",
+            Self::SandCone => "sand-cone apparatus",
+            Self::SandBatch => "sand batch",
+            Self::Balloon => "balloon apparatus",
+            Self::DriveCylinder => "drive cylinder",
+        }
+    }
+}
+
 /// How a standard count was judged.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, serde::Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum CountOutcome {
     /// One of the first four counts of a baseline: accepted without a reference to judge by.
@@ -185,6 +231,12 @@ pub fn judge_count(
 pub trait Dated {
     /// The day it took effect.
     fn effective_day(&self) -> &str;
+}
+
+impl<T: Dated> Dated for &T {
+    fn effective_day(&self) -> &str {
+        (*self).effective_day()
+    }
 }
 
 /// The record in force on `day`: the latest taking effect on or before it (ties: the

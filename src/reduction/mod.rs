@@ -11,6 +11,7 @@ pub mod curve_quality;
 pub mod drift;
 pub mod field;
 pub mod frequency;
+pub mod instrument_check;
 pub mod instruments;
 pub mod lab;
 pub mod one_point;

@@ -73,7 +73,7 @@ pub struct SiteError {
 }
 
 impl SiteError {
-    fn new(field: impl Into<String>, message: impl Into<String>) -> Self {
+    pub(crate) fn new(field: impl Into<String>, message: impl Into<String>) -> Self {
         Self {
             field: field.into(),
             message: message.into(),

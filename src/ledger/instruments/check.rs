@@ -1,39 +1,24 @@
 //! Tests check their instrument: the register read once ([`InstrumentBook`]), then every
 //! field test — single entry, preview and import alike — checked against it without
-//! further database access.
-//!
-//! The rules (stated once, here):
-//! - A test naming no serial, or a serial the register does not know (tests entered
-//!   before the register existed, their retests, imports), is *instrument not recorded*:
-//!   shown as such, never blocked. Unknown serials are refused (404 naming `serial`)
-//!   where the register itself is addressed, not on tests.
-//! - A registered instrument must be assigned to the test's project on the test's date.
-//! - A nuclear test needs a registered operator (the `technician`, by code or name) whose
-//!   certification covers the date, an accepted standard count of the gauge that day and
-//!   a calibration covering the date. Without the last two the test is refused — or,
-//!   where its clause allows, recorded *out of check*: out of the statistics and
-//!   blocking submission (through the lot report's "cannot be judged" path).
-//! - A sand-cone test takes the cone-and-plate mass from its cone's calibration in force
-//!   on its date and the sand density from the sand batch on the project that day;
-//!   entering other values needs `calibration_override_reason`.
-//! - A nuclear reading gets the gauge's offsets in force on its date for the lot's
-//!   source and the gauge mode; the raw reading stays in `readings_json`.
+//! further database access, by `reduction::instrument_check` (where the rules are stated;
+//! the phone runs the same module offline). Unknown serials are refused (404 naming
+//! `serial`) where the register itself is addressed, not on tests.
 
 use crate::db::instruments::{
     Assignment, GaugeOffset, Instrument, InstrumentRecord, Operator, StandardCount,
 };
 use crate::db::{self, Pool};
 use crate::error::{AppError, Result};
-use crate::ledger::field::{CheckedTest, FieldTestInput, LotContext, Spot, check_loaded};
+use crate::ledger::field::{
+    CheckedTest, FieldTestInput, LotContext, Spot, check_loaded, site_error,
+};
 use crate::ledger::{Actor, validate};
 use crate::reduction::field::FieldReadings;
-use crate::reduction::instruments::{
-    self as rules, CountOutcome, GaugeMode, InstrumentCheck, Offsets, in_force_on,
+use crate::reduction::instrument_check::{
+    self as pure, Calibration, DayCount, Finding, GaugeOperator, MaterialOffset, OnProject,
+    Register, RegisteredInstrument, TestAtInstrument,
 };
-
-/// Largest difference from a calibrated value still taken as the same value.
-const SAME_MASS_G: f64 = 0.05;
-const SAME_DENSITY_KG_M3: f64 = 0.5;
+use crate::reduction::instruments::{CountOutcome, GaugeMode, InstrumentKind};
 
 /// How a test arrives: one at a time or in an import (both checked by the same rules;
 /// kept so a caller says which path it is).
@@ -43,81 +28,155 @@ pub enum Arrival {
     Import,
 }
 
-/// What the register holds that a project's tests are checked against.
+/// What the register holds that a project's tests are checked against: the rows, and the
+/// same as the pure [`Register`] the checks read.
 #[derive(Debug, Clone, Default)]
 pub struct InstrumentBook {
     pub instruments: Vec<Instrument>,
     pub records: Vec<InstrumentRecord>,
     pub assignments: Vec<Assignment>,
-    pub counts: Vec<StandardCount>,
-    pub operators: Vec<Operator>,
-    pub offsets: Vec<GaugeOffset>,
-    /// Clauses that record a test from an instrument out of check instead of refusing it.
-    pub clauses_recording_out_of_check: Vec<i64>,
+    pub register: Register,
 }
 
 impl InstrumentBook {
     /// Reads what a project's tests need of the register.
     pub async fn load(pool: &Pool, project_id: i64) -> Result<Self> {
-        Ok(Self {
-            instruments: db::instruments::list_instruments(pool).await?,
-            records: db::instruments::records(pool, None).await?,
-            assignments: db::instruments::assignments(pool, None, Some(project_id)).await?,
-            counts: db::instruments::counts(pool, None, Some(project_id)).await?,
-            operators: db::instruments::operators(pool).await?,
-            offsets: db::instruments::offsets(pool, None, Some(project_id)).await?,
+        let instruments = db::instruments::list_instruments(pool).await?;
+        let records = db::instruments::records(pool, None).await?;
+        let assignments = db::instruments::assignments(pool, None, Some(project_id)).await?;
+        let register = register_of(RegisterRows {
+            instruments: &instruments,
+            records: &records,
+            assignments: &assignments,
+            counts: &db::instruments::counts(pool, None, Some(project_id)).await?,
+            operators: &db::instruments::operators(pool).await?,
+            offsets: &db::instruments::offsets(pool, None, Some(project_id)).await?,
             clauses_recording_out_of_check: db::instruments::clauses_recording_out_of_check(
                 pool, project_id,
             )
             .await?,
+        })?;
+        Ok(Self {
+            instruments,
+            records,
+            assignments,
+            register,
         })
     }
+}
 
-    fn instrument(&self, serial: &str) -> Option<&Instrument> {
-        self.instruments.iter().find(|i| i.serial == serial)
-    }
+/// The register's rows for one project, as read.
+struct RegisterRows<'a> {
+    instruments: &'a [Instrument],
+    records: &'a [InstrumentRecord],
+    assignments: &'a [Assignment],
+    counts: &'a [StandardCount],
+    operators: &'a [Operator],
+    offsets: &'a [GaugeOffset],
+    clauses_recording_out_of_check: Vec<i64>,
+}
 
-    /// The calibration of an instrument in force on a day.
-    pub fn calibration_on(&self, instrument_id: i64, day: &str) -> Option<&InstrumentRecord> {
-        let cals: Vec<InstrumentRecord> = self
+/// A stored code the register's rules cannot read: a loud error, never a silent default.
+fn unknown_code(column: &str, code: &str) -> AppError {
+    AppError::Internal(anyhow::anyhow!(
+        "the instrument register holds an unknown {column} '{code}'"
+    ))
+}
+
+/// The pure register from its rows (calibrations only among the dated records).
+fn register_of(rows: RegisterRows<'_>) -> Result<Register> {
+    let instruments = rows
+        .instruments
+        .iter()
+        .map(|i| {
+            Ok(RegisteredInstrument {
+                id: i.id,
+                kind: InstrumentKind::parse_code(&i.kind)
+                    .ok_or_else(|| unknown_code("instrument kind", &i.kind))?,
+                serial: i.serial.clone(),
+            })
+        })
+        .collect::<Result<_>>()?;
+    let counts = rows
+        .counts
+        .iter()
+        .map(|c| {
+            Ok(DayCount {
+                instrument_id: c.instrument_id,
+                counted_on: c.counted_on.clone(),
+                density_count: c.density_count,
+                moisture_count: c.moisture_count,
+                outcome: CountOutcome::parse_code(&c.outcome)
+                    .ok_or_else(|| unknown_code("count outcome", &c.outcome))?,
+            })
+        })
+        .collect::<Result<_>>()?;
+    Ok(Register {
+        instruments,
+        calibrations: rows
             .records
             .iter()
-            .filter(|r| r.instrument_id == instrument_id && r.kind == "calibration")
-            .cloned()
-            .collect();
-        let found = in_force_on(&cals, day)?.id;
-        self.records.iter().find(|r| r.id == found)
-    }
-
-    fn assigned(&self, instrument_id: i64, day: &str) -> bool {
-        self.assignments
+            .filter(|r| r.kind == "calibration")
+            .map(calibration_of)
+            .collect(),
+        assignments: rows
+            .assignments
             .iter()
-            .any(|a| a.instrument_id == instrument_id && a.covers(day))
-    }
-
-    /// The sand batch on the project on a day (the latest assigned, when several).
-    fn sand_batch_on(&self, day: &str) -> Option<&Instrument> {
-        self.assignments
-            .iter()
-            .filter(|a| a.covers(day))
-            .filter_map(|a| {
-                let i = self.instruments.iter().find(|i| i.id == a.instrument_id)?;
-                (i.kind == "sand_batch").then_some((a.from_on.as_str(), i))
+            .map(|a| OnProject {
+                instrument_id: a.instrument_id,
+                from_on: a.from_on.clone(),
+                to_on: a.to_on.clone(),
             })
-            .max_by(|a, b| a.0.cmp(b.0))
-            .map(|(_, i)| i)
+            .collect(),
+        counts,
+        operators: rows.operators.iter().map(operator_of).collect(),
+        offsets: rows
+            .offsets
+            .iter()
+            .map(material_offset)
+            .collect::<Result<_>>()?,
+        clauses_recording_out_of_check: rows.clauses_recording_out_of_check,
+    })
+}
+
+fn calibration_of(r: &InstrumentRecord) -> Calibration {
+    Calibration {
+        id: r.id,
+        instrument_id: r.instrument_id,
+        done_on: r.done_on.clone(),
+        due_on: r.due_on.clone(),
+        cone_sand_mass_g: r.cone_sand_mass_g,
+        sand_density_kg_m3: r.sand_density_kg_m3,
+        volume_cm3: r.volume_cm3,
     }
+}
+
+fn operator_of(o: &Operator) -> GaugeOperator {
+    GaugeOperator {
+        id: o.id,
+        code: o.code.clone(),
+        name: o.name.clone(),
+        certification: o.certification.clone(),
+        expires_on: o.expires_on.clone(),
+    }
+}
+
+/// A stored offset as the checks read it.
+pub fn material_offset(o: &GaugeOffset) -> Result<MaterialOffset> {
+    Ok(MaterialOffset {
+        id: o.id,
+        instrument_id: o.instrument_id,
+        source_id: o.source_id,
+        mode: GaugeMode::parse_code(&o.mode).ok_or_else(|| unknown_code("gauge mode", &o.mode))?,
+        effective_on: o.effective_on.clone(),
+        density_offset_kg_m3: o.density_offset_kg_m3,
+        moisture_offset_pct: o.moisture_offset_pct,
+    })
 }
 
 /// The serial a test names: `instrument_serial`, else the gauge serial of its readings.
 pub fn serial_of(input: &FieldTestInput) -> String {
-    match &input.readings {
-        FieldReadings::Nuclear {
-            gauge_serial: Some(s),
-            ..
-        } if input.instrument_serial.trim().is_empty() => s.trim().to_string(),
-        _ => input.instrument_serial.trim().to_string(),
-    }
+    pure::serial_named(&input.instrument_serial, &input.readings)
 }
 
 /// Checks and reduces a field test with its instrument checked (the one path for single
@@ -137,229 +196,52 @@ pub fn check_with_instruments(
         None => crate::clock::date_of(now),
     };
     let _ = arrival;
-    let Some(instrument) = book.instrument(&serial) else {
+    let finding = pure::check(
+        &book.register,
+        &TestAtInstrument {
+            serial: &serial,
+            readings: &input.readings,
+            technician: &input.technician,
+            day: &day,
+            clause_id: ctx.clause.id,
+            clause_code: &ctx.clause.code,
+            source_id: ctx.lot.source_id,
+            override_reason: input.calibration_override_reason.as_deref(),
+        },
+    )
+    .map_err(site_error)?;
+    let Finding::Checked(found) = finding else {
         return check_loaded(ctx, input, fallback, actor, now);
     };
-    if !book.assigned(instrument.id, &day) {
-        return Err(AppError::invalid(
-            "instrument_serial",
-            format!(
-                "{} is not assigned to this project on {day}",
-                instrument.serial
-            ),
-        ));
-    }
-    match (&input.readings, instrument.kind.as_str()) {
-        (FieldReadings::Nuclear { .. }, "nuclear_gauge") => {
-            nuclear(book, ctx, input, fallback, actor, now, instrument, &day)
-        }
-        (FieldReadings::SandCone { .. }, "sand_cone") => {
-            sand_cone(book, ctx, input, fallback, actor, now, instrument, &day)
-        }
-        (FieldReadings::Balloon { .. }, "balloon")
-        | (FieldReadings::DriveCylinder { .. }, "drive_cylinder") => {
-            let mut checked = check_loaded(ctx, input, fallback, actor, now)?;
-            let cal = book.calibration_on(instrument.id, &day);
-            checked.record.instrument_check = InstrumentCheck::InCheck.code().to_string();
-            checked.record.instrument_note = Some(match cal {
-                Some(c) => format!(
-                    "{} {}: calibrated {}{}",
-                    kind_label(&instrument.kind),
-                    instrument.serial,
-                    c.done_on,
-                    c.volume_cm3
-                        .map(|v| format!(", {v:.1} cm³"))
-                        .unwrap_or_default()
-                ),
-                None => format!("{} {}", kind_label(&instrument.kind), instrument.serial),
-            });
-            Ok(checked)
-        }
-        (r, kind) => Err(AppError::invalid(
-            "instrument_serial",
-            format!(
-                "{} is a {}, not an instrument for a {} test",
-                instrument.serial,
-                kind_label(kind),
-                r.method_code().replace('_', " ")
-            ),
-        )),
-    }
-}
-
-/// Words for an instrument kind.
-pub fn kind_label(kind: &str) -> &'static str {
-    match kind {
-        "nuclear_gauge" => "nuclear gauge",
-        "sand_cone" => "sand-cone apparatus",
-        "sand_batch" => "sand batch",
-        "balloon" => "balloon apparatus",
-        "drive_cylinder" => "drive cylinder",
-        _ => "instrument",
-    }
-}
-
-/// Why a gauge is out of check on a day (empty when in check), and its evidence.
-pub fn gauge_standing(
-    book: &InstrumentBook,
-    gauge: &Instrument,
-    day: &str,
-) -> (Vec<String>, String) {
-    let mut reasons = Vec::new();
-    let mut evidence = format!("gauge {}", gauge.serial);
-    match book.calibration_on(gauge.id, day) {
-        None => reasons.push(format!("no calibration recorded on or before {day}")),
-        Some(c) => {
-            evidence.push_str(&format!(
-                ": calibrated {}{}",
-                c.done_on,
-                c.due_on
-                    .as_deref()
-                    .map(|d| format!(" (due {d})"))
-                    .unwrap_or_default()
-            ));
-            if !rules::covers(c.due_on.as_deref(), day) {
-                reasons.push(format!(
-                    "its calibration of {} was due on {}",
-                    c.done_on,
-                    c.due_on.as_deref().unwrap_or("")
-                ));
-            }
-        }
-    }
-    let todays: Vec<&StandardCount> = book
-        .counts
-        .iter()
-        .filter(|c| c.instrument_id == gauge.id && c.counted_on == day)
-        .collect();
-    match todays
-        .iter()
-        .rev()
-        .find(|c| CountOutcome::parse_code(&c.outcome).is_some_and(CountOutcome::in_check))
-    {
-        Some(c) => evidence.push_str(&format!(
-            "; standard count {day}: density {}, moisture {} ({})",
-            c.density_count, c.moisture_count, c.outcome
-        )),
-        None if todays.is_empty() => reasons.push(format!("no standard count on {day}")),
-        None => reasons.push(format!(
-            "its standard count{} on {day} failed",
-            if todays.len() == 1 { "" } else { "s" }
-        )),
-    }
-    (reasons, evidence)
-}
-
-#[allow(clippy::too_many_arguments)]
-fn nuclear(
-    book: &InstrumentBook,
-    ctx: &LotContext,
-    input: &FieldTestInput,
-    fallback: Option<Spot>,
-    actor: &Actor,
-    now: &str,
-    gauge: &Instrument,
-    day: &str,
-) -> Result<CheckedTest> {
-    let operator = operator_for(book, &input.technician, day)?;
-    let (reasons, evidence) = gauge_standing(book, gauge, day);
-    let status = if reasons.is_empty() {
-        InstrumentCheck::InCheck
-    } else if book.clauses_recording_out_of_check.contains(&ctx.clause.id) {
-        InstrumentCheck::OutOfCheck
-    } else {
-        return Err(AppError::invalid(
-            "instrument_serial",
-            format!(
-                "gauge {} is out of check on {day}: {}; the test is refused (clause {} does not record tests from an instrument out of check)",
-                gauge.serial,
-                reasons.join("; "),
-                ctx.clause.code
-            ),
-        ));
-    };
-    let mut checked = check_loaded(ctx, input, fallback, actor, now)?;
+    let mut input = input.clone();
+    input.readings = found.readings.clone();
+    let mut checked = check_loaded(ctx, &input, fallback, actor, now)?;
     let r = &mut checked.record;
-    r.instrument_serial = gauge.serial.clone();
-    r.operator_id = Some(operator.id);
-    r.technician = operator.name.clone();
-    r.instrument_check = status.code().to_string();
-    r.instrument_note = Some(if reasons.is_empty() {
-        evidence
-    } else {
-        format!("{evidence}; out of check: {}", reasons.join("; "))
-    });
-    if let Some(o) = offset_for(book, gauge.id, ctx.lot.source_id, &input.readings, day) {
+    r.instrument_serial = found.serial;
+    if let Some((id, name)) = found.operator {
+        r.operator_id = Some(id);
+        r.technician = name;
+    }
+    r.instrument_check = found.check.code().to_string();
+    r.instrument_note = Some(found.note);
+    if let Some(o) = &found.offset {
         apply_offset(r, &input.readings, o)?;
     }
     Ok(checked)
 }
 
-/// The registered operator a technician names (code or name, any case), certified on `day`.
-fn operator_for<'a>(book: &'a InstrumentBook, technician: &str, day: &str) -> Result<&'a Operator> {
-    let t = technician.trim();
-    let op = book
-        .operators
-        .iter()
-        .find(|o| o.code.eq_ignore_ascii_case(t) || o.name.eq_ignore_ascii_case(t))
-        .ok_or_else(|| {
-            AppError::invalid(
-                "technician",
-                format!("'{t}' is not a registered gauge operator; a nuclear test from a registered gauge needs one"),
-            )
-        })?;
-    if op.expires_on.as_str() < day {
-        return Err(AppError::invalid(
-            "technician",
-            format!(
-                "{}'s certification ({}) expired on {}",
-                op.name, op.certification, op.expires_on
-            ),
-        ));
-    }
-    Ok(op)
-}
-
-/// The offsets of a gauge in force on a day for a source and the reading's mode.
-pub fn offset_for<'a>(
-    book: &'a InstrumentBook,
-    gauge_id: i64,
-    source_id: i64,
-    readings: &FieldReadings,
-    day: &str,
-) -> Option<&'a GaugeOffset> {
-    let FieldReadings::Nuclear { probe_depth_mm, .. } = readings else {
-        return None;
-    };
-    let mode = GaugeMode::of_probe_depth(*probe_depth_mm);
-    let mine: Vec<GaugeOffset> = book
-        .offsets
-        .iter()
-        .filter(|o| {
-            o.instrument_id == gauge_id && o.source_id == source_id && o.mode == mode.code()
-        })
-        .cloned()
-        .collect();
-    let id = in_force_on(&mine, day)?.id;
-    book.offsets.iter().find(|o| o.id == id)
+/// Words for a stored instrument kind.
+pub fn kind_label(kind: &str) -> &'static str {
+    InstrumentKind::parse_code(kind).map_or("instrument", InstrumentKind::label)
 }
 
 /// Re-reduces a test's raw readings with an offset applied, keeping the raw reading.
 pub fn apply_offset(
     r: &mut db::field_tests::FieldTest,
     readings: &FieldReadings,
-    o: &GaugeOffset,
+    o: &MaterialOffset,
 ) -> Result<()> {
-    let raw = crate::reduction::field::reduce_field(readings)
-        .map_err(|e| AppError::invalid(format!("readings.{}", e.field()), e.to_string()))?;
-    let corrected = rules::apply_offsets(
-        raw,
-        Offsets {
-            density_kg_m3: o.density_offset_kg_m3,
-            moisture_pct: o.moisture_offset_pct,
-        },
-    )
-    .map_err(|e| AppError::invalid("readings", format!("with the gauge offsets applied: {e}")))?;
+    let corrected = pure::with_offset(readings, o).map_err(site_error)?;
     r.wet_density_kg_m3 = corrected.wet_density.kg_m3();
     r.water_content_pct = corrected.water_content.pct();
     r.dry_density_kg_m3 = corrected.dry_density.kg_m3();
@@ -370,103 +252,4 @@ pub fn apply_offset(
         o.moisture_offset_pct
     });
     Ok(())
-}
-
-#[allow(clippy::too_many_arguments)]
-fn sand_cone(
-    book: &InstrumentBook,
-    ctx: &LotContext,
-    input: &FieldTestInput,
-    fallback: Option<Spot>,
-    actor: &Actor,
-    now: &str,
-    cone: &Instrument,
-    day: &str,
-) -> Result<CheckedTest> {
-    let cone_cal = book
-        .calibration_on(cone.id, day)
-        .and_then(|c| c.cone_sand_mass_g.map(|m| (c, m)))
-        .ok_or_else(|| {
-            AppError::invalid(
-                "instrument_serial",
-                format!("cone {} has no calibration on or before {day}", cone.serial),
-            )
-        })?;
-    let batch = book.sand_batch_on(day).ok_or_else(|| {
-        AppError::invalid(
-            "readings.sand_density_kg_m3",
-            format!("no sand batch is assigned to this project on {day}"),
-        )
-    })?;
-    let batch_cal = book
-        .calibration_on(batch.id, day)
-        .and_then(|c| c.sand_density_kg_m3.map(|d| (c, d)))
-        .ok_or_else(|| {
-            AppError::invalid(
-                "readings.sand_density_kg_m3",
-                format!(
-                    "sand batch {} has no calibration on or before {day}",
-                    batch.serial
-                ),
-            )
-        })?;
-    let reason = input
-        .calibration_override_reason
-        .as_deref()
-        .map(str::trim)
-        .filter(|r| !r.is_empty());
-    let mut input = input.clone();
-    let mut overridden = Vec::new();
-    if let FieldReadings::SandCone {
-        mass_sand_in_cone_g,
-        sand_density_kg_m3,
-        ..
-    } = &mut input.readings
-    {
-        let fields = [
-            (
-                mass_sand_in_cone_g,
-                cone_cal.1,
-                SAME_MASS_G,
-                "mass_sand_in_cone_g",
-                "g",
-            ),
-            (
-                sand_density_kg_m3,
-                batch_cal.1,
-                SAME_DENSITY_KG_M3,
-                "sand_density_kg_m3",
-                "kg/m³",
-            ),
-        ];
-        for (value, calibrated, same, field, unit) in fields {
-            if *value == 0.0 {
-                *value = calibrated;
-            } else if (*value - calibrated).abs() > same {
-                if reason.is_none() {
-                    return Err(AppError::invalid(
-                        format!("readings.{field}"),
-                        format!(
-                            "{value} {unit} differs from the calibration in force on {day} ({calibrated} {unit}); give calibration_override_reason to use it"
-                        ),
-                    ));
-                }
-                overridden.push(format!(
-                    "{field} {value} {unit} instead of {calibrated} {unit}"
-                ));
-            }
-        }
-    }
-    let mut checked = check_loaded(ctx, &input, fallback, actor, now)?;
-    let mut note = format!(
-        "cone {} calibrated {}: {} g in cone and plate; sand batch {} calibrated {}: {} kg/m³",
-        cone.serial, cone_cal.0.done_on, cone_cal.1, batch.serial, batch_cal.0.done_on, batch_cal.1
-    );
-    if !overridden.is_empty() {
-        let why = validate::text("calibration_override_reason", reason.unwrap_or(""), 300)?;
-        note.push_str(&format!("; overridden ({}): {why}", overridden.join(", ")));
-    }
-    checked.record.instrument_check = InstrumentCheck::InCheck.code().to_string();
-    checked.record.instrument_note = Some(note);
-    Ok(checked)
 }

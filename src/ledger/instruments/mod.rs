@@ -16,41 +16,7 @@ use crate::clock;
 use crate::db::{self, Pool, instruments::Instrument};
 use crate::error::{AppError, Result};
 
-/// What an instrument is.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, serde::Serialize)]
-#[serde(rename_all = "snake_case")]
-pub enum InstrumentKind {
-    NuclearGauge,
-    SandCone,
-    SandBatch,
-    Balloon,
-    DriveCylinder,
-}
-
-impl InstrumentKind {
-    /// Stored code.
-    pub fn code(self) -> &'static str {
-        match self {
-            Self::NuclearGauge => "nuclear_gauge",
-            Self::SandCone => "sand_cone",
-            Self::SandBatch => "sand_batch",
-            Self::Balloon => "balloon",
-            Self::DriveCylinder => "drive_cylinder",
-        }
-    }
-    /// Reads a code (CSV import).
-    pub fn parse_code(s: &str) -> Option<Self> {
-        [
-            Self::NuclearGauge,
-            Self::SandCone,
-            Self::SandBatch,
-            Self::Balloon,
-            Self::DriveCylinder,
-        ]
-        .into_iter()
-        .find(|k| k.code() == s.trim())
-    }
-}
+pub use crate::reduction::instruments::InstrumentKind;
 
 /// What kind of dated record.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]

@@ -6,7 +6,7 @@
 use serde::Deserialize;
 use serde_json::json;
 
-use super::check::apply_offset;
+use super::check::{apply_offset, material_offset};
 use super::{audit_row, require_instrument};
 use crate::clock;
 use crate::db::{self, Pool, audit, instruments::GaugeOffset};
@@ -112,6 +112,7 @@ async fn apply_to_stored_tests(
     actor: &Actor,
     now: &str,
 ) -> Result<Vec<String>> {
+    let material = material_offset(offset)?;
     let mut applied_to = Vec::new();
     for mut t in
         db::instruments::tests_for_offset(tx, serial, offset.source_id, &offset.effective_on)
@@ -134,7 +135,7 @@ async fn apply_to_stored_tests(
         let before = json!({"wet_density_kg_m3": t.wet_density_kg_m3, "water_content_pct": t.water_content_pct,
             "dry_density_kg_m3": t.dry_density_kg_m3, "density_offset_kg_m3": t.density_offset_kg_m3,
             "moisture_offset_pct": t.moisture_offset_pct});
-        apply_offset(&mut t, &readings, offset)?;
+        apply_offset(&mut t, &readings, &material)?;
         db::instruments::set_offset_reduction(tx, &t).await?;
         audit::record(
             tx,
