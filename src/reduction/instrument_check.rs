@@ -145,15 +145,6 @@ pub struct TestAtInstrument<'a> {
     pub override_reason: Option<&'a str>,
 }
 
-/// What the register says of a test.
-#[derive(Debug, Clone, PartialEq)]
-pub enum Finding {
-    /// No serial, or one the register does not know.
-    NotRecorded,
-    /// A registered instrument, checked.
-    Checked(Checked),
-}
-
 /// A test's instrument once checked: what its record carries.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Checked {
@@ -307,10 +298,11 @@ impl Register {
     }
 }
 
-/// Checks a test against its instrument (the rules are in the module doc).
-pub fn check(register: &Register, t: &TestAtInstrument<'_>) -> Result<Finding, SiteError> {
+/// Checks a test against its instrument (the rules are in the module doc); `None` when the
+/// instrument is not recorded (no serial, or one the register does not know).
+pub fn check(register: &Register, t: &TestAtInstrument<'_>) -> Result<Option<Checked>, SiteError> {
     let Some(instrument) = register.instrument(t.serial) else {
-        return Ok(Finding::NotRecorded);
+        return Ok(None);
     };
     if !register.assigned(instrument.id, t.day) {
         return Err(SiteError::new(
@@ -344,7 +336,7 @@ pub fn check(register: &Register, t: &TestAtInstrument<'_>) -> Result<Finding, S
             ));
         }
     };
-    Ok(Finding::Checked(checked))
+    Ok(Some(checked))
 }
 
 /// A nuclear gauge: its operator, its standing on the day, and its offsets.

@@ -15,8 +15,8 @@ use crate::ledger::field::{
 use crate::ledger::{Actor, validate};
 use crate::reduction::field::FieldReadings;
 use crate::reduction::instrument_check::{
-    self as pure, Calibration, DayCount, Finding, GaugeOperator, MaterialOffset, OnProject,
-    Register, RegisteredInstrument, TestAtInstrument,
+    self as pure, Calibration, DayCount, GaugeOperator, MaterialOffset, OnProject, Register,
+    RegisteredInstrument, TestAtInstrument,
 };
 use crate::reduction::instruments::{CountOutcome, GaugeMode, InstrumentKind};
 
@@ -196,7 +196,7 @@ pub fn check_with_instruments(
         None => crate::clock::date_of(now),
     };
     let _ = arrival;
-    let finding = pure::check(
+    let found = pure::check(
         &book.register,
         &TestAtInstrument {
             serial: &serial,
@@ -210,7 +210,7 @@ pub fn check_with_instruments(
         },
     )
     .map_err(site_error)?;
-    let Finding::Checked(found) = finding else {
+    let Some(found) = found else {
         return check_loaded(ctx, input, fallback, actor, now);
     };
     let mut input = input.clone();

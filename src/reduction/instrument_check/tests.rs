@@ -143,25 +143,16 @@ fn at<'a>(serial: &'a str, readings: &'a FieldReadings, day: &'a str) -> TestAtI
     }
 }
 
-fn checked(f: Finding) -> Checked {
-    match f {
-        Finding::Checked(c) => c,
-        Finding::NotRecorded => panic!("expected a checked instrument"),
-    }
+fn checked(f: Option<Checked>) -> Checked {
+    f.expect("a checked instrument")
 }
 
 #[test]
 fn no_serial_or_an_unknown_one_is_not_recorded_and_never_blocks() {
     let r = register();
     let readings = nuclear(Some(200.0));
-    assert_eq!(
-        check(&r, &at("", &readings, "2026-05-12")),
-        Ok(Finding::NotRecorded)
-    );
-    assert_eq!(
-        check(&r, &at("NG-99", &readings, "2026-05-12")),
-        Ok(Finding::NotRecorded)
-    );
+    assert_eq!(check(&r, &at("", &readings, "2026-05-12")), Ok(None));
+    assert_eq!(check(&r, &at("NG-99", &readings, "2026-05-12")), Ok(None));
 }
 
 #[test]
@@ -309,7 +300,7 @@ fn an_offset_corrects_the_gauge_reading_but_not_an_oven_water_content() {
     let d = with_offset(&nuclear(Some(200.0)), offset).unwrap();
     assert!((d.wet_density.kg_m3() - 2080.0).abs() < 1e-9);
     assert!((d.water_content.pct() - 11.0).abs() < 1e-9);
-    assert!((d.dry_density.kg_m3() - 1873.873_873_9).abs() < 1e-6);
+    assert!((d.dry_density.kg_m3() - 1_873.873_873_9).abs() < 1e-6);
     // An oven water content of 9.0 % stands: dry 2080 / 1.09 = 1908.26 kg/m³.
     let oven = FieldReadings::Nuclear {
         wet_density_kg_m3: 2100.0,
@@ -321,7 +312,7 @@ fn an_offset_corrects_the_gauge_reading_but_not_an_oven_water_content() {
     };
     let d = with_offset(&oven, offset).unwrap();
     assert!((d.water_content.pct() - 9.0).abs() < 1e-9);
-    assert!((d.dry_density.kg_m3() - 1908.256_880_7).abs() < 1e-6);
+    assert!((d.dry_density.kg_m3() - 1_908.256_880_7).abs() < 1e-6);
 }
 
 #[test]
