@@ -10,7 +10,8 @@ use serde_json::json;
 
 use crate::present::Units;
 use crate::reduction::field::FieldReadings;
-use crate::reduction::site::{FieldTestInput, LotRules};
+use crate::reduction::instruments::InstrumentCheck;
+use crate::reduction::site::{FieldTestInput, LotInstruments, LotRules};
 use crate::reduction::{Chainage, Density, UnitSystem};
 
 /// The form exactly as typed; every value is text until parsed.
@@ -243,6 +244,8 @@ pub struct PreviewView {
     pub passed: bool,
     pub verdict: String,
     pub reasons: Vec<String>,
+    /// The instrument's standing and evidence, when it was checked ("" otherwise).
+    pub instrument: String,
 }
 
 pub fn preview_view(v: &serde_json::Value, u: &Units) -> PreviewView {
@@ -264,6 +267,7 @@ pub fn preview_view(v: &serde_json::Value, u: &Units) -> PreviewView {
             f("reference_omc_pct")
         ),
         passed,
+        instrument: instrument_words(v),
         verdict: if passed { "passes" } else { "fails" }.to_string(),
         reasons: v["reasons"]
             .as_array()
@@ -278,6 +282,17 @@ pub fn preview_view(v: &serde_json::Value, u: &Units) -> PreviewView {
                     .filter_map(|f| f["message"].as_str().map(|m| format!("flag: {m}"))),
             )
             .collect(),
+    }
+}
+
+/// "instrument in check: gauge NG-11: calibrated …", from a preview's values.
+fn instrument_words(v: &serde_json::Value) -> String {
+    let Ok(check) = serde_json::from_value::<InstrumentCheck>(v["instrument_check"].clone()) else {
+        return String::new();
+    };
+    match v["instrument_note"].as_str() {
+        Some(note) => format!("{}: {note}", check.label()),
+        None => check.label().to_string(),
     }
 }
 
@@ -314,7 +329,17 @@ pub fn refusal_words(
 /// The live preview's answer to a form: `{"errors": {field: message}}`, or no errors with
 /// `preview` (the words shown), `values` (the numbers, unformatted) and `input` (the API
 /// body the site app's queue sends).
-pub fn answer(lot: &LotRules, u: &Units, form: &EntryForm, retest: bool) -> serde_json::Value {
+///
+/// With the register (`instruments`), the test's instrument is checked as the ledger checks
+/// it when the test is stored; `today` is the day of a test whose form gives no time.
+pub fn answer(
+    lot: &LotRules,
+    instruments: Option<&LotInstruments>,
+    u: &Units,
+    form: &EntryForm,
+    retest: bool,
+    today: &str,
+) -> serde_json::Value {
     let input = match parse_entry(form, u, retest) {
         Ok(i) => i,
         Err(mut errors) => {
@@ -322,7 +347,11 @@ pub fn answer(lot: &LotRules, u: &Units, form: &EntryForm, retest: bool) -> serd
             return json!({ "errors": errors });
         }
     };
-    match crate::reduction::site::preview(lot, &input, None) {
+    let previewed = match instruments {
+        Some(reg) => crate::reduction::site::preview_at_instrument(lot, reg, &input, today),
+        None => crate::reduction::site::preview(lot, &input, None),
+    };
+    match previewed {
         Ok(p) => {
             let v = serde_json::to_value(&p).unwrap_or_default();
             json!({"errors": {}, "preview": preview_view(&v, u), "values": v, "input": input})

@@ -20,8 +20,9 @@
   // The answer worked out on the phone, by the same library and parser as the server.
   function offlineAnswer() {
     return window.liftSite.answer({
-      rules: site.rules, unit_system: site.unit_system, chainage_style: site.chainage_style,
-      form: formObject(), retest: form.getAttribute("data-retest") === "yes"
+      rules: site.rules, instruments: site.instruments, unit_system: site.unit_system,
+      chainage_style: site.chainage_style, form: formObject(),
+      retest: form.getAttribute("data-retest") === "yes", today: new Date().toISOString().slice(0, 10)
     });
   }
   function offline() { return !navigator.onLine; }
@@ -85,6 +86,11 @@
       dl.appendChild(dd);
     });
     card.appendChild(dl);
+    if (p.instrument) {
+      var inst = el("p", p.instrument, "instrument");
+      inst.id = "pv-instrument";
+      card.appendChild(inst);
+    }
     if (p.reasons && p.reasons.length) {
       var ul = el("ul");
       p.reasons.forEach(function (r) { ul.appendChild(el("li", r)); });

@@ -6,8 +6,9 @@
 use sha2::{Digest, Sha256};
 
 use super::Actor;
-use super::field::{FieldTestInput, LotContext, RuleCache, check_loaded, require_lot};
+use super::field::{FieldTestInput, LotContext, RuleCache, require_lot};
 use super::field::{require_lot_takes_tests, require_test, store_in};
+use super::instruments::check::{Arrival, InstrumentBook, check_with_instruments};
 use crate::clock;
 use crate::db::{self, Pool};
 use crate::error::{AppError, Result};
@@ -81,7 +82,9 @@ pub async fn record_once(
     require_lot_takes_tests(&lot)?;
     let ctx = LotContext::load_with(pool, rules, &lot).await?;
     let now = clock::now();
-    let checked = check_loaded(&ctx, input, None, actor, &now)?;
+    // The same checks as an unkeyed entry, the instrument register's included.
+    let book = InstrumentBook::load(pool, lot.project_id).await?;
+    let checked = check_with_instruments(&book, &ctx, input, None, actor, &now, Arrival::Single)?;
     let mut tx = db::begin_write(pool).await?;
     if let Some(found) = db::idempotency::get_in(&mut tx, key).await? {
         drop(tx);

@@ -25,7 +25,7 @@ pub const MIN_OFFSET_PAIRS: usize = 3;
 /// gauge had an accepted standard count that day and its calibration covered the day;
 /// otherwise it is refused, or — where the clause allows — recorded *out of check*,
 /// kept out of the statistics and blocking submission.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, serde::Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum InstrumentCheck {
     NotRecorded,

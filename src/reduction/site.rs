@@ -7,6 +7,8 @@
 use serde::{Deserialize, Serialize};
 
 use super::field::{FieldReadings, reduce_field};
+use super::instrument_check::{self, Register, TestAtInstrument};
+use super::instruments::InstrumentCheck;
 use super::plausibility::{self, PlausibilityFlag, PlausibilityInput};
 use super::verdict::{Reference, SpecLimits, judge_test, reference_for_coarse_fraction};
 use super::{Chainage, Density, Offset, SpecificGravity, WaterContent};
@@ -267,6 +269,12 @@ pub struct Preview {
     pub passed: bool,
     pub reasons: Vec<String>,
     pub saved: bool,
+    /// How the test's instrument stands, when the register was given.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub instrument_check: Option<InstrumentCheck>,
+    /// The instrument's evidence (and why it is out of check), when it is registered.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub instrument_note: Option<String>,
 }
 
 /// The probe depth the layer check reads: a nuclear test's own, else the test depth.
@@ -311,6 +319,8 @@ pub fn preview_checked(
         passed: v.passed,
         reasons: v.reasons,
         saved: false,
+        instrument_check: None,
+        instrument_note: None,
     })
 }
 
@@ -325,6 +335,88 @@ pub fn preview(
         return Err(refusal);
     }
     preview_checked(r, input, &c)
+}
+
+/// The instrument register as a lot's tests are checked against it: the project's
+/// register, and the lot's clause and source (the bundle a phone keeps beside [`LotRules`]).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct LotInstruments {
+    pub register: Register,
+    pub clause_id: i64,
+    pub source_id: i64,
+}
+
+/// The day a test was taken (UTC), as the ledger reads `tested_at`: an RFC 3339 time, a
+/// date, or a `YYYY-MM-DDTHH:MM` time taken as UTC; `today` when absent.
+pub fn test_day(tested_at: Option<&str>, today: &str) -> Result<String, SiteError> {
+    let Some(v) = tested_at.map(str::trim).filter(|v| !v.is_empty()) else {
+        return Ok(today.to_string());
+    };
+    let rfc = time::format_description::well_known::Rfc3339;
+    if let Ok(t) = time::OffsetDateTime::parse(v, &rfc) {
+        return Ok(t.to_offset(time::UtcOffset::UTC).date().to_string());
+    }
+    let day = time::macros::format_description!("[year]-[month]-[day]");
+    if let Ok(d) = time::Date::parse(v, &day) {
+        return Ok(d.to_string());
+    }
+    let local = time::macros::format_description!("[year]-[month]-[day]T[hour]:[minute]");
+    if let Ok(t) = time::PrimitiveDateTime::parse(v, &local) {
+        return Ok(t.date().to_string());
+    }
+    Err(SiteError::new(
+        "tested_at",
+        format!("'{v}' is not a date-time like 2026-12-01T14:30:00Z"),
+    ))
+}
+
+/// [`preview`] with the test's instrument checked against the register first, as the
+/// ledger checks it when the test is stored: a refusal names its field, a sand cone's
+/// calibrated values are filled in, a gauge's offsets in force are applied.
+pub fn preview_at_instrument(
+    r: &LotRules,
+    instruments: &LotInstruments,
+    input: &FieldTestInput,
+    today: &str,
+) -> Result<Preview, SiteError> {
+    let day = test_day(input.tested_at.as_deref(), today)?;
+    let serial = instrument_check::serial_named(&input.instrument_serial, &input.readings);
+    let found = instrument_check::check(
+        &instruments.register,
+        &TestAtInstrument {
+            serial: &serial,
+            readings: &input.readings,
+            technician: &input.technician,
+            day: &day,
+            clause_id: instruments.clause_id,
+            clause_code: &r.clause_code,
+            source_id: instruments.source_id,
+            override_reason: input.calibration_override_reason.as_deref(),
+        },
+    )?;
+    let Some(found) = found else {
+        let mut p = preview(r, input, None)?;
+        p.instrument_check = Some(InstrumentCheck::NotRecorded);
+        return Ok(p);
+    };
+    let mut input = input.clone();
+    input.readings = found.readings.clone();
+    let mut c = check_entry(r, &input, None)?;
+    // As the ledger stores it: the plausibility refusal reads the gauge's own reading, the
+    // offsets then correct the values judged.
+    if let Some(refusal) = implausible_refusal(r, &input, &c) {
+        return Err(refusal);
+    }
+    if let Some(o) = &found.offset {
+        let corrected = instrument_check::with_offset(&input.readings, o)?;
+        c.wet_density_kg_m3 = corrected.wet_density.kg_m3();
+        c.water_content_pct = corrected.water_content.pct();
+        c.dry_density_kg_m3 = corrected.dry_density.kg_m3();
+    }
+    let mut p = preview_checked(r, &input, &c)?;
+    p.instrument_check = Some(found.check);
+    p.instrument_note = Some(found.note);
+    Ok(p)
 }
 
 #[cfg(test)]

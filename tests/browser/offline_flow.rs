@@ -135,6 +135,23 @@ async fn the_phone_answers_digit_for_digit_as_the_server() {
     let mut confirmed = good(1.25 * mdd, omc + 4.0);
     confirmed["confirm_implausible"] = json!("on");
     forms.push(confirmed);
+    // The demo's register: gauge NG-6203 had an accepted standard count on 1 December
+    // (in check), NG-6310 failed both its counts on 2 December (out of check: refused by
+    // the demo's clauses), and a nuclear test from a registered gauge needs a registered
+    // operator (src/demo/instruments.rs).
+    let mut in_check = good(0.99 * mdd, omc);
+    in_check["instrument_serial"] = json!("NG-6203");
+    in_check["tested_at"] = json!("2026-12-01T10:00");
+    forms.push(in_check);
+    let mut out_of_check = good(0.99 * mdd, omc);
+    out_of_check["instrument_serial"] = json!("NG-6310");
+    out_of_check["tested_at"] = json!("2026-12-02T10:00");
+    forms.push(out_of_check);
+    let mut no_operator = good(0.99 * mdd, omc);
+    no_operator["instrument_serial"] = json!("NG-6203");
+    no_operator["tested_at"] = json!("2026-12-01T10:00");
+    no_operator["technician"] = json!("Someone Unregistered");
+    forms.push(no_operator);
     let mut flagged = 0;
 
     for form in &forms {
@@ -146,8 +163,9 @@ async fn the_phone_answers_digit_for_digit_as_the_server() {
                  var server = fetch(el.getAttribute('data-preview'), {method: 'POST', credentials: 'same-origin',
                      headers: {'Content-Type': 'application/x-www-form-urlencoded'}, body: body.toString()})
                    .then(function (r) { return r.text(); });
-                 var phone = window.liftSite.answerText({rules: site.rules, unit_system: site.unit_system,
-                     chainage_style: site.chainage_style, form: f, retest: false});
+                 var phone = window.liftSite.answerText({rules: site.rules, instruments: site.instruments,
+                     unit_system: site.unit_system, chainage_style: site.chainage_style, form: f,
+                     retest: false, today: new Date().toISOString().slice(0, 10)});
                  return Promise.all([server, phone]);",
                 vec![form.clone()],
             )
@@ -168,6 +186,40 @@ async fn the_phone_answers_digit_for_digit_as_the_server() {
         }
     }
     assert!(flagged > 0, "a plausibility flag was compared too");
+    let phone_answer = async |form: &Value| {
+        b.script(
+            "var el = document.getElementById('entry-form'); var site = JSON.parse(el.getAttribute('data-site'));
+             return window.liftSite.answer({rules: site.rules, instruments: site.instruments,
+               unit_system: site.unit_system, chainage_style: site.chainage_style, form: arguments[0],
+               retest: false, today: '2026-12-03'});",
+            vec![form.clone()],
+        )
+        .await
+    };
+    let n = forms.len();
+    let checked = phone_answer(&forms[n - 3]).await;
+    assert_eq!(
+        checked["values"]["instrument_check"], "in_check",
+        "{checked}"
+    );
+    assert!(
+        checked["preview"]["instrument"]
+            .as_str()
+            .is_some_and(|w| w.starts_with("instrument in check: gauge NG-6203")),
+        "{checked}"
+    );
+    let refused = phone_answer(&forms[n - 2]).await;
+    assert!(
+        refused["errors"]["instrument_serial"]
+            .as_str()
+            .is_some_and(|m| m.contains("NG-6310 is out of check on 2026-12-02")),
+        "{refused}"
+    );
+    let no_operator = phone_answer(&forms[n - 1]).await;
+    assert!(
+        no_operator["errors"]["technician"].is_string(),
+        "{no_operator}"
+    );
     // The first form was built for 99 % of the lot's MDD (the test's own arithmetic).
     let first = b
         .script(

@@ -261,6 +261,62 @@ async fn standard_counts_are_judged_and_tests_check_their_gauge() {
     );
 }
 
+/// POSTs a field test with an `Idempotency-Key` (the site app's offline queue).
+async fn post_keyed(app: &TestApp, lot: i64, key: &str, body: &Value) -> (u16, Value) {
+    let r = app
+        .client_as(As::Tech)
+        .post(app.url(&format!("/api/v1/lots/{lot}/field-tests")))
+        .header("Idempotency-Key", key)
+        .json(body)
+        .send()
+        .await
+        .expect("POST");
+    let s = r.status().as_u16();
+    (s, r.json().await.unwrap_or(Value::Null))
+}
+
+#[tokio::test]
+async fn a_test_sent_from_the_phones_queue_checks_its_instrument_like_any_other() {
+    let app = spawn_app().await;
+    let f = build_frame(&app, json!({"rule": "every_test"})).await;
+    let g = gauge(&app, &f, "GX-202", "2026-01-05", "2027-01-05").await;
+    operator(&app).await;
+    baseline(&app, &f, g).await;
+    // No standard count on the 21st: refused with the key as without it, nothing written,
+    // and the key not used up.
+    let before = app.count("field_tests").await;
+    let late = gauge_test("Q-1", 1020.0, "2026-11-21", "GX-202");
+    let (s, e) = post_keyed(&app, f.lot, "queue-key-0001", &late).await;
+    assert_eq!(s, 422, "{e}");
+    assert_eq!(e["error"]["field"], "instrument_serial");
+    assert!(
+        e["error"]["message"]
+            .as_str()
+            .unwrap()
+            .contains("no standard count on 2026-11-21"),
+        "{e}"
+    );
+    assert_eq!(app.count("field_tests").await, before);
+    assert_eq!(app.count("idempotency_keys").await, 0);
+    // The 19th had a (baseline) count: in check, the operator's name recorded.
+    let (s, t) = post_keyed(
+        &app,
+        f.lot,
+        "queue-key-0002",
+        &gauge_test("Q-2", 1020.0, "2026-11-19", "GX-202"),
+    )
+    .await;
+    assert_eq!(s, 201, "{t}");
+    assert_eq!(t["instrument_check"], "in_check");
+    assert_eq!(t["technician"], "A. Tester");
+    assert!(
+        t["instrument_note"]
+            .as_str()
+            .is_some_and(|n| n.contains("standard count 2026-11-19")),
+        "{t}"
+    );
+}
+
 #[tokio::test]
 async fn offsets_apply_from_their_date_never_to_accepted_lots_and_the_certificate_names_the_gauge()
 {

@@ -29,6 +29,12 @@ struct AnswerRequest {
     form: site_form::EntryForm,
     #[serde(default)]
     retest: bool,
+    /// The instrument register kept for the lot (absent on a page kept before it was served).
+    #[serde(default)]
+    instruments: Option<reduction::site::LotInstruments>,
+    /// The phone's date (UTC), for a test whose form gives no time.
+    #[serde(default)]
+    today: String,
 }
 
 /// The JSON answer to a request (the server's `/lots/{id}/entry/preview` answer).
@@ -44,7 +50,15 @@ pub fn answer_json(request: &str) -> String {
         system: UnitSystem::parse_code(&req.unit_system).unwrap_or(UnitSystem::Si),
         chainage: ChainageStyle::parse_code(&req.chainage_style).unwrap_or(ChainageStyle::KmMetre),
     };
-    site_form::answer(&req.rules, &units, &req.form, req.retest).to_string()
+    site_form::answer(
+        &req.rules,
+        req.instruments.as_ref(),
+        &units,
+        &req.form,
+        req.retest,
+        &req.today,
+    )
+    .to_string()
 }
 
 /// Reserves `len` bytes for the page to write a request into.

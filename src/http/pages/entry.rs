@@ -20,7 +20,7 @@ use crate::http::caller::{Caller, Scope, require};
 use crate::http::extract::parse_form;
 use crate::ledger::{self, Actor};
 use crate::present::Units;
-use crate::reduction::site::LotRules;
+use crate::reduction::site::{LotInstruments, LotRules};
 pub use crate::site_form::{EntryForm, Errors, PreviewView, parse_entry};
 use crate::site_form::{form_field, lot_range_error, preview_view, refusal_words};
 
@@ -83,6 +83,8 @@ struct Context {
     lot: db::lots::Lot,
     /// The lot's rules as the pure checks (and the phone) read them.
     rules: LotRules,
+    /// The instrument register as the lot's tests are checked against it.
+    instruments: LotInstruments,
     units: Units,
     nav: ProjectNav,
     retest_of: Option<db::field_tests::FieldTest>,
@@ -96,8 +98,10 @@ async fn context(
     let lot = ledger::field::require_lot(&s.db, lot_id).await?;
     let p = ledger::setup::require_project(&s.db, lot.project_id).await?;
     let rules = ledger::field::LotContext::load(&s.db, &lot).await?.rules;
+    let instruments = ledger::instruments::check::lot_instruments(&s.db, &lot).await?;
     Ok(Context {
         rules,
+        instruments,
         units: Units::of(&p),
         nav: ProjectNav {
             id: p.id,
@@ -138,6 +142,7 @@ fn page(c: &Context, form: EntryForm, errors: Errors, preview: Option<PreviewVie
         cautions: cautions(),
         site_json: json!({
             "rules": c.rules,
+            "instruments": c.instruments,
             "unit_system": c.units.system.code(),
             "chainage_style": c.units.chainage.code(),
             "lot_code": c.lot.code,
@@ -281,8 +286,17 @@ async fn live_preview(
     let p = ledger::setup::require_project(&s.db, lot.project_id).await?;
     let u = Units::of(&p);
     let rules = ledger::field::LotContext::load(&s.db, &lot).await?.rules;
+    let instruments = ledger::instruments::check::lot_instruments(&s.db, &lot).await?;
     // The phone's answer, computed by the same pure function the WebAssembly build runs.
-    let answer = crate::site_form::answer(&rules, &u, &form, form.action == "retest");
+    let today = crate::clock::date_of(&crate::clock::now());
+    let answer = crate::site_form::answer(
+        &rules,
+        Some(&instruments),
+        &u,
+        &form,
+        form.action == "retest",
+        &today,
+    );
     let pure_ok = answer["errors"].as_object().is_some_and(|e| e.is_empty());
     if !pure_ok {
         return Ok(Json(answer));

@@ -19,6 +19,7 @@ use crate::reduction::instrument_check::{
     RegisteredInstrument, TestAtInstrument,
 };
 use crate::reduction::instruments::{CountOutcome, GaugeMode, InstrumentKind};
+use crate::reduction::site::LotInstruments;
 
 /// How a test arrives: one at a time or in an import (both checked by the same rules;
 /// kept so a caller says which path it is).
@@ -63,6 +64,16 @@ impl InstrumentBook {
             register,
         })
     }
+}
+
+/// What the site app keeps of the register for one lot: the project's register with the
+/// lot's clause and source, so the phone checks instruments as the server does.
+pub async fn lot_instruments(pool: &Pool, lot: &db::lots::Lot) -> Result<LotInstruments> {
+    Ok(LotInstruments {
+        register: InstrumentBook::load(pool, lot.project_id).await?.register,
+        clause_id: lot.clause_id,
+        source_id: lot.source_id,
+    })
 }
 
 /// The register's rows for one project, as read.
