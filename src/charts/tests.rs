@@ -740,7 +740,7 @@ fn map_draws_each_wide_lot_as_a_linked_rect() {
             .to_string();
         let state = MapState::ALL
             .iter()
-            .find(|s| s.code() == code)
+            .find(|s| s.token() == code)
             .expect("a state group");
         assert!(title.ends_with(&format!("({})", state.label())), "{title}");
     }

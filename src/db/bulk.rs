@@ -233,7 +233,7 @@ pub async fn insert_field_tests(
                 .bind(&t.voided_at)
                 .bind(&t.created_at)
                 .bind(&t.created_by)
-                .bind(&t.instrument_check)
+                .bind(t.instrument_check)
                 .bind(&t.instrument_note)
                 .bind(t.operator_id)
                 .bind(t.density_offset_kg_m3)

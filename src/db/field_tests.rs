@@ -3,6 +3,7 @@
 use serde::Serialize;
 
 use super::{Pool, Tx};
+use crate::reduction::instruments::InstrumentCheck;
 
 /// A stored field test.
 #[derive(Debug, Clone, Serialize, sqlx::FromRow)]
@@ -36,7 +37,7 @@ pub struct FieldTest {
     pub created_by: String,
     /// What the register said of the instrument: "not_recorded", "in_check" or "out_of_check"
     /// (see `ledger::instruments::check`).
-    pub instrument_check: String,
+    pub instrument_check: InstrumentCheck,
     /// The instrument's evidence as recorded (calibration, that day's standard count), the
     /// reason it was out of check, or the reason a calibrated value was overridden.
     pub instrument_note: Option<String>,
@@ -104,7 +105,7 @@ pub async fn insert(tx: &mut Tx<'_>, t: &FieldTest) -> sqlx::Result<i64> {
     .bind(&t.voided_at)
     .bind(&t.created_at)
     .bind(&t.created_by)
-    .bind(&t.instrument_check)
+    .bind(t.instrument_check)
     .bind(&t.instrument_note)
     .bind(t.operator_id)
     .bind(t.density_offset_kg_m3)

@@ -90,12 +90,12 @@ pub fn build(r: &LotReport, issue: Issue<'_>) -> CertificateDoc {
                 moisture_deviation: present::signed(t.moisture_deviation_pct),
                 result: result.to_string(),
                 note: notes.join("; "),
-                rc_value: if t.standing == "voided" {
+                rc_value: if t.standing == crate::domain::Standing::Voided {
                     None
                 } else {
                     t.relative_compaction_pct
                 },
-                counted: t.standing == "counted",
+                counted: t.standing.counted(),
             }
         })
         .collect();

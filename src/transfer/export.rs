@@ -105,7 +105,10 @@ impl ExportFilter {
             || self
                 .chainage_to_m
                 .is_some_and(|m| r.lot.chainage_from_m > m)
-            || self.verdict.as_ref().is_some_and(|v| r.display_state != *v))
+            || self
+                .verdict
+                .as_ref()
+                .is_some_and(|v| r.display_state.code() != v))
     }
 }
 
@@ -296,8 +299,8 @@ fn lot_fields(units: &Units, r: &LotReport) -> [String; 26] {
         v.rule.clone(),
         r.lab_test.code.clone(),
         format!("{:.1}", r.lab_test.max_dry_density_kg_m3),
-        r.lot.state.clone(),
-        r.display_state.clone(),
+        r.lot.state.to_string(),
+        r.display_state.to_string(),
         v.n.to_string(),
         r.tests_required.to_string(),
         r.tests_owed.to_string(),

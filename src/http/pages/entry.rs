@@ -95,7 +95,7 @@ async fn context(
 ) -> Result<Context, PageError> {
     let lot = ledger::field::require_lot(&s.db, lot_id).await?;
     let p = ledger::setup::require_project(&s.db, lot.project_id).await?;
-    let rules = ledger::field::LotContext::load(&s.db, &lot).await?.rules;
+    let rules = s.ledger.lot_context(&lot).await?.rules;
     Ok(Context {
         rules,
         units: Units::of(&p),
@@ -210,8 +210,12 @@ async fn handle(s: &AppState, c: Context, form: EntryForm, actor: Actor) -> Page
         );
     }
     let saved = match &c.retest_of {
-        Some(t) => ledger::field::record_retest(&s.db, t.id, &input, &actor).await,
-        None => ledger::field::record_test(&s.db, c.lot.id, &input, &actor).await,
+        Some(t) => s.ledger.record_retest(t.id, &input, &actor).await,
+        None => s
+            .ledger
+            .record_test(c.lot.id, &input, &actor)
+            .await
+            .map(|(t, _)| t),
     };
     match saved {
         Ok(t) => Ok(see_other(&format!("/lots/{}#test-{}", c.lot.id, t.number))),
@@ -280,7 +284,7 @@ async fn live_preview(
     let lot = ledger::field::require_lot(&s.db, id).await?;
     let p = ledger::setup::require_project(&s.db, lot.project_id).await?;
     let u = Units::of(&p);
-    let rules = ledger::field::LotContext::load(&s.db, &lot).await?.rules;
+    let rules = s.ledger.lot_context(&lot).await?.rules;
     // The phone's answer, computed by the same pure function the WebAssembly build runs.
     let answer = crate::site_form::answer(&rules, &u, &form, form.action == "retest");
     let pure_ok = answer["errors"].as_object().is_some_and(|e| e.is_empty());

@@ -160,7 +160,7 @@ pub fn check_with_instruments(
         | (FieldReadings::DriveCylinder { .. }, "drive_cylinder") => {
             let mut checked = check_loaded(ctx, input, fallback, actor, now)?;
             let cal = book.calibration_on(instrument.id, &day);
-            checked.record.instrument_check = InstrumentCheck::InCheck.code().to_string();
+            checked.record.instrument_check = InstrumentCheck::InCheck;
             checked.record.instrument_note = Some(match cal {
                 Some(c) => format!(
                     "{} {}: calibrated {}{}",
@@ -283,7 +283,7 @@ fn nuclear(
     r.instrument_serial = gauge.serial.clone();
     r.operator_id = Some(operator.id);
     r.technician = operator.name.clone();
-    r.instrument_check = status.code().to_string();
+    r.instrument_check = status;
     r.instrument_note = Some(if reasons.is_empty() {
         evidence
     } else {
@@ -466,7 +466,7 @@ fn sand_cone(
         let why = validate::text("calibration_override_reason", reason.unwrap_or(""), 300)?;
         note.push_str(&format!("; overridden ({}): {why}", overridden.join(", ")));
     }
-    checked.record.instrument_check = InstrumentCheck::InCheck.code().to_string();
+    checked.record.instrument_check = InstrumentCheck::InCheck;
     checked.record.instrument_note = Some(note);
     Ok(checked)
 }
