@@ -813,7 +813,7 @@ fn map_legend_names_every_state_with_swatch_and_mark() {
             swatch
                 .attribute("fill")
                 .expect("fill")
-                .contains(state.code())
+                .contains(state.token())
         );
     }
     assert!(
