@@ -102,3 +102,37 @@ async fn the_entry_form_records_through_the_same_entry_as_the_api() {
     }
     assert_eq!(app.count("field_tests").await, 3);
 }
+
+/// A stored code this build does not know fails the read, naming the column and the code
+/// (it used to read as "instrument not recorded"); the page answers 500, never a guess.
+#[tokio::test]
+async fn an_unknown_stored_code_fails_the_read_naming_column_and_code() {
+    let app = spawn_app().await;
+    let f = build_frame(&app, json!({"rule": "every_test"})).await;
+    let (s, t) = app
+        .post(
+            &format!("/api/v1/lots/{}/field-tests", f.lot),
+            &nuclear_test("U-1", 1010.0, PASSING_DRY, 11.6),
+        )
+        .await;
+    assert_eq!(s, 201, "{t}");
+    sqlx::query("UPDATE field_tests SET instrument_check = 'gauge_on_holiday'")
+        .execute(&app.pool)
+        .await
+        .unwrap();
+
+    let e = liftledger::db::field_tests::for_lot(&app.pool, f.lot)
+        .await
+        .expect_err("an unknown code is refused");
+    let words = e.to_string();
+    assert!(words.contains("instrument_check"), "{words}");
+    assert!(words.contains("gauge_on_holiday"), "{words}");
+
+    let r = app
+        .client
+        .get(app.url(&format!("/lots/{}", f.lot)))
+        .send()
+        .await
+        .unwrap();
+    assert_eq!(r.status().as_u16(), 500);
+}
