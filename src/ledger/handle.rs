@@ -2,7 +2,8 @@
 //! and the one way a field test is recorded.
 //!
 //! Every entry path (the API, the entry form, the demo loader, retests from either)
-//! records a test through [`Ledger::record_test`] or [`Ledger::record_retest`], so each
+//! records a test through [`Ledger::record_test`] or [`Ledger::record_retest`] (a keyed
+//! API entry through [`Ledger::record_once`]), so each
 //! gets the same checks, the same rule cache and, on SQLite, the same group commit. A
 //! lot's clause, source and lab test are read through [`Ledger::lot_context`] (the cache
 //! in front of [`LotContext::load`], the one loader of a lot's rules).
@@ -100,6 +101,19 @@ impl Ledger {
         let line =
             lot_report::judge_alone(&test, &ctx.lot, &ctx.clause, &ctx.source, &ctx.lab, None)?;
         Ok((test, line))
+    }
+
+    /// Records a new field test sent with an `Idempotency-Key` once per key (the site
+    /// app's queue): its key and the test share one transaction, so it is written alone,
+    /// not with the writer's group; the lot's rules come from the same cache.
+    pub async fn record_once(
+        &self,
+        lot_id: i64,
+        input: &FieldTestInput,
+        actor: &Actor,
+        key: &str,
+    ) -> Result<super::idempotent::Keyed> {
+        super::idempotent::record_once(self.pool(), self.rules(), lot_id, input, actor, key).await
     }
 
     /// Records a retest of a failed test at the same spot; the failure stays on record.

@@ -120,8 +120,7 @@ async fn create_once(
     key: &str,
 ) -> Result<(StatusCode, HeaderMap, Json<Value>)> {
     use ledger::idempotent::Keyed;
-    let keyed =
-        ledger::idempotent::record_once(&s.db, s.ledger.rules(), lot_id, input, actor, key).await?;
+    let keyed = s.ledger.record_once(lot_id, input, actor, key).await?;
     let (status, t, replayed) = match keyed {
         Keyed::Created(t) => (StatusCode::CREATED, t, "false"),
         Keyed::Replayed(t) => (StatusCode::OK, t, "true"),
