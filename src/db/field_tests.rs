@@ -3,6 +3,7 @@
 use serde::Serialize;
 
 use super::{Pool, Tx};
+use crate::domain::Method;
 use crate::reduction::instruments::InstrumentCheck;
 
 /// A stored field test.
@@ -14,7 +15,7 @@ pub struct FieldTest {
     pub number: String,
     pub tested_at: String,
     pub technician: String,
-    pub method: String,
+    pub method: Method,
     pub instrument_serial: String,
     pub chainage_m: f64,
     pub offset_m: f64,
@@ -84,7 +85,7 @@ pub async fn insert(tx: &mut Tx<'_>, t: &FieldTest) -> sqlx::Result<i64> {
     .bind(&t.number)
     .bind(&t.tested_at)
     .bind(&t.technician)
-    .bind(&t.method)
+    .bind(t.method)
     .bind(&t.instrument_serial)
     .bind(t.chainage_m)
     .bind(t.offset_m)

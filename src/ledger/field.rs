@@ -281,7 +281,7 @@ fn check_record(
         number,
         tested_at,
         technician: text("technician", &input.technician, 80)?,
-        method: input.readings.method_code().to_string(),
+        method: crate::domain::Method::of(&input.readings),
         instrument_serial: optional_text("instrument_serial", &instrument, 40)?,
         chainage_m: entry.chainage_m,
         offset_m: entry.offset_m,

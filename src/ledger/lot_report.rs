@@ -666,7 +666,7 @@ fn nuclear_probe_depth_mm(t: &db::field_tests::FieldTest) -> Option<f64> {
     struct Probe {
         probe_depth_mm: Option<f64>,
     }
-    if t.method != "nuclear" {
+    if t.method != crate::domain::Method::Nuclear {
         return None;
     }
     serde_json::from_str::<Probe>(&t.readings_json)

@@ -159,7 +159,7 @@ fn default_form(c: &Context) -> EntryForm {
     if let Some(t) = &c.retest_of {
         f.chainage = c.units.chainage(t.chainage_m);
         f.offset_m = format!("{:.1}", t.offset_m);
-        f.method = t.method.clone();
+        f.method = t.method.code().to_string();
         f.technician = t.technician.clone();
         f.instrument_serial = t.instrument_serial.clone();
     }

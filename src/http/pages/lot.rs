@@ -92,7 +92,7 @@ pub fn rows(r: &LotReport, u: &Units, may_retest: bool, may_void: bool) -> Vec<R
                 date: crate::clock::display(&t.test.tested_at),
                 chainage: u.chainage(t.test.chainage_m),
                 offset: u.offset(t.test.offset_m),
-                method: t.test.method.replace('_', " "),
+                method: t.test.method.words(),
                 wet: u.density(t.test.wet_density_kg_m3),
                 water: format!("{:.1}", t.test.water_content_pct),
                 dry: u.density(t.test.dry_density_kg_m3),
