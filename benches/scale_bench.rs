@@ -707,7 +707,7 @@ async fn raw_insert(tx: &mut db::Tx<'_>, r: &db::field_tests::FieldTest) -> sqlx
     .bind(&r.number)
     .bind(&r.tested_at)
     .bind(&r.technician)
-    .bind(&r.method)
+    .bind(r.method)
     .bind(&r.instrument_serial)
     .bind(r.chainage_m)
     .bind(r.offset_m)
