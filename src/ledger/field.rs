@@ -1,4 +1,5 @@
-//! Recording field density tests, voiding them and recording retests.
+//! Field density tests: checked against their lot, stored with their audit row (a test is
+//! recorded through [`super::Ledger`]), voided, and their rules loaded ([`rule_rows`]).
 
 use serde_json::json;
 
