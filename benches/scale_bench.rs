@@ -342,7 +342,7 @@ async fn page_figures(pool: &Pool, server: &Server, project_id: i64) -> anyhow::
     )
     .await?;
     let lot = lots.first().context("a lot")?;
-    let open = db::lots::in_state(pool, project_id, "open").await?;
+    let open = db::lots::in_state(pool, project_id, liftledger::domain::LotState::Open).await?;
     let open = open.first().context("an open lot")?;
     println!("(a, b) pages over HTTP, {} runs each", runs());
     let mut posted = 0;
@@ -707,7 +707,7 @@ async fn raw_insert(tx: &mut db::Tx<'_>, r: &db::field_tests::FieldTest) -> sqlx
     .bind(&r.number)
     .bind(&r.tested_at)
     .bind(&r.technician)
-    .bind(&r.method)
+    .bind(r.method)
     .bind(&r.instrument_serial)
     .bind(r.chainage_m)
     .bind(r.offset_m)
@@ -769,12 +769,13 @@ async fn post_figures(
         .and_then(|v| v.parse().ok())
         .unwrap_or(9600);
     let clients = 32;
-    let lots: Vec<db::lots::Lot> = db::lots::in_state(pool, project_id, "open")
-        .await?
-        .into_iter()
-        .step_by(7)
-        .take(256)
-        .collect();
+    let lots: Vec<db::lots::Lot> =
+        db::lots::in_state(pool, project_id, liftledger::domain::LotState::Open)
+            .await?
+            .into_iter()
+            .step_by(7)
+            .take(256)
+            .collect();
     anyhow::ensure!(!lots.is_empty(), "no open lots");
     let lots = Arc::new(lots);
     let per = total / clients;
@@ -866,7 +867,14 @@ async fn bench_session(pool: &Pool, project_id: i64) -> anyhow::Result<String> {
     let mut tx = db::begin_write(pool).await?;
     let hash = liftledger::auth::password::hash("bench-password-123")?;
     let uid = db::users::insert(&mut tx, &name, "Bench QC", &hash, false, false, &now).await?;
-    db::users::grant(&mut tx, uid, project_id, "qc_manager", &now).await?;
+    db::users::grant(
+        &mut tx,
+        uid,
+        project_id,
+        liftledger::auth::Role::QcManager,
+        &now,
+    )
+    .await?;
     let secret = liftledger::auth::secret::new("lls_")?;
     db::users::start_session(
         &mut tx,

@@ -4,6 +4,7 @@ use std::ops::Deref;
 use std::sync::Arc;
 
 use crate::db::Pool;
+use crate::ledger::Ledger;
 
 /// Settings the running service needs beyond the database.
 #[derive(Debug, Clone)]
@@ -22,18 +23,12 @@ pub struct AppState(Arc<Inner>);
 
 /// What the state holds.
 pub struct Inner {
-    /// The database pool.
+    /// The database pool (the ledger's own, for the handlers' reads).
     pub db: Pool,
+    /// The ledger: pool, test writer and caches, and the one way tests are recorded.
+    pub ledger: Ledger,
     /// Service settings.
     pub settings: Settings,
-    /// Judged lots per project, reused while the project's revision holds.
-    pub views: crate::ledger::overview::SummaryCache,
-    /// Drift warnings per project, reused while the project's revision holds.
-    pub drift: crate::ledger::watch::DriftCache,
-    /// Clauses, sources and lab tests once read (rows that never change).
-    pub rules: crate::ledger::field::RuleCache,
-    /// Group commit of new field tests (SQLite only).
-    pub writer: Option<crate::ledger::test_writer::TestWriter>,
     /// The outcome of scheduled backups, shown to admins on the projects page.
     pub backups: Arc<crate::backup::schedule::BackupStatus>,
 }
@@ -43,11 +38,8 @@ impl AppState {
     pub fn new(db: Pool, settings: Settings) -> Self {
         Self(Arc::new(Inner {
             settings,
-            views: Default::default(),
-            drift: Default::default(),
-            rules: Default::default(),
             backups: Default::default(),
-            writer: crate::ledger::test_writer::TestWriter::start(&db),
+            ledger: Ledger::new(db.clone()),
             db,
         }))
     }

@@ -141,9 +141,14 @@ pub async fn load(pool: &Pool) -> anyhow::Result<String> {
                 let failed_id = *numbers
                     .get(failed)
                     .ok_or_else(|| anyhow!("retest of unknown {failed}"))?;
-                ledger::field::record_retest(pool, failed_id, &input, &actor).await
+                ledger::Ledger::new(pool.clone())
+                    .record_retest(failed_id, &input, &actor)
+                    .await
             }
-            None => ledger::field::record_test(pool, lots[&lot], &input, &actor).await,
+            None => ledger::Ledger::new(pool.clone())
+                .record_test(lots[&lot], &input, &actor)
+                .await
+                .map(|(t, _)| t),
         }
         .map_err(user_error)
         .with_context(|| format!("demo test {:?} on lot {lot}", input.number))?;

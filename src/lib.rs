@@ -12,6 +12,7 @@ pub mod cli;
 pub mod clock;
 pub mod db;
 pub mod demo;
+pub mod domain;
 pub mod error;
 pub mod http;
 pub mod ledger;

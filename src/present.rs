@@ -119,20 +119,6 @@ pub const CAUTIONS: [&str; 3] = [
     "Nuclear gauges carry radioactive sources: their use needs licensed, trained operators.",
 ];
 
-/// A readable name for a lot state as shown to people.
-pub fn state_label(state: &str) -> &'static str {
-    match state {
-        "open" => "open",
-        "owed_tests" => "tests owed",
-        "failing" => "failing",
-        "submitted" => "submitted",
-        "accepted" => "accepted",
-        "rejected" => "rejected",
-        "certified" => "certified",
-        _ => "unknown",
-    }
-}
-
 /// A record falling due, in words: "GX-101 calibration due 2026-12-13 (in 10 days)".
 pub fn due_words(serial: &str, record: &str, due: Option<&str>, days: i64) -> String {
     let when = match days {

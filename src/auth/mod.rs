@@ -11,7 +11,7 @@ pub mod throttle;
 use serde::{Deserialize, Serialize};
 
 /// A person's (or token's) role in one project.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, utoipa::ToSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum Role {
     /// Enters tests and retests.

@@ -128,7 +128,7 @@ pub fn lift_map(input: &LiftMapInput) -> String {
             input.lots.len()
         ),
     );
-    let pattern_id = |s: MapState| format!("{ids}-{}", s.code());
+    let pattern_id = |s: MapState| format!("{ids}-{}", s.token());
 
     let fonts = AxisFonts {
         tick: FONT_SMALL,
@@ -423,7 +423,7 @@ fn draw_cells(
             continue;
         }
         w.start("g")
-            .attr("class", &format!("ll-{}", state.code()))
+            .attr("class", &format!("ll-{}", state.token()))
             .attr("fill", &format!("url(#{})", pattern_id(state)))
             .open();
         for cell in mine {
@@ -488,7 +488,7 @@ fn draw_separate(
             continue;
         }
         w.start("g")
-            .attr("class", &format!("ll-{}", state.code()))
+            .attr("class", &format!("ll-{}", state.token()))
             .attr("fill", &format!("url(#{})", pattern_id(state)))
             .open();
         for p in mine {

@@ -740,7 +740,7 @@ fn map_draws_each_wide_lot_as_a_linked_rect() {
             .to_string();
         let state = MapState::ALL
             .iter()
-            .find(|s| s.code() == code)
+            .find(|s| s.token() == code)
             .expect("a state group");
         assert!(title.ends_with(&format!("({})", state.label())), "{title}");
     }
@@ -813,7 +813,7 @@ fn map_legend_names_every_state_with_swatch_and_mark() {
             swatch
                 .attribute("fill")
                 .expect("fill")
-                .contains(state.code())
+                .contains(state.token())
         );
     }
     assert!(

@@ -212,7 +212,7 @@ pub async fn insert_field_tests(
                 .bind(&t.number)
                 .bind(&t.tested_at)
                 .bind(&t.technician)
-                .bind(&t.method)
+                .bind(t.method)
                 .bind(&t.instrument_serial)
                 .bind(t.chainage_m)
                 .bind(t.offset_m)
@@ -233,7 +233,7 @@ pub async fn insert_field_tests(
                 .bind(&t.voided_at)
                 .bind(&t.created_at)
                 .bind(&t.created_by)
-                .bind(&t.instrument_check)
+                .bind(t.instrument_check)
                 .bind(&t.instrument_note)
                 .bind(t.operator_id)
                 .bind(t.density_offset_kg_m3)
@@ -287,9 +287,10 @@ pub async fn insert_audit_rows(conn: &mut SqliteConnection, rows: &[AuditRow]) -
     Ok(())
 }
 
-/// The columns a lot verdict needs and nothing more (other texts left empty): what the
-/// judged-lot summaries of the lift map and home page read, decoded at a third of the cost.
-pub const VERDICT_COLUMNS: &str = "id, project_id, lot_id, number, '' AS tested_at, '' AS technician, '' AS method,
+/// The columns a lot verdict needs and nothing more (other texts left empty; the method,
+/// a stored code, is read as it is): what the judged-lot summaries of the lift map and
+/// home page read, decoded at a third of the cost.
+pub const VERDICT_COLUMNS: &str = "id, project_id, lot_id, number, '' AS tested_at, '' AS technician, method,
     '' AS instrument_serial, chainage_m, offset_m, depth_mm, coarse_pct, coarse_water_content_pct, easting, northing,
     '' AS readings_json, wet_density_kg_m3, water_content_pct, dry_density_kg_m3, '' AS moisture_source,
     '' AS reduction_version, retest_of, void_reason, CAST(NULL AS TEXT) AS voided_by, CAST(NULL AS TEXT) AS voided_at, '' AS created_at,

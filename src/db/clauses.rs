@@ -3,6 +3,7 @@
 use serde::Serialize;
 
 use super::{Pool, Tx};
+use crate::domain::Rule;
 
 /// A stored specification clause.
 #[derive(Debug, Clone, Serialize, sqlx::FromRow)]
@@ -15,7 +16,7 @@ pub struct Clause {
     pub moisture_below_pct: f64,
     pub moisture_above_pct: f64,
     pub effort: String,
-    pub rule: String,
+    pub rule: Rule,
     pub allowance_pct: Option<f64>,
     pub min_pwl_pct: Option<f64>,
     pub area_per_test_m2: Option<f64>,
@@ -72,7 +73,7 @@ pub async fn insert(tx: &mut Tx<'_>, c: &Clause) -> sqlx::Result<Clause> {
     .bind(c.moisture_below_pct)
     .bind(c.moisture_above_pct)
     .bind(&c.effort)
-    .bind(&c.rule)
+    .bind(c.rule)
     .bind(c.allowance_pct)
     .bind(c.min_pwl_pct)
     .bind(c.area_per_test_m2)

@@ -3,6 +3,8 @@
 use serde::Serialize;
 
 use super::{Pool, Tx};
+use crate::domain::Method;
+use crate::reduction::instruments::InstrumentCheck;
 
 /// A stored field test.
 #[derive(Debug, Clone, Serialize, sqlx::FromRow)]
@@ -13,7 +15,7 @@ pub struct FieldTest {
     pub number: String,
     pub tested_at: String,
     pub technician: String,
-    pub method: String,
+    pub method: Method,
     pub instrument_serial: String,
     pub chainage_m: f64,
     pub offset_m: f64,
@@ -36,7 +38,7 @@ pub struct FieldTest {
     pub created_by: String,
     /// What the register said of the instrument: "not_recorded", "in_check" or "out_of_check"
     /// (see `ledger::instruments::check`).
-    pub instrument_check: String,
+    pub instrument_check: InstrumentCheck,
     /// The instrument's evidence as recorded (calibration, that day's standard count), the
     /// reason it was out of check, or the reason a calibrated value was overridden.
     pub instrument_note: Option<String>,
@@ -83,7 +85,7 @@ pub async fn insert(tx: &mut Tx<'_>, t: &FieldTest) -> sqlx::Result<i64> {
     .bind(&t.number)
     .bind(&t.tested_at)
     .bind(&t.technician)
-    .bind(&t.method)
+    .bind(t.method)
     .bind(&t.instrument_serial)
     .bind(t.chainage_m)
     .bind(t.offset_m)
@@ -104,7 +106,7 @@ pub async fn insert(tx: &mut Tx<'_>, t: &FieldTest) -> sqlx::Result<i64> {
     .bind(&t.voided_at)
     .bind(&t.created_at)
     .bind(&t.created_by)
-    .bind(&t.instrument_check)
+    .bind(t.instrument_check)
     .bind(&t.instrument_note)
     .bind(t.operator_id)
     .bind(t.density_offset_kg_m3)

@@ -3,6 +3,7 @@
 use serde::Serialize;
 
 use super::{Pool, Tx};
+use crate::domain::LotState;
 
 /// A stored lot joined with the names a reader needs beside it.
 #[derive(Debug, Clone, Serialize, sqlx::FromRow)]
@@ -18,7 +19,7 @@ pub struct Lot {
     pub clause_id: i64,
     pub source_id: i64,
     pub lab_test_id: i64,
-    pub state: String,
+    pub state: LotState,
     pub state_changed_at: String,
     pub created_at: String,
     pub created_by: String,
@@ -54,7 +55,7 @@ pub struct LotFilter {
     pub chainage_from_m: Option<f64>,
     pub chainage_to_m: Option<f64>,
     pub layer_id: Option<i64>,
-    pub state: Option<String>,
+    pub state: Option<LotState>,
     pub changed_since: Option<String>,
     pub changed_before: Option<String>,
     pub limit: i64,
@@ -66,8 +67,8 @@ pub struct LotFilter {
 pub struct Transition {
     pub id: i64,
     pub lot_id: i64,
-    pub from_state: String,
-    pub to_state: String,
+    pub from_state: LotState,
+    pub to_state: LotState,
     pub actor: String,
     pub at: String,
     pub comment: String,
@@ -84,7 +85,7 @@ pub async fn insert(tx: &mut Tx<'_>, new: &NewLot, actor: &str, now: &str) -> sq
     sqlx::query_scalar(
         "INSERT INTO lots (project_id, layer_id, code, chainage_from_m, chainage_to_m, offset_left_m, offset_right_m,
              clause_id, source_id, lab_test_id, state, state_changed_at, created_at, created_by)
-         VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, 'open', $11, $12, $13) RETURNING id",
+         VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14) RETURNING id",
     )
     .bind(new.project_id)
     .bind(new.layer_id)
@@ -96,6 +97,7 @@ pub async fn insert(tx: &mut Tx<'_>, new: &NewLot, actor: &str, now: &str) -> sq
     .bind(new.clause_id)
     .bind(new.source_id)
     .bind(new.lab_test_id)
+    .bind(LotState::Open)
     .bind(now)
     .bind(now)
     .bind(actor)
@@ -131,8 +133,8 @@ pub async fn list(pool: &Pool, project_id: i64, f: &LotFilter) -> sqlx::Result<V
     .bind(f.chainage_to_m)
     .bind(f.layer_id)
     .bind(f.layer_id)
-    .bind(&f.state)
-    .bind(&f.state)
+    .bind(f.state)
+    .bind(f.state)
     .bind(&f.changed_since)
     .bind(&f.changed_since)
     .bind(&f.changed_before)
@@ -144,7 +146,7 @@ pub async fn list(pool: &Pool, project_id: i64, f: &LotFilter) -> sqlx::Result<V
 }
 
 /// Lots in one state across a project, oldest state change first (the review queue).
-pub async fn in_state(pool: &Pool, project_id: i64, state: &str) -> sqlx::Result<Vec<Lot>> {
+pub async fn in_state(pool: &Pool, project_id: i64, state: LotState) -> sqlx::Result<Vec<Lot>> {
     sqlx::query_as::<_, Lot>(sqlx::AssertSqlSafe(format!(
         "{SELECT} WHERE lo.project_id = $1 AND lo.state = $2 ORDER BY lo.state_changed_at, lo.id"
     )))
@@ -158,8 +160,8 @@ pub async fn in_state(pool: &Pool, project_id: i64, state: &str) -> sqlx::Result
 pub async fn transition(
     tx: &mut Tx<'_>,
     lot_id: i64,
-    from: &str,
-    to: &str,
+    from: LotState,
+    to: LotState,
     actor: &str,
     comment: &str,
     now: &str,
@@ -201,8 +203,8 @@ pub async fn transitions(pool: &Pool, lot_id: i64) -> sqlx::Result<Vec<Transitio
 }
 
 /// Count of lots per state in a project.
-pub async fn count_by_state(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<(String, i64)>> {
-    sqlx::query_as::<_, (String, i64)>(
+pub async fn count_by_state(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<(LotState, i64)>> {
+    sqlx::query_as::<_, (LotState, i64)>(
         "SELECT state, COUNT(*) FROM lots WHERE project_id = $1 GROUP BY state ORDER BY state",
     )
     .bind(project_id)
@@ -215,11 +217,13 @@ pub async fn count_by_state(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<(S
 pub async fn set_lab_test(tx: &mut Tx<'_>, lot_id: i64, old: i64, new: i64) -> sqlx::Result<bool> {
     let done = sqlx::query(
         "UPDATE lots SET lab_test_id = $1
-         WHERE id = $2 AND lab_test_id = $3 AND state IN ('open', 'rejected')",
+         WHERE id = $2 AND lab_test_id = $3 AND state IN ($4, $5)",
     )
     .bind(new)
     .bind(lot_id)
     .bind(old)
+    .bind(LotState::Open)
+    .bind(LotState::Rejected)
     .execute(&mut **tx)
     .await?;
     Ok(done.rows_affected() == 1)
@@ -237,7 +241,7 @@ pub async fn transitions_tx(tx: &mut Tx<'_>, lot_id: i64) -> sqlx::Result<Vec<Tr
 
 /// The lot's state read inside a write, held against a concurrent state change until the
 /// write commits (on PostgreSQL by a share lock; SQLite's write lock already holds it).
-pub async fn state_for_write(tx: &mut Tx<'_>, lot_id: i64) -> sqlx::Result<Option<String>> {
+pub async fn state_for_write(tx: &mut Tx<'_>, lot_id: i64) -> sqlx::Result<Option<LotState>> {
     let sql = if tx.backend_name() == "PostgreSQL" {
         "SELECT state FROM lots WHERE id = $1 FOR SHARE"
     } else {

@@ -3,6 +3,7 @@
 use serde::Serialize;
 
 use super::{Pool, Tx};
+use crate::auth::Role;
 
 /// A stored user (the password hash is never serialised).
 #[derive(Debug, Clone, Serialize, sqlx::FromRow)]
@@ -91,7 +92,7 @@ pub async fn grant(
     tx: &mut Tx<'_>,
     user_id: i64,
     project_id: i64,
-    role: &str,
+    role: Role,
     now: &str,
 ) -> sqlx::Result<()> {
     sqlx::query(
@@ -112,7 +113,7 @@ pub async fn remove_membership(
     tx: &mut Tx<'_>,
     user_id: i64,
     project_id: i64,
-) -> sqlx::Result<Option<String>> {
+) -> sqlx::Result<Option<Role>> {
     sqlx::query_scalar(
         "DELETE FROM memberships WHERE user_id = $1 AND project_id = $2 RETURNING role",
     )
@@ -188,7 +189,7 @@ pub async fn end_sessions_of(
 }
 
 /// A user's role in a project, if a member.
-pub async fn role_in(pool: &Pool, user_id: i64, project_id: i64) -> sqlx::Result<Option<String>> {
+pub async fn role_in(pool: &Pool, user_id: i64, project_id: i64) -> sqlx::Result<Option<Role>> {
     sqlx::query_scalar("SELECT role FROM memberships WHERE user_id = $1 AND project_id = $2")
         .bind(user_id)
         .bind(project_id)
@@ -205,7 +206,7 @@ pub async fn project_ids(pool: &Pool, user_id: i64) -> sqlx::Result<Vec<i64>> {
 }
 
 /// Members of a project with their roles.
-pub async fn members(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<(String, String, String)>> {
+pub async fn members(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<(String, String, Role)>> {
     sqlx::query_as(
         "SELECT u.username, u.display_name, m.role FROM memberships m JOIN users u ON u.id = m.user_id
          WHERE m.project_id = $1 ORDER BY u.username",
@@ -311,7 +312,7 @@ pub async fn end_session_tx(tx: &mut Tx<'_>, id: i64, now: &str) -> sqlx::Result
 pub struct ApiToken {
     pub id: i64,
     pub project_id: i64,
-    pub role: String,
+    pub role: Role,
     pub name: String,
     pub created_by: String,
     /// The user who made it; the token lives only while that user may hold its role.
@@ -328,7 +329,7 @@ const TOKEN: &str = "SELECT id, project_id, role, name, created_by, created_by_u
 /// A new token's row.
 pub struct NewToken<'a> {
     pub project_id: i64,
-    pub role: &'a str,
+    pub role: Role,
     pub name: &'a str,
     pub token_hash: &'a str,
     pub created_by: &'a str,
@@ -361,7 +362,7 @@ pub async fn live_token(
     pool: &Pool,
     token_hash: &str,
     now: &str,
-) -> sqlx::Result<Option<(ApiToken, String)>> {
+) -> sqlx::Result<Option<(ApiToken, Role)>> {
     let row: Option<TokenWithCreator> = sqlx::query_as(
         "SELECT t.id, t.project_id, t.role, t.name, t.created_by, t.created_by_user_id, t.created_at,
                 t.expires_at, t.last_used_at, t.revoked_at, m.role AS creator_role
@@ -382,7 +383,7 @@ pub async fn live_token(
 struct TokenWithCreator {
     #[sqlx(flatten)]
     token: ApiToken,
-    creator_role: String,
+    creator_role: Role,
 }
 
 /// Revokes every live token a user made (in one project, or everywhere); returns how many.

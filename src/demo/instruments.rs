@@ -276,7 +276,7 @@ async fn tests_on_an_open_lot(
         pool,
         pid,
         &db::lots::LotFilter {
-            state: Some("open".into()),
+            state: Some(crate::domain::LotState::Open),
             limit: 1000,
             ..Default::default()
         },
@@ -314,7 +314,8 @@ async fn tests_on_an_open_lot(
         .await
         .map_err(user_error)?;
     let record = |input: FieldTestInput| async move {
-        crate::ledger::field::record_test(pool, lot.id, &input, tech)
+        crate::ledger::Ledger::new(pool.clone())
+            .record_test(lot.id, &input, tech)
             .await
             .map_err(user_error)
     };

@@ -176,7 +176,8 @@ async fn load_tests(
         let input = json!({"number": format!("H-{:03}", k + 1), "tested_at": format!("2026-11-{:02}T09:{:02}:00Z", 16 + k, 10 + k),
             "technician": if k % 2 == 0 { "S. Ilvane" } else { "M. Torrick" }, "chainage_m": (chainage * 10.0).round() / 10.0,
             "offset_m": (offset * 10.0).round() / 10.0, "depth_mm": 200, "readings": reading(dry, w)});
-        let t = ledger::field::record_test(pool, lot.id, &parse(input)?, entry)
+        let (t, _) = ledger::Ledger::new(pool.clone())
+            .record_test(lot.id, &parse(input)?, entry)
             .await
             .map_err(err)
             .with_context(|| format!("demo test H-{:03}", k + 1))?;

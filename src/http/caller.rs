@@ -70,10 +70,8 @@ impl Caller {
     /// The caller's role in a project, if any.
     pub async fn role_in(&self, pool: &db::Pool, project_id: i64) -> Result<Option<Role>> {
         Ok(match &self.principal {
-            Principal::User(u) => users::role_in(pool, u.id, project_id)
-                .await?
-                .and_then(|r| Role::parse_code(&r)),
-            Principal::Token(t) if t.project_id == project_id => Role::parse_code(&t.role),
+            Principal::User(u) => users::role_in(pool, u.id, project_id).await?,
+            Principal::Token(t) if t.project_id == project_id => Some(t.role),
             Principal::Token(_) => None,
         })
     }
@@ -210,10 +208,7 @@ async fn token_caller(state: &AppState, value: &str, address: String) -> Result<
     let (t, creator_role) = users::live_token(&state.db, &secret::digest(token.trim()), &now)
         .await?
         .ok_or_else(refused)?;
-    let holds = Role::parse_code(&t.role)
-        .zip(Role::parse_code(&creator_role))
-        .is_some_and(|(r, own)| r.within(own));
-    if !holds {
+    if !t.role.within(creator_role) {
         return Err(refused());
     }
     // Record use at most once a minute per token: a write on every request would

@@ -133,7 +133,7 @@ pub async fn grant(
     super::setup::require_project(pool, project_id).await?;
     let now = clock::now();
     let mut tx = db::begin_write(pool).await?;
-    users::grant(&mut tx, user.id, project_id, role.code(), &now).await?;
+    users::grant(&mut tx, user.id, project_id, role, &now).await?;
     audit_change(
         &mut tx,
         actor,

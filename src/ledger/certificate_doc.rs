@@ -82,7 +82,7 @@ pub fn build(r: &LotReport, issue: Issue<'_>) -> CertificateDoc {
                 date: clock::date_of(&t.test.tested_at),
                 chainage: u.chainage(t.test.chainage_m),
                 offset: u.offset_short(t.test.offset_m),
-                method: t.test.method.replace('_', " "),
+                method: t.test.method.words(),
                 wet_density: u.density(t.test.wet_density_kg_m3),
                 water_content: format!("{:.1}", t.test.water_content_pct),
                 dry_density: u.density(t.test.dry_density_kg_m3),
@@ -90,12 +90,12 @@ pub fn build(r: &LotReport, issue: Issue<'_>) -> CertificateDoc {
                 moisture_deviation: present::signed(t.moisture_deviation_pct),
                 result: result.to_string(),
                 note: notes.join("; "),
-                rc_value: if t.standing == "voided" {
+                rc_value: if t.standing == crate::domain::Standing::Voided {
                     None
                 } else {
                     t.relative_compaction_pct
                 },
-                counted: t.standing == "counted",
+                counted: t.standing.counted(),
             }
         })
         .collect();

@@ -1,4 +1,5 @@
-//! Recording field density tests, voiding them and recording retests.
+//! Field density tests: checked against their lot, stored with their audit row (a test is
+//! recorded through [`super::Ledger`]), voided, and their rules loaded ([`rule_rows`]).
 
 use serde_json::json;
 
@@ -8,6 +9,7 @@ use super::lot_report;
 use super::validate::{code, number, optional_text, quantity, text, timestamp};
 use crate::clock;
 use crate::db::{self, Pool, audit};
+use crate::domain::{LotState, Rule};
 use crate::error::{AppError, Result};
 use crate::reduction::verdict::{Reference, TestVerdict};
 use crate::reduction::{self, field::FieldReadings};
@@ -73,15 +75,7 @@ impl LotContext {
 
     /// Loads the clause, source and lab test a lot is judged by.
     pub async fn load(pool: &Pool, lot: &db::lots::Lot) -> Result<Self> {
-        let clause = db::clauses::get(pool, lot.clause_id)
-            .await?
-            .ok_or_else(|| anyhow::anyhow!("lot {} has no clause", lot.id))?;
-        let source = db::sources::get(pool, lot.source_id)
-            .await?
-            .ok_or_else(|| anyhow::anyhow!("lot {} has no source", lot.id))?;
-        let lab = db::lab_tests::get(pool, lot.lab_test_id)
-            .await?
-            .ok_or_else(|| anyhow::anyhow!("lot {} has no lab test", lot.id))?;
+        let (clause, source, lab) = rule_rows(pool, lot).await?;
         Self::new(lot.clone(), clause, source, lab)
     }
 
@@ -95,6 +89,30 @@ impl LotContext {
             .reference_for(coarse_pct, coarse_w_pct)
             .map_err(site_error)
     }
+}
+
+/// The clause, source and lab test a lot is judged by, read from the store: the one read
+/// of a lot's rules (contexts, lot reports and single verdicts all come through here; the
+/// project-wide readers take every project's rows at once in `overview::ProjectRows`).
+pub async fn rule_rows(
+    pool: &Pool,
+    lot: &db::lots::Lot,
+) -> Result<(
+    db::clauses::Clause,
+    db::sources::Source,
+    db::lab_tests::LabTest,
+)> {
+    let missing = |what: &str| anyhow::anyhow!("lot {} refers to a missing {what}", lot.id);
+    let clause = db::clauses::get(pool, lot.clause_id)
+        .await?
+        .ok_or_else(|| missing("clause"))?;
+    let source = db::sources::get(pool, lot.source_id)
+        .await?
+        .ok_or_else(|| missing("source"))?;
+    let lab = db::lab_tests::get(pool, lot.lab_test_id)
+        .await?
+        .ok_or_else(|| missing("lab test"))?;
+    Ok((clause, source, lab))
 }
 
 /// A pure check's refusal as the service's error (422 naming the field).
@@ -165,6 +183,11 @@ impl RuleCache {
         ))
     }
 
+    /// True when the lot's clause, source and lab test are all held (read once already).
+    pub fn holds(&self, lot: &db::lots::Lot) -> bool {
+        self.get(lot).is_some()
+    }
+
     fn keep(&self, ctx: &LotContext) {
         let mut rows = self.rows.lock().unwrap_or_else(|e| e.into_inner());
         rows.clauses.insert(ctx.clause.id, ctx.clause.clone());
@@ -188,25 +211,6 @@ impl Spot {
             offset_m: t.offset_m,
         }
     }
-}
-
-/// Validates and reduces a field test for a lot without writing anything (used for previews too).
-pub async fn check(
-    pool: &Pool,
-    lot: &db::lots::Lot,
-    input: &FieldTestInput,
-    retest_of: Option<&db::field_tests::FieldTest>,
-    actor: &Actor,
-) -> Result<CheckedTest> {
-    let fallback = retest_of.map(Spot::of);
-    let now = clock::now();
-    // The plausibility check needs the lab curve's Gs, the oversize check the clause and source.
-    let ctx = LotContext::load(pool, lot).await?;
-    let book = InstrumentBook::load(pool, lot.project_id).await?;
-    let mut checked =
-        check_with_instruments(&book, &ctx, input, fallback, actor, &now, Arrival::Single)?;
-    checked.record.retest_of = retest_of.map(|t| t.id);
-    Ok(checked)
 }
 
 /// Validates and reduces one field test against an already-loaded lot: the one set of
@@ -278,7 +282,7 @@ fn check_record(
         number,
         tested_at,
         technician: text("technician", &input.technician, 80)?,
-        method: input.readings.method_code().to_string(),
+        method: crate::domain::Method::of(&input.readings),
         instrument_serial: optional_text("instrument_serial", &instrument, 40)?,
         chainage_m: entry.chainage_m,
         offset_m: entry.offset_m,
@@ -299,9 +303,7 @@ fn check_record(
         voided_at: None,
         created_at: now.to_string(),
         created_by: actor.name.clone(),
-        instrument_check: crate::reduction::instruments::InstrumentCheck::NotRecorded
-            .code()
-            .to_string(),
+        instrument_check: crate::reduction::instruments::InstrumentCheck::NotRecorded,
         instrument_note: None,
         operator_id: None,
         density_offset_kg_m3: None,
@@ -364,7 +366,7 @@ pub fn retest_refusal(t: RetestTarget<'_>) -> Option<AppError> {
 /// for single entry and imports): such a lot is re-sampled after rework, not patched test by
 /// test — a sample mixing originals and retests is no longer random (common practice).
 pub fn sampled_lot_refusal(lot: &db::lots::Lot, clause: &db::clauses::Clause) -> Option<AppError> {
-    (clause.rule == "quality_index").then(|| {
+    (clause.rule == Rule::QualityIndex).then(|| {
         AppError::conflict(
             "test_id",
             format!(
@@ -378,7 +380,7 @@ pub fn sampled_lot_refusal(lot: &db::lots::Lot, clause: &db::clauses::Clause) ->
 
 /// Fails unless the lot accepts new tests (open or rejected for rework).
 pub fn require_lot_takes_tests(lot: &db::lots::Lot) -> Result<()> {
-    if lot.state == "open" || lot.state == "rejected" {
+    if lot.state.takes_tests() {
         return Ok(());
     }
     Err(AppError::conflict(
@@ -405,14 +407,16 @@ pub async fn require_test(pool: &Pool, test_id: i64) -> Result<db::field_tests::
     })
 }
 
-async fn store(
+/// Writes one checked test and its audit row in its own transaction (where there is no
+/// group-commit writer: PostgreSQL, or outside a runtime).
+pub(super) async fn store(
     pool: &Pool,
-    checked: CheckedTest,
+    record: db::field_tests::FieldTest,
     actor: &Actor,
     action: &str,
 ) -> Result<db::field_tests::FieldTest> {
     let mut tx = db::begin_write(pool).await?;
-    let record = store_in(&mut tx, checked.record, actor, action).await?;
+    let record = store_in(&mut tx, record, actor, action).await?;
     tx.commit().await?;
     crate::metrics::field_tests_recorded(test_source(action), 1);
     Ok(record)
@@ -437,7 +441,7 @@ pub(crate) async fn store_in(
 ) -> Result<db::field_tests::FieldTest> {
     // The lot was open when the test was checked; it must still be when the test lands.
     match db::lots::state_for_write(tx, record.lot_id).await? {
-        Some(state) if state == "open" || state == "rejected" => {}
+        Some(state) if state.takes_tests() => {}
         Some(state) => {
             return Err(AppError::conflict(
                 "lot_id",
@@ -490,80 +494,6 @@ pub(crate) async fn store_in(
     Ok(record)
 }
 
-/// Records a new field test on a lot.
-pub async fn record_test(
-    pool: &Pool,
-    lot_id: i64,
-    input: &FieldTestInput,
-    actor: &Actor,
-) -> Result<db::field_tests::FieldTest> {
-    Ok(
-        record_judged(pool, None, &RuleCache::default(), lot_id, input, actor)
-            .await?
-            .0,
-    )
-}
-
-/// Records a new field test on a lot and returns it with its own verdict, judged from
-/// the lot's clause, source and lab test read once for both the check and the verdict.
-///
-/// With a [`TestWriter`](super::test_writer::TestWriter) the test is committed together
-/// with others arriving at the same moment.
-pub async fn record_judged(
-    pool: &Pool,
-    writer: Option<&super::test_writer::TestWriter>,
-    rules: &RuleCache,
-    lot_id: i64,
-    input: &FieldTestInput,
-    actor: &Actor,
-) -> Result<(db::field_tests::FieldTest, lot_report::TestLine)> {
-    let lot = require_lot(pool, lot_id).await?;
-    require_lot_takes_tests(&lot)?;
-    let ctx = LotContext::load_with(pool, rules, &lot).await?;
-    let checked = check_single(pool, &ctx, input, actor).await?;
-    let test = match writer {
-        Some(w) => w.store(checked.record, actor, "create").await?,
-        None => store(pool, checked, actor, "create").await?,
-    };
-    let line = lot_report::judge_alone(&test, &ctx.lot, &ctx.clause, &ctx.source, &ctx.lab, None)?;
-    Ok((test, line))
-}
-
-/// Records a retest of a failed test at the same spot; the failure stays on record.
-pub async fn record_retest(
-    pool: &Pool,
-    failed_id: i64,
-    input: &FieldTestInput,
-    actor: &Actor,
-) -> Result<db::field_tests::FieldTest> {
-    let failed = require_test(pool, failed_id).await?;
-    let lot = require_lot(pool, failed.lot_id).await?;
-    require_lot_takes_tests(&lot)?;
-    let report = lot_report::build(pool, lot.id).await?;
-    if let Some(refusal) = sampled_lot_refusal(&lot, &report.clause) {
-        return Err(refusal);
-    }
-    let line = report
-        .tests
-        .iter()
-        .find(|l| l.test.id == failed.id)
-        .ok_or_else(|| anyhow::anyhow!("test {} missing from its lot report", failed.id))?;
-    let existing = report
-        .tests
-        .iter()
-        .find(|l| l.test.retest_of == Some(failed.id) && l.test.void_reason.is_none());
-    if let Some(refusal) = retest_refusal(RetestTarget {
-        number: &failed.number,
-        voided: failed.void_reason.is_some(),
-        passed: line.passed,
-        existing_retest: existing.map(|l| l.test.number.as_str()),
-    }) {
-        return Err(refusal);
-    }
-    let checked = check(pool, &lot, input, Some(&failed), actor).await?;
-    store(pool, checked, actor, "retest").await
-}
-
 /// Voids a test with a reason: it leaves every statistic but stays on record.
 pub async fn void_test(
     pool: &Pool,
@@ -574,8 +504,8 @@ pub async fn void_test(
     let reason = text("reason", reason, 500)?;
     let test = require_test(pool, test_id).await?;
     let lot = require_lot(pool, test.lot_id).await?;
-    match lot.state.as_str() {
-        "submitted" => {
+    match lot.state {
+        LotState::Submitted => {
             return Err(AppError::conflict(
                 "test_id",
                 format!(
@@ -585,7 +515,7 @@ pub async fn void_test(
                 vec![],
             ));
         }
-        "accepted" => {
+        LotState::Accepted => {
             return Err(AppError::conflict(
                 "test_id",
                 format!(
@@ -595,22 +525,18 @@ pub async fn void_test(
                 vec![],
             ));
         }
-        _ => {}
+        LotState::Open | LotState::Rejected => {}
     }
     let now = clock::now();
     let mut tx = db::begin_write(pool).await?;
     // The lot may have been submitted or accepted since it was read: hold its state.
     let state = db::lots::state_for_write(&mut tx, lot.id).await?;
-    if state
-        .as_deref()
-        .is_some_and(|s| s == "submitted" || s == "accepted")
-    {
+    if let Some(state) = state.filter(|s| matches!(s, LotState::Submitted | LotState::Accepted)) {
         return Err(AppError::conflict(
             "test_id",
             format!(
-                "lot {} became {} meanwhile; nothing was voided",
-                lot.code,
-                state.unwrap_or_default()
+                "lot {} became {state} meanwhile; nothing was voided",
+                lot.code
             ),
             vec![],
         ));

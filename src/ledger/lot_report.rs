@@ -7,6 +7,7 @@ use sha2::{Digest, Sha256};
 
 use super::setup::{clause_moisture, clause_rule};
 use crate::db::{self, Pool};
+use crate::domain::{DisplayState, Rule, Standing};
 use crate::error::{AppError, Result};
 use crate::reduction::acceptance::{LotTestInput, TestStanding, evaluate_lot_with};
 use crate::reduction::frequency::{FrequencyRule, tests_owed, tests_required};
@@ -28,7 +29,7 @@ pub struct TestLine {
     pub air_voids_pct: Option<f64>,
     pub passed: bool,
     /// "counted", "voided", "superseded", "cannot_be_judged" or "earlier_sample".
-    pub standing: String,
+    pub standing: Standing,
     /// Why the test cannot be judged, when it cannot.
     pub unjudged_reason: Option<String>,
     /// Named plausibility warnings (probe depth, zero air voids, RC above the plausible limit).
@@ -47,10 +48,10 @@ pub struct TestLine {
 impl TestLine {
     /// The test's result in one word: pass, fail, void, superseded, unjudged or resampled.
     pub fn result(&self) -> &'static str {
-        match self.standing.as_str() {
-            "voided" => "void",
-            "superseded" => "superseded",
-            "earlier_sample" => "resampled",
+        match self.standing {
+            Standing::Voided => "void",
+            Standing::Superseded => "superseded",
+            Standing::EarlierSample => "resampled",
             _ if self.unjudged_reason.is_some() => "unjudged",
             _ if self.passed => "pass",
             _ => "fail",
@@ -96,7 +97,7 @@ impl TestLine {
 pub fn instrument_cautions(t: &db::field_tests::FieldTest) -> Vec<String> {
     use crate::reduction::instruments::InstrumentCheck;
     let mut out = Vec::new();
-    match InstrumentCheck::parse_code(&t.instrument_check) {
+    match t.instrument_check {
         InstrumentCheck::NotRecorded => out.push(InstrumentCheck::NotRecorded.label().to_string()),
         InstrumentCheck::InCheck => {
             out.extend(t.instrument_note.iter().map(|n| format!("instrument: {n}")));
@@ -160,7 +161,7 @@ pub struct LotReport {
     /// Numbers of failed tests that still need a passing retest.
     pub failing_without_retest: Vec<String>,
     /// The state a reader sees: open, owed_tests, failing, submitted, accepted, rejected or certified.
-    pub display_state: String,
+    pub display_state: DisplayState,
     /// What must happen before the lot can be submitted (empty when it can).
     pub submit_blockers: Vec<String>,
     pub certificate: Option<db::certificates::Certificate>,
@@ -297,7 +298,7 @@ fn judge_line(
 /// it stays on record, out of the statistics, and blocks submission.
 fn out_of_check(t: &db::field_tests::FieldTest) -> Option<String> {
     use crate::reduction::instruments::InstrumentCheck;
-    (InstrumentCheck::parse_code(&t.instrument_check) == InstrumentCheck::OutOfCheck).then(|| {
+    (t.instrument_check == InstrumentCheck::OutOfCheck).then(|| {
         format!(
             "instrument out of check ({})",
             t.instrument_note.as_deref().unwrap_or("no record")
@@ -315,15 +316,7 @@ pub async fn build(pool: &Pool, lot_id: i64) -> Result<LotReport> {
     let project = db::projects::get(pool, lot.project_id)
         .await?
         .ok_or_else(|| missing("project"))?;
-    let clause = db::clauses::get(pool, lot.clause_id)
-        .await?
-        .ok_or_else(|| missing("clause"))?;
-    let source = db::sources::get(pool, lot.source_id)
-        .await?
-        .ok_or_else(|| missing("source"))?;
-    let lab_test = db::lab_tests::get(pool, lot.lab_test_id)
-        .await?
-        .ok_or_else(|| missing("lab test"))?;
+    let (clause, source, lab_test) = super::field::rule_rows(pool, &lot).await?;
     let tests = db::field_tests::for_lot(pool, lot_id).await?;
     let certificate = db::certificates::for_lot(pool, lot_id)
         .await?
@@ -357,7 +350,7 @@ pub fn assemble(
 ) -> Result<LotReport> {
     let reference = reference_of(&lab_test)?;
     let limits = limits_of(&clause)?;
-    let rule = clause_rule(&clause);
+    let rule = clause_rule(&clause)?;
     let moisture = clause_moisture(&clause);
 
     let judged: Vec<_> = tests
@@ -407,12 +400,12 @@ pub fn assemble(
                 .find(|(id, _)| *id == t.id)
                 .map(|(_, s)| s);
             let (standing, superseded_by) = match standing {
-                Some(TestStanding::Voided) => ("voided", None),
-                Some(TestStanding::Superseded { by }) => ("superseded", number_of(*by)),
-                Some(TestStanding::CannotBeJudged) => ("cannot_be_judged", None),
-                Some(TestStanding::EarlierSample) => ("earlier_sample", None),
-                _ if t.void_reason.is_some() => ("voided", None),
-                _ => ("counted", None),
+                Some(TestStanding::Voided) => (Standing::Voided, None),
+                Some(TestStanding::Superseded { by }) => (Standing::Superseded, number_of(*by)),
+                Some(TestStanding::CannotBeJudged) => (Standing::CannotBeJudged, None),
+                Some(TestStanding::EarlierSample) => (Standing::EarlierSample, None),
+                _ if t.void_reason.is_some() => (Standing::Voided, None),
+                _ => (Standing::Counted, None),
             };
             let rc = v.as_ref().map(|v| v.relative_compaction_pct);
             TestLine {
@@ -426,7 +419,7 @@ pub fn assemble(
                 moisture_deviation_pct: v.as_ref().map(|v| v.moisture_deviation_pct),
                 air_voids_pct: v.as_ref().and_then(|v| v.air_voids_pct),
                 passed: v.as_ref().is_some_and(|v| v.passed),
-                standing: standing.to_string(),
+                standing,
                 superseded_by,
                 retest_of_number: t.retest_of.and_then(number_of),
                 reasons,
@@ -461,7 +454,7 @@ pub fn assemble(
     }
     // Under every_test a failure needs its passing retest; the other rules tolerate
     // some low tests and let the lot verdict decide.
-    let every_test = clause.rule == "every_test";
+    let every_test = clause.rule == Rule::EveryTest;
     if !failing_without_retest.is_empty() && every_test {
         submit_blockers.push(format!(
             "failed test{} without a passing retest: {}",
@@ -473,7 +466,10 @@ pub fn assemble(
             failing_without_retest.join(", ")
         ));
     }
-    for l in lines.iter().filter(|l| l.standing == "cannot_be_judged") {
+    for l in lines
+        .iter()
+        .filter(|l| l.standing == Standing::CannotBeJudged)
+    {
         submit_blockers.push(format!(
             "test {} cannot be judged: {}; void it or retest",
             l.test.number,
@@ -502,14 +498,14 @@ pub fn assemble(
     let certificate_current = certificate
         .as_ref()
         .is_some_and(|c| c.withdrawn_at.is_none() && c.record_fingerprint == fingerprint);
-    let display_state = match lot.state.as_str() {
-        "accepted" if certificate.is_some() && certificate_current => "certified",
-        "accepted" => "accepted",
-        "open" if !failing_without_retest.is_empty() && (every_test || !lv.accepted) => "failing",
-        "open" if owed > 0 => "owed_tests",
-        s => s,
-    }
-    .to_string();
+    let display_state = DisplayState::of(
+        lot.state,
+        crate::domain::Judged {
+            certificate_current: certificate.is_some() && certificate_current,
+            failing: !failing_without_retest.is_empty() && (every_test || !lv.accepted),
+            owed: owed > 0,
+        },
+    );
 
     let verdict = Verdict {
         rule: rule.code().to_string(),
@@ -602,7 +598,7 @@ fn fingerprint(
             t.retest_of,
             t.void_reason
         ));
-        if t.instrument_check == "out_of_check" {
+        if t.instrument_check == crate::reduction::instruments::InstrumentCheck::OutOfCheck {
             h.update("instrument out of check|");
         }
     }
@@ -615,16 +611,7 @@ pub async fn judge_new(pool: &Pool, t: &db::field_tests::FieldTest) -> Result<Te
     let lot = db::lots::get(pool, t.lot_id)
         .await?
         .ok_or_else(|| AppError::not_found("lot_id", format!("lot {} does not exist", t.lot_id)))?;
-    let missing = |what: &str| anyhow::anyhow!("lot {} refers to a missing {what}", lot.id);
-    let clause = db::clauses::get(pool, lot.clause_id)
-        .await?
-        .ok_or_else(|| missing("clause"))?;
-    let source = db::sources::get(pool, lot.source_id)
-        .await?
-        .ok_or_else(|| missing("source"))?;
-    let lab = db::lab_tests::get(pool, lot.lab_test_id)
-        .await?
-        .ok_or_else(|| missing("lab test"))?;
+    let (clause, source, lab) = super::field::rule_rows(pool, &lot).await?;
     let retest_of_number = match t.retest_of {
         Some(id) => db::field_tests::get(pool, id).await?.map(|o| o.number),
         None => None,
@@ -659,13 +646,12 @@ pub fn judge_alone(
         air_voids_pct: v.as_ref().and_then(|v| v.air_voids_pct),
         passed: v.as_ref().is_some_and(|v| v.passed),
         standing: if t.void_reason.is_some() {
-            "voided"
+            Standing::Voided
         } else if v.is_none() {
-            "cannot_be_judged"
+            Standing::CannotBeJudged
         } else {
-            "counted"
-        }
-        .to_string(),
+            Standing::Counted
+        },
         superseded_by: None,
         retest_of_number,
         reasons,
@@ -680,7 +666,7 @@ fn nuclear_probe_depth_mm(t: &db::field_tests::FieldTest) -> Option<f64> {
     struct Probe {
         probe_depth_mm: Option<f64>,
     }
-    if t.method != "nuclear" {
+    if t.method != crate::domain::Method::Nuclear {
         return None;
     }
     serde_json::from_str::<Probe>(&t.readings_json)

@@ -8,6 +8,7 @@
 pub mod accounts;
 pub mod certificate_doc;
 pub mod field;
+pub mod handle;
 pub mod idempotent;
 pub mod import;
 pub mod instruments;
@@ -32,6 +33,8 @@ pub mod tokens;
 pub mod validate;
 pub mod verify;
 pub mod watch;
+
+pub use handle::Ledger;
 
 /// Who is making a change and from where; written to every audit row.
 #[derive(Debug, Clone)]

@@ -288,7 +288,7 @@ pub async fn view(pool: &Pool, lot_id: i64) -> Result<PlanView> {
     let matches = report
         .tests
         .iter()
-        .filter(|l| l.standing != "voided")
+        .filter(|l| l.standing != crate::domain::Standing::Voided)
         .filter_map(|l| l.plan_match.map(|m| (l.test.number.clone(), m)))
         .collect();
     Ok(PlanView {

@@ -11,6 +11,7 @@ use super::lot_report::{self, LotReport};
 use super::validate::text;
 use crate::clock;
 use crate::db::{self, Pool, audit};
+use crate::domain::LotState;
 use crate::error::{AppError, Result};
 
 /// Reopens an accepted lot and withdraws its certificate; a reason is required.
@@ -18,7 +19,7 @@ pub async fn reopen(pool: &Pool, lot_id: i64, reason: &str, actor: &Actor) -> Re
     let reason = text("reason", reason, 1000)?;
     let report = lot_report::build(pool, lot_id).await?;
     let lot = &report.lot;
-    if lot.state != "accepted" {
+    if !lot.state.may_become(LotState::Open) {
         return Err(AppError::conflict(
             "state",
             format!(
@@ -33,8 +34,8 @@ pub async fn reopen(pool: &Pool, lot_id: i64, reason: &str, actor: &Actor) -> Re
     if !db::lots::transition(
         &mut tx,
         lot_id,
-        "accepted",
-        "open",
+        LotState::Accepted,
+        LotState::Open,
         &actor.name,
         &reason,
         &now,
@@ -57,8 +58,8 @@ pub async fn reopen(pool: &Pool, lot_id: i64, reason: &str, actor: &Actor) -> Re
             entity: "lot",
             entity_id: Some(lot_id),
             project_id: Some(lot.project_id),
-            before: Some(json!({"state": "accepted"})),
-            after: Some(json!({"state": "open", "comment": reason, "reopened": true})),
+            before: Some(json!({"state": LotState::Accepted})),
+            after: Some(json!({"state": LotState::Open, "comment": reason, "reopened": true})),
             origin: &actor.origin,
         },
         &now,

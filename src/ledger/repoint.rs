@@ -34,7 +34,7 @@ pub async fn repoint(
 ) -> Result<LotReport> {
     let reason = text("reason", &input.reason, 500)?;
     let lot = require_lot(pool, lot_id).await?;
-    if lot.state != "open" && lot.state != "rejected" {
+    if !lot.state.takes_tests() {
         return Err(AppError::conflict(
             "lot_id",
             format!(

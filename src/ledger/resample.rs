@@ -21,7 +21,7 @@ pub async fn resample(pool: &Pool, lot_id: i64, reason: &str, actor: &Actor) -> 
     require_lot_takes_tests(&lot)?;
     let report = lot_report::build(pool, lot_id).await?;
     let refuse = |why: String| Err(AppError::conflict("lot_id", why, vec![]));
-    if report.clause.rule != "quality_index" {
+    if report.clause.rule != crate::domain::Rule::QualityIndex {
         return refuse(format!(
             "lot {} is judged by the {} rule: record retests of failed tests instead of a new sample",
             lot.code, report.clause.rule

@@ -9,13 +9,14 @@ use super::lot_report::{self, LotReport};
 use super::validate::optional_text;
 use crate::clock;
 use crate::db::{self, Pool, audit};
+use crate::domain::LotState::{self, Accepted, Rejected, Submitted};
 use crate::error::{AppError, Result};
 
 async fn log_transition(
     tx: &mut db::Tx<'_>,
     report: &LotReport,
-    from: &str,
-    to: &str,
+    from: LotState,
+    to: LotState,
     comment: &str,
     actor: &Actor,
     now: &str,
@@ -53,8 +54,8 @@ fn refused(report: &LotReport, action: &str, reasons: Vec<String>) -> AppError {
 pub async fn submit(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> Result<LotReport> {
     let comment = optional_text("comment", comment, 1000)?;
     let report = lot_report::build(pool, lot_id).await?;
-    let from = report.lot.state.clone();
-    if from != "open" && from != "rejected" {
+    let from = report.lot.state;
+    if !from.may_become(Submitted) {
         return Err(refused(
             &report,
             "submitted",
@@ -73,8 +74,8 @@ pub async fn submit(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> R
     if !db::lots::transition(
         &mut tx,
         lot_id,
-        &from,
-        "submitted",
+        from,
+        Submitted,
         &actor.name,
         &comment,
         &now,
@@ -87,7 +88,7 @@ pub async fn submit(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> R
             vec!["the lot changed state meanwhile".into()],
         ));
     }
-    log_transition(&mut tx, &report, &from, "submitted", &comment, actor, &now).await?;
+    log_transition(&mut tx, &report, from, Submitted, &comment, actor, &now).await?;
     tx.commit().await?;
     lot_report::build(pool, lot_id).await
 }
@@ -96,7 +97,7 @@ pub async fn submit(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> R
 pub async fn reject(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> Result<LotReport> {
     let comment = optional_text("comment", comment, 1000)?;
     let report = lot_report::build(pool, lot_id).await?;
-    if report.lot.state != "submitted" {
+    if !report.lot.state.may_become(Rejected) {
         return Err(refused(
             &report,
             "rejected",
@@ -111,8 +112,8 @@ pub async fn reject(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> R
     if !db::lots::transition(
         &mut tx,
         lot_id,
-        "submitted",
-        "rejected",
+        Submitted,
+        Rejected,
         &actor.name,
         &comment,
         &now,
@@ -125,16 +126,7 @@ pub async fn reject(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> R
             vec!["the lot changed state meanwhile".into()],
         ));
     }
-    log_transition(
-        &mut tx,
-        &report,
-        "submitted",
-        "rejected",
-        &comment,
-        actor,
-        &now,
-    )
-    .await?;
+    log_transition(&mut tx, &report, Submitted, Rejected, &comment, actor, &now).await?;
     tx.commit().await?;
     lot_report::build(pool, lot_id).await
 }
@@ -144,7 +136,7 @@ pub async fn reject(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> R
 pub async fn accept(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> Result<LotReport> {
     let comment = optional_text("comment", comment, 1000)?;
     let report = lot_report::build(pool, lot_id).await?;
-    let reissue = report.lot.state == "accepted";
+    let reissue = report.lot.state == Accepted;
     if reissue && report.certificate_current {
         return Err(AppError::conflict(
             "state",
@@ -155,7 +147,7 @@ pub async fn accept(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> R
             vec!["a new revision is issued only after the lot's record changes".into()],
         ));
     }
-    if !reissue && report.lot.state != "submitted" {
+    if !reissue && !report.lot.state.may_become(Accepted) {
         return Err(refused(
             &report,
             "accepted",
@@ -188,8 +180,8 @@ pub async fn accept(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> R
         if !db::lots::transition(
             &mut tx,
             lot_id,
-            "submitted",
-            "accepted",
+            Submitted,
+            Accepted,
             &actor.name,
             &comment,
             &now,
@@ -202,16 +194,7 @@ pub async fn accept(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> R
                 vec!["the lot changed state meanwhile".into()],
             ));
         }
-        log_transition(
-            &mut tx,
-            &report,
-            "submitted",
-            "accepted",
-            &comment,
-            actor,
-            &now,
-        )
-        .await?;
+        log_transition(&mut tx, &report, Submitted, Accepted, &comment, actor, &now).await?;
     }
     issue_certificate(&mut tx, &report, &comment, actor, &now).await?;
     tx.commit().await?;
@@ -258,7 +241,7 @@ async fn issue_certificate(
     let number = format!("{}-EL-{:04}", report.project.code, sequence);
     let code = verification_code(&format!("{number}|{revision}|{}|{now}", report.fingerprint));
     let transitions = db::lots::transitions_tx(tx, report.lot.id).await?;
-    let submitted = transitions.iter().rev().find(|t| t.to_state == "submitted");
+    let submitted = transitions.iter().rev().find(|t| t.to_state == Submitted);
     let doc = certificate_doc::build(
         report,
         certificate_doc::Issue {

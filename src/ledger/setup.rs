@@ -7,6 +7,7 @@ use super::Actor;
 use super::validate::{code, date, number, optional_text, quantity, text};
 use crate::clock;
 use crate::db::{self, Pool, audit};
+use crate::domain::Rule;
 use crate::error::{AppError, Result};
 use crate::reduction::acceptance::{AcceptanceRule, MoistureJudgement};
 use crate::reduction::curve::{CurvePoint, fit_curve};
@@ -152,17 +153,14 @@ pub struct ClauseInput {
     pub coarse_water_default_pct: Option<f64>,
 }
 
-/// Reads a clause's stored rule back as the reduction's rule.
-pub fn clause_rule(c: &db::clauses::Clause) -> AcceptanceRule {
-    match c.rule.as_str() {
-        "mean_and_min" => AcceptanceRule::MeanAndMin {
-            allowance_pct: c.allowance_pct.unwrap_or(0.0),
-        },
-        "quality_index" => AcceptanceRule::QualityIndex {
-            min_pwl_pct: c.min_pwl_pct.unwrap_or(90.0),
-        },
-        _ => AcceptanceRule::EveryTest,
-    }
+/// Reads a clause's stored rule back as the reduction's rule; a stored rule without its
+/// parameter is an error, never a default.
+pub fn clause_rule(c: &db::clauses::Clause) -> anyhow::Result<AcceptanceRule> {
+    c.rule
+        .with(c.allowance_pct, c.min_pwl_pct)
+        .map_err(|(field, message)| {
+            anyhow::anyhow!("clause {} ({}): {field}: {message}", c.code, c.id)
+        })
 }
 
 /// Reads a clause's stored moisture judgement back as the reduction's.
@@ -193,7 +191,7 @@ fn verdict_terms(input: &ClauseInput) -> Result<(String, Option<f64>, f64, Strin
             None
         }
         "pwl" => {
-            if input.rule != "quality_index" {
+            if input.rule.parse::<Rule>() != Ok(Rule::QualityIndex) {
                 return Err(AppError::invalid(
                     "moisture_judgement",
                     "a moisture percent within limits needs a random sample: use it with the quality_index rule, or per_test",
@@ -295,25 +293,28 @@ pub async fn create_clause(
             ),
         ));
     }
-    let (allowance, min_pwl) = match input.rule.as_str() {
-        "every_test" => (None, None),
-        "mean_and_min" => {
+    let rule = input.rule.parse::<Rule>().map_err(|_| {
+        AppError::invalid(
+            "rule",
+            format!(
+                "unknown rule '{}'; use every_test, mean_and_min or quality_index",
+                input.rule
+            ),
+        )
+    })?;
+    let (allowance, min_pwl) = match rule {
+        Rule::EveryTest => (None, None),
+        Rule::MeanAndMin => {
             let a = input.allowance_pct.ok_or_else(|| {
                 AppError::invalid("allowance_pct", "is required for the mean_and_min rule")
             })?;
             (Some(number("allowance_pct", a, 0.0, 20.0, "%")?), None)
         }
-        "quality_index" => {
+        Rule::QualityIndex => {
             let p = input.min_pwl_pct.ok_or_else(|| {
                 AppError::invalid("min_pwl_pct", "is required for the quality_index rule")
             })?;
             (None, Some(number("min_pwl_pct", p, 1.0, 100.0, "%")?))
-        }
-        other => {
-            return Err(AppError::invalid(
-                "rule",
-                format!("unknown rule '{other}'; use every_test, mean_and_min or quality_index"),
-            ));
         }
     };
     let (moisture_judgement, moisture_min_pwl_pct, rc_plausible_max_pct, rounding, limit_decimals) =
@@ -349,7 +350,7 @@ pub async fn create_clause(
         moisture_below_pct: moisture.below_pct,
         moisture_above_pct: moisture.above_pct,
         effort: effort.to_string(),
-        rule: input.rule.clone(),
+        rule,
         allowance_pct: allowance,
         min_pwl_pct: min_pwl,
         area_per_test_m2: positive("area_per_test_m2", input.area_per_test_m2, 1.0e7, "m²")?,

@@ -148,7 +148,7 @@ pub async fn select(
                 || to.is_some_and(|m| t.chainage_m > m)
                 || d_from.as_ref().is_some_and(|d| day < *d)
                 || d_to.as_ref().is_some_and(|d| day > *d)
-                || (!f.method.is_empty() && t.method != f.method)
+                || (!f.method.is_empty() && t.method.code() != f.method)
                 || (!f.verdict.is_empty() && line.result() != f.verdict)
             {
                 continue;

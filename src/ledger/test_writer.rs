@@ -7,6 +7,9 @@
 //! and the others land; a failed commit fails every test of the group, and none is
 //! answered as stored before its commit returned.
 
+use std::sync::Arc;
+use std::sync::atomic::{AtomicU64, Ordering};
+
 use tokio::sync::{mpsc, oneshot};
 
 use super::Actor;
@@ -29,6 +32,9 @@ struct Pending {
 #[derive(Clone)]
 pub struct TestWriter {
     queue: mpsc::Sender<Pending>,
+    /// Tests this writer committed, for the operator and for tests that check a path
+    /// goes through the writer (the Prometheus counter is off without `--metrics-addr`).
+    stored: Arc<AtomicU64>,
 }
 
 impl TestWriter {
@@ -40,8 +46,14 @@ impl TestWriter {
         }
         let runtime = tokio::runtime::Handle::try_current().ok()?;
         let (queue, rx) = mpsc::channel(4 * MAX_GROUP);
-        runtime.spawn(run(pool.clone(), rx));
-        Some(Self { queue })
+        let stored = Arc::new(AtomicU64::new(0));
+        runtime.spawn(run(pool.clone(), rx, stored.clone()));
+        Some(Self { queue, stored })
+    }
+
+    /// How many tests this writer has committed since it started.
+    pub fn tests_stored(&self) -> u64 {
+        self.stored.load(Ordering::Relaxed)
     }
 
     /// Stores a checked test with the next group; answers once that group committed.
@@ -68,7 +80,7 @@ impl TestWriter {
     }
 }
 
-async fn run(pool: Pool, mut queue: mpsc::Receiver<Pending>) {
+async fn run(pool: Pool, mut queue: mpsc::Receiver<Pending>, stored: Arc<AtomicU64>) {
     while let Some(first) = queue.recv().await {
         let mut group = vec![first];
         while group.len() < MAX_GROUP {
@@ -77,11 +89,11 @@ async fn run(pool: Pool, mut queue: mpsc::Receiver<Pending>) {
                 Err(_) => break,
             }
         }
-        write_group(&pool, group).await;
+        write_group(&pool, group, &stored).await;
     }
 }
 
-async fn write_group(pool: &Pool, group: Vec<Pending>) {
+async fn write_group(pool: &Pool, group: Vec<Pending>, stored: &AtomicU64) {
     let mut results = Vec::with_capacity(group.len());
     let written: std::result::Result<(), AppError> = async {
         let mut tx = db::begin_write(pool).await?;
@@ -107,6 +119,7 @@ async fn write_group(pool: &Pool, group: Vec<Pending>) {
             crate::metrics::test_group_written(group.len());
             for (p, r) in group.iter().zip(&results) {
                 if r.is_ok() {
+                    stored.fetch_add(1, Ordering::Relaxed);
                     crate::metrics::field_tests_recorded(super::field::test_source(p.action), 1);
                 }
             }

@@ -46,10 +46,7 @@ async fn creator_role(pool: &Pool, creator_id: i64, project_id: i64, wanted: Rol
         .await?
         .filter(|u| u.disabled_at.is_none())
         .ok_or_else(|| AppError::forbidden("a disabled user may not make tokens"))?;
-    let Some(own) = users::role_in(pool, user.id, project_id)
-        .await?
-        .and_then(|r| Role::parse_code(&r))
-    else {
+    let Some(own) = users::role_in(pool, user.id, project_id).await? else {
         return Err(AppError::forbidden(
             "making a token needs a role in this project; a token never holds more than its maker",
         ));
@@ -93,7 +90,7 @@ pub async fn create_token(
         &mut tx,
         &users::NewToken {
             project_id,
-            role: role.code(),
+            role,
             name: &name,
             token_hash: &secret::digest(&secret),
             created_by: &actor.name,
@@ -145,7 +142,7 @@ pub async fn revoke_token(
         .await?
         .ok_or_else(|| AppError::not_found("token_id", format!("token {id} does not exist")))?;
     if let Revoker::Member(own) = by {
-        let role = parse_role(&t.role)?;
+        let role = t.role;
         if !role.within(own) {
             return Err(AppError::forbidden(format!(
                 "a {} may not revoke a {} token",

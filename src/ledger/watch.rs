@@ -67,7 +67,7 @@ pub async fn counted_tests(
             out.extend(
                 r.tests
                     .iter()
-                    .filter(|l| l.standing == "counted")
+                    .filter(|l| l.standing.counted())
                     .filter_map(|l| watched(&r.lot, l)),
             );
             Ok(())

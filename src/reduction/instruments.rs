@@ -42,14 +42,8 @@ impl InstrumentCheck {
             Self::OutOfCheck => "out_of_check",
         }
     }
-    /// Reads a stored code (unknown codes read as not recorded).
-    pub fn parse_code(s: &str) -> Self {
-        match s {
-            "in_check" => Self::InCheck,
-            "out_of_check" => Self::OutOfCheck,
-            _ => Self::NotRecorded,
-        }
-    }
+    /// Every value (a stored code is read back in `crate::domain`, refusing unknown codes).
+    pub const ALL: [InstrumentCheck; 3] = [Self::NotRecorded, Self::InCheck, Self::OutOfCheck];
     /// Words for people.
     pub fn label(self) -> &'static str {
         match self {

@@ -92,7 +92,7 @@ impl ExportFilter {
             || self.chainage_to_m.is_some_and(|m| t.chainage_m > m)
             || self.date_from.as_ref().is_some_and(|d| day < *d)
             || self.date_to.as_ref().is_some_and(|d| day > *d)
-            || self.method.as_ref().is_some_and(|m| t.method != *m)
+            || self.method.as_ref().is_some_and(|m| t.method.code() != m)
             || self.verdict.as_ref().is_some_and(|v| line.result() != v))
     }
 
@@ -105,7 +105,10 @@ impl ExportFilter {
             || self
                 .chainage_to_m
                 .is_some_and(|m| r.lot.chainage_from_m > m)
-            || self.verdict.as_ref().is_some_and(|v| r.display_state != *v))
+            || self
+                .verdict
+                .as_ref()
+                .is_some_and(|v| r.display_state.code() != v))
     }
 }
 
@@ -162,7 +165,7 @@ fn test_fields(units: &Units, r: &LotReport, line: &TestLine) -> [String; 28] {
         r.lot.layer_number.to_string(),
         t.tested_at.clone(),
         t.technician.clone(),
-        t.method.clone(),
+        t.method.code().to_string(),
         t.instrument_serial.clone(),
         units.chainage(t.chainage_m),
         format!("{:.3}", t.chainage_m),
@@ -296,8 +299,8 @@ fn lot_fields(units: &Units, r: &LotReport) -> [String; 26] {
         v.rule.clone(),
         r.lab_test.code.clone(),
         format!("{:.1}", r.lab_test.max_dry_density_kg_m3),
-        r.lot.state.clone(),
-        r.display_state.clone(),
+        r.lot.state.to_string(),
+        r.display_state.to_string(),
         v.n.to_string(),
         r.tests_required.to_string(),
         r.tests_owed.to_string(),

@@ -51,6 +51,8 @@ pub struct TestApp {
     /// A client with no session at all.
     pub anonymous: reqwest::Client,
     pub pool: db::Pool,
+    /// The server's own state (its ledger handle: writer and caches).
+    pub state: AppState,
     /// Where the database is (an SQLite file, or a fresh PostgreSQL database).
     pub location: db::Location,
     _dir: std::sync::Arc<tempfile::TempDir>,
@@ -137,6 +139,7 @@ impl TestApp {
                 .await
                 .unwrap()
                 .unwrap();
+            let role = liftledger::auth::Role::parse_code(role).expect("a project role");
             db::users::grant(&mut tx, user.id, project_id, role, &now)
                 .await
                 .expect("grant");
@@ -277,8 +280,9 @@ pub async fn spawn_with(
         },
     );
     let (tx, rx) = oneshot::channel::<()>();
+    let served = state.clone();
     let handle = tokio::spawn(async move {
-        liftledger::serve(listener, state, async {
+        liftledger::serve(listener, served, async {
             let _ = rx.await;
         })
         .await
@@ -301,6 +305,7 @@ pub async fn spawn_with(
         clients,
         anonymous: client_with(&origin, None),
         pool,
+        state,
         location,
         _dir: dir,
         stop: Some(tx),

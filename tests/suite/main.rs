@@ -11,6 +11,7 @@ mod certificates;
 mod concurrency;
 mod deploy;
 mod edge;
+mod entry_paths;
 mod idempotency;
 mod import_page;
 mod instruments;

@@ -102,9 +102,7 @@ async fn create(
         return create_once(&s, id, &input, &actor, &key).await;
     }
 
-    let (t, line) =
-        ledger::field::record_judged(&s.db, s.writer.as_ref(), &s.rules, id, &input, &actor)
-            .await?;
+    let (t, line) = s.ledger.record_test(id, &input, &actor).await?;
     Ok((
         StatusCode::CREATED,
         HeaderMap::new(),
@@ -122,7 +120,7 @@ async fn create_once(
     key: &str,
 ) -> Result<(StatusCode, HeaderMap, Json<Value>)> {
     use ledger::idempotent::Keyed;
-    let keyed = ledger::idempotent::record_once(&s.db, &s.rules, lot_id, input, actor, key).await?;
+    let keyed = s.ledger.record_once(lot_id, input, actor, key).await?;
     let (status, t, replayed) = match keyed {
         Keyed::Created(t) => (StatusCode::CREATED, t, "false"),
         Keyed::Replayed(t) => (StatusCode::OK, t, "true"),
@@ -246,6 +244,6 @@ async fn retest(
 ) -> Result<(StatusCode, Json<Value>)> {
     let actor = require(&s.db, &caller, Scope::Test(id), Action::EnterTests).await?;
 
-    let t = ledger::field::record_retest(&s.db, id, &input, &actor).await?;
+    let t = s.ledger.record_retest(id, &input, &actor).await?;
     Ok((StatusCode::CREATED, Json(with_own_line(&s, &t).await?)))
 }

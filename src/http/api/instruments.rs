@@ -48,7 +48,7 @@ pub async fn require_register_editor(pool: &db::Pool, caller: &Caller) -> Result
     let allowed = match &caller.principal {
         Principal::User(u) if u.admin() => true,
         Principal::User(u) => db::instruments::is_qc_manager_anywhere(pool, u.id).await?,
-        Principal::Token(t) => Role::parse_code(&t.role) == Some(Role::QcManager),
+        Principal::Token(t) => t.role == Role::QcManager,
     };
     if allowed {
         Ok(caller.actor())

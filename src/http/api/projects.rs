@@ -247,7 +247,7 @@ async fn list_lots(
     }
     .limit_offset()?;
     if let Some(st) = &q.state
-        && !["open", "submitted", "accepted", "rejected"].contains(&st.as_str())
+        && crate::domain::LotState::parse_code(st).is_none()
     {
         return Err(AppError::invalid(
             "state",
@@ -258,7 +258,10 @@ async fn list_lots(
         chainage_from_m: q.chainage_from_m,
         chainage_to_m: q.chainage_to_m,
         layer_id: q.layer_id,
-        state: q.state.clone(),
+        state: q
+            .state
+            .as_deref()
+            .and_then(crate::domain::LotState::parse_code),
         changed_since: q
             .changed_since
             .as_deref()
@@ -360,7 +363,9 @@ async fn review_queue(
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
 
     setup::require_project(&s.db, id).await?;
-    Ok(Json(db::lots::in_state(&s.db, id, "submitted").await?))
+    Ok(Json(
+        db::lots::in_state(&s.db, id, crate::domain::LotState::Submitted).await?,
+    ))
 }
 
 /// Body of a review action.

@@ -103,7 +103,7 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
         |lot| lot.lab_test_id == id,
         true,
         |r| {
-            counted.extend(r.tests.into_iter().filter(|l| l.standing == "counted"));
+            counted.extend(r.tests.into_iter().filter(|l| l.standing.counted()));
             Ok(())
         },
     )

@@ -97,7 +97,7 @@ async fn context(
 ) -> Result<Context, PageError> {
     let lot = ledger::field::require_lot(&s.db, lot_id).await?;
     let p = ledger::setup::require_project(&s.db, lot.project_id).await?;
-    let rules = ledger::field::LotContext::load(&s.db, &lot).await?.rules;
+    let rules = s.ledger.lot_context(&lot).await?.rules;
     let instruments = ledger::instruments::check::lot_instruments(&s.db, &lot).await?;
     Ok(Context {
         rules,
@@ -164,7 +164,7 @@ fn default_form(c: &Context) -> EntryForm {
     if let Some(t) = &c.retest_of {
         f.chainage = c.units.chainage(t.chainage_m);
         f.offset_m = format!("{:.1}", t.offset_m);
-        f.method = t.method.clone();
+        f.method = t.method.code().to_string();
         f.technician = t.technician.clone();
         f.instrument_serial = t.instrument_serial.clone();
     }
@@ -215,8 +215,12 @@ async fn handle(s: &AppState, c: Context, form: EntryForm, actor: Actor) -> Page
         );
     }
     let saved = match &c.retest_of {
-        Some(t) => ledger::field::record_retest(&s.db, t.id, &input, &actor).await,
-        None => ledger::field::record_test(&s.db, c.lot.id, &input, &actor).await,
+        Some(t) => s.ledger.record_retest(t.id, &input, &actor).await,
+        None => s
+            .ledger
+            .record_test(c.lot.id, &input, &actor)
+            .await
+            .map(|(t, _)| t),
     };
     match saved {
         Ok(t) => Ok(see_other(&format!("/lots/{}#test-{}", c.lot.id, t.number))),
@@ -285,7 +289,7 @@ async fn live_preview(
     let lot = ledger::field::require_lot(&s.db, id).await?;
     let p = ledger::setup::require_project(&s.db, lot.project_id).await?;
     let u = Units::of(&p);
-    let rules = ledger::field::LotContext::load(&s.db, &lot).await?.rules;
+    let rules = s.ledger.lot_context(&lot).await?.rules;
     let instruments = ledger::instruments::check::lot_instruments(&s.db, &lot).await?;
     // The phone's answer, computed by the same pure function the WebAssembly build runs.
     let today = crate::clock::date_of(&crate::clock::now());

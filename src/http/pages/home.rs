@@ -9,6 +9,7 @@ use super::{PageResult, ProjectNav, render};
 use crate::app::AppState;
 use crate::auth::{Action, allows};
 use crate::db;
+use crate::domain::{DisplayState, LotState};
 use crate::http::caller::{Caller, Scope, require};
 use crate::ledger::{overview, setup};
 use crate::present::{self, Units};
@@ -135,21 +136,21 @@ async fn project_home(
     let may_setup = caller.is_admin()
         || role.is_some_and(|r| allows(r, Action::ManageSetup) || allows(r, Action::ManageTokens));
     let u = Units::of(&p);
-    let reports = overview::summaries(&s.db, &s.views, id).await?;
-    let drift = crate::ledger::watch::drift_notes_cached(&s.db, &s.drift, id).await?;
+    let reports = overview::summaries(&s.db, s.ledger.views(), id).await?;
+    let drift = crate::ledger::watch::drift_notes_cached(&s.db, s.ledger.drift(), id).await?;
     let states = [
-        "open",
-        "owed_tests",
-        "failing",
-        "submitted",
-        "rejected",
-        "accepted",
-        "certified",
+        DisplayState::Open,
+        DisplayState::OwedTests,
+        DisplayState::Failing,
+        DisplayState::Submitted,
+        DisplayState::Rejected,
+        DisplayState::Accepted,
+        DisplayState::Certified,
     ]
     .iter()
     .map(|code| StateCount {
         code: code.to_string(),
-        label: present::state_label(code).to_string(),
+        label: code.label().to_string(),
         count: reports.iter().filter(|r| r.display_state == *code).count(),
     })
     .collect();
@@ -164,10 +165,7 @@ async fn project_home(
     };
     let failing = reports
         .iter()
-        .filter(|r| {
-            !r.failing_without_retest.is_empty()
-                && (r.lot.state == "open" || r.lot.state == "rejected")
-        })
+        .filter(|r| !r.failing_without_retest.is_empty() && r.lot.state.takes_tests())
         .map(|r| LotLink {
             id: r.lot.id,
             code: r.lot.code.clone(),
@@ -177,7 +175,7 @@ async fn project_home(
         .collect();
     let owed = reports
         .iter()
-        .filter(|r| r.tests_owed > 0 && (r.lot.state == "open" || r.lot.state == "rejected"))
+        .filter(|r| r.tests_owed > 0 && r.lot.state.takes_tests())
         .map(|r| LotLink {
             id: r.lot.id,
             code: r.lot.code.clone(),
@@ -187,7 +185,7 @@ async fn project_home(
         .collect();
     let mut queue: Vec<_> = reports
         .iter()
-        .filter(|r| r.lot.state == "submitted")
+        .filter(|r| r.lot.state == LotState::Submitted)
         .collect();
     queue.sort_by(|a, b| a.lot.state_changed_at.cmp(&b.lot.state_changed_at));
     let queue = queue

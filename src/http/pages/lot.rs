@@ -1,5 +1,6 @@
 //! The lot sheet, and the form actions a lot allows (submit, accept, reject, void).
 
+use crate::domain::{LotState, Standing};
 use askama::Template;
 use axum::Router;
 use axum::extract::{Path, State};
@@ -50,14 +51,14 @@ pub struct Row {
 
 /// Formats a lot's tests as sheet rows.
 pub fn rows(r: &LotReport, u: &Units, may_retest: bool, may_void: bool) -> Vec<Row> {
-    let takes_changes = r.lot.state != "submitted";
+    let takes_changes = r.lot.state != LotState::Submitted;
     r.tests
         .iter()
         .map(|t| {
             let result = t.result();
             let mut notes = Vec::new();
             notes.extend(t.cautions());
-            if t.standing == "earlier_sample" {
+            if t.standing == Standing::EarlierSample {
                 notes.push("earlier sample: on record, out of the statistics".to_string());
             }
             if let Some(n) = &t.retest_of_number {
@@ -72,7 +73,7 @@ pub fn rows(r: &LotReport, u: &Units, may_retest: bool, may_void: bool) -> Vec<R
             if let Some(b) = &t.superseded_by {
                 notes.push(format!("superseded by {b}"));
             }
-            if t.standing == "counted" && !t.passed {
+            if t.standing.counted() && !t.passed {
                 notes.extend(t.reasons.iter().cloned());
             }
             if let Some(c) = t.test.coarse_pct.filter(|c| *c > 0.0) {
@@ -91,14 +92,14 @@ pub fn rows(r: &LotReport, u: &Units, may_retest: bool, may_void: bool) -> Vec<R
                 date: crate::clock::display(&t.test.tested_at),
                 chainage: u.chainage(t.test.chainage_m),
                 offset: u.offset(t.test.offset_m),
-                method: t.test.method.replace('_', " "),
+                method: t.test.method.words(),
                 wet: u.density(t.test.wet_density_kg_m3),
                 water: format!("{:.1}", t.test.water_content_pct),
                 dry: u.density(t.test.dry_density_kg_m3),
                 rc: present::pct(t.relative_compaction_pct),
                 dev: present::signed(t.moisture_deviation_pct),
                 result: result.to_string(),
-                struck: t.standing != "counted",
+                struck: !t.standing.counted(),
                 note: notes.join("; "),
                 can_retest: may_retest
                     && takes_changes
@@ -118,9 +119,9 @@ pub fn chart(r: &LotReport) -> String {
         .iter()
         .filter_map(|t| {
             let rc = t.relative_compaction_pct?;
-            let status = match t.standing.as_str() {
-                "voided" => RcStatus::Voided,
-                "superseded" => RcStatus::Superseded,
+            let status = match t.standing {
+                Standing::Voided => RcStatus::Voided,
+                Standing::Superseded => RcStatus::Superseded,
                 _ if t.passed => RcStatus::Pass,
                 _ => RcStatus::Fail,
             };
@@ -271,8 +272,8 @@ async fn sheet_with(
         },
         id,
         code: r.lot.code.clone(),
-        state: super::map::map_state(&r.display_state).code().to_string(),
-        state_label: present::state_label(&r.display_state).to_string(),
+        state: r.display_state.token().to_string(),
+        state_label: r.display_state.label().to_string(),
         zone: r.lot.zone_name.clone(),
         layer: r.lot.layer_number,
         from: u.chainage(r.lot.chainage_from_m),
@@ -316,15 +317,19 @@ async fn sheet_with(
         owed: r.tests_owed,
         blockers: r.submit_blockers.clone(),
         chart: chart(&r),
-        can_add: may(Action::EnterTests) && (r.lot.state == "open" || r.lot.state == "rejected"),
+        can_add: may(Action::EnterTests) && r.lot.state.takes_tests(),
         can_submit: may(Action::SubmitLot)
-            && (r.lot.state == "open" || r.lot.state == "rejected")
+            && r.lot.state.may_become(LotState::Submitted)
             && r.submit_blockers.is_empty(),
-        show_blockers: r.lot.state == "open" || r.lot.state == "rejected",
-        can_review: may(Action::ReviewLot) && r.lot.state == "submitted",
-        can_reissue: may(Action::ReviewLot) && r.lot.state == "accepted" && !r.certificate_current,
+        show_blockers: r.lot.state.may_become(LotState::Submitted),
+        can_review: may(Action::ReviewLot) && r.lot.state == LotState::Submitted,
+        can_reissue: may(Action::ReviewLot)
+            && r.lot.state == LotState::Accepted
+            && !r.certificate_current,
         role: role.map_or("no project role".to_string(), |r| r.label().to_string()),
-        cert_stale: r.lot.state == "accepted" && r.certificate.is_some() && !r.certificate_current,
+        cert_stale: r.lot.state == LotState::Accepted
+            && r.certificate.is_some()
+            && !r.certificate_current,
         certs,
         history,
         message,

@@ -15,7 +15,7 @@ use crate::error::AppError;
 use crate::http::caller::{Caller, Scope, require};
 use crate::http::extract::ApiQuery;
 use crate::ledger::{overview, setup};
-use crate::present::{self, Units};
+use crate::present::Units;
 use crate::reduction::Chainage;
 
 /// Routes of this module.
@@ -28,19 +28,6 @@ pub fn router() -> Router<AppState> {
 struct MapQuery {
     from: Option<String>,
     to: Option<String>,
-}
-
-/// The map's state for a judged lot.
-pub fn map_state(display_state: &str) -> MapState {
-    match display_state {
-        "owed_tests" => MapState::OwedTests,
-        "failing" => MapState::Failing,
-        "submitted" => MapState::Submitted,
-        "accepted" => MapState::Accepted,
-        "rejected" => MapState::Rejected,
-        "certified" => MapState::Certified,
-        _ => MapState::Open,
-    }
 }
 
 /// A row of the lot table under the map.
@@ -104,7 +91,7 @@ async fn map(
     };
     let from = parse("from", &q.from)?;
     let to = parse("to", &q.to)?;
-    let reports = overview::summaries(&s.db, &s.views, id).await?;
+    let reports = overview::summaries(&s.db, s.ledger.views(), id).await?;
     let layers = db::layers::list(&s.db, id).await?;
     let extent_from = reports
         .iter()
@@ -144,7 +131,7 @@ async fn map(
             row: row_of(r.lot.layer_id),
             from_m: r.lot.chainage_from_m,
             to_m: r.lot.chainage_to_m,
-            state: map_state(&r.display_state),
+            state: r.display_state,
             title: format!(
                 "{} · {} layer {} · {} to {} · {} · {} tests, {} owed",
                 r.lot.code,
@@ -152,7 +139,7 @@ async fn map(
                 r.lot.layer_number,
                 u.chainage(r.lot.chainage_from_m),
                 u.chainage(r.lot.chainage_to_m),
-                present::state_label(&r.display_state),
+                r.display_state.label(),
                 r.verdict.n,
                 r.tests_owed
             ),
@@ -181,19 +168,16 @@ async fn map(
     let states = MapState::ALL
         .iter()
         .map(|st| StateKey {
-            code: st.code().to_string(),
+            code: st.token().to_string(),
             label: st.label().to_string(),
             mark: st.mark().to_string(),
-            count: visible
-                .iter()
-                .filter(|r| map_state(&r.display_state) == *st)
-                .count(),
+            count: visible.iter().filter(|r| r.display_state == *st).count(),
         })
         .collect();
     let rows = visible
         .iter()
         .map(|r| {
-            let st = map_state(&r.display_state);
+            let st = r.display_state;
             LotRow {
                 id: r.lot.id,
                 code: r.lot.code.clone(),
@@ -201,7 +185,7 @@ async fn map(
                 layer: r.lot.layer_number,
                 from: u.chainage(r.lot.chainage_from_m),
                 to: u.chainage(r.lot.chainage_to_m),
-                state_code: st.code().to_string(),
+                state_code: st.token().to_string(),
                 state: st.label().to_string(),
                 mark: st.mark().to_string(),
                 tests: r.tests_entered,

@@ -9,6 +9,7 @@ use super::{PageError, PageResult, ProjectNav, render};
 use crate::app::AppState;
 use crate::auth::Action;
 use crate::db;
+use crate::domain::LotState;
 use crate::error::AppError;
 use crate::http::caller::{Caller, Scope, require};
 use crate::ledger::{setup, verify};
@@ -46,12 +47,12 @@ async fn queue(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
     let p = setup::require_project(&s.db, id).await?;
     let u = Units::of(&p);
     let mut rows = Vec::new();
-    for l in db::lots::in_state(&s.db, id, "submitted").await? {
+    for l in db::lots::in_state(&s.db, id, LotState::Submitted).await? {
         let by = db::lots::transitions(&s.db, l.id)
             .await?
             .into_iter()
             .rev()
-            .find(|t| t.to_state == "submitted")
+            .find(|t| t.to_state == LotState::Submitted)
             .map(|t| t.actor)
             .unwrap_or_default();
         rows.push(QueueRow {

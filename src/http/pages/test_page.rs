@@ -95,7 +95,7 @@ async fn page(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) ->
         lot_code: report.lot.code.clone(),
         taken: crate::clock::display(&t.tested_at),
         technician: t.technician.clone(),
-        method: t.method.replace('_', " "),
+        method: t.method.words(),
         instrument: t.instrument_serial.clone(),
         chainage: u.chainage(t.chainage_m),
         offset: u.offset(t.offset_m),

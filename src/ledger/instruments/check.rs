@@ -233,7 +233,7 @@ pub fn check_with_instruments(
         r.operator_id = Some(id);
         r.technician = name;
     }
-    r.instrument_check = found.check.code().to_string();
+    r.instrument_check = found.check;
     r.instrument_note = Some(found.note);
     if let Some(o) = &found.offset {
         apply_offset(r, &input.readings, o)?;

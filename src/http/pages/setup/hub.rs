@@ -92,8 +92,7 @@ async fn hub(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> 
         .await?
         .into_iter()
         .map(|(user, name, role)| {
-            let role = crate::auth::Role::parse_code(&role)
-                .map_or(role.clone(), |r| r.label().to_string());
+            let role = role.label();
             (user.clone(), format!("{name} ({user}), {role}"))
         })
         .collect();

@@ -15,7 +15,6 @@ use crate::charts::{LiftMapInput, MapLot, MapRow, MapState, lift_map};
 use crate::db;
 use crate::error::AppError;
 use crate::http::caller::Caller;
-use crate::http::pages::map::map_state;
 use crate::http::pages::{PageError, PageResult, render, see_other};
 use crate::ledger::lot_split::{self, SplitInput};
 use crate::reduction::Chainage;
@@ -101,7 +100,7 @@ async fn plan_html(
             row: 0,
             from_m: l.chainage_from_m,
             to_m: l.chainage_to_m,
-            state: map_state(&l.state),
+            state: l.state.into(),
             title: format!("{} (exists)", l.code),
             href: format!("/lots/{}", l.id),
         })

@@ -44,7 +44,7 @@ impl<'a> From<&'a Clause> for Terms<'a> {
             moisture_high_pct: c.moisture_high_pct,
             max_air_voids_pct: c.max_air_voids_pct,
             effort: &c.effort,
-            rule: &c.rule,
+            rule: c.rule.code(),
             allowance_pct: c.allowance_pct,
             min_pwl_pct: c.min_pwl_pct,
             area_per_test_m2: c.area_per_test_m2,

@@ -81,7 +81,7 @@ async fn page(
         .map(|t| TokenRow {
             id: t.id,
             name: t.name,
-            role: Role::parse_code(&t.role).map_or(t.role.clone(), |r| r.label().to_string()),
+            role: t.role.label().to_string(),
             created: format!("{} by {}", t.created_at, t.created_by),
             last_used: t.last_used_at.unwrap_or_else(|| "never".into()),
             revoked: t.revoked_at.unwrap_or_default(),
