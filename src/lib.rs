@@ -18,6 +18,7 @@ pub mod ledger;
 pub mod metrics;
 pub mod pdf;
 pub mod present;
+pub mod readings;
 pub mod reduction;
 pub mod scale;
 pub mod site_form;
