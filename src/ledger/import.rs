@@ -866,6 +866,74 @@ fn read_chunk(source: &mut dyn RowSource) -> Vec<RowResult> {
     chunk
 }
 
+/// Checks every row of the source chunk by chunk and, on a commit, inserts what passed.
+///
+/// A pipeline: while the write connection inserts chunk k, chunk k + 1 is checked and
+/// chunk k + 2 looked up on a second connection (`reader`), which sees the store as it
+/// was before this import (the import's writes are not committed, and no one else can
+/// commit). A project without tests (`empty`, a first import) has nothing to look up.
+async fn check_and_insert(
+    run: &mut Run<'_>,
+    source: &mut dyn RowSource,
+    tx: &mut crate::db::Conn,
+    reader: &mut crate::db::Conn,
+    empty: bool,
+) -> Result<()> {
+    let (project_id, commit) = (run.project_id, run.opts.commit);
+    let mut chunk = read_chunk(source);
+    let mut stored = look_up(reader, project_id, &chunk, &run.seen, empty).await?;
+    while !chunk.is_empty() {
+        let tests = std::mem::take(&mut run.pending);
+        let audits = std::mem::take(&mut run.pending_audit);
+        let checking = async {
+            for (i, r) in chunk.drain(..).enumerate() {
+                run.report.rows += 1;
+                match r {
+                    Ok(row) => run.process(row, &stored)?,
+                    Err(problems) => run.refuse("", problems),
+                }
+                if i % YIELD_ROWS == YIELD_ROWS - 1 {
+                    // Lets the insert beside it send its next statement.
+                    tokio::task::yield_now().await;
+                }
+            }
+            let next = read_chunk(source);
+            let next_stored = look_up(reader, project_id, &next, &run.seen, empty).await?;
+            Ok::<_, AppError>((next, next_stored))
+        };
+        let (inserted, next) = if commit && !tests.is_empty() {
+            tokio::join!(insert_queued(tx, tests, audits), checking)
+        } else {
+            (Ok(()), checking.await)
+        };
+        inserted?;
+        (chunk, stored) = next?;
+    }
+    if commit && run.report.rows_with_problems == 0 {
+        let tests = std::mem::take(&mut run.pending);
+        let audits = std::mem::take(&mut run.pending_audit);
+        insert_queued(tx, tests, audits).await?;
+    }
+    Ok(())
+}
+
+/// What the import's one audit row records: the file, what it created and skipped.
+fn import_audit(report: &ImportReport) -> serde_json::Value {
+    json!({
+        "file_name": report.origin.file_name,
+        "bytes": report.origin.bytes,
+        "sha256": report.origin.sha256,
+        "rows": report.rows,
+        "created": report.new_tests,
+        "retests": report.new_retests,
+        "created_ids": report.created_ids.map(|(a, b)| json!({"first": a, "last": b})),
+        "per_lot": report.new_per_lot,
+        "skipped_identical": report.skipped_identical,
+        "skipped_repeated": report.skipped_repeated,
+        "audit": report.audit,
+    })
+}
+
 /// Checks (dry run) or imports (commit) every row of a source into a project.
 ///
 /// A dry run writes nothing. A commit writes all rows or none, in one write transaction
@@ -921,46 +989,9 @@ pub async fn import_field_tests(
         },
     };
     let first_id = run.next_id;
-    // A pipeline: while the write connection inserts chunk k, chunk k + 1 is checked and
-    // chunk k + 2 looked up on a second connection, which sees the store as it was before
-    // this import (the import's writes are not committed, and no one else can commit).
     let mut reader = pool.acquire().await?;
-    // A project without tests (a first import) has nothing to look up.
     let empty = bulk::test_id_range(pool, project_id).await?.is_none();
-    let mut chunk = read_chunk(source);
-    let mut stored = look_up(&mut reader, project_id, &chunk, &run.seen, empty).await?;
-    while !chunk.is_empty() {
-        let tests = std::mem::take(&mut run.pending);
-        let audits = std::mem::take(&mut run.pending_audit);
-        let checking = async {
-            for (i, r) in chunk.drain(..).enumerate() {
-                run.report.rows += 1;
-                match r {
-                    Ok(row) => run.process(row, &stored)?,
-                    Err(problems) => run.refuse("", problems),
-                }
-                if i % YIELD_ROWS == YIELD_ROWS - 1 {
-                    // Lets the insert beside it send its next statement.
-                    tokio::task::yield_now().await;
-                }
-            }
-            let next = read_chunk(source);
-            let next_stored = look_up(&mut reader, project_id, &next, &run.seen, empty).await?;
-            Ok::<_, AppError>((next, next_stored))
-        };
-        let (inserted, next) = if opts.commit && !tests.is_empty() {
-            tokio::join!(insert_queued(&mut tx, tests, audits), checking)
-        } else {
-            (Ok(()), checking.await)
-        };
-        inserted?;
-        (chunk, stored) = next?;
-    }
-    if opts.commit && run.report.rows_with_problems == 0 {
-        let tests = std::mem::take(&mut run.pending);
-        let audits = std::mem::take(&mut run.pending_audit);
-        insert_queued(&mut tx, tests, audits).await?;
-    }
+    check_and_insert(&mut run, source, &mut tx, &mut reader, empty).await?;
     run.report.origin = source.origin();
     let mut report = run.report;
     if !opts.commit || report.refused() {
@@ -988,19 +1019,7 @@ pub async fn import_field_tests(
             entity_id: report.created_ids.map(|(a, _)| a),
             project_id: Some(project_id),
             before: None,
-            after: Some(json!({
-                "file_name": report.origin.file_name,
-                "bytes": report.origin.bytes,
-                "sha256": report.origin.sha256,
-                "rows": report.rows,
-                "created": report.new_tests,
-                "retests": report.new_retests,
-                "created_ids": report.created_ids.map(|(a, b)| json!({"first": a, "last": b})),
-                "per_lot": report.new_per_lot,
-                "skipped_identical": report.skipped_identical,
-                "skipped_repeated": report.skipped_repeated,
-                "audit": report.audit,
-            })),
+            after: Some(import_audit(&report)),
             origin: &opts.actor.origin,
         },
         &clock::now(),
