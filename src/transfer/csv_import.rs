@@ -536,6 +536,66 @@ fn build_input(
     Some((input, r.text(Target::Lot), r.text(Target::RetestOf)))
 }
 
+/// One lab point from its row's cells (`at`: field, column position, column name), and
+/// the cells as written, to name them in a later refusal.
+fn read_point(
+    rec: &csv::ByteRecord,
+    at: &[(LabTarget, usize, String)],
+    units: UnitSystem,
+    line: u64,
+) -> (
+    std::result::Result<LabPointInput, Vec<RowProblem>>,
+    HashMap<LabTarget, String>,
+) {
+    let mut problems = Vec::new();
+    let mut values: HashMap<LabTarget, f64> = HashMap::new();
+    let mut texts = HashMap::new();
+    for (t, i, name) in at {
+        let raw = String::from_utf8_lossy(rec.get(*i).unwrap_or(b""))
+            .trim()
+            .to_string();
+        if raw.is_empty() {
+            continue;
+        }
+        match parse_number(&raw) {
+            Some(x) if *t == LabTarget::DryDensity && units == UnitSystem::Us => {
+                match Density::from_lb_ft3(x) {
+                    Ok(d) => {
+                        values.insert(*t, d.kg_m3());
+                    }
+                    Err(e) => problems.push(RowProblem::new(line, name, &raw, e.to_string())),
+                }
+            }
+            Some(x) => {
+                values.insert(*t, x);
+            }
+            None => problems.push(RowProblem::new(
+                line,
+                name,
+                &raw,
+                format!("'{raw}' is not a number"),
+            )),
+        }
+        texts.insert(*t, raw);
+    }
+    if !problems.is_empty() {
+        return (Err(problems), texts);
+    }
+    let v = |t| values.get(&t).copied();
+    let point = LabPointInput {
+        water_content_pct: v(LabTarget::WaterContentPct),
+        dry_density_kg_m3: v(LabTarget::DryDensity),
+        mass_mold_and_soil_g: v(LabTarget::MassMoldAndSoilG),
+        mass_mold_g: v(LabTarget::MassMoldG),
+        mold_volume_cm3: v(LabTarget::MoldVolumeCm3),
+        mass_wet_g: v(LabTarget::MassWetG),
+        mass_dry_g: v(LabTarget::MassDryG),
+        mass_tare_g: v(LabTarget::MassTareG),
+        mould: None,
+    };
+    (Ok(point), texts)
+}
+
 /// Lab compaction points read from a CSV file (one specimen a row; small files).
 pub struct CsvLabPoints {
     /// Each row's line and point, or its problems.
@@ -629,60 +689,9 @@ impl CsvLabPoints {
                 break;
             }
             let line = rec.position().map_or(0, |p| p.line());
-            let mut problems = Vec::new();
-            let mut values: HashMap<LabTarget, f64> = HashMap::new();
-            let mut texts = HashMap::new();
-            for (t, i, name) in &at {
-                let raw = String::from_utf8_lossy(rec.get(*i).unwrap_or(b""))
-                    .trim()
-                    .to_string();
-                if raw.is_empty() {
-                    continue;
-                }
-                match parse_number(&raw) {
-                    Some(x) => {
-                        let x = if *t == LabTarget::DryDensity && mapping.units == UnitSystem::Us {
-                            match Density::from_lb_ft3(x) {
-                                Ok(d) => d.kg_m3(),
-                                Err(e) => {
-                                    problems.push(RowProblem::new(line, name, &raw, e.to_string()));
-                                    continue;
-                                }
-                            }
-                        } else {
-                            x
-                        };
-                        values.insert(*t, x);
-                    }
-                    None => problems.push(RowProblem::new(
-                        line,
-                        name,
-                        &raw,
-                        format!("'{raw}' is not a number"),
-                    )),
-                }
-                texts.insert(*t, raw);
-            }
+            let (point, texts) = read_point(&rec, &at, mapping.units, line);
             out.cells.insert(line, texts);
-            if !problems.is_empty() {
-                out.rows.push(Err(problems));
-                continue;
-            }
-            let v = |t| values.get(&t).copied();
-            out.rows.push(Ok((
-                line,
-                LabPointInput {
-                    water_content_pct: v(LabTarget::WaterContentPct),
-                    dry_density_kg_m3: v(LabTarget::DryDensity),
-                    mass_mold_and_soil_g: v(LabTarget::MassMoldAndSoilG),
-                    mass_mold_g: v(LabTarget::MassMoldG),
-                    mold_volume_cm3: v(LabTarget::MoldVolumeCm3),
-                    mass_wet_g: v(LabTarget::MassWetG),
-                    mass_dry_g: v(LabTarget::MassDryG),
-                    mass_tare_g: v(LabTarget::MassTareG),
-                    mould: None,
-                },
-            )));
+            out.rows.push(point.map(|p| (line, p)));
         }
         let h = reader.get_ref().get_ref();
         out.origin.bytes = h.bytes();
