@@ -524,7 +524,11 @@ fn draw_separate(
     }
     w.close();
 
-    // Text marks on lots wide enough to hold them; clicks pass through to the lot below.
+    draw_marks(w, lots, row_top, row_h);
+}
+
+/// Text marks on lots wide enough to hold them; clicks pass through to the lot below.
+fn draw_marks(w: &mut SvgWriter, lots: &[Placed<'_>], row_top: &[f64], row_h: f64) {
     let size = (row_h * 0.62).min(10.5);
     if size < 6.0 {
         return;
