@@ -566,6 +566,23 @@ fn verdict_of(
     }
 }
 
+/// The lot's fingerprint with its one-point references, where it has any.
+fn fingerprint_with(
+    lot: &db::lots::Lot,
+    clause: &db::clauses::Clause,
+    lab_test: &db::lab_tests::LabTest,
+    tests: &[db::field_tests::FieldTest],
+    extras: &super::planning::LotExtras,
+) -> String {
+    let fingerprint = fingerprint(lot, clause, lab_test, tests);
+    match extras.fingerprint_part() {
+        // Only a lot with one-point references changes its fingerprint, so older
+        // certificates stay current.
+        Some(extra) => format!("{:x}", Sha256::digest(format!("{fingerprint}|{extra}"))),
+        None => fingerprint,
+    }
+}
+
 /// Judges a lot from already-loaded rows (also used for bulk views). `extras` holds the
 /// one-point references of its tests (where the clause allows) and its current plan.
 #[allow(clippy::too_many_arguments)]
@@ -622,11 +639,7 @@ pub fn assemble(
     };
     let submit_blockers = submit_blockers(&standing, &lv, &lines, &clause, &lab_test);
 
-    let mut fingerprint = fingerprint(&lot, &clause, &lab_test, &tests);
-    if let Some(extra) = extras.fingerprint_part() {
-        // Only a lot with one-point references changes its fingerprint, so older certificates stay current.
-        fingerprint = format!("{:x}", Sha256::digest(format!("{fingerprint}|{extra}")));
-    }
+    let fingerprint = fingerprint_with(&lot, &clause, &lab_test, &tests, extras);
     let certificate_current = certificate
         .as_ref()
         .is_some_and(|c| c.withdrawn_at.is_none() && c.record_fingerprint == fingerprint);
