@@ -17,6 +17,7 @@ fn main() {
         "src/reduction",
         "src/present.rs",
         "src/site_form.rs",
+        "src/readings.rs",
         "wasm/src",
         "wasm/Cargo.toml",
         "wasm/Cargo.lock",

@@ -4,7 +4,12 @@
 use std::hint::black_box;
 use std::time::{Duration, Instant};
 
-use liftledger::pdf::{render_certificate, sample_doc};
+use liftledger::pdf::render_certificate;
+
+#[path = "../src/pdf/sample.rs"]
+mod sample;
+
+use sample::sample_doc;
 
 const RUNS: usize = 20;
 

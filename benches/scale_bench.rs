@@ -21,10 +21,14 @@ use anyhow::Context;
 use liftledger::db::{self, Pool};
 use liftledger::ledger::import::{AuditMode, ImportOptions};
 use liftledger::ledger::{Actor, lot_report, overview, setup};
-use liftledger::scale::{ScaleOptions, generate};
 use liftledger::transfer::mapping::{ImportMapping, Target};
 use liftledger::{AppState, Settings};
 use serde_json::json;
+
+#[path = "../src/scale.rs"]
+mod scale;
+
+use scale::{ScaleOptions, generate};
 
 /// Percentiles of a set of timings, milliseconds.
 struct Stats {

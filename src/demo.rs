@@ -50,17 +50,8 @@ fn user_error(e: crate::error::AppError) -> anyhow::Error {
     }
 }
 
-/// Loads the demo project; returns a one-line summary of what was created.
-pub async fn load(pool: &Pool) -> anyhow::Result<String> {
-    let admin = Actor::system("Site Administrator (admin)");
-    let setup_actor = Actor::system("D. Achterberg (achterberg)");
-    let entry_actor = Actor::system("R. Okafor (okafor)");
-    let mut frame: Value =
-        serde_json::from_str(PROJECT).context("reading demo-data/project.json")?;
-    let project = ledger::setup::create_project(pool, &parse(frame["project"].take())?, &admin)
-        .await
-        .map_err(user_error)?;
-    let pid = project.id;
+/// The demo's people, each with their role on the project.
+async fn create_people(pool: &Pool, pid: i64, admin: &Actor) -> anyhow::Result<()> {
     for (username, display, role, password) in ledger::accounts::DEMO_USERS {
         let input = ledger::accounts::UserInput {
             username: username.into(),
@@ -68,26 +59,35 @@ pub async fn load(pool: &Pool) -> anyhow::Result<String> {
             password: password.into(),
             is_admin: role == "admin",
         };
-        ledger::accounts::create_user(pool, &input, true, &admin)
+        ledger::accounts::create_user(pool, &input, true, admin)
             .await
             .map_err(user_error)?;
         if role != "admin" {
-            ledger::accounts::grant(pool, username, pid, role, &admin)
+            ledger::accounts::grant(pool, username, pid, role, admin)
                 .await
                 .map_err(user_error)?;
         }
     }
+    Ok(())
+}
 
+/// Clauses, sources and lab tests of `demo-data/project.json`: (clause ids, lab ids) by code.
+async fn create_materials(
+    pool: &Pool,
+    pid: i64,
+    frame: &mut Value,
+    actor: &Actor,
+) -> anyhow::Result<(HashMap<String, i64>, HashMap<String, i64>)> {
     let mut clauses = HashMap::new();
     for c in frame["clauses"].as_array_mut().into_iter().flatten() {
-        let c = ledger::setup::create_clause(pool, pid, &parse(c.take())?, &setup_actor)
+        let c = ledger::setup::create_clause(pool, pid, &parse(c.take())?, actor)
             .await
             .map_err(user_error)?;
         clauses.insert(c.code.clone(), c.id);
     }
     let mut sources = HashMap::new();
     for s in frame["sources"].as_array_mut().into_iter().flatten() {
-        let s = ledger::setup::create_source(pool, pid, &parse(s.take())?, &setup_actor)
+        let s = ledger::setup::create_source(pool, pid, &parse(s.take())?, actor)
             .await
             .map_err(user_error)?;
         sources.insert(s.code.clone(), s.id);
@@ -98,14 +98,25 @@ pub async fn load(pool: &Pool) -> anyhow::Result<String> {
         let sid = *sources
             .get(&source)
             .ok_or_else(|| anyhow!("unknown source {source}"))?;
-        let lab = ledger::setup::create_lab_test(pool, sid, &parse(t.take())?, &setup_actor)
+        let lab = ledger::setup::create_lab_test(pool, sid, &parse(t.take())?, actor)
             .await
             .map_err(user_error)?;
         labs.insert(lab.code.clone(), lab.id);
     }
+    Ok((clauses, labs))
+}
+
+/// Layers and lots of `demo-data/project.json`: lot ids by code.
+async fn create_lots(
+    pool: &Pool,
+    pid: i64,
+    frame: &mut Value,
+    (clauses, labs): &(HashMap<String, i64>, HashMap<String, i64>),
+    actor: &Actor,
+) -> anyhow::Result<HashMap<String, i64>> {
     let mut layers = HashMap::new();
     for l in frame["layers"].as_array_mut().into_iter().flatten() {
-        let layer = ledger::setup::create_layer(pool, pid, &parse(l.take())?, &setup_actor)
+        let layer = ledger::setup::create_layer(pool, pid, &parse(l.take())?, actor)
             .await
             .map_err(user_error)?;
         layers.insert((layer.zone_name.clone(), layer.number), layer.id);
@@ -122,31 +133,38 @@ pub async fn load(pool: &Pool) -> anyhow::Result<String> {
         obj.insert("layer_id".into(), layers[&(zone.clone(), number)].into());
         obj.insert("clause_id".into(), clauses[&clause].into());
         obj.insert("lab_test_id".into(), labs[&lab].into());
-        let lot = ledger::setup::create_lot(pool, pid, &parse(l.take())?, &setup_actor)
+        let lot = ledger::setup::create_lot(pool, pid, &parse(l.take())?, actor)
             .await
             .map_err(user_error)?;
         lots.insert(lot.code.clone(), lot.id);
     }
+    Ok(lots)
+}
 
+/// The field tests of `demo-data/field-tests.json`, retests after their failures: test
+/// ids by number.
+async fn record_tests(
+    pool: &Pool,
+    lots: &HashMap<String, i64>,
+    actor: &Actor,
+) -> anyhow::Result<HashMap<String, i64>> {
     let mut tests: Vec<Value> =
         serde_json::from_str(FIELD_TESTS).context("reading demo-data/field-tests.json")?;
     let mut numbers = HashMap::new();
+    let ledger = ledger::Ledger::new(pool.clone());
     for t in &mut tests {
         let lot = take_str(t, "lot")?;
         let retest_of = t.as_object_mut().and_then(|o| o.remove("retest_of"));
         let input: ledger::field::FieldTestInput = parse(t.take())?;
-        let actor = entry_actor.clone();
         let stored = match retest_of.as_ref().and_then(Value::as_str) {
             Some(failed) => {
                 let failed_id = *numbers
                     .get(failed)
                     .ok_or_else(|| anyhow!("retest of unknown {failed}"))?;
-                ledger::Ledger::new(pool.clone())
-                    .record_retest(failed_id, &input, &actor)
-                    .await
+                ledger.record_retest(failed_id, &input, actor).await
             }
-            None => ledger::Ledger::new(pool.clone())
-                .record_test(lots[&lot], &input, &actor)
+            None => ledger
+                .record_test(lots[&lot], &input, actor)
                 .await
                 .map(|(t, _)| t),
         }
@@ -154,46 +172,73 @@ pub async fn load(pool: &Pool) -> anyhow::Result<String> {
         .with_context(|| format!("demo test {:?} on lot {lot}", input.number))?;
         numbers.insert(stored.number.clone(), stored.id);
     }
+    Ok(numbers)
+}
 
+/// One action of `demo-data/actions.json`: a void, or a lot submitted, accepted,
+/// rejected or reopened.
+async fn act(
+    pool: &Pool,
+    a: &Value,
+    lots: &HashMap<String, i64>,
+    numbers: &HashMap<String, i64>,
+) -> anyhow::Result<()> {
+    let comment = a["comment"].as_str().unwrap_or("");
+    let actor = Actor::system(a["by"].as_str().unwrap_or("demo"));
+    let what = a["action"].as_str().unwrap_or("");
+    let result = if what == "void" {
+        let num = a["test"].as_str().unwrap_or("");
+        let id = *numbers
+            .get(num)
+            .ok_or_else(|| anyhow!("void of unknown test {num}"))?;
+        ledger::field::void_test(pool, id, comment, &actor)
+            .await
+            .map(|_| ())
+    } else {
+        let code = a["lot"].as_str().unwrap_or("");
+        let id = *lots
+            .get(code)
+            .ok_or_else(|| anyhow!("action on unknown lot {code}"))?;
+        match what {
+            "submit" => ledger::review::submit(pool, id, comment, &actor)
+                .await
+                .map(|_| ()),
+            "accept" => ledger::review::accept(pool, id, comment, &actor)
+                .await
+                .map(|_| ()),
+            "reject" => ledger::review::reject(pool, id, comment, &actor)
+                .await
+                .map(|_| ()),
+            "reopen" => ledger::reopen::reopen(pool, id, comment, &actor)
+                .await
+                .map(|_| ()),
+            other => return Err(anyhow!("unknown demo action {other}")),
+        }
+    };
+    result
+        .map_err(user_error)
+        .with_context(|| format!("demo action {a}"))
+}
+
+/// Loads the demo project; returns a one-line summary of what was created.
+pub async fn load(pool: &Pool) -> anyhow::Result<String> {
+    let admin = Actor::system("Site Administrator (admin)");
+    let setup_actor = Actor::system("D. Achterberg (achterberg)");
+    let entry_actor = Actor::system("R. Okafor (okafor)");
+    let mut frame: Value =
+        serde_json::from_str(PROJECT).context("reading demo-data/project.json")?;
+    let project = ledger::setup::create_project(pool, &parse(frame["project"].take())?, &admin)
+        .await
+        .map_err(user_error)?;
+    let pid = project.id;
+    create_people(pool, pid, &admin).await?;
+    let materials = create_materials(pool, pid, &mut frame, &setup_actor).await?;
+    let lots = create_lots(pool, pid, &mut frame, &materials, &setup_actor).await?;
+    let numbers = record_tests(pool, &lots, &entry_actor).await?;
     let actions: Vec<Value> =
         serde_json::from_str(ACTIONS).context("reading demo-data/actions.json")?;
     for a in &actions {
-        let by = a["by"].as_str().unwrap_or("demo");
-        let comment = a["comment"].as_str().unwrap_or("");
-        let actor = Actor::system(by);
-        let what = a["action"].as_str().unwrap_or("");
-        let result = if what == "void" {
-            let num = a["test"].as_str().unwrap_or("");
-            let id = *numbers
-                .get(num)
-                .ok_or_else(|| anyhow!("void of unknown test {num}"))?;
-            ledger::field::void_test(pool, id, comment, &actor)
-                .await
-                .map(|_| ())
-        } else {
-            let code = a["lot"].as_str().unwrap_or("");
-            let id = *lots
-                .get(code)
-                .ok_or_else(|| anyhow!("action on unknown lot {code}"))?;
-            match what {
-                "submit" => ledger::review::submit(pool, id, comment, &actor)
-                    .await
-                    .map(|_| ()),
-                "accept" => ledger::review::accept(pool, id, comment, &actor)
-                    .await
-                    .map(|_| ()),
-                "reject" => ledger::review::reject(pool, id, comment, &actor)
-                    .await
-                    .map(|_| ()),
-                "reopen" => ledger::reopen::reopen(pool, id, comment, &actor)
-                    .await
-                    .map(|_| ()),
-                other => return Err(anyhow!("unknown demo action {other}")),
-            }
-        };
-        result
-            .map_err(user_error)
-            .with_context(|| format!("demo action {a}"))?;
+        act(pool, a, &lots, &numbers).await?;
     }
     planning::load(pool, pid, &setup_actor, &entry_actor).await?;
     instruments::load(pool, pid)

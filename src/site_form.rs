@@ -9,10 +9,11 @@ use serde::Deserialize;
 use serde_json::json;
 
 use crate::present::Units;
+use crate::readings::{DensityUnits, ReadingField, parse_number, parse_readings};
 use crate::reduction::field::FieldReadings;
 use crate::reduction::instruments::InstrumentCheck;
 use crate::reduction::site::{FieldTestInput, LotInstruments, LotRules};
-use crate::reduction::{Chainage, Density, UnitSystem};
+use crate::reduction::{Chainage, UnitSystem};
 
 /// The form exactly as typed; every value is text until parsed.
 #[derive(Debug, Default, Clone, Deserialize)]
@@ -48,51 +49,82 @@ pub struct EntryForm {
 pub type Errors = BTreeMap<String, String>;
 
 fn num(errors: &mut Errors, field: &str, v: &str, required: bool) -> Option<f64> {
-    let v = v.trim().replace(',', ".");
+    let v = v.trim();
     if v.is_empty() {
         if required {
             errors.insert(field.into(), "is required".into());
         }
         return None;
     }
-    match v.parse::<f64>() {
-        Ok(x) if x.is_finite() => Some(x),
-        _ => {
-            errors.insert(field.into(), format!("'{v}' is not a number"));
+    let x = parse_number(v);
+    if x.is_none() {
+        errors.insert(field.into(), format!("'{v}' is not a number"));
+    }
+    x
+}
+
+/// The form input that holds a reading.
+fn typed(f: &EntryForm, field: ReadingField) -> &str {
+    match field {
+        ReadingField::Method => &f.method,
+        ReadingField::WetDensity => &f.wet_density,
+        ReadingField::MoistureDensity => &f.moisture_density,
+        ReadingField::GaugeWaterContent => &f.gauge_water_content_pct,
+        ReadingField::OvenWaterContent => &f.oven_water_content_pct,
+        ReadingField::MassSandUsed => &f.mass_sand_used_g,
+        ReadingField::MassSandInCone => &f.mass_sand_in_cone_g,
+        ReadingField::SandDensity => &f.sand_density_kg_m3,
+        ReadingField::HoleVolume => &f.hole_volume_cm3,
+        ReadingField::CylinderVolume => &f.cylinder_volume_cm3,
+        ReadingField::MassWetSoil => &f.mass_wet_soil_g,
+        ReadingField::WaterContent => &f.water_content_pct,
+    }
+}
+
+/// The readings through the one parser (`crate::readings`), each problem put beside
+/// the input it came from, named as a refusal of the ledger would be.
+fn readings(
+    f: &EntryForm,
+    u: &Units,
+    depth: Option<f64>,
+    errors: &mut Errors,
+) -> Option<FieldReadings> {
+    let units = DensityUnits {
+        bulk: u.system,
+        // The form asks for the sand density in kg/m³ whatever the project's units.
+        sand: UnitSystem::Si,
+    };
+    match parse_readings(&f.method, units, depth, |field| Some(typed(f, field))) {
+        Ok(r) => Some(r),
+        Err(problems) => {
+            for p in problems {
+                errors
+                    .entry(form_field(p.field.api_field(), &f.method))
+                    .or_insert(p.reason);
+            }
             None
         }
     }
 }
 
-/// Converts a density typed in the project's unit to kg/m³.
-fn density_in(errors: &mut Errors, u: &Units, field: &str, v: &str, required: bool) -> Option<f64> {
-    let x = num(errors, field, v, required)?;
-    match u.system {
-        UnitSystem::Si => Some(x),
-        UnitSystem::Us => match Density::from_lb_ft3(x) {
-            Ok(d) => Some(d.kg_m3()),
-            Err(e) => {
-                errors.insert(field.into(), e.to_string());
-                None
-            }
-        },
+/// The chainage in metres (none on a retest left empty: the failed test's spot is used).
+fn chainage(f: &EntryForm, u: &Units, retest: bool, errors: &mut Errors) -> Option<f64> {
+    if retest && f.chainage.trim().is_empty() {
+        return None;
+    }
+    match Chainage::parse(f.chainage.trim(), u.chainage) {
+        Ok(c) => Some(c.metres()),
+        Err(err) => {
+            errors.insert("chainage".into(), err.to_string());
+            None
+        }
     }
 }
 
 /// Parses the form into the ledger's input, collecting every field's problem at once.
 pub fn parse_entry(f: &EntryForm, u: &Units, retest: bool) -> Result<FieldTestInput, Errors> {
     let mut e = Errors::new();
-    let chainage = if retest && f.chainage.trim().is_empty() {
-        None
-    } else {
-        match Chainage::parse(f.chainage.trim(), u.chainage) {
-            Ok(c) => Some(c.metres()),
-            Err(err) => {
-                e.insert("chainage".into(), err.to_string());
-                None
-            }
-        }
-    };
+    let chainage = chainage(f, u, retest, &mut e);
     let offset = num(&mut e, "offset_m", &f.offset_m, !retest);
     let depth = num(&mut e, "depth_mm", &f.depth_mm, false);
     let coarse = num(&mut e, "coarse_pct", &f.coarse_pct, false);
@@ -102,89 +134,7 @@ pub fn parse_entry(f: &EntryForm, u: &Units, retest: bool) -> Result<FieldTestIn
         &f.coarse_water_content_pct,
         false,
     );
-    let readings = match f.method.as_str() {
-        "nuclear" => {
-            let wet = density_in(&mut e, u, "wet_density", &f.wet_density, true);
-            let md = density_in(&mut e, u, "moisture_density", &f.moisture_density, false);
-            let gw = num(
-                &mut e,
-                "gauge_water_content_pct",
-                &f.gauge_water_content_pct,
-                false,
-            );
-            let oven = num(
-                &mut e,
-                "oven_water_content_pct",
-                &f.oven_water_content_pct,
-                false,
-            );
-            if md.is_none()
-                && gw.is_none()
-                && !e.contains_key("moisture_density")
-                && !e.contains_key("gauge_water_content_pct")
-            {
-                e.insert(
-                    "moisture_density".into(),
-                    "give the gauge's moisture density or its water content".into(),
-                );
-            }
-            wet.map(|wet| FieldReadings::Nuclear {
-                wet_density_kg_m3: wet,
-                moisture_density_kg_m3: md,
-                water_content_pct: gw,
-                oven_water_content_pct: oven,
-                gauge_serial: None,
-                probe_depth_mm: depth,
-            })
-        }
-        "sand_cone" => {
-            let used = num(&mut e, "mass_sand_used_g", &f.mass_sand_used_g, true);
-            let cone = num(&mut e, "mass_sand_in_cone_g", &f.mass_sand_in_cone_g, true);
-            let rho = num(&mut e, "sand_density_kg_m3", &f.sand_density_kg_m3, true);
-            let soil = num(&mut e, "mass_wet_soil_g", &f.mass_wet_soil_g, true);
-            let w = num(&mut e, "water_content_pct", &f.water_content_pct, true);
-            match (used, cone, rho, soil, w) {
-                (Some(a), Some(b), Some(c), Some(d), Some(w)) => Some(FieldReadings::SandCone {
-                    mass_sand_used_g: a,
-                    mass_sand_in_cone_g: b,
-                    sand_density_kg_m3: c,
-                    mass_wet_soil_g: d,
-                    water_content_pct: w,
-                }),
-                _ => None,
-            }
-        }
-        "balloon" => {
-            let v = num(&mut e, "hole_volume_cm3", &f.hole_volume_cm3, true);
-            let soil = num(&mut e, "mass_wet_soil_g", &f.mass_wet_soil_g, true);
-            let w = num(&mut e, "water_content_pct", &f.water_content_pct, true);
-            match (v, soil, w) {
-                (Some(v), Some(s), Some(w)) => Some(FieldReadings::Balloon {
-                    hole_volume_cm3: v,
-                    mass_wet_soil_g: s,
-                    water_content_pct: w,
-                }),
-                _ => None,
-            }
-        }
-        "drive_cylinder" => {
-            let v = num(&mut e, "cylinder_volume_cm3", &f.cylinder_volume_cm3, true);
-            let soil = num(&mut e, "mass_wet_soil_g", &f.mass_wet_soil_g, true);
-            let w = num(&mut e, "water_content_pct", &f.water_content_pct, true);
-            match (v, soil, w) {
-                (Some(v), Some(s), Some(w)) => Some(FieldReadings::DriveCylinder {
-                    cylinder_volume_cm3: v,
-                    mass_wet_soil_g: s,
-                    water_content_pct: w,
-                }),
-                _ => None,
-            }
-        }
-        _ => {
-            e.insert("method".into(), "choose a test method".into());
-            None
-        }
-    };
+    let readings = readings(f, u, depth, &mut e);
     if f.technician.trim().is_empty() {
         e.insert("technician".into(), "is required".into());
     }

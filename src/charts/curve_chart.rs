@@ -61,28 +61,60 @@ const ZAV_LABEL: &str = "zero air voids";
 /// Up to this many field tests their numbers are written beside the markers.
 const MAX_FIELD_LABELS: usize = 10;
 
-/// Draws the compaction curve sheet.
-pub fn curve_chart(input: &CurveChartInput) -> String {
-    let lab = finite_points(&input.lab_points);
-    let fitted = sorted_by_x(finite_points(&input.fitted));
-    let zav = sorted_by_x(finite_points(&input.zero_air_voids));
-    let field: Vec<&FieldMark> = input
-        .field_points
-        .iter()
-        .filter(|f| f.x.is_finite() && f.y.is_finite())
-        .collect();
-    // No curve yet arrives as (0, 0): water content and density are positive, so treat it as absent.
-    let optimum =
-        Some(input.optimum).filter(|(x, y)| x.is_finite() && y.is_finite() && *x > 0.0 && *y > 0.0);
+/// The input's points that can be drawn (finite; lines sorted by water content).
+struct Data<'a> {
+    lab: Vec<(f64, f64)>,
+    fitted: Vec<(f64, f64)>,
+    zav: Vec<(f64, f64)>,
+    field: Vec<&'a FieldMark>,
+    optimum: Option<(f64, f64)>,
+}
 
-    let mut fit_points: Vec<(f64, f64)> = lab.clone();
-    fit_points.extend(field.iter().map(|f| (f.x, f.y)));
-    fit_points.extend(optimum);
-    if fit_points.is_empty() {
-        fit_points = fitted.clone();
+impl<'a> Data<'a> {
+    fn of(input: &'a CurveChartInput) -> Self {
+        Data {
+            lab: finite_points(&input.lab_points),
+            fitted: sorted_by_x(finite_points(&input.fitted)),
+            zav: sorted_by_x(finite_points(&input.zero_air_voids)),
+            field: input
+                .field_points
+                .iter()
+                .filter(|f| f.x.is_finite() && f.y.is_finite())
+                .collect(),
+            // No curve yet arrives as (0, 0): water content and density are positive, so
+            // treat it as absent.
+            optimum: Some(input.optimum)
+                .filter(|(x, y)| x.is_finite() && y.is_finite() && *x > 0.0 && *y > 0.0),
+        }
     }
-    let (x_min, x_max, y_min, y_max) =
-        bounds(&fit_points).unwrap_or_else(|| default_extent(axis::unit_of(&input.y_label)));
+
+    /// What the axes must show: the points, else the fitted curve.
+    fn extent(&self, y_label: &str) -> (f64, f64, f64, f64) {
+        let mut fit_points: Vec<(f64, f64)> = self.lab.clone();
+        fit_points.extend(self.field.iter().map(|f| (f.x, f.y)));
+        fit_points.extend(self.optimum);
+        if fit_points.is_empty() {
+            fit_points = self.fitted.clone();
+        }
+        bounds(&fit_points).unwrap_or_else(|| default_extent(axis::unit_of(y_label)))
+    }
+}
+
+/// The plot rectangle, its scales and ticks.
+struct Axes {
+    plot: Plot,
+    x_scale: LinearScale,
+    y_scale: LinearScale,
+    x_ticks: axis::Ticks,
+    y_ticks: axis::Ticks,
+    x_step: f64,
+    y_step: f64,
+    /// Decimals of a density read off the y axis.
+    y_decimals: usize,
+}
+
+fn axes(input: &CurveChartInput, data: &Data) -> Axes {
+    let (x_min, x_max, y_min, y_max) = data.extent(&input.y_label);
     // Padding never pushes a non-negative quantity (water content, density) below zero.
     let floor_at_zero = |lo: f64, data_min: f64| if data_min >= 0.0 { lo.max(0.0) } else { lo };
     let (x_lo, x_hi) = axis::padded(x_min, x_max, 0.06, 2.0);
@@ -103,9 +135,8 @@ pub fn curve_chart(input: &CurveChartInput) -> String {
         right: WIDTH - 16.0,
         bottom: top + PLOT_HEIGHT,
     };
-    let x_scale = LinearScale::new((x_lo, x_hi), (plot.left, plot.right));
     let mut y_scale = LinearScale::new((y_lo, y_hi), (plot.bottom, plot.top));
-    if let Some((_, mdd)) = optimum {
+    if let Some((_, mdd)) = data.optimum {
         // Leave room above the optimum for its annotation.
         for _ in 0..4 {
             if y_scale.map(mdd) - plot.top >= 38.0 {
@@ -115,26 +146,305 @@ pub fn curve_chart(input: &CurveChartInput) -> String {
             y_scale = LinearScale::new((y_lo, y_hi), (plot.bottom, plot.top));
         }
     }
-    let x_ticks = axis::ticks_with_step(x_lo, x_hi, x_step);
-    let y_ticks = axis::ticks_with_step(y_lo, y_hi, y_step);
+    Axes {
+        plot,
+        x_scale: LinearScale::new((x_lo, x_hi), (plot.left, plot.right)),
+        y_scale,
+        x_ticks: axis::ticks_with_step(x_lo, x_hi, x_step),
+        y_ticks: axis::ticks_with_step(y_lo, y_hi, y_step),
+        x_step,
+        y_step,
+        y_decimals: density_decimals(y_max.max(y_min.abs())),
+    }
+}
 
-    let x_unit = non_empty_or(axis::unit_of(&input.x_label), "%");
-    let y_unit = axis::unit_of(&input.y_label);
-    let y_decimals = density_decimals(y_max.max(y_min.abs()));
+/// The units of the two axes, as their titles give them.
+#[derive(Clone, Copy)]
+struct Units<'a> {
+    x: &'a str,
+    y: &'a str,
+    y_decimals: usize,
+}
+
+impl Units<'_> {
+    /// "water content 11.2 %, dry density 1 985 kg/m³".
+    fn point(&self, x: f64, y: f64) -> String {
+        format!(
+            "water content {}{}, dry density {}{}",
+            axis::format_number(x, 1),
+            spaced_unit(self.x),
+            axis::format_number(y, self.y_decimals),
+            spaced_unit(self.y)
+        )
+    }
+}
+
+/// The annotation at the optimum: the input's, else MDD and OMC with their units.
+fn optimum_text(input: &CurveChartInput, optimum: Option<(f64, f64)>, u: Units) -> Option<String> {
+    optimum.map(|(omc, mdd)| {
+        if input.optimum_label.trim().is_empty() {
+            format!(
+                "MDD {}{} at OMC {}{}",
+                axis::format_number(mdd, u.y_decimals),
+                spaced_unit(u.y),
+                axis::format_number(omc, 1),
+                spaced_unit(u.x)
+            )
+        } else {
+            input.optimum_label.clone()
+        }
+    })
+}
+
+/// Every point and line in viewBox units.
+struct Pixels {
+    saturation: Vec<Vec<(f64, f64)>>,
+    zav: Vec<(f64, f64)>,
+    fitted: Vec<(f64, f64)>,
+    lab: Vec<(f64, f64)>,
+    field: Vec<(f64, f64)>,
+    optimum: Option<(f64, f64)>,
+}
+
+fn pixels(input: &CurveChartInput, data: &Data, a: &Axes) -> Pixels {
+    let to_px = |p: &(f64, f64)| (a.x_scale.map(p.0), a.y_scale.map(p.1));
+    Pixels {
+        saturation: input
+            .saturation_lines
+            .iter()
+            .map(|series| {
+                sorted_by_x(finite_points(&series.points))
+                    .iter()
+                    .map(to_px)
+                    .collect()
+            })
+            .collect(),
+        zav: data.zav.iter().map(to_px).collect(),
+        fitted: data.fitted.iter().map(to_px).collect(),
+        lab: data.lab.iter().map(to_px).collect(),
+        field: data.field.iter().map(|f| to_px(&(f.x, f.y))).collect(),
+        optimum: data.optimum.map(|p| to_px(&p)),
+    }
+}
+
+/// Where the labels go, each kept clear of the data and of the labels placed before it.
+struct Labels {
+    field: Vec<Spot>,
+    annotation: Option<Spot>,
+    lines: Vec<(Spot, String)>,
+}
+
+fn place_labels(
+    input: &CurveChartInput,
+    data: &Data,
+    px: &Pixels,
+    plot: &Plot,
+    optimum_text: Option<&str>,
+) -> Labels {
+    // Line ids: saturation lines 0.., ZAV, fitted curve.
+    let zav_id = px.saturation.len();
+    let mut obstacles = Obstacles::default();
+    for p in &px.lab {
+        obstacles.add_point(*p, 5.0);
+    }
+    for p in &px.field {
+        obstacles.add_point(*p, 5.5);
+    }
+    if let Some(p) = px.optimum {
+        obstacles.add_point(p, 9.0);
+    }
+    for (i, pts) in px.saturation.iter().enumerate() {
+        obstacles.add_line(i, pts);
+    }
+    obstacles.add_line(zav_id, &px.zav);
+    obstacles.add_line(zav_id + 1, &px.fitted);
+    let mut field = Vec::new();
+    if data.field.len() <= MAX_FIELD_LABELS {
+        for (f, p) in data.field.iter().zip(&px.field) {
+            if f.label.is_empty() {
+                continue;
+            }
+            let text = fit_text(&f.label, FONT_FIELD_LABEL, 60.0);
+            let width = text_width(&text, FONT_FIELD_LABEL);
+            let spot =
+                placement::horizontal(p.0 + 7.0, p.1 + 3.8, width, FONT_FIELD_LABEL, "start");
+            obstacles.add_box(spot.area);
+            field.push(spot);
+        }
+    }
+    let annotation = match (px.optimum, optimum_text) {
+        (Some(p), Some(text)) => place_annotation(plot, p, text, &mut obstacles),
+        _ => None,
+    };
+    let mut lines: Vec<(Spot, String)> = Vec::new();
+    for (i, pts) in px.saturation.iter().enumerate() {
+        let label = input.saturation_lines[i].label.trim();
+        if let Some(spot) = place_line_label(plot, pts, i, label, &mut obstacles) {
+            lines.push((spot, label.to_string()));
+        }
+    }
+    if let Some(spot) = place_line_label(plot, &px.zav, zav_id, ZAV_LABEL, &mut obstacles) {
+        lines.push((spot, ZAV_LABEL.to_string()));
+    }
+    Labels {
+        field,
+        annotation,
+        lines,
+    }
+}
+
+/// Opens the sheet: root, the plot's clip path, the heading and the grids.
+fn open_sheet(w: &mut SvgWriter, input: &CurveChartInput, a: &Axes, clip_id: &str) {
+    w.start("defs").open();
+    w.start("clipPath").attr("id", clip_id).open();
+    w.start("rect")
+        .num("x", a.plot.left)
+        .num("y", a.plot.top)
+        .num("width", a.plot.width())
+        .num("height", a.plot.height())
+        .leaf();
+    w.close().close();
+    if !input.title.trim().is_empty() {
+        let heading = fit_text(&input.title, FONT_TITLE * 1.1, WIDTH - 24.0);
+        frame::text(w, 12.0, 24.0, &heading, TextStyle::new(FONT_TITLE).bold());
+    }
+    frame::y_grid(w, &a.plot, &a.y_scale, &a.y_ticks);
+    frame::x_grid(w, &a.plot, &a.x_scale, &a.x_ticks);
+}
+
+/// The saturation lines, the zero-air-voids line and the fitted curve, clipped to the plot.
+fn draw_lines(w: &mut SvgWriter, px: &Pixels, clip_id: &str) {
+    w.start("g")
+        .attr("class", "ll-lines")
+        .attr("clip-path", &format!("url(#{clip_id})"))
+        .attr("fill", "none")
+        .open();
+    for (i, pts) in px.saturation.iter().enumerate() {
+        let dash = palette::SATURATION_DASHES[i % palette::SATURATION_DASHES.len()];
+        line(w, pts, palette::REFERENCE, 1.1, Some(dash), "ll-saturation");
+    }
+    line(
+        w,
+        &px.zav,
+        palette::INK,
+        1.5,
+        Some(palette::ZAV_DASH),
+        "ll-zav",
+    );
+    line(w, &px.fitted, palette::BLUE, 2.2, None, "ll-fitted");
+    w.close();
+}
+
+/// The optimum's crosshair, the line labels and the optimum's annotation.
+fn draw_annotations(
+    w: &mut SvgWriter,
+    plot: &Plot,
+    px: &Pixels,
+    labels: &Labels,
+    optimum_text: Option<&str>,
+) {
+    if let Some(p) = px.optimum {
+        draw_crosshair(w, plot, p);
+    }
+    w.start("g").attr("class", "ll-line-labels").open();
+    for (spot, label) in &labels.lines {
+        spot_text(w, spot, label, FONT_LINE_LABEL, false);
+    }
+    w.close();
+    if let (Some(spot), Some(text)) = (&labels.annotation, optimum_text) {
+        w.start("g").attr("class", "ll-optimum-label").open();
+        let text = fit_text(text, FONT_NOTE, plot.width() - 8.0);
+        spot_text(w, spot, &text, FONT_NOTE, true);
+        w.close();
+    }
+}
+
+fn draw_lab_points(w: &mut SvgWriter, data: &Data, px: &Pixels, u: Units) {
+    w.start("g").attr("class", "ll-lab-points").open();
+    for ((x, y), p) in data.lab.iter().zip(&px.lab) {
+        w.start("g").attr("class", "ll-lab").open();
+        w.simple("title", &format!("Lab specimen: {}", u.point(*x, *y)));
+        let paint = Paint {
+            fill: palette::PAPER,
+            stroke: palette::INK,
+            stroke_width: 1.6,
+        };
+        marks::draw(w, Shape::Circle, p.0, p.1, 4.2, paint);
+        w.close();
+    }
+    w.close();
+}
+
+/// The field tests' markers, and their numbers where there are few enough.
+fn draw_field_points(w: &mut SvgWriter, data: &Data, px: &Pixels, labels: &Labels, u: Units) {
+    w.start("g").attr("class", "ll-field-points").open();
+    for (mark, p) in data.field.iter().zip(&px.field) {
+        let (shape, paint, verdict, class) = field_style(mark.passed);
+        w.start("g").attr("class", class).open();
+        let title = format!("{}: {}, {verdict}", mark.label, u.point(mark.x, mark.y));
+        w.simple("title", &title);
+        marks::draw(w, shape, p.0, p.1, 4.6, paint);
+        w.close();
+    }
+    w.close();
+    if labels.field.is_empty() {
+        return;
+    }
+    w.start("g").attr("class", "ll-field-labels").open();
+    let named = data.field.iter().filter(|f| !f.label.is_empty());
+    for (spot, mark) in labels.field.iter().zip(named) {
+        let text = fit_text(&mark.label, FONT_FIELD_LABEL, 60.0);
+        let style = TextStyle::new(FONT_FIELD_LABEL).fill(palette::MUTED).halo();
+        frame::text(w, spot.x, spot.y, &text, style);
+    }
+    w.close();
+}
+
+fn draw_axes(w: &mut SvgWriter, input: &CurveChartInput, a: &Axes, fonts: AxisFonts) {
+    let (x_step, y_step) = (a.x_step, a.y_step);
+    frame::y_axis(
+        w,
+        &a.plot,
+        &a.y_scale,
+        &a.y_ticks,
+        &input.y_label,
+        fonts,
+        &|v| axis::format_tick(v, y_step),
+    );
+    frame::x_axis(
+        w,
+        &a.plot,
+        &a.x_scale,
+        &a.x_ticks,
+        &input.x_label,
+        fonts,
+        WIDTH,
+        &|v| axis::format_tick(v, x_step),
+    );
+}
+
+/// Draws the compaction curve sheet.
+pub fn curve_chart(input: &CurveChartInput) -> String {
+    let data = Data::of(input);
+    let a = axes(input, &data);
+    let units = Units {
+        x: non_empty_or(axis::unit_of(&input.x_label), "%"),
+        y: axis::unit_of(&input.y_label),
+        y_decimals: a.y_decimals,
+    };
     let fonts = AxisFonts {
         tick: FONT_TICK,
         title: FONT_AXIS,
     };
-    let shown = Shown {
-        lab: !lab.is_empty(),
-        fitted: fitted.len() >= 2,
-        optimum: optimum.is_some(),
-        zav: zav.len() >= 2,
-        field_pass: field.iter().any(|f| f.passed),
-        field_fail: field.iter().any(|f| !f.passed),
-    };
-    let legend_items = legend_items(shown);
-    let legend_top = plot.bottom + frame::x_axis_depth(fonts, true) + 4.0;
+    let legend_items = legend_items(Shown {
+        lab: !data.lab.is_empty(),
+        fitted: data.fitted.len() >= 2,
+        optimum: data.optimum.is_some(),
+        zav: data.zav.len() >= 2,
+        field_pass: data.field.iter().any(|f| f.passed),
+        field_fail: data.field.iter().any(|f| !f.passed),
+    });
+    let legend_top = a.plot.bottom + frame::x_axis_depth(fonts, true) + 4.0;
     let legend_rows = legend::layout(&legend_items, WIDTH - 24.0, FONT_NOTE).rows;
     let height = legend_top + legend_rows as f64 * legend::row_height(FONT_NOTE) + 8.0;
 
@@ -143,26 +453,20 @@ pub fn curve_chart(input: &CurveChartInput) -> String {
     } else {
         input.title.as_str()
     };
-    let optimum_text = optimum.map(|(omc, mdd)| {
-        if input.optimum_label.trim().is_empty() {
-            format!(
-                "MDD {}{} at OMC {}{}",
-                axis::format_number(mdd, y_decimals),
-                spaced_unit(y_unit),
-                axis::format_number(omc, 1),
-                spaced_unit(x_unit)
-            )
-        } else {
-            input.optimum_label.clone()
-        }
-    });
-    let desc = describe(lab.len(), optimum_text.as_deref(), &field);
+    let optimum_text = optimum_text(input, data.optimum, units);
+    let desc = describe(data.lab.len(), optimum_text.as_deref(), &data.field);
+    let seed = format!(
+        "{title}|{}|{}|{}",
+        data.lab.len(),
+        data.field.len(),
+        data.fitted.len()
+    );
+    let clip_id = format!("{}-plot", svg::id_prefix("c", &seed));
 
-    let seed = format!("{title}|{}|{}|{}", lab.len(), field.len(), fitted.len());
-    let ids = svg::id_prefix("c", &seed);
-    let clip_id = format!("{ids}-plot");
-
-    let mut w = SvgWriter::with_capacity(8192 + 64 * (fitted.len() + lab.len() + field.len()));
+    let px = pixels(input, &data, &a);
+    let labels = place_labels(input, &data, &px, &a.plot, optimum_text.as_deref());
+    let points = data.fitted.len() + data.lab.len() + data.field.len();
+    let mut w = SvgWriter::with_capacity(8192 + 64 * points);
     frame::open_root(
         &mut w,
         WIDTH,
@@ -171,222 +475,15 @@ pub fn curve_chart(input: &CurveChartInput) -> String {
         &desc,
         "ll-chart ll-curve-chart",
     );
-    w.start("defs").open();
-    w.start("clipPath").attr("id", &clip_id).open();
-    w.start("rect")
-        .num("x", plot.left)
-        .num("y", plot.top)
-        .num("width", plot.width())
-        .num("height", plot.height())
-        .leaf();
-    w.close().close();
-    if !input.title.trim().is_empty() {
-        let heading = fit_text(&input.title, FONT_TITLE * 1.1, WIDTH - 24.0);
-        frame::text(
-            &mut w,
-            12.0,
-            24.0,
-            &heading,
-            TextStyle::new(FONT_TITLE).bold(),
-        );
-    }
-    frame::y_grid(&mut w, &plot, &y_scale, &y_ticks);
-    frame::x_grid(&mut w, &plot, &x_scale, &x_ticks);
-
-    let to_px = |p: &(f64, f64)| (x_scale.map(p.0), y_scale.map(p.1));
-    let saturation_px: Vec<Vec<(f64, f64)>> = input
-        .saturation_lines
-        .iter()
-        .map(|series| {
-            sorted_by_x(finite_points(&series.points))
-                .iter()
-                .map(to_px)
-                .collect()
-        })
-        .collect();
-    let zav_px: Vec<(f64, f64)> = zav.iter().map(to_px).collect();
-    let fitted_px: Vec<(f64, f64)> = fitted.iter().map(to_px).collect();
-    let lab_px: Vec<(f64, f64)> = lab.iter().map(to_px).collect();
-    let field_px: Vec<(f64, f64)> = field.iter().map(|f| to_px(&(f.x, f.y))).collect();
-    let optimum_px = optimum.map(|p| to_px(&p));
-
-    // Everything a label must keep clear of; line ids: saturation lines 0.., ZAV, fitted curve.
-    let zav_id = saturation_px.len();
-    let fitted_id = zav_id + 1;
-    let mut obstacles = Obstacles::default();
-    for p in &lab_px {
-        obstacles.add_point(*p, 5.0);
-    }
-    for p in &field_px {
-        obstacles.add_point(*p, 5.5);
-    }
-    if let Some(p) = optimum_px {
-        obstacles.add_point(p, 9.0);
-    }
-    for (i, pts) in saturation_px.iter().enumerate() {
-        obstacles.add_line(i, pts);
-    }
-    obstacles.add_line(zav_id, &zav_px);
-    obstacles.add_line(fitted_id, &fitted_px);
-    let field_label_spots: Vec<Spot> = if field.len() <= MAX_FIELD_LABELS {
-        field
-            .iter()
-            .zip(&field_px)
-            .filter(|(f, _)| !f.label.is_empty())
-            .map(|(f, p)| {
-                let text = fit_text(&f.label, FONT_FIELD_LABEL, 60.0);
-                let width = text_width(&text, FONT_FIELD_LABEL);
-                let spot =
-                    placement::horizontal(p.0 + 7.0, p.1 + 3.8, width, FONT_FIELD_LABEL, "start");
-                obstacles.add_box(spot.area);
-                spot
-            })
-            .collect()
-    } else {
-        Vec::new()
-    };
-    let annotation = match (optimum_px, optimum_text.as_deref()) {
-        (Some(p), Some(text)) => place_annotation(&plot, p, text, &mut obstacles),
-        _ => None,
-    };
-    let mut line_labels: Vec<(Spot, String)> = Vec::new();
-    for (i, pts) in saturation_px.iter().enumerate() {
-        let label = input.saturation_lines[i].label.trim();
-        if let Some(spot) = place_line_label(&plot, pts, i, label, &mut obstacles) {
-            line_labels.push((spot, label.to_string()));
-        }
-    }
-    if let Some(spot) = place_line_label(&plot, &zav_px, zav_id, ZAV_LABEL, &mut obstacles) {
-        line_labels.push((spot, ZAV_LABEL.to_string()));
-    }
-
-    w.start("g")
-        .attr("class", "ll-lines")
-        .attr("clip-path", &format!("url(#{clip_id})"))
-        .attr("fill", "none")
-        .open();
-    for (i, pts) in saturation_px.iter().enumerate() {
-        let dash = palette::SATURATION_DASHES[i % palette::SATURATION_DASHES.len()];
-        line(
-            &mut w,
-            pts,
-            palette::REFERENCE,
-            1.1,
-            Some(dash),
-            "ll-saturation",
-        );
-    }
-    line(
-        &mut w,
-        &zav_px,
-        palette::INK,
-        1.5,
-        Some(palette::ZAV_DASH),
-        "ll-zav",
-    );
-    line(&mut w, &fitted_px, palette::BLUE, 2.2, None, "ll-fitted");
-    w.close();
-
-    if let Some(p) = optimum_px {
-        draw_crosshair(&mut w, &plot, p);
-    }
-    w.start("g").attr("class", "ll-line-labels").open();
-    for (spot, label) in &line_labels {
-        spot_text(&mut w, spot, label, FONT_LINE_LABEL, false);
-    }
-    w.close();
-    if let (Some(spot), Some(text)) = (annotation, optimum_text.as_deref()) {
-        w.start("g").attr("class", "ll-optimum-label").open();
-        spot_text(
-            &mut w,
-            &spot,
-            &fit_text(text, FONT_NOTE, plot.width() - 8.0),
-            FONT_NOTE,
-            true,
-        );
-        w.close();
-    }
-
+    open_sheet(&mut w, input, &a, &clip_id);
+    draw_lines(&mut w, &px, &clip_id);
+    draw_annotations(&mut w, &a.plot, &px, &labels, optimum_text.as_deref());
     // Markers last, so nothing is ever drawn over data.
-    w.start("g").attr("class", "ll-lab-points").open();
-    for ((x, y), p) in lab.iter().zip(&lab_px) {
-        w.start("g").attr("class", "ll-lab").open();
-        w.simple(
-            "title",
-            &format!(
-                "Lab specimen: water content {}{}, dry density {}{}",
-                axis::format_number(*x, 1),
-                spaced_unit(x_unit),
-                axis::format_number(*y, y_decimals),
-                spaced_unit(y_unit)
-            ),
-        );
-        let paint = Paint {
-            fill: palette::PAPER,
-            stroke: palette::INK,
-            stroke_width: 1.6,
-        };
-        marks::draw(&mut w, Shape::Circle, p.0, p.1, 4.2, paint);
-        w.close();
-    }
-    w.close();
-
-    w.start("g").attr("class", "ll-field-points").open();
-    for (mark, p) in field.iter().zip(&field_px) {
-        let (shape, paint, verdict, class) = field_style(mark.passed);
-        w.start("g").attr("class", class).open();
-        w.simple(
-            "title",
-            &format!(
-                "{}: water content {}{}, dry density {}{}, {verdict}",
-                mark.label,
-                axis::format_number(mark.x, 1),
-                spaced_unit(x_unit),
-                axis::format_number(mark.y, y_decimals),
-                spaced_unit(y_unit)
-            ),
-        );
-        marks::draw(&mut w, shape, p.0, p.1, 4.6, paint);
-        w.close();
-    }
-    w.close();
-    if !field_label_spots.is_empty() {
-        w.start("g").attr("class", "ll-field-labels").open();
-        let named = field.iter().filter(|f| !f.label.is_empty());
-        for (spot, mark) in field_label_spots.iter().zip(named) {
-            let text = fit_text(&mark.label, FONT_FIELD_LABEL, 60.0);
-            frame::text(
-                &mut w,
-                spot.x,
-                spot.y,
-                &text,
-                TextStyle::new(FONT_FIELD_LABEL).fill(palette::MUTED).halo(),
-            );
-        }
-        w.close();
-    }
-
-    frame::y_axis(
-        &mut w,
-        &plot,
-        &y_scale,
-        &y_ticks,
-        &input.y_label,
-        fonts,
-        &|v| axis::format_tick(v, y_step),
-    );
-    frame::x_axis(
-        &mut w,
-        &plot,
-        &x_scale,
-        &x_ticks,
-        &input.x_label,
-        fonts,
-        WIDTH,
-        &|v| axis::format_tick(v, x_step),
-    );
-    if lab.is_empty() && field.is_empty() {
-        frame::empty_note(&mut w, &plot, "no lab points yet", 15.0);
+    draw_lab_points(&mut w, &data, &px, units);
+    draw_field_points(&mut w, &data, &px, &labels, units);
+    draw_axes(&mut w, input, &a, fonts);
+    if data.lab.is_empty() && data.field.is_empty() {
+        frame::empty_note(&mut w, &a.plot, "no lab points yet", 15.0);
     }
     legend::draw(
         &mut w,

@@ -67,6 +67,80 @@ const FONT_SMALL: f64 = 11.0;
 const ZONE_BAND: f64 = 17.0;
 const MARGIN: f64 = 8.0;
 
+/// The rows' places, top-down: a band per zone group, then its rows.
+struct Rows {
+    plot: Plot,
+    /// Top of each row, by rank.
+    top: Vec<f64>,
+    height: f64,
+    /// Top and name of each zone's band.
+    bands: Vec<(f64, String)>,
+}
+
+fn layout_rows(rows: &[&MapRow], width: f64) -> Rows {
+    let widest_layer = rows
+        .iter()
+        .map(|r| text_width(&r.layer, FONT_SMALL))
+        .fold(0.0, f64::max);
+    let left = (widest_layer + 16.0).clamp(36.0, width * 0.3);
+    let height = row_height(rows.len());
+    let groups = zone_groups(rows);
+    let mut top = vec![0.0; rows.len()];
+    let mut bands = Vec::with_capacity(groups.len());
+    let mut y = MARGIN;
+    for (zone, ranks) in &groups {
+        bands.push((y, zone.clone()));
+        y += ZONE_BAND;
+        for rank in ranks {
+            top[*rank] = y;
+            y += height;
+        }
+    }
+    Rows {
+        plot: Plot {
+            left,
+            top: MARGIN,
+            right: width - 12.0,
+            bottom: y.max(MARGIN + 40.0),
+        },
+        top,
+        height,
+        bands,
+    }
+}
+
+/// The note under the legend when some lots are grouped into cells.
+fn cells_note(cells: &[Cell], width: f64) -> Vec<String> {
+    if cells.is_empty() {
+        return Vec::new();
+    }
+    wrap_text(
+        "Lots too narrow to draw one by one are grouped into cells that show the most urgent state \
+         inside (failing, rejected, tests owed, open, submitted, accepted, certified); \
+         hover a cell for its lot counts, open it to zoom in.",
+        FONT_SMALL,
+        width,
+    )
+}
+
+fn draw_note(w: &mut SvgWriter, note: &[String], top: f64) {
+    if note.is_empty() {
+        return;
+    }
+    w.start("g").attr("class", "ll-note").open();
+    for (i, line) in note.iter().enumerate() {
+        let y = top + FONT_SMALL + i as f64 * FONT_SMALL * 1.4;
+        frame::text(
+            w,
+            MARGIN,
+            y,
+            line,
+            TextStyle::new(FONT_SMALL).fill(palette::MUTED),
+        );
+    }
+    w.close();
+}
+
 /// Draws the lift map with its legend; narrow lots are aggregated (see the module docs).
 pub fn lift_map(input: &LiftMapInput) -> String {
     let width = if input.width_px == 0 {
@@ -79,34 +153,8 @@ pub fn lift_map(input: &LiftMapInput) -> String {
         rows.iter().enumerate().map(|(i, r)| (r.row, i)).collect();
     let (from_m, to_m) = chainage_range(input);
     let label = &input.chainage_label;
-
-    let layer_labels: Vec<&str> = rows.iter().map(|r| r.layer.as_str()).collect();
-    let widest_layer = layer_labels
-        .iter()
-        .map(|l| text_width(l, FONT_SMALL))
-        .fold(0.0, f64::max);
-    let left = (widest_layer + 16.0).clamp(36.0, width * 0.3);
-    let row_h = row_height(rows.len());
-    let groups = zone_groups(&rows);
-
-    // Vertical layout, top-down: a band per zone group, then its rows.
-    let mut row_top = vec![0.0; rows.len()];
-    let mut band_tops = Vec::with_capacity(groups.len());
-    let mut y = MARGIN;
-    for (zone, ranks) in &groups {
-        band_tops.push((y, zone.clone()));
-        y += ZONE_BAND;
-        for rank in ranks {
-            row_top[*rank] = y;
-            y += row_h;
-        }
-    }
-    let plot = Plot {
-        left,
-        top: MARGIN,
-        right: width - 12.0,
-        bottom: y.max(MARGIN + 40.0),
-    };
+    let laid = layout_rows(&rows, width);
+    let plot = laid.plot;
     let x_scale = LinearScale::new((from_m, to_m), (plot.left, plot.right));
     let tick_room =
         text_width(&label(from_m), FONT_SMALL).max(text_width(&label(to_m), FONT_SMALL)) + 28.0;
@@ -119,15 +167,12 @@ pub fn lift_map(input: &LiftMapInput) -> String {
         .iter()
         .map(|c| c.bucket.counts.iter().sum::<u32>() as usize)
         .sum();
-
-    let ids = svg::id_prefix(
-        "m",
-        &format!(
-            "{from_m}|{to_m}|{width}|{}|{}",
-            rows.len(),
-            input.lots.len()
-        ),
+    let seed = format!(
+        "{from_m}|{to_m}|{width}|{}|{}",
+        rows.len(),
+        input.lots.len()
     );
+    let ids = svg::id_prefix("m", &seed);
     let pattern_id = |s: MapState| format!("{ids}-{}", s.token());
 
     let fonts = AxisFonts {
@@ -138,17 +183,7 @@ pub fn lift_map(input: &LiftMapInput) -> String {
     let legend_top = plot.bottom + frame::x_axis_depth(fonts, true) + 6.0;
     let legend_width = width - 2.0 * MARGIN;
     let legend_rows = legend::layout(&legend_items, legend_width, FONT_SMALL).rows;
-    let note = if cells.is_empty() {
-        Vec::new()
-    } else {
-        wrap_text(
-            "Lots too narrow to draw one by one are grouped into cells that show the most urgent state \
-             inside (failing, rejected, tests owed, open, submitted, accepted, certified); \
-             hover a cell for its lot counts, open it to zoom in.",
-            FONT_SMALL,
-            legend_width,
-        )
-    };
+    let note = cells_note(&cells, legend_width);
     let legend_h = legend_rows as f64 * legend::row_height(FONT_SMALL);
     let note_top = legend_top + legend_h + 4.0;
     let height = note_top + note.len() as f64 * (FONT_SMALL * 1.4) + MARGIN;
@@ -163,14 +198,8 @@ pub fn lift_map(input: &LiftMapInput) -> String {
         rows.len(),
         if rows.len() == 1 { "" } else { "s" }
     );
-    frame::open_linked_root(
-        &mut w,
-        width,
-        height,
-        &title,
-        &describe(input, &separate, &cells),
-        "ll-chart ll-lift-map",
-    );
+    let desc = describe(input, &separate, &cells);
+    frame::open_linked_root(&mut w, width, height, &title, &desc, "ll-chart ll-lift-map");
     w.start("defs").open();
     for state in MapState::ALL {
         palette::write_pattern(&mut w, &pattern_id(state), &state_style(state));
@@ -180,24 +209,19 @@ pub fn lift_map(input: &LiftMapInput) -> String {
     if rows.is_empty() {
         frame::empty_note(&mut w, &plot, "no layers yet", 14.0);
     } else {
-        draw_row_backgrounds(&mut w, &plot, &row_top, row_h);
+        let (row_top, row_h) = (&laid.top, laid.height);
+        draw_row_backgrounds(&mut w, &plot, row_top, row_h);
         frame::x_grid(&mut w, &plot, &x_scale, &ticks);
-        draw_row_labels(&mut w, &plot, &rows, &row_top, row_h, &band_tops);
-        draw_cells(&mut w, input, &cells, &row_top, row_h, &pattern_id);
-        draw_separate(&mut w, &separate, &row_top, row_h, &pattern_id);
+        draw_row_labels(&mut w, &plot, &rows, row_top, row_h, &laid.bands);
+        draw_cells(&mut w, input, &cells, row_top, row_h, &pattern_id);
+        draw_separate(&mut w, &separate, row_top, row_h, &pattern_id);
         if lot_count == 0 {
             frame::empty_note(&mut w, &plot, "no lots yet", 14.0);
         }
     }
+    let x_label = |v| label(v);
     frame::x_axis(
-        &mut w,
-        &plot,
-        &x_scale,
-        &ticks,
-        "Chainage",
-        fonts,
-        width,
-        &|v| label(v),
+        &mut w, &plot, &x_scale, &ticks, "Chainage", fonts, width, &x_label,
     );
     legend::draw(
         &mut w,
@@ -207,20 +231,7 @@ pub fn lift_map(input: &LiftMapInput) -> String {
         legend_width,
         FONT_SMALL,
     );
-    if !note.is_empty() {
-        w.start("g").attr("class", "ll-note").open();
-        for (i, line) in note.iter().enumerate() {
-            let y = note_top + FONT_SMALL + i as f64 * FONT_SMALL * 1.4;
-            frame::text(
-                &mut w,
-                MARGIN,
-                y,
-                line,
-                TextStyle::new(FONT_SMALL).fill(palette::MUTED),
-            );
-        }
-        w.close();
-    }
+    draw_note(&mut w, &note, note_top);
     w.finish()
 }
 
@@ -513,7 +524,11 @@ fn draw_separate(
     }
     w.close();
 
-    // Text marks on lots wide enough to hold them; clicks pass through to the lot below.
+    draw_marks(w, lots, row_top, row_h);
+}
+
+/// Text marks on lots wide enough to hold them; clicks pass through to the lot below.
+fn draw_marks(w: &mut SvgWriter, lots: &[Placed<'_>], row_top: &[f64], row_h: f64) {
     let size = (row_h * 0.62).min(10.5);
     if size < 6.0 {
         return;

@@ -124,8 +124,29 @@ const MAX_VALUE_LABELS: usize = 15;
 /// Up to this many tests a thin stem joins each marker to the limit line.
 const MAX_STEMS: usize = 60;
 
-/// Draws relative compaction per test against the limit, with an optional mean line and a legend.
-pub fn rc_chart(input: &RcChartInput) -> String {
+/// Where everything of the chart goes: the plot, the y scale and a slot per test.
+struct Layout {
+    /// The clause minimum (none when unset) and the lot mean, as drawn.
+    limit: Option<f64>,
+    mean: Option<f64>,
+    plot: Plot,
+    y_scale: LinearScale,
+    ticks: axis::Ticks,
+    step: f64,
+    /// Width given to each test.
+    slot: f64,
+    radius: f64,
+    /// Whether each test's RC is printed over its marker.
+    show_values: bool,
+}
+
+impl Layout {
+    fn x_of(&self, i: usize) -> f64 {
+        self.plot.left + (i as f64 + 0.5) * self.slot
+    }
+}
+
+fn layout(input: &RcChartInput) -> Layout {
     let n = input.tests.len();
     // A minimum of 0 % (or less) is no minimum: it is what an unset limit looks like.
     let limit = Some(input.limit_pct).filter(|v| v.is_finite() && *v > 0.0);
@@ -136,7 +157,6 @@ pub fn rc_chart(input: &RcChartInput) -> String {
         .map(|t| t.rc_pct)
         .filter(|v| v.is_finite())
         .collect();
-
     let mut lo = f64::INFINITY;
     let mut hi = f64::NEG_INFINITY;
     for v in values.iter().chain(limit.iter()).chain(mean.iter()) {
@@ -148,7 +168,6 @@ pub fn rc_chart(input: &RcChartInput) -> String {
     }
     let (lo, hi) = axis::padded(lo, hi, 0.08, 4.0);
     let (y_lo, mut y_hi, step) = axis::nice_extent(lo, hi, 5);
-
     let top = if input.title.trim().is_empty() {
         14.0
     } else {
@@ -164,6 +183,7 @@ pub fn rc_chart(input: &RcChartInput) -> String {
     let show_values = n <= MAX_VALUE_LABELS && slot >= 26.0;
     let mut y_scale = LinearScale::new((y_lo, y_hi), (plot.bottom, plot.top));
     if show_values && let Some(top_value) = values.iter().copied().reduce(f64::max) {
+        // Leave room above the highest marker for its value.
         for _ in 0..4 {
             if y_scale.map(top_value) - plot.top >= 22.0 {
                 break;
@@ -172,14 +192,165 @@ pub fn rc_chart(input: &RcChartInput) -> String {
             y_scale = LinearScale::new((y_lo, y_hi), (plot.bottom, plot.top));
         }
     }
-    let ticks = axis::ticks_with_step(y_lo, y_hi, step);
+    Layout {
+        limit,
+        mean,
+        plot,
+        y_scale,
+        ticks: axis::ticks_with_step(y_lo, y_hi, step),
+        step,
+        slot,
+        radius: (slot * 0.3).clamp(1.6, 5.0),
+        show_values,
+    }
+}
 
+/// The limit and mean lines, and the stems joining few enough markers to the limit.
+fn draw_reference_lines(w: &mut SvgWriter, input: &RcChartInput, l: &Layout) {
+    if let Some(limit) = l.limit {
+        let y = l.y_scale.map(limit);
+        reference_line(
+            w,
+            &l.plot,
+            y,
+            palette::VERMILLION,
+            palette::LIMIT_DASH,
+            "ll-limit",
+        );
+    }
+    if let Some(mean) = l.mean {
+        let y = l.y_scale.map(mean);
+        reference_line(w, &l.plot, y, palette::INK, palette::MEAN_DASH, "ll-mean");
+    }
+    if input.tests.len() <= MAX_STEMS
+        && let Some(limit) = l.limit
+    {
+        draw_stems(w, input, &l.y_scale, l.y_scale.map(limit), &|i| l.x_of(i));
+    }
+}
+
+/// What a label must keep clear of: every marker and, when shown, its value.
+fn test_obstacles(input: &RcChartInput, l: &Layout) -> Obstacles {
+    let mut obstacles = Obstacles::default();
+    for (i, test) in input.tests.iter().enumerate() {
+        if test.rc_pct.is_finite() {
+            let y = l.y_scale.map(test.rc_pct).clamp(l.plot.top, l.plot.bottom);
+            obstacles.add_point((l.x_of(i), y), l.radius + 1.0);
+            if l.show_values {
+                obstacles.add_point((l.x_of(i), y - l.radius - 10.0), 12.0);
+            }
+        }
+    }
+    obstacles
+}
+
+/// Places of a line's label to try: at either end (the preferred side first), then
+/// along it, above and below.
+fn line_label_candidates(
+    plot: &Plot,
+    y: f64,
+    width: f64,
+    sides: [&'static str; 2],
+    id: usize,
+) -> Vec<(Spot, Option<usize>)> {
+    let mut candidates = Vec::new();
+    let mut above_and_below = |x: f64, anchor: &'static str| {
+        for y in [y - 5.0, y + 5.0 + FONT_NOTE * 0.8] {
+            candidates.push((
+                placement::horizontal(x, y, width, FONT_NOTE, anchor),
+                Some(id),
+            ));
+        }
+    };
+    for side in sides {
+        let x = if side == "end" {
+            plot.right - 4.0
+        } else {
+            plot.left + 6.0
+        };
+        above_and_below(x, side);
+    }
+    for fraction in [0.5, 0.25, 0.75] {
+        above_and_below(plot.left + plot.width() * fraction, "middle");
+    }
+    candidates
+}
+
+/// The limit's and the mean's labels, where they cover the fewest markers, value labels
+/// and each other.
+fn draw_line_labels(w: &mut SvgWriter, l: &Layout, obstacles: &mut Obstacles) {
+    let lines: Vec<(f64, String, &str, [&'static str; 2])> = l
+        .limit
+        .map(|v| {
+            (
+                l.y_scale.map(v),
+                format!("minimum {} %", axis::format_number(v, 1)),
+                palette::VERMILLION,
+                ["end", "start"],
+            )
+        })
+        .into_iter()
+        .chain(l.mean.map(|v| {
+            (
+                l.y_scale.map(v),
+                format!("mean {} %", axis::format_number(v, 1)),
+                palette::INK,
+                ["start", "end"],
+            )
+        }))
+        .collect();
+    for (id, (y, _, _, _)) in lines.iter().enumerate() {
+        obstacles.add_line(id, &[(l.plot.left, *y), (l.plot.right, *y)]);
+    }
+    for (id, (y, label, colour, sides)) in lines.iter().enumerate() {
+        let width = bold_text_width(label, FONT_NOTE);
+        let candidates = line_label_candidates(&l.plot, *y, width, *sides, id);
+        if let Some(spot) = placement::best(&candidates, obstacles, &l.plot) {
+            obstacles.add_box(spot.area);
+            let style = TextStyle::new(FONT_NOTE)
+                .anchor(spot.anchor)
+                .fill(colour)
+                .bold()
+                .halo();
+            frame::text(w, spot.x, spot.y, label, style);
+        }
+    }
+}
+
+/// "no tests yet", where it covers the fewest of the line labels.
+fn draw_empty_note(w: &mut SvgWriter, plot: &Plot, obstacles: &Obstacles) {
+    let message = "no tests yet";
+    let width = text_width(message, FONT_EMPTY);
+    let candidates: Vec<(Spot, Option<usize>)> = [0.5, 0.3, 0.7, 0.15, 0.85]
+        .iter()
+        .map(|f| {
+            let y = plot.top + plot.height() * f + FONT_EMPTY * 0.35;
+            (
+                placement::horizontal(plot.mid_x(), y, width, FONT_EMPTY, "middle"),
+                None,
+            )
+        })
+        .collect();
+    if let Some(spot) = placement::best(&candidates, obstacles, plot) {
+        w.start("g").attr("class", "ll-empty").open();
+        let style = TextStyle::new(FONT_EMPTY)
+            .anchor("middle")
+            .fill(palette::MUTED);
+        frame::text(w, spot.x, spot.y, message, style);
+        w.close();
+    }
+}
+
+/// Draws relative compaction per test against the limit, with an optional mean line and a legend.
+pub fn rc_chart(input: &RcChartInput) -> String {
+    let n = input.tests.len();
+    let l = layout(input);
     let legend_items = legend_items(input);
     let fonts = AxisFonts {
         tick: FONT_TICK,
         title: FONT_AXIS,
     };
-    let legend_top = plot.bottom + frame::x_axis_depth(fonts, true) + 4.0;
+    let legend_top = l.plot.bottom + frame::x_axis_depth(fonts, true) + 4.0;
     let legend_layout = legend::layout(&legend_items, WIDTH - 2.0 * 12.0, FONT_NOTE);
     let height = legend_top + legend_layout.rows as f64 * legend::row_height(FONT_NOTE) + 8.0;
 
@@ -194,14 +365,8 @@ pub fn rc_chart(input: &RcChartInput) -> String {
     } else {
         frame::open_root
     };
-    open(
-        &mut w,
-        WIDTH,
-        height,
-        title,
-        &describe(input, limit, mean),
-        "ll-chart ll-rc-chart",
-    );
+    let desc = describe(input, l.limit, l.mean);
+    open(&mut w, WIDTH, height, title, &desc, "ll-chart ll-rc-chart");
     if !input.title.trim().is_empty() {
         let heading = fit_text(&input.title, FONT_TITLE * 1.1, WIDTH - 24.0);
         frame::text(
@@ -212,166 +377,39 @@ pub fn rc_chart(input: &RcChartInput) -> String {
             TextStyle::new(FONT_TITLE).bold(),
         );
     }
-    frame::y_grid(&mut w, &plot, &y_scale, &ticks);
-
-    let x_of = |i: usize| plot.left + (i as f64 + 0.5) * slot;
-    if let Some(limit) = limit {
-        reference_line(
-            &mut w,
-            &plot,
-            y_scale.map(limit),
-            palette::VERMILLION,
-            palette::LIMIT_DASH,
-            "ll-limit",
-        );
-    }
-    if let Some(mean) = mean {
-        reference_line(
-            &mut w,
-            &plot,
-            y_scale.map(mean),
-            palette::INK,
-            palette::MEAN_DASH,
-            "ll-mean",
-        );
-    }
-    if n <= MAX_STEMS
-        && let Some(limit) = limit
-    {
-        draw_stems(&mut w, input, &y_scale, y_scale.map(limit), &x_of);
-    }
-
-    let radius = (slot * 0.3).clamp(1.6, 5.0);
+    frame::y_grid(&mut w, &l.plot, &l.y_scale, &l.ticks);
+    draw_reference_lines(&mut w, input, &l);
+    let step = l.step;
     frame::y_axis(
         &mut w,
-        &plot,
-        &y_scale,
-        &ticks,
+        &l.plot,
+        &l.y_scale,
+        &l.ticks,
         "Relative compaction (%)",
         fonts,
         &|v| axis::format_tick(v, step),
     );
-    ordinal_axis(&mut w, input, &plot, slot, &x_of);
-
-    // Line labels go where they cover the fewest markers, value labels and each other.
-    let mut obstacles = Obstacles::default();
-    for (i, test) in input.tests.iter().enumerate() {
-        if test.rc_pct.is_finite() {
-            let y = y_scale.map(test.rc_pct).clamp(plot.top, plot.bottom);
-            obstacles.add_point((x_of(i), y), radius + 1.0);
-            if show_values {
-                obstacles.add_point((x_of(i), y - radius - 10.0), 12.0);
-            }
-        }
-    }
-    let lines: Vec<(f64, String, &str, [&str; 2])> = limit
-        .map(|v| {
-            (
-                y_scale.map(v),
-                format!("minimum {} %", axis::format_number(v, 1)),
-                palette::VERMILLION,
-                ["end", "start"],
-            )
-        })
-        .into_iter()
-        .chain(mean.map(|v| {
-            (
-                y_scale.map(v),
-                format!("mean {} %", axis::format_number(v, 1)),
-                palette::INK,
-                ["start", "end"],
-            )
-        }))
-        .collect();
-    for (id, (y, _, _, _)) in lines.iter().enumerate() {
-        obstacles.add_line(id, &[(plot.left, *y), (plot.right, *y)]);
-    }
-    for (id, (y, label, colour, sides)) in lines.iter().enumerate() {
-        let width = bold_text_width(label, FONT_NOTE);
-        let mut candidates = Vec::new();
-        for side in sides {
-            let x = if *side == "end" {
-                plot.right - 4.0
-            } else {
-                plot.left + 6.0
-            };
-            candidates.push((
-                placement::horizontal(x, y - 5.0, width, FONT_NOTE, side),
-                Some(id),
-            ));
-            candidates.push((
-                placement::horizontal(x, y + 5.0 + FONT_NOTE * 0.8, width, FONT_NOTE, side),
-                Some(id),
-            ));
-        }
-        for fraction in [0.5, 0.25, 0.75] {
-            let x = plot.left + plot.width() * fraction;
-            candidates.push((
-                placement::horizontal(x, y - 5.0, width, FONT_NOTE, "middle"),
-                Some(id),
-            ));
-            candidates.push((
-                placement::horizontal(x, y + 5.0 + FONT_NOTE * 0.8, width, FONT_NOTE, "middle"),
-                Some(id),
-            ));
-        }
-        if let Some(spot) = placement::best(&candidates, &obstacles, &plot) {
-            obstacles.add_box(spot.area);
-            frame::text(
-                &mut w,
-                spot.x,
-                spot.y,
-                label,
-                TextStyle::new(FONT_NOTE)
-                    .anchor(spot.anchor)
-                    .fill(colour)
-                    .bold()
-                    .halo(),
-            );
-        }
-    }
+    ordinal_axis(&mut w, input, &l.plot, l.slot, &|i| l.x_of(i));
+    let mut obstacles = test_obstacles(input, &l);
+    draw_line_labels(&mut w, &l, &mut obstacles);
     // Markers after the labels, so a label never hides a test.
     w.start("g").attr("class", "ll-tests").open();
     for (i, test) in input.tests.iter().enumerate() {
+        let (x, slot, radius) = (l.x_of(i), l.slot, l.radius);
         draw_test(
             &mut w,
             test,
-            x_of(i),
+            x,
             slot,
             radius,
-            &plot,
-            &y_scale,
-            show_values,
+            &l.plot,
+            &l.y_scale,
+            l.show_values,
         );
     }
     w.close();
-
     if n == 0 {
-        let message = "no tests yet";
-        let width = text_width(message, FONT_EMPTY);
-        let candidates: Vec<(Spot, Option<usize>)> = [0.5, 0.3, 0.7, 0.15, 0.85]
-            .iter()
-            .map(|f| {
-                let y = plot.top + plot.height() * f + FONT_EMPTY * 0.35;
-                (
-                    placement::horizontal(plot.mid_x(), y, width, FONT_EMPTY, "middle"),
-                    None,
-                )
-            })
-            .collect();
-        if let Some(spot) = placement::best(&candidates, &obstacles, &plot) {
-            w.start("g").attr("class", "ll-empty").open();
-            frame::text(
-                &mut w,
-                spot.x,
-                spot.y,
-                message,
-                TextStyle::new(FONT_EMPTY)
-                    .anchor("middle")
-                    .fill(palette::MUTED),
-            );
-            w.close();
-        }
+        draw_empty_note(&mut w, &l.plot, &obstacles);
     }
     legend::draw(
         &mut w,

@@ -13,11 +13,7 @@ use super::Tx;
 use super::field_tests::FieldTest;
 
 /// Columns of `field_tests` in the order of [`FieldTest`].
-const TEST_COLUMNS: &str = "id, project_id, lot_id, number, tested_at, technician, method, instrument_serial, chainage_m,
-    offset_m, depth_mm, coarse_pct, coarse_water_content_pct, easting, northing, readings_json, wet_density_kg_m3,
-    water_content_pct, dry_density_kg_m3, moisture_source, reduction_version, retest_of, void_reason, voided_by,
-    voided_at, created_at, created_by, instrument_check, instrument_note, operator_id, density_offset_kg_m3,
-    moisture_offset_pct";
+const TEST_COLUMNS: &str = super::field_tests::COLUMNS;
 
 const INSERT_WIDTH: usize = 32;
 
@@ -295,16 +291,6 @@ pub const VERDICT_COLUMNS: &str = "id, project_id, lot_id, number, '' AS tested_
     '' AS readings_json, wet_density_kg_m3, water_content_pct, dry_density_kg_m3, '' AS moisture_source,
     '' AS reduction_version, retest_of, void_reason, CAST(NULL AS TEXT) AS voided_by, CAST(NULL AS TEXT) AS voided_at, '' AS created_at,
     '' AS created_by, instrument_check, instrument_note, operator_id, density_offset_kg_m3, moisture_offset_pct";
-
-/// The columns of a test the lot verdict and the whole-project views need.
-///
-/// Same as [`FieldTest`] without `readings_json`, the one large text no whole-project
-/// view shows; see `field_tests::stream_for_views`.
-pub const VIEW_COLUMNS: &str = "id, project_id, lot_id, number, tested_at, technician, method, instrument_serial, chainage_m,
-    offset_m, depth_mm, coarse_pct, coarse_water_content_pct, easting, northing, '' AS readings_json, wet_density_kg_m3,
-    water_content_pct, dry_density_kg_m3, moisture_source, reduction_version, retest_of, void_reason, voided_by,
-    voided_at, created_at, created_by, instrument_check, instrument_note, operator_id, density_offset_kg_m3,
-    moisture_offset_pct";
 
 /// A saved column mapping of a project.
 #[derive(Debug, Clone, Serialize, sqlx::FromRow)]

@@ -49,11 +49,31 @@ pub struct FieldTest {
     pub moisture_offset_pct: Option<f64>,
 }
 
-pub(crate) const COLUMNS: &str = "id, project_id, lot_id, number, tested_at, technician, method, instrument_serial, chainage_m,
-    offset_m, depth_mm, coarse_pct, coarse_water_content_pct, easting, northing, readings_json, wet_density_kg_m3,
+/// The columns of `field_tests` after `id`, in the order of [`FieldTest`], with the
+/// expression given for `readings_json`: the one list every SELECT and INSERT of whole
+/// tests is written from (here and in `bulk`).
+macro_rules! columns_after_id {
+    ($readings_json:literal) => {
+        concat!(
+            "project_id, lot_id, number, tested_at, technician, method, instrument_serial, chainage_m,
+    offset_m, depth_mm, coarse_pct, coarse_water_content_pct, easting, northing, ",
+            $readings_json,
+            ", wet_density_kg_m3,
     water_content_pct, dry_density_kg_m3, moisture_source, reduction_version, retest_of, void_reason, voided_by,
     voided_at, created_at, created_by, instrument_check, instrument_note, operator_id, density_offset_kg_m3,
-    moisture_offset_pct";
+    moisture_offset_pct"
+        )
+    };
+}
+
+/// Every column of a stored test, in the order of [`FieldTest`].
+pub(crate) const COLUMNS: &str = concat!("id, ", columns_after_id!("readings_json"));
+
+/// The columns of a test the lot verdict and the whole-project views need.
+///
+/// Same as [`FieldTest`] without `readings_json`, the one large text no whole-project
+/// view shows; see [`stream_for_views`].
+const VIEW_COLUMNS: &str = concat!("id, ", columns_after_id!("'' AS readings_json"));
 
 /// Filters for listing tests across a project; `None` means "any".
 #[derive(Debug, Clone, Default)]
@@ -72,13 +92,12 @@ pub struct TestFilter {
 /// Inserts a test (`id` ignored) and returns its id.
 pub async fn insert(tx: &mut Tx<'_>, t: &FieldTest) -> sqlx::Result<i64> {
     sqlx::query_scalar(
-        "INSERT INTO field_tests (project_id, lot_id, number, tested_at, technician, method, instrument_serial,
-             chainage_m, offset_m, depth_mm, coarse_pct, coarse_water_content_pct, easting, northing, readings_json,
-             wet_density_kg_m3, water_content_pct, dry_density_kg_m3, moisture_source, reduction_version, retest_of,
-             void_reason, voided_by, voided_at, created_at, created_by, instrument_check, instrument_note,
-             operator_id, density_offset_kg_m3, moisture_offset_pct)
-         VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18, $19, $20, $21, $22, $23, $24, $25, $26,
-             $27, $28, $29, $30, $31) RETURNING id",
+        concat!(
+            "INSERT INTO field_tests (",
+            columns_after_id!("readings_json"),
+            ") VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18, $19, $20,
+             $21, $22, $23, $24, $25, $26, $27, $28, $29, $30, $31) RETURNING id"
+        ),
     )
     .bind(t.project_id)
     .bind(t.lot_id)
@@ -280,7 +299,7 @@ pub fn stream_for_views(
     let columns = if verdict_only {
         super::bulk::VERDICT_COLUMNS
     } else {
-        super::bulk::VIEW_COLUMNS
+        VIEW_COLUMNS
     };
     sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
         "SELECT {columns} FROM field_tests WHERE project_id = $1 ORDER BY lot_id, tested_at, id"

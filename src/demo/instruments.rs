@@ -102,10 +102,8 @@ async fn counts(
     Ok(())
 }
 
-/// Loads the register into the demo project `pid`.
-pub async fn load(pool: &Pool, pid: i64) -> anyhow::Result<()> {
-    let qc = Actor::system("D. Achterberg (achterberg)");
-    let tech = Actor::system("R. Okafor (okafor)");
+/// The register's gauge operators.
+async fn create_operators(pool: &Pool, qc: &Actor) -> anyhow::Result<()> {
     for (code, name) in [("okafor", "R. Okafor"), ("lindqvist", "M. Lindqvist")] {
         let input = OperatorInput {
             code: code.into(),
@@ -113,10 +111,15 @@ pub async fn load(pool: &Pool, pid: i64) -> anyhow::Result<()> {
             certification: format!("gauge operator card GO-{}", code.len() * 1111),
             expires_on: "2027-08-31".into(),
         };
-        reg::create_operator(pool, &input, &qc)
+        reg::create_operator(pool, &input, qc)
             .await
             .map_err(user_error)?;
     }
+    Ok(())
+}
+
+/// The two nuclear gauges with their leak test; (unit A, unit B).
+async fn register_gauges(pool: &Pool, pid: i64, qc: &Actor) -> anyhow::Result<(i64, i64)> {
     let g1 = register(
         pool,
         pid,
@@ -128,7 +131,7 @@ pub async fn load(pool: &Pool, pid: i64) -> anyhow::Result<()> {
             Some("2027-02-10"),
         ),
         "2026-11-23",
-        &qc,
+        qc,
     )
     .await?;
     // Due on 20 December: the project home lists it among calibrations due within 30 days.
@@ -143,66 +146,64 @@ pub async fn load(pool: &Pool, pid: i64) -> anyhow::Result<()> {
             Some("2026-12-20"),
         ),
         "2026-11-23",
-        &qc,
+        qc,
     )
     .await?;
-    reg::add_record(
-        pool,
-        g2,
-        &reg::RecordInput {
-            kind: reg::RecordKind::LeakTest,
-            done_on: "2026-06-20".into(),
-            due_on: Some("2026-12-20".into()),
-            reference: "wipe test WT-6310-2".into(),
-            cone_sand_mass_g: None,
-            sand_density_kg_m3: None,
-            volume_cm3: None,
-        },
-        &qc,
-    )
-    .await
-    .map_err(user_error)?;
+    let leak_test = reg::RecordInput {
+        kind: reg::RecordKind::LeakTest,
+        done_on: "2026-06-20".into(),
+        due_on: Some("2026-12-20".into()),
+        reference: "wipe test WT-6310-2".into(),
+        cone_sand_mass_g: None,
+        sand_density_kg_m3: None,
+        volume_cm3: None,
+    };
+    reg::add_record(pool, g2, &leak_test, qc)
+        .await
+        .map_err(user_error)?;
+    Ok((g1, g2))
+}
+
+/// Each gauge's baseline of four standard counts, then its daily counts: unit A steady,
+/// unit B drifting.
+async fn standard_counts(
+    pool: &Pool,
+    pid: i64,
+    (g1, g2): (i64, i64),
+    tech: &Actor,
+) -> anyhow::Result<()> {
     let baseline = [
         ("2026-11-24", 2811, 702),
         ("2026-11-25", 2806, 699),
         ("2026-11-26", 2798, 704),
         ("2026-11-27", 2805, 695),
     ];
-    counts(pool, pid, g1, &baseline, &tech).await?;
-    counts(
-        pool,
-        pid,
-        g1,
-        &[
-            ("2026-11-30", 2809, 700),
-            ("2026-12-01", 2801, 698),
-            ("2026-12-02", 2812, 705),
-        ],
-        &tech,
-    )
-    .await?;
+    counts(pool, pid, g1, &baseline, tech).await?;
+    let daily = [
+        ("2026-11-30", 2809, 700),
+        ("2026-12-01", 2801, 698),
+        ("2026-12-02", 2812, 705),
+    ];
+    counts(pool, pid, g1, &daily, tech).await?;
     let baseline2 = [
         ("2026-11-24", 3102, 655),
         ("2026-11-25", 3096, 652),
         ("2026-11-26", 3105, 658),
         ("2026-11-27", 3097, 651),
     ];
-    counts(pool, pid, g2, &baseline2, &tech).await?;
+    counts(pool, pid, g2, &baseline2, tech).await?;
     // Drift: −0.8 % on the 1st (still within 1 %), −1.6 % and −1.5 % on the 2nd (failed twice: caught).
-    counts(
-        pool,
-        pid,
-        g2,
-        &[
-            ("2026-11-30", 3090, 654),
-            ("2026-12-01", 3075, 653),
-            ("2026-12-02", 3050, 652),
-            ("2026-12-02", 3053, 651),
-        ],
-        &tech,
-    )
-    .await?;
+    let daily2 = [
+        ("2026-11-30", 3090, 654),
+        ("2026-12-01", 3075, 653),
+        ("2026-12-02", 3050, 652),
+        ("2026-12-02", 3053, 651),
+    ];
+    counts(pool, pid, g2, &daily2, tech).await
+}
 
+/// The sand cone and the two sand batches, the first leaving when the second arrives.
+async fn register_sand_cone(pool: &Pool, pid: i64, qc: &Actor) -> anyhow::Result<()> {
     let cone = InstrumentInput {
         cone_sand_mass_g: Some(1655.0),
         ..instrument(
@@ -213,7 +214,7 @@ pub async fn load(pool: &Pool, pid: i64) -> anyhow::Result<()> {
             Some("2027-09-01"),
         )
     };
-    register(pool, pid, cone, "2026-09-01", &qc).await?;
+    register(pool, pid, cone, "2026-09-01", qc).await?;
     let batch1 = InstrumentInput {
         sand_density_kg_m3: Some(1512.0),
         ..instrument(
@@ -224,8 +225,7 @@ pub async fn load(pool: &Pool, pid: i64) -> anyhow::Result<()> {
             None,
         )
     };
-    // The batch change: the first batch leaves the project when the second arrives.
-    register_until(pool, pid, batch1, "2026-09-01", Some("2026-11-25"), &qc).await?;
+    register_until(pool, pid, batch1, "2026-09-01", Some("2026-11-25"), qc).await?;
     let batch2 = InstrumentInput {
         sand_density_kg_m3: Some(1488.0),
         ..instrument(
@@ -236,9 +236,19 @@ pub async fn load(pool: &Pool, pid: i64) -> anyhow::Result<()> {
             None,
         )
     };
-    register(pool, pid, batch2, "2026-11-26", &qc).await?;
+    register(pool, pid, batch2, "2026-11-26", qc).await?;
+    Ok(())
+}
 
-    tests_on_an_open_lot(pool, pid, g1, &qc, &tech)
+/// Loads the register into the demo project `pid`.
+pub async fn load(pool: &Pool, pid: i64) -> anyhow::Result<()> {
+    let qc = Actor::system("D. Achterberg (achterberg)");
+    let tech = Actor::system("R. Okafor (okafor)");
+    create_operators(pool, &qc).await?;
+    let gauges = register_gauges(pool, pid, &qc).await?;
+    standard_counts(pool, pid, gauges, &tech).await?;
+    register_sand_cone(pool, pid, &qc).await?;
+    tests_on_an_open_lot(pool, pid, gauges.0, &qc, &tech)
         .await
         .context("demo instrument tests")
 }

@@ -35,8 +35,12 @@ fn reading(dry: f64, w: f64) -> Value {
 /// Relative compaction aimed at per test against curve HX4-A (its 8th test onwards creep above 100 %).
 const RC_TARGETS: [f64; 9] = [96.0, 95.6, 96.3, 95.9, 96.4, 96.1, 100.6, 100.9, 101.3];
 
-/// Loads the part into project `pid`.
-pub async fn load(pool: &Pool, pid: i64, setup: &Actor, entry: &Actor) -> anyhow::Result<()> {
+/// The haul ramp's clause, which allows one-point references.
+async fn create_clause(
+    pool: &Pool,
+    pid: i64,
+    setup: &Actor,
+) -> anyhow::Result<crate::db::clauses::Clause> {
     let clause = ledger::setup::create_clause(
         pool,
         pid,
@@ -55,6 +59,18 @@ pub async fn load(pool: &Pool, pid: i64, setup: &Actor, entry: &Actor) -> anyhow
     ledger::planning::set_terms(pool, clause.id, &terms, setup)
         .await
         .map_err(err)?;
+    Ok(clause)
+}
+
+/// The cut's source and its two curves, the family the one-point checks are placed in.
+async fn create_source_and_curves(
+    pool: &Pool,
+    pid: i64,
+    setup: &Actor,
+) -> anyhow::Result<(
+    crate::db::sources::Source,
+    Vec<crate::db::lab_tests::LabTest>,
+)> {
     let source = ledger::setup::create_source(
         pool,
         pid,
@@ -94,6 +110,17 @@ pub async fn load(pool: &Pool, pid: i64, setup: &Actor, entry: &Actor) -> anyhow
                 .map_err(err)?,
         );
     }
+    Ok((source, labs))
+}
+
+/// The ramp's layer and its two lots on curve HX4-A.
+async fn create_lots(
+    pool: &Pool,
+    pid: i64,
+    clause_id: i64,
+    lab_test_id: i64,
+    setup: &Actor,
+) -> anyhow::Result<Vec<crate::db::lots::Lot>> {
     let layer = ledger::setup::create_layer(
         pool,
         pid,
@@ -105,13 +132,21 @@ pub async fn load(pool: &Pool, pid: i64, setup: &Actor, entry: &Actor) -> anyhow
     let mut lots = Vec::new();
     for (code, from, to) in [("HR01-1", 0.0, 200.0), ("HR01-2", 200.0, 400.0)] {
         let input = json!({"code": code, "layer_id": layer.id, "chainage_from_m": from, "chainage_to_m": to,
-            "offset_left_m": -5.0, "offset_right_m": 5.0, "clause_id": clause.id, "lab_test_id": labs[0].id});
+            "offset_left_m": -5.0, "offset_right_m": 5.0, "clause_id": clause_id, "lab_test_id": lab_test_id});
         lots.push(
             ledger::setup::create_lot(pool, pid, &parse(input)?, setup)
                 .await
                 .map_err(err)?,
         );
     }
+    Ok(lots)
+}
+
+/// Loads the part into project `pid`.
+pub async fn load(pool: &Pool, pid: i64, setup: &Actor, entry: &Actor) -> anyhow::Result<()> {
+    let clause = create_clause(pool, pid, setup).await?;
+    let (source, labs) = create_source_and_curves(pool, pid, setup).await?;
+    let lots = create_lots(pool, pid, clause.id, labs[0].id, setup).await?;
     let plan_req = ledger::planning::PlanRequest {
         seed: Some(4_417_202_611),
         edge_m: 0.5,

@@ -392,10 +392,65 @@ struct Run<'a> {
     report: ImportReport,
 }
 
+/// Why a row's check stopped short of a new test.
+enum Halt {
+    /// The row has problems of its own (its number is remembered as refused).
+    Refused(Vec<RowProblem>),
+    /// The row's number is already taken by other content.
+    Conflict(RowProblem),
+    /// Not the row's fault: the import stops.
+    Fault(AppError),
+}
+
+impl Halt {
+    /// A refusal of the ledger's checks named at the row's column; a fault stays one.
+    fn of(row: &ImportRow, e: AppError) -> Self {
+        match e {
+            AppError::Internal(_) => Halt::Fault(e),
+            e => Halt::Refused(vec![row.problem(e.field(), e.user_message())]),
+        }
+    }
+}
+
+/// A row that passed every check, ready to be numbered and queued.
+struct Checked<'a> {
+    ctx: &'a LotContext,
+    record: FieldTest,
+    target: Option<(String, Seen)>,
+    hash: u64,
+}
+
+/// Both parts of a row an import cannot do without.
+fn required_fields(row: &ImportRow, number: &str) -> std::result::Result<(), Halt> {
+    let mut problems = Vec::new();
+    if number.is_empty() {
+        problems.push(row.problem(
+            "number",
+            "is required in an import: a re-upload is matched by test number",
+        ));
+    }
+    if row
+        .input
+        .tested_at
+        .as_deref()
+        .is_none_or(|t| t.trim().is_empty())
+    {
+        problems.push(row.problem(
+            "tested_at",
+            "is required in an import: when was the test taken?",
+        ));
+    }
+    if problems.is_empty() {
+        Ok(())
+    } else {
+        Err(Halt::Refused(problems))
+    }
+}
+
 /// Most refused numbers remembered (to explain a retest of a refused row).
 const MAX_REFUSED_NUMBERS: usize = 100_000;
 
-impl Run<'_> {
+impl<'a> Run<'a> {
     /// Remembers a stored test met as a retest target or a repeated number.
     fn remember_stored(&mut self, t: &FieldTest, stored: &Stored) -> Seen {
         if let Some(s) = self.seen.get(t.number.as_str()) {
@@ -434,7 +489,6 @@ impl Run<'_> {
     /// Checks one row; queues it for insertion when it is new and sound. No database
     /// access: what the row needs of the store was looked up for its chunk.
     fn process(&mut self, row: ImportRow, stored: &Stored) -> Result<()> {
-        let mut problems = Vec::new();
         let number = row
             .input
             .number
@@ -442,123 +496,40 @@ impl Run<'_> {
             .map(str::trim)
             .unwrap_or("")
             .to_string();
-        if number.is_empty() {
-            problems.push(row.problem(
-                "number",
-                "is required in an import: a re-upload is matched by test number",
-            ));
-        }
-        if row
-            .input
-            .tested_at
-            .as_deref()
-            .is_none_or(|t| t.trim().is_empty())
-        {
-            problems.push(row.problem(
-                "tested_at",
-                "is required in an import: when was the test taken?",
-            ));
-        }
-        if !problems.is_empty() {
-            self.refuse(&number, problems);
-            return Ok(());
-        }
-
-        // The failed test this row retests, if any.
-        let mut target: Option<(String, Seen)> = None;
-        if let Some(failed) = row
-            .retest_of
-            .as_deref()
-            .map(str::trim)
-            .filter(|s| !s.is_empty())
-        {
-            let found = match self.seen.get(failed) {
-                Some(s) => Some(*s),
-                None => stored
-                    .tests
-                    .get(failed)
-                    .map(|t| self.remember_stored(t, stored)),
-            };
-            match found {
-                Some(s) => target = Some((failed.to_string(), s)),
-                None if self.refused_numbers.contains(failed) => {
-                    self.refuse(
-                        &number,
-                        vec![row.problem(
-                            "retest_of",
-                            format!(
-                                "test {failed} is on an earlier row that has problems of its own"
-                            ),
-                        )],
-                    );
-                    return Ok(());
-                }
-                None => {
-                    self.refuse(
-                        &number,
-                        vec![row.problem(
-                            "retest_of",
-                            format!(
-                                "test {failed} is neither stored nor on an earlier row of this file"
-                            ),
-                        )],
-                    );
-                    return Ok(());
-                }
+        match self.check_row(&row, &number, stored) {
+            Ok(Some(checked)) => {
+                self.accept(&row, number, checked);
+                Ok(())
             }
+            Ok(None) => Ok(()),
+            Err(Halt::Refused(problems)) => {
+                self.refuse(&number, problems);
+                Ok(())
+            }
+            Err(Halt::Conflict(problem)) => {
+                self.report.conflicts += 1;
+                self.refuse("", vec![problem]);
+                Ok(())
+            }
+            Err(Halt::Fault(e)) => Err(e),
         }
+    }
 
-        // The lot: named, or the failed test's.
-        let lot_code = row.lot.as_deref().map(str::trim).filter(|s| !s.is_empty());
-        let ctx =
-            match (lot_code, &target) {
-                (Some(code), _) => match self.lots.by_code.get(code) {
-                    Some(i) => &self.lots.all[*i],
-                    None => {
-                        self.refuse(
-                            &number,
-                            vec![row.problem(
-                                "lot",
-                                format!("lot {code} does not exist in this project"),
-                            )],
-                        );
-                        return Ok(());
-                    }
-                },
-                (None, Some((_, s))) => match self.lots.by_id(s.lot_id) {
-                    Some(ctx) => ctx,
-                    None => {
-                        return Err(anyhow::anyhow!("test on unknown lot {}", s.lot_id).into());
-                    }
-                },
-                (None, None) => {
-                    self.refuse(&number, vec![row.problem("lot", "is required")]);
-                    return Ok(());
-                }
-            };
-        if let Some((failed, s)) = &target
-            && s.lot_id != ctx.lot.id
-        {
-            let other = self
-                .lots
-                .by_id(s.lot_id)
-                .map_or("another lot".to_string(), |l| format!("lot {}", l.lot.code));
-            self.refuse(
-                &number,
-                vec![row.problem(
-                    "lot",
-                    format!(
-                        "test {failed} is on {other}; a retest belongs to the failed test's lot"
-                    ),
-                )],
-            );
-            return Ok(());
-        }
-
+    /// The steps of a row's check, in order; `None` for a row already stored or already
+    /// met in this file with the same content (counted, nothing queued).
+    fn check_row(
+        &mut self,
+        row: &ImportRow,
+        number: &str,
+        stored: &Stored,
+    ) -> std::result::Result<Option<Checked<'a>>, Halt> {
+        required_fields(row, number)?;
+        let target = self.retest_target(row, stored)?;
+        let ctx = self.lot_of(row, target.as_ref())?;
         let fallback = target
             .as_ref()
             .and_then(|(n, _)| self.failed_spots.get(n.as_str()).copied());
-        let mut record = match super::instruments::check::check_with_instruments(
+        let mut record = super::instruments::check::check_with_instruments(
             self.instruments,
             ctx,
             &row.input,
@@ -566,75 +537,154 @@ impl Run<'_> {
             &self.opts.actor,
             &self.now,
             super::instruments::check::Arrival::Import,
-        ) {
-            Ok(c) => c.record,
-            Err(AppError::Internal(e)) => return Err(AppError::Internal(e)),
-            Err(e) => {
-                self.refuse(&number, vec![row.problem(e.field(), e.user_message())]);
-                return Ok(());
-            }
-        };
+        )
+        .map_err(|e| Halt::of(row, e))?
+        .record;
         record.retest_of = target.as_ref().map(|(_, s)| s.id);
         let hash = content_hash(&record);
+        if self.met_before(row, number, hash, &record, stored)? {
+            return Ok(None);
+        }
+        self.retest_rules(row, ctx, target.as_ref())?;
+        if let Err(e) = field::require_lot_takes_tests(&ctx.lot) {
+            return Err(Halt::Refused(vec![row.problem("lot", e.user_message())]));
+        }
+        Ok(Some(Checked {
+            ctx,
+            record,
+            target,
+            hash,
+        }))
+    }
 
-        // The same number met before: in this file, or stored.
-        if let Some(prev) = self.seen.get(number.as_str()).copied()
+    /// The failed test a row retests, if it names one: met earlier in this file or stored.
+    fn retest_target(
+        &mut self,
+        row: &ImportRow,
+        stored: &Stored,
+    ) -> std::result::Result<Option<(String, Seen)>, Halt> {
+        let Some(failed) = row
+            .retest_of
+            .as_deref()
+            .map(str::trim)
+            .filter(|s| !s.is_empty())
+        else {
+            return Ok(None);
+        };
+        let found = match self.seen.get(failed) {
+            Some(s) => Some(*s),
+            None => stored
+                .tests
+                .get(failed)
+                .map(|t| self.remember_stored(t, stored)),
+        };
+        match found {
+            Some(s) => Ok(Some((failed.to_string(), s))),
+            None => {
+                let reason = if self.refused_numbers.contains(failed) {
+                    format!("test {failed} is on an earlier row that has problems of its own")
+                } else {
+                    format!("test {failed} is neither stored nor on an earlier row of this file")
+                };
+                Err(Halt::Refused(vec![row.problem("retest_of", reason)]))
+            }
+        }
+    }
+
+    /// The row's lot: named, or the failed test's; a retest stays on the failed test's lot.
+    fn lot_of(
+        &self,
+        row: &ImportRow,
+        target: Option<&(String, Seen)>,
+    ) -> std::result::Result<&'a LotContext, Halt> {
+        let lots = self.lots;
+        let lot_code = row.lot.as_deref().map(str::trim).filter(|s| !s.is_empty());
+        let ctx = match (lot_code, target) {
+            (Some(code), _) => match lots.by_code.get(code) {
+                Some(i) => &lots.all[*i],
+                None => {
+                    let reason = format!("lot {code} does not exist in this project");
+                    return Err(Halt::Refused(vec![row.problem("lot", reason)]));
+                }
+            },
+            (None, Some((_, s))) => lots.by_id(s.lot_id).ok_or_else(|| {
+                Halt::Fault(anyhow::anyhow!("test on unknown lot {}", s.lot_id).into())
+            })?,
+            (None, None) => return Err(Halt::Refused(vec![row.problem("lot", "is required")])),
+        };
+        if let Some((failed, s)) = target
+            && s.lot_id != ctx.lot.id
+        {
+            let other = lots
+                .by_id(s.lot_id)
+                .map_or("another lot".to_string(), |l| format!("lot {}", l.lot.code));
+            let reason =
+                format!("test {failed} is on {other}; a retest belongs to the failed test's lot");
+            return Err(Halt::Refused(vec![row.problem("lot", reason)]));
+        }
+        Ok(ctx)
+    }
+
+    /// Whether the row's number was met before with the same content (true: counted as
+    /// skipped); a conflict when the content differs. Nothing stored is overwritten.
+    fn met_before(
+        &mut self,
+        row: &ImportRow,
+        number: &str,
+        hash: u64,
+        record: &FieldTest,
+        stored: &Stored,
+    ) -> std::result::Result<bool, Halt> {
+        if let Some(prev) = self.seen.get(number).copied()
             && prev.in_file
         {
-            if prev.hash == hash {
-                self.report.skipped_repeated += 1;
-            } else {
-                self.report.conflicts += 1;
-                self.refuse(
-                    "",
-                    vec![row.problem(
-                        "number",
-                        format!(
-                            "test number {number} is already on row {} of this file with different content",
-                            prev.row
-                        ),
-                    )],
-                );
+            if prev.hash != hash {
+                return Err(Halt::Conflict(row.problem(
+                    "number",
+                    format!(
+                        "test number {number} is already on row {} of this file with different content",
+                        prev.row
+                    ),
+                )));
             }
-            return Ok(());
+            self.report.skipped_repeated += 1;
+            return Ok(true);
         }
-        if let Some(old) = stored.tests.get(number.as_str()) {
-            let diff = differences(&record, old);
-            if diff.is_empty() {
-                self.report.skipped_identical += 1;
-                let mut s = self.remember_stored(old, stored);
-                s.hash = hash;
-                s.in_file = true;
-                s.row = row.row;
-                self.seen.insert(number.as_str().into(), s);
-            } else {
-                self.report.conflicts += 1;
-                self.refuse(
-                    "",
-                    vec![row.problem(
-                        "number",
-                        format!(
-                            "test number {number} is already stored with a different {}; nothing is overwritten",
-                            diff.join(", ")
-                        ),
-                    )],
-                );
-            }
-            return Ok(());
+        let Some(old) = stored.tests.get(number) else {
+            return Ok(false);
+        };
+        let diff = differences(record, old);
+        if !diff.is_empty() {
+            return Err(Halt::Conflict(row.problem(
+                "number",
+                format!(
+                    "test number {number} is already stored with a different {}; nothing is overwritten",
+                    diff.join(", ")
+                ),
+            )));
         }
+        self.report.skipped_identical += 1;
+        let mut s = self.remember_stored(old, stored);
+        s.hash = hash;
+        s.in_file = true;
+        s.row = row.row;
+        self.seen.insert(number.into(), s);
+        Ok(true)
+    }
 
-        // A new test: the retest rules of single entry, then the verdict.
-        if target.is_some()
-            && let Some(refusal) = field::sampled_lot_refusal(&ctx.lot, &ctx.clause)
-        {
-            self.refuse(
-                &number,
-                vec![row.problem("retest_of", refusal.user_message())],
-            );
+    /// The retest rules of single entry: a lot judged on a sample takes no retests, and
+    /// only a live failed test without a retest may be retested.
+    fn retest_rules(
+        &self,
+        row: &ImportRow,
+        ctx: &LotContext,
+        target: Option<&(String, Seen)>,
+    ) -> std::result::Result<(), Halt> {
+        let Some((failed, s)) = target else {
             return Ok(());
-        }
-        if let Some((failed, s)) = &target
-            && let Some(refusal) = field::retest_refusal(RetestTarget {
+        };
+        let refusal = field::sampled_lot_refusal(&ctx.lot, &ctx.clause).or_else(|| {
+            field::retest_refusal(RetestTarget {
                 number: failed,
                 voided: s.voided,
                 passed: s.passed,
@@ -644,17 +694,24 @@ impl Run<'_> {
                     None
                 },
             })
-        {
-            self.refuse(
-                &number,
-                vec![row.problem("retest_of", refusal.user_message())],
-            );
-            return Ok(());
+        });
+        match refusal {
+            Some(e) => Err(Halt::Refused(vec![
+                row.problem("retest_of", e.user_message()),
+            ])),
+            None => Ok(()),
         }
-        if let Err(e) = field::require_lot_takes_tests(&ctx.lot) {
-            self.refuse(&number, vec![row.problem("lot", e.user_message())]);
-            return Ok(());
-        }
+    }
+
+    /// A new test: numbered, remembered for later rows, counted, and queued while the
+    /// commit can still go ahead.
+    fn accept(&mut self, row: &ImportRow, number: String, checked: Checked<'a>) {
+        let Checked {
+            ctx,
+            mut record,
+            target,
+            hash,
+        } = checked;
         let passed = field::judge(ctx, &record).is_ok_and(|v| v.passed);
         record.id = self.next_id;
         record.number = number.clone();
@@ -693,25 +750,29 @@ impl Run<'_> {
             .or_default() += 1;
         if self.opts.commit && self.report.rows_with_problems == 0 {
             if self.opts.audit == AuditMode::PerTest {
-                self.pending_audit.push(bulk::AuditRow {
-                    at: self.now.clone(),
-                    actor: self.opts.actor.name.clone(),
-                    action: if record.retest_of.is_some() {
-                        "retest".into()
-                    } else {
-                        "create".into()
-                    },
-                    entity: "field_test".into(),
-                    entity_id: Some(record.id),
-                    project_id: Some(self.project_id),
-                    before_json: None,
-                    after_json: Some(json!(record).to_string()),
-                    origin: self.opts.actor.origin.clone(),
-                });
+                self.pending_audit.push(self.audit_row(&record));
             }
             self.pending.push(record);
         }
-        Ok(())
+    }
+
+    /// The audit row of a test created by a per-test audited import.
+    fn audit_row(&self, record: &FieldTest) -> bulk::AuditRow {
+        bulk::AuditRow {
+            at: self.now.clone(),
+            actor: self.opts.actor.name.clone(),
+            action: if record.retest_of.is_some() {
+                "retest".into()
+            } else {
+                "create".into()
+            },
+            entity: "field_test".into(),
+            entity_id: Some(record.id),
+            project_id: Some(self.project_id),
+            before_json: None,
+            after_json: Some(json!(record).to_string()),
+            origin: self.opts.actor.origin.clone(),
+        }
     }
 
     fn refuse(&mut self, number: &str, problems: Vec<RowProblem>) {
@@ -805,6 +866,74 @@ fn read_chunk(source: &mut dyn RowSource) -> Vec<RowResult> {
     chunk
 }
 
+/// Checks every row of the source chunk by chunk and, on a commit, inserts what passed.
+///
+/// A pipeline: while the write connection inserts chunk k, chunk k + 1 is checked and
+/// chunk k + 2 looked up on a second connection (`reader`), which sees the store as it
+/// was before this import (the import's writes are not committed, and no one else can
+/// commit). A project without tests (`empty`, a first import) has nothing to look up.
+async fn check_and_insert(
+    run: &mut Run<'_>,
+    source: &mut dyn RowSource,
+    tx: &mut crate::db::Conn,
+    reader: &mut crate::db::Conn,
+    empty: bool,
+) -> Result<()> {
+    let (project_id, commit) = (run.project_id, run.opts.commit);
+    let mut chunk = read_chunk(source);
+    let mut stored = look_up(reader, project_id, &chunk, &run.seen, empty).await?;
+    while !chunk.is_empty() {
+        let tests = std::mem::take(&mut run.pending);
+        let audits = std::mem::take(&mut run.pending_audit);
+        let checking = async {
+            for (i, r) in chunk.drain(..).enumerate() {
+                run.report.rows += 1;
+                match r {
+                    Ok(row) => run.process(row, &stored)?,
+                    Err(problems) => run.refuse("", problems),
+                }
+                if i % YIELD_ROWS == YIELD_ROWS - 1 {
+                    // Lets the insert beside it send its next statement.
+                    tokio::task::yield_now().await;
+                }
+            }
+            let next = read_chunk(source);
+            let next_stored = look_up(reader, project_id, &next, &run.seen, empty).await?;
+            Ok::<_, AppError>((next, next_stored))
+        };
+        let (inserted, next) = if commit && !tests.is_empty() {
+            tokio::join!(insert_queued(tx, tests, audits), checking)
+        } else {
+            (Ok(()), checking.await)
+        };
+        inserted?;
+        (chunk, stored) = next?;
+    }
+    if commit && run.report.rows_with_problems == 0 {
+        let tests = std::mem::take(&mut run.pending);
+        let audits = std::mem::take(&mut run.pending_audit);
+        insert_queued(tx, tests, audits).await?;
+    }
+    Ok(())
+}
+
+/// What the import's one audit row records: the file, what it created and skipped.
+fn import_audit(report: &ImportReport) -> serde_json::Value {
+    json!({
+        "file_name": report.origin.file_name,
+        "bytes": report.origin.bytes,
+        "sha256": report.origin.sha256,
+        "rows": report.rows,
+        "created": report.new_tests,
+        "retests": report.new_retests,
+        "created_ids": report.created_ids.map(|(a, b)| json!({"first": a, "last": b})),
+        "per_lot": report.new_per_lot,
+        "skipped_identical": report.skipped_identical,
+        "skipped_repeated": report.skipped_repeated,
+        "audit": report.audit,
+    })
+}
+
 /// Checks (dry run) or imports (commit) every row of a source into a project.
 ///
 /// A dry run writes nothing. A commit writes all rows or none, in one write transaction
@@ -860,46 +989,9 @@ pub async fn import_field_tests(
         },
     };
     let first_id = run.next_id;
-    // A pipeline: while the write connection inserts chunk k, chunk k + 1 is checked and
-    // chunk k + 2 looked up on a second connection, which sees the store as it was before
-    // this import (the import's writes are not committed, and no one else can commit).
     let mut reader = pool.acquire().await?;
-    // A project without tests (a first import) has nothing to look up.
     let empty = bulk::test_id_range(pool, project_id).await?.is_none();
-    let mut chunk = read_chunk(source);
-    let mut stored = look_up(&mut reader, project_id, &chunk, &run.seen, empty).await?;
-    while !chunk.is_empty() {
-        let tests = std::mem::take(&mut run.pending);
-        let audits = std::mem::take(&mut run.pending_audit);
-        let checking = async {
-            for (i, r) in chunk.drain(..).enumerate() {
-                run.report.rows += 1;
-                match r {
-                    Ok(row) => run.process(row, &stored)?,
-                    Err(problems) => run.refuse("", problems),
-                }
-                if i % YIELD_ROWS == YIELD_ROWS - 1 {
-                    // Lets the insert beside it send its next statement.
-                    tokio::task::yield_now().await;
-                }
-            }
-            let next = read_chunk(source);
-            let next_stored = look_up(&mut reader, project_id, &next, &run.seen, empty).await?;
-            Ok::<_, AppError>((next, next_stored))
-        };
-        let (inserted, next) = if opts.commit && !tests.is_empty() {
-            tokio::join!(insert_queued(&mut tx, tests, audits), checking)
-        } else {
-            (Ok(()), checking.await)
-        };
-        inserted?;
-        (chunk, stored) = next?;
-    }
-    if opts.commit && run.report.rows_with_problems == 0 {
-        let tests = std::mem::take(&mut run.pending);
-        let audits = std::mem::take(&mut run.pending_audit);
-        insert_queued(&mut tx, tests, audits).await?;
-    }
+    check_and_insert(&mut run, source, &mut tx, &mut reader, empty).await?;
     run.report.origin = source.origin();
     let mut report = run.report;
     if !opts.commit || report.refused() {
@@ -927,19 +1019,7 @@ pub async fn import_field_tests(
             entity_id: report.created_ids.map(|(a, _)| a),
             project_id: Some(project_id),
             before: None,
-            after: Some(json!({
-                "file_name": report.origin.file_name,
-                "bytes": report.origin.bytes,
-                "sha256": report.origin.sha256,
-                "rows": report.rows,
-                "created": report.new_tests,
-                "retests": report.new_retests,
-                "created_ids": report.created_ids.map(|(a, b)| json!({"first": a, "last": b})),
-                "per_lot": report.new_per_lot,
-                "skipped_identical": report.skipped_identical,
-                "skipped_repeated": report.skipped_repeated,
-                "audit": report.audit,
-            })),
+            after: Some(import_audit(&report)),
             origin: &opts.actor.origin,
         },
         &clock::now(),

@@ -9,7 +9,7 @@ use super::setup::{clause_moisture, clause_rule};
 use crate::db::{self, Pool};
 use crate::domain::{DisplayState, Rule, Standing};
 use crate::error::{AppError, Result};
-use crate::reduction::acceptance::{LotTestInput, TestStanding, evaluate_lot_with};
+use crate::reduction::acceptance::{LotTestInput, LotVerdict, TestStanding, evaluate_lot_with};
 use crate::reduction::frequency::{FrequencyRule, tests_owed, tests_required};
 use crate::reduction::plausibility::{PlausibilityFlag, PlausibilityInput, flags};
 use crate::reduction::verdict::{Reference, SpecLimits, judge_test, reference_for_coarse_fraction};
@@ -335,43 +335,44 @@ pub async fn build(pool: &Pool, lot_id: i64) -> Result<LotReport> {
     )
 }
 
-/// Judges a lot from already-loaded rows (also used for bulk views). `extras` holds the
-/// one-point references of its tests (where the clause allows) and its current plan.
-#[allow(clippy::too_many_arguments)]
-pub fn assemble(
-    lot: db::lots::Lot,
-    project: db::projects::Project,
-    clause: db::clauses::Clause,
-    source: db::sources::Source,
-    lab_test: db::lab_tests::LabTest,
-    tests: Vec<db::field_tests::FieldTest>,
-    certificate: Option<db::certificates::Certificate>,
-    extras: &super::planning::LotExtras,
-) -> Result<LotReport> {
-    let reference = reference_of(&lab_test)?;
-    let limits = limits_of(&clause)?;
-    let rule = clause_rule(&clause)?;
-    let moisture = clause_moisture(&clause);
+/// A test judged: the reference it was judged against, its verdict, and why it has none.
+type Judged = (
+    Option<Reference>,
+    Option<crate::reduction::verdict::TestVerdict>,
+    Vec<String>,
+);
 
-    let judged: Vec<_> = tests
+/// Every test judged against its own reference (one-point, where the clause allows) or
+/// the lot's; a test out of instrument check is not judged.
+fn judge_tests(
+    tests: &[db::field_tests::FieldTest],
+    reference: &Reference,
+    limits: &SpecLimits,
+    source: &db::sources::Source,
+    clause: &db::clauses::Clause,
+    extras: &super::planning::LotExtras,
+) -> Vec<Judged> {
+    tests
         .iter()
         .map(|t| match out_of_check(t) {
             Some(reason) => (None, None, vec![reason]),
             None => {
                 let own = extras.reference_of_test(t.id, reference.specific_gravity);
-                judge_line(
-                    t,
-                    own.as_ref().unwrap_or(&reference),
-                    &limits,
-                    &source,
-                    &clause,
-                )
+                judge_line(t, own.as_ref().unwrap_or(reference), limits, source, clause)
             }
         })
-        .collect();
-    let inputs: Vec<LotTestInput> = tests
+        .collect()
+}
+
+/// The lot acceptance's view of each judged test.
+fn lot_inputs(
+    lot: &db::lots::Lot,
+    tests: &[db::field_tests::FieldTest],
+    judged: &[Judged],
+) -> Vec<LotTestInput> {
+    tests
         .iter()
-        .zip(&judged)
+        .zip(judged)
         .map(|(t, (_, v, reasons))| LotTestInput {
             id: t.id,
             label: t.number.clone(),
@@ -386,128 +387,157 @@ pub fn assemble(
             unjudged: v.is_none().then(|| reasons.join("; ")),
             earlier_sample: lot.sample_after_test_id.is_some_and(|after| t.id <= after),
         })
-        .collect();
-    let lv = evaluate_lot_with(&inputs, &rule, &limits, &moisture);
+        .collect()
+}
 
-    let number_of = |id: i64| tests.iter().find(|t| t.id == id).map(|t| t.number.clone());
-    let lines: Vec<TestLine> = tests
-        .iter()
-        .zip(judged)
-        .map(|(t, (r, v, reasons))| {
-            let standing = lv
-                .standings
-                .iter()
-                .find(|(id, _)| *id == t.id)
-                .map(|(_, s)| s);
-            let (standing, superseded_by) = match standing {
-                Some(TestStanding::Voided) => (Standing::Voided, None),
-                Some(TestStanding::Superseded { by }) => (Standing::Superseded, number_of(*by)),
-                Some(TestStanding::CannotBeJudged) => (Standing::CannotBeJudged, None),
-                Some(TestStanding::EarlierSample) => (Standing::EarlierSample, None),
-                _ if t.void_reason.is_some() => (Standing::Voided, None),
-                _ => (Standing::Counted, None),
-            };
-            let rc = v.as_ref().map(|v| v.relative_compaction_pct);
-            TestLine {
-                unjudged_reason: v.is_none().then(|| reasons.join("; ")),
-                flags: flags_of(t, &lot, &lab_test, &clause, rc),
-                coarse_water_assumed_pct: coarse_water_assumed(t, &clause),
-                test: t.clone(),
-                reference_mdd_kg_m3: r.as_ref().map(|r| r.max_dry_density.kg_m3()),
-                reference_omc_pct: r.as_ref().map(|r| r.optimum_water_content.pct()),
-                relative_compaction_pct: v.as_ref().map(|v| v.relative_compaction_pct),
-                moisture_deviation_pct: v.as_ref().map(|v| v.moisture_deviation_pct),
-                air_voids_pct: v.as_ref().and_then(|v| v.air_voids_pct),
-                passed: v.as_ref().is_some_and(|v| v.passed),
-                standing,
-                superseded_by,
-                retest_of_number: t.retest_of.and_then(number_of),
-                reasons,
-                one_point_code: extras.one_point_of(t.id).map(|c| c.code.clone()),
-                plan_match: extras.match_test(t),
-            }
-        })
-        .collect();
+/// The rows a lot's set-up gives every test line.
+struct LineContext<'a> {
+    lot: &'a db::lots::Lot,
+    lab_test: &'a db::lab_tests::LabTest,
+    clause: &'a db::clauses::Clause,
+    tests: &'a [db::field_tests::FieldTest],
+    extras: &'a super::planning::LotExtras,
+}
 
-    let length_m = lot.chainage_to_m - lot.chainage_from_m;
-    let width_m = lot.offset_right_m - lot.offset_left_m;
-    let frequency = FrequencyRule {
-        min_per_lot: u32::try_from(clause.min_tests_per_lot).unwrap_or(1),
-        area_per_test_m2: clause.area_per_test_m2,
-        length_per_test_m: clause.length_per_test_m,
-    };
-    let required = tests_required(&frequency, length_m, width_m);
-    let owed = tests_owed(required, lv.n);
-    let failing_without_retest: Vec<String> = lv
-        .failing_without_retest
-        .iter()
-        .filter_map(|id| number_of(*id))
-        .collect();
+impl LineContext<'_> {
+    fn number_of(&self, id: i64) -> Option<String> {
+        self.tests
+            .iter()
+            .find(|t| t.id == id)
+            .map(|t| t.number.clone())
+    }
 
-    let mut submit_blockers = Vec::new();
-    if owed > 0 {
-        submit_blockers.push(format!(
-            "{owed} more test{} owed: {required} required, {} counted",
-            if owed == 1 { " is" } else { "s are" },
+    /// How a test stands in the lot's verdict, and the retest superseding it.
+    fn standing(
+        &self,
+        t: &db::field_tests::FieldTest,
+        lv: &LotVerdict,
+    ) -> (Standing, Option<String>) {
+        let standing = lv
+            .standings
+            .iter()
+            .find(|(id, _)| *id == t.id)
+            .map(|(_, s)| s);
+        match standing {
+            Some(TestStanding::Voided) => (Standing::Voided, None),
+            Some(TestStanding::Superseded { by }) => (Standing::Superseded, self.number_of(*by)),
+            Some(TestStanding::CannotBeJudged) => (Standing::CannotBeJudged, None),
+            Some(TestStanding::EarlierSample) => (Standing::EarlierSample, None),
+            _ if t.void_reason.is_some() => (Standing::Voided, None),
+            _ => (Standing::Counted, None),
+        }
+    }
+
+    fn line(&self, t: &db::field_tests::FieldTest, judged: Judged, lv: &LotVerdict) -> TestLine {
+        let (r, v, reasons) = judged;
+        let (standing, superseded_by) = self.standing(t, lv);
+        let rc = v.as_ref().map(|v| v.relative_compaction_pct);
+        TestLine {
+            unjudged_reason: v.is_none().then(|| reasons.join("; ")),
+            flags: flags_of(t, self.lot, self.lab_test, self.clause, rc),
+            coarse_water_assumed_pct: coarse_water_assumed(t, self.clause),
+            test: t.clone(),
+            reference_mdd_kg_m3: r.as_ref().map(|r| r.max_dry_density.kg_m3()),
+            reference_omc_pct: r.as_ref().map(|r| r.optimum_water_content.pct()),
+            relative_compaction_pct: rc,
+            moisture_deviation_pct: v.as_ref().map(|v| v.moisture_deviation_pct),
+            air_voids_pct: v.as_ref().and_then(|v| v.air_voids_pct),
+            passed: v.as_ref().is_some_and(|v| v.passed),
+            standing,
+            superseded_by,
+            retest_of_number: t.retest_of.and_then(|id| self.number_of(id)),
+            reasons,
+            one_point_code: self.extras.one_point_of(t.id).map(|c| c.code.clone()),
+            plan_match: self.extras.match_test(t),
+        }
+    }
+}
+
+/// What a lot still owes and why it cannot be submitted yet.
+struct Owing {
+    required: u32,
+    owed: u32,
+    failing_without_retest: Vec<String>,
+}
+
+/// Everything that stops a submission, in the order a QC manager would deal with it.
+fn submit_blockers(
+    s: &Owing,
+    lv: &LotVerdict,
+    lines: &[TestLine],
+    clause: &db::clauses::Clause,
+    lab_test: &db::lab_tests::LabTest,
+) -> Vec<String> {
+    let mut blockers = Vec::new();
+    if s.owed > 0 {
+        blockers.push(format!(
+            "{} more test{} owed: {} required, {} counted",
+            s.owed,
+            if s.owed == 1 { " is" } else { "s are" },
+            s.required,
             lv.n
         ));
     }
     // Under every_test a failure needs its passing retest; the other rules tolerate
     // some low tests and let the lot verdict decide.
-    let every_test = clause.rule == Rule::EveryTest;
-    if !failing_without_retest.is_empty() && every_test {
-        submit_blockers.push(format!(
+    let failing = &s.failing_without_retest;
+    if !failing.is_empty() && clause.rule == Rule::EveryTest {
+        blockers.push(format!(
             "failed test{} without a passing retest: {}",
-            if failing_without_retest.len() == 1 {
-                ""
-            } else {
-                "s"
-            },
-            failing_without_retest.join(", ")
+            if failing.len() == 1 { "" } else { "s" },
+            failing.join(", ")
         ));
     }
-    for l in lines
-        .iter()
-        .filter(|l| l.standing == Standing::CannotBeJudged)
-    {
-        submit_blockers.push(format!(
+    for l in lines.iter().filter(|l| l.standing == Standing::CannotBeJudged) {
+        blockers.push(format!(
             "test {} cannot be judged: {}; void it or retest",
             l.test.number,
             l.unjudged_reason.as_deref().unwrap_or("no usable figures")
         ));
     }
-    if super::reference::Approval::of(&lab_test) == super::reference::Approval::NeedsApproval {
-        submit_blockers.push(format!(
+    if super::reference::Approval::of(lab_test) == super::reference::Approval::NeedsApproval {
+        blockers.push(format!(
             "the reference curve {} awaits a QC manager's approval: {}",
             lab_test.code,
-            super::reference::concern_messages(&lab_test).join("; ")
+            super::reference::concern_messages(lab_test).join("; ")
         ));
     }
-    if !lv.accepted && lv.n > 0 && owed == 0 {
-        submit_blockers.push(format!("the lot does not meet clause {}", clause.code));
-        submit_blockers.extend(lv.reasons.iter().cloned());
-    } else if lv.n == 0 && owed == 0 {
-        submit_blockers.push("the lot has no counted tests".to_string());
+    if !lv.accepted && lv.n > 0 && s.owed == 0 {
+        blockers.push(format!("the lot does not meet clause {}", clause.code));
+        blockers.extend(lv.reasons.iter().cloned());
+    } else if lv.n == 0 && s.owed == 0 {
+        blockers.push("the lot has no counted tests".to_string());
     }
+    blockers
+}
 
-    let mut fingerprint = fingerprint(&lot, &clause, &lab_test, &tests);
-    if let Some(extra) = extras.fingerprint_part() {
-        // Only a lot with one-point references changes its fingerprint, so older certificates stay current.
-        fingerprint = format!("{:x}", Sha256::digest(format!("{fingerprint}|{extra}")));
-    }
-    let certificate_current = certificate
-        .as_ref()
-        .is_some_and(|c| c.withdrawn_at.is_none() && c.record_fingerprint == fingerprint);
-    let display_state = DisplayState::of(
+/// The state shown for a lot: its stored state, told apart further for open and
+/// accepted lots.
+fn display_state(
+    lot: &db::lots::Lot,
+    certified: bool,
+    s: &Owing,
+    every_test: bool,
+    accepted: bool,
+) -> DisplayState {
+    DisplayState::of(
         lot.state,
         crate::domain::Judged {
-            certificate_current: certificate.is_some() && certificate_current,
-            failing: !failing_without_retest.is_empty() && (every_test || !lv.accepted),
-            owed: owed > 0,
+            certificate_current: certified,
+            failing: !s.failing_without_retest.is_empty() && (every_test || !accepted),
+            owed: s.owed > 0,
         },
-    );
+    )
+}
 
-    let verdict = Verdict {
+/// The lot verdict in the report's words.
+fn verdict_of(
+    rule: &crate::reduction::acceptance::AcceptanceRule,
+    moisture: &crate::reduction::acceptance::MoistureJudgement,
+    limits: &SpecLimits,
+    lv: LotVerdict,
+) -> Verdict {
+    Verdict {
         rule: rule.code().to_string(),
         rule_label: rule.label(),
         n: lv.n,
@@ -526,7 +556,90 @@ pub fn assemble(
         unjudged: lv.unjudged.len(),
         accepted: lv.accepted,
         reasons: lv.reasons,
+    }
+}
+
+/// The lot's fingerprint with its one-point references, where it has any.
+fn fingerprint_with(
+    lot: &db::lots::Lot,
+    clause: &db::clauses::Clause,
+    lab_test: &db::lab_tests::LabTest,
+    tests: &[db::field_tests::FieldTest],
+    extras: &super::planning::LotExtras,
+) -> String {
+    let fingerprint = fingerprint(lot, clause, lab_test, tests);
+    match extras.fingerprint_part() {
+        // Only a lot with one-point references changes its fingerprint, so older
+        // certificates stay current.
+        Some(extra) => format!("{:x}", Sha256::digest(format!("{fingerprint}|{extra}"))),
+        None => fingerprint,
+    }
+}
+
+/// Judges a lot from already-loaded rows (also used for bulk views). `extras` holds the
+/// one-point references of its tests (where the clause allows) and its current plan.
+#[allow(clippy::too_many_arguments)]
+pub fn assemble(
+    lot: db::lots::Lot,
+    project: db::projects::Project,
+    clause: db::clauses::Clause,
+    source: db::sources::Source,
+    lab_test: db::lab_tests::LabTest,
+    tests: Vec<db::field_tests::FieldTest>,
+    certificate: Option<db::certificates::Certificate>,
+    extras: &super::planning::LotExtras,
+) -> Result<LotReport> {
+    let reference = reference_of(&lab_test)?;
+    let limits = limits_of(&clause)?;
+    let rule = clause_rule(&clause)?;
+    let moisture = clause_moisture(&clause);
+    let judged = judge_tests(&tests, &reference, &limits, &source, &clause, extras);
+    let lv = evaluate_lot_with(
+        &lot_inputs(&lot, &tests, &judged),
+        &rule,
+        &limits,
+        &moisture,
+    );
+    let cx = LineContext {
+        lot: &lot,
+        lab_test: &lab_test,
+        clause: &clause,
+        tests: &tests,
+        extras,
     };
+    let lines: Vec<TestLine> = tests
+        .iter()
+        .zip(judged)
+        .map(|(t, j)| cx.line(t, j, &lv))
+        .collect();
+
+    let length_m = lot.chainage_to_m - lot.chainage_from_m;
+    let width_m = lot.offset_right_m - lot.offset_left_m;
+    let frequency = FrequencyRule {
+        min_per_lot: u32::try_from(clause.min_tests_per_lot).unwrap_or(1),
+        area_per_test_m2: clause.area_per_test_m2,
+        length_per_test_m: clause.length_per_test_m,
+    };
+    let required = tests_required(&frequency, length_m, width_m);
+    let standing = Owing {
+        required,
+        owed: tests_owed(required, lv.n),
+        failing_without_retest: lv
+            .failing_without_retest
+            .iter()
+            .filter_map(|id| cx.number_of(*id))
+            .collect(),
+    };
+    let submit_blockers = submit_blockers(&standing, &lv, &lines, &clause, &lab_test);
+
+    let fingerprint = fingerprint_with(&lot, &clause, &lab_test, &tests, extras);
+    let certificate_current = certificate
+        .as_ref()
+        .is_some_and(|c| c.withdrawn_at.is_none() && c.record_fingerprint == fingerprint);
+    let certified = certificate.is_some() && certificate_current;
+    let every_test = clause.rule == Rule::EveryTest;
+    let display_state = display_state(&lot, certified, &standing, every_test, lv.accepted);
+    let verdict = verdict_of(&rule, &moisture, &limits, lv);
     Ok(LotReport {
         lot,
         project,
@@ -539,9 +652,9 @@ pub fn assemble(
         length_m,
         width_m,
         area_m2: length_m * width_m,
-        tests_required: required,
-        tests_owed: owed,
-        failing_without_retest,
+        tests_required: standing.required,
+        tests_owed: standing.owed,
+        failing_without_retest: standing.failing_without_retest,
         display_state,
         submit_blockers,
         certificate,

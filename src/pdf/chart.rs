@@ -97,42 +97,38 @@ fn tick_decimals(step: f64) -> usize {
         .unwrap_or(3)
 }
 
-/// Draws the chart of `tests` against `limit` into `area`.
-pub(super) fn draw(canvas: &mut Canvas, area: ChartArea, tests: &[TestRow], limit: f64) {
-    let plot_x = area.x + AXIS_LABEL_WIDTH;
-    let plot_y = area.y + X_LABEL_HEIGHT;
-    let plot_w = (area.width - AXIS_LABEL_WIDTH - 4.0).max(10.0);
-    let plot_h = (area.height - X_LABEL_HEIGHT - LEGEND_HEIGHT).max(10.0);
+/// The plot inside a chart area and its value scale (PDF units, y growing upwards).
+struct PlotArea {
+    x: f32,
+    y: f32,
+    w: f32,
+    h: f32,
+    scale: Scale,
+}
 
-    let values: Vec<f64> = tests.iter().filter_map(|t| t.rc_value).collect();
-    let scale = rc_scale(&values, limit);
-    let to_y = |v: f64| -> f32 {
-        let t = (v - scale.low) / (scale.high - scale.low);
-        plot_y + (t.clamp(0.0, 1.0) as f32) * plot_h
-    };
+impl PlotArea {
+    fn to_y(&self, v: f64) -> f32 {
+        let t = (v - self.scale.low) / (self.scale.high - self.scale.low);
+        self.y + (t.clamp(0.0, 1.0) as f32) * self.h
+    }
+}
 
-    legend(
-        canvas,
-        area.x + AXIS_LABEL_WIDTH,
-        area.y + area.height - 7.0,
-        limit,
-    );
-
-    // Grid and value ticks.
-    let decimals = tick_decimals(scale.step);
-    let ticks = ((scale.high - scale.low) / scale.step)
+/// Grid lines and value ticks, with the axis title "RC %".
+fn value_ticks(canvas: &mut Canvas, p: &PlotArea, area: &ChartArea) {
+    let decimals = tick_decimals(p.scale.step);
+    let ticks = ((p.scale.high - p.scale.low) / p.scale.step)
         .round()
         .clamp(1.0, 40.0) as usize;
     for i in 0..=ticks {
-        let v = scale.low + i as f64 * scale.step;
-        let y = to_y(v);
+        let v = p.scale.low + i as f64 * p.scale.step;
+        let y = p.to_y(v);
         if i > 0 {
-            canvas.line((plot_x, y), (plot_x + plot_w, y), 0.3, Ink::Band);
+            canvas.line((p.x, y), (p.x + p.w, y), 0.3, Ink::Band);
         }
-        canvas.line((plot_x - 2.5, y), (plot_x, y), 0.5, Ink::Muted);
+        canvas.line((p.x - 2.5, y), (p.x, y), 0.5, Ink::Muted);
         let label = format!("{v:.decimals$}");
         canvas.text_right(
-            plot_x - 4.0,
+            p.x - 4.0,
             y - 2.2,
             Face::Regular,
             TICK_SIZE,
@@ -140,23 +136,19 @@ pub(super) fn draw(canvas: &mut Canvas, area: ChartArea, tests: &[TestRow], limi
             &label,
         );
     }
-    canvas.text(
-        area.x,
-        area.y + area.height - 7.0,
-        Face::Bold,
-        TICK_SIZE,
-        Ink::Muted,
-        "RC %",
-    );
+    let baseline = area.y + area.height - 7.0;
+    canvas.text(area.x, baseline, Face::Bold, TICK_SIZE, Ink::Muted, "RC %");
+}
 
-    // Axes.
-    canvas.line((plot_x, plot_y), (plot_x, plot_y + plot_h), 0.6, Ink::Muted);
-    canvas.line((plot_x, plot_y), (plot_x + plot_w, plot_y), 0.6, Ink::Muted);
-
-    // Test ticks along the bottom: slot i holds the i-th row of the table.
-    let n = tests.len();
-    let slot = plot_w / n.max(1) as f32;
-    let slot_x = |i: usize| plot_x + (i as f32 + 0.5) * slot;
+/// Test ticks along the bottom (slot i holds the i-th row of the table), numbered 1 and
+/// every few tests, with the axis title.
+fn test_ticks(
+    canvas: &mut Canvas,
+    p: &PlotArea,
+    area: &ChartArea,
+    n: usize,
+    slot_x: &dyn Fn(usize) -> f32,
+) {
     if n > 0 {
         let step = nice_step(n as f64, 8.0).max(1.0).round() as usize;
         let mut numbers = vec![1usize];
@@ -168,20 +160,13 @@ pub(super) fn draw(canvas: &mut Canvas, area: ChartArea, tests: &[TestRow], limi
         );
         for number in numbers {
             let x = slot_x(number - 1);
-            canvas.line((x, plot_y), (x, plot_y - 2.5), 0.5, Ink::Muted);
+            canvas.line((x, p.y), (x, p.y - 2.5), 0.5, Ink::Muted);
             let label = number.to_string();
-            canvas.text_centre(
-                x,
-                plot_y - 9.0,
-                Face::Regular,
-                TICK_SIZE,
-                Ink::Muted,
-                &label,
-            );
+            canvas.text_centre(x, p.y - 9.0, Face::Regular, TICK_SIZE, Ink::Muted, &label);
         }
     }
     let axis_label = "Test, in table order";
-    let label_x = plot_x + plot_w / 2.0 - width(axis_label, Face::Regular, TICK_SIZE) / 2.0;
+    let label_x = p.x + p.w / 2.0 - width(axis_label, Face::Regular, TICK_SIZE) / 2.0;
     canvas.text(
         label_x,
         area.y + 1.0,
@@ -190,17 +175,34 @@ pub(super) fn draw(canvas: &mut Canvas, area: ChartArea, tests: &[TestRow], limi
         Ink::Muted,
         axis_label,
     );
+}
+
+/// Draws the chart of `tests` against `limit` into `area`.
+pub(super) fn draw(canvas: &mut Canvas, area: ChartArea, tests: &[TestRow], limit: f64) {
+    let values: Vec<f64> = tests.iter().filter_map(|t| t.rc_value).collect();
+    let p = PlotArea {
+        x: area.x + AXIS_LABEL_WIDTH,
+        y: area.y + X_LABEL_HEIGHT,
+        w: (area.width - AXIS_LABEL_WIDTH - 4.0).max(10.0),
+        h: (area.height - X_LABEL_HEIGHT - LEGEND_HEIGHT).max(10.0),
+        scale: rc_scale(&values, limit),
+    };
+    legend(canvas, p.x, area.y + area.height - 7.0, limit);
+    value_ticks(canvas, &p, &area);
+
+    // Axes.
+    canvas.line((p.x, p.y), (p.x, p.y + p.h), 0.6, Ink::Muted);
+    canvas.line((p.x, p.y), (p.x + p.w, p.y), 0.6, Ink::Muted);
+
+    let n = tests.len();
+    let slot = p.w / n.max(1) as f32;
+    let slot_x = |i: usize| p.x + (i as f32 + 0.5) * slot;
+    test_ticks(canvas, &p, &area, n, &slot_x);
 
     // Limit line.
     if limit.is_finite() {
-        let y = to_y(limit);
-        canvas.dashed_line(
-            (plot_x, y),
-            (plot_x + plot_w, y),
-            0.9,
-            Ink::Accent,
-            &[3.0, 2.0],
-        );
+        let y = p.to_y(limit);
+        canvas.dashed_line((p.x, y), (p.x + p.w, y), 0.9, Ink::Accent, &[3.0, 2.0]);
     }
 
     // One dot per test that has a value.
@@ -209,7 +211,7 @@ pub(super) fn draw(canvas: &mut Canvas, area: ChartArea, tests: &[TestRow], limi
         let Some(v) = test.rc_value.filter(|v| v.is_finite()) else {
             continue;
         };
-        let (x, y) = (slot_x(i), to_y(v));
+        let (x, y) = (slot_x(i), p.to_y(v));
         if test.counted {
             canvas.dot(x, y, radius, Ink::Text, false);
         } else {

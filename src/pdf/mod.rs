@@ -20,6 +20,7 @@ mod layout;
 mod model;
 mod plan_list;
 mod render;
+#[cfg(test)]
 mod sample;
 mod signoff;
 mod table;
@@ -35,8 +36,6 @@ pub use model::{
 };
 pub use plan_list::{PlanListDoc, render_plan_list};
 pub use render::{MAX_TESTS, render_certificate};
-#[doc(hidden)]
-pub use sample::sample_doc;
 pub use table::table_rows_per_page;
 
 /// Why a certificate could not be rendered.

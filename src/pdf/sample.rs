@@ -1,10 +1,18 @@
-//! A realistic certificate of an invented project, for tests, previews and the
-//! benchmark. Values are generated deterministically from the row index.
+//! A realistic certificate of an invented project, for the renderer's tests and the
+//! certificate benchmark. Readings are generated deterministically from the row index
+//! and every number shown is the reduction's.
+//!
+//! Not part of the library's surface: `pdf` mounts it for its tests only, and
+//! `benches/certificate_bench.rs` by `#[path]`, which is why it names the library
+//! `liftledger::` (the library calls itself so too, `extern crate self` in `lib.rs`).
 
-use super::model::{
+use liftledger::pdf::{
     CertificateDoc, ClauseBlock, LotBlock, MaterialBlock, Paper, ReferenceBlock, SignoffBlock,
     SummaryBlock, TestRow,
 };
+use liftledger::reduction::field::{FieldReadings, reduce_field};
+use liftledger::reduction::verdict::{moisture_deviation_pct, relative_compaction_pct};
+use liftledger::reduction::{Density, WaterContent};
 
 /// Maximum dry density of the sample's reference curve, kg/m³.
 const SAMPLE_MDD: f64 = 1962.0;
@@ -33,7 +41,7 @@ fn unit(index: usize, stream: u64) -> f64 {
 }
 
 /// A signed value with one decimal; a value that rounds to zero prints as "0.0".
-fn signed(v: f64) -> String {
+pub(super) fn signed(v: f64) -> String {
     let rounded = (v * 10.0).round() / 10.0;
     if rounded == 0.0 {
         "0.0".to_string()
@@ -43,13 +51,13 @@ fn signed(v: f64) -> String {
 }
 
 /// Chainage in km+m style, e.g. 1+240.000.
-fn chainage(metres: f64) -> String {
+pub(super) fn chainage(metres: f64) -> String {
     let km = (metres / 1000.0).floor();
     format!("{}+{:07.3}", km as i64, metres - km * 1000.0)
 }
 
 /// The calendar date `days` after 2026-11-09.
-fn date_after(days: usize) -> String {
+pub(super) fn date_after(days: usize) -> String {
     const MONTH_DAYS: [usize; 12] = [31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31];
     let (mut year, mut month, mut day) = (2026usize, 11usize, 9 + days);
     loop {
@@ -88,24 +96,54 @@ fn kind(i: usize, n: usize) -> Kind {
     }
 }
 
+/// What a gauge read at the sample's test `i`, with an oven water content of OMC ± 1.5:
+/// a superseded test's wet density (2000–2060 kg/m³) stays below RC 95 % whatever its
+/// water, every other test's (2137–2197 kg/m³) reaches it.
+fn readings(kind: Kind, i: usize) -> FieldReadings {
+    let (low, high) = match kind {
+        Kind::Superseded => (2000.0, 2060.0),
+        _ => (2137.0, 2197.0),
+    };
+    FieldReadings::Nuclear {
+        wet_density_kg_m3: unit(i, 3).mul_add(high - low, low),
+        moisture_density_kg_m3: None,
+        water_content_pct: None,
+        oven_water_content_pct: Some(SAMPLE_OMC + unit(i, 4).mul_add(3.0, -1.5)),
+        gauge_serial: None,
+        probe_depth_mm: Some(200.0),
+    }
+}
+
+/// The numbers a sample row shows, from the reduction.
+struct Shown {
+    wet: f64,
+    water: f64,
+    dry: f64,
+    rc: f64,
+    deviation: f64,
+}
+
+fn reduced(readings: &FieldReadings) -> Shown {
+    let d = reduce_field(readings).expect("the sample's readings reduce");
+    let mdd = Density::new(SAMPLE_MDD).expect("the sample's MDD is a density");
+    let omc = WaterContent::new(SAMPLE_OMC).expect("the sample's OMC is a water content");
+    Shown {
+        wet: d.wet_density.kg_m3(),
+        water: d.water_content.pct(),
+        dry: d.dry_density.kg_m3(),
+        rc: relative_compaction_pct(d.dry_density, mdd),
+        deviation: moisture_deviation_pct(d.water_content, omc),
+    }
+}
+
 fn test_row(i: usize, n: usize) -> TestRow {
     let kind = kind(i, n);
     // A retest is taken at the spot of the failed test before it.
     let spot = if kind == Kind::Retest { i - 1 } else { i };
     let metres = LOT_START_M + ((spot * 37) % 179) as f64 + unit(spot, 1) * 0.9;
     let offset = unit(spot, 2).mul_add(22.0, -11.0);
-    let method = if spot % 9 == 4 {
-        "sand cone"
-    } else {
-        "nuclear gauge"
-    };
-    let rc = match kind {
-        Kind::Superseded => 92.1 + unit(i, 3) * 2.0,
-        _ => 95.6 + unit(i, 3) * 5.4,
-    };
-    let water = SAMPLE_OMC + unit(i, 4).mul_add(3.0, -1.5);
-    let dry = rc / 100.0 * SAMPLE_MDD;
-    let wet = dry * (1.0 + water / 100.0);
+    let shown = reduced(&readings(kind, i));
+    let rc = shown.rc;
     let number = |k: usize| format!("T-{:04}", k + 1);
     let (result, note, counted, rc_value) = match kind {
         Kind::Plain => ("pass", String::new(), true, Some(rc)),
@@ -139,12 +177,12 @@ fn test_row(i: usize, n: usize) -> TestRow {
         date: date_after(i / 12),
         chainage: chainage(metres),
         offset: signed(offset),
-        method: method.to_string(),
-        wet_density: format!("{wet:.0}"),
-        water_content: format!("{water:.1}"),
-        dry_density: format!("{dry:.0}"),
+        method: "nuclear gauge".to_string(),
+        wet_density: format!("{:.0}", shown.wet),
+        water_content: format!("{:.1}", shown.water),
+        dry_density: format!("{:.0}", shown.dry),
         relative_compaction: format!("{rc:.1}"),
-        moisture_deviation: signed(water - SAMPLE_OMC),
+        moisture_deviation: signed(shown.deviation),
         result: result.to_string(),
         note,
         rc_value,
@@ -219,7 +257,6 @@ fn summary(tests: &[TestRow]) -> SummaryBlock {
 
 /// A complete certificate of an invented project with `n_tests` tests, including
 /// voided tests, superseded tests and their retests.
-#[doc(hidden)]
 pub fn sample_doc(n_tests: usize) -> CertificateDoc {
     let tests: Vec<TestRow> = (0..n_tests).map(|i| test_row(i, n_tests)).collect();
     let summary = summary(&tests);
@@ -284,65 +321,5 @@ pub fn sample_doc(n_tests: usize) -> CertificateDoc {
             "Nuclear gauges carry radioactive sources: their use needs licensed, trained operators.".into(),
             "Only the revision shown is in force; check the verification code against the project record before relying on a copy.".into(),
         ],
-    }
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn dates_roll_over_months_and_years() {
-        assert_eq!(date_after(0), "2026-11-09");
-        assert_eq!(date_after(21), "2026-11-30");
-        assert_eq!(date_after(22), "2026-12-01");
-        assert_eq!(date_after(53), "2027-01-01");
-    }
-
-    #[test]
-    fn signed_values_never_print_minus_zero() {
-        assert_eq!(signed(-0.04), "0.0");
-        assert_eq!(signed(0.96), "+1.0");
-        assert_eq!(signed(-1.25), "-1.3");
-    }
-
-    #[test]
-    fn chainage_is_km_plus_metres() {
-        // Common practice: km+mmm.mmm.
-        assert_eq!(chainage(1240.0), "1+240.000");
-        assert_eq!(chainage(1005.5), "1+005.500");
-    }
-
-    #[test]
-    fn every_superseded_test_is_followed_by_its_retest() {
-        let doc = sample_doc(200);
-        for (i, t) in doc.tests.iter().enumerate() {
-            if t.result == "superseded" {
-                let next = &doc.tests[i + 1];
-                assert_eq!(next.note, format!("retest of {}", t.number));
-                assert_eq!(next.chainage, t.chainage);
-                assert!(next.counted && !t.counted);
-            }
-            if t.result == "void" {
-                assert!(t.rc_value.is_none() && !t.counted);
-            }
-        }
-        assert!(doc.tests.iter().any(|t| t.result == "void"));
-        assert!(doc.tests.iter().any(|t| t.result == "superseded"));
-        assert_eq!(doc.summary.verdict, "ACCEPTED");
-    }
-
-    #[test]
-    fn sample_statistics_follow_the_counted_rows() {
-        let doc = sample_doc(50);
-        let counted = doc.tests.iter().filter(|t| t.counted).count();
-        assert_eq!(doc.summary.n, counted.to_string());
-        assert_eq!(
-            doc.summary.frequency,
-            format!("9 required, {counted} counted: met")
-        );
-        let empty = sample_doc(0);
-        assert_eq!(empty.summary.n, "0");
-        assert_eq!(empty.summary.mean, "\u{2014}");
     }
 }

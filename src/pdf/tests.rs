@@ -5,6 +5,7 @@ use lopdf::content::Content;
 use lopdf::{Document, Object};
 
 use super::render::{document_id, render_with_warnings};
+use super::sample::{chainage, date_after, sample_doc, signed};
 use super::*;
 
 fn render(doc: &CertificateDoc) -> Vec<u8> {
@@ -386,4 +387,77 @@ fn fifty_tests_stay_small() {
     let bytes = render(&sample_doc(50));
     assert!(bytes.len() < 200 * 1024, "{} bytes", bytes.len());
     assert!(bytes.starts_with(b"%PDF-"));
+}
+
+// The sample itself (src/pdf/sample.rs, mounted here for tests only).
+
+#[test]
+fn dates_roll_over_months_and_years() {
+    assert_eq!(date_after(0), "2026-11-09");
+    assert_eq!(date_after(21), "2026-11-30");
+    assert_eq!(date_after(22), "2026-12-01");
+    assert_eq!(date_after(53), "2027-01-01");
+}
+
+#[test]
+fn signed_values_never_print_minus_zero() {
+    assert_eq!(signed(-0.04), "0.0");
+    assert_eq!(signed(0.96), "+1.0");
+    assert_eq!(signed(-1.25), "-1.3");
+}
+
+#[test]
+fn chainage_is_km_plus_metres() {
+    // Common practice: km+mmm.mmm.
+    assert_eq!(chainage(1240.0), "1+240.000");
+    assert_eq!(chainage(1005.5), "1+005.500");
+}
+
+#[test]
+fn every_superseded_test_is_followed_by_its_retest() {
+    let doc = sample_doc(200);
+    for (i, t) in doc.tests.iter().enumerate() {
+        if t.result == "superseded" {
+            let next = &doc.tests[i + 1];
+            assert_eq!(next.note, format!("retest of {}", t.number));
+            assert_eq!(next.chainage, t.chainage);
+            assert!(next.counted && !t.counted);
+        }
+        if t.result == "void" {
+            assert!(t.rc_value.is_none() && !t.counted);
+        }
+    }
+    assert!(doc.tests.iter().any(|t| t.result == "void"));
+    assert!(doc.tests.iter().any(|t| t.result == "superseded"));
+    assert_eq!(doc.summary.verdict, "ACCEPTED");
+}
+
+#[test]
+fn sample_statistics_follow_the_counted_rows() {
+    let doc = sample_doc(50);
+    let counted = doc.tests.iter().filter(|t| t.counted).count();
+    assert_eq!(doc.summary.n, counted.to_string());
+    assert_eq!(
+        doc.summary.frequency,
+        format!("9 required, {counted} counted: met")
+    );
+    let empty = sample_doc(0);
+    assert_eq!(empty.summary.n, "0");
+    assert_eq!(empty.summary.mean, "\u{2014}");
+}
+
+#[test]
+fn sample_rows_show_dry_density_reduced_from_wet_density_and_water() {
+    // ρd = ρ / (1 + w/100) (ASTM D6938), within the rounding of the printed figures
+    // (wet and dry to 1 kg/m³, water to 0.1 %).
+    for t in sample_doc(60).tests {
+        let wet: f64 = t.wet_density.parse().unwrap();
+        let water: f64 = t.water_content.parse().unwrap();
+        let dry: f64 = t.dry_density.parse().unwrap();
+        assert!(
+            (dry - wet / (1.0 + water / 100.0)).abs() < 2.0,
+            "{}: {wet} at {water} % shown as {dry}",
+            t.number
+        );
+    }
 }

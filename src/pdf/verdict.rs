@@ -37,6 +37,33 @@ fn printed_reasons(doc: &CertificateDoc) -> Vec<String> {
     out
 }
 
+/// The verdict's own cell: its label and the verdict in large type.
+fn verdict_cell(canvas: &mut Canvas, col: Column, top: f32, verdict_lines: &[String]) {
+    let x = col.x + PAD + 1.0;
+    canvas.text(x, top - PAD - 6.0, Face::Bold, 6.5, Ink::Muted, "VERDICT");
+    for (i, line) in verdict_lines.iter().enumerate() {
+        let baseline = top - PAD - 24.0 - i as f32 * 17.0;
+        canvas.text(x, baseline, Face::Bold, 15.0, Ink::Accent, line);
+    }
+}
+
+/// "Test frequency: 9 required, 12 counted: met", on one line under the reasons.
+fn frequency_line(canvas: &mut Canvas, reasons_col: Column, y: f32, doc: &CertificateDoc) {
+    let label = "Test frequency: ";
+    canvas.text(reasons_col.x, y, Face::Bold, BODY_SIZE, Ink::Text, label);
+    let value_x = reasons_col.x + width(label, Face::Bold, BODY_SIZE);
+    let value_width = reasons_col.right() - value_x;
+    let frequency = wrap_limited(
+        &doc.summary.frequency,
+        Face::Regular,
+        BODY_SIZE,
+        value_width,
+        1,
+    );
+    let text = frequency.concat();
+    canvas.text(value_x, y, Face::Regular, BODY_SIZE, Ink::Text, &text);
+}
+
 /// Framed verdict, its reasons and the test-frequency outcome.
 pub(super) fn verdict_box(canvas: &mut Canvas, col: Column, top: f32, doc: &CertificateDoc) -> f32 {
     let reasons_col = Column {
@@ -67,32 +94,9 @@ pub(super) fn verdict_box(canvas: &mut Canvas, col: Column, top: f32, doc: &Cert
     canvas.fill_rect(col.x, top - height, col.width, height, Ink::AccentTint);
     canvas.stroke_rect(col.x, top - height, col.width, height, 0.9, Ink::Accent);
     let divider_x = col.x + VERDICT_CELL_WIDTH;
-    canvas.line(
-        (divider_x, top - 5.0),
-        (divider_x, top - height + 5.0),
-        0.5,
-        Ink::Accent,
-    );
-
-    canvas.text(
-        col.x + PAD + 1.0,
-        top - PAD - 6.0,
-        Face::Bold,
-        6.5,
-        Ink::Muted,
-        "VERDICT",
-    );
-    for (i, line) in verdict_lines.iter().enumerate() {
-        let baseline = top - PAD - 24.0 - i as f32 * 17.0;
-        canvas.text(
-            col.x + PAD + 1.0,
-            baseline,
-            Face::Bold,
-            15.0,
-            Ink::Accent,
-            line,
-        );
-    }
+    let divider = ((divider_x, top - 5.0), (divider_x, top - height + 5.0));
+    canvas.line(divider.0, divider.1, 0.5, Ink::Accent);
+    verdict_cell(canvas, col, top, &verdict_lines);
 
     let reasons_top = top - PAD + 2.0;
     bullets(
@@ -105,32 +109,7 @@ pub(super) fn verdict_box(canvas: &mut Canvas, col: Column, top: f32, doc: &Cert
         MAX_REASON_LINES,
     );
     let frequency_y = reasons_top - reasons_height - 3.0 - BASELINE_DROP;
-    let label = "Test frequency: ";
-    canvas.text(
-        reasons_col.x,
-        frequency_y,
-        Face::Bold,
-        BODY_SIZE,
-        Ink::Text,
-        label,
-    );
-    let value_x = reasons_col.x + width(label, Face::Bold, BODY_SIZE);
-    let value_width = reasons_col.right() - value_x;
-    let frequency = wrap_limited(
-        &doc.summary.frequency,
-        Face::Regular,
-        BODY_SIZE,
-        value_width,
-        1,
-    );
-    canvas.text(
-        value_x,
-        frequency_y,
-        Face::Regular,
-        BODY_SIZE,
-        Ink::Text,
-        &frequency.concat(),
-    );
+    frequency_line(canvas, reasons_col, frequency_y, doc);
     height
 }
 

@@ -332,11 +332,17 @@ fn reduce_nuclear(
             moisture_source: "gauge",
         });
     }
-    Err(ReductionError::Missing {
+    Err(missing_nuclear_moisture())
+}
+
+/// The refusal of a nuclear test given no moisture at all (also named by
+/// `crate::readings` while a form or a CSV row is read, in these words).
+pub fn missing_nuclear_moisture() -> ReductionError {
+    ReductionError::Missing {
         field: "moisture_density_kg_m3",
         reason: "a nuclear test needs the gauge moisture density, the gauge water content or an oven water content"
             .to_string(),
-    })
+    }
 }
 
 #[cfg(test)]

@@ -18,10 +18,10 @@ use crate::ledger::import::{
     CellLocator, ImportRow, LabPointRow, RowProblem, RowResult, RowSource, SourceOrigin,
 };
 use crate::ledger::setup::LabPointInput;
+use crate::readings::parse_number;
+use crate::readings::{DensityUnits, parse_readings};
 use crate::reduction::field::FieldReadings;
-use crate::reduction::{
-    Chainage, ChainageStyle, Density, KG_M3_PER_LB_FT3, METRES_PER_FOOT, UnitSystem,
-};
+use crate::reduction::{Chainage, ChainageStyle, Density, METRES_PER_FOOT, UnitSystem};
 
 /// Longest cell accepted, characters (a longer one is a problem, not a crash).
 pub const MAX_CELL_CHARS: usize = 10_000;
@@ -383,9 +383,6 @@ impl<'a> RowCells<'a> {
     fn get(&self, t: &Target) -> Option<&&'a str> {
         self.0[*t as usize].as_ref()
     }
-    fn contains_key(&self, t: &Target) -> bool {
-        self.0[*t as usize].is_some()
-    }
 }
 
 /// Reads the mapped cells of one row, collecting every problem at once.
@@ -444,54 +441,25 @@ impl CellReader<'_> {
         }
     }
 
-    fn required(&mut self, t: Target, method: &str) -> Option<f64> {
-        if !self.cells.contains_key(&t) {
-            self.problem(
-                t,
-                "",
-                format!("is required for a {} test", method.replace('_', " ")),
-            );
-            return None;
-        }
-        self.number(t)
-    }
-
-    /// A density in the file's unit, as kg/m³.
-    fn density(&mut self, t: Target) -> Option<f64> {
-        let x = self.number(t)?;
-        match self.units {
-            UnitSystem::Si => Some(x),
-            UnitSystem::Us => match Density::from_lb_ft3(x) {
-                Ok(d) => Some(d.kg_m3()),
-                Err(e) => {
-                    let raw = self.cells.get(&t).copied().unwrap_or("");
-                    self.problem(t, raw, e.to_string());
-                    None
+    /// The test's readings through the one parser (`crate::readings`), each problem
+    /// named at the column it came from.
+    fn readings(&mut self, method: &str, depth: Option<f64>) -> Option<FieldReadings> {
+        let units = DensityUnits {
+            bulk: self.units,
+            sand: self.units,
+        };
+        let cells = self.cells;
+        match parse_readings(method, units, depth, |f| {
+            cells.get(&Target::from(f)).copied()
+        }) {
+            Ok(r) => Some(r),
+            Err(problems) => {
+                for p in problems {
+                    self.problem(Target::from(p.field), &p.value, p.reason);
                 }
-            },
+                None
+            }
         }
-    }
-
-    /// A nuclear moisture density (mass of water per volume, far below any bulk density),
-    /// in the file's unit, as kg/m³; the reduction checks its range.
-    fn moisture_density(&mut self) -> Option<f64> {
-        let x = self.number(Target::MoistureDensity)?;
-        Some(match self.units {
-            UnitSystem::Si => x,
-            UnitSystem::Us => x * KG_M3_PER_LB_FT3,
-        })
-    }
-
-    fn required_density(&mut self, t: Target, method: &str) -> Option<f64> {
-        if !self.cells.contains_key(&t) {
-            self.problem(
-                t,
-                "",
-                format!("is required for a {} test", method.replace('_', " ")),
-            );
-            return None;
-        }
-        self.density(t)
     }
 }
 
@@ -501,15 +469,6 @@ fn decimal_point(raw: &str) -> std::borrow::Cow<'_, str> {
         raw.replace(',', ".").into()
     } else {
         raw.into()
-    }
-}
-
-/// Reads a number written with a decimal point or comma ("1.5", "1,5"); finite only.
-pub fn parse_number(raw: &str) -> Option<f64> {
-    let v = raw.trim().replace(',', ".");
-    match v.parse::<f64>() {
-        Ok(x) if x.is_finite() => Some(x),
-        _ => None,
     }
 }
 
@@ -557,75 +516,7 @@ fn build_input(
     let coarse_w = r.number(Target::CoarseWaterContentPct);
     let easting = r.number(Target::Easting);
     let northing = r.number(Target::Northing);
-    let readings = match method? {
-        m @ "nuclear" => {
-            let wet = r.required_density(Target::WetDensity, m);
-            let md = r.moisture_density();
-            let gw = r.number(Target::GaugeWaterContentPct);
-            let oven = r.number(Target::OvenWaterContentPct);
-            if !r.cells.contains_key(&Target::MoistureDensity)
-                && !r.cells.contains_key(&Target::GaugeWaterContentPct)
-                && !r.cells.contains_key(&Target::OvenWaterContentPct)
-            {
-                r.problem(
-                    Target::MoistureDensity,
-                    "",
-                    "give the gauge's moisture density or its water content",
-                );
-            }
-            wet.map(|wet| FieldReadings::Nuclear {
-                wet_density_kg_m3: wet,
-                moisture_density_kg_m3: md,
-                water_content_pct: gw,
-                oven_water_content_pct: oven,
-                gauge_serial: None,
-                probe_depth_mm: depth,
-            })
-        }
-        m @ "sand_cone" => {
-            let used = r.required(Target::MassSandUsedG, m);
-            let cone = r.required(Target::MassSandInConeG, m);
-            let rho = r.required_density(Target::SandDensity, m);
-            let soil = r.required(Target::MassWetSoilG, m);
-            let w = r.required(Target::WaterContentPct, m);
-            match (used, cone, rho, soil, w) {
-                (Some(a), Some(b), Some(c), Some(d), Some(w)) => Some(FieldReadings::SandCone {
-                    mass_sand_used_g: a,
-                    mass_sand_in_cone_g: b,
-                    sand_density_kg_m3: c,
-                    mass_wet_soil_g: d,
-                    water_content_pct: w,
-                }),
-                _ => None,
-            }
-        }
-        m @ "balloon" => {
-            let v = r.required(Target::HoleVolumeCm3, m);
-            let soil = r.required(Target::MassWetSoilG, m);
-            let w = r.required(Target::WaterContentPct, m);
-            match (v, soil, w) {
-                (Some(v), Some(s), Some(w)) => Some(FieldReadings::Balloon {
-                    hole_volume_cm3: v,
-                    mass_wet_soil_g: s,
-                    water_content_pct: w,
-                }),
-                _ => None,
-            }
-        }
-        m => {
-            let v = r.required(Target::CylinderVolumeCm3, m);
-            let soil = r.required(Target::MassWetSoilG, m);
-            let w = r.required(Target::WaterContentPct, m);
-            match (v, soil, w) {
-                (Some(v), Some(s), Some(w)) => Some(FieldReadings::DriveCylinder {
-                    cylinder_volume_cm3: v,
-                    mass_wet_soil_g: s,
-                    water_content_pct: w,
-                }),
-                _ => None,
-            }
-        }
-    }?;
+    let readings = r.readings(method?, depth)?;
     let input = FieldTestInput {
         number: r.text(Target::Number),
         tested_at: r.text(Target::TestedAt),
@@ -643,6 +534,66 @@ fn build_input(
         calibration_override_reason: None,
     };
     Some((input, r.text(Target::Lot), r.text(Target::RetestOf)))
+}
+
+/// One lab point from its row's cells (`at`: field, column position, column name), and
+/// the cells as written, to name them in a later refusal.
+fn read_point(
+    rec: &csv::ByteRecord,
+    at: &[(LabTarget, usize, String)],
+    units: UnitSystem,
+    line: u64,
+) -> (
+    std::result::Result<LabPointInput, Vec<RowProblem>>,
+    HashMap<LabTarget, String>,
+) {
+    let mut problems = Vec::new();
+    let mut values: HashMap<LabTarget, f64> = HashMap::new();
+    let mut texts = HashMap::new();
+    for (t, i, name) in at {
+        let raw = String::from_utf8_lossy(rec.get(*i).unwrap_or(b""))
+            .trim()
+            .to_string();
+        if raw.is_empty() {
+            continue;
+        }
+        match parse_number(&raw) {
+            Some(x) if *t == LabTarget::DryDensity && units == UnitSystem::Us => {
+                match Density::from_lb_ft3(x) {
+                    Ok(d) => {
+                        values.insert(*t, d.kg_m3());
+                    }
+                    Err(e) => problems.push(RowProblem::new(line, name, &raw, e.to_string())),
+                }
+            }
+            Some(x) => {
+                values.insert(*t, x);
+            }
+            None => problems.push(RowProblem::new(
+                line,
+                name,
+                &raw,
+                format!("'{raw}' is not a number"),
+            )),
+        }
+        texts.insert(*t, raw);
+    }
+    if !problems.is_empty() {
+        return (Err(problems), texts);
+    }
+    let v = |t| values.get(&t).copied();
+    let point = LabPointInput {
+        water_content_pct: v(LabTarget::WaterContentPct),
+        dry_density_kg_m3: v(LabTarget::DryDensity),
+        mass_mold_and_soil_g: v(LabTarget::MassMoldAndSoilG),
+        mass_mold_g: v(LabTarget::MassMoldG),
+        mold_volume_cm3: v(LabTarget::MoldVolumeCm3),
+        mass_wet_g: v(LabTarget::MassWetG),
+        mass_dry_g: v(LabTarget::MassDryG),
+        mass_tare_g: v(LabTarget::MassTareG),
+        mould: None,
+    };
+    (Ok(point), texts)
 }
 
 /// Lab compaction points read from a CSV file (one specimen a row; small files).
@@ -738,60 +689,9 @@ impl CsvLabPoints {
                 break;
             }
             let line = rec.position().map_or(0, |p| p.line());
-            let mut problems = Vec::new();
-            let mut values: HashMap<LabTarget, f64> = HashMap::new();
-            let mut texts = HashMap::new();
-            for (t, i, name) in &at {
-                let raw = String::from_utf8_lossy(rec.get(*i).unwrap_or(b""))
-                    .trim()
-                    .to_string();
-                if raw.is_empty() {
-                    continue;
-                }
-                match parse_number(&raw) {
-                    Some(x) => {
-                        let x = if *t == LabTarget::DryDensity && mapping.units == UnitSystem::Us {
-                            match Density::from_lb_ft3(x) {
-                                Ok(d) => d.kg_m3(),
-                                Err(e) => {
-                                    problems.push(RowProblem::new(line, name, &raw, e.to_string()));
-                                    continue;
-                                }
-                            }
-                        } else {
-                            x
-                        };
-                        values.insert(*t, x);
-                    }
-                    None => problems.push(RowProblem::new(
-                        line,
-                        name,
-                        &raw,
-                        format!("'{raw}' is not a number"),
-                    )),
-                }
-                texts.insert(*t, raw);
-            }
+            let (point, texts) = read_point(&rec, &at, mapping.units, line);
             out.cells.insert(line, texts);
-            if !problems.is_empty() {
-                out.rows.push(Err(problems));
-                continue;
-            }
-            let v = |t| values.get(&t).copied();
-            out.rows.push(Ok((
-                line,
-                LabPointInput {
-                    water_content_pct: v(LabTarget::WaterContentPct),
-                    dry_density_kg_m3: v(LabTarget::DryDensity),
-                    mass_mold_and_soil_g: v(LabTarget::MassMoldAndSoilG),
-                    mass_mold_g: v(LabTarget::MassMoldG),
-                    mold_volume_cm3: v(LabTarget::MoldVolumeCm3),
-                    mass_wet_g: v(LabTarget::MassWetG),
-                    mass_dry_g: v(LabTarget::MassDryG),
-                    mass_tare_g: v(LabTarget::MassTareG),
-                    mould: None,
-                },
-            )));
+            out.rows.push(point.map(|p| (line, p)));
         }
         let h = reader.get_ref().get_ref();
         out.origin.bytes = h.bytes();

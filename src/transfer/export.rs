@@ -190,16 +190,6 @@ fn test_fields(units: &Units, r: &LotReport, line: &TestLine) -> [String; 28] {
     ]
 }
 
-/// Writes the selected tests as CSV; returns how many rows were written.
-pub fn write_tests_csv<W: Write>(
-    out: W,
-    units: &Units,
-    reports: &[LotReport],
-    f: &ExportFilter,
-) -> Result<u64> {
-    write_all(ExportKind::TestsCsv, out, units, reports, f)
-}
-
 /// One test as a JSON object (readings as entered, reduced values, verdict).
 pub fn test_object(units: &Units, r: &LotReport, line: &TestLine) -> Value {
     let t = &line.test;
@@ -240,16 +230,6 @@ pub fn test_object(units: &Units, r: &LotReport, line: &TestLine) -> Value {
         "void_reason": t.void_reason,
         "reduction_version": t.reduction_version,
     })
-}
-
-/// Writes the selected tests as a JSON array, one object at a time; returns the count.
-pub fn write_tests_json<W: Write>(
-    out: W,
-    units: &Units,
-    reports: &[LotReport],
-    f: &ExportFilter,
-) -> Result<u64> {
-    write_all(ExportKind::TestsJson, out, units, reports, f)
 }
 
 /// Column headings of the lot-verdict CSV.
@@ -317,16 +297,6 @@ fn lot_fields(units: &Units, r: &LotReport) -> [String; 26] {
     ]
 }
 
-/// Writes the selected lots' verdicts as CSV; returns the count.
-pub fn write_lots_csv<W: Write>(
-    out: W,
-    units: &Units,
-    reports: &[LotReport],
-    f: &ExportFilter,
-) -> Result<u64> {
-    write_all(ExportKind::LotsCsv, out, units, reports, f)
-}
-
 /// One lot's verdict as a JSON object.
 pub fn lot_object(units: &Units, r: &LotReport) -> Value {
     json!({
@@ -356,16 +326,6 @@ pub fn lot_object(units: &Units, r: &LotReport) -> Value {
             "number": c.number, "revision": c.revision, "current": r.certificate_current
         })),
     })
-}
-
-/// Writes the selected lots' verdicts as a JSON array; returns the count.
-pub fn write_lots_json<W: Write>(
-    out: W,
-    units: &Units,
-    reports: &[LotReport],
-    f: &ExportFilter,
-) -> Result<u64> {
-    write_all(ExportKind::LotsJson, out, units, reports, f)
 }
 
 /// Writes already-judged lots as one export.

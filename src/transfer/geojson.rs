@@ -5,12 +5,8 @@
 //! expects WGS 84 longitude/latitude, so a GIS reading this file must be told the
 //! project's grid (the file names it nowhere); every point is `[easting, northing]`.
 
-use std::io::Write;
-
 use serde_json::{Value, json};
 
-use super::export::ExportFilter;
-use crate::error::Result;
 use crate::ledger::lot_report::{LotReport, TestLine};
 use crate::present::Units;
 
@@ -40,20 +36,4 @@ pub fn feature(units: &Units, r: &LotReport, line: &TestLine) -> Option<Value> {
             "retest_of": line.retest_of_number,
         }
     }))
-}
-
-/// Writes the selected tests with coordinates as a FeatureCollection; returns the count.
-pub fn write_tests<W: Write>(
-    out: W,
-    units: &Units,
-    reports: &[LotReport],
-    f: &ExportFilter,
-) -> Result<u64> {
-    super::export::write_all(
-        super::export::ExportKind::TestsGeojson,
-        out,
-        units,
-        reports,
-        f,
-    )
 }

@@ -6,6 +6,7 @@ use std::collections::BTreeMap;
 
 use serde::{Deserialize, Serialize};
 
+use crate::readings::ReadingField;
 use crate::reduction::{ChainageStyle, UnitSystem};
 
 /// A liftledger field a file column can fill (field tests).
@@ -164,6 +165,26 @@ impl Target {
             "readings.mass_wet_soil_g" => Target::MassWetSoilG,
             _ => return None,
         })
+    }
+}
+
+impl From<ReadingField> for Target {
+    /// The column that holds a reading of the one readings parser.
+    fn from(field: ReadingField) -> Self {
+        match field {
+            ReadingField::Method => Target::Method,
+            ReadingField::WetDensity => Target::WetDensity,
+            ReadingField::MoistureDensity => Target::MoistureDensity,
+            ReadingField::GaugeWaterContent => Target::GaugeWaterContentPct,
+            ReadingField::OvenWaterContent => Target::OvenWaterContentPct,
+            ReadingField::MassSandUsed => Target::MassSandUsedG,
+            ReadingField::MassSandInCone => Target::MassSandInConeG,
+            ReadingField::SandDensity => Target::SandDensity,
+            ReadingField::HoleVolume => Target::HoleVolumeCm3,
+            ReadingField::CylinderVolume => Target::CylinderVolumeCm3,
+            ReadingField::MassWetSoil => Target::MassWetSoilG,
+            ReadingField::WaterContent => Target::WaterContentPct,
+        }
     }
 }
 

@@ -19,6 +19,7 @@ mod openapi;
 mod operations;
 mod pages;
 mod planning;
+mod readings;
 mod restart;
 mod setup_pages;
 mod shared_postgres;

@@ -8,6 +8,8 @@
 
 #[path = "../../src/present.rs"]
 pub mod present;
+#[path = "../../src/readings.rs"]
+pub mod readings;
 #[path = "../../src/reduction/mod.rs"]
 pub mod reduction;
 #[path = "../../src/site_form.rs"]

@@ -65,12 +65,16 @@ struct CurvePage {
     cautions: Vec<String>,
 }
 
-async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
-    require(&s.db, &caller, Scope::LabTest(id), Action::Read).await?;
-    let may_approve = require(&s.db, &caller, Scope::LabTest(id), Action::ManageSetup)
-        .await
-        .is_ok();
+/// A lab test and what its sheet reads with it.
+struct LabSheet {
+    lab: db::lab_tests::LabTest,
+    source: db::sources::Source,
+    project: db::projects::Project,
+    points: Vec<crate::reduction::curve::CurvePoint>,
+    gs: SpecificGravity,
+}
 
+async fn load(s: &AppState, id: i64) -> crate::error::Result<LabSheet> {
     let lab = db::lab_tests::get(&s.db, id).await?.ok_or_else(|| {
         AppError::not_found("lab_test_id", format!("lab test {id} does not exist"))
     })?;
@@ -79,7 +83,6 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
         .ok_or_else(|| anyhow::anyhow!("lab test {id} has no source"))
         .map_err(AppError::from)?;
     let project = crate::ledger::setup::require_project(&s.db, source.project_id).await?;
-    let u = Units::of(&project);
     let entered: Vec<LabPointInput> = serde_json::from_str(&lab.points_json)
         .map_err(anyhow::Error::from)
         .map_err(AppError::from)?;
@@ -90,17 +93,28 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
         .collect::<crate::error::Result<Vec<_>>>()?;
     let gs = SpecificGravity::new(lab.specific_gravity)
         .map_err(|e| AppError::Internal(anyhow::anyhow!("{e}")))?;
-    // A curve stored before today's fit rules may be refused by them (it then awaits
-    // approval); the sheet still shows its points and its stored MDD and OMC.
-    let fit = fit_curve(&points, Some(gs)).ok();
+    Ok(LabSheet {
+        lab,
+        source,
+        project,
+        points,
+        gs,
+    })
+}
 
-    // Field tests judged against this curve, exactly as their lot sheets judge them
-    // (oversize-corrected where a test carries a coarse fraction); voided and superseded tests are left out.
+/// Field tests judged against this curve, exactly as their lot sheets judge them
+/// (oversize-corrected where a test carries a coarse fraction); voided and superseded
+/// tests are left out.
+async fn counted_tests(
+    s: &AppState,
+    project_id: i64,
+    lab_test_id: i64,
+) -> crate::error::Result<Vec<crate::ledger::lot_report::TestLine>> {
     let mut counted = Vec::new();
     crate::ledger::overview::each_report(
         &s.db,
-        project.id,
-        |lot| lot.lab_test_id == id,
+        project_id,
+        |lot| lot.lab_test_id == lab_test_id,
         true,
         |r| {
             counted.extend(r.tests.into_iter().filter(|l| l.standing.counted()));
@@ -108,7 +122,11 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
         },
     )
     .await?;
-    let marks: Vec<FieldMark> = counted
+    Ok(counted)
+}
+
+fn field_marks(counted: &[crate::ledger::lot_report::TestLine]) -> Vec<FieldMark> {
+    counted
         .iter()
         .map(|l| FieldMark {
             label: format!(
@@ -120,9 +138,56 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
             y: l.test.dry_density_kg_m3,
             passed: l.passed,
         })
-        .collect();
+        .collect()
+}
+
+/// The compaction energy in SI and US units, as the effort defines it.
+fn energy_words(lab: &db::lab_tests::LabTest) -> String {
+    match resolve_effort(&lab.effort, None).ok() {
+        Some(e) => format!(
+            "{:.0} kJ/m³ ({:.0} ft·lbf/ft³)",
+            e.energy_kj_m3(),
+            e.energy_ft_lbf_ft3()
+        ),
+        None => format!("{:.0} kJ/m³", lab.effort_energy_kj_m3),
+    }
+}
+
+fn point_rows(sheet: &LabSheet, u: &Units) -> Vec<PointRow> {
+    sheet
+        .points
+        .iter()
+        .map(|p| PointRow {
+            water: format!("{:.1}", p.water_content_pct),
+            dry: u.density(p.dry_density_kg_m3),
+            saturation: format!(
+                "{:.0}",
+                degree_of_saturation_pct(sheet.gs, p.water_content_pct, p.dry_density_kg_m3)
+            ),
+        })
+        .collect()
+}
+
+async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
+    require(&s.db, &caller, Scope::LabTest(id), Action::Read).await?;
+    let may_approve = require(&s.db, &caller, Scope::LabTest(id), Action::ManageSetup)
+        .await
+        .is_ok();
+    let sheet = load(&s, id).await?;
+    let LabSheet {
+        lab,
+        source,
+        project,
+        ..
+    } = &sheet;
+    let u = Units::of(project);
+    // A curve stored before today's fit rules may be refused by them (it then awaits
+    // approval); the sheet still shows its points and its stored MDD and OMC.
+    let fit = fit_curve(&sheet.points, Some(sheet.gs)).ok();
+    let counted = counted_tests(&s, project.id, id).await?;
+    let marks = field_marks(&counted);
     let field_fail = marks.iter().filter(|m| !m.passed).count();
-    let drift = crate::ledger::watch::drift_of(&s.db, project.id, &lab).await?;
+    let drift = crate::ledger::watch::drift_of(&s.db, project.id, lab).await?;
     let drift: Vec<_> = drift
         .warned()
         .then(|| (&drift).into())
@@ -131,13 +196,12 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
     let fitted = fit.as_ref().map_or(&[][..], |f| f.curve.as_slice());
     let chart = chart(
         &format!("Compaction curve {} ({})", lab.code, source.code),
-        &points,
+        &sheet.points,
         fitted,
         (lab.optimum_water_content_pct, lab.max_dry_density_kg_m3),
-        gs,
+        sheet.gs,
         marks,
     );
-    let effort = resolve_effort(&lab.effort, None).ok();
     let warnings: Vec<String> = serde_json::from_str::<Vec<serde_json::Value>>(&lab.warnings_json)
         .unwrap_or_default()
         .iter()
@@ -155,14 +219,7 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
         superseded_reason: lab.superseded_reason.clone().unwrap_or_default(),
         effort: EffortPreset::parse_code(&lab.effort)
             .map_or(lab.effort.clone(), |e| e.label().to_string()),
-        energy: match &effort {
-            Some(e) => format!(
-                "{:.0} kJ/m³ ({:.0} ft·lbf/ft³)",
-                e.energy_kj_m3(),
-                e.energy_ft_lbf_ft3()
-            ),
-            None => format!("{:.0} kJ/m³", lab.effort_energy_kj_m3),
-        },
+        energy: energy_words(lab),
         mdd: u.density_with_unit(lab.max_dry_density_kg_m3),
         omc: format!("{:.1} %", lab.optimum_water_content_pct),
         gs: format!("{:.2}", lab.specific_gravity),
@@ -170,23 +227,13 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
             .as_ref()
             .map_or_else(|| lab.fit_method.replace('_', " "), |f| f.method.label()),
         density_unit: u.density_unit().to_string(),
-        points: points
-            .iter()
-            .map(|p| PointRow {
-                water: format!("{:.1}", p.water_content_pct),
-                dry: u.density(p.dry_density_kg_m3),
-                saturation: format!(
-                    "{:.0}",
-                    degree_of_saturation_pct(gs, p.water_content_pct, p.dry_density_kg_m3)
-                ),
-            })
-            .collect(),
+        points: point_rows(&sheet, &u),
         warnings,
         approval: lab.approval.clone(),
         may_approve,
         id,
-        approval_words: crate::ledger::certificate_doc::approval_words(&lab),
-        effort_family: crate::ledger::reference::lab_family(&lab)
+        approval_words: crate::ledger::certificate_doc::approval_words(lab),
+        effort_family: crate::ledger::reference::lab_family(lab)
             .label()
             .to_string(),
         chart,

@@ -1,5 +1,7 @@
 //! The projects list and a project's home page.
 
+use std::sync::Arc;
+
 use askama::Template;
 use axum::Router;
 use axum::extract::{Path, State};
@@ -11,6 +13,7 @@ use crate::auth::{Action, allows};
 use crate::db;
 use crate::domain::{DisplayState, LotState};
 use crate::http::caller::{Caller, Scope, require};
+use crate::ledger::lot_report::LotReport;
 use crate::ledger::{overview, setup};
 use crate::present::{self, Units};
 
@@ -122,6 +125,136 @@ struct ProjectPage {
     calibrations_due: Vec<(i64, String)>,
 }
 
+/// The display states counted on a project's home page, in the order shown.
+const HOME_STATES: [DisplayState; 7] = [
+    DisplayState::Open,
+    DisplayState::OwedTests,
+    DisplayState::Failing,
+    DisplayState::Submitted,
+    DisplayState::Rejected,
+    DisplayState::Accepted,
+    DisplayState::Certified,
+];
+
+/// How many lots are in each display state.
+fn state_counts(reports: &[Arc<LotReport>]) -> Vec<StateCount> {
+    HOME_STATES
+        .iter()
+        .map(|state| StateCount {
+            code: state.to_string(),
+            label: state.label().to_string(),
+            count: reports.iter().filter(|r| r.display_state == *state).count(),
+        })
+        .collect()
+}
+
+/// The lists of lots that need someone: failing without a retest, owing tests, and
+/// submitted for review (oldest first).
+struct LotLists {
+    failing: Vec<LotLink>,
+    owed: Vec<LotLink>,
+    queue: Vec<LotLink>,
+}
+
+fn lot_lists(reports: &[Arc<LotReport>], u: &Units) -> LotLists {
+    let link = |r: &LotReport, note: String| LotLink {
+        id: r.lot.id,
+        code: r.lot.code.clone(),
+        place: format!(
+            "{} layer {}, {} to {}",
+            r.lot.zone_name,
+            r.lot.layer_number,
+            u.chainage(r.lot.chainage_from_m),
+            u.chainage(r.lot.chainage_to_m)
+        ),
+        note,
+    };
+    let takes_tests = |r: &&Arc<LotReport>| r.lot.state.takes_tests();
+    let failing = reports
+        .iter()
+        .filter(takes_tests)
+        .filter(|r| !r.failing_without_retest.is_empty())
+        .map(|r| {
+            let note = format!("awaiting retest: {}", r.failing_without_retest.join(", "));
+            link(r, note)
+        })
+        .collect();
+    let owed = reports
+        .iter()
+        .filter(takes_tests)
+        .filter(|r| r.tests_owed > 0)
+        .map(|r| {
+            let note = format!("{} of {} tests still owed", r.tests_owed, r.tests_required);
+            link(r, note)
+        })
+        .collect();
+    let mut queue: Vec<_> = reports
+        .iter()
+        .filter(|r| r.lot.state == LotState::Submitted)
+        .collect();
+    queue.sort_by(|a, b| a.lot.state_changed_at.cmp(&b.lot.state_changed_at));
+    let queue = queue
+        .into_iter()
+        .map(|r| {
+            let note = format!(
+                "submitted {}",
+                crate::clock::display(&r.lot.state_changed_at)
+            );
+            link(r, note)
+        })
+        .collect();
+    LotLists {
+        failing,
+        owed,
+        queue,
+    }
+}
+
+/// The project's latest audit rows in words.
+async fn recent_activity(s: &AppState, id: i64) -> crate::error::Result<Vec<Activity>> {
+    Ok(db::audit::recent(&s.db, id, 12)
+        .await?
+        .into_iter()
+        .map(|a| Activity {
+            at: crate::clock::display(&a.at),
+            actor: a.actor,
+            what: format!(
+                "{} {} #{}",
+                a.action,
+                a.entity.replace('_', " "),
+                a.entity_id.unwrap_or(0)
+            ),
+        })
+        .collect())
+}
+
+/// Calibrations, leak tests and licences of the project's instruments due within 30 days.
+async fn calibrations_due(s: &AppState, id: i64) -> crate::error::Result<Vec<(i64, String)>> {
+    let today = crate::clock::date_of(&crate::clock::now());
+    Ok(
+        crate::ledger::instruments::due_for_project(&s.db, id, &today, 30)
+            .await?
+            .into_iter()
+            .map(|(i, r, days)| {
+                let words = present::due_words(&i.serial, &r.kind, r.due_on.as_deref(), days);
+                (i.id, words)
+            })
+            .collect(),
+    )
+}
+
+/// Tests taken since midnight (UTC), in the last seven days, and in all.
+async fn test_counts(s: &AppState, id: i64) -> crate::error::Result<(i64, i64, i64)> {
+    let midnight = time::OffsetDateTime::now_utc().replace_time(time::Time::MIDNIGHT);
+    let today = crate::clock::format(midnight);
+    let week = crate::clock::format(midnight - time::Duration::days(6));
+    Ok((
+        db::field_tests::count_since(&s.db, id, &today).await?,
+        db::field_tests::count_since(&s.db, id, &week).await?,
+        db::field_tests::count(&s.db, id).await?,
+    ))
+}
+
 async fn project_home(
     State(s): State<AppState>,
     caller: Caller,
@@ -138,101 +271,10 @@ async fn project_home(
     let u = Units::of(&p);
     let reports = overview::summaries(&s.db, s.ledger.views(), id).await?;
     let drift = crate::ledger::watch::drift_notes_cached(&s.db, s.ledger.drift(), id).await?;
-    let states = [
-        DisplayState::Open,
-        DisplayState::OwedTests,
-        DisplayState::Failing,
-        DisplayState::Submitted,
-        DisplayState::Rejected,
-        DisplayState::Accepted,
-        DisplayState::Certified,
-    ]
-    .iter()
-    .map(|code| StateCount {
-        code: code.to_string(),
-        label: code.label().to_string(),
-        count: reports.iter().filter(|r| r.display_state == *code).count(),
-    })
-    .collect();
-    let place = |r: &crate::ledger::lot_report::LotReport| {
-        format!(
-            "{} layer {}, {} to {}",
-            r.lot.zone_name,
-            r.lot.layer_number,
-            u.chainage(r.lot.chainage_from_m),
-            u.chainage(r.lot.chainage_to_m)
-        )
-    };
-    let failing = reports
-        .iter()
-        .filter(|r| !r.failing_without_retest.is_empty() && r.lot.state.takes_tests())
-        .map(|r| LotLink {
-            id: r.lot.id,
-            code: r.lot.code.clone(),
-            place: place(r),
-            note: format!("awaiting retest: {}", r.failing_without_retest.join(", ")),
-        })
-        .collect();
-    let owed = reports
-        .iter()
-        .filter(|r| r.tests_owed > 0 && r.lot.state.takes_tests())
-        .map(|r| LotLink {
-            id: r.lot.id,
-            code: r.lot.code.clone(),
-            place: place(r),
-            note: format!("{} of {} tests still owed", r.tests_owed, r.tests_required),
-        })
-        .collect();
-    let mut queue: Vec<_> = reports
-        .iter()
-        .filter(|r| r.lot.state == LotState::Submitted)
-        .collect();
-    queue.sort_by(|a, b| a.lot.state_changed_at.cmp(&b.lot.state_changed_at));
-    let queue = queue
-        .into_iter()
-        .map(|r| LotLink {
-            id: r.lot.id,
-            code: r.lot.code.clone(),
-            place: place(r),
-            note: format!(
-                "submitted {}",
-                crate::clock::display(&r.lot.state_changed_at)
-            ),
-        })
-        .collect();
-    let now = time::OffsetDateTime::now_utc();
-    let today = crate::clock::format(now.replace_time(time::Time::MIDNIGHT));
-    let week =
-        crate::clock::format(now.replace_time(time::Time::MIDNIGHT) - time::Duration::days(6));
-    let activity = db::audit::recent(&s.db, id, 12)
-        .await?
-        .into_iter()
-        .map(|a| Activity {
-            at: crate::clock::display(&a.at),
-            actor: a.actor,
-            what: format!(
-                "{} {} #{}",
-                a.action,
-                a.entity.replace('_', " "),
-                a.entity_id.unwrap_or(0)
-            ),
-        })
-        .collect();
-    let calibrations_due = crate::ledger::instruments::due_for_project(
-        &s.db,
-        id,
-        &crate::clock::date_of(&crate::clock::now()),
-        30,
-    )
-    .await?
-    .into_iter()
-    .map(|(i, r, days)| {
-        (
-            i.id,
-            present::due_words(&i.serial, &r.kind, r.due_on.as_deref(), days),
-        )
-    })
-    .collect();
+    let lists = lot_lists(&reports, &u);
+    let activity = recent_activity(&s, id).await?;
+    let calibrations_due = calibrations_due(&s, id).await?;
+    let (tests_today, tests_week, tests_total) = test_counts(&s, id).await?;
     render(&ProjectPage {
         calibrations_due,
         nav: ProjectNav {
@@ -240,13 +282,13 @@ async fn project_home(
             name: p.code.clone(),
         },
         total_lots: reports.len(),
-        states,
-        tests_today: db::field_tests::count_since(&s.db, id, &today).await?,
-        tests_week: db::field_tests::count_since(&s.db, id, &week).await?,
-        tests_total: db::field_tests::count(&s.db, id).await?,
-        failing,
-        owed,
-        queue,
+        states: state_counts(&reports),
+        tests_today,
+        tests_week,
+        tests_total,
+        failing: lists.failing,
+        owed: lists.owed,
+        queue: lists.queue,
         activity,
         may_import,
         may_setup,
