@@ -55,6 +55,7 @@ async fn list_users(State(s): State<AppState>, caller: Caller) -> Result<Json<Ve
 
 /// Body of a new user (read by `ledger::accounts::UserInput`).
 #[derive(Deserialize, ToSchema)]
+#[serde(deny_unknown_fields)]
 #[allow(dead_code)]
 #[schema(example = json!({"username": "bob", "display_name": "Bob Okafor", "password": "correct horse battery staple"}))]
 struct UserBody {
@@ -162,6 +163,7 @@ async fn list_tokens(
 
 /// Body of a new token (read by `ledger::accounts::TokenInput`).
 #[derive(Deserialize, ToSchema)]
+#[serde(deny_unknown_fields)]
 #[allow(dead_code)]
 #[schema(example = json!({"name": "site tablet 2", "role": "technician", "expires_in_days": 30}))]
 struct TokenBody {

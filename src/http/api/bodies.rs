@@ -22,7 +22,7 @@ use super::codes::{
 #[schema(example = json!({"code": "P-7", "name": "Northern bypass", "unit_system": "si", "chainage_style": "km_metre"}))]
 pub struct ProjectInput {
     /// Short identifier: letters, digits, `- _ . /`.
-    #[schema(max_length = 24, pattern = r"^\s*[A-Za-z0-9._/-]+\s*$")]
+    #[schema(pattern = r"^\s*[A-Za-z0-9._/-]{1,24}\s*$")]
     pub code: String,
     #[schema(max_length = 200, pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*[^\s\x00-\x1f\x7f-\x9f][^\x00-\x09\x0b-\x1f\x7f-\x9f]*$")]
     pub name: String,
@@ -35,10 +35,12 @@ pub struct ProjectInput {
     #[serde(default)]
     #[schema(max_length = 200, pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*$")]
     pub contractor: String,
-    #[serde(default)]
-    pub unit_system: Option<UnitSystem>,
-    #[serde(default)]
-    pub chainage_style: Option<ChainageStyle>,
+    /// Default `si`.
+    #[schema(required = false)]
+    pub unit_system: UnitSystem,
+    /// Default `km_metre`.
+    #[schema(required = false)]
+    pub chainage_style: ChainageStyle,
 }
 
 /// A specification clause: the limits and the acceptance rule lots are judged by.
@@ -47,7 +49,7 @@ pub struct ProjectInput {
 #[schema(example = json!({"code": "C-1", "rc_min_pct": 95.0, "moisture_below_pct": 2.0, "moisture_above_pct": 2.0,
     "effort": "standard", "rule": "every_test", "min_tests_per_lot": 3, "area_per_test_m2": 500.0}))]
 pub struct ClauseInput {
-    #[schema(max_length = 24, pattern = r"^\s*[A-Za-z0-9._/-]+\s*$")]
+    #[schema(pattern = r"^\s*[A-Za-z0-9._/-]{1,24}\s*$")]
     pub code: String,
     #[serde(default)]
     #[schema(max_length = 200, pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*$")]
@@ -107,7 +109,7 @@ pub struct ClauseInput {
 #[serde(deny_unknown_fields)]
 #[schema(example = json!({"code": "S-1", "name": "Cut 3 clay", "gs_fines": 2.65}))]
 pub struct SourceInput {
-    #[schema(max_length = 24, pattern = r"^\s*[A-Za-z0-9._/-]+\s*$")]
+    #[schema(pattern = r"^\s*[A-Za-z0-9._/-]{1,24}\s*$")]
     pub code: String,
     #[schema(max_length = 200, pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*[^\s\x00-\x1f\x7f-\x9f][^\x00-\x09\x0b-\x1f\x7f-\x9f]*$")]
     pub name: String,
@@ -166,7 +168,7 @@ pub struct CustomEffortInput {
     "points": [{"water_content_pct": 10.0, "dry_density_kg_m3": 1850.0}, {"water_content_pct": 12.0, "dry_density_kg_m3": 1900.0},
     {"water_content_pct": 14.0, "dry_density_kg_m3": 1880.0}, {"water_content_pct": 16.0, "dry_density_kg_m3": 1820.0}]}))]
 pub struct LabTestInput {
-    #[schema(max_length = 24, pattern = r"^\s*[A-Za-z0-9._/-]+\s*$")]
+    #[schema(pattern = r"^\s*[A-Za-z0-9._/-]{1,24}\s*$")]
     pub code: String,
     #[schema(format = Date)]
     pub tested_on: String,
@@ -201,7 +203,7 @@ pub struct LayerInput {
 #[schema(example = json!({"code": "L-30", "layer_id": 1, "chainage_from_m": 1000.0, "chainage_to_m": 1100.0,
     "offset_left_m": -10.0, "offset_right_m": 10.0, "clause_id": 1, "lab_test_id": 1}))]
 pub struct LotInput {
-    #[schema(max_length = 24, pattern = r"^\s*[A-Za-z0-9._/-]+\s*$")]
+    #[schema(pattern = r"^\s*[A-Za-z0-9._/-]{1,24}\s*$")]
     pub code: String,
     pub layer_id: i64,
     #[schema(minimum = 0.0, maximum = 10000000.0)]
@@ -231,7 +233,7 @@ pub struct SplitInput {
     pub chainage_to_m: f64,
     pub every_m: f64,
     /// Lot codes are this prefix followed by a running number.
-    #[schema(max_length = 18, pattern = r"^\s*[A-Za-z0-9._/-]+\s*$")]
+    #[schema(pattern = r"^\s*[A-Za-z0-9._/-]{1,18}\s*$")]
     pub code_prefix: String,
     /// Number of the first lot (default 1).
     #[serde(default)]
@@ -252,7 +254,7 @@ pub struct SplitInput {
 #[serde(deny_unknown_fields)]
 #[schema(example = json!({"code": "M-4", "volume_cm3": 944.0, "mass_g": 4200.0, "calibrated_on": "2026-01-10"}))]
 pub struct MouldInput {
-    #[schema(max_length = 24, pattern = r"^\s*[A-Za-z0-9._/-]+\s*$")]
+    #[schema(pattern = r"^\s*[A-Za-z0-9._/-]{1,24}\s*$")]
     pub code: String,
     /// Volume measured at calibration, cm³.
     #[schema(minimum = 100.0, maximum = 20000.0)]
@@ -334,7 +336,7 @@ pub enum Readings {
     "readings": {"method": "nuclear", "wet_density_kg_m3": 2050.0, "water_content_pct": 11.0}}))]
 pub struct FieldTestInput {
     /// Test number, unique in the project; generated when absent.
-    #[schema(max_length = 24, pattern = r"^\s*[A-Za-z0-9._/-]+\s*$")]
+    #[schema(pattern = r"^\s*[A-Za-z0-9._/-]{1,24}\s*$")]
     pub number: Option<String>,
     /// When the test was taken (RFC 3339); now when absent.
     #[schema(format = DateTime)]
@@ -435,7 +437,7 @@ pub struct PlanningTermsInput {
 #[schema(example = json!({"code": "OP-1", "tested_on": "2026-03-05", "effort": "astm_d698_4in",
     "wet_density_kg_m3": 2080.0, "water_content_pct": 11.5}))]
 pub struct OnePointInput {
-    #[schema(max_length = 24, pattern = r"^\s*[A-Za-z0-9._/-]+\s*$")]
+    #[schema(pattern = r"^\s*[A-Za-z0-9._/-]{1,24}\s*$")]
     pub code: String,
     #[schema(format = Date)]
     pub tested_on: String,
@@ -458,7 +460,7 @@ pub struct OnePointInput {
 #[schema(example = json!({"kind": "nuclear_gauge", "serial": "NG-31", "calibrated_on": "2026-01-05", "due_on": "2027-01-05"}))]
 pub struct InstrumentInput {
     pub kind: InstrumentKind,
-    #[schema(max_length = 24, pattern = r"^\s*[A-Za-z0-9._/-]+\s*$")]
+    #[schema(pattern = r"^\s*[A-Za-z0-9._/-]{1,24}\s*$")]
     pub serial: String,
     #[serde(default)]
     #[schema(max_length = 200, pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*$")]
@@ -510,7 +512,7 @@ pub struct AssignmentInput {
 #[serde(deny_unknown_fields)]
 #[schema(example = json!({"code": "OP-7", "name": "R. Jones", "certification": "RSO-2291", "expires_on": "2027-06-30"}))]
 pub struct OperatorInput {
-    #[schema(max_length = 24, pattern = r"^\s*[A-Za-z0-9._/-]+\s*$")]
+    #[schema(pattern = r"^\s*[A-Za-z0-9._/-]{1,24}\s*$")]
     pub code: String,
     #[schema(max_length = 80, pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*[^\s\x00-\x1f\x7f-\x9f][^\x00-\x09\x0b-\x1f\x7f-\x9f]*$")]
     pub name: String,

@@ -101,13 +101,16 @@ async fn pdf(
 /// Body of a verification request: exactly one of the three ways to name a certificate.
 #[derive(Debug, Deserialize, ToSchema)]
 #[serde(deny_unknown_fields)]
-#[schema(example = json!({"code": "7K2M-Q9XD"}))]
+#[schema(example = json!({"code": "7K2M-Q9XD"}), min_properties = 1, max_properties = 1)]
 struct VerifyInput {
     /// The verification code printed on the certificate.
+    #[schema(nullable = false, pattern = r"\S")]
     code: Option<String>,
     /// SHA-256 of the PDF, hex.
+    #[schema(nullable = false, pattern = r"\S")]
     sha256: Option<String>,
     /// The PDF itself, standard base64.
+    #[schema(nullable = false)]
     pdf_base64: Option<String>,
 }
 

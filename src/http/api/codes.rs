@@ -8,7 +8,7 @@ use utoipa::ToSchema;
 
 /// Declares a documentation enum whose variants serialise as the given codes.
 macro_rules! codes {
-    ($(#[$doc:meta])* $name:ident { $($variant:ident = $code:literal),+ $(,)? }) => {
+    ($(#[$doc:meta])* $name:ident { $($variant:ident = $code:tt),+ $(,)? }) => {
         $(#[$doc])*
         #[derive(Deserialize, ToSchema)]
         pub enum $name {

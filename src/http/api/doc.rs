@@ -4,10 +4,14 @@
 //! Operations come from the `#[utoipa::path]` of each handler, collected by the
 //! `OpenApiRouter`s of the resource modules, so a route cannot exist without its entry.
 
+use std::collections::BTreeMap;
+
 use serde::Serialize;
 use utoipa::openapi::security::{ApiKey, ApiKeyValue, HttpAuthScheme, HttpBuilder, SecurityScheme};
+use utoipa::openapi::{ContentBuilder, Ref, RefOr, Response, ResponseBuilder};
 use utoipa::{IntoResponses, Modify, OpenApi, ToSchema};
 
+use super::codes;
 use crate::http::caller::SESSION_COOKIE;
 
 /// Name of the session-cookie security scheme in the document.
@@ -30,7 +34,11 @@ pub const TOKEN: &str = "token";
     ),
     modifiers(&Security),
     security(("session" = []), ("token" = [])),
-    components(schemas(ErrorBody, ErrorDetail)),
+    components(schemas(
+        ErrorBody, ErrorDetail,
+        // Codes named by query and path parameters (bodies and answers bring their own).
+        codes::LotState, codes::Method, codes::ExportKind, codes::GroupBy, codes::Measure,
+    )),
     tags(
         (name = "projects", description = "Projects and their set-up: clauses, sources, lab tests, layers, lots, moulds"),
         (name = "lots", description = "Lots: reports, history, review"),
@@ -97,28 +105,61 @@ pub struct ErrorDetail {
     pub request_id: Option<String>,
 }
 
-/// The refusals any operation may answer.
-#[derive(IntoResponses)]
-#[allow(dead_code)]
-pub enum Refusals {
-    /// The body or a parameter could not be read (malformed JSON, wrong type, unknown field).
-    #[response(status = 400)]
-    BadRequest(#[to_schema] ErrorBody),
-    /// No valid session or token.
-    #[response(status = 401)]
-    Unauthorized(#[to_schema] ErrorBody),
-    /// The caller's role does not allow this, or a cookie request came from another site.
-    #[response(status = 403)]
-    Forbidden(#[to_schema] ErrorBody),
-    /// A record named in the path or the body does not exist (or is not visible to the caller).
-    #[response(status = 404)]
-    NotFound(#[to_schema] ErrorBody),
-    /// The record's current state refuses the request; `reasons` lists what to fix.
-    #[response(status = 409)]
-    Conflict(#[to_schema] ErrorBody),
-    /// A value was read but breaks a rule; `field` names it.
-    #[response(status = 422)]
-    Invalid(#[to_schema] ErrorBody),
+/// The refusals any operation may answer, each referencing the one `ErrorBody` schema.
+pub struct Refusals;
+
+/// (status, when) of every refusal.
+const REFUSALS: [(u16, &str); 6] = [
+    (400, "The body or a parameter could not be read (malformed JSON, wrong type, unknown field)"),
+    (401, "No valid session or token"),
+    (403, "The caller's role does not allow this, or a cookie request came from another site"),
+    (404, "A record named in the path or the body does not exist (or is not the caller's to see)"),
+    (409, "The record's current state refuses the request; `reasons` lists what to fix"),
+    (422, "A value was read but breaks a rule; `field` names it"),
+];
+
+impl IntoResponses for Refusals {
+    fn responses() -> BTreeMap<String, RefOr<Response>> {
+        REFUSALS
+            .iter()
+            .map(|(status, when)| {
+                let body = ContentBuilder::new()
+                    .schema(Some(Ref::from_schema_name("ErrorBody")))
+                    .build();
+                let response = ResponseBuilder::new()
+                    .description(*when)
+                    .content("application/json", body)
+                    .build();
+                (status.to_string(), RefOr::T(response))
+            })
+            .collect()
+    }
+}
+
+/// Gives every operation a unique id made of its method and path (`post_lots_id_field_tests`):
+/// handler names alone repeat across modules.
+pub fn name_operations(doc: &mut utoipa::openapi::OpenApi) {
+    for (path, item) in doc.paths.paths.iter_mut() {
+        let slug: String = path
+            .trim_start_matches("/api/v1/")
+            .chars()
+            .map(|c| if c.is_ascii_alphanumeric() { c } else { '_' })
+            .collect::<String>()
+            .split('_')
+            .filter(|s| !s.is_empty())
+            .collect::<Vec<_>>()
+            .join("_");
+        for (method, op) in [
+            ("get", &mut item.get),
+            ("put", &mut item.put),
+            ("post", &mut item.post),
+            ("delete", &mut item.delete),
+        ] {
+            if let Some(op) = op {
+                op.operation_id = Some(format!("{method}_{slug}"));
+            }
+        }
+    }
 }
 
 /// The id in a path such as `/api/v1/lots/{id}`.

@@ -157,8 +157,10 @@ struct TestQuery {
     /// Tests before this chainage, m.
     chainage_to_m: Option<f64>,
     /// Tests taken at or after this time (RFC 3339, or a date).
+    #[param(pattern = r"^\d{4}-\d{2}-\d{2}")]
     tested_from: Option<String>,
     /// Tests taken before this time (RFC 3339, or a date).
+    #[param(pattern = r"^\d{4}-\d{2}-\d{2}")]
     tested_before: Option<String>,
     #[param(value_type = Option<super::codes::Method>)]
     method: Option<String>,

@@ -61,6 +61,7 @@ pub fn import_router() -> Router<AppState> {
 pub fn document() -> utoipa::openapi::OpenApi {
     let mut all = documented().into_openapi();
     all.merge(transfer::import_router().into_openapi());
+    doc::name_operations(&mut all);
     all
 }
 

@@ -255,8 +255,10 @@ struct LotQuery {
     #[param(value_type = Option<super::codes::LotState>)]
     state: Option<String>,
     /// Lots whose state changed at or after this time (RFC 3339, or a date).
+    #[param(pattern = r"^\d{4}-\d{2}-\d{2}")]
     changed_since: Option<String>,
     /// Lots whose state changed before this time (RFC 3339, or a date).
+    #[param(pattern = r"^\d{4}-\d{2}-\d{2}")]
     changed_before: Option<String>,
     /// Page number, from 1.
     #[param(minimum = 1)]
