@@ -47,7 +47,7 @@ pub struct ProjectInput {
 #[derive(Deserialize, ToSchema)]
 #[serde(deny_unknown_fields)]
 #[schema(example = json!({"code": "C-1", "rc_min_pct": 95.0, "moisture_below_pct": 2.0, "moisture_above_pct": 2.0,
-    "effort": "standard", "rule": "every_test", "min_tests_per_lot": 3, "area_per_test_m2": 500.0}))]
+    "effort": "astm_d698_4in", "rule": "every_test", "min_tests_per_lot": 3, "area_per_test_m2": 500.0}))]
 pub struct ClauseInput {
     #[schema(pattern = r"^\s*[A-Za-z0-9._/-]{1,24}\s*$")]
     pub code: String,
@@ -593,7 +593,7 @@ pub struct OffsetInput {
 /// A column mapping for CSV imports, saved under a name.
 #[derive(Deserialize, ToSchema)]
 #[serde(deny_unknown_fields)]
-#[schema(example = json!({"name": "lab-export", "mapping": {"columns": {"No": "number", "Chainage": "chainage_m"}, "method": "nuclear"}}))]
+#[schema(example = json!({"name": "lab-export", "mapping": {"columns": {"No": "number", "Chainage": "chainage"}, "method": "nuclear"}}))]
 pub struct MappingInput {
     pub name: String,
     /// `columns` (file column → field), and optionally `method`, `units` (`si`/`us`),
