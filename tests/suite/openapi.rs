@@ -54,7 +54,10 @@ async fn the_document_describes_the_api_and_its_security() {
                 op["summary"].as_str().is_some_and(|s| !s.is_empty()),
                 "{where_} has a summary"
             );
-            assert!(ids.insert(op["operationId"].as_str().unwrap().to_string()), "{where_}: unique operationId");
+            assert!(
+                ids.insert(op["operationId"].as_str().unwrap().to_string()),
+                "{where_}: unique operationId"
+            );
             let responses = op["responses"].as_object().unwrap();
             assert!(
                 responses.keys().any(|k| k.starts_with('2')),
@@ -74,8 +77,16 @@ async fn the_document_describes_the_api_and_its_security() {
     }
     // The enums the ledger checks are listed, not left as free strings.
     let schemas = &doc["components"]["schemas"];
-    assert!(schemas["ClauseEffort"]["enum"].as_array().unwrap().contains(&json!("astm_d698_4in")));
-    assert_eq!(schemas["LotState"]["enum"], json!(["open", "submitted", "accepted", "rejected"]));
+    assert!(
+        schemas["ClauseEffort"]["enum"]
+            .as_array()
+            .unwrap()
+            .contains(&json!("astm_d698_4in"))
+    );
+    assert_eq!(
+        schemas["LotState"]["enum"],
+        json!(["open", "submitted", "accepted", "rejected"])
+    );
     assert_eq!(
         schemas["ClauseInput"]["properties"]["rc_min_pct"]["minimum"].as_f64(),
         Some(50.0),
@@ -90,7 +101,12 @@ async fn the_document_and_the_router_are_in_step() {
     let admin = app.client_as(As::Admin);
     for (path, item) in doc["paths"].as_object().unwrap() {
         let url = app.url(&concrete(path));
-        let documented: Vec<&str> = item.as_object().unwrap().keys().map(String::as_str).collect();
+        let documented: Vec<&str> = item
+            .as_object()
+            .unwrap()
+            .keys()
+            .map(String::as_str)
+            .collect();
         for method in METHODS {
             let mut r = request(admin, method, &url).header("origin", app.url(""));
             if method != "get" {
@@ -98,9 +114,15 @@ async fn the_document_and_the_router_are_in_step() {
             }
             let (s, body) = answer(r).await;
             if documented.contains(&method) {
-                assert!(!unrouted(s, &body), "{method} {path} is documented but not routed: {s} {body}");
+                assert!(
+                    !unrouted(s, &body),
+                    "{method} {path} is documented but not routed: {s} {body}"
+                );
             } else {
-                assert_eq!(s, 405, "{method} {path} is routed but not documented: {body}");
+                assert_eq!(
+                    s, 405,
+                    "{method} {path} is routed but not documented: {body}"
+                );
             }
         }
     }
@@ -169,7 +191,11 @@ async fn every_example_validates_against_its_schema() {
     let (_, doc) = app.get("/api/v1/openapi.json").await;
     let mut found = Vec::new();
     examples(&doc, "", &mut found);
-    assert!(found.len() >= 30, "the document carries examples ({} found)", found.len());
+    assert!(
+        found.len() >= 30,
+        "the document carries examples ({} found)",
+        found.len()
+    );
     for (pointer, schema, example) in found {
         // The schema with the document's components beside it, so its `$ref`s resolve.
         let mut root = schema.clone();
@@ -180,8 +206,14 @@ async fn every_example_validates_against_its_schema() {
         }
         let validator = jsonschema::draft202012::new(&root)
             .unwrap_or_else(|e| panic!("schema at {pointer} is not valid JSON Schema: {e}"));
-        let errors: Vec<String> = validator.iter_errors(&example).map(|e| e.to_string()).collect();
-        assert!(errors.is_empty(), "example at {pointer} does not match its schema: {errors:?}\n{example}");
+        let errors: Vec<String> = validator
+            .iter_errors(&example)
+            .map(|e| e.to_string())
+            .collect();
+        assert!(
+            errors.is_empty(),
+            "example at {pointer} does not match its schema: {errors:?}\n{example}"
+        );
     }
 }
 
@@ -200,7 +232,9 @@ async fn body_schemas_match_what_the_server_reads() {
     let mut checked = 0;
     for (path, item) in doc["paths"].as_object().unwrap() {
         for (method, op) in item.as_object().unwrap() {
-            let Some(schema) = body_schema(&doc, op) else { continue };
+            let Some(schema) = body_schema(&doc, op) else {
+                continue;
+            };
             let url = app.url(&concrete(path));
             let send = |body: &Value| {
                 request(admin, method, &url)
@@ -213,7 +247,9 @@ async fn body_schemas_match_what_the_server_reads() {
                 assert_ne!(s, 400, "{method} {path}: its example is unreadable: {e}");
             }
             // An unknown field is refused with the list of fields the server reads.
-            let Some(props) = schema["properties"].as_object() else { continue };
+            let Some(props) = schema["properties"].as_object() else {
+                continue;
+            };
             let (s, e) = answer(send(&json!({"zz_not_a_field": 1}))).await;
             let message = e["error"]["message"].as_str().unwrap_or_default();
             if s != 400 || !message.contains("unknown field") {
@@ -221,10 +257,19 @@ async fn body_schemas_match_what_the_server_reads() {
             }
             let read: BTreeSet<String> = message
                 .split_once("expected")
-                .map(|(_, list)| list.split('`').skip(1).step_by(2).map(str::to_string).collect())
+                .map(|(_, list)| {
+                    list.split('`')
+                        .skip(1)
+                        .step_by(2)
+                        .map(str::to_string)
+                        .collect()
+                })
                 .unwrap_or_default();
             let documented: BTreeSet<String> = props.keys().cloned().collect();
-            assert_eq!(documented, read, "{method} {path}: documented fields vs the fields the server reads");
+            assert_eq!(
+                documented, read,
+                "{method} {path}: documented fields vs the fields the server reads"
+            );
             checked += 1;
         }
     }
@@ -234,17 +279,46 @@ async fn body_schemas_match_what_the_server_reads() {
 #[tokio::test]
 async fn the_api_page_and_its_script_are_served() {
     let app = spawn_app().await;
-    let r = app.anonymous.get(app.url("/api/docs")).send().await.unwrap();
+    let r = app
+        .anonymous
+        .get(app.url("/api/docs"))
+        .send()
+        .await
+        .unwrap();
     assert_eq!(r.status(), 200);
-    assert!(r.headers()["content-type"].to_str().unwrap().starts_with("text/html"));
+    assert!(
+        r.headers()["content-type"]
+            .to_str()
+            .unwrap()
+            .starts_with("text/html")
+    );
     let html = r.text().await.unwrap();
     assert!(html.contains("src=\"/static/api-docs.js\""), "{html}");
-    assert!(!html.contains("<script>"), "no inline script (the CSP forbids it)");
+    assert!(
+        !html.contains("<script>"),
+        "no inline script (the CSP forbids it)"
+    );
     assert!(!html.contains("https://"), "nothing loaded from elsewhere");
-    let r = app.anonymous.get(app.url("/static/api-docs.js")).send().await.unwrap();
+    let r = app
+        .anonymous
+        .get(app.url("/static/api-docs.js"))
+        .send()
+        .await
+        .unwrap();
     assert_eq!(r.status(), 200);
-    assert!(r.headers()["content-type"].to_str().unwrap().starts_with("text/javascript"));
+    assert!(
+        r.headers()["content-type"]
+            .to_str()
+            .unwrap()
+            .starts_with("text/javascript")
+    );
     let js = r.text().await.unwrap();
-    assert!(js.contains("/api/v1/openapi.json"), "the page reads the served document");
-    assert!(js.contains("same-origin"), "requests carry the session cookie, same-origin only");
+    assert!(
+        js.contains("/api/v1/openapi.json"),
+        "the page reads the served document"
+    );
+    assert!(
+        js.contains("same-origin"),
+        "requests carry the session cookie, same-origin only"
+    );
 }

@@ -8,7 +8,9 @@ use utoipa::ToSchema;
 use utoipa_axum::router::OpenApiRouter;
 use utoipa_axum::routes;
 
-use super::answers::{GrantAnswer, MeAnswer, MemberAnswer, NewTokenAnswer, TokenAnswer, UserAnswer};
+use super::answers::{
+    GrantAnswer, MeAnswer, MemberAnswer, NewTokenAnswer, TokenAnswer, UserAnswer,
+};
 use super::codes;
 use super::doc::{IdPath, Refusals};
 

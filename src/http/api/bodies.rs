@@ -24,7 +24,10 @@ pub struct ProjectInput {
     /// Short identifier: letters, digits, `- _ . /`.
     #[schema(pattern = r"^\s*[A-Za-z0-9._/-]{1,24}\s*$")]
     pub code: String,
-    #[schema(max_length = 200, pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*[^\s\x00-\x1f\x7f-\x9f][^\x00-\x09\x0b-\x1f\x7f-\x9f]*$")]
+    #[schema(
+        max_length = 200,
+        pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*[^\s\x00-\x1f\x7f-\x9f][^\x00-\x09\x0b-\x1f\x7f-\x9f]*$"
+    )]
     pub name: String,
     #[serde(default)]
     #[schema(max_length = 200, pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*$")]
@@ -111,7 +114,10 @@ pub struct ClauseInput {
 pub struct SourceInput {
     #[schema(pattern = r"^\s*[A-Za-z0-9._/-]{1,24}\s*$")]
     pub code: String,
-    #[schema(max_length = 200, pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*[^\s\x00-\x1f\x7f-\x9f][^\x00-\x09\x0b-\x1f\x7f-\x9f]*$")]
+    #[schema(
+        max_length = 200,
+        pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*[^\s\x00-\x1f\x7f-\x9f][^\x00-\x09\x0b-\x1f\x7f-\x9f]*$"
+    )]
     pub name: String,
     #[serde(default)]
     #[schema(max_length = 2000, pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*$")]
@@ -189,7 +195,10 @@ pub struct LabTestInput {
 #[serde(deny_unknown_fields)]
 #[schema(example = json!({"zone": "Embankment", "number": 4, "thickness_mm": 300.0}))]
 pub struct LayerInput {
-    #[schema(max_length = 80, pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*[^\s\x00-\x1f\x7f-\x9f][^\x00-\x09\x0b-\x1f\x7f-\x9f]*$")]
+    #[schema(
+        max_length = 80,
+        pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*[^\s\x00-\x1f\x7f-\x9f][^\x00-\x09\x0b-\x1f\x7f-\x9f]*$"
+    )]
     pub zone: String,
     #[schema(minimum = 1, maximum = 999)]
     pub number: i64,
@@ -341,7 +350,10 @@ pub struct FieldTestInput {
     /// When the test was taken (RFC 3339); now when absent.
     #[schema(format = DateTime)]
     pub tested_at: Option<String>,
-    #[schema(max_length = 80, pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*[^\s\x00-\x1f\x7f-\x9f][^\x00-\x09\x0b-\x1f\x7f-\x9f]*$")]
+    #[schema(
+        max_length = 80,
+        pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*[^\s\x00-\x1f\x7f-\x9f][^\x00-\x09\x0b-\x1f\x7f-\x9f]*$"
+    )]
     pub technician: String,
     #[serde(default)]
     #[schema(max_length = 40, pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*$")]
@@ -383,7 +395,10 @@ pub struct RepointInput {
     /// The lab test (curve) the lot is judged against from now on.
     pub lab_test_id: i64,
     /// Why (kept in the lot's history).
-    #[schema(max_length = 500, pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*[^\s\x00-\x1f\x7f-\x9f][^\x00-\x09\x0b-\x1f\x7f-\x9f]*$")]
+    #[schema(
+        max_length = 500,
+        pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*[^\s\x00-\x1f\x7f-\x9f][^\x00-\x09\x0b-\x1f\x7f-\x9f]*$"
+    )]
     pub reason: String,
 }
 
@@ -474,6 +489,7 @@ pub struct InstrumentInput {
     /// Bulk density of the sand, kg/m³ (sand batches).
     pub sand_density_kg_m3: Option<f64>,
     /// Calibrated volume, cm³ (drive cylinders, balloons).
+    #[schema(minimum = 100.0, maximum = 10000.0)]
     pub volume_cm3: Option<f64>,
 }
 
@@ -492,6 +508,8 @@ pub struct InstrumentRecordInput {
     pub reference: String,
     pub cone_sand_mass_g: Option<f64>,
     pub sand_density_kg_m3: Option<f64>,
+    /// Calibrated volume, cm³.
+    #[schema(minimum = 100.0, maximum = 10000.0)]
     pub volume_cm3: Option<f64>,
 }
 
@@ -514,10 +532,16 @@ pub struct AssignmentInput {
 pub struct OperatorInput {
     #[schema(pattern = r"^\s*[A-Za-z0-9._/-]{1,24}\s*$")]
     pub code: String,
-    #[schema(max_length = 80, pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*[^\s\x00-\x1f\x7f-\x9f][^\x00-\x09\x0b-\x1f\x7f-\x9f]*$")]
+    #[schema(
+        max_length = 80,
+        pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*[^\s\x00-\x1f\x7f-\x9f][^\x00-\x09\x0b-\x1f\x7f-\x9f]*$"
+    )]
     pub name: String,
     /// The licence or certification held (its reference).
-    #[schema(max_length = 120, pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*[^\s\x00-\x1f\x7f-\x9f][^\x00-\x09\x0b-\x1f\x7f-\x9f]*$")]
+    #[schema(
+        max_length = 120,
+        pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*[^\s\x00-\x1f\x7f-\x9f][^\x00-\x09\x0b-\x1f\x7f-\x9f]*$"
+    )]
     pub certification: String,
     #[schema(format = Date)]
     pub expires_on: String,
@@ -565,12 +589,16 @@ pub struct InstrumentPolicyInput {
 #[serde(deny_unknown_fields)]
 pub struct OffsetPair {
     /// Wet density read by the gauge, kg/m³.
+    #[schema(exclusive_minimum = 0.0)]
     pub gauge_wet_density_kg_m3: f64,
     /// Wet density by the reference method on the same spot, kg/m³.
+    #[schema(exclusive_minimum = 0.0)]
     pub reference_wet_density_kg_m3: f64,
     /// Water content shown by the gauge, percent.
+    #[schema(exclusive_minimum = 0.0)]
     pub gauge_water_content_pct: f64,
     /// Oven water content of the same material (ASTM D2216), percent.
+    #[schema(exclusive_minimum = 0.0)]
     pub oven_water_content_pct: f64,
 }
 

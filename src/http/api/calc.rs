@@ -196,7 +196,10 @@ struct OversizeBody {
 /// Oversize-correct a density and water content (ASTM D4718; nothing is stored).
 #[utoipa::path(post, path = "/api/v1/calc/oversize", tag = "calculators", request_body = OversizeBody,
     responses((status = 200, description = "The corrected total-sample values", body = OversizeAnswer), Refusals))]
-async fn oversize(_caller: Caller, ApiJson(b): ApiJson<OversizeBody>) -> Result<Json<OversizeAnswer>> {
+async fn oversize(
+    _caller: Caller,
+    ApiJson(b): ApiJson<OversizeBody>,
+) -> Result<Json<OversizeAnswer>> {
     let input = OversizeInput {
         fine_dry_density_kg_m3: b.fine_dry_density_kg_m3,
         fine_water_content_pct: b.fine_water_content_pct,

@@ -110,11 +110,23 @@ pub struct Refusals;
 
 /// (status, when) of every refusal.
 const REFUSALS: [(u16, &str); 6] = [
-    (400, "The body or a parameter could not be read (malformed JSON, wrong type, unknown field)"),
+    (
+        400,
+        "The body or a parameter could not be read (malformed JSON, wrong type, unknown field)",
+    ),
     (401, "No valid session or token"),
-    (403, "The caller's role does not allow this, or a cookie request came from another site"),
-    (404, "A record named in the path or the body does not exist (or is not the caller's to see)"),
-    (409, "The record's current state refuses the request; `reasons` lists what to fix"),
+    (
+        403,
+        "The caller's role does not allow this, or a cookie request came from another site",
+    ),
+    (
+        404,
+        "A record named in the path or the body does not exist (or is not the caller's to see)",
+    ),
+    (
+        409,
+        "The record's current state refuses the request; `reasons` lists what to fix",
+    ),
     (422, "A value was read but breaks a rule; `field` names it"),
 ];
 

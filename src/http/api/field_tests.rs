@@ -251,7 +251,10 @@ async fn history(
 #[schema(example = json!({"reason": "wrong lot"}))]
 struct VoidInput {
     /// Why the test is voided (kept in its history).
-    #[schema(max_length = 500, pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*[^\s\x00-\x1f\x7f-\x9f][^\x00-\x09\x0b-\x1f\x7f-\x9f]*$")]
+    #[schema(
+        max_length = 500,
+        pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*[^\s\x00-\x1f\x7f-\x9f][^\x00-\x09\x0b-\x1f\x7f-\x9f]*$"
+    )]
     reason: String,
 }
 

@@ -9,7 +9,9 @@ use utoipa::IntoParams;
 use utoipa_axum::router::OpenApiRouter;
 use utoipa_axum::routes;
 
-use super::answers::{ChartGroupAnswer, DriftAnswer, OnePointAnswer, PlanAnswer, PlanningTermsAnswer};
+use super::answers::{
+    ChartGroupAnswer, DriftAnswer, OnePointAnswer, PlanAnswer, PlanningTermsAnswer,
+};
 use super::bodies;
 use super::codes;
 use super::doc::{IdPath, Refusals};
@@ -60,7 +62,10 @@ async fn draw_plan(
 ) -> Result<(StatusCode, Json<PlanAnswer>)> {
     let actor = require(&s.db, &caller, Scope::Lot(id), Action::ManageSetup).await?;
     planning::draw(&s.db, id, &input, &actor).await?;
-    Ok((StatusCode::CREATED, Json(planning::view(&s.db, id).await?.into())))
+    Ok((
+        StatusCode::CREATED,
+        Json(planning::view(&s.db, id).await?.into()),
+    ))
 }
 
 /// Set a clause's planning terms.
@@ -123,7 +128,9 @@ async fn drift(
         .await?
         .ok_or_else(|| anyhow::anyhow!("lab test {id} has no source"))?;
     Ok(Json(
-        watch::drift_of(&s.db, source.project_id, &lab).await?.into(),
+        watch::drift_of(&s.db, source.project_id, &lab)
+            .await?
+            .into(),
     ))
 }
 

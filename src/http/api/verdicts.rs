@@ -31,7 +31,10 @@ pub fn router() -> OpenApiRouter<AppState> {
 pub(super) struct ReasonInput {
     /// Why (kept in the record's history); required.
     #[serde(default)]
-    #[schema(max_length = 1000, pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*[^\s\x00-\x1f\x7f-\x9f][^\x00-\x09\x0b-\x1f\x7f-\x9f]*$")]
+    #[schema(
+        max_length = 1000,
+        pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*[^\s\x00-\x1f\x7f-\x9f][^\x00-\x09\x0b-\x1f\x7f-\x9f]*$"
+    )]
     pub(super) reason: String,
 }
 

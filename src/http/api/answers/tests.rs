@@ -194,7 +194,9 @@ impl From<&TestLine> for TestLineAnswer {
             retest_of_number: l.retest_of_number.clone(),
             reasons: l.reasons.clone(),
             one_point_code: l.one_point_code.clone(),
-            plan_match: l.plan_match.map(|m| serde_json::to_value(m).unwrap_or(Value::Null)),
+            plan_match: l
+                .plan_match
+                .map(|m| serde_json::to_value(m).unwrap_or(Value::Null)),
         }
     }
 }
