@@ -42,7 +42,7 @@ pub fn router(state: AppState) -> Router {
         // Imports carry whole files; only they get the larger limit.
         .merge(
             Router::new()
-                .merge(api::transfer::import_router())
+                .merge(api::import_router())
                 .merge(pages::upload_router())
                 .layer(RequestBodyLimitLayer::new(api::transfer::MAX_IMPORT_BYTES)),
         )

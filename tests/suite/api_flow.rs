@@ -103,7 +103,7 @@ async fn full_flow_reaches_a_verdict_that_follows_the_tests() {
     );
     assert_eq!(lot["tests"][2]["superseded_by"], "T-3R");
     // mean of 98, 98, 97.5 (the retest replaces the failure)
-    let mean = lot["verdict"]["mean"].as_f64().unwrap();
+    let mean = lot["verdict"]["mean_pct"].as_f64().unwrap();
     assert!(
         (mean - (98.0 + 98.0 + 97.5) / 3.0).abs() < 0.01,
         "mean {mean}"

@@ -134,8 +134,8 @@ async fn acceptance_quality_index_cross_checked_with_statrs() {
     let sd = 2.5f64.sqrt();
     let q = 2.0 / sd;
     assert_eq!(r["n"], 5);
-    assert!(close(&r["mean"], 97.0, 1e-9));
-    assert!(close(&r["std_dev"], sd, 1e-9));
+    assert!(close(&r["mean_pct"], 97.0, 1e-9));
+    assert!(close(&r["std_dev_pct"], sd, 1e-9));
     assert!(close(&r["quality_index"], q, 1e-9));
     // PWL = 100 (1 − I_x(a, a)), a = (n − 2)/2, x = 1/2 − Q √n / (2(n − 1)); I from statrs (reference library).
     let n = 5.0f64;
@@ -143,9 +143,9 @@ async fn acceptance_quality_index_cross_checked_with_statrs() {
     let a = (n - 2.0) / 2.0;
     let expected = 100.0 * (1.0 - statrs::function::beta::beta_reg(a, a, x));
     assert!(
-        close(&r["pwl"], expected, 1e-6),
+        close(&r["pwl_pct"], expected, 1e-6),
         "pwl {} vs {expected}",
-        r["pwl"]
+        r["pwl_pct"]
     );
     assert_eq!(r["accepted"], expected >= 90.0);
     assert!(!r["reasons"].as_array().unwrap().is_empty());

@@ -92,10 +92,10 @@ async fn a_plan_is_drawn_from_its_seed_replanned_on_record_and_tests_are_matched
     test_at(&app, &f, "P-3", locs[2].0, locs[2].1, 0.97).await;
     let (_, v) = app.get(&url).await;
     let m = v["matches"].as_array().unwrap();
-    assert_eq!(m[0][0], "P-1");
-    assert!((m[0][1]["distance_m"].as_f64().unwrap() - 1.0).abs() < 1e-6);
-    assert_eq!(m[0][1]["misplaced"], false);
-    assert_eq!(m[1][1]["misplaced"], true);
+    assert_eq!(m[0]["number"], "P-1");
+    assert!((m[0]["distance_m"].as_f64().unwrap() - 1.0).abs() < 1e-6);
+    assert_eq!(m[0]["misplaced"], false);
+    assert_eq!(m[1]["misplaced"], true);
 
     // Flagged on the lot sheet and on the certificate.
     let (s, html) = page(&app, &format!("/lots/{}", f.lot)).await;

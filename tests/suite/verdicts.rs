@@ -388,11 +388,11 @@ async fn the_quality_index_rule_keeps_the_moisture_window_unless_the_clause_says
     let (_, r) = app.get(&format!("/api/v1/lots/{}", f.lot)).await;
     let v = &r["verdict"];
     assert!(
-        (v["moisture_pwl"].as_f64().unwrap() - 98.8997).abs() < 1e-3,
+        (v["moisture_pwl_pct"].as_f64().unwrap() - 98.8997).abs() < 1e-3,
         "{v}"
     );
     // Density: x̄ = 97.0, s = 0.7906, Q_L = 2.530; x = ½ − Q √5 / 8 < 0 → PWL 100 % (AASHTO R 9 formula).
-    assert!((v["pwl"].as_f64().unwrap() - 100.0).abs() < 1e-9, "{v}");
+    assert!((v["pwl_pct"].as_f64().unwrap() - 100.0).abs() < 1e-9, "{v}");
     assert_eq!(v["accepted"], true, "{v}");
 
     // "pwl" needs the quality-index rule and its threshold; refused with the field named.
@@ -457,8 +457,8 @@ async fn a_chain_of_retests_counts_once_in_statistics_and_frequency() {
     let v = &r["verdict"];
     assert_eq!(v["n"], 3);
     // Mean of 96, 98 and 97 = 97.0 (arithmetic); the two failures are out.
-    assert!((v["mean"].as_f64().unwrap() - 97.0).abs() < 1e-9, "{v}");
-    assert!((v["min"].as_f64().unwrap() - 96.0).abs() < 1e-9, "{v}");
+    assert!((v["mean_pct"].as_f64().unwrap() - 97.0).abs() < 1e-9, "{v}");
+    assert!((v["min_pct"].as_f64().unwrap() - 96.0).abs() < 1e-9, "{v}");
     assert_eq!(v["accepted"], true, "{v}");
     assert_eq!(line(&r, "K-1")["superseded_by"], "K-1AB");
     assert_eq!(line(&r, "K-1A")["superseded_by"], "K-1AB");
@@ -491,7 +491,7 @@ async fn a_failed_quality_index_lot_is_resampled_not_retested() {
     let (_, r) = app.get(&format!("/api/v1/lots/{}", f.lot)).await;
     // x̄ = 95.0 = L: Q_L = 0, x = ½ → PWL = 100 (1 − I_½(1.5, 1.5)) = 50 % (symmetry of I).
     assert!(
-        (r["verdict"]["pwl"].as_f64().unwrap() - 50.0).abs() < 1e-6,
+        (r["verdict"]["pwl_pct"].as_f64().unwrap() - 50.0).abs() < 1e-6,
         "{}",
         r["verdict"]
     );
@@ -567,7 +567,7 @@ async fn a_failed_quality_index_lot_is_resampled_not_retested() {
     let (_, r) = app.get(&format!("/api/v1/lots/{}", f.lot)).await;
     // Second sample only: x̄ = 98.0, s = 1.0, Q_L = 3.0, x clamps to 0 → PWL 100 % (AASHTO R 9 formula).
     assert_eq!(r["verdict"]["n"], 3, "{}", r["verdict"]);
-    assert!((r["verdict"]["mean"].as_f64().unwrap() - 98.0).abs() < 1e-9);
+    assert!((r["verdict"]["mean_pct"].as_f64().unwrap() - 98.0).abs() < 1e-9);
     assert_eq!(r["verdict"]["accepted"], true, "{}", r["verdict"]);
     assert_eq!(
         r["tests"].as_array().unwrap().len(),
@@ -650,7 +650,7 @@ async fn a_test_that_cannot_be_judged_is_out_of_the_statistics_and_blocks_submis
     let v = &r["verdict"];
     assert_eq!(v["n"], 3);
     // Lowest of 97, 99, 97.5 is 97.0: the unjudged test is not in the statistics.
-    assert!((v["min"].as_f64().unwrap() - 97.0).abs() < 1e-9, "{v}");
+    assert!((v["min_pct"].as_f64().unwrap() - 97.0).abs() < 1e-9, "{v}");
     assert_eq!(v["accepted"], false);
     let before = app.all_counts().await;
     let (s, e) = app
@@ -986,7 +986,7 @@ async fn curves_stored_before_the_rules_are_rechecked_at_start_and_certificates_
     assert!(html.contains("AWAITING APPROVAL"));
     let (_, l) = app.get(&format!("/api/v1/lab-tests/{}", f.lab_test)).await;
     assert_eq!(l["approval"], "needs_approval", "{l}");
-    assert_eq!(l["quality_checked"], 1);
+    assert_eq!(l["quality_checked"], true);
     assert_eq!(l["approval_concerns"][0]["code"], "peak_not_bracketed");
     let checks: i64 = sqlx::query_scalar(
         "SELECT COUNT(*) FROM audit_log WHERE action = 'quality_check' AND entity_id = $1",

@@ -1,11 +1,18 @@
 //! Users, memberships and API tokens.
 
+use axum::Json;
 use axum::extract::State;
 use axum::http::StatusCode;
-use axum::routing::{get, post};
-use axum::{Json, Router};
 use serde::Deserialize;
-use serde_json::{Value, json};
+use utoipa::ToSchema;
+use utoipa_axum::router::OpenApiRouter;
+use utoipa_axum::routes;
+
+use super::answers::{
+    GrantAnswer, MeAnswer, MemberAnswer, NewTokenAnswer, TokenAnswer, UserAnswer,
+};
+use super::codes;
+use super::doc::{IdPath, Refusals};
 
 use crate::app::AppState;
 use crate::auth::Action;
@@ -16,80 +23,117 @@ use crate::http::extract::{ApiJson, ApiPath};
 use crate::ledger::accounts::{self, Revoker, TokenInput, UserInput};
 
 /// Routes of this module.
-pub fn router() -> Router<AppState> {
-    Router::new()
-        .route("/api/v1/me", get(me))
-        .route("/api/v1/users", get(list_users).post(create_user))
-        .route(
-            "/api/v1/projects/{id}/members",
-            get(list_members).post(grant),
-        )
-        .route(
-            "/api/v1/projects/{id}/tokens",
-            get(list_tokens).post(create_token),
-        )
-        .route("/api/v1/tokens/{id}/revoke", post(revoke_token))
+pub fn router() -> OpenApiRouter<AppState> {
+    OpenApiRouter::new()
+        .routes(routes!(me))
+        .routes(routes!(list_users, create_user))
+        .routes(routes!(list_members, grant))
+        .routes(routes!(list_tokens, create_token))
+        .routes(routes!(revoke_token))
 }
 
-async fn me(State(s): State<AppState>, caller: Caller) -> Result<Json<Value>> {
+/// Who the caller is and which projects they see.
+#[utoipa::path(get, path = "/api/v1/me", tag = "accounts",
+    responses((status = 200, description = "The signed-in user or the token", body = MeAnswer), Refusals))]
+async fn me(State(s): State<AppState>, caller: Caller) -> Result<Json<MeAnswer>> {
     let projects = caller.visible_projects(&s.db).await?;
     Ok(Json(match &caller.principal {
-        Principal::User(u) => json!({"kind": "user", "user": u, "projects": projects}),
-        Principal::Token(t) => json!({"kind": "token", "token": t}),
+        Principal::User(u) => MeAnswer::User {
+            user: u.into(),
+            projects,
+        },
+        Principal::Token(t) => MeAnswer::Token { token: t.into() },
     }))
 }
 
-async fn list_users(State(s): State<AppState>, caller: Caller) -> Result<Json<Vec<users::User>>> {
+/// List users (administrators).
+#[utoipa::path(get, path = "/api/v1/users", tag = "accounts",
+    responses((status = 200, description = "Every account", body = Vec<UserAnswer>), Refusals))]
+async fn list_users(State(s): State<AppState>, caller: Caller) -> Result<Json<Vec<UserAnswer>>> {
     require_admin(&caller)?;
-    Ok(Json(users::list(&s.db).await?))
+    let all = users::list(&s.db).await?;
+    Ok(Json(all.iter().map(Into::into).collect()))
 }
 
+/// Body of a new user (read by `ledger::accounts::UserInput`).
+#[derive(Deserialize, ToSchema)]
+#[serde(deny_unknown_fields)]
+#[allow(dead_code)]
+#[schema(example = json!({"username": "bob", "display_name": "Bob Okafor", "password": "correct horse battery staple"}))]
+struct UserBody {
+    #[schema(max_length = 64, pattern = r"\S")]
+    username: String,
+    display_name: String,
+    /// 10 to 1024 characters.
+    #[schema(min_length = 10, max_length = 1024)]
+    password: String,
+    #[serde(default)]
+    is_admin: bool,
+}
+
+/// Create a user (administrators).
+#[utoipa::path(post, path = "/api/v1/users", tag = "accounts", request_body = UserBody,
+    responses((status = 201, description = "The new account", body = UserAnswer), Refusals))]
 async fn create_user(
     State(s): State<AppState>,
     caller: Caller,
     ApiJson(input): ApiJson<UserInput>,
-) -> Result<(StatusCode, Json<users::User>)> {
+) -> Result<(StatusCode, Json<UserAnswer>)> {
     let actor = require_admin(&caller)?;
-    Ok((
-        StatusCode::CREATED,
-        Json(accounts::create_user(&s.db, &input, false, &actor).await?),
-    ))
+    let u = accounts::create_user(&s.db, &input, false, &actor).await?;
+    Ok((StatusCode::CREATED, Json((&u).into())))
 }
 
+/// Members of a project and their roles.
+#[utoipa::path(get, path = "/api/v1/projects/{id}/members", tag = "accounts",
+    params(IdPath),
+    responses((status = 200, description = "Members", body = Vec<MemberAnswer>), Refusals))]
 async fn list_members(
     State(s): State<AppState>,
     caller: Caller,
     ApiPath(id): ApiPath<i64>,
-) -> Result<Json<Value>> {
+) -> Result<Json<Vec<MemberAnswer>>> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
-    let members: Vec<Value> = users::members(&s.db, id)
+    let members = users::members(&s.db, id)
         .await?
         .into_iter()
-        .map(|(u, d, r)| json!({"username": u, "display_name": d, "role": r}))
+        .map(|(username, display_name, role)| MemberAnswer {
+            username,
+            display_name,
+            role,
+        })
         .collect();
-    Ok(Json(Value::Array(members)))
+    Ok(Json(members))
 }
 
 /// Body of a membership grant.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, ToSchema)]
 #[serde(deny_unknown_fields)]
+#[schema(example = json!({"username": "bob", "role": "technician"}))]
 struct GrantInput {
     username: String,
+    #[schema(value_type = codes::Role)]
     role: String,
 }
 
+/// Give a user a role in a project (administrators).
+#[utoipa::path(post, path = "/api/v1/projects/{id}/members", tag = "accounts", request_body = GrantInput,
+    params(IdPath),
+    responses((status = 200, description = "The role given", body = GrantAnswer), Refusals))]
 async fn grant(
     State(s): State<AppState>,
     caller: Caller,
     ApiPath(id): ApiPath<i64>,
     ApiJson(input): ApiJson<GrantInput>,
-) -> Result<Json<Value>> {
+) -> Result<Json<GrantAnswer>> {
     let actor = require_admin(&caller)?;
     project_of(&s.db, Scope::Project(id)).await?;
     accounts::grant(&s.db, &input.username, id, &input.role, &actor).await?;
-    Ok(Json(
-        json!({"username": input.username, "project_id": id, "role": input.role}),
-    ))
+    Ok(Json(GrantAnswer {
+        username: input.username,
+        project_id: id,
+        role: input.role,
+    }))
 }
 
 /// Who may list a project's tokens: an admin, or a member who may manage tokens.
@@ -105,23 +149,48 @@ async fn token_reader(s: &AppState, caller: &Caller, scope: Scope) -> Result<()>
     Ok(())
 }
 
+/// API tokens of a project (administrators, QC managers and client engineers).
+#[utoipa::path(get, path = "/api/v1/projects/{id}/tokens", tag = "accounts",
+    params(IdPath),
+    responses((status = 200, description = "Tokens (never their secrets)", body = Vec<TokenAnswer>), Refusals))]
 async fn list_tokens(
     State(s): State<AppState>,
     caller: Caller,
     ApiPath(id): ApiPath<i64>,
-) -> Result<Json<Vec<users::ApiToken>>> {
+) -> Result<Json<Vec<TokenAnswer>>> {
     token_reader(&s, &caller, Scope::Project(id)).await?;
-    Ok(Json(users::tokens(&s.db, id).await?))
+    let tokens = users::tokens(&s.db, id).await?;
+    Ok(Json(tokens.iter().map(Into::into).collect()))
 }
 
-/// A token is made by a signed-in person with a role in the project, for a role within it
-/// (an admin without a project role may not make one).
+/// Body of a new token (read by `ledger::accounts::TokenInput`).
+#[derive(Deserialize, ToSchema)]
+#[serde(deny_unknown_fields)]
+#[allow(dead_code)]
+#[schema(example = json!({"name": "site tablet 2", "role": "technician", "expires_in_days": 30}))]
+struct TokenBody {
+    name: String,
+    /// A role no higher than the maker's in the project.
+    #[schema(value_type = codes::Role)]
+    role: String,
+    /// Days until it expires.
+    #[schema(minimum = 1, maximum = 365, default = 90)]
+    expires_in_days: Option<i64>,
+}
+
+/// Create an API token; its secret is shown once.
+///
+/// Made by a signed-in person with a role in the project, for a role within it (an
+/// administrator without a project role may not make one).
+#[utoipa::path(post, path = "/api/v1/projects/{id}/tokens", tag = "accounts", request_body = TokenBody,
+    params(IdPath),
+    responses((status = 201, description = "The token and its secret", body = NewTokenAnswer), Refusals))]
 async fn create_token(
     State(s): State<AppState>,
     caller: Caller,
     ApiPath(id): ApiPath<i64>,
     ApiJson(input): ApiJson<TokenInput>,
-) -> Result<(StatusCode, Json<Value>)> {
+) -> Result<(StatusCode, Json<NewTokenAnswer>)> {
     let Principal::User(user) = &caller.principal else {
         return Err(AppError::forbidden("an API token may not manage tokens"));
     };
@@ -134,17 +203,23 @@ async fn create_token(
     let (secret, token) = accounts::create_token(&s.db, id, &input, user.id, &actor).await?;
     Ok((
         StatusCode::CREATED,
-        Json(
-            json!({"token": secret, "details": token, "note": "shown once; only its hash is stored"}),
-        ),
+        Json(NewTokenAnswer {
+            token: secret,
+            details: (&token).into(),
+            note: "shown once; only its hash is stored".into(),
+        }),
     ))
 }
 
+/// Revoke an API token.
+#[utoipa::path(post, path = "/api/v1/tokens/{id}/revoke", tag = "accounts",
+    params(IdPath),
+    responses((status = 200, description = "The token, revoked", body = TokenAnswer), Refusals))]
 async fn revoke_token(
     State(s): State<AppState>,
     caller: Caller,
     ApiPath(id): ApiPath<i64>,
-) -> Result<Json<users::ApiToken>> {
+) -> Result<Json<TokenAnswer>> {
     if matches!(caller.principal, Principal::Token(_)) {
         return Err(AppError::forbidden("an API token may not manage tokens"));
     }
@@ -160,5 +235,6 @@ async fn revoke_token(
             .ok_or_else(|| AppError::forbidden("revoking a token needs a role in its project"))?;
         (Revoker::Member(role), actor)
     };
-    Ok(Json(accounts::revoke_token(&s.db, id, by, &actor).await?))
+    let token = accounts::revoke_token(&s.db, id, by, &actor).await?;
+    Ok(Json((&token).into()))
 }

@@ -1,11 +1,13 @@
 //! The handover archive download: `GET /api/v1/projects/{id}/archive` (admins and
 //! client engineers; the archive is the client's copy of the whole record).
 
-use axum::Router;
 use axum::extract::{Path, State};
 use axum::http::header;
 use axum::response::IntoResponse;
-use axum::routing::get;
+use utoipa_axum::router::OpenApiRouter;
+use utoipa_axum::routes;
+
+use super::doc::{IdPath, Refusals};
 
 use crate::app::AppState;
 use crate::auth::Action;
@@ -13,11 +15,18 @@ use crate::error::Result;
 use crate::http::caller::{Caller, Scope, project_of, require};
 
 /// Routes of this module.
-pub fn router() -> Router<AppState> {
-    Router::new().route("/api/v1/projects/{id}/archive", get(download))
+pub fn router() -> OpenApiRouter<AppState> {
+    OpenApiRouter::new().routes(routes!(download))
 }
 
-/// Builds the archive in memory and sends it as one zip file.
+/// The project's handover archive (zip).
+///
+/// Every certificate revision, records as CSV and JSON, the audit log, and a manifest of
+/// SHA-256 hashes (administrators and client engineers). Built in memory and sent as one file.
+#[utoipa::path(get, path = "/api/v1/projects/{id}/archive", tag = "transfer",
+    params(IdPath),
+    responses((status = 200, description = "The archive", content_type = "application/zip", body = [u8],
+        headers(("Content-Disposition" = String, description = "attachment; filename=…"))), Refusals))]
 async fn download(
     State(s): State<AppState>,
     caller: Caller,

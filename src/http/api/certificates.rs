@@ -1,12 +1,17 @@
 //! Certificates: list, metadata, the issued PDF bytes, and verification.
 
+use axum::Json;
 use axum::extract::State;
 use axum::http::header;
 use axum::response::IntoResponse;
-use axum::routing::{get, post};
-use axum::{Json, Router};
 use serde::Deserialize;
-use serde_json::{Value, json};
+use serde_json::Value;
+use utoipa::ToSchema;
+use utoipa_axum::router::OpenApiRouter;
+use utoipa_axum::routes;
+
+use super::answers::{CertificateAnswer, CertificateStatusAnswer, VerifyAnswer};
+use super::doc::{IdPath, Refusals};
 
 use crate::app::AppState;
 use crate::auth::Action;
@@ -17,36 +22,54 @@ use crate::http::extract::{ApiJson, ApiPath};
 use crate::ledger::{self, verify};
 
 /// Routes of this module.
-pub fn router() -> Router<AppState> {
-    Router::new()
-        .route("/api/v1/projects/{id}/certificates", get(list))
-        .route("/api/v1/certificates/{id}", get(get_one))
-        .route("/api/v1/certificates/{id}/pdf", get(pdf))
-        .route("/api/v1/verify", post(verify_body))
+pub fn router() -> OpenApiRouter<AppState> {
+    OpenApiRouter::new()
+        .routes(routes!(list))
+        .routes(routes!(get_one))
+        .routes(routes!(pdf))
+        .routes(routes!(verify_body))
 }
 
+/// Certificate revisions of a project.
+#[utoipa::path(get, path = "/api/v1/projects/{id}/certificates", tag = "certificates",
+    params(IdPath),
+    responses((status = 200, description = "Every revision issued", body = Vec<CertificateAnswer>), Refusals))]
 async fn list(
     State(s): State<AppState>,
     caller: Caller,
     ApiPath(id): ApiPath<i64>,
-) -> Result<Json<Vec<db::certificates::Certificate>>> {
+) -> Result<Json<Vec<CertificateAnswer>>> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
 
     ledger::setup::require_project(&s.db, id).await?;
-    Ok(Json(db::certificates::for_project(&s.db, id).await?))
+    let all = db::certificates::for_project(&s.db, id).await?;
+    Ok(Json(all.into_iter().map(Into::into).collect()))
 }
 
+/// One certificate revision and whether it is current.
+#[utoipa::path(get, path = "/api/v1/certificates/{id}", tag = "certificates",
+    params(IdPath),
+    responses((status = 200, description = "The revision", body = CertificateStatusAnswer), Refusals))]
 async fn get_one(
     State(s): State<AppState>,
     caller: Caller,
     ApiPath(id): ApiPath<i64>,
-) -> Result<Json<Value>> {
+) -> Result<Json<CertificateStatusAnswer>> {
     require(&s.db, &caller, Scope::Certificate(id), Action::Read).await?;
 
     let c = verify::require_certificate(&s.db, id).await?;
-    Ok(Json(json!({"certificate": c, "current": c.is_current()})))
+    let current = c.is_current();
+    Ok(Json(CertificateStatusAnswer {
+        certificate: c.into(),
+        current,
+    }))
 }
 
+/// The issued PDF bytes of a revision.
+#[utoipa::path(get, path = "/api/v1/certificates/{id}/pdf", tag = "certificates",
+    params(IdPath),
+    responses((status = 200, description = "The PDF as issued (its SHA-256 is the certificate's `sha256`)",
+        content_type = "application/pdf", body = [u8]), Refusals))]
 async fn pdf(
     State(s): State<AppState>,
     caller: Caller,
@@ -75,15 +98,25 @@ async fn pdf(
     ))
 }
 
-/// Body of a verification request: one of the three ways to name a certificate.
-#[derive(Debug, Deserialize)]
+/// Body of a verification request: exactly one of the three ways to name a certificate.
+#[derive(Debug, Deserialize, ToSchema)]
 #[serde(deny_unknown_fields)]
+#[schema(example = json!({"code": "7K2M-Q9XD"}), min_properties = 1, max_properties = 1)]
 struct VerifyInput {
+    /// The verification code printed on the certificate.
+    #[schema(nullable = false, pattern = r"\S")]
     code: Option<String>,
+    /// SHA-256 of the PDF, hex.
+    #[schema(nullable = false, pattern = r"\S")]
     sha256: Option<String>,
+    /// The PDF itself, standard base64.
+    #[schema(nullable = false)]
     pdf_base64: Option<String>,
 }
 
+/// Identify a certificate by code, hash or PDF bytes (no sign-in needed).
+#[utoipa::path(post, path = "/api/v1/verify", tag = "certificates", request_body = VerifyInput, security(()),
+    responses((status = 200, description = "What was found (also when nothing matches)", body = VerifyAnswer), Refusals))]
 async fn verify_body(
     State(s): State<AppState>,
     ApiJson(input): ApiJson<VerifyInput>,

@@ -1,13 +1,18 @@
 //! Field tests: entry, preview, listing, voiding and retests.
 
+use axum::Json;
 use axum::extract::State;
 use axum::http::{HeaderMap, HeaderValue, StatusCode};
-use axum::routing::{get, post};
-use axum::{Json, Router};
 use serde::Deserialize;
-use serde_json::{Value, json};
+use serde_json::Value;
+use utoipa::IntoParams;
+use utoipa_axum::router::OpenApiRouter;
+use utoipa_axum::routes;
 
 use super::Page;
+use super::answers::{AuditAnswer, FieldTestPage, JudgedTestAnswer};
+use super::bodies;
+use super::doc::{IdPath, Refusals};
 use crate::app::AppState;
 use crate::auth::Action;
 use crate::db;
@@ -17,65 +22,43 @@ use crate::http::extract::{ApiJson, ApiPath, ApiQuery};
 use crate::ledger::{self, field::FieldTestInput};
 
 /// Routes of this module.
-pub fn router() -> Router<AppState> {
-    Router::new()
-        .route(
-            "/api/v1/lots/{id}/field-tests",
-            get(list_for_lot).post(create),
-        )
-        .route("/api/v1/lots/{id}/field-tests/preview", post(preview))
-        .route("/api/v1/projects/{id}/field-tests", get(list_for_project))
-        .route("/api/v1/field-tests/{id}", get(get_one))
-        .route("/api/v1/field-tests/{id}/history", get(history))
-        .route("/api/v1/field-tests/{id}/void", post(void))
-        .route("/api/v1/field-tests/{id}/retests", post(retest))
-}
-
-/// A stored test with its readings expanded and, when known, its line in the lot report.
-pub fn test_json(
-    t: &db::field_tests::FieldTest,
-    line: Option<&ledger::lot_report::TestLine>,
-) -> Value {
-    let mut v = json!(t);
-    v["readings"] = serde_json::from_str(&t.readings_json).unwrap_or(Value::Null);
-    if let Some(o) = v.as_object_mut() {
-        o.remove("readings_json");
-    }
-    if let Some(l) = line {
-        v["relative_compaction_pct"] = json!(l.relative_compaction_pct);
-        v["moisture_deviation_pct"] = json!(l.moisture_deviation_pct);
-        v["reference_mdd_kg_m3"] = json!(l.reference_mdd_kg_m3);
-        v["reference_omc_pct"] = json!(l.reference_omc_pct);
-        v["passed"] = json!(l.passed);
-        v["standing"] = json!(l.standing);
-        v["superseded_by"] = json!(l.superseded_by);
-        v["reasons"] = json!(l.reasons);
-        v["result"] = json!(l.result());
-        v["unjudged_reason"] = json!(l.unjudged_reason);
-        v["flags"] = json!(l.flags);
-    }
-    v
+pub fn router() -> OpenApiRouter<AppState> {
+    OpenApiRouter::new()
+        .routes(routes!(list_for_lot, create))
+        .routes(routes!(preview))
+        .routes(routes!(list_for_project))
+        .routes(routes!(get_one))
+        .routes(routes!(history))
+        .routes(routes!(void))
+        .routes(routes!(retest))
 }
 
 /// A just-stored test with its own verdict (cheap: does not load the whole lot).
-async fn with_own_line(s: &AppState, t: &db::field_tests::FieldTest) -> Result<Value> {
+async fn with_own_line(s: &AppState, t: &db::field_tests::FieldTest) -> Result<JudgedTestAnswer> {
     let line = ledger::lot_report::judge_new(&s.db, t).await?;
-    Ok(test_json(t, Some(&line)))
+    Ok(JudgedTestAnswer::new(t, &line))
 }
 
-async fn with_line(s: &AppState, t: &db::field_tests::FieldTest) -> Result<Value> {
+/// A stored test with its line in its lot's report.
+async fn with_line(s: &AppState, t: &db::field_tests::FieldTest) -> Result<JudgedTestAnswer> {
     let report = ledger::lot_report::build(&s.db, t.lot_id).await?;
-    Ok(test_json(
-        t,
-        report.tests.iter().find(|l| l.test.id == t.id),
-    ))
+    let line = report
+        .tests
+        .iter()
+        .find(|l| l.test.id == t.id)
+        .ok_or_else(|| anyhow::anyhow!("test {} is missing from its lot's report", t.id))?;
+    Ok(JudgedTestAnswer::new(t, line))
 }
 
+/// A lot's field tests as judged.
+#[utoipa::path(get, path = "/api/v1/lots/{id}/field-tests", tag = "field-tests",
+    params(IdPath),
+    responses((status = 200, description = "The lot's tests with their verdicts", body = Vec<JudgedTestAnswer>), Refusals))]
 async fn list_for_lot(
     State(s): State<AppState>,
     caller: Caller,
     ApiPath(id): ApiPath<i64>,
-) -> Result<Json<Vec<Value>>> {
+) -> Result<Json<Vec<JudgedTestAnswer>>> {
     require(&s.db, &caller, Scope::Lot(id), Action::Read).await?;
 
     let report = ledger::lot_report::build(&s.db, id).await?;
@@ -83,18 +66,30 @@ async fn list_for_lot(
         report
             .tests
             .iter()
-            .map(|l| test_json(&l.test, Some(l)))
+            .map(|l| JudgedTestAnswer::new(&l.test, l))
             .collect(),
     ))
 }
 
+/// Record a field test.
+///
+/// With an `Idempotency-Key` header the test is stored once per key: a repeat answers 200
+/// with the stored test and `Idempotent-Replayed: true`.
+#[utoipa::path(post, path = "/api/v1/lots/{id}/field-tests", tag = "field-tests", request_body = bodies::FieldTestInput,
+    params(IdPath,
+        ("Idempotency-Key" = Option<String>, Header, description = "A client's key for this test (8 to 128 letters, digits, `-` or `_`)")),
+    responses(
+        (status = 201, description = "The new test with its verdict", body = JudgedTestAnswer),
+        (status = 200, description = "The test this Idempotency-Key stored before", body = JudgedTestAnswer,
+            headers(("Idempotent-Replayed" = String, description = "true"))),
+        Refusals))]
 async fn create(
     State(s): State<AppState>,
     ApiPath(id): ApiPath<i64>,
     caller: Caller,
     headers: axum::http::HeaderMap,
     ApiJson(input): ApiJson<FieldTestInput>,
-) -> Result<(StatusCode, HeaderMap, Json<Value>)> {
+) -> Result<(StatusCode, HeaderMap, Json<JudgedTestAnswer>)> {
     let actor = require(&s.db, &caller, Scope::Lot(id), Action::EnterTests).await?;
 
     if let Some(raw) = headers.get(ledger::idempotent::HEADER) {
@@ -106,7 +101,7 @@ async fn create(
     Ok((
         StatusCode::CREATED,
         HeaderMap::new(),
-        Json(test_json(&t, Some(&line))),
+        Json(JudgedTestAnswer::new(&t, &line)),
     ))
 }
 
@@ -118,7 +113,7 @@ async fn create_once(
     input: &FieldTestInput,
     actor: &ledger::Actor,
     key: &str,
-) -> Result<(StatusCode, HeaderMap, Json<Value>)> {
+) -> Result<(StatusCode, HeaderMap, Json<JudgedTestAnswer>)> {
     use ledger::idempotent::Keyed;
     let keyed = s.ledger.record_once(lot_id, input, actor, key).await?;
     let (status, t, replayed) = match keyed {
@@ -130,6 +125,11 @@ async fn create_once(
     Ok((status, headers, Json(with_own_line(s, &t).await?)))
 }
 
+/// Reduce and judge a field test without saving it.
+#[utoipa::path(post, path = "/api/v1/lots/{id}/field-tests/preview", tag = "field-tests", request_body = bodies::FieldTestInput,
+    params(IdPath),
+    responses((status = 200, description = "The reduction and verdict the test would get (the entry form's preview)",
+        body = Object), Refusals))]
 async fn preview(
     State(s): State<AppState>,
     ApiPath(id): ApiPath<i64>,
@@ -144,26 +144,42 @@ async fn preview(
 }
 
 /// Filters of the project test list.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, IntoParams)]
 #[serde(deny_unknown_fields)]
+#[into_params(parameter_in = Query)]
 struct TestQuery {
     lot_id: Option<i64>,
     layer_id: Option<i64>,
+    /// Tests at or after this chainage, m.
     chainage_from_m: Option<f64>,
+    /// Tests before this chainage, m.
     chainage_to_m: Option<f64>,
+    /// Tests taken at or after this time (RFC 3339, or a date).
+    #[param(pattern = r"^\d{4}-\d{2}-\d{2}")]
     tested_from: Option<String>,
+    /// Tests taken before this time (RFC 3339, or a date).
+    #[param(pattern = r"^\d{4}-\d{2}-\d{2}")]
     tested_before: Option<String>,
+    #[param(value_type = Option<super::codes::Method>)]
     method: Option<String>,
+    /// Page number, from 1.
+    #[param(minimum = 1)]
     page: Option<i64>,
+    /// Tests per page (default 100).
+    #[param(minimum = 1, maximum = 1000)]
     per_page: Option<i64>,
 }
 
+/// List a project's field tests, newest first, filtered and paged.
+#[utoipa::path(get, path = "/api/v1/projects/{id}/field-tests", tag = "field-tests",
+    params(IdPath, TestQuery),
+    responses((status = 200, description = "One page of tests", body = FieldTestPage), Refusals))]
 async fn list_for_project(
     State(s): State<AppState>,
     caller: Caller,
     ApiPath(id): ApiPath<i64>,
     ApiQuery(q): ApiQuery<TestQuery>,
-) -> Result<Json<Value>> {
+) -> Result<Json<FieldTestPage>> {
     require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
 
     ledger::setup::require_project(&s.db, id).await?;
@@ -189,59 +205,83 @@ async fn list_for_project(
         offset,
     };
     let tests = db::field_tests::list(&s.db, id, &filter).await?;
-    let rows: Vec<Value> = tests.iter().map(|t| test_json(t, None)).collect();
-    Ok(Json(
-        json!({"field_tests": rows, "limit": limit, "offset": offset}),
-    ))
+    Ok(Json(FieldTestPage {
+        field_tests: tests.iter().map(Into::into).collect(),
+        limit,
+        offset,
+    }))
 }
 
+/// One field test as judged.
+#[utoipa::path(get, path = "/api/v1/field-tests/{id}", tag = "field-tests",
+    params(IdPath),
+    responses((status = 200, description = "The test with its verdict", body = JudgedTestAnswer), Refusals))]
 async fn get_one(
     State(s): State<AppState>,
     caller: Caller,
     ApiPath(id): ApiPath<i64>,
-) -> Result<Json<Value>> {
+) -> Result<Json<JudgedTestAnswer>> {
     require(&s.db, &caller, Scope::Test(id), Action::Read).await?;
 
     let t = ledger::field::require_test(&s.db, id).await?;
     Ok(Json(with_line(&s, &t).await?))
 }
 
+/// A field test's audit trail.
+#[utoipa::path(get, path = "/api/v1/field-tests/{id}/history", tag = "field-tests",
+    params(IdPath),
+    responses((status = 200, description = "Audit rows, oldest first", body = Vec<AuditAnswer>), Refusals))]
 async fn history(
     State(s): State<AppState>,
     caller: Caller,
     ApiPath(id): ApiPath<i64>,
-) -> Result<Json<Vec<db::audit::AuditEntry>>> {
+) -> Result<Json<Vec<AuditAnswer>>> {
     require(&s.db, &caller, Scope::Test(id), Action::Read).await?;
 
     let t = ledger::field::require_test(&s.db, id).await?;
-    Ok(Json(ledger::field::history(&s.db, &t).await?))
+    let rows = ledger::field::history(&s.db, &t).await?;
+    Ok(Json(rows.into_iter().map(Into::into).collect()))
 }
 
 /// Body of a void action.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, utoipa::ToSchema)]
 #[serde(deny_unknown_fields)]
+#[schema(example = json!({"reason": "wrong lot"}))]
 struct VoidInput {
+    /// Why the test is voided (kept in its history).
+    #[schema(
+        max_length = 500,
+        pattern = r"^[^\x00-\x09\x0b-\x1f\x7f-\x9f]*[^\s\x00-\x1f\x7f-\x9f][^\x00-\x09\x0b-\x1f\x7f-\x9f]*$"
+    )]
     reason: String,
 }
 
+/// Void a field test with a reason.
+#[utoipa::path(post, path = "/api/v1/field-tests/{id}/void", tag = "field-tests", request_body = VoidInput,
+    params(IdPath),
+    responses((status = 200, description = "The test, voided", body = JudgedTestAnswer), Refusals))]
 async fn void(
     State(s): State<AppState>,
     ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<VoidInput>,
-) -> Result<Json<Value>> {
+) -> Result<Json<JudgedTestAnswer>> {
     let actor = require(&s.db, &caller, Scope::Test(id), Action::VoidTest).await?;
 
     let t = ledger::field::void_test(&s.db, id, &input.reason, &actor).await?;
     Ok(Json(with_line(&s, &t).await?))
 }
 
+/// Record a retest of a failed test.
+#[utoipa::path(post, path = "/api/v1/field-tests/{id}/retests", tag = "field-tests", request_body = bodies::FieldTestInput,
+    params(IdPath),
+    responses((status = 201, description = "The retest with its verdict", body = JudgedTestAnswer), Refusals))]
 async fn retest(
     State(s): State<AppState>,
     ApiPath(id): ApiPath<i64>,
     caller: Caller,
     ApiJson(input): ApiJson<FieldTestInput>,
-) -> Result<(StatusCode, Json<Value>)> {
+) -> Result<(StatusCode, Json<JudgedTestAnswer>)> {
     let actor = require(&s.db, &caller, Scope::Test(id), Action::EnterTests).await?;
 
     let t = s.ledger.record_retest(id, &input, &actor).await?;

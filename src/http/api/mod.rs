@@ -1,9 +1,17 @@
 //! The JSON API, version 1, under `/api/v1`.
+//!
+//! Each resource module exposes an `OpenApiRouter` whose routes come from its handlers'
+//! `#[utoipa::path]`, so a route and its entry in the OpenAPI document are one thing.
 
 mod accounts;
+pub mod answers;
 mod archive;
+pub mod bodies;
 mod calc;
 mod certificates;
+pub mod codes;
+pub mod doc;
+mod docs_page;
 mod field_tests;
 pub mod instruments;
 pub mod openapi;
@@ -15,12 +23,14 @@ pub mod transfer;
 mod verdicts;
 
 use axum::Router;
+use utoipa::OpenApi;
+use utoipa_axum::router::OpenApiRouter;
 
 use crate::app::AppState;
 
-/// All `/api/v1` routes.
-pub fn router() -> Router<AppState> {
-    Router::new()
+/// Every documented route but the import (which is mounted under its own body limit).
+fn documented() -> OpenApiRouter<AppState> {
+    OpenApiRouter::with_openapi(doc::ApiDoc::openapi())
         .merge(accounts::router())
         .merge(projects::router())
         .merge(field_tests::router())
@@ -34,6 +44,25 @@ pub fn router() -> Router<AppState> {
         .merge(archive::router())
         .merge(planning::router())
         .merge(instruments::router())
+}
+
+/// All `/api/v1` routes but the import, and the interactive API page.
+pub fn router() -> Router<AppState> {
+    let (routes, _) = documented().split_for_parts();
+    routes.merge(docs_page::router())
+}
+
+/// The import route (the caller mounts it under the import body limit).
+pub fn import_router() -> Router<AppState> {
+    transfer::import_router().split_for_parts().0
+}
+
+/// The OpenAPI document of every route above, built from the same routers.
+pub fn document() -> utoipa::openapi::OpenApi {
+    let mut all = documented().into_openapi();
+    all.merge(transfer::import_router().into_openapi());
+    doc::name_operations(&mut all);
+    all
 }
 
 /// Paging parameters shared by every list.
