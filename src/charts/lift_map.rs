@@ -141,6 +141,15 @@ fn draw_note(w: &mut SvgWriter, note: &[String], top: f64) {
     w.close();
 }
 
+/// "Lift map, 0+000 to 2+400: 36 lots on 12 layers".
+fn map_title(from: &str, to: &str, lots: usize, layers: usize) -> String {
+    format!(
+        "Lift map, {from} to {to}: {lots} lot{} on {layers} layer{}",
+        if lots == 1 { "" } else { "s" },
+        if layers == 1 { "" } else { "s" }
+    )
+}
+
 /// Draws the lift map with its legend; narrow lots are aggregated (see the module docs).
 pub fn lift_map(input: &LiftMapInput) -> String {
     let width = if input.width_px == 0 {
@@ -190,14 +199,7 @@ pub fn lift_map(input: &LiftMapInput) -> String {
 
     let lot_count = separate.len() + aggregated;
     let mut w = SvgWriter::with_capacity(4096 + separate.len() * 170 + cells.len() * 170);
-    let title = format!(
-        "Lift map, {} to {}: {lot_count} lot{} on {} layer{}",
-        label(from_m),
-        label(to_m),
-        if lot_count == 1 { "" } else { "s" },
-        rows.len(),
-        if rows.len() == 1 { "" } else { "s" }
-    );
+    let title = map_title(&label(from_m), &label(to_m), lot_count, rows.len());
     let desc = describe(input, &separate, &cells);
     frame::open_linked_root(&mut w, width, height, &title, &desc, "ll-chart ll-lift-map");
     w.start("defs").open();

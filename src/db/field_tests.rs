@@ -255,27 +255,6 @@ pub async fn latest(pool: &Pool, project_id: i64) -> sqlx::Result<Option<FieldTe
     .await
 }
 
-/// Every test of a project, by lot then time (for whole-project views).
-pub async fn all_for_project(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<FieldTest>> {
-    sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM field_tests WHERE project_id = $1 ORDER BY lot_id, tested_at, id"
-    )))
-    .bind(project_id)
-    .fetch_all(pool)
-    .await
-}
-
-/// Every test on lots judged against a lab test.
-pub async fn for_lab_test(pool: &Pool, lab_test_id: i64) -> sqlx::Result<Vec<FieldTest>> {
-    sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM field_tests WHERE lot_id IN (SELECT id FROM lots WHERE lab_test_id = $1)
-         ORDER BY tested_at, id"
-    )))
-    .bind(lab_test_id)
-    .fetch_all(pool)
-    .await
-}
-
 /// The next automatic test number of a project (`T-0001`, …), taken under the project lock
 /// so that concurrent writers on any engine never draw the same number.
 pub async fn next_number(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<String> {
