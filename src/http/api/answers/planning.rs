@@ -110,7 +110,7 @@ impl From<planning::PlanView> for PlanAnswer {
                     offset_m: l.offset_m,
                 })
                 .collect(),
-            exclusions: serde_json::to_value(&v.exclusions).unwrap_or(Value::Null),
+            exclusions: serde_json::to_value(v.exclusions).unwrap_or(Value::Null),
             tolerance_m: v.tolerance_m,
             history: v.history.iter().map(PlanRowAnswer::from).collect(),
             matches: v
@@ -243,8 +243,8 @@ impl From<watch::CurveDrift> for DriftAnswer {
             warned: d.warned(),
             lab_test_id: d.lab_test_id,
             lab_code: d.lab_code,
-            rules: serde_json::to_value(&d.rules).unwrap_or(Value::Null),
-            findings: serde_json::to_value(&d.findings).unwrap_or(Value::Null),
+            rules: serde_json::to_value(d.rules).unwrap_or(Value::Null),
+            findings: serde_json::to_value(d.findings).unwrap_or(Value::Null),
             test_numbers: d.test_numbers,
         }
     }
@@ -267,7 +267,7 @@ pub struct ChartGroupAnswer {
 impl From<watch::ChartGroup> for ChartGroupAnswer {
     fn from(g: watch::ChartGroup) -> Self {
         Self {
-            tests: serde_json::to_value(&g.tests).unwrap_or(Value::Null),
+            tests: serde_json::to_value(g.tests).unwrap_or(Value::Null),
             chart: g
                 .chart
                 .as_ref()
