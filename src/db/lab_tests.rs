@@ -20,13 +20,13 @@ pub struct LabTest {
     pub fit_method: String,
     pub warnings_json: String,
     pub reduction_version: String,
-    pub status: String,
+    pub status: crate::domain::CurveStatus,
     pub superseded_reason: Option<String>,
     pub superseded_at: Option<String>,
     pub created_at: String,
     pub created_by: String,
     /// "not_needed", "needs_approval" or "approved".
-    pub approval: String,
+    pub approval: crate::domain::Approval,
     /// The curve's quality concerns as JSON (`[{code, message}]`).
     pub approval_concerns_json: String,
     pub approval_reason: Option<String>,
@@ -63,12 +63,12 @@ pub async fn insert(tx: &mut Tx<'_>, t: &LabTest) -> sqlx::Result<LabTest> {
     .bind(&t.fit_method)
     .bind(&t.warnings_json)
     .bind(&t.reduction_version)
-    .bind(&t.status)
+    .bind(t.status)
     .bind(&t.superseded_reason)
     .bind(&t.superseded_at)
     .bind(&t.created_at)
     .bind(&t.created_by)
-    .bind(&t.approval)
+    .bind(t.approval)
     .bind(&t.approval_concerns_json)
     .fetch_one(&mut **tx)
     .await

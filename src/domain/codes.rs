@@ -300,3 +300,48 @@ mod tests {
         );
     }
 }
+
+/// Whether a lab curve may still be chosen (a lab test's `status` column).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize, utoipa::ToSchema)]
+#[serde(rename_all = "snake_case")]
+pub enum CurveStatus {
+    /// In use: a lot may take it as its reference.
+    Active,
+    /// Replaced by a newer curve of the same source (kept on record).
+    Superseded,
+}
+
+stored_code!(CurveStatus, "curve status", {
+    Active => "active",
+    Superseded => "superseded",
+});
+
+/// Whether a stored curve needs a QC manager's approval before a lot may use it (a lab
+/// test's `approval` column).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize, utoipa::ToSchema)]
+#[serde(rename_all = "snake_case")]
+pub enum Approval {
+    /// No concern: the curve can be a reference as it is.
+    NotNeeded,
+    /// A concern was found: no lot may use it until a QC manager approves it.
+    NeedsApproval,
+    /// Approved with a written reason.
+    Approved,
+}
+
+stored_code!(Approval, "curve approval", {
+    NotNeeded => "not_needed",
+    NeedsApproval => "needs_approval",
+    Approved => "approved",
+});
+
+impl Approval {
+    /// Words for pages and certificates.
+    pub fn label(self) -> &'static str {
+        match self {
+            Self::NotNeeded => "no approval needed",
+            Self::NeedsApproval => "awaiting QC manager approval",
+            Self::Approved => "approved by the QC manager",
+        }
+    }
+}

@@ -17,5 +17,5 @@ mod codes;
 mod states;
 
 pub(crate) use codes::stored_as_text;
-pub use codes::{Method, Rule, Standing, UnknownCode};
+pub use codes::{Approval, CurveStatus, Method, Rule, Standing, UnknownCode};
 pub use states::{DisplayState, Judged, LotState};

@@ -25,7 +25,7 @@ pub struct Issue<'a> {
 /// The curve's approval in words: who approved it, when and why, with the concerns.
 pub fn approval_words(lab: &crate::db::lab_tests::LabTest) -> String {
     use super::reference::{Approval, concern_messages};
-    match Approval::of(lab) {
+    match lab.approval {
         Approval::NotNeeded => "not needed (no quality concern)".to_string(),
         Approval::NeedsApproval => {
             format!("AWAITING APPROVAL: {}", concern_messages(lab).join("; "))

@@ -488,14 +488,17 @@ fn submit_blockers(
             failing.join(", ")
         ));
     }
-    for l in lines.iter().filter(|l| l.standing == Standing::CannotBeJudged) {
+    for l in lines
+        .iter()
+        .filter(|l| l.standing == Standing::CannotBeJudged)
+    {
         blockers.push(format!(
             "test {} cannot be judged: {}; void it or retest",
             l.test.number,
             l.unjudged_reason.as_deref().unwrap_or("no usable figures")
         ));
     }
-    if super::reference::Approval::of(lab_test) == super::reference::Approval::NeedsApproval {
+    if lab_test.approval == super::reference::Approval::NeedsApproval {
         blockers.push(format!(
             "the reference curve {} awaits a QC manager's approval: {}",
             lab_test.code,

@@ -18,43 +18,7 @@ use crate::reduction::curve::fit_curve;
 use crate::reduction::curve_quality::{CurveConcern, concerns};
 use crate::reduction::lab::EffortFamily;
 
-/// Approval state of a stored curve.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Approval {
-    /// No concern: the curve can be a reference as it is.
-    NotNeeded,
-    /// A concern was found: no lot may use it until a QC manager approves it.
-    NeedsApproval,
-    /// Approved with a written reason.
-    Approved,
-}
-
-impl Approval {
-    /// The stored code.
-    pub fn code(self) -> &'static str {
-        match self {
-            Self::NotNeeded => "not_needed",
-            Self::NeedsApproval => "needs_approval",
-            Self::Approved => "approved",
-        }
-    }
-    /// Reads a stored code (anything unknown is treated as needing approval).
-    pub fn of(lab: &db::lab_tests::LabTest) -> Self {
-        match lab.approval.as_str() {
-            "not_needed" => Self::NotNeeded,
-            "approved" => Self::Approved,
-            _ => Self::NeedsApproval,
-        }
-    }
-    /// Words for pages and certificates.
-    pub fn label(self) -> &'static str {
-        match self {
-            Self::NotNeeded => "no approval needed",
-            Self::NeedsApproval => "awaiting QC manager approval",
-            Self::Approved => "approved by the QC manager",
-        }
-    }
-}
+pub use crate::domain::Approval;
 
 /// The effort family of a stored curve.
 pub fn lab_family(lab: &db::lab_tests::LabTest) -> EffortFamily {
@@ -77,7 +41,7 @@ pub fn check_lot_reference(
     clause: &db::clauses::Clause,
     lab: &db::lab_tests::LabTest,
 ) -> Result<()> {
-    if lab.status != "active" {
+    if lab.status != crate::domain::CurveStatus::Active {
         return Err(AppError::invalid(
             "lab_test_id",
             format!(
@@ -103,7 +67,7 @@ pub fn check_lot_reference(
             ),
         ));
     }
-    if Approval::of(lab) == Approval::NeedsApproval {
+    if lab.approval == Approval::NeedsApproval {
         return Err(AppError::invalid(
             "lab_test_id",
             format!(
@@ -146,7 +110,7 @@ pub async fn approve(
             format!(
                 "lab test {} is {}; only a curve awaiting approval can be approved",
                 lab.code,
-                Approval::of(&lab).label()
+                lab.approval.label()
             ),
             vec![],
         ));
@@ -230,7 +194,7 @@ pub async fn recheck_curves(pool: &Pool) -> Result<RecheckReport> {
     let mut report = RecheckReport::default();
     for lab in db::lab_tests::unchecked(pool).await? {
         let found = stored_concerns(&lab);
-        let before = Approval::of(&lab);
+        let before = lab.approval;
         let after = match (before, found.is_empty()) {
             (Approval::Approved, _) => Approval::Approved,
             (_, true) => Approval::NotNeeded,

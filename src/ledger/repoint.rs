@@ -13,6 +13,7 @@ use super::lot_report::{self, LotReport};
 use super::validate::text;
 use crate::clock;
 use crate::db::{self, Pool, audit};
+use crate::domain::CurveStatus;
 use crate::error::{AppError, Result};
 
 /// Body of `POST /api/v1/lots/{id}/reference`.
@@ -56,7 +57,7 @@ pub async fn repoint(
                 ),
             )
         })?;
-    if lab.status != "active" {
+    if lab.status != CurveStatus::Active {
         return Err(AppError::invalid(
             "lab_test_id",
             format!(

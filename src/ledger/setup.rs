@@ -7,6 +7,7 @@ use super::Actor;
 use super::validate::{code, date, number, optional_text, quantity, text};
 use crate::clock;
 use crate::db::{self, Pool, audit};
+use crate::domain::CurveStatus;
 use crate::domain::Rule;
 use crate::error::{AppError, Result};
 use crate::reduction::acceptance::{AcceptanceRule, MoistureJudgement};
@@ -647,12 +648,12 @@ pub async fn create_lab_test(
         fit_method: fit.method.code(),
         warnings_json: serde_json::Value::Array(warnings).to_string(),
         reduction_version: reduction::REDUCTION_VERSION.to_string(),
-        status: "active".into(),
+        status: CurveStatus::Active,
         superseded_reason: None,
         superseded_at: None,
         created_at: now.clone(),
         created_by: actor.name.clone(),
-        approval: approval.code().to_string(),
+        approval,
         approval_concerns_json: concerns_json,
         approval_reason: None,
         approved_by: None,

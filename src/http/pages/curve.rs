@@ -215,7 +215,7 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
         code: lab.code.clone(),
         source: format!("{} ({})", source.name, source.code),
         tested_on: lab.tested_on.clone(),
-        status: lab.status.clone(),
+        status: lab.status.to_string(),
         superseded_reason: lab.superseded_reason.clone().unwrap_or_default(),
         effort: EffortPreset::parse_code(&lab.effort)
             .map_or(lab.effort.clone(), |e| e.label().to_string()),
@@ -229,7 +229,7 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
         density_unit: u.density_unit().to_string(),
         points: point_rows(&sheet, &u),
         warnings,
-        approval: lab.approval.clone(),
+        approval: lab.approval.to_string(),
         may_approve,
         id,
         approval_words: crate::ledger::certificate_doc::approval_words(lab),

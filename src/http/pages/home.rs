@@ -348,7 +348,7 @@ async fn sources(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>)
                     .map_or(l.effort.clone(), |e| e.label().to_string()),
                 mdd: u.density(l.max_dry_density_kg_m3),
                 omc: format!("{:.1}", l.optimum_water_content_pct),
-                status: l.status,
+                status: l.status.to_string(),
                 tested_on: l.tested_on,
             })
             .collect();

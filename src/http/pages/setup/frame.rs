@@ -13,6 +13,7 @@ use super::{Context, FormSpec, wants_preview};
 use crate::app::AppState;
 use crate::auth::Action;
 use crate::db;
+use crate::domain::{Approval, CurveStatus};
 use crate::http::caller::Caller;
 use crate::http::pages::{PageResult, see_other};
 use crate::ledger::moulds::{self, MouldInput};
@@ -517,7 +518,7 @@ impl LotChoices {
         let curves = db::lab_tests::list_for_project(pool, ctx.project.id)
             .await?
             .into_iter()
-            .filter(|t| t.status == "active" && t.approval != "needs_approval")
+            .filter(|t| t.status == CurveStatus::Active && t.approval != Approval::NeedsApproval)
             .map(|t| {
                 (
                     t.id,

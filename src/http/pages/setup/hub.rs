@@ -10,6 +10,7 @@ use super::summary::{Terms, clause_words};
 use crate::app::AppState;
 use crate::auth::{Action, allows};
 use crate::db;
+use crate::domain::{Approval, CurveStatus};
 use crate::error::AppError;
 use crate::http::caller::Caller;
 use crate::http::pages::{PageError, PageResult, ProjectNav, render};
@@ -111,9 +112,9 @@ async fn hub(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> 
         .map(|src| {
             let active: Vec<String> = curves
                 .iter()
-                .filter(|t| t.source_id == src.id && t.status == "active")
+                .filter(|t| t.source_id == src.id && t.status == CurveStatus::Active)
                 .map(|t| {
-                    if t.approval == "needs_approval" {
+                    if t.approval == Approval::NeedsApproval {
                         format!("{} (awaiting approval)", t.code)
                     } else {
                         t.code.clone()

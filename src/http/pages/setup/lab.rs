@@ -19,6 +19,7 @@ use super::frame::clause_efforts;
 use crate::app::AppState;
 use crate::auth::Action;
 use crate::db;
+use crate::domain::CurveStatus;
 use crate::error::{AppError, Result};
 use crate::http::caller::{Caller, Scope, require};
 use crate::http::pages::curve::chart;
@@ -86,7 +87,7 @@ async fn place(s: &AppState, caller: &Caller, source_id: i64) -> PageResult<Plac
         curves: db::lab_tests::list_for_source(&s.db, source_id)
             .await?
             .into_iter()
-            .filter(|t| t.status == "active")
+            .filter(|t| t.status == CurveStatus::Active)
             .collect(),
         source,
         project,
