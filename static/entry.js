@@ -130,18 +130,11 @@
     if (!offline() || !window.liftSite || !site.rules) return;
     ev.preventDefault();
     var action = ev.submitter ? ev.submitter.value : "check";
-    var retest = form.getAttribute("data-retest") === "yes";
     offlineAnswer().then(function (data) {
       render(data);
       if (action !== "save" || Object.keys(data.errors || {}).length) return;
-      if (retest) {
-        // A retest is judged against its failed test's chain on the server: it needs signal.
-        var wait = document.createElement("p");
-        wait.className = "offline-note";
-        wait.textContent = "A retest is saved with signal only: nothing was kept. Save it again when the phone is online.";
-        box.appendChild(wait);
-        return;
-      }
+      // A retest goes to its failed test's retests (site.post_url), and is judged against
+      // the failed test's chain when the server receives it.
       var kept = formObject();
       return window.liftSite.enqueue({
         lot_id: site.rules.lot_id, lot_code: site.lot_code, post_url: site.post_url,

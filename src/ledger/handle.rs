@@ -123,6 +123,40 @@ impl Ledger {
         input: &FieldTestInput,
         actor: &Actor,
     ) -> Result<db::field_tests::FieldTest> {
+        let record = self.checked_retest(failed_id, input, actor).await?;
+        self.store(record, actor, "retest").await
+    }
+
+    /// Records a retest sent with an `Idempotency-Key` once per key (a retest kept on the
+    /// phone): judged against its failed test's chain when it arrives, stored with its key.
+    pub async fn record_retest_once(
+        &self,
+        failed_id: i64,
+        input: &FieldTestInput,
+        actor: &Actor,
+        key: &str,
+    ) -> Result<super::idempotent::Keyed> {
+        use super::idempotent::{KeyedTarget, replayed, store_once};
+        let failed = require_test(self.pool(), failed_id).await?;
+        let target = KeyedTarget::Retest {
+            lot_id: failed.lot_id,
+            failed_id,
+        };
+        if let Some(done) = replayed(self.pool(), target, input, key).await? {
+            return Ok(done);
+        }
+        let record = self.checked_retest(failed_id, input, actor).await?;
+        store_once(self.pool(), target, input, record, actor, key).await
+    }
+
+    /// A retest checked: its lot takes tests, its failed test may be retested (failed, not
+    /// voided, not retested already, not of a re-sampled lot), then the test's own checks.
+    async fn checked_retest(
+        &self,
+        failed_id: i64,
+        input: &FieldTestInput,
+        actor: &Actor,
+    ) -> Result<db::field_tests::FieldTest> {
         let pool = self.pool();
         let failed = require_test(pool, failed_id).await?;
         let lot = require_lot(pool, failed.lot_id).await?;
@@ -151,7 +185,7 @@ impl Ledger {
         let ctx = self.lot_context(&lot).await?;
         let mut record = self.checked(&ctx, input, Some(&failed), actor).await?;
         record.retest_of = Some(failed.id);
-        self.store(record, actor, "retest").await
+        Ok(record)
     }
 
     /// A test checked against its lot and the project's instrument register in force.

@@ -38,12 +38,45 @@ pub fn check_key(raw: &str) -> Result<String> {
     Ok(k.to_string())
 }
 
-/// SHA-256 of the lot and the body: the same key with another request is refused.
-fn fingerprint(lot_id: i64, input: &FieldTestInput) -> Result<String> {
+/// What a keyed request asks for: a new test on a lot, or a retest of a failed test.
+#[derive(Debug, Clone, Copy)]
+pub enum KeyedTarget {
+    NewTest { lot_id: i64 },
+    Retest { lot_id: i64, failed_id: i64 },
+}
+
+impl KeyedTarget {
+    fn lot_id(self) -> i64 {
+        match self {
+            Self::NewTest { lot_id } | Self::Retest { lot_id, .. } => lot_id,
+        }
+    }
+}
+
+/// SHA-256 of the target and the body: the same key with another request is refused.
+fn fingerprint(target: KeyedTarget, input: &FieldTestInput) -> Result<String> {
     let body = serde_json::to_string(input).map_err(anyhow::Error::from)?;
-    Ok(hex::encode(Sha256::digest(
-        format!("{lot_id}\n{body}").as_bytes(),
-    )))
+    let text = match target {
+        KeyedTarget::NewTest { lot_id } => format!("{lot_id}\n{body}"),
+        KeyedTarget::Retest { lot_id, failed_id } => {
+            format!("{lot_id}\nretest of {failed_id}\n{body}")
+        }
+    };
+    Ok(hex::encode(Sha256::digest(text.as_bytes())))
+}
+
+/// The test a key made before, when the key was seen (refused if for another request).
+pub async fn replayed(
+    pool: &Pool,
+    target: KeyedTarget,
+    input: &FieldTestInput,
+    key: &str,
+) -> Result<Option<Keyed>> {
+    let sha = fingerprint(target, input)?;
+    match db::idempotency::get(pool, key).await? {
+        Some(found) => Ok(Some(replay(pool, found, target.lot_id(), &sha).await?)),
+        None => Ok(None),
+    }
 }
 
 /// The stored test of a key seen before, if the request is the same one.
@@ -74,9 +107,9 @@ pub async fn record_once(
     actor: &Actor,
     key: &str,
 ) -> Result<Keyed> {
-    let sha = fingerprint(lot_id, input)?;
-    if let Some(found) = db::idempotency::get(pool, key).await? {
-        return replay(pool, found, lot_id, &sha).await;
+    let target = KeyedTarget::NewTest { lot_id };
+    if let Some(done) = replayed(pool, target, input, key).await? {
+        return Ok(done);
     }
     let lot = require_lot(pool, lot_id).await?;
     require_lot_takes_tests(&lot)?;
@@ -85,6 +118,22 @@ pub async fn record_once(
     // The same checks as an unkeyed entry, the instrument register's included.
     let book = InstrumentBook::load(pool, lot.project_id).await?;
     let checked = check_with_instruments(&book, &ctx, input, None, actor, &now, Arrival::Single)?;
+    store_once(pool, target, input, checked.record, actor, key).await
+}
+
+/// Stores a checked test and its key in one transaction, once per key: a key committed
+/// meanwhile by another request answers with that request's test.
+pub async fn store_once(
+    pool: &Pool,
+    target: KeyedTarget,
+    input: &FieldTestInput,
+    record: db::field_tests::FieldTest,
+    actor: &Actor,
+    key: &str,
+) -> Result<Keyed> {
+    let sha = fingerprint(target, input)?;
+    let lot_id = target.lot_id();
+    let now = clock::now();
     let mut tx = db::begin_write(pool).await?;
     if let Some(found) = db::idempotency::get_in(&mut tx, key).await? {
         drop(tx);
@@ -102,7 +151,11 @@ pub async fn record_once(
         }
         Err(e) => return Err(e.into()),
     }
-    let record = store_in(&mut tx, checked.record, actor, "create").await?;
+    let action = match target {
+        KeyedTarget::NewTest { .. } => "create",
+        KeyedTarget::Retest { .. } => "retest",
+    };
+    let record = store_in(&mut tx, record, actor, action).await?;
     db::idempotency::settle(&mut tx, key, record.id).await?;
     tx.commit().await?;
     crate::metrics::field_tests_recorded(crate::metrics::TestSource::Entry, 1);

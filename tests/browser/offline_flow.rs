@@ -499,3 +499,79 @@ async fn the_kept_entry_page_opens_and_previews_with_no_server_at_all() {
     wait_stored(&rig, lot_id, before + 1, 0).await;
     rig.finish().await;
 }
+
+#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+async fn a_retest_kept_offline_is_stored_once_as_the_failed_tests_retest() {
+    let Some(rig) = Rig::start("offline-retest").await else {
+        return;
+    };
+    let b = &rig.browser;
+    // A failing lot's failed test still waiting for its retest, from the lot sheet.
+    let (lot_id, _) = pages::open_lot_from_map(&rig, "failing").await;
+    let row = b
+        .find("#tests tr[data-result=\"fail\"]:has(a[href$=\"/retest\"])")
+        .await;
+    let failed_number = row.find("td").await.text().await;
+    let href = row
+        .find("a[href$=\"/retest\"]")
+        .await
+        .attr("href")
+        .await
+        .expect("retest link");
+    let lot = rig.app.lot(lot_id).await;
+    let before = rig.app.lot_test_count(lot_id).await;
+    rig.open(&href).await;
+    b.wait_for("#entry-form").await;
+    b.wait_until("the site library to load", async || {
+        let ok = b
+            .script(
+                "return window.liftSite.answer({}).then(function () { return true; }, function () { return false; });",
+                vec![],
+            )
+            .await;
+        (ok == json!(true)).then_some(())
+    })
+    .await;
+
+    network(b, false, 0).await;
+    // The retest form keeps the failed test's spot; the readings are typed on the phone.
+    let (wet, moisture) = nuclear_reading(0.985 * lot.mdd, lot.omc);
+    b.find("#number").await.type_over("OFF-R1").await;
+    b.find("#technician").await.type_over("R. Okafor").await;
+    b.find("#wet_density").await.type_over(&wet).await;
+    b.find("#moisture_density").await.type_over(&moisture).await;
+    b.wait_until("the offline preview of the retest", async || {
+        let shown = b.try_find("#preview-result #pv-rc").await?.text().await;
+        (shown == "98.5 %").then_some(())
+    })
+    .await;
+    b.find("#save").await.click().await;
+    b.wait_for("#kept-offline").await;
+    assert_eq!(queue(b).await, (1, 0));
+    assert_eq!(rig.app.lot_test_count(lot_id).await, before);
+
+    network(b, true, 0).await;
+    wait_stored(&rig, lot_id, before + 1, 0).await;
+    let stored = rig.app.tests_numbered("OFF-R1").await;
+    assert_eq!(stored.len(), 1, "stored once");
+    let failed = rig.app.tests_numbered(&failed_number).await;
+    assert_eq!(failed.len(), 1);
+    let failed_id: i64 = href
+        .trim_start_matches("/field-tests/")
+        .trim_end_matches("/retest")
+        .parse()
+        .expect("failed test id");
+    assert_eq!(
+        stored[0].retest_of,
+        Some(failed_id),
+        "kept as the retest of {failed_number}"
+    );
+    assert!(
+        (stored[0].chainage_m - failed[0].chainage_m).abs() < 1e-9,
+        "at the failed test's spot"
+    );
+    // Later syncs find nothing more to send.
+    tokio::time::sleep(Duration::from_secs(6)).await;
+    assert_eq!(rig.app.lot_test_count(lot_id).await, before + 1);
+    rig.finish().await;
+}

@@ -187,3 +187,87 @@ async fn parallel_sends_of_one_key_store_one_test() {
     }
     assert_eq!(tests_in_lot(&app, f.lot).await, 1);
 }
+
+/// POSTs a retest of `failed` with a key as the technician; (status, replayed header, body).
+async fn post_retest_keyed(
+    app: &TestApp,
+    failed: i64,
+    key: &str,
+    body: &Value,
+) -> (u16, String, Value) {
+    let r = app
+        .client_as(As::Tech)
+        .post(app.url(&format!("/api/v1/field-tests/{failed}/retests")))
+        .header("Idempotency-Key", key)
+        .json(body)
+        .send()
+        .await
+        .expect("POST");
+    let status = r.status().as_u16();
+    let replayed = r
+        .headers()
+        .get("idempotent-replayed")
+        .map(|v| v.to_str().unwrap_or("").to_string())
+        .unwrap_or_default();
+    (status, replayed, r.json().await.unwrap_or(Value::Null))
+}
+
+#[tokio::test]
+async fn a_retest_kept_on_the_phone_is_stored_once_and_judged_when_it_arrives() {
+    let app = spawn_app().await;
+    let f = build_frame(&app, json!({"rule": "every_test"})).await;
+    let (_, lab) = app.get(&format!("/api/v1/lab-tests/{}", f.lab_test)).await;
+    let mdd = lab["max_dry_density_kg_m3"].as_f64().unwrap();
+    let omc = lab["optimum_water_content_pct"].as_f64().unwrap();
+    // 90 % of MDD fails the every-test rule (the frame's clause asks for 95 %).
+    let (s, _, failed) = post_keyed(
+        &app,
+        f.lot,
+        "first-0001",
+        &nuclear_test("R-1", 1040.0, 0.90 * mdd, omc),
+    )
+    .await;
+    assert_eq!(s, 201, "{failed}");
+    assert_eq!(failed["passed"], false);
+    let failed_id = failed["id"].as_i64().unwrap();
+
+    // The retest at the failed test's spot (no chainage: it takes the failed test's).
+    let mut body = nuclear_test("R-1R", 0.0, 0.98 * mdd, omc);
+    body.as_object_mut().unwrap().remove("chainage_m");
+    let (s, r1, retest) = post_retest_keyed(&app, failed_id, "retest-0001", &body).await;
+    assert_eq!((s, r1.as_str()), (201, "false"), "{retest}");
+    assert_eq!(retest["retest_of"], failed_id);
+    assert_eq!(retest["chainage_m"], 1040.0, "the failed test's spot");
+    // Sent again (the answer was lost on the way back): the stored retest, nothing more.
+    for _ in 0..2 {
+        let (s, r, again) = post_retest_keyed(&app, failed_id, "retest-0001", &body).await;
+        assert_eq!((s, r.as_str()), (200, "true"), "{again}");
+        assert_eq!(again["id"], retest["id"]);
+    }
+    assert_eq!(tests_in_lot(&app, f.lot).await, 2);
+    assert_eq!(
+        count(
+            &app,
+            "SELECT COUNT(*) FROM audit_log WHERE entity = 'field_test' AND action = 'retest'"
+        )
+        .await,
+        1
+    );
+    // The same key for a new test of the lot is another request: refused naming the header.
+    let (s, _, e) = post_keyed(&app, f.lot, "retest-0001", &body).await;
+    assert_eq!(
+        (s, e["error"]["field"].as_str()),
+        (422, Some("Idempotency-Key")),
+        "{e}"
+    );
+    // A second retest of the same failure, under a new key, is refused as it is without a
+    // key (judged on arrival), and uses up no key.
+    let keys = count(&app, "SELECT COUNT(*) FROM idempotency_keys").await;
+    let (s, _, e) = post_retest_keyed(&app, failed_id, "retest-0002", &body).await;
+    assert_eq!(s, 409, "{e}");
+    assert_eq!(
+        count(&app, "SELECT COUNT(*) FROM idempotency_keys").await,
+        keys
+    );
+    assert_eq!(tests_in_lot(&app, f.lot).await, 2);
+}

@@ -77,7 +77,7 @@ async fn list_for_lot(
 /// with the stored test and `Idempotent-Replayed: true`.
 #[utoipa::path(post, path = "/api/v1/lots/{id}/field-tests", tag = "field-tests", request_body = bodies::FieldTestInput,
     params(IdPath,
-        ("Idempotency-Key" = Option<String>, Header, description = "A client's key for this test (8 to 128 letters, digits, `-` or `_`)")),
+        ("Idempotency-Key" = Option<String>, Header, description = "A client's key for this test (1 to 255 visible ASCII characters; the site app sends a UUID)")),
     responses(
         (status = 201, description = "The new test with its verdict", body = JudgedTestAnswer),
         (status = 200, description = "The test this Idempotency-Key stored before", body = JudgedTestAnswer,
@@ -114,8 +114,17 @@ async fn create_once(
     actor: &ledger::Actor,
     key: &str,
 ) -> Result<(StatusCode, HeaderMap, Json<JudgedTestAnswer>)> {
-    use ledger::idempotent::Keyed;
     let keyed = s.ledger.record_once(lot_id, input, actor, key).await?;
+    keyed_answer(s, keyed).await
+}
+
+/// The answer to a keyed POST: 201 with what it stored now, 200 with what its key stored
+/// before (`Idempotent-Replayed` says which).
+async fn keyed_answer(
+    s: &AppState,
+    keyed: ledger::idempotent::Keyed,
+) -> Result<(StatusCode, HeaderMap, Json<JudgedTestAnswer>)> {
+    use ledger::idempotent::Keyed;
     let (status, t, replayed) = match keyed {
         Keyed::Created(t) => (StatusCode::CREATED, t, "false"),
         Keyed::Replayed(t) => (StatusCode::OK, t, "true"),
@@ -273,17 +282,38 @@ async fn void(
 }
 
 /// Record a retest of a failed test.
+///
+/// With an `Idempotency-Key` header the retest is stored once per key (a retest kept on a
+/// phone without signal): a repeat answers 200 with the stored retest.
 #[utoipa::path(post, path = "/api/v1/field-tests/{id}/retests", tag = "field-tests", request_body = bodies::FieldTestInput,
-    params(IdPath),
-    responses((status = 201, description = "The retest with its verdict", body = JudgedTestAnswer), Refusals))]
+    params(IdPath,
+        ("Idempotency-Key" = Option<String>, Header, description = "A client's key for this retest (1 to 255 visible ASCII characters; the site app sends a UUID)")),
+    responses(
+        (status = 201, description = "The retest with its verdict", body = JudgedTestAnswer),
+        (status = 200, description = "The retest this Idempotency-Key stored before", body = JudgedTestAnswer,
+            headers(("Idempotent-Replayed" = String, description = "true"))),
+        Refusals))]
 async fn retest(
     State(s): State<AppState>,
     ApiPath(id): ApiPath<i64>,
     caller: Caller,
+    headers: axum::http::HeaderMap,
     ApiJson(input): ApiJson<FieldTestInput>,
-) -> Result<(StatusCode, Json<JudgedTestAnswer>)> {
+) -> Result<(StatusCode, HeaderMap, Json<JudgedTestAnswer>)> {
     let actor = require(&s.db, &caller, Scope::Test(id), Action::EnterTests).await?;
 
+    if let Some(raw) = headers.get(ledger::idempotent::HEADER) {
+        let key = ledger::idempotent::check_key(raw.to_str().unwrap_or(""))?;
+        let keyed = s
+            .ledger
+            .record_retest_once(id, &input, &actor, &key)
+            .await?;
+        return keyed_answer(&s, keyed).await;
+    }
     let t = s.ledger.record_retest(id, &input, &actor).await?;
-    Ok((StatusCode::CREATED, Json(with_own_line(&s, &t).await?)))
+    Ok((
+        StatusCode::CREATED,
+        HeaderMap::new(),
+        Json(with_own_line(&s, &t).await?),
+    ))
 }

@@ -147,7 +147,11 @@ fn page(c: &Context, form: EntryForm, errors: Errors, preview: Option<PreviewVie
             "chainage_style": c.units.chainage.code(),
             "lot_code": c.lot.code,
             "project": c.nav.name,
-            "post_url": format!("/api/v1/lots/{}/field-tests", c.lot.id),
+            // A retest kept on the phone is sent to its failed test's retests.
+            "post_url": match &c.retest_of {
+                Some(t) => format!("/api/v1/field-tests/{}/retests", t.id),
+                None => format!("/api/v1/lots/{}/field-tests", c.lot.id),
+            },
         })
         .to_string(),
     }
