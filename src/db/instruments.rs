@@ -9,8 +9,7 @@ use super::{Pool, Tx};
 #[derive(Debug, Clone, Serialize, sqlx::FromRow)]
 pub struct Instrument {
     pub id: i64,
-    /// "nuclear_gauge", "sand_cone", "sand_batch", "balloon" or "drive_cylinder".
-    pub kind: String,
+    pub kind: crate::reduction::instruments::InstrumentKind,
     pub serial: String,
     pub description: String,
     pub created_at: String,
@@ -135,7 +134,7 @@ pub async fn insert_instrument(tx: &mut Tx<'_>, i: &Instrument) -> sqlx::Result<
         "INSERT INTO instruments (kind, serial, description, created_at, created_by)
          VALUES ($1, $2, $3, $4, $5) RETURNING {INSTRUMENT}"
     )))
-    .bind(&i.kind)
+    .bind(i.kind)
     .bind(&i.serial)
     .bind(&i.description)
     .bind(&i.created_at)

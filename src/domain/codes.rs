@@ -134,6 +134,24 @@ impl std::str::FromStr for crate::reduction::instruments::InstrumentCheck {
 
 stored_as_text!(crate::reduction::instruments::InstrumentCheck);
 
+impl std::str::FromStr for crate::reduction::instruments::InstrumentKind {
+    type Err = UnknownCode;
+    fn from_str(code: &str) -> Result<Self, Self::Err> {
+        Self::parse_code(code).ok_or_else(|| UnknownCode {
+            kind: "instrument kind",
+            code: code.to_string(),
+        })
+    }
+}
+
+impl std::fmt::Display for crate::reduction::instruments::InstrumentKind {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.code())
+    }
+}
+
+stored_as_text!(crate::reduction::instruments::InstrumentKind);
+
 /// Whether a test counts towards its lot's acceptance (a lot report's line).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize, utoipa::ToSchema)]
 #[serde(rename_all = "snake_case")]

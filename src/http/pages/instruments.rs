@@ -17,7 +17,8 @@ use crate::db;
 use crate::error::AppError;
 use crate::http::caller::{Caller, Scope, require};
 use crate::http::extract::parse_form;
-use crate::ledger::instruments::{self as reg, check::kind_label, counts::CountInput};
+use crate::ledger::instruments::{self as reg, counts::CountInput};
+use crate::reduction::instruments::InstrumentKind;
 
 /// Routes of this module.
 pub fn router() -> Router<AppState> {
@@ -59,7 +60,7 @@ async fn list(State(s): State<AppState>, _caller: Caller) -> PageResult {
                 .max_by(|a, b| a.done_on.cmp(&b.done_on));
             Row {
                 id: i.id,
-                kind: kind_label(&i.kind).to_string(),
+                kind: i.kind.label().to_string(),
                 calibrated: cal.map(|c| c.done_on.clone()).unwrap_or_default(),
                 due: cal.and_then(|c| c.due_on.clone()).unwrap_or_default(),
                 serial: i.serial,
@@ -145,8 +146,8 @@ async fn build(
             .unwrap_or_else(|| "–".into())
     };
     Ok(InstrumentPage {
-        kind: kind_label(&instrument.kind).to_string(),
-        gauge: instrument.kind == "nuclear_gauge",
+        kind: instrument.kind.label().to_string(),
+        gauge: instrument.kind == InstrumentKind::NuclearGauge,
         records: db::instruments::records(&s.db, Some(id)).await?,
         offsets: db::instruments::offsets(&s.db, Some(id), None).await?,
         chart: if points.is_empty() {

@@ -18,7 +18,7 @@ use crate::reduction::instrument_check::{
     self as pure, Calibration, DayCount, GaugeOperator, MaterialOffset, OnProject, Register,
     RegisteredInstrument, TestAtInstrument,
 };
-use crate::reduction::instruments::{CountOutcome, GaugeMode, InstrumentKind};
+use crate::reduction::instruments::{CountOutcome, GaugeMode};
 use crate::reduction::site::LotInstruments;
 
 /// How a test arrives: one at a time or in an import (both checked by the same rules;
@@ -102,8 +102,7 @@ fn register_of(rows: RegisterRows<'_>) -> Result<Register> {
         .map(|i| {
             Ok(RegisteredInstrument {
                 id: i.id,
-                kind: InstrumentKind::parse_code(&i.kind)
-                    .ok_or_else(|| unknown_code("instrument kind", &i.kind))?,
+                kind: i.kind,
                 serial: i.serial.clone(),
             })
         })
@@ -239,11 +238,6 @@ pub fn check_with_instruments(
         apply_offset(r, &input.readings, o)?;
     }
     Ok(checked)
-}
-
-/// Words for a stored instrument kind.
-pub fn kind_label(kind: &str) -> &'static str {
-    InstrumentKind::parse_code(kind).map_or("instrument", InstrumentKind::label)
 }
 
 /// Re-reduces a test's raw readings with an offset applied, keeping the raw reading.

@@ -69,7 +69,7 @@ pub async fn record_count(
     actor: &Actor,
 ) -> Result<StandardCount> {
     let gauge = require_instrument(pool, instrument_id).await?;
-    if gauge.kind != "nuclear_gauge" {
+    if gauge.kind != crate::reduction::instruments::InstrumentKind::NuclearGauge {
         return Err(AppError::invalid(
             "instrument_id",
             format!(

@@ -204,7 +204,7 @@ fn checked_instrument(
 ) -> Result<(Instrument, Option<db::instruments::InstrumentRecord>)> {
     let instrument = Instrument {
         id: 0,
-        kind: input.kind.code().to_string(),
+        kind: input.kind,
         serial: code("serial", &input.serial)?,
         description: optional_text("description", &input.description, 200)?,
         created_at: now.to_string(),
@@ -295,8 +295,7 @@ pub async fn add_record(
     actor: &Actor,
 ) -> Result<db::instruments::InstrumentRecord> {
     let i = require_instrument(pool, instrument_id).await?;
-    let kind = InstrumentKind::parse_code(&i.kind)
-        .ok_or_else(|| anyhow::anyhow!("stored instrument kind {} is unknown", i.kind))?;
+    let kind = i.kind;
     let now = clock::now();
     let r = checked_record(kind, input, i.id, actor, &now)?;
     let mut tx = db::begin_write(pool).await?;

@@ -43,7 +43,7 @@ pub async fn create_offset(
     actor: &Actor,
 ) -> Result<OffsetResult> {
     let gauge = require_instrument(pool, instrument_id).await?;
-    if gauge.kind != "nuclear_gauge" {
+    if gauge.kind != crate::reduction::instruments::InstrumentKind::NuclearGauge {
         return Err(AppError::invalid(
             "instrument_id",
             format!("{} is not a nuclear gauge", gauge.serial),
