@@ -5,11 +5,11 @@ use serde_json::{Value, json};
 
 use crate::helpers::{As, TestApp, build_frame, nuclear_test, spawn_app};
 
-/// POSTs a field test with a key as the technician; (status, replayed header, body).
-async fn post_keyed(app: &TestApp, lot: i64, key: &str, body: &Value) -> (u16, String, Value) {
+/// POSTs `body` to `path` with a key as the technician; (status, replayed header, body).
+async fn post_keyed_to(app: &TestApp, path: &str, key: &str, body: &Value) -> (u16, String, Value) {
     let r = app
         .client_as(As::Tech)
-        .post(app.url(&format!("/api/v1/lots/{lot}/field-tests")))
+        .post(app.url(path))
         .header("Idempotency-Key", key)
         .json(body)
         .send()
@@ -22,6 +22,11 @@ async fn post_keyed(app: &TestApp, lot: i64, key: &str, body: &Value) -> (u16, S
         .map(|v| v.to_str().unwrap_or("").to_string())
         .unwrap_or_default();
     (status, replayed, r.json().await.unwrap_or(Value::Null))
+}
+
+/// POSTs a field test to a lot with a key; (status, replayed header, body).
+async fn post_keyed(app: &TestApp, lot: i64, key: &str, body: &Value) -> (u16, String, Value) {
+    post_keyed_to(app, &format!("/api/v1/lots/{lot}/field-tests"), key, body).await
 }
 
 async fn count(app: &TestApp, sql: &str) -> i64 {
@@ -188,28 +193,20 @@ async fn parallel_sends_of_one_key_store_one_test() {
     assert_eq!(tests_in_lot(&app, f.lot).await, 1);
 }
 
-/// POSTs a retest of `failed` with a key as the technician; (status, replayed header, body).
+/// POSTs a retest of `failed` with a key; (status, replayed header, body).
 async fn post_retest_keyed(
     app: &TestApp,
     failed: i64,
     key: &str,
     body: &Value,
 ) -> (u16, String, Value) {
-    let r = app
-        .client_as(As::Tech)
-        .post(app.url(&format!("/api/v1/field-tests/{failed}/retests")))
-        .header("Idempotency-Key", key)
-        .json(body)
-        .send()
-        .await
-        .expect("POST");
-    let status = r.status().as_u16();
-    let replayed = r
-        .headers()
-        .get("idempotent-replayed")
-        .map(|v| v.to_str().unwrap_or("").to_string())
-        .unwrap_or_default();
-    (status, replayed, r.json().await.unwrap_or(Value::Null))
+    post_keyed_to(
+        app,
+        &format!("/api/v1/field-tests/{failed}/retests"),
+        key,
+        body,
+    )
+    .await
 }
 
 #[tokio::test]

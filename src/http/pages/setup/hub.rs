@@ -105,8 +105,47 @@ async fn hub(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> 
             words: clause_words(&Terms::from(c)),
         })
         .collect();
+    let sources = source_lines(&s, id).await?;
+    let moulds = db::moulds::list(&s.db, id)
+        .await?
+        .into_iter()
+        .map(|m| {
+            format!(
+                "{} · {:.1} cm³ · calibrated {}",
+                m.code, m.volume_cm3, m.calibrated_on
+            )
+        })
+        .collect();
+    let layers = db::layers::list(&s.db, id)
+        .await?
+        .into_iter()
+        .map(|l| match l.thickness_mm {
+            Some(t) => format!("{} layer {} · {t:.0} mm", l.zone_name, l.number),
+            None => format!("{} layer {}", l.zone_name, l.number),
+        })
+        .collect();
+    let lots = lot_lines(&s, id, u).await?;
+    render(&HubPage {
+        nav: ctx.nav.clone(),
+        id,
+        project: format!("{} {}", ctx.project.code, ctx.project.name),
+        may_people: r.people,
+        may_setup: r.setup,
+        may_tokens: r.tokens,
+        members,
+        clauses,
+        sources,
+        moulds,
+        layers,
+        lots,
+    })
+}
+
+/// Each borrow source with its active curves (those awaiting approval said so) and the
+/// link to enter a new curve.
+async fn source_lines(s: &AppState, id: i64) -> PageResult<Vec<Line>> {
     let curves = db::lab_tests::list_for_project(&s.db, id).await?;
-    let sources = db::sources::list(&s.db, id)
+    Ok(db::sources::list(&s.db, id)
         .await?
         .into_iter()
         .map(|src| {
@@ -138,26 +177,12 @@ async fn hub(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> 
                 action_label: format!("Enter a lab curve for {}", src.code),
             }
         })
-        .collect();
-    let moulds = db::moulds::list(&s.db, id)
-        .await?
-        .into_iter()
-        .map(|m| {
-            format!(
-                "{} · {:.1} cm³ · calibrated {}",
-                m.code, m.volume_cm3, m.calibrated_on
-            )
-        })
-        .collect();
-    let layers = db::layers::list(&s.db, id)
-        .await?
-        .into_iter()
-        .map(|l| match l.thickness_mm {
-            Some(t) => format!("{} layer {} · {t:.0} mm", l.zone_name, l.number),
-            None => format!("{} layer {}", l.zone_name, l.number),
-        })
-        .collect();
-    let lots = db::lots::list(
+        .collect())
+}
+
+/// The project's lots (the first 200), each linked to its sheet.
+async fn lot_lines(s: &AppState, id: i64, u: &crate::present::Units) -> PageResult<Vec<Line>> {
+    Ok(db::lots::list(
         &s.db,
         id,
         &db::lots::LotFilter {
@@ -180,19 +205,5 @@ async fn hub(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> 
             format!("/lots/{}", l.id),
         )
     })
-    .collect();
-    render(&HubPage {
-        nav: ctx.nav.clone(),
-        id,
-        project: format!("{} {}", ctx.project.code, ctx.project.name),
-        may_people: r.people,
-        may_setup: r.setup,
-        may_tokens: r.tokens,
-        members,
-        clauses,
-        sources,
-        moulds,
-        layers,
-        lots,
-    })
+    .collect())
 }
