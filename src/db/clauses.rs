@@ -3,7 +3,8 @@
 use serde::Serialize;
 
 use super::{Pool, Tx};
-use crate::domain::Rule;
+use crate::domain::{ClauseEffort, MoistureBasis, MoistureMode, Rule};
+use crate::reduction::rounding::RoundingMethod;
 
 /// A stored specification clause.
 #[derive(Debug, Clone, Serialize, sqlx::FromRow)]
@@ -15,7 +16,7 @@ pub struct Clause {
     pub rc_min_pct: f64,
     pub moisture_below_pct: f64,
     pub moisture_above_pct: f64,
-    pub effort: String,
+    pub effort: ClauseEffort,
     pub rule: Rule,
     pub allowance_pct: Option<f64>,
     pub min_pwl_pct: Option<f64>,
@@ -24,22 +25,22 @@ pub struct Clause {
     pub min_tests_per_lot: i64,
     pub oversize_limit_pct: f64,
     pub created_at: String,
-    /// "per_test" (the moisture window for every test) or "pwl" (two-sided percent within limits).
-    pub moisture_judgement: String,
+    /// The moisture window for every test, or two-sided percent within limits.
+    pub moisture_judgement: MoistureMode,
     /// Least moisture percent within limits under "pwl".
     pub moisture_min_pwl_pct: Option<f64>,
     /// Relative compaction above this is flagged implausible.
     pub rc_plausible_max_pct: f64,
-    /// "astm_e29" (round to the limits' written decimals) or "absolute".
-    pub rounding: String,
+    /// ASTM E29 rounding to the limits' written decimals, or the absolute method.
+    pub rounding: RoundingMethod,
     /// Decimals the contract writes its limits with.
     pub limit_decimals: i64,
     /// Sieve the oversize is retained on, mm (4.75 or 19).
     pub oversize_sieve_mm: f64,
     /// Coarse water content assumed when a test gives none, percent (None: the test must give it).
     pub coarse_water_default_pct: Option<f64>,
-    /// "points_of_omc" (below/above are points), "percent_of_omc" or "absolute" (low/high).
-    pub moisture_basis: String,
+    /// Points of OMC (below/above), percent of OMC or absolute (low/high).
+    pub moisture_basis: MoistureBasis,
     /// Least allowed w / OMC × 100 or w, percent, under the other two forms.
     pub moisture_low_pct: Option<f64>,
     /// Greatest allowed w / OMC × 100 or w, percent, under the other two forms.

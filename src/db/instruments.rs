@@ -21,8 +21,7 @@ pub struct Instrument {
 pub struct InstrumentRecord {
     pub id: i64,
     pub instrument_id: i64,
-    /// "calibration", "leak_test" or "licence".
-    pub kind: String,
+    pub kind: crate::ledger::instruments::RecordKind,
     pub done_on: String,
     pub due_on: Option<String>,
     pub reference: String,

@@ -11,7 +11,8 @@ pub struct LabTest {
     pub source_id: i64,
     pub code: String,
     pub tested_on: String,
-    pub effort: String,
+    /// A preset, or "custom: NAME" (its energy beside it).
+    pub effort: crate::domain::LabEffort,
     pub effort_energy_kj_m3: f64,
     pub specific_gravity: f64,
     pub points_json: String,

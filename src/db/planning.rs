@@ -126,7 +126,8 @@ pub struct OnePointCheck {
     pub field_test_id: Option<i64>,
     pub code: String,
     pub tested_on: String,
-    pub effort: String,
+    /// The family's effort (a lab effort).
+    pub effort: crate::domain::LabEffort,
     pub water_content_pct: f64,
     pub dry_density_kg_m3: f64,
     pub dry_window_pct: f64,

@@ -152,6 +152,81 @@ impl std::fmt::Display for crate::reduction::instruments::InstrumentKind {
 
 stored_as_text!(crate::reduction::instruments::InstrumentKind);
 
+impl std::str::FromStr for crate::reduction::rounding::RoundingMethod {
+    type Err = UnknownCode;
+    fn from_str(code: &str) -> Result<Self, Self::Err> {
+        Self::parse_code(code).ok_or_else(|| UnknownCode {
+            kind: "rounding",
+            code: code.to_string(),
+        })
+    }
+}
+
+impl std::fmt::Display for crate::reduction::rounding::RoundingMethod {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.code())
+    }
+}
+
+stored_as_text!(crate::reduction::rounding::RoundingMethod);
+
+impl std::str::FromStr for crate::ledger::instruments::RecordKind {
+    type Err = UnknownCode;
+    fn from_str(code: &str) -> Result<Self, Self::Err> {
+        Self::ALL
+            .into_iter()
+            .find(|k| k.code() == code)
+            .ok_or_else(|| UnknownCode {
+                kind: "instrument record kind",
+                code: code.to_string(),
+            })
+    }
+}
+
+impl std::fmt::Display for crate::ledger::instruments::RecordKind {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.code())
+    }
+}
+
+stored_as_text!(crate::ledger::instruments::RecordKind);
+
+/// How a clause writes its moisture window (a clause's `moisture_basis` column).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum MoistureBasis {
+    /// Points dry and wet of the optimum (w − OMC within −below…+above); the default.
+    #[default]
+    PointsOfOmc,
+    /// Percent of the optimum (w / OMC × 100 within low…high).
+    PercentOfOmc,
+    /// A range of water content (w within low…high), whatever the optimum.
+    Absolute,
+}
+
+stored_code!(MoistureBasis, "moisture basis", {
+    PointsOfOmc => "points_of_omc",
+    PercentOfOmc => "percent_of_omc",
+    Absolute => "absolute",
+});
+
+/// How a clause judges moisture over a lot (a clause's `moisture_judgement` column); the
+/// least percent within limits of `Pwl` sits beside it.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum MoistureMode {
+    /// Every counted test inside the window; the default.
+    #[default]
+    PerTest,
+    /// Two-sided percent within limits of the lot's water contents (quality-index clauses).
+    Pwl,
+}
+
+stored_code!(MoistureMode, "moisture judgement", {
+    PerTest => "per_test",
+    Pwl => "pwl",
+});
+
 /// Whether a test counts towards its lot's acceptance (a lot report's line).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize, utoipa::ToSchema)]
 #[serde(rename_all = "snake_case")]
@@ -194,6 +269,34 @@ impl Standing {
         self == Standing::Counted
     }
 }
+
+/// A test's result in one word, as a lot report shows it (not stored: worked out from the
+/// test's standing and verdict each time).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum TestResult {
+    /// Counted and meets the clause.
+    Pass,
+    /// Counted and misses the clause.
+    Fail,
+    /// Voided.
+    Void,
+    /// Replaced by a retest.
+    Superseded,
+    /// Stands for its location but cannot be judged.
+    Unjudged,
+    /// Taken for an earlier random sample of a re-sampled lot.
+    Resampled,
+}
+
+stored_code!(TestResult, "test result", {
+    Pass => "pass",
+    Fail => "fail",
+    Void => "void",
+    Superseded => "superseded",
+    Unjudged => "unjudged",
+    Resampled => "resampled",
+});
 
 /// How a field test measured density (a field test's `method` column).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize, utoipa::ToSchema)]

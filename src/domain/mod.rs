@@ -14,8 +14,12 @@
 //! Serde uses the stored codes (snake_case), so JSON answers are unchanged.
 
 mod codes;
+mod effort;
 mod states;
 
 pub(crate) use codes::stored_as_text;
-pub use codes::{Approval, CurveStatus, Method, Rule, Standing, UnknownCode};
+pub use codes::{
+    Approval, CurveStatus, Method, MoistureBasis, MoistureMode, Rule, Standing, TestResult, UnknownCode,
+};
+pub use effort::{ClauseEffort, LabEffort};
 pub use states::{DisplayState, Judged, LotState};

@@ -7,7 +7,6 @@ use crate::pdf::{
     SummaryBlock, TestRow,
 };
 use crate::present::{self, Units};
-use crate::reduction::lab::EffortPreset;
 
 /// What the issuing step knows beyond the lot report.
 pub struct Issue<'a> {
@@ -121,9 +120,7 @@ fn material_block(r: &LotReport) -> MaterialBlock {
 }
 
 fn reference_block(r: &LotReport, u: &Units) -> ReferenceBlock {
-    let effort = EffortPreset::parse_code(&r.lab_test.effort)
-        .map(|p| p.label().to_string())
-        .unwrap_or_else(|| r.lab_test.effort.clone());
+    let effort = r.lab_test.effort.label();
     let corrected = r
         .tests
         .iter()

@@ -47,14 +47,15 @@ pub struct TestLine {
 
 impl TestLine {
     /// The test's result in one word: pass, fail, void, superseded, unjudged or resampled.
-    pub fn result(&self) -> &'static str {
+    pub fn result(&self) -> crate::domain::TestResult {
+        use crate::domain::TestResult;
         match self.standing {
-            Standing::Voided => "void",
-            Standing::Superseded => "superseded",
-            Standing::EarlierSample => "resampled",
-            _ if self.unjudged_reason.is_some() => "unjudged",
-            _ if self.passed => "pass",
-            _ => "fail",
+            Standing::Voided => TestResult::Void,
+            Standing::Superseded => TestResult::Superseded,
+            Standing::EarlierSample => TestResult::Resampled,
+            _ if self.unjudged_reason.is_some() => TestResult::Unjudged,
+            _ if self.passed => TestResult::Pass,
+            _ => TestResult::Fail,
         }
     }
 
@@ -196,13 +197,8 @@ pub fn limits_of(c: &db::clauses::Clause) -> anyhow::Result<SpecLimits> {
 
 /// The comparison convention of a stored clause.
 pub fn rounding_of(c: &db::clauses::Clause) -> crate::reduction::rounding::Rounding {
-    use crate::reduction::rounding::{Rounding, RoundingMethod};
-    Rounding {
-        method: if c.rounding == "absolute" {
-            RoundingMethod::Absolute
-        } else {
-            RoundingMethod::AstmE29
-        },
+    crate::reduction::rounding::Rounding {
+        method: c.rounding,
         decimals: u32::try_from(c.limit_decimals.clamp(0, 3)).unwrap_or(1),
     }
 }
@@ -697,7 +693,7 @@ fn fingerprint(
     if let Some(after) = lot.sample_after_test_id {
         h.update(format!("sample {} after {after}|", lot.sample));
     }
-    if clause.moisture_judgement != "per_test" {
+    if clause.moisture_judgement != crate::domain::MoistureMode::PerTest {
         h.update(format!(
             "moisture {} {:?}|",
             clause.moisture_judgement, clause.moisture_min_pwl_pct

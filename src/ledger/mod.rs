@@ -7,11 +7,13 @@
 
 pub mod accounts;
 pub mod certificate_doc;
+pub mod clauses;
 pub mod field;
 pub mod handle;
 pub mod idempotent;
 pub mod import;
 pub mod instruments;
+pub mod lab_curves;
 pub mod lot_report;
 pub mod lot_split;
 pub mod moisture_terms;

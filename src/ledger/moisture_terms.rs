@@ -4,6 +4,7 @@
 
 use super::validate::number;
 use crate::db;
+use crate::domain::MoistureBasis;
 use crate::error::{AppError, Result};
 use crate::reduction::verdict::MoistureWindow;
 
@@ -21,7 +22,7 @@ pub struct MoistureTermsInput {
 /// other forms keep low/high (below/above stored as 0 and never read).
 #[derive(Debug, Clone, PartialEq)]
 pub struct MoistureTerms {
-    pub basis: &'static str,
+    pub basis: MoistureBasis,
     pub below_pct: f64,
     pub above_pct: f64,
     pub low_pct: Option<f64>,
@@ -72,19 +73,27 @@ fn low_high(
 
 /// Checks the moisture window and air-voids terms of a clause body.
 pub fn check(input: &MoistureTermsInput) -> Result<MoistureTerms> {
-    let basis = input.basis.as_deref().unwrap_or("points_of_omc").trim();
+    let given = input.basis.as_deref().unwrap_or("points_of_omc").trim();
+    let basis = MoistureBasis::parse_code(given).ok_or_else(|| {
+        AppError::invalid(
+            "moisture_basis",
+            format!(
+                "unknown moisture_basis '{given}'; use points_of_omc, percent_of_omc or absolute"
+            ),
+        )
+    })?;
     let max_air_voids_pct = input
         .max_air_voids_pct
         .map(|v| number("max_air_voids_pct", v, 0.1, 30.0, "%"))
         .transpose()?;
-    let (basis, below_pct, above_pct, low_pct, high_pct) = match basis {
-        "points_of_omc" => {
-            absent("moisture_low_pct", input.low_pct, basis)?;
-            absent("moisture_high_pct", input.high_pct, basis)?;
-            let below = required("moisture_below_pct", input.below_pct, basis)?;
-            let above = required("moisture_above_pct", input.above_pct, basis)?;
+    let code = basis.code();
+    let (below_pct, above_pct, low_pct, high_pct) = match basis {
+        MoistureBasis::PointsOfOmc => {
+            absent("moisture_low_pct", input.low_pct, code)?;
+            absent("moisture_high_pct", input.high_pct, code)?;
+            let below = required("moisture_below_pct", input.below_pct, code)?;
+            let above = required("moisture_above_pct", input.above_pct, code)?;
             (
-                "points_of_omc",
                 number("moisture_below_pct", below, 0.0, 20.0, "points")?,
                 number("moisture_above_pct", above, 0.0, 20.0, "points")?,
                 None,
@@ -92,21 +101,13 @@ pub fn check(input: &MoistureTermsInput) -> Result<MoistureTerms> {
             )
         }
         // w / OMC × 100: a window that does not contain 100 % would exclude the optimum itself.
-        "percent_of_omc" => {
-            let (low, high) = low_high(input, basis, (50.0, 100.0), (100.0, 200.0))?;
-            ("percent_of_omc", 0.0, 0.0, Some(low), Some(high))
+        MoistureBasis::PercentOfOmc => {
+            let (low, high) = low_high(input, code, (50.0, 100.0), (100.0, 200.0))?;
+            (0.0, 0.0, Some(low), Some(high))
         }
-        "absolute" => {
-            let (low, high) = low_high(input, basis, (0.0, 100.0), (0.0, 100.0))?;
-            ("absolute", 0.0, 0.0, Some(low), Some(high))
-        }
-        other => {
-            return Err(AppError::invalid(
-                "moisture_basis",
-                format!(
-                    "unknown moisture_basis '{other}'; use points_of_omc, percent_of_omc or absolute"
-                ),
-            ));
+        MoistureBasis::Absolute => {
+            let (low, high) = low_high(input, code, (0.0, 100.0), (0.0, 100.0))?;
+            (0.0, 0.0, Some(low), Some(high))
         }
     };
     Ok(MoistureTerms {
@@ -119,8 +120,7 @@ pub fn check(input: &MoistureTermsInput) -> Result<MoistureTerms> {
     })
 }
 
-/// A stored clause's moisture window. The stored basis was checked when the clause was made;
-/// a code this build does not know is a corrupt row and is said so rather than guessed.
+/// A stored clause's moisture window (an unknown stored basis already failed the row's read).
 pub fn window_of(c: &db::clauses::Clause) -> anyhow::Result<MoistureWindow> {
     let bounds = || {
         c.moisture_low_pct.zip(c.moisture_high_pct).ok_or_else(|| {
@@ -131,19 +131,18 @@ pub fn window_of(c: &db::clauses::Clause) -> anyhow::Result<MoistureWindow> {
             )
         })
     };
-    Ok(match c.moisture_basis.as_str() {
-        "points_of_omc" => MoistureWindow::PointsOfOmc {
+    Ok(match c.moisture_basis {
+        MoistureBasis::PointsOfOmc => MoistureWindow::PointsOfOmc {
             below_pct: c.moisture_below_pct,
             above_pct: c.moisture_above_pct,
         },
-        "percent_of_omc" => {
+        MoistureBasis::PercentOfOmc => {
             let (low_pct, high_pct) = bounds()?;
             MoistureWindow::PercentOfOmc { low_pct, high_pct }
         }
-        "absolute" => {
+        MoistureBasis::Absolute => {
             let (min_pct, max_pct) = bounds()?;
             MoistureWindow::Absolute { min_pct, max_pct }
         }
-        other => anyhow::bail!("clause {} has an unknown moisture basis '{other}'", c.id),
     })
 }

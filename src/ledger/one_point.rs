@@ -12,6 +12,7 @@ use super::validate::{code, date, number};
 use crate::clock;
 use crate::db::planning::OnePointCheck;
 use crate::db::{self, Pool, audit};
+use crate::domain::LabEffort;
 use crate::error::{AppError, Result};
 use crate::reduction::SpecificGravity;
 use crate::reduction::curve::{CurvePoint, fit_curve};
@@ -34,12 +35,12 @@ pub fn fitted_samples(lab: &db::lab_tests::LabTest) -> Option<Vec<CurvePoint>> {
 pub async fn family(
     pool: &Pool,
     source_id: i64,
-    effort: &str,
+    effort: &LabEffort,
 ) -> Result<Vec<(db::lab_tests::LabTest, FamilyCurve)>> {
     let labs = db::lab_tests::list_for_source(pool, source_id).await?;
     Ok(labs
         .into_iter()
-        .filter(|l| l.effort == effort && l.superseded_at.is_none())
+        .filter(|l| &l.effort == effort && l.superseded_at.is_none())
         .filter_map(|l| {
             let samples = fitted_samples(&l)?;
             let c = FamilyCurve {
@@ -134,7 +135,13 @@ pub async fn record(
         "%",
     )?;
     let field_test_id = paired_test(pool, source_id, input.field_test_id).await?;
-    let fam = family(pool, source_id, &input.effort).await?;
+    let effort = LabEffort::parse_code(input.effort.trim()).ok_or_else(|| {
+        AppError::invalid(
+            "effort",
+            format!("unknown effort '{}'; give a lab test's effort code", input.effort.trim()),
+        )
+    })?;
+    let fam = family(pool, source_id, &effort).await?;
     let curves: Vec<FamilyCurve> = fam.iter().map(|(_, c)| c.clone()).collect();
     let window = dry_window_pct(pool, field_test_id).await?;
     let dry = dry_density_of(wet, w);
@@ -158,7 +165,7 @@ pub async fn record(
         field_test_id,
         code,
         tested_on,
-        effort: input.effort.clone(),
+        effort,
         water_content_pct: w,
         dry_density_kg_m3: dry,
         dry_window_pct: window,

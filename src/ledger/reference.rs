@@ -22,7 +22,7 @@ pub use crate::domain::Approval;
 
 /// The effort family of a stored curve.
 pub fn lab_family(lab: &db::lab_tests::LabTest) -> EffortFamily {
-    EffortFamily::of_lab_effort(&lab.effort, lab.effort_energy_kj_m3)
+    lab.effort.family(lab.effort_energy_kj_m3)
 }
 
 /// The stored concern messages of a curve.
@@ -51,7 +51,7 @@ pub fn check_lot_reference(
         ));
     }
     let curve = lab_family(lab);
-    if let Some(wanted) = EffortFamily::of_clause_effort(&clause.effort)
+    if let Some(wanted) = clause.effort.family()
         && wanted != curve
     {
         return Err(AppError::invalid(

@@ -149,7 +149,7 @@ pub async fn select(
                 || d_from.as_ref().is_some_and(|d| day < *d)
                 || d_to.as_ref().is_some_and(|d| day > *d)
                 || (!f.method.is_empty() && t.method.code() != f.method)
-                || (!f.verdict.is_empty() && line.result() != f.verdict)
+                || (!f.verdict.is_empty() && line.result().code() != f.verdict)
             {
                 continue;
             }

@@ -164,6 +164,20 @@ pub enum GroupBy {
 }
 
 /// What a chart plots.
+impl GroupBy {
+    /// Every grouping.
+    pub const ALL: [GroupBy; 3] = [Self::Source, Self::Layer, Self::Technician];
+
+    /// The code in a query string.
+    pub fn code(self) -> &'static str {
+        match self {
+            Self::Source => "source",
+            Self::Layer => "layer",
+            Self::Technician => "technician",
+        }
+    }
+}
+
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Serialize, Default)]
 #[serde(rename_all = "snake_case")]
 pub enum Measure {
@@ -175,6 +189,17 @@ pub enum Measure {
 }
 
 impl Measure {
+    /// Both measures.
+    pub const ALL: [Measure; 2] = [Self::Rc, Self::Moisture];
+
+    /// The code in a query string.
+    pub fn code(self) -> &'static str {
+        match self {
+            Self::Rc => "rc",
+            Self::Moisture => "moisture",
+        }
+    }
+
     pub fn label(self) -> &'static str {
         match self {
             Self::Rc => "relative compaction, %",

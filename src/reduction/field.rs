@@ -100,8 +100,46 @@ pub struct FieldDensity {
     pub water_content: WaterContent,
     /// Dry density in place.
     pub dry_density: Density,
-    /// "gauge", "oven" or "entered".
-    pub moisture_source: &'static str,
+    /// Where the water content came from.
+    pub moisture_source: MoistureSource,
+}
+
+/// Where a field test's water content came from: the nuclear gauge, an oven-dried sample
+/// (ASTM D2216, which takes precedence over the gauge), or entered as a value.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, serde::Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum MoistureSource {
+    /// The gauge's own moisture reading.
+    Gauge,
+    /// An oven-dried sample's water content.
+    Oven,
+    /// A water content entered as a value.
+    Entered,
+}
+
+impl MoistureSource {
+    /// Every source.
+    pub const ALL: [MoistureSource; 3] = [Self::Gauge, Self::Oven, Self::Entered];
+
+    /// Stable code used in JSON and the database.
+    pub fn code(self) -> &'static str {
+        match self {
+            Self::Gauge => "gauge",
+            Self::Oven => "oven",
+            Self::Entered => "entered",
+        }
+    }
+
+    /// Reads a code written by [`MoistureSource::code`].
+    pub fn parse_code(s: &str) -> Option<Self> {
+        Self::ALL.into_iter().find(|m| m.code() == s)
+    }
+}
+
+impl std::fmt::Display for MoistureSource {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.code())
+    }
 }
 
 /// Wet density from a mass and a volume (g and cm³ → kg/m³), naming `mass_field` if implausible.
@@ -234,7 +272,7 @@ fn reduce_sand_cone(
         wet_density: wet,
         water_content: w,
         dry_density: dry,
-        moisture_source: "entered",
+        moisture_source: MoistureSource::Entered,
     })
 }
 
@@ -255,7 +293,7 @@ fn by_volume(
         wet_density: wet,
         water_content: w,
         dry_density: dry,
-        moisture_source: "entered",
+        moisture_source: MoistureSource::Entered,
     })
 }
 
@@ -289,7 +327,7 @@ fn reduce_nuclear(
             wet_density: wet,
             water_content: w,
             dry_density: dry,
-            moisture_source: "oven",
+            moisture_source: MoistureSource::Oven,
         });
     }
     if let Some(rho_m) = moisture_density_kg_m3 {
@@ -319,7 +357,7 @@ fn reduce_nuclear(
             wet_density: wet,
             water_content: w,
             dry_density: dry,
-            moisture_source: "gauge",
+            moisture_source: MoistureSource::Gauge,
         });
     }
     if let Some(gauge_w) = water_content_pct {
@@ -329,7 +367,7 @@ fn reduce_nuclear(
             wet_density: wet,
             water_content: w,
             dry_density: dry,
-            moisture_source: "gauge",
+            moisture_source: MoistureSource::Gauge,
         });
     }
     Err(missing_nuclear_moisture())
@@ -377,7 +415,7 @@ mod tests {
         assert_eq!(r.dry_density.kg_m3(), 1900.0);
         assert!((r.water_content.pct() - 10.526_315_8).abs() < 1e-6);
         assert_eq!(r.wet_density.kg_m3(), 2100.0);
-        assert_eq!(r.moisture_source, "gauge");
+        assert_eq!(r.moisture_source, MoistureSource::Gauge);
     }
 
     #[test]
@@ -385,7 +423,7 @@ mod tests {
         // ρd = ρ / (1 + w) = 2100 / 1.10 = 1909.09 kg/m³ (ASTM D6938).
         let r = reduce_field(&nuclear(None, Some(10.0), None)).unwrap();
         assert!((r.dry_density.kg_m3() - 1909.090909).abs() < 1e-5);
-        assert_eq!(r.moisture_source, "gauge");
+        assert_eq!(r.moisture_source, MoistureSource::Gauge);
     }
 
     #[test]
@@ -394,7 +432,7 @@ mod tests {
         let r = reduce_field(&nuclear(Some(200.0), Some(10.5), Some(12.0))).unwrap();
         assert!((r.dry_density.kg_m3() - 1875.0).abs() < 1e-9);
         assert_eq!(r.water_content.pct(), 12.0);
-        assert_eq!(r.moisture_source, "oven");
+        assert_eq!(r.moisture_source, MoistureSource::Oven);
     }
 
     #[test]
@@ -404,7 +442,7 @@ mod tests {
         let r = reduce_field(&sand_cone()).unwrap();
         assert!((r.wet_density.kg_m3() - 2011.363636).abs() < 1e-5);
         assert!((r.dry_density.kg_m3() - 1828.512397).abs() < 1e-5);
-        assert_eq!(r.moisture_source, "entered");
+        assert_eq!(r.moisture_source, MoistureSource::Entered);
     }
 
     #[test]
@@ -446,142 +484,111 @@ mod tests {
         );
     }
 
-    #[test]
-    fn every_field_method_error_names_its_field() {
-        let sc = |f: &dyn Fn(&mut [f64; 5])| {
-            let mut v = [6000.0, 1600.0, 1500.0, 5900.0, 10.0];
-            f(&mut v);
-            FieldReadings::SandCone {
-                mass_sand_used_g: v[0],
-                mass_sand_in_cone_g: v[1],
-                sand_density_kg_m3: v[2],
-                mass_wet_soil_g: v[3],
-                water_content_pct: v[4],
-            }
-        };
-        let nuc =
-            |wet: f64, m: Option<f64>, w: Option<f64>, oven: Option<f64>, depth: Option<f64>| {
-                FieldReadings::Nuclear {
-                    wet_density_kg_m3: wet,
-                    moisture_density_kg_m3: m,
-                    water_content_pct: w,
-                    oven_water_content_pct: oven,
-                    gauge_serial: None,
-                    probe_depth_mm: depth,
-                }
-            };
-        let cases: Vec<(FieldReadings, &str)> = vec![
-            (
-                nuc(f64::NAN, Some(200.0), None, None, None),
-                "wet_density_kg_m3",
-            ),
-            (
-                nuc(4200.0, Some(200.0), None, None, None),
-                "wet_density_kg_m3",
-            ),
-            (
-                nuc(2100.0, Some(-1.0), None, None, None),
-                "moisture_density_kg_m3",
-            ),
-            (
-                nuc(2100.0, Some(2100.0), None, None, None),
-                "moisture_density_kg_m3",
-            ),
-            (
-                nuc(2100.0, Some(f64::NAN), None, None, None),
-                "moisture_density_kg_m3",
-            ),
-            (
-                nuc(2100.0, Some(1700.0), None, None, None),
-                "moisture_density_kg_m3",
-            ),
-            (
-                nuc(2100.0, None, Some(140.0), None, None),
-                "water_content_pct",
-            ),
-            (
-                nuc(2100.0, None, None, Some(-2.0), None),
-                "oven_water_content_pct",
-            ),
-            (
-                nuc(2100.0, None, None, None, None),
-                "moisture_density_kg_m3",
-            ),
-            (
-                nuc(2100.0, Some(200.0), None, None, Some(900.0)),
-                "probe_depth_mm",
-            ),
-            (sc(&|v| v[0] = 0.0), "mass_sand_used_g"),
-            (sc(&|v| v[1] = -3.0), "mass_sand_in_cone_g"),
-            (sc(&|v| v[1] = f64::NAN), "mass_sand_in_cone_g"),
-            (sc(&|v| v[2] = 3100.0), "sand_density_kg_m3"),
-            (sc(&|v| v[3] = -5.0), "mass_wet_soil_g"),
-            (sc(&|v| v[3] = 59_000.0), "mass_wet_soil_g"),
-            (sc(&|v| v[4] = f64::INFINITY), "water_content_pct"),
-            (
-                FieldReadings::Balloon {
-                    hole_volume_cm3: 0.0,
-                    mass_wet_soil_g: 2000.0,
-                    water_content_pct: 8.0,
-                },
-                "hole_volume_cm3",
-            ),
-            (
-                FieldReadings::Balloon {
-                    hole_volume_cm3: 1000.0,
-                    mass_wet_soil_g: f64::NAN,
-                    water_content_pct: 8.0,
-                },
-                "mass_wet_soil_g",
-            ),
-            (
-                FieldReadings::Balloon {
-                    hole_volume_cm3: 1000.0,
-                    mass_wet_soil_g: 2000.0,
-                    water_content_pct: 101.0,
-                },
-                "water_content_pct",
-            ),
-            (
-                FieldReadings::DriveCylinder {
-                    cylinder_volume_cm3: -9.0,
-                    mass_wet_soil_g: 1800.0,
-                    water_content_pct: 8.0,
-                },
-                "cylinder_volume_cm3",
-            ),
-            (
-                FieldReadings::DriveCylinder {
-                    cylinder_volume_cm3: 944.0,
-                    mass_wet_soil_g: 100.0,
-                    water_content_pct: 8.0,
-                },
-                "mass_wet_soil_g",
-            ),
-            (
-                FieldReadings::DriveCylinder {
-                    cylinder_volume_cm3: 944.0,
-                    mass_wet_soil_g: 1800.0,
-                    water_content_pct: -8.0,
-                },
-                "water_content_pct",
-            ),
-        ];
+    /// Sand-cone readings from the passing set (used, cone, sand, wet soil, w) with one change.
+    fn sand_cone_with(change: &dyn Fn(&mut [f64; 5])) -> FieldReadings {
+        let mut v = [6000.0, 1600.0, 1500.0, 5900.0, 10.0];
+        change(&mut v);
+        FieldReadings::SandCone {
+            mass_sand_used_g: v[0],
+            mass_sand_in_cone_g: v[1],
+            sand_density_kg_m3: v[2],
+            mass_wet_soil_g: v[3],
+            water_content_pct: v[4],
+        }
+    }
+
+    fn nuclear_at(
+        wet: f64,
+        moisture: Option<f64>,
+        w: Option<f64>,
+        oven: Option<f64>,
+        depth: Option<f64>,
+    ) -> FieldReadings {
+        FieldReadings::Nuclear {
+            wet_density_kg_m3: wet,
+            moisture_density_kg_m3: moisture,
+            water_content_pct: w,
+            oven_water_content_pct: oven,
+            gauge_serial: None,
+            probe_depth_mm: depth,
+        }
+    }
+
+    fn balloon(hole_volume_cm3: f64, mass_wet_soil_g: f64, water_content_pct: f64) -> FieldReadings {
+        FieldReadings::Balloon {
+            hole_volume_cm3,
+            mass_wet_soil_g,
+            water_content_pct,
+        }
+    }
+
+    fn cylinder(volume_cm3: f64, mass_wet_soil_g: f64, water_content_pct: f64) -> FieldReadings {
+        FieldReadings::DriveCylinder {
+            cylinder_volume_cm3: volume_cm3,
+            mass_wet_soil_g,
+            water_content_pct,
+        }
+    }
+
+    /// Each case is refused, naming the field given beside it, with a message.
+    fn assert_refused_at(cases: Vec<(FieldReadings, &str)>) {
         for (readings, field) in cases {
             let e = reduce_field(&readings).unwrap_err();
             assert_eq!(e.field(), field, "{readings:?}: {e}");
             assert!(!e.to_string().is_empty());
         }
-        let e = reduce_field(&sc(&|v| v[2] = 3100.0)).unwrap_err();
-        assert_eq!(
-            e.to_string(),
-            "sand density 3100 kg/m³ is outside 1000–2000 kg/m³"
-        );
-        let e = reduce_field(&nuc(2100.0, None, None, None, None)).unwrap_err();
+    }
+
+    #[test]
+    fn nuclear_errors_name_their_field() {
+        let m = "moisture_density_kg_m3";
+        assert_refused_at(vec![
+            (nuclear_at(f64::NAN, Some(200.0), None, None, None), "wet_density_kg_m3"),
+            (nuclear_at(4200.0, Some(200.0), None, None, None), "wet_density_kg_m3"),
+            (nuclear_at(2100.0, Some(-1.0), None, None, None), m),
+            (nuclear_at(2100.0, Some(2100.0), None, None, None), m),
+            (nuclear_at(2100.0, Some(f64::NAN), None, None, None), m),
+            (nuclear_at(2100.0, Some(1700.0), None, None, None), m),
+            (nuclear_at(2100.0, None, Some(140.0), None, None), "water_content_pct"),
+            (nuclear_at(2100.0, None, None, Some(-2.0), None), "oven_water_content_pct"),
+            (nuclear_at(2100.0, None, None, None, None), m),
+            (nuclear_at(2100.0, Some(200.0), None, None, Some(900.0)), "probe_depth_mm"),
+        ]);
+        let e = reduce_field(&nuclear_at(2100.0, None, None, None, None)).unwrap_err();
         assert!(
             e.to_string().contains("needs the gauge moisture density"),
             "{e}"
         );
+    }
+
+    #[test]
+    fn sand_cone_errors_name_their_field() {
+        assert_refused_at(vec![
+            (sand_cone_with(&|v| v[0] = 0.0), "mass_sand_used_g"),
+            (sand_cone_with(&|v| v[1] = -3.0), "mass_sand_in_cone_g"),
+            (sand_cone_with(&|v| v[1] = f64::NAN), "mass_sand_in_cone_g"),
+            (sand_cone_with(&|v| v[2] = 3100.0), "sand_density_kg_m3"),
+            (sand_cone_with(&|v| v[3] = -5.0), "mass_wet_soil_g"),
+            (sand_cone_with(&|v| v[3] = 59_000.0), "mass_wet_soil_g"),
+            (sand_cone_with(&|v| v[4] = f64::INFINITY), "water_content_pct"),
+        ]);
+        let e = reduce_field(&sand_cone_with(&|v| v[2] = 3100.0)).unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            "sand density 3100 kg/m³ is outside 1000–2000 kg/m³"
+        );
+    }
+
+    #[test]
+    fn balloon_and_drive_cylinder_errors_name_their_field() {
+        assert_refused_at(vec![
+            (balloon(0.0, 2000.0, 8.0), "hole_volume_cm3"),
+            (balloon(1000.0, f64::NAN, 8.0), "mass_wet_soil_g"),
+            (balloon(1000.0, 2000.0, 101.0), "water_content_pct"),
+            (cylinder(-9.0, 1800.0, 8.0), "cylinder_volume_cm3"),
+            (cylinder(944.0, 100.0, 8.0), "mass_wet_soil_g"),
+            (cylinder(944.0, 1800.0, -8.0), "water_content_pct"),
+        ]);
     }
 
     #[test]

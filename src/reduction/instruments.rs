@@ -271,6 +271,9 @@ pub enum GaugeMode {
 }
 
 impl GaugeMode {
+    /// Both modes.
+    pub const ALL: [GaugeMode; 2] = [Self::DirectTransmission, Self::Backscatter];
+
     /// Stored code.
     pub fn code(self) -> &'static str {
         match self {
@@ -280,9 +283,7 @@ impl GaugeMode {
     }
     /// Reads a stored code.
     pub fn parse_code(s: &str) -> Option<Self> {
-        [Self::DirectTransmission, Self::Backscatter]
-            .into_iter()
-            .find(|m| m.code() == s)
+        Self::ALL.into_iter().find(|m| m.code() == s)
     }
     /// The mode of a reading with this probe depth (common practice: 0 mm is backscatter).
     pub fn of_probe_depth(depth_mm: Option<f64>) -> Self {
@@ -369,7 +370,7 @@ pub fn apply_offsets(
         "wet density",
         raw.wet_density.kg_m3() + offsets.density_kg_m3,
     )?;
-    let w = if raw.moisture_source == "oven" {
+    let w = if raw.moisture_source == super::field::MoistureSource::Oven {
         raw.water_content
     } else {
         super::WaterContent::new(raw.water_content.pct() + offsets.moisture_pct)?
@@ -557,7 +558,7 @@ mod tests {
             wet_density: Density::new(2100.0).unwrap(),
             water_content: WaterContent::new(10.0).unwrap(),
             dry_density: Density::new(2100.0 / 1.1).unwrap(),
-            moisture_source: "gauge",
+            moisture_source: super::super::field::MoistureSource::Gauge,
         };
         let o = Offsets {
             density_kg_m3: -20.0,
@@ -569,7 +570,7 @@ mod tests {
         assert!((c.water_content.pct() - 11.0).abs() < 1e-9);
         assert!((c.dry_density.kg_m3() - 1_873.873_873_873_874).abs() < 1e-6);
         let oven = FieldDensity {
-            moisture_source: "oven",
+            moisture_source: super::super::field::MoistureSource::Oven,
             ..raw
         };
         let c = apply_offsets(oven, o).unwrap();

@@ -363,6 +363,9 @@ pub const STANDARD_NOMINAL_KJ_M3: f64 = 600.0;
 pub const MODIFIED_NOMINAL_KJ_M3: f64 = 2700.0;
 
 impl EffortFamily {
+    /// Both families.
+    pub const ALL: [EffortFamily; 2] = [Self::Standard, Self::Modified];
+
     /// Stable code: "standard" or "modified".
     pub fn code(self) -> &'static str {
         match self {

@@ -224,6 +224,9 @@ pub enum ChainageStyle {
 }
 
 impl ChainageStyle {
+    /// Both styles.
+    pub const ALL: [ChainageStyle; 2] = [Self::KmMetre, Self::FeetStation];
+
     /// Stable code used in JSON and the database.
     pub fn code(self) -> &'static str {
         match self {
@@ -419,6 +422,9 @@ pub enum UnitSystem {
 }
 
 impl UnitSystem {
+    /// Both systems.
+    pub const ALL: [UnitSystem; 2] = [Self::Si, Self::Us];
+
     /// Stable code used in JSON and the database ("si", "us").
     pub fn code(self) -> &'static str {
         match self {

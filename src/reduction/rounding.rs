@@ -16,13 +16,32 @@ use rust_decimal::{Decimal, RoundingStrategy};
 use serde::{Deserialize, Serialize};
 
 /// How observed values are compared with limits.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum RoundingMethod {
-    /// ASTM E29 rounding method: round to the limit's decimals, then compare.
+    /// ASTM E29 rounding method: round to the limit's decimals, then compare (the default).
+    #[default]
     AstmE29,
     /// ASTM E29 absolute method: compare the unrounded value.
     Absolute,
+}
+
+impl RoundingMethod {
+    /// Both methods, the default first.
+    pub const ALL: [RoundingMethod; 2] = [Self::AstmE29, Self::Absolute];
+
+    /// Stable code used in JSON and the database: "astm_e29" or "absolute".
+    pub fn code(self) -> &'static str {
+        match self {
+            Self::AstmE29 => "astm_e29",
+            Self::Absolute => "absolute",
+        }
+    }
+
+    /// Reads a code written by [`RoundingMethod::code`].
+    pub fn parse_code(s: &str) -> Option<Self> {
+        Self::ALL.into_iter().find(|m| m.code() == s.trim())
+    }
 }
 
 /// A clause's comparison convention: the method and the decimals its limits are written with.
@@ -64,10 +83,7 @@ impl Rounding {
 
     /// Stable code of the method: "astm_e29" or "absolute".
     pub fn code(&self) -> &'static str {
-        match self.method {
-            RoundingMethod::AstmE29 => "astm_e29",
-            RoundingMethod::Absolute => "absolute",
-        }
+        self.method.code()
     }
 
     /// The convention in words, for clauses and certificates.

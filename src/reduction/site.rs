@@ -94,7 +94,7 @@ pub struct CheckedEntry {
     pub wet_density_kg_m3: f64,
     pub water_content_pct: f64,
     pub dry_density_kg_m3: f64,
-    pub moisture_source: &'static str,
+    pub moisture_source: super::field::MoistureSource,
 }
 
 /// Whether a chainage lies on a lot; a small tolerance at the ends lets a test on the
@@ -261,7 +261,7 @@ pub struct Preview {
     pub wet_density_kg_m3: f64,
     pub water_content_pct: f64,
     pub dry_density_kg_m3: f64,
-    pub moisture_source: &'static str,
+    pub moisture_source: super::field::MoistureSource,
     pub reference_mdd_kg_m3: f64,
     pub reference_omc_pct: f64,
     pub relative_compaction_pct: f64,

@@ -93,7 +93,7 @@ impl ExportFilter {
             || self.date_from.as_ref().is_some_and(|d| day < *d)
             || self.date_to.as_ref().is_some_and(|d| day > *d)
             || self.method.as_ref().is_some_and(|m| t.method.code() != m)
-            || self.verdict.as_ref().is_some_and(|v| line.result() != v))
+            || self.verdict.as_ref().is_some_and(|v| line.result().code() != v))
     }
 
     /// True when a lot passes the filters (chainage overlap, layer, state as shown).
@@ -224,7 +224,7 @@ pub fn test_object(units: &Units, r: &LotReport, line: &TestLine) -> Value {
         "relative_compaction_pct": line.relative_compaction_pct,
         "moisture_deviation_pct": line.moisture_deviation_pct,
         "passed": line.passed,
-        "result": line.result(),
+        "result": line.result().code(),
         "retest_of": line.retest_of_number,
         "superseded_by": line.superseded_by,
         "void_reason": t.void_reason,
@@ -483,6 +483,26 @@ pub enum ExportKind {
 }
 
 impl ExportKind {
+    /// Every export.
+    pub const ALL: [ExportKind; 5] = [
+        Self::TestsCsv,
+        Self::TestsJson,
+        Self::LotsCsv,
+        Self::LotsJson,
+        Self::TestsGeojson,
+    ];
+
+    /// The code in the export's path (`tests_csv`, …).
+    pub fn code(self) -> &'static str {
+        match self {
+            Self::TestsCsv => "tests_csv",
+            Self::TestsJson => "tests_json",
+            Self::LotsCsv => "lots_csv",
+            Self::LotsJson => "lots_json",
+            Self::TestsGeojson => "tests_geojson",
+        }
+    }
+
     /// The media type of the export.
     pub fn content_type(self) -> &'static str {
         match self {

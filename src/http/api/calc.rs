@@ -19,6 +19,7 @@ use crate::error::{AppError, Result};
 use crate::http::caller::Caller;
 use crate::http::extract::ApiJson;
 use crate::ledger::validate::quantity;
+use crate::domain::Rule;
 use crate::reduction::acceptance::{AcceptanceRule, evaluate_values};
 use crate::reduction::curve::{CurvePoint, fit_curve};
 use crate::reduction::field::{FieldReadings, reduce_field};
@@ -221,7 +222,7 @@ async fn oversize(
 #[schema(example = json!({"rule": "mean_and_min", "values": [96.0, 97.5, 98.0], "lower_limit": 95.0, "allowance": 2.0}))]
 struct AcceptanceBody {
     #[schema(value_type = codes::Rule)]
-    rule: String,
+    rule: crate::domain::Rule,
     /// Relative compaction values, percent.
     #[schema(value_type = Vec<f64>)]
     values: Vec<f64>,
@@ -240,24 +241,18 @@ async fn acceptance(
     _caller: Caller,
     ApiJson(b): ApiJson<AcceptanceBody>,
 ) -> Result<Json<AcceptanceAnswer>> {
-    let rule = match b.rule.as_str() {
-        "every_test" => AcceptanceRule::EveryTest,
-        "mean_and_min" => AcceptanceRule::MeanAndMin {
+    let rule = match b.rule {
+        Rule::EveryTest => AcceptanceRule::EveryTest,
+        Rule::MeanAndMin => AcceptanceRule::MeanAndMin {
             allowance_pct: b.allowance.ok_or_else(|| {
                 AppError::invalid("allowance", "is required for the mean_and_min rule")
             })?,
         },
-        "quality_index" => AcceptanceRule::QualityIndex {
+        Rule::QualityIndex => AcceptanceRule::QualityIndex {
             min_pwl_pct: b.min_pwl.ok_or_else(|| {
                 AppError::invalid("min_pwl", "is required for the quality_index rule")
             })?,
         },
-        other => {
-            return Err(AppError::invalid(
-                "rule",
-                format!("unknown rule '{other}'; use every_test, mean_and_min or quality_index"),
-            ));
-        }
     };
     if !b.lower_limit.is_finite() {
         return Err(AppError::invalid("lower_limit", "must be a finite number"));

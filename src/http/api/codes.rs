@@ -1,177 +1,237 @@
 //! The string codes of the API as enum schemas, so the document lists every value a field
-//! takes. They describe codes stored and compared elsewhere (`src/db`, `src/reduction`,
-//! `src/auth`); here they are documentation only, used through `#[schema(value_type = …)]`.
-#![allow(dead_code)]
+//! takes. Each schema's values are read from the code list of the type the server decodes
+//! (`ALL` and `code()` of the domain, reduction and ledger enums), so the document cannot
+//! name a code the server refuses nor miss one it accepts. Used through
+//! `#[schema(value_type = …)]` and `#[param(value_type = …)]`, and as the field types of the
+//! schema-only bodies of `bodies.rs` (hence `Deserialize`, which nothing calls).
 
-use serde::Deserialize;
-use utoipa::ToSchema;
+use utoipa::openapi::schema::{ObjectBuilder, Schema, Type};
+use utoipa::openapi::RefOr;
 
-/// Declares a documentation enum whose variants serialise as the given codes.
-macro_rules! codes {
-    ($(#[$doc:meta])* $name:ident { $($variant:ident = $code:tt),+ $(,)? }) => {
-        $(#[$doc])*
-        #[derive(Deserialize, ToSchema)]
-        pub enum $name {
-            $(#[serde(rename = $code)] $variant),+
+use crate::reduction::lab::EffortPreset;
+
+/// Joins a doc comment's lines into one description.
+fn description(lines: &[&str]) -> String {
+    lines
+        .iter()
+        .map(|l| l.trim())
+        .collect::<Vec<_>>()
+        .join(" ")
+}
+
+/// A string schema listing `codes`, described by `lines`.
+fn code_list_schema(lines: &[&str], codes: Vec<&'static str>) -> RefOr<Schema> {
+    ObjectBuilder::new()
+        .schema_type(Type::String)
+        .description(Some(description(lines)))
+        .enum_values(Some(codes))
+        .into()
+}
+
+/// Declares a schema type whose values are the codes of `$ty` (its `ALL` and `code()`).
+macro_rules! codes_of {
+    ($(#[doc = $doc:literal])+ $name:ident = $ty:ty) => {
+        $(#[doc = $doc])+
+        #[derive(serde::Deserialize)]
+        pub struct $name;
+
+        impl utoipa::PartialSchema for $name {
+            fn schema() -> RefOr<Schema> {
+                code_list_schema(&[$($doc),+], <$ty>::ALL.iter().map(|v| v.code()).collect())
+            }
         }
+
+        impl utoipa::ToSchema for $name {}
     };
 }
 
-codes!(
+codes_of!(
     /// Unit system a project shows its numbers in (the API is always SI).
-    UnitSystem { Si = "si", Us = "us" }
+    UnitSystem = crate::reduction::UnitSystem
 );
-codes!(
+codes_of!(
     /// How a project writes chainage on its pages.
-    ChainageStyle { KmMetre = "km_metre", FeetStation = "feet_station" }
+    ChainageStyle = crate::reduction::ChainageStyle
 );
-codes!(
-    /// A lab compaction effort: a standard preset, or `custom` with `custom_effort`.
-    Effort {
-        AstmD698In4 = "astm_d698_4in",
-        AstmD698In6 = "astm_d698_6in",
-        AstmD1557In4 = "astm_d1557_4in",
-        AstmD1557In6 = "astm_d1557_6in",
-        AashtoT99 = "aashto_t99",
-        AashtoT180 = "aashto_t180",
-        Bs1377Light = "bs1377_light",
-        Bs1377Heavy = "bs1377_heavy",
-        Is2720Light = "is2720_light",
-        Is2720Heavy = "is2720_heavy",
-        Custom = "custom",
-    }
-);
-codes!(
-    /// The effort a clause asks for: a preset, `custom`, or `any` (no effort required).
-    ClauseEffort {
-        AstmD698In4 = "astm_d698_4in",
-        AstmD698In6 = "astm_d698_6in",
-        AstmD1557In4 = "astm_d1557_4in",
-        AstmD1557In6 = "astm_d1557_6in",
-        AashtoT99 = "aashto_t99",
-        AashtoT180 = "aashto_t180",
-        Bs1377Light = "bs1377_light",
-        Bs1377Heavy = "bs1377_heavy",
-        Is2720Light = "is2720_light",
-        Is2720Heavy = "is2720_heavy",
-        Custom = "custom",
-        Any = "any",
-    }
-);
-codes!(
+codes_of!(
     /// The family of a lab test's effort.
-    EffortFamily { Standard = "standard", Modified = "modified" }
+    EffortFamily = crate::reduction::lab::EffortFamily
 );
-codes!(
+codes_of!(
     /// Lot acceptance rule.
-    Rule { EveryTest = "every_test", MeanAndMin = "mean_and_min", QualityIndex = "quality_index" }
+    Rule = crate::domain::Rule
 );
-codes!(
+codes_of!(
     /// How a clause's moisture window is written.
-    MoistureBasis { PointsOfOmc = "points_of_omc", PercentOfOmc = "percent_of_omc", Absolute = "absolute" }
+    MoistureBasis = crate::domain::MoistureBasis
 );
-codes!(
+codes_of!(
     /// How moisture is judged.
-    MoistureJudgement { PerTest = "per_test", Pwl = "pwl" }
+    MoistureJudgement = crate::domain::MoistureMode
 );
-codes!(
+codes_of!(
     /// How a value is compared with its limit.
-    Rounding { AstmE29 = "astm_e29", Absolute = "absolute" }
+    Rounding = crate::reduction::rounding::RoundingMethod
 );
-codes!(
+codes_of!(
     /// Kind of a registered instrument.
-    InstrumentKind {
-        NuclearGauge = "nuclear_gauge",
-        SandCone = "sand_cone",
-        SandBatch = "sand_batch",
-        Balloon = "balloon",
-        DriveCylinder = "drive_cylinder",
-    }
+    InstrumentKind = crate::reduction::instruments::InstrumentKind
 );
-codes!(
+codes_of!(
     /// Kind of an instrument's dated record.
-    RecordKind { Calibration = "calibration", LeakTest = "leak_test", Licence = "licence" }
+    RecordKind = crate::ledger::instruments::RecordKind
 );
-codes!(
+codes_of!(
     /// Nuclear gauge mode.
-    GaugeMode { DirectTransmission = "direct_transmission", Backscatter = "backscatter" }
+    GaugeMode = crate::reduction::instruments::GaugeMode
 );
-codes!(
+codes_of!(
     /// A role in a project.
-    Role { Technician = "technician", QcManager = "qc_manager", ClientEngineer = "client_engineer", Viewer = "viewer" }
+    Role = crate::auth::Role
 );
-codes!(
+codes_of!(
     /// A lot's stored state.
-    LotState { Open = "open", Submitted = "submitted", Accepted = "accepted", Rejected = "rejected" }
+    LotState = crate::domain::LotState
 );
-codes!(
+codes_of!(
     /// The state a reader sees.
-    DisplayState {
-        Open = "open",
-        OwedTests = "owed_tests",
-        Failing = "failing",
-        Submitted = "submitted",
-        Accepted = "accepted",
-        Rejected = "rejected",
-        Certified = "certified",
-    }
+    DisplayState = crate::domain::DisplayState
 );
-codes!(
+codes_of!(
     /// How a test stands in its lot.
-    Standing {
-        Counted = "counted",
-        Voided = "voided",
-        Superseded = "superseded",
-        CannotBeJudged = "cannot_be_judged",
-        EarlierSample = "earlier_sample",
-    }
+    Standing = crate::domain::Standing
 );
-codes!(
+codes_of!(
     /// A test's result in one word.
-    TestResult {
-        Pass = "pass",
-        Fail = "fail",
-        Void = "void",
-        Superseded = "superseded",
-        Unjudged = "unjudged",
-        Resampled = "resampled",
-    }
+    TestResult = crate::domain::TestResult
 );
-codes!(
+codes_of!(
     /// A field density method.
-    Method { Nuclear = "nuclear", SandCone = "sand_cone", Balloon = "balloon", DriveCylinder = "drive_cylinder" }
+    Method = crate::domain::Method
 );
-codes!(
+codes_of!(
     /// Where a test's water content came from.
-    MoistureSource { Gauge = "gauge", Oven = "oven", Entered = "entered" }
+    MoistureSource = crate::reduction::field::MoistureSource
 );
-codes!(
+codes_of!(
     /// What an export holds.
-    ExportKind {
-        TestsCsv = "tests_csv",
-        TestsJson = "tests_json",
-        LotsCsv = "lots_csv",
-        LotsJson = "lots_json",
-        TestsGeojson = "tests_geojson",
-    }
+    ExportKind = crate::transfer::export::ExportKind
 );
-codes!(
+codes_of!(
     /// How control-chart points are grouped.
-    GroupBy { Source = "source", Layer = "layer", Technician = "technician" }
+    GroupBy = crate::ledger::watch::GroupBy
 );
-codes!(
+codes_of!(
     /// What a control chart plots: relative compaction (%) or moisture deviation (points).
-    Measure { Rc = "rc", Moisture = "moisture" }
+    Measure = crate::ledger::watch::Measure
 );
-codes!(
+codes_of!(
     /// Whether a test's instrument was in check on its date.
-    InstrumentCheck { NotRecorded = "not_recorded", InCheck = "in_check", OutOfCheck = "out_of_check" }
+    InstrumentCheck = crate::reduction::instruments::InstrumentCheck
 );
-codes!(
+codes_of!(
     /// Whether a curve needs a QC manager's written approval before it may be a reference.
-    Approval { NotNeeded = "not_needed", NeedsApproval = "needs_approval", Approved = "approved" }
+    Approval = crate::domain::Approval
 );
-codes!(
+codes_of!(
     /// A lab test's status.
-    LabStatus { Active = "active", Superseded = "superseded" }
+    LabStatus = crate::domain::CurveStatus
 );
+
+/// A lab compaction effort in a new lab test: a standard preset, or `custom` with
+/// `custom_effort`.
+#[derive(serde::Deserialize)]
+pub struct Effort;
+
+impl utoipa::PartialSchema for Effort {
+    fn schema() -> RefOr<Schema> {
+        let codes = EffortPreset::ALL.iter().map(|p| p.code());
+        code_list_schema(
+            &["A lab compaction effort: a standard preset, or `custom` with `custom_effort`."],
+            codes.chain(["custom"]).collect(),
+        )
+    }
+}
+
+impl utoipa::ToSchema for Effort {}
+
+/// The effort a clause asks for: a preset, `custom`, or `any` (no effort required).
+#[derive(serde::Deserialize)]
+pub struct ClauseEffort;
+
+impl utoipa::PartialSchema for ClauseEffort {
+    fn schema() -> RefOr<Schema> {
+        code_list_schema(
+            &["The effort a clause asks for: a preset, `custom`, or `any` (no effort required)."],
+            crate::domain::ClauseEffort::codes().collect(),
+        )
+    }
+}
+
+impl utoipa::ToSchema for ClauseEffort {}
+
+/// A stored lab test's effort: a preset's code, or `custom: ` and the custom effort's name.
+#[derive(serde::Deserialize)]
+pub struct LabEffort;
+
+impl utoipa::PartialSchema for LabEffort {
+    fn schema() -> RefOr<Schema> {
+        let presets: Vec<&str> = EffortPreset::ALL.iter().map(|p| p.code()).collect();
+        ObjectBuilder::new()
+            .schema_type(Type::String)
+            .description(Some(
+                "A lab test's effort: a preset's code, or `custom: ` followed by the name of the \
+                 project's own effort (its energy is `effort_energy_kj_m3`).",
+            ))
+            .pattern(Some(format!("^({}|custom: .+)$", presets.join("|"))))
+            .examples(["astm_d698_4in", "custom: site rammer"])
+            .into()
+    }
+}
+
+impl utoipa::ToSchema for LabEffort {}
+
+#[cfg(test)]
+mod tests {
+    use utoipa::PartialSchema;
+
+    use super::*;
+
+    /// The listed values of a code schema.
+    fn values<T: PartialSchema>() -> Vec<String> {
+        let RefOr::T(Schema::Object(o)) = T::schema() else {
+            panic!("not an object schema");
+        };
+        o.enum_values
+            .unwrap_or_default()
+            .into_iter()
+            .map(|v| v.as_str().unwrap().to_string())
+            .collect()
+    }
+
+    #[test]
+    fn every_listed_code_is_one_the_server_reads_back() {
+        for code in values::<Rule>() {
+            assert!(code.parse::<crate::domain::Rule>().is_ok(), "{code}");
+        }
+        for code in values::<MoistureSource>() {
+            let v = serde_json::Value::String(code.clone());
+            serde_json::from_value::<crate::reduction::field::MoistureSource>(v).expect(&code);
+        }
+        for code in values::<ClauseEffort>() {
+            assert!(crate::domain::ClauseEffort::parse_code(&code).is_some(), "{code}");
+        }
+        // Ten presets (reduction::lab::EffortPreset), then custom and any.
+        assert_eq!(values::<ClauseEffort>().len(), 12);
+        assert_eq!(
+            values::<MoistureJudgement>(),
+            ["per_test", "pwl"],
+            "the clause's moisture judgement codes"
+        );
+        assert_eq!(
+            values::<Rounding>(),
+            ["astm_e29", "absolute"],
+            "ASTM E29's two methods"
+        );
+    }
+}

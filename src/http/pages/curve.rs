@@ -12,11 +12,11 @@ use crate::charts::{CurveChartInput, FieldMark, Series, curve_chart};
 use crate::db;
 use crate::error::AppError;
 use crate::http::caller::{Caller, Scope, require};
-use crate::ledger::setup::{LabPointInput, reduce_lab_point, resolve_effort};
+use crate::ledger::setup::{LabPointInput, reduce_lab_point};
 use crate::present::Units;
 use crate::reduction::SpecificGravity;
 use crate::reduction::curve::fit_curve;
-use crate::reduction::lab::EffortPreset;
+use crate::domain::LabEffort;
 use crate::reduction::voids::{degree_of_saturation_pct, saturation_line, zero_air_voids_line};
 
 /// Routes of this module.
@@ -143,13 +143,13 @@ fn field_marks(counted: &[crate::ledger::lot_report::TestLine]) -> Vec<FieldMark
 
 /// The compaction energy in SI and US units, as the effort defines it.
 fn energy_words(lab: &db::lab_tests::LabTest) -> String {
-    match resolve_effort(&lab.effort, None).ok() {
-        Some(e) => format!(
+    match &lab.effort {
+        LabEffort::Preset(p) => format!(
             "{:.0} kJ/m³ ({:.0} ft·lbf/ft³)",
-            e.energy_kj_m3(),
-            e.energy_ft_lbf_ft3()
+            p.effort().energy_kj_m3(),
+            p.effort().energy_ft_lbf_ft3()
         ),
-        None => format!("{:.0} kJ/m³", lab.effort_energy_kj_m3),
+        LabEffort::Custom(_) => format!("{:.0} kJ/m³", lab.effort_energy_kj_m3),
     }
 }
 
@@ -217,8 +217,7 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
         tested_on: lab.tested_on.clone(),
         status: lab.status.to_string(),
         superseded_reason: lab.superseded_reason.clone().unwrap_or_default(),
-        effort: EffortPreset::parse_code(&lab.effort)
-            .map_or(lab.effort.clone(), |e| e.label().to_string()),
+        effort: lab.effort.label(),
         energy: energy_words(lab),
         mdd: u.density_with_unit(lab.max_dry_density_kg_m3),
         omc: format!("{:.1} %", lab.optimum_water_content_pct),

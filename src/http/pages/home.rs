@@ -236,7 +236,7 @@ async fn calibrations_due(s: &AppState, id: i64) -> crate::error::Result<Vec<(i6
             .await?
             .into_iter()
             .map(|(i, r, days)| {
-                let words = present::due_words(&i.serial, &r.kind, r.due_on.as_deref(), days);
+                let words = present::due_words(&i.serial, r.kind.code(), r.due_on.as_deref(), days);
                 (i.id, words)
             })
             .collect(),
@@ -344,8 +344,7 @@ async fn sources(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>)
             .map(|l| LabRow {
                 id: l.id,
                 code: l.code,
-                effort: crate::reduction::lab::EffortPreset::parse_code(&l.effort)
-                    .map_or(l.effort.clone(), |e| e.label().to_string()),
+                effort: l.effort.label(),
                 mdd: u.density(l.max_dry_density_kg_m3),
                 omc: format!("{:.1}", l.optimum_water_content_pct),
                 status: l.status.to_string(),

@@ -300,8 +300,7 @@ async fn sheet_with(
         mdd: u.density_with_unit(r.lab_test.max_dry_density_kg_m3),
         omc: format!("{:.1} %", r.lab_test.optimum_water_content_pct),
         gs: format!("{:.2}", r.lab_test.specific_gravity),
-        effort: crate::reduction::lab::EffortPreset::parse_code(&r.lab_test.effort)
-            .map_or(r.lab_test.effort.clone(), |e| e.label().to_string()),
+        effort: r.lab_test.effort.label(),
         density_unit: u.density_unit().to_string(),
         rows: rows(&r, &u, may(Action::EnterTests), may(Action::VoidTest)),
         accepted: v.accepted,

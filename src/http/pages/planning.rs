@@ -548,16 +548,22 @@ async fn family_page(
         .ok_or_else(|| AppError::not_found("source_id", format!("source {id} does not exist")))?;
     let project = crate::ledger::setup::require_project(&s.db, source.project_id).await?;
     let labs = db::lab_tests::list_for_source(&s.db, id).await?;
+    // The effort asked for, else the first curve's (none: a source without curves).
     let effort = q
         .effort
-        .or_else(|| labs.first().map(|l| l.effort.clone()))
-        .unwrap_or_default();
-    let fam = crate::ledger::one_point::family(&s.db, id, &effort).await?;
+        .as_deref()
+        .and_then(crate::domain::LabEffort::parse_code)
+        .or_else(|| labs.first().map(|l| l.effort.clone()));
+    let fam = match &effort {
+        Some(e) => crate::ledger::one_point::family(&s.db, id, e).await?,
+        None => Vec::new(),
+    };
     let checks: Vec<_> = db::planning::one_points_for_source(&s.db, id)
         .await?
         .into_iter()
-        .filter(|c| c.effort == effort)
+        .filter(|c| Some(&c.effort) == effort.as_ref())
         .collect();
+    let effort = effort.map(|e| e.code()).unwrap_or_default();
     let u = Units::of(&project);
     let chart = family_chart(
         &format!("Family of curves, source {} ({effort})", source.code),

@@ -74,7 +74,7 @@ async fn page(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) ->
             .collect(),
         _ => Vec::new(),
     };
-    let result = line.map_or("fail", |l| l.result());
+    let result = line.map_or(crate::domain::TestResult::Fail, |l| l.result());
     let history = db::audit::for_entity(&s.db, "field_test", id)
         .await?
         .into_iter()

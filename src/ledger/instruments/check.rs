@@ -126,7 +126,7 @@ fn register_of(rows: RegisterRows<'_>) -> Result<Register> {
         calibrations: rows
             .records
             .iter()
-            .filter(|r| r.kind == "calibration")
+            .filter(|r| r.kind == super::RecordKind::Calibration)
             .map(calibration_of)
             .collect(),
         assignments: rows
@@ -251,7 +251,7 @@ pub fn apply_offset(
     r.water_content_pct = corrected.water_content.pct();
     r.dry_density_kg_m3 = corrected.dry_density.kg_m3();
     r.density_offset_kg_m3 = Some(o.density_offset_kg_m3);
-    r.moisture_offset_pct = Some(if corrected.moisture_source == "oven" {
+    r.moisture_offset_pct = Some(if corrected.moisture_source == crate::reduction::field::MoistureSource::Oven {
         0.0
     } else {
         o.moisture_offset_pct

@@ -19,7 +19,7 @@ use crate::error::{AppError, Result};
 pub use crate::reduction::instruments::InstrumentKind;
 
 /// What kind of dated record.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, serde::Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum RecordKind {
     Calibration,
@@ -28,7 +28,11 @@ pub enum RecordKind {
 }
 
 impl RecordKind {
-    fn code(self) -> &'static str {
+    /// Every kind of record.
+    pub const ALL: [RecordKind; 3] = [Self::Calibration, Self::LeakTest, Self::Licence];
+
+    /// The stored and JSON code.
+    pub fn code(self) -> &'static str {
         match self {
             Self::Calibration => "calibration",
             Self::LeakTest => "leak_test",
@@ -163,7 +167,7 @@ fn checked_record(
     Ok(db::instruments::InstrumentRecord {
         id: 0,
         instrument_id,
-        kind: input.kind.code().to_string(),
+        kind: input.kind,
         done_on,
         due_on,
         reference: optional_text("reference", &input.reference, 120)?,
@@ -493,7 +497,7 @@ pub async fn due_for_project(
         {
             continue;
         }
-        for kind in ["calibration", "leak_test", "licence"] {
+        for kind in RecordKind::ALL {
             let latest = book
                 .records
                 .iter()

@@ -161,7 +161,7 @@ pub struct OnePointCheckAnswer {
     pub code: String,
     #[schema(format = Date)]
     pub tested_on: String,
-    #[schema(value_type = codes::Effort)]
+    #[schema(value_type = codes::LabEffort)]
     pub effort: String,
     pub water_content_pct: f64,
     pub dry_density_kg_m3: f64,

@@ -58,7 +58,7 @@ pub struct ClauseAnswer {
     /// Percentage points allowed above OMC.
     pub moisture_above_pct: f64,
     #[schema(value_type = codes::ClauseEffort)]
-    pub effort: String,
+    pub effort: crate::domain::ClauseEffort,
     #[schema(value_type = codes::Rule)]
     pub rule: crate::domain::Rule,
     pub allowance_pct: Option<f64>,
@@ -70,16 +70,16 @@ pub struct ClauseAnswer {
     #[schema(format = DateTime)]
     pub created_at: String,
     #[schema(value_type = codes::MoistureJudgement)]
-    pub moisture_judgement: String,
+    pub moisture_judgement: crate::domain::MoistureMode,
     pub moisture_min_pwl_pct: Option<f64>,
     pub rc_plausible_max_pct: f64,
     #[schema(value_type = codes::Rounding)]
-    pub rounding: String,
+    pub rounding: crate::reduction::rounding::RoundingMethod,
     pub limit_decimals: i64,
     pub oversize_sieve_mm: f64,
     pub coarse_water_default_pct: Option<f64>,
     #[schema(value_type = codes::MoistureBasis)]
-    pub moisture_basis: String,
+    pub moisture_basis: crate::domain::MoistureBasis,
     pub moisture_low_pct: Option<f64>,
     pub moisture_high_pct: Option<f64>,
     pub max_air_voids_pct: Option<f64>,
@@ -162,8 +162,8 @@ pub struct LabTestAnswer {
     pub code: String,
     #[schema(format = Date)]
     pub tested_on: String,
-    #[schema(value_type = codes::Effort)]
-    pub effort: String,
+    #[schema(value_type = codes::LabEffort)]
+    pub effort: crate::domain::LabEffort,
     #[schema(value_type = codes::EffortFamily)]
     pub effort_family: String,
     /// Compactive energy, kJ/m³.

@@ -4,21 +4,20 @@
 use askama::Template;
 use axum::Router;
 use axum::body::Bytes;
-use axum::extract::{Path, State};
+use axum::extract::State;
+use serde::de::DeserializeOwned;
 use axum::routing::get;
 
 use super::form::{Field, Kind, Values, decode};
 use super::summary::{Terms, clause_words};
-use super::{Context, FormSpec, wants_preview};
+use super::{Context, FormSpec, ManageSetup, wants_preview};
 use crate::app::AppState;
-use crate::auth::Action;
 use crate::db;
 use crate::domain::{Approval, CurveStatus};
-use crate::http::caller::Caller;
 use crate::http::pages::{PageResult, see_other};
 use crate::ledger::moulds::{self, MouldInput};
 use crate::ledger::setup::{self, ClauseInput, LayerInput, LotInput, SourceInput};
-use crate::reduction::lab::EffortPreset;
+use crate::domain::ClauseEffort;
 
 /// Routes of this module.
 pub fn router() -> Router<AppState> {
@@ -49,6 +48,19 @@ fn hub(ctx: &Context) -> String {
     format!("/projects/{}/setup", ctx.project.id)
 }
 
+/// Saves a set-up form through its ledger function and goes back to the set-up page, or
+/// shows the form again with its problems (nothing saved).
+async fn save_to_hub<T: DeserializeOwned, R>(
+    ctx: &Context,
+    spec: &FormSpec,
+    body: &Bytes,
+    save: impl AsyncFnOnce(T) -> crate::error::Result<R>,
+) -> PageResult {
+    let values = decode(body);
+    let saved = spec.submit(&values, &ctx.units, save).await?;
+    Ok(saved.map_or_else(|refused| refused, |_| see_other(&hub(ctx))))
+}
+
 fn spec(ctx: &Context, title: &str, intro: &str, path: &str, fields: Vec<Field>) -> FormSpec {
     FormSpec {
         nav: Some(ctx.nav.clone()),
@@ -71,13 +83,17 @@ fn pairs(v: &[(&str, &str)]) -> Vec<(String, String)> {
 
 /// Every effort a clause may name: the presets, a custom effort, or any.
 pub fn clause_efforts() -> Vec<(String, String)> {
-    let mut v: Vec<(String, String)> = EffortPreset::ALL
-        .iter()
-        .map(|p| (p.code().to_string(), p.label().to_string()))
-        .collect();
-    v.push(("custom".into(), "A custom effort".into()));
-    v.push(("any".into(), "Any effort".into()));
-    v
+    ClauseEffort::codes()
+        .filter_map(ClauseEffort::parse_code)
+        .map(|e| {
+            let label = match e {
+                ClauseEffort::Preset(p) => p.label(),
+                ClauseEffort::Custom => "A custom effort",
+                ClauseEffort::Any => "Any effort",
+            };
+            (e.code().to_string(), label.to_string())
+        })
+        .collect()
 }
 
 /// Every field of a new clause, in the order the form shows them.
@@ -303,8 +319,7 @@ fn clause_spec(ctx: &Context) -> FormSpec {
     s
 }
 
-async fn clause_form(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
-    let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
+async fn clause_form(ManageSetup(ctx): ManageSetup) -> PageResult {
     let defaults: Values = [
         ("rule", "every_test"),
         ("min_tests_per_lot", "3"),
@@ -314,6 +329,12 @@ async fn clause_form(State(s): State<AppState>, caller: Caller, Path(id): Path<i
     .map(|(k, v)| (k.to_string(), v.to_string()))
     .collect();
     clause_spec(&ctx).blank(&defaults)
+}
+
+/// A form's optional code as its type: the default when left out or not known (the ledger
+/// refuses an unknown one beside its field when the form is saved).
+fn code_or_default<T: std::str::FromStr + Default>(code: Option<&str>) -> T {
+    code.and_then(|c| c.trim().parse().ok()).unwrap_or_default()
 }
 
 /// The clause as words, escaped by its own template.
@@ -328,11 +349,9 @@ struct ClauseWords {
 
 async fn clause_post(
     State(s): State<AppState>,
-    caller: Caller,
-    Path(id): Path<i64>,
+    ManageSetup(ctx): ManageSetup,
     body: Bytes,
 ) -> PageResult {
-    let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
     let spec = clause_spec(&ctx);
     let values = decode(&body);
     if wants_preview(&values) {
@@ -342,24 +361,24 @@ async fn clause_post(
         };
         let words = clause_words(&Terms {
             rc_min_pct: input.rc_min_pct,
-            moisture_basis: input.moisture_basis.as_deref(),
+            moisture_basis: code_or_default(input.moisture_basis.as_deref()),
             moisture_below_pct: input.moisture_below_pct,
             moisture_above_pct: input.moisture_above_pct,
             moisture_low_pct: input.moisture_low_pct,
             moisture_high_pct: input.moisture_high_pct,
             max_air_voids_pct: input.max_air_voids_pct,
-            effort: &input.effort,
-            rule: &input.rule,
+            effort: input.effort.parse().ok(),
+            rule: input.rule.parse().ok(),
             allowance_pct: input.allowance_pct,
             min_pwl_pct: input.min_pwl_pct,
             area_per_test_m2: input.area_per_test_m2,
             length_per_test_m: input.length_per_test_m,
             min_tests_per_lot: input.min_tests_per_lot,
             oversize_limit_pct: input.oversize_limit_pct,
-            moisture_judgement: input.moisture_judgement.as_deref(),
+            moisture_judgement: code_or_default(input.moisture_judgement.as_deref()),
             moisture_min_pwl_pct: input.moisture_min_pwl_pct,
             rc_plausible_max_pct: input.rc_plausible_max_pct,
-            rounding: input.rounding.as_deref(),
+            rounding: code_or_default(input.rounding.as_deref()),
         });
         let html = ClauseWords { words }
             .render()
@@ -367,12 +386,10 @@ async fn clause_post(
             .map_err(crate::error::AppError::from)?;
         return crate::http::pages::render(&spec.page(&values, &Default::default(), html));
     }
-    let saved = spec
-        .submit(&values, &ctx.units, async |input: ClauseInput| {
-            setup::create_clause(&s.db, id, &input, &ctx.actor).await
-        })
-        .await?;
-    Ok(saved.map_or_else(|refused| refused, |_| see_other(&hub(&ctx))))
+    let save = async |input: ClauseInput| {
+        setup::create_clause(&s.db, ctx.project.id, &input, &ctx.actor).await
+    };
+    save_to_hub(&ctx, &spec, &body, save).await
 }
 
 fn source_spec(ctx: &Context) -> FormSpec {
@@ -395,25 +412,13 @@ fn source_spec(ctx: &Context) -> FormSpec {
     )
 }
 
-async fn source_form(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
-    let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
+async fn source_form(ManageSetup(ctx): ManageSetup) -> PageResult {
     source_spec(&ctx).blank(&Values::new())
 }
 
-async fn source_post(
-    State(s): State<AppState>,
-    caller: Caller,
-    Path(id): Path<i64>,
-    body: Bytes,
-) -> PageResult {
-    let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
-    let values = decode(&body);
-    let saved = source_spec(&ctx)
-        .submit(&values, &ctx.units, async |input: SourceInput| {
-            setup::create_source(&s.db, id, &input, &ctx.actor).await
-        })
-        .await?;
-    Ok(saved.map_or_else(|refused| refused, |_| see_other(&hub(&ctx))))
+async fn source_post(State(s): State<AppState>, ManageSetup(ctx): ManageSetup, body: Bytes) -> PageResult {
+    let save = async |input: SourceInput| setup::create_source(&s.db, ctx.project.id, &input, &ctx.actor).await;
+    save_to_hub(&ctx, &source_spec(&ctx), &body, save).await
 }
 
 fn mould_spec(ctx: &Context) -> FormSpec {
@@ -432,25 +437,13 @@ fn mould_spec(ctx: &Context) -> FormSpec {
     )
 }
 
-async fn mould_form(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
-    let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
+async fn mould_form(ManageSetup(ctx): ManageSetup) -> PageResult {
     mould_spec(&ctx).blank(&Values::new())
 }
 
-async fn mould_post(
-    State(s): State<AppState>,
-    caller: Caller,
-    Path(id): Path<i64>,
-    body: Bytes,
-) -> PageResult {
-    let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
-    let values = decode(&body);
-    let saved = mould_spec(&ctx)
-        .submit(&values, &ctx.units, async |input: MouldInput| {
-            moulds::create_mould(&s.db, id, &input, &ctx.actor).await
-        })
-        .await?;
-    Ok(saved.map_or_else(|refused| refused, |_| see_other(&hub(&ctx))))
+async fn mould_post(State(s): State<AppState>, ManageSetup(ctx): ManageSetup, body: Bytes) -> PageResult {
+    let save = async |input: MouldInput| moulds::create_mould(&s.db, ctx.project.id, &input, &ctx.actor).await;
+    save_to_hub(&ctx, &mould_spec(&ctx), &body, save).await
 }
 
 fn layer_spec(ctx: &Context) -> FormSpec {
@@ -473,25 +466,13 @@ fn layer_spec(ctx: &Context) -> FormSpec {
     )
 }
 
-async fn layer_form(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
-    let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
+async fn layer_form(ManageSetup(ctx): ManageSetup) -> PageResult {
     layer_spec(&ctx).blank(&Values::new())
 }
 
-async fn layer_post(
-    State(s): State<AppState>,
-    caller: Caller,
-    Path(id): Path<i64>,
-    body: Bytes,
-) -> PageResult {
-    let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
-    let values = decode(&body);
-    let saved = layer_spec(&ctx)
-        .submit(&values, &ctx.units, async |input: LayerInput| {
-            setup::create_layer(&s.db, id, &input, &ctx.actor).await
-        })
-        .await?;
-    Ok(saved.map_or_else(|refused| refused, |_| see_other(&hub(&ctx))))
+async fn layer_post(State(s): State<AppState>, ManageSetup(ctx): ManageSetup, body: Bytes) -> PageResult {
+    let save = async |input: LayerInput| setup::create_layer(&s.db, ctx.project.id, &input, &ctx.actor).await;
+    save_to_hub(&ctx, &layer_spec(&ctx), &body, save).await
 }
 
 /// The records a lot form offers: the project's layers, clauses and active curves.
@@ -589,23 +570,20 @@ async fn lot_spec(s: &AppState, ctx: &Context) -> PageResult<FormSpec> {
     ))
 }
 
-async fn lot_form(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
-    let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
+async fn lot_form(State(s): State<AppState>, ManageSetup(ctx): ManageSetup) -> PageResult {
     lot_spec(&s, &ctx).await?.blank(&Values::new())
 }
 
 async fn lot_post(
     State(s): State<AppState>,
-    caller: Caller,
-    Path(id): Path<i64>,
+    ManageSetup(ctx): ManageSetup,
     body: Bytes,
 ) -> PageResult {
-    let ctx = Context::load(&s, &caller, id, Action::ManageSetup).await?;
     let values = decode(&body);
     let saved = lot_spec(&s, &ctx)
         .await?
         .submit(&values, &ctx.units, async |input: LotInput| {
-            setup::create_lot(&s.db, id, &input, &ctx.actor).await
+            setup::create_lot(&s.db, ctx.project.id, &input, &ctx.actor).await
         })
         .await?;
     Ok(saved.map_or_else(

@@ -15,7 +15,6 @@ use axum::extract::{Path, State};
 use axum::routing::{get, post};
 
 use super::form::{self, Errors, Field, Kind, Values, decode};
-use super::frame::clause_efforts;
 use crate::app::AppState;
 use crate::auth::Action;
 use crate::db;
@@ -97,9 +96,9 @@ async fn place(s: &AppState, caller: &Caller, source_id: i64) -> PageResult<Plac
 
 /// The inputs above the specimen table.
 fn head_fields(p: &Place) -> Vec<Field> {
-    let efforts = clause_efforts()
-        .into_iter()
-        .filter(|(code, _)| code != "any" && code != "custom")
+    let efforts = crate::reduction::lab::EffortPreset::ALL
+        .iter()
+        .map(|p| (p.code().to_string(), p.label().to_string()))
         .collect();
     let mut moulds: Vec<(String, String)> = p
         .moulds

@@ -20,7 +20,8 @@ mod tokens;
 use askama::Template;
 use axum::Router;
 use axum::http::StatusCode;
-use axum::response::Response;
+use axum::extract::FromRequestParts;
+use axum::response::{IntoResponse, Response};
 use serde::de::DeserializeOwned;
 
 use self::form::{Errors, Field, Kind, Values};
@@ -71,6 +72,30 @@ impl Context {
             project,
             actor,
         })
+    }
+}
+
+/// A set-up page's context for a change to the frame (`/projects/{id}/setup/…`): the
+/// project loaded and the caller checked for [`Action::ManageSetup`] before the handler runs.
+pub struct ManageSetup(pub Context);
+
+impl FromRequestParts<AppState> for ManageSetup {
+    type Rejection = Response;
+
+    async fn from_request_parts(
+        parts: &mut axum::http::request::Parts,
+        s: &AppState,
+    ) -> Result<Self, Self::Rejection> {
+        let caller = Caller::from_request_parts(parts, s)
+            .await
+            .map_err(IntoResponse::into_response)?;
+        let axum::extract::Path(id) = axum::extract::Path::<i64>::from_request_parts(parts, s)
+            .await
+            .map_err(IntoResponse::into_response)?;
+        Context::load(s, &caller, id, Action::ManageSetup)
+            .await
+            .map(Self)
+            .map_err(IntoResponse::into_response)
     }
 }
 

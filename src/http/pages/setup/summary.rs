@@ -4,88 +4,77 @@
 //! reads the rule back before tests are judged by it.
 
 use crate::db::clauses::Clause;
-use crate::reduction::lab::EffortPreset;
+use crate::domain::{ClauseEffort, MoistureBasis, MoistureMode, Rule};
+use crate::reduction::rounding::RoundingMethod;
 
-/// The terms the words are made from (a stored clause, or a form not yet saved).
-pub struct Terms<'a> {
+/// The terms the words are made from (a stored clause, or a form not yet saved: a code the
+/// form has wrong is `None`, and its own message stands beside its field).
+pub struct Terms {
     pub rc_min_pct: f64,
-    /// "points_of_omc", "percent_of_omc" or "absolute"; `None` reads as points of OMC.
-    pub moisture_basis: Option<&'a str>,
+    pub moisture_basis: MoistureBasis,
     pub moisture_below_pct: Option<f64>,
     pub moisture_above_pct: Option<f64>,
     pub moisture_low_pct: Option<f64>,
     pub moisture_high_pct: Option<f64>,
     pub max_air_voids_pct: Option<f64>,
-    pub effort: &'a str,
-    pub rule: &'a str,
+    pub effort: Option<ClauseEffort>,
+    pub rule: Option<Rule>,
     pub allowance_pct: Option<f64>,
     pub min_pwl_pct: Option<f64>,
     pub area_per_test_m2: Option<f64>,
     pub length_per_test_m: Option<f64>,
     pub min_tests_per_lot: i64,
     pub oversize_limit_pct: Option<f64>,
-    /// "per_test" or "pwl"; `None` reads as the default (per test).
-    pub moisture_judgement: Option<&'a str>,
+    pub moisture_judgement: MoistureMode,
     pub moisture_min_pwl_pct: Option<f64>,
     /// `None` reads as the default (103 %).
     pub rc_plausible_max_pct: Option<f64>,
-    /// "astm_e29" or "absolute"; `None` reads as the default (ASTM E29).
-    pub rounding: Option<&'a str>,
+    pub rounding: RoundingMethod,
 }
 
-impl<'a> From<&'a Clause> for Terms<'a> {
-    fn from(c: &'a Clause) -> Self {
+impl From<&Clause> for Terms {
+    fn from(c: &Clause) -> Self {
         Self {
             rc_min_pct: c.rc_min_pct,
-            moisture_basis: Some(&c.moisture_basis),
+            moisture_basis: c.moisture_basis,
             moisture_below_pct: Some(c.moisture_below_pct),
             moisture_above_pct: Some(c.moisture_above_pct),
             moisture_low_pct: c.moisture_low_pct,
             moisture_high_pct: c.moisture_high_pct,
             max_air_voids_pct: c.max_air_voids_pct,
-            effort: &c.effort,
-            rule: c.rule.code(),
+            effort: Some(c.effort),
+            rule: Some(c.rule),
             allowance_pct: c.allowance_pct,
             min_pwl_pct: c.min_pwl_pct,
             area_per_test_m2: c.area_per_test_m2,
             length_per_test_m: c.length_per_test_m,
             min_tests_per_lot: c.min_tests_per_lot,
             oversize_limit_pct: Some(c.oversize_limit_pct),
-            moisture_judgement: Some(&c.moisture_judgement),
+            moisture_judgement: c.moisture_judgement,
             moisture_min_pwl_pct: c.moisture_min_pwl_pct,
             rc_plausible_max_pct: Some(c.rc_plausible_max_pct),
-            rounding: Some(&c.rounding),
+            rounding: c.rounding,
         }
-    }
-}
-
-fn effort_words(code: &str) -> String {
-    match code {
-        "any" => "a lab curve of any effort".into(),
-        "custom" => "a lab curve of a custom effort".into(),
-        c => EffortPreset::parse_code(c).map_or(format!("a lab curve of effort {c}"), |p| {
-            format!("a lab curve of {}", p.label())
-        }),
     }
 }
 
 fn rule_words(t: &Terms) -> String {
     match t.rule {
-        "every_test" => format!(
+        Some(Rule::EveryTest) => format!(
             "Every counted test must reach {:.1} % relative compaction.",
             t.rc_min_pct
         ),
-        "mean_and_min" => format!(
+        Some(Rule::MeanAndMin) => format!(
             "The lot's mean relative compaction must reach {:.1} % and no counted test may fall more than {:.1} points below it.",
             t.rc_min_pct,
             t.allowance_pct.unwrap_or(0.0)
         ),
-        "quality_index" => format!(
+        Some(Rule::QualityIndex) => format!(
             "At least {:.0} % of the lot must lie above {:.1} % relative compaction, estimated from the tests' mean and standard deviation (percent within limits).",
             t.min_pwl_pct.unwrap_or(90.0),
             t.rc_min_pct
         ),
-        other => format!("Rule '{other}' is not one liftledger knows."),
+        None => "The rule is not one liftledger knows.".to_string(),
     }
 }
 
@@ -108,17 +97,17 @@ fn bound(v: Option<f64>) -> String {
 /// Where the window lies, as the clause writes it.
 fn window_words(t: &Terms) -> String {
     match t.moisture_basis {
-        Some("percent_of_omc") => format!(
+        MoistureBasis::PercentOfOmc => format!(
             "between {} % and {} % of the optimum (water content divided by OMC)",
             bound(t.moisture_low_pct),
             bound(t.moisture_high_pct)
         ),
-        Some("absolute") => format!(
+        MoistureBasis::Absolute => format!(
             "between {} % and {} % water content, whatever the optimum",
             bound(t.moisture_low_pct),
             bound(t.moisture_high_pct)
         ),
-        _ => format!(
+        MoistureBasis::PointsOfOmc => format!(
             "between {} points dry and {} points wet of the optimum",
             bound(t.moisture_below_pct),
             bound(t.moisture_above_pct)
@@ -128,19 +117,25 @@ fn window_words(t: &Terms) -> String {
 
 fn moisture_words(t: &Terms) -> String {
     match t.moisture_judgement {
-        Some("pwl") => format!(
+        MoistureMode::Pwl => format!(
             "At least {:.0} % of the lot's water contents must lie {} (percent within limits, both sides).",
             t.moisture_min_pwl_pct.unwrap_or(90.0),
             window_words(t)
         ),
-        _ => format!("Each test's water content must lie {}.", window_words(t)),
+        MoistureMode::PerTest => {
+            format!("Each test's water content must lie {}.", window_words(t))
+        }
     }
 }
 
 /// The clause's rule in sentences, in the order the ledger applies it.
 pub fn clause_words(t: &Terms) -> Vec<String> {
     let mut words = vec![
-        format!("Judged against {}.", effort_words(t.effort)),
+        format!(
+            "Judged against {}.",
+            t.effort
+                .map_or("a lab curve of an effort liftledger does not know".into(), |e| e.words())
+        ),
         rule_words(t),
         moisture_words(t),
         frequency_words(t),
@@ -155,8 +150,8 @@ pub fn clause_words(t: &Terms) -> Vec<String> {
         t.rc_plausible_max_pct.unwrap_or(103.0)
     ));
     words.push(match t.rounding {
-        Some("absolute") => "Values are compared with the limits unrounded.".to_string(),
-        _ => "Values are rounded to the limit's written precision before they are compared (ASTM E29).".to_string(),
+        RoundingMethod::Absolute => "Values are compared with the limits unrounded.".to_string(),
+        RoundingMethod::AstmE29 => "Values are rounded to the limit's written precision before they are compared (ASTM E29).".to_string(),
     });
     if let Some(o) = t.oversize_limit_pct {
         words.push(format!(
@@ -174,24 +169,26 @@ mod tests {
     fn mean_and_minimum_reads_as_both_limits() {
         let t = Terms {
             rc_min_pct: 95.0,
-            moisture_basis: None,
+            moisture_basis: MoistureBasis::PointsOfOmc,
             moisture_below_pct: Some(2.0),
             moisture_above_pct: Some(1.5),
             moisture_low_pct: None,
             moisture_high_pct: None,
             max_air_voids_pct: None,
-            effort: "astm_d1557_4in",
-            rule: "mean_and_min",
+            effort: Some(ClauseEffort::Preset(
+                crate::reduction::lab::EffortPreset::AstmD1557Mold4in,
+            )),
+            rule: Some(Rule::MeanAndMin),
             allowance_pct: Some(3.0),
             min_pwl_pct: None,
             area_per_test_m2: Some(1000.0),
             length_per_test_m: None,
             min_tests_per_lot: 3,
             oversize_limit_pct: Some(30.0),
-            moisture_judgement: None,
+            moisture_judgement: MoistureMode::PerTest,
             moisture_min_pwl_pct: None,
             rc_plausible_max_pct: None,
-            rounding: None,
+            rounding: RoundingMethod::AstmE29,
         };
         let words = clause_words(&t).join(" ");
         assert!(
