@@ -175,7 +175,8 @@ async fn load_tests(
     setup: &Actor,
 ) -> anyhow::Result<()> {
     // The one-point check's result, worked out first so its paired test can be aimed at it.
-    let d698 = crate::domain::LabEffort::Preset(crate::reduction::lab::EffortPreset::AstmD698Mold4in);
+    let d698 =
+        crate::domain::LabEffort::Preset(crate::reduction::lab::EffortPreset::AstmD698Mold4in);
     let family = ledger::one_point::family(pool, source_id, &d698)
         .await
         .map_err(err)?;

@@ -19,7 +19,8 @@ mod states;
 
 pub(crate) use codes::stored_as_text;
 pub use codes::{
-    Approval, CurveStatus, Method, MoistureBasis, MoistureMode, Rule, Standing, TestResult, UnknownCode,
+    Approval, CurveStatus, Method, MoistureBasis, MoistureMode, Rule, Standing, TestResult,
+    UnknownCode,
 };
 pub use effort::{ClauseEffort, LabEffort};
 pub use states::{DisplayState, Judged, LotState};

@@ -181,7 +181,9 @@ fn clause_effort(effort: &str) -> Result<ClauseEffort> {
             format!(
                 "unknown effort '{}'; use one of {}",
                 effort.trim(),
-                known.join(", ").replacen(", custom, any", ", custom or any", 1)
+                known
+                    .join(", ")
+                    .replacen(", custom, any", ", custom or any", 1)
             ),
         )
     })
@@ -204,7 +206,11 @@ fn rule_terms(input: &ClauseInput) -> Result<(Rule, Option<f64>, Option<f64>)> {
             let a = input.allowance_pct.ok_or_else(|| {
                 AppError::invalid("allowance_pct", "is required for the mean_and_min rule")
             })?;
-            (rule, Some(number("allowance_pct", a, 0.0, 20.0, "%")?), None)
+            (
+                rule,
+                Some(number("allowance_pct", a, 0.0, 20.0, "%")?),
+                None,
+            )
         }
         Rule::QualityIndex => {
             let p = input.min_pwl_pct.ok_or_else(|| {
@@ -311,7 +317,10 @@ fn moisture_judgement_terms(
                     "is required when moisture_judgement is \"pwl\"",
                 )
             })?;
-            Ok((mode, Some(number("moisture_min_pwl_pct", p, 1.0, 100.0, "%")?)))
+            Ok((
+                mode,
+                Some(number("moisture_min_pwl_pct", p, 1.0, 100.0, "%")?),
+            ))
         }
     }
 }

@@ -275,8 +275,7 @@ async fn supersede_in(
     record: &db::lab_tests::LabTest,
     input: &LabTestInput,
 ) -> Result<()> {
-    if !db::lab_tests::supersede(tx, old, input.supersede_reason.trim(), &record.created_at)
-        .await?
+    if !db::lab_tests::supersede(tx, old, input.supersede_reason.trim(), &record.created_at).await?
     {
         return Err(AppError::conflict(
             "supersedes_lab_test_id",
@@ -306,8 +305,10 @@ async fn audit_supersede(
             entity_id: Some(old),
             project_id: Some(project_id),
             before: Some(json!({"status": "active"})),
-            after: Some(json!({"status": "superseded", "replaced_by": new.id, "lots_moved": 0,
-                               "reason": input.supersede_reason.trim()})),
+            after: Some(
+                json!({"status": "superseded", "replaced_by": new.id, "lots_moved": 0,
+                               "reason": input.supersede_reason.trim()}),
+            ),
             origin: &actor.origin,
         },
         &new.created_at,
@@ -339,4 +340,3 @@ async fn check_superseding_curve(
     }
     Ok(())
 }
-

@@ -138,7 +138,10 @@ pub async fn record(
     let effort = LabEffort::parse_code(input.effort.trim()).ok_or_else(|| {
         AppError::invalid(
             "effort",
-            format!("unknown effort '{}'; give a lab test's effort code", input.effort.trim()),
+            format!(
+                "unknown effort '{}'; give a lab test's effort code",
+                input.effort.trim()
+            ),
         )
     })?;
     let fam = family(pool, source_id, &effort).await?;

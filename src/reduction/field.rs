@@ -514,7 +514,11 @@ mod tests {
         }
     }
 
-    fn balloon(hole_volume_cm3: f64, mass_wet_soil_g: f64, water_content_pct: f64) -> FieldReadings {
+    fn balloon(
+        hole_volume_cm3: f64,
+        mass_wet_soil_g: f64,
+        water_content_pct: f64,
+    ) -> FieldReadings {
         FieldReadings::Balloon {
             hole_volume_cm3,
             mass_wet_soil_g,
@@ -543,16 +547,31 @@ mod tests {
     fn nuclear_errors_name_their_field() {
         let m = "moisture_density_kg_m3";
         assert_refused_at(vec![
-            (nuclear_at(f64::NAN, Some(200.0), None, None, None), "wet_density_kg_m3"),
-            (nuclear_at(4200.0, Some(200.0), None, None, None), "wet_density_kg_m3"),
+            (
+                nuclear_at(f64::NAN, Some(200.0), None, None, None),
+                "wet_density_kg_m3",
+            ),
+            (
+                nuclear_at(4200.0, Some(200.0), None, None, None),
+                "wet_density_kg_m3",
+            ),
             (nuclear_at(2100.0, Some(-1.0), None, None, None), m),
             (nuclear_at(2100.0, Some(2100.0), None, None, None), m),
             (nuclear_at(2100.0, Some(f64::NAN), None, None, None), m),
             (nuclear_at(2100.0, Some(1700.0), None, None, None), m),
-            (nuclear_at(2100.0, None, Some(140.0), None, None), "water_content_pct"),
-            (nuclear_at(2100.0, None, None, Some(-2.0), None), "oven_water_content_pct"),
+            (
+                nuclear_at(2100.0, None, Some(140.0), None, None),
+                "water_content_pct",
+            ),
+            (
+                nuclear_at(2100.0, None, None, Some(-2.0), None),
+                "oven_water_content_pct",
+            ),
             (nuclear_at(2100.0, None, None, None, None), m),
-            (nuclear_at(2100.0, Some(200.0), None, None, Some(900.0)), "probe_depth_mm"),
+            (
+                nuclear_at(2100.0, Some(200.0), None, None, Some(900.0)),
+                "probe_depth_mm",
+            ),
         ]);
         let e = reduce_field(&nuclear_at(2100.0, None, None, None, None)).unwrap_err();
         assert!(
@@ -570,7 +589,10 @@ mod tests {
             (sand_cone_with(&|v| v[2] = 3100.0), "sand_density_kg_m3"),
             (sand_cone_with(&|v| v[3] = -5.0), "mass_wet_soil_g"),
             (sand_cone_with(&|v| v[3] = 59_000.0), "mass_wet_soil_g"),
-            (sand_cone_with(&|v| v[4] = f64::INFINITY), "water_content_pct"),
+            (
+                sand_cone_with(&|v| v[4] = f64::INFINITY),
+                "water_content_pct",
+            ),
         ]);
         let e = reduce_field(&sand_cone_with(&|v| v[2] = 3100.0)).unwrap_err();
         assert_eq!(

@@ -93,7 +93,10 @@ impl ExportFilter {
             || self.date_from.as_ref().is_some_and(|d| day < *d)
             || self.date_to.as_ref().is_some_and(|d| day > *d)
             || self.method.as_ref().is_some_and(|m| t.method.code() != m)
-            || self.verdict.as_ref().is_some_and(|v| line.result().code() != v))
+            || self
+                .verdict
+                .as_ref()
+                .is_some_and(|v| line.result().code() != v))
     }
 
     /// True when a lot passes the filters (chainage overlap, layer, state as shown).

@@ -15,11 +15,11 @@ use super::codes;
 use super::doc::Refusals;
 
 use crate::app::AppState;
+use crate::domain::Rule;
 use crate::error::{AppError, Result};
 use crate::http::caller::Caller;
 use crate::http::extract::ApiJson;
 use crate::ledger::validate::quantity;
-use crate::domain::Rule;
 use crate::reduction::acceptance::{AcceptanceRule, evaluate_values};
 use crate::reduction::curve::{CurvePoint, fit_curve};
 use crate::reduction::field::{FieldReadings, reduce_field};
@@ -222,7 +222,7 @@ async fn oversize(
 #[schema(example = json!({"rule": "mean_and_min", "values": [96.0, 97.5, 98.0], "lower_limit": 95.0, "allowance": 2.0}))]
 struct AcceptanceBody {
     #[schema(value_type = codes::Rule)]
-    rule: crate::domain::Rule,
+    rule: String,
     /// Relative compaction values, percent.
     #[schema(value_type = Vec<f64>)]
     values: Vec<f64>,
@@ -241,7 +241,16 @@ async fn acceptance(
     _caller: Caller,
     ApiJson(b): ApiJson<AcceptanceBody>,
 ) -> Result<Json<AcceptanceAnswer>> {
-    let rule = match b.rule {
+    let rule = b.rule.parse::<Rule>().map_err(|_| {
+        AppError::invalid(
+            "rule",
+            format!(
+                "unknown rule '{}'; use every_test, mean_and_min or quality_index",
+                b.rule
+            ),
+        )
+    })?;
+    let rule = match rule {
         Rule::EveryTest => AcceptanceRule::EveryTest,
         Rule::MeanAndMin => AcceptanceRule::MeanAndMin {
             allowance_pct: b.allowance.ok_or_else(|| {

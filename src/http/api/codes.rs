@@ -5,18 +5,14 @@
 //! `#[schema(value_type = …)]` and `#[param(value_type = …)]`, and as the field types of the
 //! schema-only bodies of `bodies.rs` (hence `Deserialize`, which nothing calls).
 
-use utoipa::openapi::schema::{ObjectBuilder, Schema, Type};
 use utoipa::openapi::RefOr;
+use utoipa::openapi::schema::{ObjectBuilder, Schema, Type};
 
 use crate::reduction::lab::EffortPreset;
 
 /// Joins a doc comment's lines into one description.
 fn description(lines: &[&str]) -> String {
-    lines
-        .iter()
-        .map(|l| l.trim())
-        .collect::<Vec<_>>()
-        .join(" ")
+    lines.iter().map(|l| l.trim()).collect::<Vec<_>>().join(" ")
 }
 
 /// A string schema listing `codes`, described by `lines`.
@@ -219,7 +215,10 @@ mod tests {
             serde_json::from_value::<crate::reduction::field::MoistureSource>(v).expect(&code);
         }
         for code in values::<ClauseEffort>() {
-            assert!(crate::domain::ClauseEffort::parse_code(&code).is_some(), "{code}");
+            assert!(
+                crate::domain::ClauseEffort::parse_code(&code).is_some(),
+                "{code}"
+            );
         }
         // Ten presets (reduction::lab::EffortPreset), then custom and any.
         assert_eq!(values::<ClauseEffort>().len(), 12);

@@ -10,13 +10,13 @@ use crate::app::AppState;
 use crate::auth::Action;
 use crate::charts::{CurveChartInput, FieldMark, Series, curve_chart};
 use crate::db;
+use crate::domain::LabEffort;
 use crate::error::AppError;
 use crate::http::caller::{Caller, Scope, require};
 use crate::ledger::setup::{LabPointInput, reduce_lab_point};
 use crate::present::Units;
 use crate::reduction::SpecificGravity;
 use crate::reduction::curve::fit_curve;
-use crate::domain::LabEffort;
 use crate::reduction::voids::{degree_of_saturation_pct, saturation_line, zero_air_voids_line};
 
 /// Routes of this module.

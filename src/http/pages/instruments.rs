@@ -56,7 +56,10 @@ async fn list(State(s): State<AppState>, _caller: Caller) -> PageResult {
         .map(|i| {
             let cal = records
                 .iter()
-                .filter(|r| r.instrument_id == i.id && r.kind == crate::ledger::instruments::RecordKind::Calibration)
+                .filter(|r| {
+                    r.instrument_id == i.id
+                        && r.kind == crate::ledger::instruments::RecordKind::Calibration
+                })
                 .max_by(|a, b| a.done_on.cmp(&b.done_on));
             Row {
                 id: i.id,

@@ -251,10 +251,12 @@ pub fn apply_offset(
     r.water_content_pct = corrected.water_content.pct();
     r.dry_density_kg_m3 = corrected.dry_density.kg_m3();
     r.density_offset_kg_m3 = Some(o.density_offset_kg_m3);
-    r.moisture_offset_pct = Some(if corrected.moisture_source == crate::reduction::field::MoistureSource::Oven {
-        0.0
-    } else {
-        o.moisture_offset_pct
-    });
+    r.moisture_offset_pct = Some(
+        if corrected.moisture_source == crate::reduction::field::MoistureSource::Oven {
+            0.0
+        } else {
+            o.moisture_offset_pct
+        },
+    );
     Ok(())
 }

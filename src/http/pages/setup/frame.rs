@@ -5,19 +5,19 @@ use askama::Template;
 use axum::Router;
 use axum::body::Bytes;
 use axum::extract::State;
-use serde::de::DeserializeOwned;
 use axum::routing::get;
+use serde::de::DeserializeOwned;
 
 use super::form::{Field, Kind, Values, decode};
 use super::summary::{Terms, clause_words};
 use super::{Context, FormSpec, ManageSetup, wants_preview};
 use crate::app::AppState;
 use crate::db;
+use crate::domain::ClauseEffort;
 use crate::domain::{Approval, CurveStatus};
 use crate::http::pages::{PageResult, see_other};
 use crate::ledger::moulds::{self, MouldInput};
 use crate::ledger::setup::{self, ClauseInput, LayerInput, LotInput, SourceInput};
-use crate::domain::ClauseEffort;
 
 /// Routes of this module.
 pub fn router() -> Router<AppState> {
@@ -416,8 +416,14 @@ async fn source_form(ManageSetup(ctx): ManageSetup) -> PageResult {
     source_spec(&ctx).blank(&Values::new())
 }
 
-async fn source_post(State(s): State<AppState>, ManageSetup(ctx): ManageSetup, body: Bytes) -> PageResult {
-    let save = async |input: SourceInput| setup::create_source(&s.db, ctx.project.id, &input, &ctx.actor).await;
+async fn source_post(
+    State(s): State<AppState>,
+    ManageSetup(ctx): ManageSetup,
+    body: Bytes,
+) -> PageResult {
+    let save = async |input: SourceInput| {
+        setup::create_source(&s.db, ctx.project.id, &input, &ctx.actor).await
+    };
     save_to_hub(&ctx, &source_spec(&ctx), &body, save).await
 }
 
@@ -441,8 +447,14 @@ async fn mould_form(ManageSetup(ctx): ManageSetup) -> PageResult {
     mould_spec(&ctx).blank(&Values::new())
 }
 
-async fn mould_post(State(s): State<AppState>, ManageSetup(ctx): ManageSetup, body: Bytes) -> PageResult {
-    let save = async |input: MouldInput| moulds::create_mould(&s.db, ctx.project.id, &input, &ctx.actor).await;
+async fn mould_post(
+    State(s): State<AppState>,
+    ManageSetup(ctx): ManageSetup,
+    body: Bytes,
+) -> PageResult {
+    let save = async |input: MouldInput| {
+        moulds::create_mould(&s.db, ctx.project.id, &input, &ctx.actor).await
+    };
     save_to_hub(&ctx, &mould_spec(&ctx), &body, save).await
 }
 
@@ -470,8 +482,14 @@ async fn layer_form(ManageSetup(ctx): ManageSetup) -> PageResult {
     layer_spec(&ctx).blank(&Values::new())
 }
 
-async fn layer_post(State(s): State<AppState>, ManageSetup(ctx): ManageSetup, body: Bytes) -> PageResult {
-    let save = async |input: LayerInput| setup::create_layer(&s.db, ctx.project.id, &input, &ctx.actor).await;
+async fn layer_post(
+    State(s): State<AppState>,
+    ManageSetup(ctx): ManageSetup,
+    body: Bytes,
+) -> PageResult {
+    let save = async |input: LayerInput| {
+        setup::create_layer(&s.db, ctx.project.id, &input, &ctx.actor).await
+    };
     save_to_hub(&ctx, &layer_spec(&ctx), &body, save).await
 }
 

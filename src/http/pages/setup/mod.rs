@@ -19,8 +19,8 @@ mod tokens;
 
 use askama::Template;
 use axum::Router;
-use axum::http::StatusCode;
 use axum::extract::FromRequestParts;
+use axum::http::StatusCode;
 use axum::response::{IntoResponse, Response};
 use serde::de::DeserializeOwned;
 

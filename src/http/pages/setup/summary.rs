@@ -133,8 +133,10 @@ pub fn clause_words(t: &Terms) -> Vec<String> {
     let mut words = vec![
         format!(
             "Judged against {}.",
-            t.effort
-                .map_or("a lab curve of an effort liftledger does not know".into(), |e| e.words())
+            t.effort.map_or(
+                "a lab curve of an effort liftledger does not know".into(),
+                |e| e.words()
+            )
         ),
         rule_words(t),
         moisture_words(t),
