@@ -182,7 +182,7 @@ pub async fn insert_record(
          VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10) RETURNING {RECORD}"
     )))
     .bind(r.instrument_id)
-    .bind(&r.kind)
+    .bind(r.kind)
     .bind(&r.done_on)
     .bind(&r.due_on)
     .bind(&r.reference)

@@ -67,9 +67,9 @@ macro_rules! stored_code {
     };
 }
 
-/// sqlx `Type`/`Encode`/`Decode` for the `Any` driver of a type with `code()` and
-/// `FromStr` (stored as its code; an unknown code fails the decode, and sqlx names the
-/// column beside it).
+/// sqlx `Type`/`Encode`/`Decode` for the `Any` driver of a type with `code()` (a `&str` or
+/// a `String`) and `FromStr` (stored as its code; an unknown code fails the decode, and sqlx
+/// names the column beside it).
 macro_rules! stored_as_text {
     ($ty:ty) => {
         impl sqlx::Type<sqlx::Any> for $ty {
@@ -83,7 +83,7 @@ macro_rules! stored_as_text {
                 &self,
                 buf: &mut <sqlx::Any as sqlx::Database>::ArgumentBuffer,
             ) -> Result<sqlx::encode::IsNull, sqlx::error::BoxDynError> {
-                <&str as sqlx::Encode<'q, sqlx::Any>>::encode(self.code(), buf)
+                <String as sqlx::Encode<'q, sqlx::Any>>::encode(String::from(self.code()), buf)
             }
         }
 
@@ -100,96 +100,45 @@ macro_rules! stored_as_text {
 
 pub(crate) use {stored_as_text, stored_code};
 
-impl std::str::FromStr for crate::auth::Role {
-    type Err = UnknownCode;
-    fn from_str(code: &str) -> Result<Self, Self::Err> {
-        Self::parse_code(code).ok_or_else(|| UnknownCode {
-            kind: "role",
-            code: code.to_string(),
-        })
-    }
+/// `FromStr` (by the type's own `parse_code`), `Display` and the database encoding of an
+/// enum defined where this crate's other layers need it (auth, reduction, ledger) with its
+/// own `code()` and `parse_code()`.
+macro_rules! code_of_elsewhere {
+    ($ty:ty, $kind:literal) => {
+        impl std::str::FromStr for $ty {
+            type Err = UnknownCode;
+            fn from_str(code: &str) -> Result<Self, Self::Err> {
+                Self::parse_code(code).ok_or_else(|| UnknownCode {
+                    kind: $kind,
+                    code: code.to_string(),
+                })
+            }
+        }
+
+        impl std::fmt::Display for $ty {
+            fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+                f.write_str(self.code())
+            }
+        }
+
+        stored_as_text!($ty);
+    };
 }
 
-impl std::fmt::Display for crate::auth::Role {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.write_str(self.code())
-    }
-}
-
-stored_as_text!(crate::auth::Role);
-
-impl std::str::FromStr for crate::reduction::instruments::InstrumentCheck {
-    type Err = UnknownCode;
-    fn from_str(code: &str) -> Result<Self, Self::Err> {
-        use crate::reduction::instruments::InstrumentCheck as C;
-        C::ALL
-            .into_iter()
-            .find(|c| c.code() == code)
-            .ok_or_else(|| UnknownCode {
-                kind: "instrument check",
-                code: code.to_string(),
-            })
-    }
-}
-
-stored_as_text!(crate::reduction::instruments::InstrumentCheck);
-
-impl std::str::FromStr for crate::reduction::instruments::InstrumentKind {
-    type Err = UnknownCode;
-    fn from_str(code: &str) -> Result<Self, Self::Err> {
-        Self::parse_code(code).ok_or_else(|| UnknownCode {
-            kind: "instrument kind",
-            code: code.to_string(),
-        })
-    }
-}
-
-impl std::fmt::Display for crate::reduction::instruments::InstrumentKind {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.write_str(self.code())
-    }
-}
-
-stored_as_text!(crate::reduction::instruments::InstrumentKind);
-
-impl std::str::FromStr for crate::reduction::rounding::RoundingMethod {
-    type Err = UnknownCode;
-    fn from_str(code: &str) -> Result<Self, Self::Err> {
-        Self::parse_code(code).ok_or_else(|| UnknownCode {
-            kind: "rounding",
-            code: code.to_string(),
-        })
-    }
-}
-
-impl std::fmt::Display for crate::reduction::rounding::RoundingMethod {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.write_str(self.code())
-    }
-}
-
-stored_as_text!(crate::reduction::rounding::RoundingMethod);
-
-impl std::str::FromStr for crate::ledger::instruments::RecordKind {
-    type Err = UnknownCode;
-    fn from_str(code: &str) -> Result<Self, Self::Err> {
-        Self::ALL
-            .into_iter()
-            .find(|k| k.code() == code)
-            .ok_or_else(|| UnknownCode {
-                kind: "instrument record kind",
-                code: code.to_string(),
-            })
-    }
-}
-
-impl std::fmt::Display for crate::ledger::instruments::RecordKind {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.write_str(self.code())
-    }
-}
-
-stored_as_text!(crate::ledger::instruments::RecordKind);
+code_of_elsewhere!(crate::auth::Role, "role");
+code_of_elsewhere!(
+    crate::reduction::instruments::InstrumentCheck,
+    "instrument check"
+);
+code_of_elsewhere!(
+    crate::reduction::instruments::InstrumentKind,
+    "instrument kind"
+);
+code_of_elsewhere!(crate::reduction::rounding::RoundingMethod, "rounding");
+code_of_elsewhere!(
+    crate::ledger::instruments::RecordKind,
+    "instrument record kind"
+);
 
 /// How a clause writes its moisture window (a clause's `moisture_basis` column).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Default, Serialize, Deserialize)]

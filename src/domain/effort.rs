@@ -118,7 +118,7 @@ impl LabEffort {
 }
 
 /// Text codes both effort types share: `FromStr`, `Display`, serde as the code, and the
-/// database encoding as text (an unknown stored code fails the read).
+/// database encoding as text ([`super::stored_as_text`]: an unknown stored code fails the read).
 macro_rules! effort_text {
     ($ty:ty, $kind:literal) => {
         impl FromStr for $ty {
@@ -150,29 +150,7 @@ macro_rules! effort_text {
             }
         }
 
-        impl sqlx::Type<sqlx::Any> for $ty {
-            fn type_info() -> sqlx::any::AnyTypeInfo {
-                <str as sqlx::Type<sqlx::Any>>::type_info()
-            }
-        }
-
-        impl<'q> sqlx::Encode<'q, sqlx::Any> for $ty {
-            fn encode_by_ref(
-                &self,
-                buf: &mut <sqlx::Any as sqlx::Database>::ArgumentBuffer,
-            ) -> Result<sqlx::encode::IsNull, sqlx::error::BoxDynError> {
-                <String as sqlx::Encode<'q, sqlx::Any>>::encode(self.code().to_string(), buf)
-            }
-        }
-
-        impl<'r> sqlx::Decode<'r, sqlx::Any> for $ty {
-            fn decode(
-                value: <sqlx::Any as sqlx::Database>::ValueRef<'r>,
-            ) -> Result<Self, sqlx::error::BoxDynError> {
-                let code = <&str as sqlx::Decode<'r, sqlx::Any>>::decode(value)?;
-                Ok(code.parse::<$ty>()?)
-            }
-        }
+        super::stored_as_text!($ty);
     };
 }
 

@@ -44,6 +44,10 @@ impl InstrumentCheck {
     }
     /// Every value (a stored code is read back in `crate::domain`, refusing unknown codes).
     pub const ALL: [InstrumentCheck; 3] = [Self::NotRecorded, Self::InCheck, Self::OutOfCheck];
+    /// Reads a code written by [`InstrumentCheck::code`].
+    pub fn parse_code(s: &str) -> Option<Self> {
+        Self::ALL.into_iter().find(|c| c.code() == s)
+    }
     /// Words for people.
     pub fn label(self) -> &'static str {
         match self {

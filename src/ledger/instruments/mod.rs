@@ -31,6 +31,11 @@ impl RecordKind {
     /// Every kind of record.
     pub const ALL: [RecordKind; 3] = [Self::Calibration, Self::LeakTest, Self::Licence];
 
+    /// Reads a code written by [`RecordKind::code`].
+    pub fn parse_code(s: &str) -> Option<Self> {
+        Self::ALL.into_iter().find(|k| k.code() == s)
+    }
+
     /// The stored and JSON code.
     pub fn code(self) -> &'static str {
         match self {
