@@ -35,7 +35,7 @@ pub struct Change<'a> {
 
 /// Appends an audit row inside the transaction that makes the change.
 pub async fn record(tx: &mut Tx<'_>, c: &Change<'_>, now: &str) -> sqlx::Result<()> {
-    insert_rows(&mut **tx, &[(c, now)]).await
+    insert_rows(tx, &[(c, now)]).await
 }
 
 /// Rows per multi-row audit INSERT.
