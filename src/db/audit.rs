@@ -2,7 +2,8 @@
 
 use serde::Serialize;
 
-use super::{Pool, Tx};
+use super::marks::{Marks, groups};
+use super::{Conn, Pool, Tx};
 
 /// One audit row.
 #[derive(Debug, Clone, Serialize, sqlx::FromRow)]
@@ -34,23 +35,42 @@ pub struct Change<'a> {
 
 /// Appends an audit row inside the transaction that makes the change.
 pub async fn record(tx: &mut Tx<'_>, c: &Change<'_>, now: &str) -> sqlx::Result<()> {
-    sqlx::query(
-        "INSERT INTO audit_log (at, actor, action, entity, entity_id, project_id, before_json, after_json, origin)
-         VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9)",
-    )
-    .bind(now)
-    .bind(c.actor)
-    .bind(c.action)
-    .bind(c.entity)
-    .bind(c.entity_id)
-    .bind(c.project_id)
-    .bind(c.before.as_ref().map(|v| v.to_string()))
-    .bind(c.after.as_ref().map(|v| v.to_string()))
-    .bind(c.origin)
-    .execute(&mut **tx)
-    .await?;
+    insert_rows(tx, &[(c, now)]).await
+}
+
+/// Rows per multi-row audit INSERT.
+pub(super) const INSERT_ROWS: usize = 128;
+
+/// Appends changes, each with its time, [`INSERT_ROWS`] to a statement, inside the
+/// transaction that makes them: the one insert of audit rows, single or in bulk.
+pub async fn insert_rows(conn: &mut Conn, rows: &[(&Change<'_>, &str)]) -> sqlx::Result<()> {
+    for part in rows.chunks(INSERT_ROWS) {
+        let values = groups(Marks::of(conn), part.len(), 9);
+        let sql = format!(
+            "INSERT INTO audit_log (at, actor, action, entity, entity_id, project_id, before_json, after_json, origin)
+             VALUES {values}"
+        );
+        let mut q = sqlx::query(sqlx::AssertSqlSafe(sql));
+        for (c, at) in part {
+            q = q
+                .bind(*at)
+                .bind(c.actor)
+                .bind(c.action)
+                .bind(c.entity)
+                .bind(c.entity_id)
+                .bind(c.project_id)
+                .bind(c.before.as_ref().map(|v| v.to_string()))
+                .bind(c.after.as_ref().map(|v| v.to_string()))
+                .bind(c.origin);
+        }
+        q.execute(&mut *conn).await?;
+    }
     Ok(())
 }
+
+/// Every column of an audit row, in the order of [`AuditEntry`].
+const COLUMNS: &str =
+    "id, at, actor, action, entity, entity_id, project_id, before_json, after_json, origin";
 
 /// The history of one entity, oldest first.
 pub async fn for_entity(
@@ -58,10 +78,10 @@ pub async fn for_entity(
     entity: &str,
     entity_id: i64,
 ) -> sqlx::Result<Vec<AuditEntry>> {
-    sqlx::query_as::<_, AuditEntry>(
-        "SELECT id, at, actor, action, entity, entity_id, project_id, before_json, after_json, origin
-         FROM audit_log WHERE entity = $1 AND entity_id = $2 ORDER BY id",
-    )
+    sqlx::query_as::<_, AuditEntry>(sqlx::AssertSqlSafe(format!(
+        "SELECT {COLUMNS}
+         FROM audit_log WHERE entity = $1 AND entity_id = $2 ORDER BY id"
+    )))
     .bind(entity)
     .bind(entity_id)
     .fetch_all(pool)
@@ -76,11 +96,11 @@ pub async fn import_covering(
     project_id: i64,
     test_id: i64,
 ) -> sqlx::Result<Option<AuditEntry>> {
-    sqlx::query_as::<_, AuditEntry>(
-        "SELECT id, at, actor, action, entity, entity_id, project_id, before_json, after_json, origin
+    sqlx::query_as::<_, AuditEntry>(sqlx::AssertSqlSafe(format!(
+        "SELECT {COLUMNS}
          FROM audit_log WHERE entity = 'field_test_import' AND project_id = $1 AND entity_id <= $2
-         ORDER BY entity_id DESC LIMIT 1",
-    )
+         ORDER BY entity_id DESC LIMIT 1"
+    )))
     .bind(project_id)
     .bind(test_id)
     .fetch_optional(pool)
@@ -89,10 +109,10 @@ pub async fn import_covering(
 
 /// The newest changes in a project.
 pub async fn recent(pool: &Pool, project_id: i64, limit: i64) -> sqlx::Result<Vec<AuditEntry>> {
-    sqlx::query_as::<_, AuditEntry>(
-        "SELECT id, at, actor, action, entity, entity_id, project_id, before_json, after_json, origin
-         FROM audit_log WHERE project_id = $1 ORDER BY id DESC LIMIT $2",
-    )
+    sqlx::query_as::<_, AuditEntry>(sqlx::AssertSqlSafe(format!(
+        "SELECT {COLUMNS}
+         FROM audit_log WHERE project_id = $1 ORDER BY id DESC LIMIT $2"
+    )))
     .bind(project_id)
     .bind(limit)
     .fetch_all(pool)
@@ -135,10 +155,10 @@ pub fn for_project(
     pool: &Pool,
     project_id: i64,
 ) -> futures_util::stream::BoxStream<'_, sqlx::Result<AuditEntry>> {
-    sqlx::query_as::<_, AuditEntry>(
-        "SELECT id, at, actor, action, entity, entity_id, project_id, before_json, after_json, origin
-         FROM audit_log WHERE project_id = $1 ORDER BY id",
-    )
+    sqlx::query_as::<_, AuditEntry>(sqlx::AssertSqlSafe(format!(
+        "SELECT {COLUMNS}
+         FROM audit_log WHERE project_id = $1 ORDER BY id"
+    )))
     .bind(project_id)
     .fetch(pool)
 }

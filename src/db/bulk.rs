@@ -8,14 +8,12 @@
 use super::Conn as SqliteConnection;
 use serde::Serialize;
 
-use super::Pool;
-use super::Tx;
-use super::field_tests::FieldTest;
+use super::marks::{Marks, groups, marks, padded_parts};
+use super::{Pool, Tx};
+use super::{audit, field_tests, field_tests::FieldTest};
 
 /// Columns of `field_tests` in the order of [`FieldTest`].
 const TEST_COLUMNS: &str = super::field_tests::COLUMNS;
-
-const INSERT_WIDTH: usize = 32;
 
 /// Rows per multi-row INSERT: 64 × 32 parameters stays far below SQLite's 32,766 limit.
 pub const INSERT_ROWS: usize = 64;
@@ -56,10 +54,6 @@ pub async fn advance_test_ids(tx: &mut Tx<'_>) -> sqlx::Result<()> {
     Ok(())
 }
 
-/// Placeholder counts for number look-ups; a query is padded up to one of these so that
-/// few distinct statements are prepared and cached.
-const LOOKUP_SIZES: [usize; 5] = [8, 32, 128, 512, 2048];
-
 /// Tests of a project whose numbers are among `numbers` (any order; missing numbers are absent).
 pub async fn tests_by_numbers(
     conn: &mut SqliteConnection,
@@ -67,28 +61,16 @@ pub async fn tests_by_numbers(
     numbers: &[&str],
 ) -> sqlx::Result<Vec<FieldTest>> {
     let mut out = Vec::new();
-    let max = LOOKUP_SIZES[LOOKUP_SIZES.len() - 1];
-    for part in numbers.chunks(max) {
-        let Some(last) = part.last() else {
-            continue;
-        };
-        let size = LOOKUP_SIZES
-            .iter()
-            .copied()
-            .find(|s| *s >= part.len())
-            .unwrap_or(max);
+    for part in padded_parts(numbers) {
         let style = Marks::of(conn);
-        let marks = marks(style, 2, size);
+        let marks = marks(style, 2, part.len());
         let project = if style == Marks::Numbered { "$1" } else { "?" };
         let sql = format!(
             "SELECT {TEST_COLUMNS} FROM field_tests WHERE project_id = {project} AND number IN ({marks})"
         );
         let mut q = sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(sql)).bind(project_id);
         for n in part {
-            q = q.bind(*n);
-        }
-        for _ in part.len()..size {
-            q = q.bind(*last);
+            q = q.bind(n);
         }
         out.extend(q.fetch_all(&mut *conn).await?);
     }
@@ -112,81 +94,19 @@ pub async fn live_retests_of(
     ids: &[i64],
 ) -> sqlx::Result<Vec<(i64, String)>> {
     let mut out = Vec::new();
-    let max = LOOKUP_SIZES[LOOKUP_SIZES.len() - 1];
-    for part in ids.chunks(max) {
-        let Some(last) = part.last() else {
-            continue;
-        };
-        let size = LOOKUP_SIZES
-            .iter()
-            .copied()
-            .find(|s| *s >= part.len())
-            .unwrap_or(max);
-        let marks = marks(Marks::of(conn), 1, size);
+    for part in padded_parts(ids) {
+        let marks = marks(Marks::of(conn), 1, part.len());
         let sql = format!(
             "SELECT retest_of, number FROM field_tests
              WHERE void_reason IS NULL AND retest_of IN ({marks}) ORDER BY id DESC"
         );
         let mut q = sqlx::query_as::<_, (i64, String)>(sqlx::AssertSqlSafe(sql));
         for id in part {
-            q = q.bind(*id);
-        }
-        for _ in part.len()..size {
-            q = q.bind(*last);
+            q = q.bind(id);
         }
         out.extend(q.fetch_all(&mut *conn).await?);
     }
     Ok(out)
-}
-
-fn insert_sql(style: Marks, rows: usize) -> String {
-    let values = groups(style, rows, INSERT_WIDTH);
-    format!("INSERT INTO field_tests ({TEST_COLUMNS}) VALUES {values}")
-}
-
-/// How a connection's engine wants long parameter lists written.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-enum Marks {
-    /// `$1, $2, …`: PostgreSQL's only form.
-    Numbered,
-    /// `?, ?, …`: SQLite binds these by position. It also reads `$N`, but as names,
-    /// and finding each name walks the statement's list of names: a 1,728-parameter
-    /// insert then spends most of its time binding (measured: a fifth of the rows/s).
-    Positional,
-}
-
-impl Marks {
-    fn of(conn: &SqliteConnection) -> Self {
-        if conn.backend_name() == "PostgreSQL" {
-            Marks::Numbered
-        } else {
-            Marks::Positional
-        }
-    }
-}
-
-/// `n` placeholders from parameter `from` on, in the engine's form.
-fn marks(style: Marks, from: usize, n: usize) -> String {
-    match style {
-        Marks::Numbered => placeholders(from, n),
-        Marks::Positional => vec!["?"; n].join(", "),
-    }
-}
-
-/// `rows` groups of `width` placeholders, in the engine's form.
-fn groups(style: Marks, rows: usize, width: usize) -> String {
-    (0..rows)
-        .map(|r| format!("({})", marks(style, 1 + r * width, width)))
-        .collect::<Vec<_>>()
-        .join(", ")
-}
-
-/// `$from, $from+1, …` — `n` numbered placeholders (the form both engines read).
-fn placeholders(from: usize, n: usize) -> String {
-    (from..from + n)
-        .map(|i| format!("${i}"))
-        .collect::<Vec<_>>()
-        .join(", ")
 }
 
 /// Inserts tests with the ids they carry, [`INSERT_ROWS`] to a statement.
@@ -198,89 +118,79 @@ pub async fn insert_field_tests(
     rows: &[FieldTest],
 ) -> sqlx::Result<()> {
     for part in rows.chunks(INSERT_ROWS) {
-        let sql = insert_sql(Marks::of(conn), part.len());
+        let values = groups(Marks::of(conn), part.len(), field_tests::WIDTH);
+        let sql = format!("INSERT INTO field_tests ({TEST_COLUMNS}) VALUES {values}");
         let mut q = sqlx::query(sqlx::AssertSqlSafe(sql));
         for t in part {
-            q = q
-                .bind(t.id)
-                .bind(t.project_id)
-                .bind(t.lot_id)
-                .bind(&t.number)
-                .bind(&t.tested_at)
-                .bind(&t.technician)
-                .bind(t.method)
-                .bind(&t.instrument_serial)
-                .bind(t.chainage_m)
-                .bind(t.offset_m)
-                .bind(t.depth_mm)
-                .bind(t.coarse_pct)
-                .bind(t.coarse_water_content_pct)
-                .bind(t.easting)
-                .bind(t.northing)
-                .bind(&t.readings_json)
-                .bind(t.wet_density_kg_m3)
-                .bind(t.water_content_pct)
-                .bind(t.dry_density_kg_m3)
-                .bind(&t.moisture_source)
-                .bind(&t.reduction_version)
-                .bind(t.retest_of)
-                .bind(&t.void_reason)
-                .bind(&t.voided_by)
-                .bind(&t.voided_at)
-                .bind(&t.created_at)
-                .bind(&t.created_by)
-                .bind(t.instrument_check)
-                .bind(&t.instrument_note)
-                .bind(t.operator_id)
-                .bind(t.density_offset_kg_m3)
-                .bind(t.moisture_offset_pct);
+            q = field_tests::bind_after_id!(q.bind(t.id), t);
         }
         q.execute(&mut *conn).await?;
     }
     Ok(())
 }
 
-/// One audit row to append in bulk (the columns `audit::record` writes).
-#[derive(Debug, Clone)]
-pub struct AuditRow {
-    pub at: String,
-    pub actor: String,
-    pub action: String,
-    pub entity: String,
-    pub entity_id: Option<i64>,
-    pub project_id: Option<i64>,
-    pub before_json: Option<String>,
-    pub after_json: Option<String>,
-    pub origin: String,
+/// New tests with the ids their import gave them, and their audit rows, queued for
+/// multi-row inserts through the import's transaction.
+///
+/// On PostgreSQL the revision and test-count triggers run once per statement: a row a
+/// statement would update the project's row once per test (see migration 0003).
+#[derive(Default)]
+pub struct Batch<'a> {
+    tests: Vec<FieldTest>,
+    audits: Vec<(audit::Change<'a>, String)>,
 }
 
-/// Rows per multi-row audit INSERT.
-const AUDIT_ROWS: usize = 128;
-
-/// Appends many audit rows inside the transaction that makes the changes.
-pub async fn insert_audit_rows(conn: &mut SqliteConnection, rows: &[AuditRow]) -> sqlx::Result<()> {
-    for part in rows.chunks(AUDIT_ROWS) {
-        let values = groups(Marks::of(conn), part.len(), 9);
-        let sql = format!(
-            "INSERT INTO audit_log (at, actor, action, entity, entity_id, project_id, before_json, after_json, origin)
-             VALUES {values}"
-        );
-        let mut q = sqlx::query(sqlx::AssertSqlSafe(sql));
-        for a in part {
-            q = q
-                .bind(&a.at)
-                .bind(&a.actor)
-                .bind(&a.action)
-                .bind(&a.entity)
-                .bind(a.entity_id)
-                .bind(a.project_id)
-                .bind(&a.before_json)
-                .bind(&a.after_json)
-                .bind(&a.origin);
+impl<'a> Batch<'a> {
+    /// Queues a test; inserts the queue once it fills a statement.
+    pub async fn push_test(
+        &mut self,
+        conn: &mut SqliteConnection,
+        t: FieldTest,
+    ) -> sqlx::Result<()> {
+        self.tests.push(t);
+        if self.tests.len() >= INSERT_ROWS {
+            self.flush_tests(conn).await?;
         }
-        q.execute(&mut *conn).await?;
+        Ok(())
     }
-    Ok(())
+
+    /// Queues an audit row made at `at`; inserts the queue once it fills a statement.
+    pub async fn push_audit(
+        &mut self,
+        conn: &mut SqliteConnection,
+        change: audit::Change<'a>,
+        at: &str,
+    ) -> sqlx::Result<()> {
+        self.audits.push((change, at.to_string()));
+        if self.audits.len() >= audit::INSERT_ROWS {
+            self.flush_audits(conn).await?;
+        }
+        Ok(())
+    }
+
+    /// Inserts everything queued.
+    pub async fn flush(&mut self, conn: &mut SqliteConnection) -> sqlx::Result<()> {
+        self.flush_tests(conn).await?;
+        self.flush_audits(conn).await
+    }
+
+    async fn flush_tests(&mut self, conn: &mut SqliteConnection) -> sqlx::Result<()> {
+        if !self.tests.is_empty() {
+            insert_field_tests(conn, &self.tests).await?;
+            self.tests.clear();
+        }
+        Ok(())
+    }
+
+    async fn flush_audits(&mut self, conn: &mut SqliteConnection) -> sqlx::Result<()> {
+        if !self.audits.is_empty() {
+            let rows: Vec<(&audit::Change<'_>, &str)> =
+                self.audits.iter().map(|(c, at)| (c, at.as_str())).collect();
+            audit::insert_rows(conn, &rows).await?;
+            self.audits.clear();
+        }
+        Ok(())
+    }
 }
 
 /// The columns a lot verdict needs and nothing more (other texts left empty; the method,
@@ -302,6 +212,9 @@ pub struct SavedMapping {
     pub created_at: String,
     pub created_by: String,
 }
+
+/// Every column of a saved mapping, in the order of [`SavedMapping`].
+const MAPPING_COLUMNS: &str = "id, project_id, name, mapping_json, created_at, created_by";
 
 /// Saves a new named mapping; fails with a unique violation when the name is taken.
 pub async fn insert_mapping(
@@ -332,15 +245,13 @@ pub async fn update_mapping(
     name: &str,
     mapping_json: &str,
 ) -> sqlx::Result<bool> {
-    let done = sqlx::query(
+    let q = sqlx::query(
         "UPDATE import_mappings SET mapping_json = $1 WHERE project_id = $2 AND name = $3",
     )
     .bind(mapping_json)
     .bind(project_id)
-    .bind(name)
-    .execute(&mut **tx)
-    .await?;
-    Ok(done.rows_affected() == 1)
+    .bind(name);
+    super::changed_one(tx, q).await
 }
 
 /// One saved mapping by name.
@@ -349,10 +260,10 @@ pub async fn get_mapping(
     project_id: i64,
     name: &str,
 ) -> sqlx::Result<Option<SavedMapping>> {
-    sqlx::query_as::<_, SavedMapping>(
-        "SELECT id, project_id, name, mapping_json, created_at, created_by
-         FROM import_mappings WHERE project_id = $1 AND name = $2",
-    )
+    sqlx::query_as::<_, SavedMapping>(sqlx::AssertSqlSafe(format!(
+        "SELECT {MAPPING_COLUMNS}
+         FROM import_mappings WHERE project_id = $1 AND name = $2"
+    )))
     .bind(project_id)
     .bind(name)
     .fetch_optional(pool)
@@ -361,10 +272,10 @@ pub async fn get_mapping(
 
 /// Every saved mapping of a project, by name.
 pub async fn list_mappings(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<SavedMapping>> {
-    sqlx::query_as::<_, SavedMapping>(
-        "SELECT id, project_id, name, mapping_json, created_at, created_by
-         FROM import_mappings WHERE project_id = $1 ORDER BY name",
-    )
+    sqlx::query_as::<_, SavedMapping>(sqlx::AssertSqlSafe(format!(
+        "SELECT {MAPPING_COLUMNS}
+         FROM import_mappings WHERE project_id = $1 ORDER BY name"
+    )))
     .bind(project_id)
     .fetch_all(pool)
     .await

@@ -127,11 +127,19 @@ pub async fn insert(tx: &mut Tx<'_>, c: &NewCertificate<'_>) -> sqlx::Result<i64
 
 /// Every revision for a lot, newest first.
 pub async fn for_lot(pool: &Pool, lot_id: i64) -> sqlx::Result<Vec<Certificate>> {
+    revisions_of(pool, lot_id).await
+}
+
+/// Every revision for a lot, newest first, through the pool or a connection.
+async fn revisions_of<'e, E>(on: E, lot_id: i64) -> sqlx::Result<Vec<Certificate>>
+where
+    E: sqlx::Executor<'e, Database = sqlx::Any>,
+{
     sqlx::query_as::<_, Certificate>(sqlx::AssertSqlSafe(format!(
         "SELECT {COLUMNS} FROM certificates WHERE lot_id = $1 ORDER BY revision DESC"
     )))
     .bind(lot_id)
-    .fetch_all(pool)
+    .fetch_all(on)
     .await
 }
 
@@ -176,10 +184,5 @@ pub async fn find(pool: &Pool, code_or_hash: &str) -> sqlx::Result<Option<Certif
 
 /// Every revision for a lot, newest first, read inside the issuing transaction.
 pub async fn for_lot_tx(tx: &mut Tx<'_>, lot_id: i64) -> sqlx::Result<Vec<Certificate>> {
-    sqlx::query_as::<_, Certificate>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM certificates WHERE lot_id = $1 ORDER BY revision DESC"
-    )))
-    .bind(lot_id)
-    .fetch_all(&mut **tx)
-    .await
+    revisions_of(&mut **tx, lot_id).await
 }

@@ -89,49 +89,57 @@ pub struct TestFilter {
     pub offset: i64,
 }
 
+/// Binds a test's columns after `id`, in the order of [`columns_after_id!`], on any sqlx
+/// query: the one bind list of the single insert here and the multi-row insert of `bulk`.
+macro_rules! bind_after_id {
+    ($q:expr, $t:expr) => {
+        $q.bind($t.project_id)
+            .bind($t.lot_id)
+            .bind(&$t.number)
+            .bind(&$t.tested_at)
+            .bind(&$t.technician)
+            .bind($t.method)
+            .bind(&$t.instrument_serial)
+            .bind($t.chainage_m)
+            .bind($t.offset_m)
+            .bind($t.depth_mm)
+            .bind($t.coarse_pct)
+            .bind($t.coarse_water_content_pct)
+            .bind($t.easting)
+            .bind($t.northing)
+            .bind(&$t.readings_json)
+            .bind($t.wet_density_kg_m3)
+            .bind($t.water_content_pct)
+            .bind($t.dry_density_kg_m3)
+            .bind(&$t.moisture_source)
+            .bind(&$t.reduction_version)
+            .bind($t.retest_of)
+            .bind(&$t.void_reason)
+            .bind(&$t.voided_by)
+            .bind(&$t.voided_at)
+            .bind(&$t.created_at)
+            .bind(&$t.created_by)
+            .bind($t.instrument_check)
+            .bind(&$t.instrument_note)
+            .bind($t.operator_id)
+            .bind($t.density_offset_kg_m3)
+            .bind($t.moisture_offset_pct)
+    };
+}
+pub(super) use bind_after_id;
+
+/// Parameters of one whole test row ([`COLUMNS`]).
+pub(super) const WIDTH: usize = 32;
+
 /// Inserts a test (`id` ignored) and returns its id.
 pub async fn insert(tx: &mut Tx<'_>, t: &FieldTest) -> sqlx::Result<i64> {
-    sqlx::query_scalar(
-        concat!(
-            "INSERT INTO field_tests (",
-            columns_after_id!("readings_json"),
-            ") VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18, $19, $20,
+    let q = sqlx::query_scalar(concat!(
+        "INSERT INTO field_tests (",
+        columns_after_id!("readings_json"),
+        ") VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18, $19, $20,
              $21, $22, $23, $24, $25, $26, $27, $28, $29, $30, $31) RETURNING id"
-        ),
-    )
-    .bind(t.project_id)
-    .bind(t.lot_id)
-    .bind(&t.number)
-    .bind(&t.tested_at)
-    .bind(&t.technician)
-    .bind(t.method)
-    .bind(&t.instrument_serial)
-    .bind(t.chainage_m)
-    .bind(t.offset_m)
-    .bind(t.depth_mm)
-    .bind(t.coarse_pct)
-    .bind(t.coarse_water_content_pct)
-    .bind(t.easting)
-    .bind(t.northing)
-    .bind(&t.readings_json)
-    .bind(t.wet_density_kg_m3)
-    .bind(t.water_content_pct)
-    .bind(t.dry_density_kg_m3)
-    .bind(&t.moisture_source)
-    .bind(&t.reduction_version)
-    .bind(t.retest_of)
-    .bind(&t.void_reason)
-    .bind(&t.voided_by)
-    .bind(&t.voided_at)
-    .bind(&t.created_at)
-    .bind(&t.created_by)
-    .bind(t.instrument_check)
-    .bind(&t.instrument_note)
-    .bind(t.operator_id)
-    .bind(t.density_offset_kg_m3)
-    .bind(t.moisture_offset_pct)
-    .fetch_one(&mut **tx)
-    .await
+    ));
+    bind_after_id!(q, t).fetch_one(&mut **tx).await
 }
 
 /// One test by id.
@@ -215,16 +223,14 @@ pub async fn void(
     actor: &str,
     now: &str,
 ) -> sqlx::Result<bool> {
-    let done = sqlx::query(
+    let q = sqlx::query(
         "UPDATE field_tests SET void_reason = $1, voided_by = $2, voided_at = $3 WHERE id = $4 AND void_reason IS NULL",
     )
     .bind(reason)
     .bind(actor)
     .bind(now)
-    .bind(id)
-    .execute(&mut **tx)
-    .await?;
-    Ok(done.rows_affected() == 1)
+    .bind(id);
+    super::changed_one(tx, q).await
 }
 
 /// Counts of tests in a project taken at or after each of the given times.

@@ -12,21 +12,24 @@ pub struct StoredKey {
 
 /// The key as stored, read through the pool (after a lost race, outside the writer).
 pub async fn get(pool: &Pool, key: &str) -> sqlx::Result<Option<StoredKey>> {
-    sqlx::query_as::<_, StoredKey>(
-        "SELECT lot_id, field_test_id, request_sha256 FROM idempotency_keys WHERE idempotency_key = $1",
-    )
-    .bind(key)
-    .fetch_optional(pool)
-    .await
+    read(pool, key).await
 }
 
 /// The key as stored, read inside the write transaction.
 pub async fn get_in(tx: &mut Tx<'_>, key: &str) -> sqlx::Result<Option<StoredKey>> {
+    read(&mut **tx, key).await
+}
+
+/// The key as stored, through the pool or a connection.
+async fn read<'e, E>(on: E, key: &str) -> sqlx::Result<Option<StoredKey>>
+where
+    E: sqlx::Executor<'e, Database = sqlx::Any>,
+{
     sqlx::query_as::<_, StoredKey>(
         "SELECT lot_id, field_test_id, request_sha256 FROM idempotency_keys WHERE idempotency_key = $1",
     )
     .bind(key)
-    .fetch_optional(&mut **tx)
+    .fetch_optional(on)
     .await
 }
 

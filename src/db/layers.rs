@@ -26,6 +26,12 @@ pub struct Layer {
     pub created_at: String,
 }
 
+/// A [`Layer`] with its zone, before the WHERE of a read.
+const SELECT: &str =
+    "SELECT l.id, l.project_id, l.zone_id, z.name AS zone_name, z.position AS zone_position,
+    l.number, l.thickness_mm, l.created_at
+    FROM layers l JOIN zones z ON z.id = l.zone_id";
+
 /// Finds a zone by name or creates it at the next position.
 pub async fn zone_by_name_or_insert(
     tx: &mut Tx<'_>,
@@ -79,12 +85,9 @@ pub async fn insert(
 
 /// Every layer of a project, bottom zone first, bottom layer first.
 pub async fn list(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<Layer>> {
-    sqlx::query_as::<_, Layer>(
-        "SELECT l.id, l.project_id, l.zone_id, z.name AS zone_name, z.position AS zone_position, l.number,
-             l.thickness_mm, l.created_at
-         FROM layers l JOIN zones z ON z.id = l.zone_id
-         WHERE l.project_id = $1 ORDER BY z.position, l.number",
-    )
+    sqlx::query_as::<_, Layer>(sqlx::AssertSqlSafe(format!(
+        "{SELECT} WHERE l.project_id = $1 ORDER BY z.position, l.number"
+    )))
     .bind(project_id)
     .fetch_all(pool)
     .await
@@ -92,12 +95,8 @@ pub async fn list(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<Layer>> {
 
 /// One layer by id.
 pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Layer>> {
-    sqlx::query_as::<_, Layer>(
-        "SELECT l.id, l.project_id, l.zone_id, z.name AS zone_name, z.position AS zone_position, l.number,
-             l.thickness_mm, l.created_at
-         FROM layers l JOIN zones z ON z.id = l.zone_id WHERE l.id = $1",
-    )
-    .bind(id)
-    .fetch_optional(pool)
-    .await
+    sqlx::query_as::<_, Layer>(sqlx::AssertSqlSafe(format!("{SELECT} WHERE l.id = $1")))
+        .bind(id)
+        .fetch_optional(pool)
+        .await
 }

@@ -166,16 +166,14 @@ pub async fn transition(
     comment: &str,
     now: &str,
 ) -> sqlx::Result<bool> {
-    let done = sqlx::query(
+    let q = sqlx::query(
         "UPDATE lots SET state = $1, state_changed_at = $2 WHERE id = $3 AND state = $4",
     )
     .bind(to)
     .bind(now)
     .bind(lot_id)
-    .bind(from)
-    .execute(&mut **tx)
-    .await?;
-    if done.rows_affected() != 1 {
+    .bind(from);
+    if !super::changed_one(tx, q).await? {
         return Ok(false);
     }
     sqlx::query(
@@ -215,7 +213,7 @@ pub async fn count_by_state(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<(L
 /// Points one open or rejected lot from curve `old` at curve `new`; false when the lot
 /// is no longer open/rejected or no longer on `old` (changed meanwhile).
 pub async fn set_lab_test(tx: &mut Tx<'_>, lot_id: i64, old: i64, new: i64) -> sqlx::Result<bool> {
-    let done = sqlx::query(
+    let q = sqlx::query(
         "UPDATE lots SET lab_test_id = $1
          WHERE id = $2 AND lab_test_id = $3 AND state IN ($4, $5)",
     )
@@ -223,10 +221,8 @@ pub async fn set_lab_test(tx: &mut Tx<'_>, lot_id: i64, old: i64, new: i64) -> s
     .bind(lot_id)
     .bind(old)
     .bind(LotState::Open)
-    .bind(LotState::Rejected)
-    .execute(&mut **tx)
-    .await?;
-    Ok(done.rows_affected() == 1)
+    .bind(LotState::Rejected);
+    super::changed_one(tx, q).await
 }
 
 /// Every state change of a lot, read inside a transaction.
@@ -271,15 +267,13 @@ pub async fn start_sample(
     expected_sample: i64,
     after_test_id: i64,
 ) -> sqlx::Result<bool> {
-    let done = sqlx::query(
+    let q = sqlx::query(
         "UPDATE lots SET sample = sample + 1, sample_after_test_id = $1 WHERE id = $2 AND sample = $3",
     )
     .bind(after_test_id)
     .bind(lot_id)
-    .bind(expected_sample)
-    .execute(&mut **tx)
-    .await?;
-    Ok(done.rows_affected() == 1)
+    .bind(expected_sample);
+    super::changed_one(tx, q).await
 }
 
 /// The highest field-test id of a lot (0 when it has none), read inside a transaction.

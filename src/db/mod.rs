@@ -18,6 +18,7 @@ pub mod instruments;
 pub mod lab_tests;
 pub mod layers;
 pub mod lots;
+mod marks;
 pub mod moulds;
 pub mod planning;
 pub mod projects;
@@ -233,6 +234,15 @@ pub async fn bulk_connection(pool: &Pool) -> sqlx::Result<Option<Conn>> {
     conn.execute(SQLITE_PRAGMAS).await?;
     conn.execute("PRAGMA cache_size = -65536").await?;
     Ok(Some(conn))
+}
+
+/// A statement of the `Any` driver with its parameters bound.
+pub(crate) type Statement<'q> = sqlx::query::Query<'q, sqlx::Any, sqlx::any::AnyArguments>;
+
+/// Runs an UPDATE or DELETE guarded by the state it expects, in `tx`; true when it changed
+/// exactly one row (false: the row was no longer in that state, or is gone).
+pub(crate) async fn changed_one(tx: &mut Tx<'_>, q: Statement<'_>) -> sqlx::Result<bool> {
+    Ok(q.execute(&mut **tx).await?.rows_affected() == 1)
 }
 
 /// [`begin_write`] on a connection from [`bulk_connection`].

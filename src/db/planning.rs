@@ -192,11 +192,7 @@ pub async fn reference_one_points(
     project_id: i64,
     lot_id: Option<i64>,
 ) -> sqlx::Result<Vec<(i64, OnePointCheck)>> {
-    let cols: String = OP_COLUMNS
-        .split(',')
-        .map(|c| format!("op.{}", c.trim()))
-        .collect::<Vec<_>>()
-        .join(", ");
+    let cols = qualified(OP_COLUMNS, "op");
     let rows = sqlx::query_as::<_, LotOnePoint>(sqlx::AssertSqlSafe(format!(
         "SELECT ft.lot_id AS paired_lot_id, {cols} FROM one_point_checks op
            JOIN field_tests ft ON ft.id = op.field_test_id
@@ -229,11 +225,7 @@ pub async fn current_plans(
     project_id: i64,
     lot_id: Option<i64>,
 ) -> sqlx::Result<Vec<(TestPlan, f64)>> {
-    let cols: String = PLAN_COLUMNS
-        .split(',')
-        .map(|c| format!("p.{}", c.trim()))
-        .collect::<Vec<_>>()
-        .join(", ");
+    let cols = qualified(PLAN_COLUMNS, "p");
     let rows = sqlx::query_as::<_, PlanWithTolerance>(sqlx::AssertSqlSafe(format!(
         "SELECT c.plan_tolerance_m AS tolerance_m, {cols} FROM test_plans p
            JOIN lots lo ON lo.id = p.lot_id JOIN clauses c ON c.id = lo.clause_id
@@ -253,4 +245,13 @@ struct PlanWithTolerance {
     tolerance_m: f64,
     #[sqlx(flatten)]
     plan: TestPlan,
+}
+
+/// A column list with each column prefixed by a table's alias (`id, code` → `p.id, p.code`).
+fn qualified(columns: &str, alias: &str) -> String {
+    columns
+        .split(',')
+        .map(|c| format!("{alias}.{}", c.trim()))
+        .collect::<Vec<_>>()
+        .join(", ")
 }

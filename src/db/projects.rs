@@ -18,6 +18,10 @@ pub struct Project {
     pub created_at: String,
 }
 
+/// Every column of a project, in the order of [`Project`].
+const COLUMNS: &str =
+    "id, code, name, contract, client, contractor, unit_system, chainage_style, created_at";
+
 /// Fields of a new project, already validated.
 #[derive(Debug, Clone)]
 pub struct NewProject {
@@ -32,11 +36,11 @@ pub struct NewProject {
 
 /// Inserts a project and returns it.
 pub async fn insert(tx: &mut Tx<'_>, new: &NewProject, now: &str) -> sqlx::Result<Project> {
-    sqlx::query_as::<_, Project>(
+    sqlx::query_as::<_, Project>(sqlx::AssertSqlSafe(format!(
         "INSERT INTO projects (code, name, contract, client, contractor, unit_system, chainage_style, created_at)
          VALUES ($1, $2, $3, $4, $5, $6, $7, $8)
-         RETURNING id, code, name, contract, client, contractor, unit_system, chainage_style, created_at",
-    )
+         RETURNING {COLUMNS}"
+    )))
     .bind(&new.code)
     .bind(&new.name)
     .bind(&new.contract)
@@ -51,20 +55,20 @@ pub async fn insert(tx: &mut Tx<'_>, new: &NewProject, now: &str) -> sqlx::Resul
 
 /// Every project, by name.
 pub async fn list(pool: &Pool) -> sqlx::Result<Vec<Project>> {
-    sqlx::query_as::<_, Project>(
-        "SELECT id, code, name, contract, client, contractor, unit_system, chainage_style, created_at
-         FROM projects ORDER BY name, id",
-    )
+    sqlx::query_as::<_, Project>(sqlx::AssertSqlSafe(format!(
+        "SELECT {COLUMNS}
+         FROM projects ORDER BY name, id"
+    )))
     .fetch_all(pool)
     .await
 }
 
 /// One project by id.
 pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Project>> {
-    sqlx::query_as::<_, Project>(
-        "SELECT id, code, name, contract, client, contractor, unit_system, chainage_style, created_at
-         FROM projects WHERE id = $1",
-    )
+    sqlx::query_as::<_, Project>(sqlx::AssertSqlSafe(format!(
+        "SELECT {COLUMNS}
+         FROM projects WHERE id = $1"
+    )))
     .bind(id)
     .fetch_optional(pool)
     .await
@@ -72,10 +76,10 @@ pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Project>> {
 
 /// One project by its short code.
 pub async fn get_by_code(pool: &Pool, code: &str) -> sqlx::Result<Option<Project>> {
-    sqlx::query_as::<_, Project>(
-        "SELECT id, code, name, contract, client, contractor, unit_system, chainage_style, created_at
-         FROM projects WHERE code = $1",
-    )
+    sqlx::query_as::<_, Project>(sqlx::AssertSqlSafe(format!(
+        "SELECT {COLUMNS}
+         FROM projects WHERE code = $1"
+    )))
     .bind(code)
     .fetch_optional(pool)
     .await

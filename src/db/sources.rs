@@ -19,13 +19,16 @@ pub struct Source {
     pub created_at: String,
 }
 
+/// Every column of a source, in the order of [`Source`].
+const COLUMNS: &str = "id, project_id, code, name, description, uscs_class, aashto_class, gs_fines, gs_coarse, created_at";
+
 /// Inserts a source; `id` is ignored.
 pub async fn insert(tx: &mut Tx<'_>, s: &Source) -> sqlx::Result<Source> {
-    sqlx::query_as::<_, Source>(
+    sqlx::query_as::<_, Source>(sqlx::AssertSqlSafe(format!(
         "INSERT INTO sources (project_id, code, name, description, uscs_class, aashto_class, gs_fines, gs_coarse, created_at)
          VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9)
-         RETURNING id, project_id, code, name, description, uscs_class, aashto_class, gs_fines, gs_coarse, created_at",
-    )
+         RETURNING {COLUMNS}"
+    )))
     .bind(s.project_id)
     .bind(&s.code)
     .bind(&s.name)
@@ -41,10 +44,10 @@ pub async fn insert(tx: &mut Tx<'_>, s: &Source) -> sqlx::Result<Source> {
 
 /// Every source of a project.
 pub async fn list(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<Source>> {
-    sqlx::query_as::<_, Source>(
-        "SELECT id, project_id, code, name, description, uscs_class, aashto_class, gs_fines, gs_coarse, created_at
-         FROM sources WHERE project_id = $1 ORDER BY code",
-    )
+    sqlx::query_as::<_, Source>(sqlx::AssertSqlSafe(format!(
+        "SELECT {COLUMNS}
+         FROM sources WHERE project_id = $1 ORDER BY code"
+    )))
     .bind(project_id)
     .fetch_all(pool)
     .await
@@ -52,10 +55,10 @@ pub async fn list(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<Source>> {
 
 /// One source by id.
 pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Source>> {
-    sqlx::query_as::<_, Source>(
-        "SELECT id, project_id, code, name, description, uscs_class, aashto_class, gs_fines, gs_coarse, created_at
-         FROM sources WHERE id = $1",
-    )
+    sqlx::query_as::<_, Source>(sqlx::AssertSqlSafe(format!(
+        "SELECT {COLUMNS}
+         FROM sources WHERE id = $1"
+    )))
     .bind(id)
     .fetch_optional(pool)
     .await

@@ -129,7 +129,7 @@ pub async fn set_disabled(
     user_id: i64,
     disabled_at: Option<&str>,
 ) -> sqlx::Result<bool> {
-    let done = match disabled_at {
+    let q = match disabled_at {
         Some(at) => {
             sqlx::query("UPDATE users SET disabled_at = $1 WHERE id = $2 AND disabled_at IS NULL")
                 .bind(at)
@@ -139,10 +139,8 @@ pub async fn set_disabled(
             "UPDATE users SET disabled_at = NULL WHERE id = $1 AND disabled_at IS NOT NULL",
         )
         .bind(user_id),
-    }
-    .execute(&mut **tx)
-    .await?;
-    Ok(done.rows_affected() == 1)
+    };
+    super::changed_one(tx, q).await
 }
 
 /// Stores a new password hash; `must_change` makes the next sign-in ask for a new one.
@@ -299,12 +297,10 @@ pub async fn end_session(pool: &Pool, id: i64, now: &str) -> sqlx::Result<()> {
 
 /// Ends a session inside a transaction; false when it had already ended.
 pub async fn end_session_tx(tx: &mut Tx<'_>, id: i64, now: &str) -> sqlx::Result<bool> {
-    let done = sqlx::query("UPDATE sessions SET ended_at = $1 WHERE id = $2 AND ended_at IS NULL")
+    let q = sqlx::query("UPDATE sessions SET ended_at = $1 WHERE id = $2 AND ended_at IS NULL")
         .bind(now)
-        .bind(id)
-        .execute(&mut **tx)
-        .await?;
-    Ok(done.rows_affected() == 1)
+        .bind(id);
+    super::changed_one(tx, q).await
 }
 
 /// A stored API token (without its secret).
@@ -442,13 +438,11 @@ pub async fn touch_token(pool: &Pool, id: i64, now: &str) -> sqlx::Result<()> {
 
 /// Revokes a token; false when it was already revoked.
 pub async fn revoke_token(tx: &mut Tx<'_>, id: i64, now: &str) -> sqlx::Result<bool> {
-    let done =
+    let q =
         sqlx::query("UPDATE api_tokens SET revoked_at = $1 WHERE id = $2 AND revoked_at IS NULL")
             .bind(now)
-            .bind(id)
-            .execute(&mut **tx)
-            .await?;
-    Ok(done.rows_affected() == 1)
+            .bind(id);
+    super::changed_one(tx, q).await
 }
 
 /// Holds the throttle of one key until the transaction ends, so counting a key's

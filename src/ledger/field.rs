@@ -14,6 +14,10 @@ use crate::error::{AppError, Result};
 use crate::reduction::verdict::{Reference, TestVerdict};
 use crate::reduction::{self, field::FieldReadings};
 
+mod store;
+pub(super) use store::store;
+pub(crate) use store::{Landing, land, store_in, test_source};
+
 pub use crate::reduction::site::FieldTestInput;
 use crate::reduction::site::{LotRules, SiteError};
 
@@ -405,93 +409,6 @@ pub async fn require_test(pool: &Pool, test_id: i64) -> Result<db::field_tests::
     db::field_tests::get(pool, test_id).await?.ok_or_else(|| {
         AppError::not_found("test_id", format!("field test {test_id} does not exist"))
     })
-}
-
-/// Writes one checked test and its audit row in its own transaction (where there is no
-/// group-commit writer: PostgreSQL, or outside a runtime).
-pub(super) async fn store(
-    pool: &Pool,
-    record: db::field_tests::FieldTest,
-    actor: &Actor,
-    action: &str,
-) -> Result<db::field_tests::FieldTest> {
-    let mut tx = db::begin_write(pool).await?;
-    let record = store_in(&mut tx, record, actor, action).await?;
-    tx.commit().await?;
-    crate::metrics::field_tests_recorded(test_source(action), 1);
-    Ok(record)
-}
-
-/// The metrics label of a store action ("retest", else an entry).
-pub(crate) fn test_source(action: &str) -> crate::metrics::TestSource {
-    if action == "retest" {
-        crate::metrics::TestSource::Retest
-    } else {
-        crate::metrics::TestSource::Entry
-    }
-}
-
-/// Writes one checked test and its audit row inside a write transaction (the caller's
-/// own, or a group commit's savepoint, see `ledger::test_writer`).
-pub(crate) async fn store_in(
-    tx: &mut db::Tx<'_>,
-    mut record: db::field_tests::FieldTest,
-    actor: &Actor,
-    action: &str,
-) -> Result<db::field_tests::FieldTest> {
-    // The lot was open when the test was checked; it must still be when the test lands.
-    match db::lots::state_for_write(tx, record.lot_id).await? {
-        Some(state) if state.takes_tests() => {}
-        Some(state) => {
-            return Err(AppError::conflict(
-                "lot_id",
-                format!(
-                    "the lot became {state} meanwhile; tests can be added only while it is open or rejected"
-                ),
-                vec![],
-            ));
-        }
-        None => {
-            return Err(AppError::not_found(
-                "lot_id",
-                format!("lot {} does not exist", record.lot_id),
-            ));
-        }
-    }
-    if record.number.is_empty() {
-        record.number = db::field_tests::next_number(tx, record.project_id).await?;
-    }
-    let id = match db::field_tests::insert(tx, &record).await {
-        Ok(id) => id,
-        Err(e) if db::is_unique_violation(&e) => {
-            return Err(AppError::conflict(
-                "number",
-                format!(
-                    "test number {} is already used in this project",
-                    record.number
-                ),
-                vec![],
-            ));
-        }
-        Err(e) => return Err(e.into()),
-    };
-    record.id = id;
-    audit::record(
-        tx,
-        &audit::Change {
-            actor: &actor.name,
-            action,
-            entity: "field_test",
-            entity_id: Some(id),
-            project_id: Some(record.project_id),
-            before: None,
-            after: Some(json!(record)),
-            origin: &actor.origin,
-        },
-        &record.created_at,
-    )
-    .await?;
-    Ok(record)
 }
 
 /// Voids a test with a reason: it leaves every statistic but stays on record.

@@ -387,8 +387,8 @@ struct Run<'a> {
     retests: HashMap<Box<str>, Box<str>>,
     /// Numbers of rows refused for problems of their own.
     refused_numbers: HashSet<Box<str>>,
+    /// New tests to land with the next insert (none once the commit is refused).
     pending: Vec<FieldTest>,
-    pending_audit: Vec<bulk::AuditRow>,
     report: ImportReport,
 }
 
@@ -451,6 +451,33 @@ fn required_fields(row: &ImportRow, number: &str) -> std::result::Result<(), Hal
 const MAX_REFUSED_NUMBERS: usize = 100_000;
 
 impl<'a> Run<'a> {
+    /// The state of an import before its first row; its tests are numbered from `next_id`.
+    fn new(
+        project_id: i64,
+        lots: &'a Lots,
+        instruments: &'a super::instruments::check::InstrumentBook,
+        opts: &'a ImportOptions,
+        next_id: i64,
+    ) -> Self {
+        Self {
+            project_id,
+            lots,
+            instruments,
+            opts,
+            now: clock::now(),
+            next_id,
+            seen: HashMap::new(),
+            failed_spots: HashMap::new(),
+            refused_numbers: HashSet::new(),
+            retests: HashMap::new(),
+            pending: Vec::with_capacity(CHUNK_ROWS),
+            report: ImportReport {
+                audit: opts.audit,
+                ..Default::default()
+            },
+        }
+    }
+
     /// Remembers a stored test met as a retest target or a repeated number.
     fn remember_stored(&mut self, t: &FieldTest, stored: &Stored) -> Seen {
         if let Some(s) = self.seen.get(t.number.as_str()) {
@@ -749,29 +776,7 @@ impl<'a> Run<'a> {
             .entry(ctx.lot.code.clone())
             .or_default() += 1;
         if self.opts.commit && self.report.rows_with_problems == 0 {
-            if self.opts.audit == AuditMode::PerTest {
-                self.pending_audit.push(self.audit_row(&record));
-            }
             self.pending.push(record);
-        }
-    }
-
-    /// The audit row of a test created by a per-test audited import.
-    fn audit_row(&self, record: &FieldTest) -> bulk::AuditRow {
-        bulk::AuditRow {
-            at: self.now.clone(),
-            actor: self.opts.actor.name.clone(),
-            action: if record.retest_of.is_some() {
-                "retest".into()
-            } else {
-                "create".into()
-            },
-            entity: "field_test".into(),
-            entity_id: Some(record.id),
-            project_id: Some(self.project_id),
-            before_json: None,
-            after_json: Some(json!(record).to_string()),
-            origin: self.opts.actor.origin.clone(),
         }
     }
 
@@ -781,7 +786,6 @@ impl<'a> Run<'a> {
         }
         // Once a commit is refused, queued rows will never be written.
         self.pending.clear();
-        self.pending_audit.clear();
         self.report.add_problems(problems);
     }
 }
@@ -839,19 +843,40 @@ async fn look_up(
     })
 }
 
-/// Inserts queued tests (and their audit rows) through the import's transaction.
-async fn insert_queued(
-    conn: &mut crate::db::Conn,
-    tests: Vec<FieldTest>,
-    audits: Vec<bulk::AuditRow>,
-) -> Result<()> {
-    if !tests.is_empty() {
-        bulk::insert_field_tests(conn, &tests).await?;
+/// What landing an import's tests needs besides the tests.
+struct Lander<'a> {
+    lots: &'a Lots,
+    actor: &'a Actor,
+    /// Each test gets the single-entry audit row ([`AuditMode::PerTest`]).
+    audited: bool,
+    batch: bulk::Batch<'a>,
+}
+
+impl<'a> Lander<'a> {
+    /// Lands queued tests through the one record path of every new test, the lot's state
+    /// the one read with the lots (the import holds the write lock since), and inserts them.
+    async fn land(&mut self, tx: &mut db::Tx<'_>, tests: Vec<FieldTest>) -> Result<()> {
+        for record in tests {
+            let lot_state = self
+                .lots
+                .by_id(record.lot_id)
+                .map(|ctx| ctx.lot.state)
+                .ok_or_else(|| anyhow::anyhow!("test on unknown lot {}", record.lot_id))?;
+            let action = if record.retest_of.is_some() {
+                "retest"
+            } else {
+                "create"
+            };
+            let how = field::Landing::Batch {
+                batch: &mut self.batch,
+                lot_state,
+                audited: self.audited,
+            };
+            field::land(tx, record, self.actor, action, how).await?;
+        }
+        self.batch.flush(tx).await?;
+        Ok(())
     }
-    if !audits.is_empty() {
-        bulk::insert_audit_rows(conn, &audits).await?;
-    }
-    Ok(())
 }
 
 /// Reads up to a chunk of rows from the source.
@@ -872,19 +897,25 @@ fn read_chunk(source: &mut dyn RowSource) -> Vec<RowResult> {
 /// chunk k + 2 looked up on a second connection (`reader`), which sees the store as it
 /// was before this import (the import's writes are not committed, and no one else can
 /// commit). A project without tests (`empty`, a first import) has nothing to look up.
-async fn check_and_insert(
-    run: &mut Run<'_>,
+async fn check_and_insert<'a>(
+    run: &mut Run<'a>,
     source: &mut dyn RowSource,
-    tx: &mut crate::db::Conn,
+    tx: &mut db::Tx<'_>,
     reader: &mut crate::db::Conn,
     empty: bool,
 ) -> Result<()> {
     let (project_id, commit) = (run.project_id, run.opts.commit);
+    let (lots, opts): (&'a Lots, &'a ImportOptions) = (run.lots, run.opts);
+    let mut lander = Lander {
+        lots,
+        actor: &opts.actor,
+        audited: opts.audit == AuditMode::PerTest,
+        batch: bulk::Batch::default(),
+    };
     let mut chunk = read_chunk(source);
     let mut stored = look_up(reader, project_id, &chunk, &run.seen, empty).await?;
     while !chunk.is_empty() {
         let tests = std::mem::take(&mut run.pending);
-        let audits = std::mem::take(&mut run.pending_audit);
         let checking = async {
             for (i, r) in chunk.drain(..).enumerate() {
                 run.report.rows += 1;
@@ -902,7 +933,7 @@ async fn check_and_insert(
             Ok::<_, AppError>((next, next_stored))
         };
         let (inserted, next) = if commit && !tests.is_empty() {
-            tokio::join!(insert_queued(tx, tests, audits), checking)
+            tokio::join!(lander.land(tx, tests), checking)
         } else {
             (Ok(()), checking.await)
         };
@@ -911,8 +942,7 @@ async fn check_and_insert(
     }
     if commit && run.report.rows_with_problems == 0 {
         let tests = std::mem::take(&mut run.pending);
-        let audits = std::mem::take(&mut run.pending_audit);
-        insert_queued(tx, tests, audits).await?;
+        lander.land(tx, tests).await?;
     }
     Ok(())
 }
@@ -955,55 +985,61 @@ pub async fn import_field_tests(
     } else {
         None
     };
-    let mut tx = if opts.commit {
-        let mut tx = match own.as_mut() {
-            Some(conn) => db::begin_write_on(conn).await?,
-            None => db::begin_write(pool).await?,
-        };
-        // PostgreSQL: the project's row and the tests table are this import's until it ends
-        // (SQLite's BEGIN IMMEDIATE already holds the one write lock).
-        db::lock_project(&mut tx, project_id).await?;
-        bulk::lock_tests_for_numbering(&mut tx).await?;
-        tx
-    } else {
-        pool.begin().await?
-    };
+    let mut tx = begin_import(pool, own.as_mut(), project_id, opts.commit).await?;
     let lots = load_lots(pool, project_id).await?;
     let book = super::instruments::check::InstrumentBook::load(pool, project_id).await?;
-    let mut run = Run {
-        project_id,
-        lots: &lots,
-        instruments: &book,
-        opts,
-        now: clock::now(),
-        next_id: bulk::max_field_test_id(&mut tx).await? + 1,
-        seen: HashMap::new(),
-        failed_spots: HashMap::new(),
-        refused_numbers: HashSet::new(),
-        retests: HashMap::new(),
-        pending: Vec::with_capacity(CHUNK_ROWS),
-        pending_audit: Vec::new(),
-        report: ImportReport {
-            audit: opts.audit,
-            ..Default::default()
-        },
-    };
-    let first_id = run.next_id;
+    let first_id = bulk::max_field_test_id(&mut tx).await? + 1;
+    let mut run = Run::new(project_id, &lots, &book, opts, first_id);
     let mut reader = pool.acquire().await?;
     let empty = bulk::test_id_range(pool, project_id).await?.is_none();
     check_and_insert(&mut run, source, &mut tx, &mut reader, empty).await?;
     run.report.origin = source.origin();
-    let mut report = run.report;
+    let mut report = finish(tx, run.report, first_id, project_id, opts).await?;
+    report.elapsed_ms = started.elapsed().as_millis() as u64;
+    Ok(report)
+}
+
+/// The import's transaction: for a commit a write transaction (on the import's own
+/// connection when there is one) holding the project and the numbering of tests until it
+/// ends; for a dry run a plain one that is rolled back.
+async fn begin_import<'c>(
+    pool: &Pool,
+    own: Option<&'c mut db::Conn>,
+    project_id: i64,
+    commit: bool,
+) -> Result<db::Tx<'c>> {
+    if !commit {
+        return Ok(pool.begin().await?);
+    }
+    let mut tx = match own {
+        Some(conn) => db::begin_write_on(conn).await?,
+        None => db::begin_write(pool).await?,
+    };
+    // PostgreSQL: the project's row and the tests table are this import's until it ends
+    // (SQLite's BEGIN IMMEDIATE already holds the one write lock).
+    db::lock_project(&mut tx, project_id).await?;
+    bulk::lock_tests_for_numbering(&mut tx).await?;
+    Ok(tx)
+}
+
+/// Ends the import's transaction: rolled back for a dry run, a refused file or a file with
+/// nothing new (not even an audit row is written); otherwise committed with the import's
+/// one audit row, the ids it created recorded in the report.
+async fn finish(
+    mut tx: db::Tx<'_>,
+    mut report: ImportReport,
+    first_id: i64,
+    project_id: i64,
+    opts: &ImportOptions,
+) -> Result<ImportReport> {
     if !opts.commit || report.refused() {
         tx.rollback().await?;
-        report.elapsed_ms = started.elapsed().as_millis() as u64;
         return Ok(report);
     }
     if report.new_tests == 0 {
         // Nothing new (a re-upload): nothing is written, not even an audit row.
         tx.rollback().await?;
         report.committed = true;
-        report.elapsed_ms = started.elapsed().as_millis() as u64;
         return Ok(report);
     }
     let last_id = first_id + report.new_tests as i64 - 1;
@@ -1016,7 +1052,7 @@ pub async fn import_field_tests(
             actor: &opts.actor.name,
             action: "import",
             entity: "field_test_import",
-            entity_id: report.created_ids.map(|(a, _)| a),
+            entity_id: Some(first_id),
             project_id: Some(project_id),
             before: None,
             after: Some(import_audit(&report)),
@@ -1028,7 +1064,6 @@ pub async fn import_field_tests(
     tx.commit().await?;
     crate::metrics::field_tests_recorded(crate::metrics::TestSource::Import, report.new_tests);
     report.committed = true;
-    report.elapsed_ms = started.elapsed().as_millis() as u64;
     Ok(report)
 }
 

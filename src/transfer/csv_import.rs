@@ -607,10 +607,18 @@ pub struct CsvLabPoints {
     pub origin: SourceOrigin,
 }
 
+/// Most points read from a lab file (a lab test has a handful).
+const MAX_POINTS: usize = 1000;
+
+/// A CSV file read through the hashing reader (its size and SHA-256 known at the end).
+type HashedCsv<R> = csv::Reader<BufReader<HashingReader<R>>>;
+
+/// Where each mapped point field stands in a lab file: (field, column index, column name).
+type LabColumns = Vec<(LabTarget, usize, String)>;
+
 impl CsvLabPoints {
-    /// Reads every point of a lab file (a lab test has a handful; at most 1000 rows are read).
+    /// Reads every point of a lab file (at most [`MAX_POINTS`] rows are read).
     pub fn read<R: Read>(input: R, file_name: &str, mapping: &LabPointMapping) -> Self {
-        const MAX_POINTS: usize = 1000;
         let mut out = Self {
             rows: Vec::new(),
             columns: mapping
@@ -624,50 +632,33 @@ impl CsvLabPoints {
                 ..Default::default()
             },
         };
-        let mut reader = match open_csv(input, mapping.separator) {
-            Ok(r) => r,
-            Err(e) => {
-                out.rows.push(Err(vec![RowProblem::new(
-                    0,
-                    "",
-                    "",
-                    format!("cannot read the file: {e}"),
-                )]));
-                return out;
+        match open_lab_file(input, mapping) {
+            Ok((mut reader, at)) => {
+                out.read_points(&mut reader, &at, mapping.units);
+                let h = reader.get_ref().get_ref();
+                out.origin.bytes = h.bytes();
+                out.origin.sha256 = h.sha256();
             }
-        };
+            Err(opening) => out.rows.push(Err(opening)),
+        }
+        out
+    }
+
+    /// Every point row after the header, blank rows skipped; a row past [`MAX_POINTS`] or
+    /// a file unreadable past some row ends the reading with a problem.
+    fn read_points<R: Read>(
+        &mut self,
+        reader: &mut HashedCsv<R>,
+        at: &LabColumns,
+        units: UnitSystem,
+    ) {
         let mut rec = csv::ByteRecord::new();
-        let header = match reader.read_byte_record(&mut rec) {
-            Ok(true) => header_names(&rec),
-            _ => {
-                out.rows
-                    .push(Err(vec![RowProblem::new(1, "", "", "the file is empty")]));
-                return out;
-            }
-        };
-        let mut at = Vec::new();
-        let mut opening = Vec::new();
-        for (name, t) in &mapping.columns {
-            match find_column(&header, name) {
-                Some(i) => at.push((*t, i, name.clone())),
-                None => opening.push(RowProblem::new(
-                    1,
-                    name,
-                    "",
-                    format!("the mapping names column '{name}' but the header has no such column"),
-                )),
-            }
-        }
-        if !opening.is_empty() {
-            out.rows.push(Err(opening));
-            return out;
-        }
         loop {
             match reader.read_byte_record(&mut rec) {
                 Ok(true) => {}
                 Ok(false) => break,
                 Err(e) => {
-                    out.rows.push(Err(vec![RowProblem::new(
+                    self.rows.push(Err(vec![RowProblem::new(
                         0,
                         "",
                         "",
@@ -679,24 +670,20 @@ impl CsvLabPoints {
             if rec.iter().all(|c| c.iter().all(u8::is_ascii_whitespace)) {
                 continue;
             }
-            if out.rows.len() >= MAX_POINTS {
-                out.rows.push(Err(vec![RowProblem::new(
-                    rec.position().map_or(0, |p| p.line()),
+            let line = rec.position().map_or(0, |p| p.line());
+            if self.rows.len() >= MAX_POINTS {
+                self.rows.push(Err(vec![RowProblem::new(
+                    line,
                     "",
                     "",
                     format!("a lab test has at most {MAX_POINTS} points"),
                 )]));
                 break;
             }
-            let line = rec.position().map_or(0, |p| p.line());
-            let (point, texts) = read_point(&rec, &at, mapping.units, line);
-            out.cells.insert(line, texts);
-            out.rows.push(point.map(|p| (line, p)));
+            let (point, texts) = read_point(&rec, at, units, line);
+            self.cells.insert(line, texts);
+            self.rows.push(point.map(|p| (line, p)));
         }
-        let h = reader.get_ref().get_ref();
-        out.origin.bytes = h.bytes();
-        out.origin.sha256 = h.sha256();
-        out
     }
 
     /// (column, cell) of a point field on a line, for naming a refusal.
@@ -715,5 +702,44 @@ impl CsvLabPoints {
             ),
             None => (field.to_string(), String::new()),
         }
+    }
+}
+
+/// A lab file opened and its header matched with the mapping, or the problems that stop
+/// it before its first row (unreadable, empty, a mapped column missing).
+fn open_lab_file<R: Read>(
+    input: R,
+    mapping: &LabPointMapping,
+) -> std::result::Result<(HashedCsv<R>, LabColumns), Vec<RowProblem>> {
+    let mut reader = open_csv(input, mapping.separator).map_err(|e| {
+        vec![RowProblem::new(
+            0,
+            "",
+            "",
+            format!("cannot read the file: {e}"),
+        )]
+    })?;
+    let mut rec = csv::ByteRecord::new();
+    let header = match reader.read_byte_record(&mut rec) {
+        Ok(true) => header_names(&rec),
+        _ => return Err(vec![RowProblem::new(1, "", "", "the file is empty")]),
+    };
+    let mut at = Vec::new();
+    let mut opening = Vec::new();
+    for (name, t) in &mapping.columns {
+        match find_column(&header, name) {
+            Some(i) => at.push((*t, i, name.clone())),
+            None => opening.push(RowProblem::new(
+                1,
+                name,
+                "",
+                format!("the mapping names column '{name}' but the header has no such column"),
+            )),
+        }
+    }
+    if opening.is_empty() {
+        Ok((reader, at))
+    } else {
+        Err(opening)
     }
 }

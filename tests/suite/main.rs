@@ -13,6 +13,7 @@ mod deploy;
 mod edge;
 mod entry_paths;
 mod idempotency;
+mod import_audit;
 mod import_page;
 mod instruments;
 mod openapi;
