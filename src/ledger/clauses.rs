@@ -5,7 +5,7 @@ use serde::Deserialize;
 use serde_json::json;
 
 use super::Actor;
-use super::moisture_terms::{self, MoistureTerms, MoistureTermsInput};
+use super::moisture_terms::{self, MoistureTermsInput};
 use super::setup::{audit_insert, unique};
 use super::validate::{code, number, optional_text};
 use crate::clock;
@@ -122,22 +122,14 @@ fn clause_record(project_id: i64, input: &ClauseInput) -> Result<db::clauses::Cl
         max_air_voids_pct: input.max_air_voids_pct,
     })?;
     let oversize = oversize_terms(input)?;
-    let MoistureTerms {
-        basis,
-        below_pct,
-        above_pct,
-        low_pct,
-        high_pct,
-        max_air_voids_pct,
-    } = moisture;
     Ok(db::clauses::Clause {
         id: 0,
         project_id,
         code: code("code", &input.code)?,
         title: optional_text("title", &input.title, 200)?,
         rc_min_pct: number("rc_min_pct", input.rc_min_pct, 50.0, 110.0, "%")?,
-        moisture_below_pct: below_pct,
-        moisture_above_pct: above_pct,
+        moisture_below_pct: moisture.below_pct,
+        moisture_above_pct: moisture.above_pct,
         effort,
         rule,
         allowance_pct,
@@ -160,10 +152,10 @@ fn clause_record(project_id: i64, input: &ClauseInput) -> Result<db::clauses::Cl
         limit_decimals: verdict.limit_decimals,
         oversize_sieve_mm: oversize.sieve_mm,
         coarse_water_default_pct: oversize.coarse_water_default_pct,
-        moisture_basis: basis,
-        moisture_low_pct: low_pct,
-        moisture_high_pct: high_pct,
-        max_air_voids_pct,
+        moisture_basis: moisture.basis,
+        moisture_low_pct: moisture.low_pct,
+        moisture_high_pct: moisture.high_pct,
+        max_air_voids_pct: moisture.max_air_voids_pct,
     })
 }
 
