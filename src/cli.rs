@@ -137,24 +137,14 @@ pub enum UserCommand {
     /// Give a user a role in a project (technician, qc_manager, client_engineer, viewer).
     Grant {
         #[command(flatten)]
-        db: DbArgs,
-        #[arg(long)]
-        username: String,
-        /// Project code, e.g. MLR.
-        #[arg(long)]
-        project: String,
+        member: MemberArgs,
         #[arg(long)]
         role: String,
     },
     /// End a user's role in a project; their sessions end and the tokens they made there die.
     Remove {
         #[command(flatten)]
-        db: DbArgs,
-        #[arg(long)]
-        username: String,
-        /// Project code, e.g. MLR.
-        #[arg(long)]
-        project: String,
+        member: MemberArgs,
     },
     /// Disable a user: every session ends and every token they made dies.
     Disable {
@@ -177,6 +167,18 @@ pub enum UserCommand {
         #[arg(long)]
         username: String,
     },
+}
+
+/// A user and a project of a database: whose membership a command changes.
+#[derive(Debug, clap::Args)]
+pub struct MemberArgs {
+    #[command(flatten)]
+    pub db: DbArgs,
+    #[arg(long)]
+    pub username: String,
+    /// Project code, e.g. MLR.
+    #[arg(long)]
+    pub project: String,
 }
 
 /// Where the database lives.

@@ -5,7 +5,7 @@ use clap::Parser;
 use std::io::BufRead;
 
 use liftledger::cli::{
-    ArchiveArgs, ArchiveCommand, Cli, Command, LogFormat, ServeArgs, UserCommand,
+    ArchiveArgs, ArchiveCommand, Cli, Command, LogFormat, MemberArgs, ServeArgs, UserCommand,
 };
 use liftledger::ledger::{Actor, accounts};
 use liftledger::{AppState, Settings, db, demo};
@@ -35,9 +35,12 @@ async fn main() -> anyhow::Result<()> {
             admin,
         }) => add_user(&db, username, name, admin).await?,
         Command::User(UserCommand::Grant {
-            db,
-            username,
-            project,
+            member:
+                MemberArgs {
+                    db,
+                    username,
+                    project,
+                },
             role,
         }) => grant(&db, &username, &project, &role).await?,
         Command::User(other) => user_command(other).await?,
@@ -264,9 +267,12 @@ async fn user_command(cmd: UserCommand) -> anyhow::Result<()> {
         |e: liftledger::error::AppError| anyhow::anyhow!("{}: {}", e.field(), e.user_message());
     match cmd {
         UserCommand::Remove {
-            db,
-            username,
-            project,
+            member:
+                MemberArgs {
+                    db,
+                    username,
+                    project,
+                },
         } => {
             let pool = db::connect(&db.location()).await?;
             let p = project_by_code(&pool, &project).await?;

@@ -122,30 +122,18 @@ fn axes(input: &CurveChartInput, data: &Data) -> Axes {
     let y_min_span = ((y_min + y_max).abs() / 2.0 * 0.03).max(1e-6);
     let (y_lo, y_hi) = axis::padded(y_min, y_max, 0.08, y_min_span);
     let y_lo = floor_at_zero(y_lo, y_min);
-    let (y_lo, mut y_hi, y_step) = axis::nice_extent(y_lo, y_hi, 5);
+    let (y_lo, y_hi, y_step) = axis::nice_extent(y_lo, y_hi, 5);
 
-    let top = if input.title.trim().is_empty() {
-        14.0
-    } else {
-        40.0
-    };
+    let top = frame::plot_top(&input.title);
     let plot = Plot {
         left: 68.0,
         top,
         right: WIDTH - 16.0,
         bottom: top + PLOT_HEIGHT,
     };
-    let mut y_scale = LinearScale::new((y_lo, y_hi), (plot.bottom, plot.top));
-    if let Some((_, mdd)) = data.optimum {
-        // Leave room above the optimum for its annotation.
-        for _ in 0..4 {
-            if y_scale.map(mdd) - plot.top >= 38.0 {
-                break;
-            }
-            y_hi += y_step;
-            y_scale = LinearScale::new((y_lo, y_hi), (plot.bottom, plot.top));
-        }
-    }
+    // Leave room above the optimum for its annotation.
+    let headroom = data.optimum.map(|(_, mdd)| (mdd, 38.0));
+    let (y_scale, y_hi) = frame::y_scale_with_headroom(&plot, (y_lo, y_hi), y_step, headroom);
     Axes {
         plot,
         x_scale: LinearScale::new((x_lo, x_hi), (plot.left, plot.right)),
@@ -304,10 +292,7 @@ fn open_sheet(w: &mut SvgWriter, input: &CurveChartInput, a: &Axes, clip_id: &st
         .num("height", a.plot.height())
         .leaf();
     w.close().close();
-    if !input.title.trim().is_empty() {
-        let heading = fit_text(&input.title, FONT_TITLE * 1.1, WIDTH - 24.0);
-        frame::text(w, 12.0, 24.0, &heading, TextStyle::new(FONT_TITLE).bold());
-    }
+    frame::chart_title(w, &input.title, FONT_TITLE, WIDTH);
     frame::y_grid(w, &a.plot, &a.y_scale, &a.y_ticks);
     frame::x_grid(w, &a.plot, &a.x_scale, &a.x_ticks);
 }
@@ -485,14 +470,7 @@ pub fn curve_chart(input: &CurveChartInput) -> String {
     if data.lab.is_empty() && data.field.is_empty() {
         frame::empty_note(&mut w, &a.plot, "no lab points yet", 15.0);
     }
-    legend::draw(
-        &mut w,
-        &legend_items,
-        12.0,
-        legend_top,
-        WIDTH - 24.0,
-        FONT_NOTE,
-    );
+    legend::draw_across(&mut w, &legend_items, legend_top, WIDTH, FONT_NOTE);
     w.finish()
 }
 

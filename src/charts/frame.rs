@@ -208,6 +208,41 @@ fn grid_path(w: &mut SvgWriter, d: &str) {
         .leaf();
 }
 
+/// Top of a chart's plot: room above it for the title line when there is one.
+pub fn plot_top(title: &str) -> f64 {
+    if title.trim().is_empty() { 14.0 } else { 40.0 }
+}
+
+/// The chart's title at its top left, cut to the chart's width (nothing when it has none).
+pub fn chart_title(w: &mut SvgWriter, title: &str, font: f64, chart_width: f64) {
+    if !title.trim().is_empty() {
+        let heading = super::svg::fit_text(title, font * 1.1, chart_width - 24.0);
+        text(w, 12.0, 24.0, &heading, TextStyle::new(font).bold());
+    }
+}
+
+/// A value scale from `y_lo` up to `y_hi` over the plot's height. With `headroom`
+/// (a value, the room in px it needs above it), the top is raised by up to four `step`s
+/// until that value stands far enough below the plot's top. Returns the scale and its top.
+pub fn y_scale_with_headroom(
+    plot: &Plot,
+    (y_lo, mut y_hi): (f64, f64),
+    step: f64,
+    headroom: Option<(f64, f64)>,
+) -> (LinearScale, f64) {
+    let mut y_scale = LinearScale::new((y_lo, y_hi), (plot.bottom, plot.top));
+    if let Some((value, room)) = headroom {
+        for _ in 0..4 {
+            if y_scale.map(value) - plot.top >= room {
+                break;
+            }
+            y_hi += step;
+            y_scale = LinearScale::new((y_lo, y_hi), (plot.bottom, plot.top));
+        }
+    }
+    (y_scale, y_hi)
+}
+
 /// Sizes used by an axis.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct AxisFonts {
@@ -215,6 +250,23 @@ pub struct AxisFonts {
     pub tick: f64,
     /// Axis title.
     pub title: f64,
+}
+
+/// An axis line from `start`, vertical (`V`) or horizontal (`H`) to `end`, with a tick
+/// mark drawn by the path data `mark` from each point, as one path.
+fn axis_with_marks(
+    w: &mut SvgWriter,
+    start: (f64, f64),
+    (direction, end): (char, f64),
+    marks: impl Iterator<Item = (f64, f64)>,
+    mark: &str,
+) {
+    use super::svg::num;
+    let mut d = format!("M{} {}{direction}{}", num(start.0), num(start.1), num(end));
+    for (x, y) in marks {
+        d.push_str(&format!("M{} {}{mark}", num(x), num(y)));
+    }
+    axis_path(w, &d);
 }
 
 /// The left axis: line, ticks, tick labels and a rotated title at the chart's left edge.
@@ -228,20 +280,8 @@ pub fn y_axis(
     label: &dyn Fn(f64) -> String,
 ) {
     w.start("g").attr("class", "ll-axis ll-axis-y").open();
-    let mut d = format!(
-        "M{} {}V{}",
-        super::svg::num(plot.left),
-        super::svg::num(plot.top),
-        super::svg::num(plot.bottom)
-    );
-    for v in &ticks.values {
-        d.push_str(&format!(
-            "M{} {}h-5",
-            super::svg::num(plot.left),
-            super::svg::num(scale.map(*v))
-        ));
-    }
-    axis_path(w, &d);
+    let marks = ticks.values.iter().map(|v| (plot.left, scale.map(*v)));
+    axis_with_marks(w, (plot.left, plot.top), ('V', plot.bottom), marks, "h-5");
     let style = TextStyle::new(fonts.tick).anchor("end").fill(palette::INK);
     for v in &ticks.values {
         let y = scale.map(*v) + fonts.tick * 0.35;
@@ -281,20 +321,8 @@ pub fn x_axis(
     label: &dyn Fn(f64) -> String,
 ) {
     w.start("g").attr("class", "ll-axis ll-axis-x").open();
-    let mut d = format!(
-        "M{} {}H{}",
-        super::svg::num(plot.left),
-        super::svg::num(plot.bottom),
-        super::svg::num(plot.right)
-    );
-    for v in &ticks.values {
-        d.push_str(&format!(
-            "M{} {}v5",
-            super::svg::num(scale.map(*v)),
-            super::svg::num(plot.bottom)
-        ));
-    }
-    axis_path(w, &d);
+    let marks = ticks.values.iter().map(|v| (scale.map(*v), plot.bottom));
+    axis_with_marks(w, (plot.left, plot.bottom), ('H', plot.right), marks, "v5");
     let y = plot.bottom + 7.0 + fonts.tick;
     for v in &ticks.values {
         let text_value = label(*v);

@@ -94,6 +94,18 @@ pub fn layout(items: &[LegendItem], max_width: f64, font: f64) -> LegendLayout {
     out
 }
 
+/// Draws the legend across a chart `chart_width` wide, 12 px in from either side (where
+/// the chart's title starts); returns its height.
+pub fn draw_across(
+    w: &mut SvgWriter,
+    items: &[LegendItem],
+    y0: f64,
+    chart_width: f64,
+    font: f64,
+) -> f64 {
+    draw(w, items, 12.0, y0, chart_width - 24.0, font)
+}
+
 /// Draws the legend with its top-left corner at (`x0`, `y0`); returns the height used.
 pub fn draw(
     w: &mut SvgWriter,

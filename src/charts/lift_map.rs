@@ -152,11 +152,7 @@ fn map_title(from: &str, to: &str, lots: usize, layers: usize) -> String {
 
 /// Draws the lift map with its legend; narrow lots are aggregated (see the module docs).
 pub fn lift_map(input: &LiftMapInput) -> String {
-    let width = if input.width_px == 0 {
-        960.0
-    } else {
-        f64::from(input.width_px).clamp(280.0, 8000.0)
-    };
+    let width = map_width(input.width_px);
     let rows = ordered_rows(&input.rows);
     let rank_of: BTreeMap<usize, usize> =
         rows.iter().enumerate().map(|(i, r)| (r.row, i)).collect();
@@ -165,17 +161,10 @@ pub fn lift_map(input: &LiftMapInput) -> String {
     let laid = layout_rows(&rows, width);
     let plot = laid.plot;
     let x_scale = LinearScale::new((from_m, to_m), (plot.left, plot.right));
-    let tick_room =
-        text_width(&label(from_m), FONT_SMALL).max(text_width(&label(to_m), FONT_SMALL)) + 28.0;
-    let target = (plot.width() / tick_room).floor().clamp(2.0, 12.0) as usize;
-    let ticks = axis::ticks(from_m, to_m, target);
+    let ticks = chainage_ticks(label, (from_m, to_m), &plot);
 
     let placed = place_lots(input, &rank_of, from_m, to_m, &x_scale);
     let (separate, cells) = split_and_aggregate(placed, &plot, rows.len());
-    let aggregated: usize = cells
-        .iter()
-        .map(|c| c.bucket.counts.iter().sum::<u32>() as usize)
-        .sum();
     let seed = format!(
         "{from_m}|{to_m}|{width}|{}|{}",
         rows.len(),
@@ -189,24 +178,21 @@ pub fn lift_map(input: &LiftMapInput) -> String {
         title: FONT,
     };
     let legend_items = legend_items(&pattern_id);
-    let legend_top = plot.bottom + frame::x_axis_depth(fonts, true) + 6.0;
-    let legend_width = width - 2.0 * MARGIN;
-    let legend_rows = legend::layout(&legend_items, legend_width, FONT_SMALL).rows;
-    let note = cells_note(&cells, legend_width);
-    let legend_h = legend_rows as f64 * legend::row_height(FONT_SMALL);
-    let note_top = legend_top + legend_h + 4.0;
-    let height = note_top + note.len() as f64 * (FONT_SMALL * 1.4) + MARGIN;
+    let below = Below::layout(&legend_items, &cells, plot.bottom, width, fonts);
 
-    let lot_count = separate.len() + aggregated;
+    let lot_count = separate.len() + lots_in(&cells);
     let mut w = SvgWriter::with_capacity(4096 + separate.len() * 170 + cells.len() * 170);
     let title = map_title(&label(from_m), &label(to_m), lot_count, rows.len());
     let desc = describe(input, &separate, &cells);
-    frame::open_linked_root(&mut w, width, height, &title, &desc, "ll-chart ll-lift-map");
-    w.start("defs").open();
-    for state in MapState::ALL {
-        palette::write_pattern(&mut w, &pattern_id(state), &state_style(state));
-    }
-    w.close();
+    frame::open_linked_root(
+        &mut w,
+        width,
+        below.height,
+        &title,
+        &desc,
+        "ll-chart ll-lift-map",
+    );
+    write_patterns(&mut w, &pattern_id);
 
     if rows.is_empty() {
         frame::empty_note(&mut w, &plot, "no layers yet", 14.0);
@@ -225,16 +211,93 @@ pub fn lift_map(input: &LiftMapInput) -> String {
     frame::x_axis(
         &mut w, &plot, &x_scale, &ticks, "Chainage", fonts, width, &x_label,
     );
-    legend::draw(
-        &mut w,
-        &legend_items,
-        MARGIN,
-        legend_top,
-        legend_width,
-        FONT_SMALL,
-    );
-    draw_note(&mut w, &note, note_top);
+    below.draw(&mut w, &legend_items);
     w.finish()
+}
+
+/// The width drawn for: 960 px when unset, otherwise kept within 280–8000 px.
+fn map_width(width_px: u32) -> f64 {
+    if width_px == 0 {
+        960.0
+    } else {
+        f64::from(width_px).clamp(280.0, 8000.0)
+    }
+}
+
+/// Chainage ticks as many as the widest end label leaves room for (2 to 12).
+fn chainage_ticks(
+    label: &dyn Fn(f64) -> String,
+    (from_m, to_m): (f64, f64),
+    plot: &Plot,
+) -> axis::Ticks {
+    let tick_room =
+        text_width(&label(from_m), FONT_SMALL).max(text_width(&label(to_m), FONT_SMALL)) + 28.0;
+    let target = (plot.width() / tick_room).floor().clamp(2.0, 12.0) as usize;
+    axis::ticks(from_m, to_m, target)
+}
+
+/// How many lots the aggregated cells hold.
+fn lots_in(cells: &[Cell]) -> usize {
+    cells
+        .iter()
+        .map(|c| c.bucket.counts.iter().sum::<u32>() as usize)
+        .sum()
+}
+
+/// One fill pattern per state, in the map's `defs`.
+fn write_patterns(w: &mut SvgWriter, pattern_id: &dyn Fn(MapState) -> String) {
+    w.start("defs").open();
+    for state in MapState::ALL {
+        palette::write_pattern(w, &pattern_id(state), &state_style(state));
+    }
+    w.close();
+}
+
+/// What lies under the plot: the legend, then the note on cells; and the map's whole height.
+struct Below {
+    legend_top: f64,
+    legend_width: f64,
+    note: Vec<String>,
+    note_top: f64,
+    height: f64,
+}
+
+impl Below {
+    fn layout(
+        items: &[LegendItem],
+        cells: &[Cell],
+        plot_bottom: f64,
+        width: f64,
+        fonts: AxisFonts,
+    ) -> Self {
+        let legend_top = plot_bottom + frame::x_axis_depth(fonts, true) + 6.0;
+        let legend_width = width - 2.0 * MARGIN;
+        let legend_rows = legend::layout(items, legend_width, FONT_SMALL).rows;
+        let note = cells_note(cells, legend_width);
+        let legend_h = legend_rows as f64 * legend::row_height(FONT_SMALL);
+        let note_top = legend_top + legend_h + 4.0;
+        let height = note_top + note.len() as f64 * (FONT_SMALL * 1.4) + MARGIN;
+        Below {
+            legend_top,
+            legend_width,
+            note,
+            note_top,
+            height,
+        }
+    }
+
+    /// Draws the legend and the note where `layout` placed them.
+    fn draw(&self, w: &mut SvgWriter, items: &[LegendItem]) {
+        legend::draw(
+            w,
+            items,
+            MARGIN,
+            self.legend_top,
+            self.legend_width,
+            FONT_SMALL,
+        );
+        draw_note(w, &self.note, self.note_top);
+    }
 }
 
 fn ordered_rows(rows: &[MapRow]) -> Vec<&MapRow> {
@@ -424,21 +487,14 @@ fn draw_cells(
         return;
     }
     let label = &input.chainage_label;
-    let (y_off, h) = if row_h >= 8.0 {
-        (1.0, row_h - 2.0)
-    } else {
-        (0.0, row_h)
-    };
+    let (y_off, h) = bar_band(row_h);
     w.start("g").attr("class", "ll-cells").open();
     for state in MapState::ALL {
         let mine: Vec<&Cell> = cells.iter().filter(|c| c.bucket.worst() == state).collect();
         if mine.is_empty() {
             continue;
         }
-        w.start("g")
-            .attr("class", &format!("ll-{}", state.token()))
-            .attr("fill", &format!("url(#{})", pattern_id(state)))
-            .open();
+        open_state_group(w, state, pattern_id);
         for cell in mine {
             let counts = &cell.bucket.counts;
             let total: u32 = counts.iter().sum();
@@ -460,11 +516,7 @@ fn draw_cells(
                 .zoom_href
                 .as_ref()
                 .map(|f| f(cell.bucket.from, cell.bucket.to));
-            match href.as_deref().and_then(svg::safe_href) {
-                Some(href) => w.start("a").attr("href", href),
-                None => w.start("g"),
-            };
-            w.open();
+            open_link(w, href.as_deref().and_then(svg::safe_href));
             w.simple("title", &title);
             w.start("rect")
                 .num("x", tenth(cell.x0))
@@ -489,30 +541,19 @@ fn draw_separate(
     if lots.is_empty() {
         return;
     }
-    let (y_off, h) = if row_h >= 8.0 {
-        (1.0, row_h - 2.0)
-    } else {
-        (0.0, row_h)
-    };
+    let (y_off, h) = bar_band(row_h);
     w.start("g").attr("class", "ll-lots").open();
     for state in MapState::ALL {
         let mine: Vec<&Placed<'_>> = lots.iter().filter(|p| p.lot.state == state).collect();
         if mine.is_empty() {
             continue;
         }
-        w.start("g")
-            .attr("class", &format!("ll-{}", state.token()))
-            .attr("fill", &format!("url(#{})", pattern_id(state)))
-            .open();
+        open_state_group(w, state, pattern_id);
         for p in mine {
             let lot_w = p.x1 - p.x0;
             // A hairline gap shows where one lot ends and the next begins.
             let gap = if lot_w >= 4.0 { 0.6 } else { 0.0 };
-            match svg::safe_href(&p.lot.href) {
-                Some(href) => w.start("a").attr("href", href),
-                None => w.start("g"),
-            };
-            w.open();
+            open_link(w, svg::safe_href(&p.lot.href));
             w.simple("title", &lot_title(p.lot));
             w.start("rect")
                 .num("x", tenth(p.x0 + gap / 2.0))
@@ -527,6 +568,32 @@ fn draw_separate(
     w.close();
 
     draw_marks(w, lots, row_top, row_h);
+}
+
+/// Where a bar sits in its row (offset from the row's top, height): a 1 px inset when rows are tall.
+fn bar_band(row_h: f64) -> (f64, f64) {
+    if row_h >= 8.0 {
+        (1.0, row_h - 2.0)
+    } else {
+        (0.0, row_h)
+    }
+}
+
+/// Opens the group of one state's shapes, filled with its pattern.
+fn open_state_group(w: &mut SvgWriter, state: MapState, pattern_id: &dyn Fn(MapState) -> String) {
+    w.start("g")
+        .attr("class", &format!("ll-{}", state.token()))
+        .attr("fill", &format!("url(#{})", pattern_id(state)))
+        .open();
+}
+
+/// Opens a link to `href`, or a plain group when there is none (or it is not safe).
+fn open_link(w: &mut SvgWriter, href: Option<&str>) {
+    match href {
+        Some(href) => w.start("a").attr("href", href),
+        None => w.start("g"),
+    };
+    w.open();
 }
 
 /// Text marks on lots wide enough to hold them; clicks pass through to the lot below.

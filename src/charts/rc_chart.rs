@@ -167,12 +167,8 @@ fn layout(input: &RcChartInput) -> Layout {
         (lo, hi) = (90.0, 100.0);
     }
     let (lo, hi) = axis::padded(lo, hi, 0.08, 4.0);
-    let (y_lo, mut y_hi, step) = axis::nice_extent(lo, hi, 5);
-    let top = if input.title.trim().is_empty() {
-        14.0
-    } else {
-        40.0
-    };
+    let (y_lo, y_hi, step) = axis::nice_extent(lo, hi, 5);
+    let top = frame::plot_top(&input.title);
     let plot = Plot {
         left: 54.0,
         top,
@@ -181,17 +177,12 @@ fn layout(input: &RcChartInput) -> Layout {
     };
     let slot = plot.width() / n.max(1) as f64;
     let show_values = n <= MAX_VALUE_LABELS && slot >= 26.0;
-    let mut y_scale = LinearScale::new((y_lo, y_hi), (plot.bottom, plot.top));
-    if show_values && let Some(top_value) = values.iter().copied().reduce(f64::max) {
-        // Leave room above the highest marker for its value.
-        for _ in 0..4 {
-            if y_scale.map(top_value) - plot.top >= 22.0 {
-                break;
-            }
-            y_hi += step;
-            y_scale = LinearScale::new((y_lo, y_hi), (plot.bottom, plot.top));
-        }
-    }
+    // Leave room above the highest marker for its value.
+    let headroom = show_values
+        .then(|| values.iter().copied().reduce(f64::max))
+        .flatten()
+        .map(|top_value| (top_value, 22.0));
+    let (y_scale, y_hi) = frame::y_scale_with_headroom(&plot, (y_lo, y_hi), step, headroom);
     Layout {
         limit,
         mean,
@@ -367,16 +358,7 @@ pub fn rc_chart(input: &RcChartInput) -> String {
     };
     let desc = describe(input, l.limit, l.mean);
     open(&mut w, WIDTH, height, title, &desc, "ll-chart ll-rc-chart");
-    if !input.title.trim().is_empty() {
-        let heading = fit_text(&input.title, FONT_TITLE * 1.1, WIDTH - 24.0);
-        frame::text(
-            &mut w,
-            12.0,
-            24.0,
-            &heading,
-            TextStyle::new(FONT_TITLE).bold(),
-        );
-    }
+    frame::chart_title(&mut w, &input.title, FONT_TITLE, WIDTH);
     frame::y_grid(&mut w, &l.plot, &l.y_scale, &l.ticks);
     draw_reference_lines(&mut w, input, &l);
     let step = l.step;
@@ -411,14 +393,7 @@ pub fn rc_chart(input: &RcChartInput) -> String {
     if n == 0 {
         draw_empty_note(&mut w, &l.plot, &obstacles);
     }
-    legend::draw(
-        &mut w,
-        &legend_items,
-        12.0,
-        legend_top,
-        WIDTH - 24.0,
-        FONT_NOTE,
-    );
+    legend::draw_across(&mut w, &legend_items, legend_top, WIDTH, FONT_NOTE);
     w.finish()
 }
 

@@ -33,11 +33,25 @@ pub struct UserInput {
 /// Which record a change touched: (entity, id, project).
 pub(crate) type Target<'a> = (&'a str, i64, Option<i64>);
 
+/// Records a new record or a change that keeps no earlier value, as the actor's audit row.
 pub(crate) async fn audit_change(
     tx: &mut db::Tx<'_>,
     actor: &Actor,
     action: &str,
+    target: Target<'_>,
+    after: serde_json::Value,
+    now: &str,
+) -> Result<()> {
+    audit_replacing(tx, actor, action, target, None, after, now).await
+}
+
+/// Records a change with what it replaced (`before`), as the actor's audit row.
+pub(crate) async fn audit_replacing(
+    tx: &mut db::Tx<'_>,
+    actor: &Actor,
+    action: &str,
     (entity, id, project_id): Target<'_>,
+    before: Option<serde_json::Value>,
     after: serde_json::Value,
     now: &str,
 ) -> Result<()> {
@@ -49,7 +63,7 @@ pub(crate) async fn audit_change(
             entity,
             entity_id: Some(id),
             project_id,
-            before: None,
+            before,
             after: Some(after),
             origin: &actor.origin,
         },

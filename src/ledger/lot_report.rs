@@ -456,6 +456,34 @@ struct Owing {
     failing_without_retest: Vec<String>,
 }
 
+impl LineContext<'_> {
+    /// The tests a lot of this size owes under its clause's frequency, and its failures
+    /// still waiting for a passing retest.
+    fn owing(&self, length_m: f64, width_m: f64, lv: &LotVerdict) -> Owing {
+        let clause = self.clause;
+        let frequency = FrequencyRule {
+            min_per_lot: u32::try_from(clause.min_tests_per_lot).unwrap_or(1),
+            area_per_test_m2: clause.area_per_test_m2,
+            length_per_test_m: clause.length_per_test_m,
+        };
+        let required = tests_required(&frequency, length_m, width_m);
+        Owing {
+            required,
+            owed: tests_owed(required, lv.n),
+            failing_without_retest: lv
+                .failing_without_retest
+                .iter()
+                .filter_map(|id| self.number_of(*id))
+                .collect(),
+        }
+    }
+}
+
+/// Whether a certificate was issued for the record as it stands now (and not withdrawn).
+fn issued_for(certificate: Option<&db::certificates::Certificate>, fingerprint: &str) -> bool {
+    certificate.is_some_and(|c| c.withdrawn_at.is_none() && c.record_fingerprint == fingerprint)
+}
+
 /// Everything that stops a submission, in the order a QC manager would deal with it.
 fn submit_blockers(
     s: &Owing,
@@ -614,27 +642,11 @@ pub fn assemble(
 
     let length_m = lot.chainage_to_m - lot.chainage_from_m;
     let width_m = lot.offset_right_m - lot.offset_left_m;
-    let frequency = FrequencyRule {
-        min_per_lot: u32::try_from(clause.min_tests_per_lot).unwrap_or(1),
-        area_per_test_m2: clause.area_per_test_m2,
-        length_per_test_m: clause.length_per_test_m,
-    };
-    let required = tests_required(&frequency, length_m, width_m);
-    let standing = Owing {
-        required,
-        owed: tests_owed(required, lv.n),
-        failing_without_retest: lv
-            .failing_without_retest
-            .iter()
-            .filter_map(|id| cx.number_of(*id))
-            .collect(),
-    };
+    let standing = cx.owing(length_m, width_m, &lv);
     let submit_blockers = submit_blockers(&standing, &lv, &lines, &clause, &lab_test);
 
     let fingerprint = fingerprint_with(&lot, &clause, &lab_test, &tests, extras);
-    let certificate_current = certificate
-        .as_ref()
-        .is_some_and(|c| c.withdrawn_at.is_none() && c.record_fingerprint == fingerprint);
+    let certificate_current = issued_for(certificate.as_ref(), &fingerprint);
     let certified = certificate.is_some() && certificate_current;
     let every_test = clause.rule == Rule::EveryTest;
     let display_state = display_state(&lot, certified, &standing, every_test, lv.accepted);

@@ -4,39 +4,45 @@ use serde_json::json;
 use sha2::{Digest, Sha256};
 
 use super::Actor;
+use super::accounts::audit_replacing;
 use super::certificate_doc;
 use super::lot_report::{self, LotReport};
 use super::validate::optional_text;
 use crate::clock;
-use crate::db::{self, Pool, audit};
+use crate::db::{self, Pool};
 use crate::domain::LotState::{self, Accepted, Rejected, Submitted};
 use crate::error::{AppError, Result};
 
-async fn log_transition(
+/// Moves the lot from `from` to `to` inside `tx`, with its audit row; refused when
+/// another request changed the lot's state meanwhile.
+async fn move_lot(
     tx: &mut db::Tx<'_>,
     report: &LotReport,
-    from: LotState,
-    to: LotState,
+    (from, to): (LotState, LotState),
+    done: &str,
     comment: &str,
     actor: &Actor,
     now: &str,
 ) -> Result<()> {
-    audit::record(
+    let moved =
+        db::lots::transition(tx, report.lot.id, from, to, &actor.name, comment, now).await?;
+    if !moved {
+        return Err(refused(
+            report,
+            done,
+            vec!["the lot changed state meanwhile".into()],
+        ));
+    }
+    audit_replacing(
         tx,
-        &audit::Change {
-            actor: &actor.name,
-            action: "transition",
-            entity: "lot",
-            entity_id: Some(report.lot.id),
-            project_id: Some(report.lot.project_id),
-            before: Some(json!({"state": from})),
-            after: Some(json!({"state": to, "comment": comment, "verdict_accepted": report.verdict.accepted})),
-            origin: &actor.origin,
-        },
+        actor,
+        "transition",
+        ("lot", report.lot.id, Some(report.lot.project_id)),
+        Some(json!({"state": from})),
+        json!({"state": to, "comment": comment, "verdict_accepted": report.verdict.accepted}),
         now,
     )
-    .await?;
-    Ok(())
+    .await
 }
 
 fn refused(report: &LotReport, action: &str, reasons: Vec<String>) -> AppError {
@@ -71,24 +77,8 @@ pub async fn submit(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> R
     }
     let now = clock::now();
     let mut tx = db::begin_write(pool).await?;
-    if !db::lots::transition(
-        &mut tx,
-        lot_id,
-        from,
-        Submitted,
-        &actor.name,
-        &comment,
-        &now,
-    )
-    .await?
-    {
-        return Err(refused(
-            &report,
-            "submitted",
-            vec!["the lot changed state meanwhile".into()],
-        ));
-    }
-    log_transition(&mut tx, &report, from, Submitted, &comment, actor, &now).await?;
+    let states = (from, Submitted);
+    move_lot(&mut tx, &report, states, "submitted", &comment, actor, &now).await?;
     tx.commit().await?;
     lot_report::build(pool, lot_id).await
 }
@@ -109,24 +99,8 @@ pub async fn reject(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> R
     }
     let now = clock::now();
     let mut tx = db::begin_write(pool).await?;
-    if !db::lots::transition(
-        &mut tx,
-        lot_id,
-        Submitted,
-        Rejected,
-        &actor.name,
-        &comment,
-        &now,
-    )
-    .await?
-    {
-        return Err(refused(
-            &report,
-            "rejected",
-            vec!["the lot changed state meanwhile".into()],
-        ));
-    }
-    log_transition(&mut tx, &report, Submitted, Rejected, &comment, actor, &now).await?;
+    let states = (Submitted, Rejected);
+    move_lot(&mut tx, &report, states, "rejected", &comment, actor, &now).await?;
     tx.commit().await?;
     lot_report::build(pool, lot_id).await
 }
@@ -177,24 +151,8 @@ pub async fn accept(pool: &Pool, lot_id: i64, comment: &str, actor: &Actor) -> R
     let now = clock::now();
     let mut tx = db::begin_write(pool).await?;
     if !reissue {
-        if !db::lots::transition(
-            &mut tx,
-            lot_id,
-            Submitted,
-            Accepted,
-            &actor.name,
-            &comment,
-            &now,
-        )
-        .await?
-        {
-            return Err(refused(
-                &report,
-                "accepted",
-                vec!["the lot changed state meanwhile".into()],
-            ));
-        }
-        log_transition(&mut tx, &report, Submitted, Accepted, &comment, actor, &now).await?;
+        let states = (Submitted, Accepted);
+        move_lot(&mut tx, &report, states, "accepted", &comment, actor, &now).await?;
     }
     issue_certificate(&mut tx, &report, &comment, actor, &now).await?;
     tx.commit().await?;
@@ -218,6 +176,8 @@ fn verification_code(seed: &str) -> String {
         .join("-")
 }
 
+/// Issues the lot's next certificate (a first one, or the next revision of the current one)
+/// inside `tx`: numbered, rendered, hashed, stored and audited.
 async fn issue_certificate(
     tx: &mut db::Tx<'_>,
     report: &LotReport,
@@ -228,16 +188,7 @@ async fn issue_certificate(
     // Certificate numbers are per project, unique and without gaps: take the project lock first.
     db::lock_project(tx, report.lot.project_id).await?;
     let previous = db::certificates::current_for_lot_tx(tx, report.lot.id).await?;
-    // Reads go through the transaction: a second pooled connection per request could
-    // exhaust the pool while writers wait on the project lock.
-    let all_for_lot = db::certificates::for_lot_tx(tx, report.lot.id).await?;
-    let (sequence, revision) = match all_for_lot.first() {
-        Some(latest) => (latest.sequence, latest.revision + 1),
-        None => (
-            db::certificates::next_sequence(tx, report.lot.project_id).await?,
-            1,
-        ),
-    };
+    let (sequence, revision) = next_number(tx, report).await?;
     let number = format!("{}-EL-{:04}", report.project.code, sequence);
     let code = verification_code(&format!("{number}|{revision}|{}|{now}", report.fingerprint));
     let transitions = db::lots::transitions_tx(tx, report.lot.id).await?;
@@ -260,42 +211,79 @@ async fn issue_certificate(
     );
     let pdf = crate::pdf::render_certificate(&doc)
         .map_err(|e| anyhow::anyhow!("rendering certificate: {e}"))?;
-    let sha = hex::encode(Sha256::digest(&pdf));
     if let Some(p) = &previous {
         db::certificates::supersede(tx, p.id, now).await?;
     }
+    let issued = Issued {
+        sequence,
+        revision,
+        number: &number,
+        code: &code,
+        pdf: &pdf,
+    };
+    store_certificate(tx, report, &issued, previous.as_ref(), actor, now).await
+}
+
+/// The certificate's sequence and revision: the lot's own sequence with the next revision
+/// once it has one, else the project's next sequence at revision 1.
+async fn next_number(tx: &mut db::Tx<'_>, report: &LotReport) -> Result<(i64, i64)> {
+    // Reads go through the transaction: a second pooled connection per request could
+    // exhaust the pool while writers wait on the project lock.
+    let all_for_lot = db::certificates::for_lot_tx(tx, report.lot.id).await?;
+    Ok(match all_for_lot.first() {
+        Some(latest) => (latest.sequence, latest.revision + 1),
+        None => (
+            db::certificates::next_sequence(tx, report.lot.project_id).await?,
+            1,
+        ),
+    })
+}
+
+/// A rendered certificate about to be stored.
+struct Issued<'a> {
+    sequence: i64,
+    revision: i64,
+    number: &'a str,
+    code: &'a str,
+    pdf: &'a [u8],
+}
+
+/// Stores the certificate with its hash, and its audit row (naming the one it supersedes).
+async fn store_certificate(
+    tx: &mut db::Tx<'_>,
+    report: &LotReport,
+    c: &Issued<'_>,
+    previous: Option<&db::certificates::Certificate>,
+    actor: &Actor,
+    now: &str,
+) -> Result<()> {
+    let sha = hex::encode(Sha256::digest(c.pdf));
     let id = db::certificates::insert(
         tx,
         &db::certificates::NewCertificate {
             project_id: report.lot.project_id,
             lot_id: report.lot.id,
-            sequence,
-            revision,
-            number: &number,
-            verification_code: &code,
+            sequence: c.sequence,
+            revision: c.revision,
+            number: c.number,
+            verification_code: c.code,
             sha256: &sha,
             record_fingerprint: &report.fingerprint,
-            pdf: &pdf,
+            pdf: c.pdf,
             issued_at: now,
             issued_by: &actor.name,
         },
     )
     .await?;
-    audit::record(
+    audit_replacing(
         tx,
-        &audit::Change {
-            actor: &actor.name,
-            action: "issue",
-            entity: "certificate",
-            entity_id: Some(id),
-            project_id: Some(report.lot.project_id),
-            before: previous.as_ref().map(|p| json!({"supersedes": p.id, "revision": p.revision})),
-            after: Some(json!({"number": number, "revision": revision, "sha256": sha, "verification_code": code,
-                               "lot_id": report.lot.id})),
-            origin: &actor.origin,
-        },
+        actor,
+        "issue",
+        ("certificate", id, Some(report.lot.project_id)),
+        previous.map(|p| json!({"supersedes": p.id, "revision": p.revision})),
+        json!({"number": c.number, "revision": c.revision, "sha256": sha, "verification_code": c.code,
+               "lot_id": report.lot.id}),
         now,
     )
-    .await?;
-    Ok(())
+    .await
 }

@@ -125,7 +125,8 @@ pub async fn sign_in(
         for id in reserved {
             users::settle_failure(pool, id, &now).await?;
         }
-        record(pool, &username, "sign_in_failed", None, address, &now).await?;
+        let failed = Event::new(&username, "sign_in_failed", None, address);
+        record(pool, failed, &now).await?;
         crate::metrics::sign_in_failed();
         return Err(AppError::unauthorized("user name or password is wrong"));
     };
@@ -137,12 +138,10 @@ pub async fn sign_in(
     let now = clock::now();
     let mut tx = db::begin_write(pool).await?;
     let sid = users::start_session(&mut tx, &secret::digest(&secret), user.id, &now).await?;
+    let actor = actor_name(&user);
     record_in(
         &mut tx,
-        &actor_name(&user),
-        "sign_in",
-        Some(sid),
-        address,
+        Event::new(&actor, "sign_in", Some(sid), address),
         &now,
     )
     .await?;
@@ -150,29 +149,44 @@ pub async fn sign_in(
     Ok(SignedIn { secret, user })
 }
 
-async fn record_in(
-    tx: &mut db::Tx<'_>,
-    actor: &str,
-    action: &str,
+/// A sign-in, a refused sign-in, a sign-out or an expiry, as its audit row tells it.
+struct Event<'a> {
+    actor: &'a str,
+    action: &'a str,
+    /// The session opened or ended; none for a refused sign-in (recorded against the user).
     session_id: Option<i64>,
-    origin: &str,
-    now: &str,
-) -> Result<()> {
+    origin: &'a str,
+    after: Option<serde_json::Value>,
+}
+
+impl<'a> Event<'a> {
+    fn new(actor: &'a str, action: &'a str, session_id: Option<i64>, origin: &'a str) -> Self {
+        Event {
+            actor,
+            action,
+            session_id,
+            origin,
+            after: None,
+        }
+    }
+}
+
+async fn record_in(tx: &mut db::Tx<'_>, e: Event<'_>, now: &str) -> Result<()> {
     audit::record(
         tx,
         &audit::Change {
-            actor,
-            action,
-            entity: if session_id.is_some() {
+            actor: e.actor,
+            action: e.action,
+            entity: if e.session_id.is_some() {
                 "session"
             } else {
                 "user"
             },
-            entity_id: session_id,
+            entity_id: e.session_id,
             project_id: None,
             before: None,
-            after: None,
-            origin,
+            after: e.after,
+            origin: e.origin,
         },
         now,
     )
@@ -180,16 +194,9 @@ async fn record_in(
     Ok(())
 }
 
-async fn record(
-    pool: &Pool,
-    actor: &str,
-    action: &str,
-    session_id: Option<i64>,
-    origin: &str,
-    now: &str,
-) -> Result<()> {
+async fn record(pool: &Pool, e: Event<'_>, now: &str) -> Result<()> {
     let mut tx = db::begin_write(pool).await?;
-    record_in(&mut tx, actor, action, session_id, origin, now).await?;
+    record_in(&mut tx, e, now).await?;
     tx.commit().await?;
     Ok(())
 }
@@ -198,15 +205,8 @@ async fn record(
 pub async fn sign_out(pool: &Pool, session_id: i64, actor: &Actor) -> Result<()> {
     let now = clock::now();
     users::end_session(pool, session_id, &now).await?;
-    record(
-        pool,
-        &actor.name,
-        "sign_out",
-        Some(session_id),
-        &actor.origin,
-        &now,
-    )
-    .await
+    let event = Event::new(&actor.name, "sign_out", Some(session_id), &actor.origin);
+    record(pool, event, &now).await
 }
 
 /// Why a presented session no longer counts, if it does not.
@@ -230,21 +230,12 @@ pub async fn expire(
     let now = clock::now();
     let mut tx = db::begin_write(pool).await?;
     users::end_session_tx(&mut tx, found.session_id, &now).await?;
-    audit::record(
-        &mut tx,
-        &audit::Change {
-            actor: &actor_name(&found.user),
-            action: "session_expired",
-            entity: "session",
-            entity_id: Some(found.session_id),
-            project_id: None,
-            before: None,
-            after: Some(serde_json::json!({"reason": reason})),
-            origin,
-        },
-        &now,
-    )
-    .await?;
+    let actor = actor_name(&found.user);
+    let event = Event {
+        after: Some(serde_json::json!({"reason": reason})),
+        ..Event::new(&actor, "session_expired", Some(found.session_id), origin)
+    };
+    record_in(&mut tx, event, &now).await?;
     tx.commit().await?;
     Ok(())
 }

@@ -57,6 +57,67 @@ fn newest_first(a: &Listed, b: &Listed) -> std::cmp::Ordering {
         .then(b.line.test.id.cmp(&a.line.test.id))
 }
 
+/// The filters read into typed bounds; each refusal names its field.
+struct Bounds {
+    from: Option<f64>,
+    to: Option<f64>,
+    date_from: Option<String>,
+    date_to: Option<String>,
+    layer: Option<i64>,
+}
+
+impl Bounds {
+    fn parse(f: &Filters, u: &Units) -> Result<Self, AppError> {
+        let ch = |field: &str, v: &str| -> Result<Option<f64>, AppError> {
+            if v.trim().is_empty() {
+                return Ok(None);
+            }
+            Chainage::parse(v.trim(), u.chainage)
+                .map(|c| Some(c.metres()))
+                .map_err(|e| AppError::invalid(field, e.to_string()))
+        };
+        let date = |field: &str, v: &str| -> Result<Option<String>, AppError> {
+            if v.trim().is_empty() {
+                Ok(None)
+            } else {
+                crate::ledger::validate::date(field, v).map(Some)
+            }
+        };
+        let from = ch("from", &f.from)?;
+        let to = ch("to", &f.to)?;
+        let date_from = date("date_from", &f.date_from)?;
+        let date_to = date("date_to", &f.date_to)?;
+        let layer = if f.layer.is_empty() {
+            None
+        } else {
+            Some(
+                f.layer
+                    .parse()
+                    .map_err(|_| AppError::invalid("layer", "choose a layer from the list"))?,
+            )
+        };
+        Ok(Bounds {
+            from,
+            to,
+            date_from,
+            date_to,
+            layer,
+        })
+    }
+
+    /// Whether a judged test passes every filter (the layer is chosen by lot beforehand).
+    fn admits(&self, f: &Filters, line: &TestLine) -> bool {
+        let t = &line.test;
+        let day = crate::clock::date_of(&t.tested_at);
+        !(self.from.is_some_and(|m| t.chainage_m < m)
+            || self.to.is_some_and(|m| t.chainage_m > m)
+            || self.date_from.as_ref().is_some_and(|d| day < *d)
+            || self.date_to.as_ref().is_some_and(|d| day > *d)
+            || (!f.method.is_empty() && t.method.code() != f.method)
+            || (!f.verdict.is_empty() && line.result().code() != f.verdict))
+    }
+}
+
 /// Applies the filters to every judged test of the project, newest first; returns the
 /// first `limit` selected (all when `None`) and how many were selected in all.
 ///
@@ -69,88 +130,75 @@ pub async fn select(
     u: &Units,
     limit: Option<usize>,
 ) -> Result<(Vec<Listed>, usize), AppError> {
-    let ch = |field: &str, v: &str| -> Result<Option<f64>, AppError> {
-        if v.trim().is_empty() {
-            return Ok(None);
-        }
-        Chainage::parse(v.trim(), u.chainage)
-            .map(|c| Some(c.metres()))
-            .map_err(|e| AppError::invalid(field, e.to_string()))
-    };
-    let from = ch("from", &f.from)?;
-    let to = ch("to", &f.to)?;
-    let date = |field: &str, v: &str| -> Result<Option<String>, AppError> {
-        if v.trim().is_empty() {
-            Ok(None)
-        } else {
-            crate::ledger::validate::date(field, v).map(Some)
-        }
-    };
-    let d_from = date("date_from", &f.date_from)?;
-    let d_to = date("date_to", &f.date_to)?;
-    let layer: Option<i64> = if f.layer.is_empty() {
-        None
-    } else {
-        Some(
-            f.layer
-                .parse()
-                .map_err(|_| AppError::invalid("layer", "choose a layer from the list"))?,
-        )
-    };
-    if let Some(n) = limit
-        && f.verdict.is_empty()
-    {
+    let bounds = Bounds::parse(f, u)?;
+    match limit {
         // Without a verdict filter the database picks the newest tests; only their lots
         // are judged (a whole pass would judge every lot of the project).
-        let next_day = |d: &String| -> Result<String, AppError> {
-            let fmt = time::macros::format_description!("[year]-[month]-[day]");
-            let day = time::Date::parse(d, &fmt)
-                .map_err(|_| AppError::invalid("date_to", "not a date like 2026-12-01"))?;
-            Ok(day.next_day().unwrap_or(day).to_string())
-        };
-        let filter = crate::db::field_tests::TestFilter {
-            lot_id: None,
-            layer_id: layer,
-            chainage_from_m: from,
-            chainage_to_m: to,
-            tested_from: d_from,
-            tested_before: d_to.as_ref().map(next_day).transpose()?,
-            method: (!f.method.is_empty()).then(|| f.method.clone()),
-            limit: i64::try_from(n).unwrap_or(i64::MAX),
-            offset: 0,
-        };
-        let total = crate::db::field_tests::count_matching(pool, project_id, &filter).await?;
-        let newest = crate::db::field_tests::list(pool, project_id, &filter).await?;
-        let mut lots: std::collections::HashMap<i64, LotReport> = Default::default();
-        let mut out = Vec::with_capacity(newest.len());
-        for t in &newest {
-            if let std::collections::hash_map::Entry::Vacant(e) = lots.entry(t.lot_id) {
-                e.insert(crate::ledger::lot_report::build(pool, t.lot_id).await?);
-            }
-            let r = &lots[&t.lot_id];
-            if let Some(line) = r.tests.iter().find(|l| l.test.id == t.id) {
-                out.push(Listed {
-                    lot: r.lot.clone(),
-                    line: line.clone(),
-                });
-            }
+        Some(n) if f.verdict.is_empty() => {
+            newest_from_database(pool, project_id, f, &bounds, n).await
         }
-        return Ok((out, usize::try_from(total).unwrap_or(0)));
+        _ => judged_pass(pool, project_id, f, &bounds, limit).await,
     }
+}
+
+/// The newest `n` tests the database selects, each judged with its lot, and how many match.
+async fn newest_from_database(
+    pool: &crate::db::Pool,
+    project_id: i64,
+    f: &Filters,
+    b: &Bounds,
+    n: usize,
+) -> Result<(Vec<Listed>, usize), AppError> {
+    let next_day = |d: &String| -> Result<String, AppError> {
+        let fmt = time::macros::format_description!("[year]-[month]-[day]");
+        let day = time::Date::parse(d, &fmt)
+            .map_err(|_| AppError::invalid("date_to", "not a date like 2026-12-01"))?;
+        Ok(day.next_day().unwrap_or(day).to_string())
+    };
+    let filter = crate::db::field_tests::TestFilter {
+        lot_id: None,
+        layer_id: b.layer,
+        chainage_from_m: b.from,
+        chainage_to_m: b.to,
+        tested_from: b.date_from.clone(),
+        tested_before: b.date_to.as_ref().map(next_day).transpose()?,
+        method: (!f.method.is_empty()).then(|| f.method.clone()),
+        limit: i64::try_from(n).unwrap_or(i64::MAX),
+        offset: 0,
+    };
+    let total = crate::db::field_tests::count_matching(pool, project_id, &filter).await?;
+    let newest = crate::db::field_tests::list(pool, project_id, &filter).await?;
+    let mut lots: std::collections::HashMap<i64, LotReport> = Default::default();
+    let mut out = Vec::with_capacity(newest.len());
+    for t in &newest {
+        if let std::collections::hash_map::Entry::Vacant(e) = lots.entry(t.lot_id) {
+            e.insert(crate::ledger::lot_report::build(pool, t.lot_id).await?);
+        }
+        let r = &lots[&t.lot_id];
+        if let Some(line) = r.tests.iter().find(|l| l.test.id == t.id) {
+            out.push(Listed {
+                lot: r.lot.clone(),
+                line: line.clone(),
+            });
+        }
+    }
+    Ok((out, usize::try_from(total).unwrap_or(0)))
+}
+
+/// Every lot of the project judged in turn, its tests filtered; the newest `limit` kept.
+async fn judged_pass(
+    pool: &crate::db::Pool,
+    project_id: i64,
+    f: &Filters,
+    b: &Bounds,
+    limit: Option<usize>,
+) -> Result<(Vec<Listed>, usize), AppError> {
     let mut out = Vec::new();
     let mut total = 0usize;
-    let keep = |lot: &crate::db::lots::Lot| layer.is_none_or(|l| l == lot.layer_id);
+    let keep = |lot: &crate::db::lots::Lot| b.layer.is_none_or(|l| l == lot.layer_id);
     overview::each_report(pool, project_id, keep, true, |r: LotReport| {
         for line in r.tests {
-            let t = &line.test;
-            let day = crate::clock::date_of(&t.tested_at);
-            if from.is_some_and(|m| t.chainage_m < m)
-                || to.is_some_and(|m| t.chainage_m > m)
-                || d_from.as_ref().is_some_and(|d| day < *d)
-                || d_to.as_ref().is_some_and(|d| day > *d)
-                || (!f.method.is_empty() && t.method.code() != f.method)
-                || (!f.verdict.is_empty() && line.result().code() != f.verdict)
-            {
+            if !b.admits(f, &line) {
                 continue;
             }
             total += 1;

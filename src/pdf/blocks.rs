@@ -12,6 +12,9 @@ pub(super) const BASELINE_DROP: f32 = 7.5;
 /// Gap between the two columns of a two-column block.
 pub(super) const GUTTER: f32 = 18.0;
 
+/// Label/value pairs, drawn one row each by [`label_rows`].
+pub(super) type LabelRows<'a> = &'a [(&'a str, &'a str)];
+
 /// A horizontal band of the page a block may draw in.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub(super) struct Column {
@@ -87,14 +90,7 @@ pub(super) fn label_rows(
             value_width,
             MAX_VALUE_LINES,
         );
-        canvas.text(
-            col.x,
-            y - BASELINE_DROP,
-            Face::Regular,
-            LABEL_SIZE,
-            Ink::Muted,
-            label,
-        );
+        muted_label(canvas, col.x, y - BASELINE_DROP, label);
         for (i, line) in lines.iter().enumerate() {
             let baseline = y - BASELINE_DROP - i as f32 * LINE;
             canvas.text(value_x, baseline, Face::Regular, BODY_SIZE, Ink::Text, line);
@@ -102,6 +98,25 @@ pub(super) fn label_rows(
         y -= lines.len() as f32 * LINE;
     }
     top - y
+}
+
+/// A label in the small muted face, on `baseline`.
+pub(super) fn muted_label(canvas: &mut Canvas, x: f32, baseline: f32, label: &str) {
+    canvas.text(x, baseline, Face::Regular, LABEL_SIZE, Ink::Muted, label);
+}
+
+/// Label/value rows in each half of the column, side by side; returns the taller height.
+pub(super) fn rows_side_by_side(
+    canvas: &mut Canvas,
+    col: Column,
+    top: f32,
+    label_width: f32,
+    (left_rows, right_rows): (LabelRows<'_>, LabelRows<'_>),
+) -> f32 {
+    let (left, right) = col.halves();
+    let a = label_rows(canvas, left, top, label_width, left_rows);
+    let b = label_rows(canvas, right, top, label_width, right_rows);
+    a.max(b)
 }
 
 /// Draws one bulleted paragraph per item, each wrapped to the column and cut at

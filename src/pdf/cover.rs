@@ -2,7 +2,7 @@
 //! lot and material, reference curve and clause. Each draws at `top` and returns
 //! its height, so the flow can measure it first.
 
-use super::blocks::{Column, heading, label_rows};
+use super::blocks::{Column, LabelRows, heading, label_rows, rows_side_by_side};
 use super::canvas::{Canvas, Ink};
 use super::layout::BODY_SIZE;
 use super::model::CertificateDoc;
@@ -95,22 +95,16 @@ pub(super) fn title_band(canvas: &mut Canvas, col: Column, top: f32, doc: &Certi
 
 /// Project, contract, client and contractor.
 pub(super) fn parties(canvas: &mut Canvas, col: Column, top: f32, doc: &CertificateDoc) -> f32 {
-    let (left, right) = col.halves();
-    let a = label_rows(
+    rows_side_by_side(
         canvas,
-        left,
+        col,
         top,
         LABEL_WIDTH,
-        &[("Project", &doc.project_name), ("Contract", &doc.contract)],
-    );
-    let b = label_rows(
-        canvas,
-        right,
-        top,
-        LABEL_WIDTH,
-        &[("Client", &doc.client), ("Contractor", &doc.contractor)],
-    );
-    a.max(b)
+        (
+            &[("Project", &doc.project_name), ("Contract", &doc.contract)],
+            &[("Client", &doc.client), ("Contractor", &doc.contractor)],
+        ),
+    )
 }
 
 /// The lot's location and size beside the material and its borrow source.
@@ -120,39 +114,34 @@ pub(super) fn lot_and_material(
     top: f32,
     doc: &CertificateDoc,
 ) -> f32 {
-    let (left, right) = col.halves();
     let lot = &doc.lot;
     let chainage = format!("{} to {}", lot.chainage_from, lot.chainage_to);
-    let h = heading(canvas, left, top, "Lot");
-    let a = h + label_rows(
-        canvas,
-        left,
-        top - h,
-        LABEL_WIDTH,
-        &[
-            ("Lot code", &lot.lot_code),
-            ("Zone", &lot.zone),
-            ("Layer", &lot.layer),
-            ("Chainage", &chainage),
-            ("Offset band", &lot.offset_band),
-            ("Length", &lot.length),
-            ("Area", &lot.area),
-        ],
-    );
     let m = &doc.material;
-    let h = heading(canvas, right, top, "Material and borrow source");
-    let b = h + label_rows(
+    headed_pair(
         canvas,
-        right,
-        top - h,
-        LABEL_WIDTH,
-        &[
-            ("Borrow source", &m.source_name),
-            ("Description", &m.description),
-            ("Classification", &m.classification),
-        ],
-    );
-    a.max(b)
+        col,
+        top,
+        (
+            "Lot",
+            &[
+                ("Lot code", &lot.lot_code),
+                ("Zone", &lot.zone),
+                ("Layer", &lot.layer),
+                ("Chainage", &chainage),
+                ("Offset band", &lot.offset_band),
+                ("Length", &lot.length),
+                ("Area", &lot.area),
+            ],
+        ),
+        (
+            "Material and borrow source",
+            &[
+                ("Borrow source", &m.source_name),
+                ("Description", &m.description),
+                ("Classification", &m.classification),
+            ],
+        ),
+    )
 }
 
 /// The reference lab curve beside the specification clause.
@@ -162,42 +151,63 @@ pub(super) fn reference_and_clause(
     top: f32,
     doc: &CertificateDoc,
 ) -> f32 {
-    let (left, right) = col.halves();
     let r = &doc.reference;
-    let h = heading(canvas, left, top, "Reference compaction curve");
-    let a = h + label_rows(
-        canvas,
-        left,
-        top - h,
-        LABEL_WIDTH,
-        &[
-            ("Lab test", &r.lab_test_code),
-            ("Effort", &r.effort),
-            ("Energy", &r.energy),
-            ("Max. dry density", &r.mdd),
-            ("Optimum moisture", &r.omc),
-            ("Specific gravity Gs", &r.specific_gravity),
-            ("Curve fit", &r.fit_method),
-            ("Curve approval", &r.approval),
-            ("Oversize", &r.oversize_note),
-        ],
-    );
     let c = &doc.clause;
-    let h = heading(canvas, right, top, "Specification clause");
-    let b = h + label_rows(
+    headed_pair(
         canvas,
-        right,
-        top - h,
-        LABEL_WIDTH,
-        &[
-            ("Clause", &c.clause_code),
-            ("Minimum RC", &c.rc_min),
-            ("Moisture window", &c.moisture_window),
-            ("Acceptance rule", &c.rule),
-            ("Test frequency", &c.frequency),
-        ],
-    );
+        col,
+        top,
+        (
+            "Reference compaction curve",
+            &[
+                ("Lab test", &r.lab_test_code),
+                ("Effort", &r.effort),
+                ("Energy", &r.energy),
+                ("Max. dry density", &r.mdd),
+                ("Optimum moisture", &r.omc),
+                ("Specific gravity Gs", &r.specific_gravity),
+                ("Curve fit", &r.fit_method),
+                ("Curve approval", &r.approval),
+                ("Oversize", &r.oversize_note),
+            ],
+        ),
+        (
+            "Specification clause",
+            &[
+                ("Clause", &c.clause_code),
+                ("Minimum RC", &c.rc_min),
+                ("Moisture window", &c.moisture_window),
+                ("Acceptance rule", &c.rule),
+                ("Test frequency", &c.frequency),
+            ],
+        ),
+    )
+}
+
+/// Headed rows in each half of the column, side by side; returns the taller height.
+fn headed_pair(
+    canvas: &mut Canvas,
+    col: Column,
+    top: f32,
+    (left_title, left_rows): (&str, LabelRows<'_>),
+    (right_title, right_rows): (&str, LabelRows<'_>),
+) -> f32 {
+    let (left, right) = col.halves();
+    let a = headed_rows(canvas, left, top, left_title, left_rows);
+    let b = headed_rows(canvas, right, top, right_title, right_rows);
     a.max(b)
+}
+
+/// A heading with its label/value rows under it; returns their height together.
+fn headed_rows(
+    canvas: &mut Canvas,
+    col: Column,
+    top: f32,
+    title: &str,
+    rows: &[(&str, &str)],
+) -> f32 {
+    let h = heading(canvas, col, top, title);
+    h + label_rows(canvas, col, top - h, LABEL_WIDTH, rows)
 }
 
 #[cfg(test)]

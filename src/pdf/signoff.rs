@@ -1,10 +1,10 @@
 //! The closing blocks: submission and acceptance record, the two signature
 //! panels, and the cautions.
 
-use super::blocks::{BASELINE_DROP, Column, bullets, heading, label_rows};
+use super::blocks::{BASELINE_DROP, Column, bullets, heading, muted_label, rows_side_by_side};
 use super::canvas::{Canvas, Ink};
 use super::flow::Block;
-use super::layout::{BODY_SIZE, LABEL_SIZE, LINE};
+use super::layout::{BODY_SIZE, LINE};
 use super::model::CertificateDoc;
 use super::text::{Face, wrap_limited};
 
@@ -28,28 +28,23 @@ pub(super) fn submission_and_acceptance(
 ) -> f32 {
     let s = &doc.signoff;
     let h = heading(canvas, col, top, "Submission and acceptance");
-    let (left, right) = col.halves();
-    let a = label_rows(
+    let rows = rows_side_by_side(
         canvas,
-        left,
+        col,
         top - h,
         82.0,
-        &[
-            ("Submitted by", &s.submitted_by),
-            ("Submitted at", &s.submitted_at),
-        ],
+        (
+            &[
+                ("Submitted by", &s.submitted_by),
+                ("Submitted at", &s.submitted_at),
+            ],
+            &[
+                ("Accepted by", &s.accepted_by),
+                ("Accepted at", &s.accepted_at),
+            ],
+        ),
     );
-    let b = label_rows(
-        canvas,
-        right,
-        top - h,
-        82.0,
-        &[
-            ("Accepted by", &s.accepted_by),
-            ("Accepted at", &s.accepted_at),
-        ],
-    );
-    let mut y = top - h - a.max(b);
+    let mut y = top - h - rows;
     let comment = if s.acceptance_comment.trim().is_empty() {
         "\u{2014}"
     } else {
@@ -62,14 +57,7 @@ pub(super) fn submission_and_acceptance(
         col.width - 82.0,
         MAX_COMMENT_LINES,
     );
-    canvas.text(
-        col.x,
-        y - BASELINE_DROP,
-        Face::Regular,
-        LABEL_SIZE,
-        Ink::Muted,
-        "Comment",
-    );
+    muted_label(canvas, col.x, y - BASELINE_DROP, "Comment");
     for line in &lines {
         canvas.text(
             col.x + 82.0,
@@ -128,14 +116,7 @@ fn panel(canvas: &mut Canvas, col: Column, top: f32, role: &str, name: &str) {
     let inner_x = col.x + 5.0;
     let inner_w = col.width - 10.0;
     let name_line = wrap_limited(name, Face::Regular, BODY_SIZE, inner_w - 30.0, 1).concat();
-    canvas.text(
-        inner_x,
-        top - 25.0,
-        Face::Regular,
-        LABEL_SIZE,
-        Ink::Muted,
-        "Name",
-    );
+    muted_label(canvas, inner_x, top - 25.0, "Name");
     canvas.text(
         inner_x + 30.0,
         top - 25.0,
@@ -182,18 +163,23 @@ fn panel(canvas: &mut Canvas, col: Column, top: f32, role: &str, name: &str) {
     );
 }
 
+/// Cautions as bulleted paragraphs in the small caution type; returns their height.
+fn caution_bullets(canvas: &mut Canvas, col: Column, top: f32, cautions: &[String]) -> f32 {
+    bullets(
+        canvas,
+        col,
+        top,
+        CAUTION_SIZE,
+        CAUTION_LINE,
+        cautions,
+        MAX_CAUTION_LINES,
+    )
+}
+
 /// The whole cautions section: heading and one bulleted paragraph per caution.
 fn all_cautions(canvas: &mut Canvas, col: Column, top: f32, doc: &CertificateDoc) -> f32 {
     let h = heading(canvas, col, top, "Cautions");
-    h + bullets(
-        canvas,
-        col,
-        top - h,
-        CAUTION_SIZE,
-        CAUTION_LINE,
-        &doc.cautions,
-        MAX_CAUTION_LINES,
-    )
+    h + caution_bullets(canvas, col, top - h, &doc.cautions)
 }
 
 /// The cautions as flow blocks: one block that moves to the next page as a whole
@@ -225,15 +211,7 @@ pub(super) fn caution_blocks(
                     0.0
                 };
                 let item = std::slice::from_ref(caution);
-                h + bullets(
-                    canvas,
-                    col,
-                    top - h,
-                    CAUTION_SIZE,
-                    CAUTION_LINE,
-                    item,
-                    MAX_CAUTION_LINES,
-                )
+                h + caution_bullets(canvas, col, top - h, item)
             });
             (if i == 0 { gap } else { 0.0 }, block)
         })

@@ -9,6 +9,7 @@ mod app;
 mod pages;
 mod webdriver;
 
+mod api_docs;
 mod entry_flow;
 mod import_flow;
 mod instrument_flow;

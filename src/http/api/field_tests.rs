@@ -92,9 +92,9 @@ async fn create(
 ) -> Result<(StatusCode, HeaderMap, Json<JudgedTestAnswer>)> {
     let actor = require(&s.db, &caller, Scope::Lot(id), Action::EnterTests).await?;
 
-    if let Some(raw) = headers.get(ledger::idempotent::HEADER) {
-        let key = ledger::idempotent::check_key(raw.to_str().unwrap_or(""))?;
-        return create_once(&s, id, &input, &actor, &key).await;
+    if let Some(key) = idempotency_key(&headers)? {
+        let keyed = s.ledger.record_once(id, &input, &actor, &key).await?;
+        return keyed_answer(&s, keyed).await;
     }
 
     let (t, line) = s.ledger.record_test(id, &input, &actor).await?;
@@ -105,17 +105,12 @@ async fn create(
     ))
 }
 
-/// A POST with an `Idempotency-Key`: 201 with the new test, or 200 with the test the key
-/// made before (marked `Idempotent-Replayed: true`).
-async fn create_once(
-    s: &AppState,
-    lot_id: i64,
-    input: &FieldTestInput,
-    actor: &ledger::Actor,
-    key: &str,
-) -> Result<(StatusCode, HeaderMap, Json<JudgedTestAnswer>)> {
-    let keyed = s.ledger.record_once(lot_id, input, actor, key).await?;
-    keyed_answer(s, keyed).await
+/// The `Idempotency-Key` a POST carries, checked; none when it has no such header.
+fn idempotency_key(headers: &HeaderMap) -> Result<Option<String>> {
+    headers
+        .get(ledger::idempotent::HEADER)
+        .map(|raw| ledger::idempotent::check_key(raw.to_str().unwrap_or("")))
+        .transpose()
 }
 
 /// The answer to a keyed POST: 201 with what it stored now, 200 with what its key stored
@@ -302,8 +297,7 @@ async fn retest(
 ) -> Result<(StatusCode, HeaderMap, Json<JudgedTestAnswer>)> {
     let actor = require(&s.db, &caller, Scope::Test(id), Action::EnterTests).await?;
 
-    if let Some(raw) = headers.get(ledger::idempotent::HEADER) {
-        let key = ledger::idempotent::check_key(raw.to_str().unwrap_or(""))?;
+    if let Some(key) = idempotency_key(&headers)? {
         let keyed = s
             .ledger
             .record_retest_once(id, &input, &actor, &key)

@@ -58,6 +58,16 @@ async fn remove_member(
     }))
 }
 
+/// An administrator's actor and the user they act on (404 when there is none).
+async fn admin_on_user(
+    s: &AppState,
+    caller: &Caller,
+    id: i64,
+) -> Result<(crate::ledger::Actor, users::User)> {
+    let actor = require_admin(caller)?;
+    Ok((actor, user_named(s, id).await?))
+}
+
 async fn user_named(s: &AppState, id: i64) -> Result<users::User> {
     users::get(&s.db, id)
         .await?
@@ -73,8 +83,7 @@ async fn disable(
     caller: Caller,
     ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<UserAnswer>> {
-    let actor = require_admin(&caller)?;
-    let u = user_named(&s, id).await?;
+    let (actor, u) = admin_on_user(&s, &caller, id).await?;
     if matches!(&caller.principal, Principal::User(me) if me.id == u.id) {
         return Err(AppError::invalid(
             "user_id",
@@ -94,8 +103,7 @@ async fn enable(
     caller: Caller,
     ApiPath(id): ApiPath<i64>,
 ) -> Result<Json<UserAnswer>> {
-    let actor = require_admin(&caller)?;
-    let u = user_named(&s, id).await?;
+    let (actor, u) = admin_on_user(&s, &caller, id).await?;
     let done = accounts::set_enabled(&s.db, &u.username, true, &actor).await?;
     Ok(Json((&done).into()))
 }
@@ -120,8 +128,7 @@ async fn reset(
     ApiPath(id): ApiPath<i64>,
     ApiJson(input): ApiJson<ResetInput>,
 ) -> Result<Json<ResetAnswer>> {
-    let actor = require_admin(&caller)?;
-    let u = user_named(&s, id).await?;
+    let (actor, u) = admin_on_user(&s, &caller, id).await?;
     let ended = accounts::reset_password(&s.db, &u.username, &input.new_password, &actor).await?;
     Ok(Json(ResetAnswer {
         username: u.username,

@@ -253,15 +253,24 @@ fn field_error(c: &Context, form: EntryForm, e: AppError) -> PageResult {
     render_status(e.status(), &page(c, form, errors, None))
 }
 
+/// A posted entry form: the caller may enter tests on `scope`, then the form is read.
+async fn entry_post(
+    s: &AppState,
+    caller: &Caller,
+    scope: Scope,
+    body: &[u8],
+) -> Result<(Actor, EntryForm), AppError> {
+    let a = require(&s.db, caller, scope, Action::EnterTests).await?;
+    Ok((a, parse_form(body)?))
+}
+
 async fn new_post(
     State(s): State<AppState>,
     Path(id): Path<i64>,
     caller: Caller,
     body: axum::body::Bytes,
 ) -> PageResult {
-    let a = require(&s.db, &caller, Scope::Lot(id), Action::EnterTests).await?;
-
-    let form: EntryForm = parse_form(&body).map_err(PageError)?;
+    let (a, form) = entry_post(&s, &caller, Scope::Lot(id), &body).await?;
     let c = context(&s, id, None).await?;
     handle(&s, c, form, a).await
 }
@@ -272,9 +281,7 @@ async fn retest_post(
     caller: Caller,
     body: axum::body::Bytes,
 ) -> PageResult {
-    let a = require(&s.db, &caller, Scope::Test(id), Action::EnterTests).await?;
-
-    let form: EntryForm = parse_form(&body).map_err(PageError)?;
+    let (a, form) = entry_post(&s, &caller, Scope::Test(id), &body).await?;
     let failed = ledger::field::require_test(&s.db, id).await?;
     let c = context(&s, failed.lot_id, Some(failed)).await?;
     handle(&s, c, form, a).await

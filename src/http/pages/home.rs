@@ -12,9 +12,9 @@ use crate::app::AppState;
 use crate::auth::{Action, allows};
 use crate::db;
 use crate::domain::{DisplayState, LotState};
-use crate::http::caller::{Caller, Scope, require};
+use crate::http::caller::Caller;
 use crate::ledger::lot_report::LotReport;
-use crate::ledger::{overview, setup};
+use crate::ledger::overview;
 use crate::present::{self, Units};
 
 /// Routes of this module.
@@ -260,9 +260,7 @@ async fn project_home(
     caller: Caller,
     Path(id): Path<i64>,
 ) -> PageResult {
-    require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
-
-    let p = setup::require_project(&s.db, id).await?;
+    let p = super::readable_project(&s, &caller, id).await?;
     let role = caller.role_in(&s.db, id).await?;
     let may_import = role.is_some_and(|r| allows(r, Action::ManageSetup));
     // The set-up page is for admins (people) and those who change set-up or tokens.
@@ -332,9 +330,7 @@ struct SourcesPage {
 }
 
 async fn sources(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
-    require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
-
-    let p = setup::require_project(&s.db, id).await?;
+    let p = super::readable_project(&s, &caller, id).await?;
     let u = Units::of(&p);
     let mut blocks = Vec::new();
     for src in db::sources::list(&s.db, id).await? {

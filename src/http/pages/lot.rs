@@ -9,7 +9,7 @@ use axum::routing::{get, post};
 
 use super::{PageError, PageResult, ProjectNav, cautions, see_other};
 use crate::app::AppState;
-use crate::auth::{Action, allows};
+use crate::auth::{Action, Role, allows};
 use crate::charts::{RcBar, RcChartInput, RcStatus, rc_chart};
 use crate::db;
 use crate::error::AppError;
@@ -220,6 +220,7 @@ async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
     sheet_with(&s, &caller, id, String::new(), StatusCode::OK).await
 }
 
+/// The lot sheet with `message` above it (a refused action's reasons), answered with `status`.
 async fn sheet_with(
     s: &AppState,
     caller: &Caller,
@@ -229,9 +230,17 @@ async fn sheet_with(
 ) -> PageResult {
     let r = lot_report::build(&s.db, id).await?;
     let role = caller.role_in(&s.db, r.project.id).await?;
-    let may = |a: Action| role.is_some_and(|r| allows(r, a));
-    let u = Units::of(&r.project);
-    let certs = db::certificates::for_lot(&s.db, id)
+    let records = Records {
+        certs: cert_lines(s, id).await?,
+        history: history_lines(s, id).await?,
+    };
+    let page = LotPage::new(&r, role, records, message);
+    super::render_status(status, &page)
+}
+
+/// The lot's certificate revisions, as stored.
+async fn cert_lines(s: &AppState, lot_id: i64) -> crate::error::Result<Vec<CertLine>> {
+    Ok(db::certificates::for_lot(&s.db, lot_id)
         .await?
         .into_iter()
         .map(|c| CertLine {
@@ -242,8 +251,12 @@ async fn sheet_with(
             revision: c.revision,
             issued: crate::clock::display(&c.issued_at),
         })
-        .collect();
-    let history = db::lots::transitions(&s.db, id)
+        .collect())
+}
+
+/// The lot's state changes, with their comments.
+async fn history_lines(s: &AppState, lot_id: i64) -> crate::error::Result<Vec<HistoryLine>> {
+    Ok(db::lots::transitions(&s.db, lot_id)
         .await?
         .into_iter()
         .map(|t| HistoryLine {
@@ -255,8 +268,17 @@ async fn sheet_with(
                 format!("{} → {}: {}", t.from_state, t.to_state, t.comment)
             },
         })
-        .collect();
-    let c = &r.clause;
+        .collect())
+}
+
+/// What the sheet lists under the lot besides its report.
+struct Records {
+    certs: Vec<CertLine>,
+    history: Vec<HistoryLine>,
+}
+
+/// The clause's test frequency in words: "at least 3 per lot, one per 500 m²".
+fn frequency_words(c: &db::clauses::Clause, u: &Units) -> String {
     let mut frequency = vec![format!("at least {} per lot", c.min_tests_per_lot)];
     if let Some(a) = c.area_per_test_m2 {
         frequency.push(format!("one per {}", u.area(a)));
@@ -264,77 +286,90 @@ async fn sheet_with(
     if let Some(l) = c.length_per_test_m {
         frequency.push(format!("one per {}", u.length(l)));
     }
-    let v = &r.verdict;
-    let page = LotPage {
-        nav: ProjectNav {
-            id: r.project.id,
-            name: r.project.code.clone(),
-        },
-        id,
-        code: r.lot.code.clone(),
-        state: r.display_state.token().to_string(),
-        state_label: r.display_state.label().to_string(),
-        zone: r.lot.zone_name.clone(),
-        layer: r.lot.layer_number,
-        from: u.chainage(r.lot.chainage_from_m),
-        to: u.chainage(r.lot.chainage_to_m),
-        band: format!(
-            "{} to {}",
-            u.offset(r.lot.offset_left_m),
-            u.offset(r.lot.offset_right_m)
-        ),
-        length: u.length(r.length_m),
-        area: u.area(r.area_m2),
-        clause: c.code.clone(),
-        clause_title: c.title.clone(),
-        rc_min: format!("{:.1} %", c.rc_min_pct),
-        window: match &v.air_voids_limit {
-            Some(av) => format!("{}; air voids {av}", v.moisture_window),
-            None => v.moisture_window.clone(),
-        },
-        rule: v.rule_label.clone(),
-        frequency: frequency.join(", "),
-        lab_id: r.lab_test.id,
-        lab_code: r.lab_test.code.clone(),
-        source: format!("{} ({})", r.source.name, r.source.code),
-        mdd: u.density_with_unit(r.lab_test.max_dry_density_kg_m3),
-        omc: format!("{:.1} %", r.lab_test.optimum_water_content_pct),
-        gs: format!("{:.2}", r.lab_test.specific_gravity),
-        effort: r.lab_test.effort.label(),
-        density_unit: u.density_unit().to_string(),
-        rows: rows(&r, &u, may(Action::EnterTests), may(Action::VoidTest)),
-        accepted: v.accepted,
-        n: v.n,
-        mean: present::pct(v.mean),
-        sd: v.std_dev.map_or("–".into(), |x| format!("{x:.2}")),
-        min: present::pct(v.min),
-        max: present::pct(v.max),
-        q: v.quality_index.map_or("–".into(), |x| format!("{x:.2}")),
-        pwl: present::pct(v.pwl),
-        reasons: v.reasons.clone(),
-        required: r.tests_required,
-        owed: r.tests_owed,
-        blockers: r.submit_blockers.clone(),
-        chart: chart(&r),
-        can_add: may(Action::EnterTests) && r.lot.state.takes_tests(),
-        can_submit: may(Action::SubmitLot)
-            && r.lot.state.may_become(LotState::Submitted)
-            && r.submit_blockers.is_empty(),
-        show_blockers: r.lot.state.may_become(LotState::Submitted),
-        can_review: may(Action::ReviewLot) && r.lot.state == LotState::Submitted,
-        can_reissue: may(Action::ReviewLot)
-            && r.lot.state == LotState::Accepted
-            && !r.certificate_current,
-        role: role.map_or("no project role".to_string(), |r| r.label().to_string()),
-        cert_stale: r.lot.state == LotState::Accepted
-            && r.certificate.is_some()
-            && !r.certificate_current,
-        certs,
-        history,
-        message,
-        cautions: cautions(),
-    };
-    super::render_status(status, &page)
+    frequency.join(", ")
+}
+
+/// The moisture window, with the air-voids limit when the clause sets one.
+fn window_words(v: &lot_report::Verdict) -> String {
+    match &v.air_voids_limit {
+        Some(av) => format!("{}; air voids {av}", v.moisture_window),
+        None => v.moisture_window.clone(),
+    }
+}
+
+impl LotPage {
+    /// The sheet of a judged lot as the caller's `role` sees it.
+    fn new(r: &LotReport, role: Option<Role>, records: Records, message: String) -> Self {
+        let may = |a: Action| role.is_some_and(|r| allows(r, a));
+        let u = Units::of(&r.project);
+        let (c, v, lot) = (&r.clause, &r.verdict, &r.lot);
+        LotPage {
+            nav: ProjectNav {
+                id: r.project.id,
+                name: r.project.code.clone(),
+            },
+            id: lot.id,
+            code: lot.code.clone(),
+            state: r.display_state.token().to_string(),
+            state_label: r.display_state.label().to_string(),
+            zone: lot.zone_name.clone(),
+            layer: lot.layer_number,
+            from: u.chainage(lot.chainage_from_m),
+            to: u.chainage(lot.chainage_to_m),
+            band: format!(
+                "{} to {}",
+                u.offset(lot.offset_left_m),
+                u.offset(lot.offset_right_m)
+            ),
+            length: u.length(r.length_m),
+            area: u.area(r.area_m2),
+            clause: c.code.clone(),
+            clause_title: c.title.clone(),
+            rc_min: format!("{:.1} %", c.rc_min_pct),
+            window: window_words(v),
+            rule: v.rule_label.clone(),
+            frequency: frequency_words(c, &u),
+            lab_id: r.lab_test.id,
+            lab_code: r.lab_test.code.clone(),
+            source: format!("{} ({})", r.source.name, r.source.code),
+            mdd: u.density_with_unit(r.lab_test.max_dry_density_kg_m3),
+            omc: format!("{:.1} %", r.lab_test.optimum_water_content_pct),
+            gs: format!("{:.2}", r.lab_test.specific_gravity),
+            effort: r.lab_test.effort.label(),
+            density_unit: u.density_unit().to_string(),
+            rows: rows(r, &u, may(Action::EnterTests), may(Action::VoidTest)),
+            accepted: v.accepted,
+            n: v.n,
+            mean: present::pct(v.mean),
+            sd: v.std_dev.map_or("–".into(), |x| format!("{x:.2}")),
+            min: present::pct(v.min),
+            max: present::pct(v.max),
+            q: v.quality_index.map_or("–".into(), |x| format!("{x:.2}")),
+            pwl: present::pct(v.pwl),
+            reasons: v.reasons.clone(),
+            required: r.tests_required,
+            owed: r.tests_owed,
+            blockers: r.submit_blockers.clone(),
+            chart: chart(r),
+            can_add: may(Action::EnterTests) && lot.state.takes_tests(),
+            can_submit: may(Action::SubmitLot)
+                && lot.state.may_become(LotState::Submitted)
+                && r.submit_blockers.is_empty(),
+            show_blockers: lot.state.may_become(LotState::Submitted),
+            can_review: may(Action::ReviewLot) && lot.state == LotState::Submitted,
+            can_reissue: may(Action::ReviewLot)
+                && lot.state == LotState::Accepted
+                && !r.certificate_current,
+            role: role.map_or("no project role".to_string(), |r| r.label().to_string()),
+            cert_stale: lot.state == LotState::Accepted
+                && r.certificate.is_some()
+                && !r.certificate_current,
+            certs: records.certs,
+            history: records.history,
+            message,
+            cautions: cautions(),
+        }
+    }
 }
 
 /// The comment box of a review form.
@@ -344,21 +379,43 @@ struct CommentForm {
     comment: String,
 }
 
-/// Runs a lot action; on refusal, re-renders the sheet with the reasons and the right status.
-async fn act<F, Fut>(s: &AppState, caller: &Caller, id: i64, body: &[u8], f: F) -> PageResult
-where
-    F: FnOnce(String) -> Fut,
-    Fut: std::future::Future<Output = crate::error::Result<LotReport>>,
-{
+/// A review step posted from the sheet.
+#[derive(Clone, Copy)]
+enum Step {
+    Submit,
+    Accept,
+    Reject,
+}
+
+impl Step {
+    /// The permission the step needs.
+    fn action(self) -> Action {
+        match self {
+            Step::Submit => Action::SubmitLot,
+            Step::Accept | Step::Reject => Action::ReviewLot,
+        }
+    }
+}
+
+/// Runs a review step; on refusal, re-renders the sheet with the reasons and the right status.
+async fn act(s: AppState, caller: Caller, id: i64, body: &[u8], step: Step) -> PageResult {
+    let a = require(&s.db, &caller, Scope::Lot(id), step.action()).await?;
+
     let form: CommentForm = parse_form(body).map_err(PageError)?;
-    match f(form.comment).await {
+    let c = form.comment;
+    let done = match step {
+        Step::Submit => ledger::review::submit(&s.db, id, &c, &a).await,
+        Step::Accept => ledger::review::accept(&s.db, id, &c, &a).await,
+        Step::Reject => ledger::review::reject(&s.db, id, &c, &a).await,
+    };
+    match done {
         Ok(_) => Ok(see_other(&format!("/lots/{id}"))),
         Err(e @ (AppError::Conflict { .. } | AppError::Invalid { .. })) => {
             let mut msg = e.user_message();
             if !e.reasons().is_empty() {
                 msg = format!("{msg}: {}", e.reasons().join("; "));
             }
-            sheet_with(s, caller, id, msg, e.status()).await
+            sheet_with(&s, &caller, id, msg, e.status()).await
         }
         Err(e) => Err(e.into()),
     }
@@ -370,13 +427,7 @@ async fn submit(
     caller: Caller,
     body: axum::body::Bytes,
 ) -> PageResult {
-    let a = require(&s.db, &caller, Scope::Lot(id), Action::SubmitLot).await?;
-
-    let db = s.db.clone();
-    act(&s, &caller, id, &body, |c| async move {
-        ledger::review::submit(&db, id, &c, &a).await
-    })
-    .await
+    act(s, caller, id, &body, Step::Submit).await
 }
 
 async fn accept(
@@ -385,13 +436,7 @@ async fn accept(
     caller: Caller,
     body: axum::body::Bytes,
 ) -> PageResult {
-    let a = require(&s.db, &caller, Scope::Lot(id), Action::ReviewLot).await?;
-
-    let db = s.db.clone();
-    act(&s, &caller, id, &body, |c| async move {
-        ledger::review::accept(&db, id, &c, &a).await
-    })
-    .await
+    act(s, caller, id, &body, Step::Accept).await
 }
 
 async fn reject(
@@ -400,13 +445,7 @@ async fn reject(
     caller: Caller,
     body: axum::body::Bytes,
 ) -> PageResult {
-    let a = require(&s.db, &caller, Scope::Lot(id), Action::ReviewLot).await?;
-
-    let db = s.db.clone();
-    act(&s, &caller, id, &body, |c| async move {
-        ledger::review::reject(&db, id, &c, &a).await
-    })
-    .await
+    act(s, caller, id, &body, Step::Reject).await
 }
 
 /// The reason box of the void form.

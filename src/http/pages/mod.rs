@@ -199,6 +199,17 @@ pub struct ProjectNav {
     pub name: String,
 }
 
+/// A project page's first steps: the caller may read the project, and it exists.
+pub async fn readable_project(
+    s: &AppState,
+    caller: &crate::http::caller::Caller,
+    id: i64,
+) -> PageResult<crate::db::projects::Project> {
+    use crate::http::caller::{Scope, require};
+    require(&s.db, caller, Scope::Project(id), crate::auth::Action::Read).await?;
+    Ok(crate::ledger::setup::require_project(&s.db, id).await?)
+}
+
 /// The cautions as owned strings for templates.
 pub fn cautions() -> Vec<String> {
     crate::present::CAUTIONS

@@ -438,8 +438,7 @@ async fn charts_page(
     Path(id): Path<i64>,
     Query(q): Query<ChartQuery>,
 ) -> PageResult {
-    require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
-    let project = crate::ledger::setup::require_project(&s.db, id).await?;
+    let project = super::readable_project(&s, &caller, id).await?;
     let groups = watch::control_charts(&s.db, id, q.by, q.measure).await?;
     render(&ChartsPage {
         nav: ProjectNav {

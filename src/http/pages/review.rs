@@ -42,9 +42,7 @@ struct QueuePage {
 }
 
 async fn queue(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
-    require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
-
-    let p = setup::require_project(&s.db, id).await?;
+    let p = super::readable_project(&s, &caller, id).await?;
     let u = Units::of(&p);
     let mut rows = Vec::new();
     for l in db::lots::in_state(&s.db, id, LotState::Submitted).await? {
@@ -79,6 +77,14 @@ async fn queue(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -
     })
 }
 
+/// The code of a certificate's lot (blank if the lot is gone).
+async fn lot_code(s: &AppState, lot_id: i64) -> crate::error::Result<String> {
+    Ok(db::lots::get(&s.db, lot_id)
+        .await?
+        .map(|l| l.code)
+        .unwrap_or_default())
+}
+
 /// A certificate revision in a list.
 struct CertRow {
     id: i64,
@@ -106,15 +112,10 @@ async fn certificates(
     caller: Caller,
     Path(id): Path<i64>,
 ) -> PageResult {
-    require(&s.db, &caller, Scope::Project(id), Action::Read).await?;
-
-    let p = setup::require_project(&s.db, id).await?;
+    let p = super::readable_project(&s, &caller, id).await?;
     let mut rows = Vec::new();
     for c in db::certificates::for_project(&s.db, id).await? {
-        let lot = db::lots::get(&s.db, c.lot_id)
-            .await?
-            .map(|l| l.code)
-            .unwrap_or_default();
+        let lot = lot_code(&s, c.lot_id).await?;
         rows.push(CertRow {
             current: c.is_current(),
             withdrawn: c.withdrawn_at.is_some(),
@@ -162,10 +163,7 @@ async fn certificate(State(s): State<AppState>, caller: Caller, Path(id): Path<i
 
     let c = verify::require_certificate(&s.db, id).await?;
     let p = setup::require_project(&s.db, c.project_id).await?;
-    let lot = db::lots::get(&s.db, c.lot_id)
-        .await?
-        .map(|l| l.code)
-        .unwrap_or_default();
+    let lot = lot_code(&s, c.lot_id).await?;
     let others = db::certificates::for_lot(&s.db, c.lot_id)
         .await?
         .into_iter()

@@ -252,6 +252,15 @@ fn si_units() -> crate::present::Units {
     }
 }
 
+/// An administrator's button post: the admin first, then the form's fields.
+fn admin_form<T: serde::de::DeserializeOwned>(
+    caller: &Caller,
+    body: &[u8],
+) -> PageResult<(crate::ledger::Actor, T)> {
+    let actor = require_admin(caller)?;
+    Ok((actor, crate::http::extract::parse_form(body)?))
+}
+
 /// Body of the remove button beside a member.
 #[derive(serde::Deserialize)]
 struct RemoveInput {
@@ -264,8 +273,7 @@ async fn member_remove(
     Path(id): Path<i64>,
     body: Bytes,
 ) -> PageResult {
-    let actor = require_admin(&caller)?;
-    let input: RemoveInput = crate::http::extract::parse_form(&body)?;
+    let (actor, input): (_, RemoveInput) = admin_form(&caller, &body)?;
     accounts::remove_member(&s.db, &input.username, id, &actor).await?;
     Ok(see_other(&format!("/projects/{id}/setup")))
 }
@@ -282,8 +290,7 @@ async fn user_access(
     Path(username): Path<String>,
     body: Bytes,
 ) -> PageResult {
-    let actor = require_admin(&caller)?;
-    let input: AccessInput = crate::http::extract::parse_form(&body)?;
+    let (actor, input): (_, AccessInput) = admin_form(&caller, &body)?;
     accounts::set_enabled(&s.db, &username, input.enabled == "yes", &actor).await?;
     Ok(see_other("/setup/users"))
 }
