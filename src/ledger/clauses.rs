@@ -43,6 +43,7 @@ pub struct ClauseInput {
     pub min_pwl_pct: Option<f64>,
     pub area_per_test_m2: Option<f64>,
     pub length_per_test_m: Option<f64>,
+    #[serde(deserialize_with = "crate::ledger::validate::whole::i64")]
     pub min_tests_per_lot: i64,
     pub oversize_limit_pct: Option<f64>,
     /// "per_test" (default, under every rule) or "pwl" (quality-index clauses only).

@@ -24,6 +24,7 @@ pub struct SplitInput {
     /// Lot codes are this prefix followed by a running number.
     pub code_prefix: String,
     #[serde(default = "one")]
+    #[serde(deserialize_with = "crate::ledger::validate::whole::i64")]
     pub first_number: i64,
     pub offset_left_m: f64,
     pub offset_right_m: f64,

@@ -126,7 +126,7 @@ pub fn exclusions_of(p: &TestPlan) -> Vec<Exclusion> {
 #[serde(deny_unknown_fields)]
 pub struct PlanRequest {
     /// The seed; a fresh random one when absent (stored either way).
-    #[serde(default)]
+    #[serde(default, deserialize_with = "crate::ledger::validate::whole::opt_u64")]
     pub seed: Option<u64>,
     /// Least distance from the lot's edges, metres (common practice: 0.3 m).
     #[serde(default = "default_edge")]

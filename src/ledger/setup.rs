@@ -176,6 +176,7 @@ pub async fn create_source(
 #[serde(deny_unknown_fields)]
 pub struct LayerInput {
     pub zone: String,
+    #[serde(deserialize_with = "crate::ledger::validate::whole::i64")]
     pub number: i64,
     pub thickness_mm: Option<f64>,
 }

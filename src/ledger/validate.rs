@@ -93,3 +93,88 @@ pub fn date(field: &str, value: &str) -> Result<String, AppError> {
             )
         })
 }
+
+/// Serde readers for whole-number fields that also take a JSON number written with a zero
+/// fraction (`132.0`): JSON Schema's `integer` includes it, and clients that hold every
+/// number as a float send it so. A fraction that is not zero is still refused.
+pub mod whole {
+    use serde::de::{Deserialize, Deserializer, Error};
+
+    /// The number as a whole `f64`, or the refusal.
+    fn whole<'de, D: Deserializer<'de>>(d: D) -> Result<f64, D::Error> {
+        let v = serde_json::Number::deserialize(d)?;
+        if let Some(i) = v.as_i64() {
+            return Ok(i as f64);
+        }
+        if let Some(u) = v.as_u64() {
+            return Ok(u as f64);
+        }
+        let f = v.as_f64().unwrap_or(f64::NAN);
+        if f.fract() == 0.0 && f.is_finite() {
+            Ok(f)
+        } else {
+            Err(D::Error::custom(format!("{v} is not a whole number")))
+        }
+    }
+
+    /// A whole number in the range of `i64` (integral floats beyond 2^53 are refused as
+    /// they no longer name one integer).
+    pub fn i64<'de, D: Deserializer<'de>>(d: D) -> Result<i64, D::Error> {
+        let f = whole(d)?;
+        if f.abs() > 9_007_199_254_740_992.0 {
+            return Err(D::Error::custom(format!("{f} is too large")));
+        }
+        Ok(f as i64)
+    }
+
+    /// An optional whole, non-negative number.
+    pub fn opt_u64<'de, D: Deserializer<'de>>(d: D) -> Result<Option<u64>, D::Error> {
+        let Some(v) = Option::<serde_json::Number>::deserialize(d)? else {
+            return Ok(None);
+        };
+        if let Some(u) = v.as_u64() {
+            return Ok(Some(u));
+        }
+        let f = v.as_f64().unwrap_or(f64::NAN);
+        if f.fract() == 0.0 && (0.0..=9_007_199_254_740_992.0).contains(&f) {
+            Ok(Some(f as u64))
+        } else {
+            Err(D::Error::custom(format!(
+                "{v} is not a whole number of at least 0"
+            )))
+        }
+    }
+}
+
+#[cfg(test)]
+mod whole_tests {
+    #[derive(Debug, serde::Deserialize)]
+    struct N {
+        #[serde(deserialize_with = "super::whole::i64")]
+        n: i64,
+        #[serde(default, deserialize_with = "super::whole::opt_u64")]
+        seed: Option<u64>,
+    }
+
+    fn read(json: &str) -> Result<N, String> {
+        serde_json::from_str::<N>(json).map_err(|e| e.to_string())
+    }
+
+    #[test]
+    fn whole_numbers_are_read_with_or_without_a_zero_fraction() {
+        assert_eq!(read(r#"{"n": 132}"#).unwrap().n, 132);
+        assert_eq!(read(r#"{"n": 132.0}"#).unwrap().n, 132);
+        assert_eq!(read(r#"{"n": -4}"#).unwrap().n, -4);
+        let r = read(r#"{"n": 1, "seed": 4388.0}"#).unwrap();
+        assert_eq!(r.seed, Some(4388));
+        assert_eq!(read(r#"{"n": 1}"#).unwrap().seed, None);
+        assert!(
+            read(r#"{"n": 132.5}"#)
+                .unwrap_err()
+                .contains("not a whole number")
+        );
+        assert!(read(r#"{"n": "132"}"#).is_err());
+        assert!(read(r#"{"n": 1, "seed": -1}"#).is_err());
+        assert!(read(r#"{"n": 1e300}"#).unwrap_err().contains("too large"));
+    }
+}

@@ -41,7 +41,7 @@ pub struct ExportFilter {
     pub layer_id: Option<i64>,
     pub date_from: Option<String>,
     pub date_to: Option<String>,
-    pub method: Option<String>,
+    pub method: Option<crate::domain::Method>,
     pub verdict: Option<String>,
 }
 
@@ -72,13 +72,23 @@ impl ExportFilter {
             ),
         };
         let nonempty = |s: &str| Some(s.trim().to_string()).filter(|s| !s.is_empty());
+        let method = nonempty(&t.method)
+            .map(|m| {
+                m.parse::<crate::domain::Method>().map_err(|_| {
+                    AppError::invalid(
+                        "method",
+                        format!("unknown method '{m}'; use nuclear, sand_cone, balloon or drive_cylinder"),
+                    )
+                })
+            })
+            .transpose()?;
         Ok(Self {
             chainage_from_m: ch("from", &t.from)?,
             chainage_to_m: ch("to", &t.to)?,
             layer_id,
             date_from: date("date_from", &t.date_from)?,
             date_to: date("date_to", &t.date_to)?,
-            method: nonempty(&t.method),
+            method,
             verdict: nonempty(&t.verdict),
         })
     }
@@ -92,7 +102,7 @@ impl ExportFilter {
             || self.chainage_to_m.is_some_and(|m| t.chainage_m > m)
             || self.date_from.as_ref().is_some_and(|d| day < *d)
             || self.date_to.as_ref().is_some_and(|d| day > *d)
-            || self.method.as_ref().is_some_and(|m| t.method.code() != m)
+            || self.method.is_some_and(|m| t.method != m)
             || self
                 .verdict
                 .as_ref()

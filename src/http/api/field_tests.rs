@@ -159,13 +159,13 @@ struct TestQuery {
     /// Tests before this chainage, m.
     chainage_to_m: Option<f64>,
     /// Tests taken at or after this time (RFC 3339, or a date).
-    #[param(pattern = r"^\d{4}-\d{2}-\d{2}")]
+    #[param(pattern = r"^\d{4}-(0[1-9]|1[0-2])-(0[1-9]|[12]\d|3[01])")]
     tested_from: Option<String>,
     /// Tests taken before this time (RFC 3339, or a date).
-    #[param(pattern = r"^\d{4}-\d{2}-\d{2}")]
+    #[param(pattern = r"^\d{4}-(0[1-9]|1[0-2])-(0[1-9]|[12]\d|3[01])")]
     tested_before: Option<String>,
     #[param(value_type = Option<super::codes::Method>)]
-    method: Option<String>,
+    method: Option<crate::domain::Method>,
     /// Page number, from 1.
     #[param(minimum = 1)]
     page: Option<i64>,
@@ -204,7 +204,7 @@ async fn list_for_project(
         chainage_to_m: q.chainage_to_m,
         tested_from: ts("tested_from", &q.tested_from)?,
         tested_before: ts("tested_before", &q.tested_before)?,
-        method: q.method.clone(),
+        method: q.method.map(|m| m.code().to_string()),
         limit,
         offset,
     };

@@ -535,6 +535,37 @@ struct FamilyQuery {
     effort: Option<String>,
 }
 
+/// A source's curves and one-point checks of one effort: the effort asked for, else the
+/// first curve's (none, and nothing drawn, for a source without curves). The effort comes
+/// back as its code for the page.
+async fn family_of(
+    s: &AppState,
+    source_id: i64,
+    asked: Option<&str>,
+) -> crate::error::Result<(
+    String,
+    Vec<(
+        db::lab_tests::LabTest,
+        crate::reduction::one_point::FamilyCurve,
+    )>,
+    Vec<db::planning::OnePointCheck>,
+)> {
+    let labs = db::lab_tests::list_for_source(&s.db, source_id).await?;
+    let effort = asked
+        .and_then(crate::domain::LabEffort::parse_code)
+        .or_else(|| labs.first().map(|l| l.effort.clone()));
+    let fam = match &effort {
+        Some(e) => crate::ledger::one_point::family(&s.db, source_id, e).await?,
+        None => Vec::new(),
+    };
+    let checks = db::planning::one_points_for_source(&s.db, source_id)
+        .await?
+        .into_iter()
+        .filter(|c| Some(&c.effort) == effort.as_ref())
+        .collect();
+    Ok((effort.map(|e| e.code()).unwrap_or_default(), fam, checks))
+}
+
 async fn family_page(
     State(s): State<AppState>,
     caller: Caller,
@@ -546,23 +577,7 @@ async fn family_page(
         .await?
         .ok_or_else(|| AppError::not_found("source_id", format!("source {id} does not exist")))?;
     let project = crate::ledger::setup::require_project(&s.db, source.project_id).await?;
-    let labs = db::lab_tests::list_for_source(&s.db, id).await?;
-    // The effort asked for, else the first curve's (none: a source without curves).
-    let effort = q
-        .effort
-        .as_deref()
-        .and_then(crate::domain::LabEffort::parse_code)
-        .or_else(|| labs.first().map(|l| l.effort.clone()));
-    let fam = match &effort {
-        Some(e) => crate::ledger::one_point::family(&s.db, id, e).await?,
-        None => Vec::new(),
-    };
-    let checks: Vec<_> = db::planning::one_points_for_source(&s.db, id)
-        .await?
-        .into_iter()
-        .filter(|c| Some(&c.effort) == effort.as_ref())
-        .collect();
-    let effort = effort.map(|e| e.code()).unwrap_or_default();
+    let (effort, fam, checks) = family_of(&s, id, q.effort.as_deref()).await?;
     let u = Units::of(&project);
     let chart = family_chart(
         &format!("Family of curves, source {} ({effort})", source.code),

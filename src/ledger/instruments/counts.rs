@@ -20,7 +20,9 @@ pub struct CountInput {
     /// The project whose tolerances judge it (the gauge must be assigned to it that day).
     pub project_id: i64,
     pub counted_on: String,
+    #[serde(deserialize_with = "crate::ledger::validate::whole::i64")]
     pub density_count: i64,
+    #[serde(deserialize_with = "crate::ledger::validate::whole::i64")]
     pub moisture_count: i64,
 }
 
