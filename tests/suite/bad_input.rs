@@ -316,6 +316,13 @@ async fn every_route_refuses_bad_input_and_changes_nothing() {
             "values[1]",
         ),
         ("/api/v1/verify".into(), json!({}), 422, "body"),
+        // A second way to name the certificate, set to null, is refused by its name.
+        (
+            "/api/v1/verify".into(),
+            json!({"code": "7K2M-Q9XD", "pdf_base64": null}),
+            400,
+            "pdf_base64",
+        ),
     ];
     for (path, body, status, field) in &cases {
         let (s, e) = app.post(path, body).await;

@@ -104,14 +104,26 @@ async fn pdf(
 #[schema(example = json!({"code": "7K2M-Q9XD"}), min_properties = 1, max_properties = 1)]
 struct VerifyInput {
     /// The verification code printed on the certificate.
+    #[serde(default, deserialize_with = "given_text")]
     #[schema(nullable = false, pattern = r"\S")]
     code: Option<String>,
     /// SHA-256 of the PDF, hex.
+    #[serde(default, deserialize_with = "given_text")]
     #[schema(nullable = false, pattern = r"\S")]
     sha256: Option<String>,
     /// The PDF itself, standard base64.
+    #[serde(default, deserialize_with = "given_text")]
     #[schema(nullable = false)]
     pdf_base64: Option<String>,
+}
+
+/// A field that may be left out but, when given, is text: `null` is refused with the field
+/// named (the body names its certificate one way, and a second key set to `null` is a
+/// client's mistake worth saying).
+fn given_text<'de, D: serde::Deserializer<'de>>(
+    d: D,
+) -> std::result::Result<Option<String>, D::Error> {
+    String::deserialize(d).map(Some)
 }
 
 /// Identify a certificate by code, hash or PDF bytes (no sign-in needed).

@@ -148,11 +148,11 @@ struct ExportFilters {
     to: Option<String>,
     /// Layer id.
     layer: Option<String>,
-    /// First day, `YYYY-MM-DD`.
-    #[param(format = Date)]
+    /// First day, `YYYY-MM-DD` (empty: no bound, as the test list's form sends it).
+    #[param(pattern = r"^(\d{4}-(0[1-9]|1[0-2])-(0[1-9]|[12]\d|3[01]))?$")]
     date_from: Option<String>,
-    /// Last day, `YYYY-MM-DD`.
-    #[param(format = Date)]
+    /// Last day, `YYYY-MM-DD` (empty: no bound).
+    #[param(pattern = r"^(\d{4}-(0[1-9]|1[0-2])-(0[1-9]|[12]\d|3[01]))?$")]
     date_to: Option<String>,
     #[param(value_type = Option<codes::Method>)]
     method: Option<String>,
