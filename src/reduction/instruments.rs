@@ -327,26 +327,48 @@ pub struct Offsets {
 pub enum OffsetError {
     #[error("{got} pairs given; an offset needs at least {MIN_OFFSET_PAIRS}")]
     TooFewPairs { got: usize },
-    #[error("pair {index}: {what} must be a positive finite number")]
-    BadValue { index: usize, what: &'static str },
+    #[error("pair {index}: {what} must be above {} and at most {}", .range.0, .range.1)]
+    BadValue {
+        index: usize,
+        what: &'static str,
+        /// The open lower and closed upper bound the value must lie in.
+        range: (f64, f64),
+    },
 }
 
 /// Offsets as the mean difference reference − gauge over the pairs (ASTM D6938 annex on
 /// offsets, from memory; DOMAIN.md: "mean difference, several pairs"). The rule: at least
-/// three pairs, every value positive and finite.
+/// three pairs, every density above 0 and at most 3,000 kg/m³ and every water content above
+/// 0 and at most 100 % (the bounds a field reading has elsewhere; a value beyond them is a
+/// typing slip, and the mean of such values would not even be finite).
 pub fn offsets_from_pairs(pairs: &[OffsetPair]) -> Result<Offsets, OffsetError> {
     if pairs.len() < MIN_OFFSET_PAIRS {
         return Err(OffsetError::TooFewPairs { got: pairs.len() });
     }
     for (i, p) in pairs.iter().enumerate() {
+        const DENSITY: (f64, f64) = (0.0, 3000.0);
+        const WATER: (f64, f64) = (0.0, 100.0);
         let checks = [
-            (p.gauge_wet_density_kg_m3, "gauge_wet_density_kg_m3"),
-            (p.reference_wet_density_kg_m3, "reference_wet_density_kg_m3"),
-            (p.gauge_water_content_pct, "gauge_water_content_pct"),
-            (p.oven_water_content_pct, "oven_water_content_pct"),
+            (
+                p.gauge_wet_density_kg_m3,
+                "gauge_wet_density_kg_m3",
+                DENSITY,
+            ),
+            (
+                p.reference_wet_density_kg_m3,
+                "reference_wet_density_kg_m3",
+                DENSITY,
+            ),
+            (p.gauge_water_content_pct, "gauge_water_content_pct", WATER),
+            (p.oven_water_content_pct, "oven_water_content_pct", WATER),
         ];
-        if let Some((_, what)) = checks.iter().find(|(v, _)| !v.is_finite() || *v <= 0.0) {
-            return Err(OffsetError::BadValue { index: i, what });
+        let outside = |v: f64, (low, high): (f64, f64)| !(v.is_finite() && v > low && v <= high);
+        if let Some(&(_, what, range)) = checks.iter().find(|(v, _, r)| outside(*v, *r)) {
+            return Err(OffsetError::BadValue {
+                index: i,
+                what,
+                range,
+            });
         }
     }
     let n = pairs.len() as f64;
@@ -552,6 +574,23 @@ mod tests {
             offsets_from_pairs(&bad),
             Err(OffsetError::BadValue { index: 1, .. })
         ));
+        // A typing slip far beyond a reading's bounds is refused, not averaged into a
+        // non-finite offset.
+        let mut huge = pairs;
+        huge[2].gauge_wet_density_kg_m3 = 3.98e307;
+        let e = offsets_from_pairs(&huge).unwrap_err();
+        assert!(matches!(
+            e,
+            OffsetError::BadValue {
+                index: 2,
+                what: "gauge_wet_density_kg_m3",
+                ..
+            }
+        ));
+        assert_eq!(
+            e.to_string(),
+            "pair 2: gauge_wet_density_kg_m3 must be above 0 and at most 3000"
+        );
     }
 
     #[test]

@@ -589,16 +589,16 @@ pub struct InstrumentPolicyInput {
 #[serde(deny_unknown_fields)]
 pub struct OffsetPair {
     /// Wet density read by the gauge, kg/m³.
-    #[schema(exclusive_minimum = 0.0)]
+    #[schema(exclusive_minimum = 0.0, maximum = 3000.0)]
     pub gauge_wet_density_kg_m3: f64,
     /// Wet density by the reference method on the same spot, kg/m³.
-    #[schema(exclusive_minimum = 0.0)]
+    #[schema(exclusive_minimum = 0.0, maximum = 3000.0)]
     pub reference_wet_density_kg_m3: f64,
     /// Water content shown by the gauge, percent.
-    #[schema(exclusive_minimum = 0.0)]
+    #[schema(exclusive_minimum = 0.0, maximum = 100.0)]
     pub gauge_water_content_pct: f64,
     /// Oven water content of the same material (ASTM D2216), percent.
-    #[schema(exclusive_minimum = 0.0)]
+    #[schema(exclusive_minimum = 0.0, maximum = 100.0)]
     pub oven_water_content_pct: f64,
 }
 

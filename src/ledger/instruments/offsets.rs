@@ -60,7 +60,7 @@ pub async fn create_offset(
     let effective_on = date("effective_on", &input.effective_on)?;
     let o = offsets_from_pairs(&input.pairs).map_err(|e| match &e {
         OffsetError::TooFewPairs { .. } => AppError::invalid("pairs", e.to_string()),
-        OffsetError::BadValue { index, what } => {
+        OffsetError::BadValue { index, what, .. } => {
             AppError::invalid(format!("pairs[{index}].{what}"), e.to_string())
         }
     })?;
