@@ -169,6 +169,11 @@ mod tests {
             assert_eq!(serde_json::to_value(e).unwrap(), code);
         }
         assert_eq!(ClauseEffort::Any.family(), None);
+        assert_eq!(ClauseEffort::Custom.family(), None);
+        assert_eq!(
+            "aashto_t180".parse::<ClauseEffort>().unwrap().family(),
+            Some(EffortFamily::Modified)
+        );
         assert_eq!(
             "astm_d1557_4in".parse::<ClauseEffort>().unwrap().family(),
             Some(EffortFamily::Modified)

@@ -14,6 +14,7 @@ use crate::domain::{ClauseEffort, MoistureMode, Rule};
 use crate::error::{AppError, Result};
 use crate::reduction;
 use crate::reduction::acceptance::{AcceptanceRule, MoistureJudgement};
+use crate::reduction::lab::EffortPreset;
 use crate::reduction::rounding::{Rounding, RoundingMethod};
 
 /// Body of a new spec clause.
@@ -168,15 +169,13 @@ fn positive(field: &str, v: Option<f64>, max: f64, unit: &str) -> Result<Option<
 /// The effort a clause names: a preset, custom or any.
 fn clause_effort(effort: &str) -> Result<ClauseEffort> {
     ClauseEffort::parse_code(effort).ok_or_else(|| {
-        let known: Vec<&str> = ClauseEffort::codes().collect();
+        let presets: Vec<&str> = EffortPreset::ALL.iter().map(|p| p.code()).collect();
         AppError::invalid(
             "effort",
             format!(
-                "unknown effort '{}'; use one of {}",
+                "unknown effort '{}'; use one of {}, custom or any",
                 effort.trim(),
-                known
-                    .join(", ")
-                    .replacen(", custom, any", ", custom or any", 1)
+                presets.join(", ")
             ),
         )
     })

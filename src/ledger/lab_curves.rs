@@ -110,6 +110,15 @@ pub fn reduce_lab_point(i: usize, p: &LabPointInput) -> Result<CurvePoint> {
 
 /// Resolves the effort named in a lab test body: a preset's, or the custom effort given.
 pub fn resolve_effort(effort: &str, custom: Option<&CustomEffortInput>) -> Result<Effort> {
+    resolve_lab_effort(effort, custom).map(|(_, e)| e)
+}
+
+/// The effort of a lab test body as stored (the preset, or the custom effort by its name)
+/// and as the reduction computes with it.
+fn resolve_lab_effort(
+    effort: &str,
+    custom: Option<&CustomEffortInput>,
+) -> Result<(LabEffort, Effort)> {
     if effort == "custom" {
         let c = custom.ok_or_else(|| {
             AppError::invalid("custom_effort", "is required when effort is custom")
@@ -122,10 +131,11 @@ pub fn resolve_effort(effort: &str, custom: Option<&CustomEffortInput>) -> Resul
             c.drop_m,
             c.mold_volume_m3,
         )
+        .map(|e| (LabEffort::Custom(e.name.clone()), e))
         .map_err(|e| AppError::invalid(format!("custom_effort.{}", e.field()), e.to_string()));
     }
     EffortPreset::parse_code(effort)
-        .map(EffortPreset::effort)
+        .map(|p| (LabEffort::Preset(p), p.effort()))
         .ok_or_else(|| {
             let known: Vec<&str> = EffortPreset::ALL.iter().map(|p| p.code()).collect();
             AppError::invalid(
@@ -136,12 +146,6 @@ pub fn resolve_effort(effort: &str, custom: Option<&CustomEffortInput>) -> Resul
                 ),
             )
         })
-}
-
-/// The stored form of a body's effort: the preset, or the custom effort by its name.
-fn lab_effort(input: &LabTestInput, effort: &Effort) -> LabEffort {
-    EffortPreset::parse_code(input.effort.trim())
-        .map_or_else(|| LabEffort::Custom(effort.name.clone()), LabEffort::Preset)
 }
 
 /// Creates a lab compaction test for a source, fitting its curve; may supersede an earlier one.
@@ -190,7 +194,8 @@ fn lab_test_record(
     input: &LabTestInput,
     actor: &Actor,
 ) -> Result<db::lab_tests::LabTest> {
-    let effort = resolve_effort(input.effort.trim(), input.custom_effort.as_ref())?;
+    let (stored_effort, effort) =
+        resolve_lab_effort(input.effort.trim(), input.custom_effort.as_ref())?;
     let gs = quantity(
         "specific_gravity",
         SpecificGravity::new(input.specific_gravity.unwrap_or(source.gs_fines)),
@@ -211,7 +216,7 @@ fn lab_test_record(
         source_id: source.id,
         code: code("code", &input.code)?,
         tested_on: date("tested_on", &input.tested_on)?,
-        effort: lab_effort(input, &effort),
+        effort: stored_effort,
         effort_energy_kj_m3: effort.energy_kj_m3(),
         specific_gravity: gs.value(),
         points_json: serde_json::to_string(&input.points).map_err(anyhow::Error::from)?,

@@ -100,31 +100,28 @@ pub fn date(field: &str, value: &str) -> Result<String, AppError> {
 pub mod whole {
     use serde::de::{Deserialize, Deserializer, Error};
 
-    /// The number as a whole `f64`, or the refusal.
-    fn whole<'de, D: Deserializer<'de>>(d: D) -> Result<f64, D::Error> {
-        let v = serde_json::Number::deserialize(d)?;
-        if let Some(i) = v.as_i64() {
-            return Ok(i as f64);
-        }
-        if let Some(u) = v.as_u64() {
-            return Ok(u as f64);
-        }
+    /// Integers above this no longer name one integer as an `f64`.
+    const EXACT: f64 = 9_007_199_254_740_992.0;
+
+    /// A JSON number as a whole number, or why it is not one.
+    fn integral(v: &serde_json::Number) -> Result<f64, String> {
         let f = v.as_f64().unwrap_or(f64::NAN);
-        if f.fract() == 0.0 && f.is_finite() {
-            Ok(f)
+        if !(f.is_finite() && f.fract() == 0.0) {
+            Err(format!("{v} is not a whole number"))
+        } else if f.abs() > EXACT {
+            Err(format!("{v} is too large"))
         } else {
-            Err(D::Error::custom(format!("{v} is not a whole number")))
+            Ok(f)
         }
     }
 
-    /// A whole number in the range of `i64` (integral floats beyond 2^53 are refused as
-    /// they no longer name one integer).
+    /// A whole number (in the range an `f64` holds exactly, when written with a fraction).
     pub fn i64<'de, D: Deserializer<'de>>(d: D) -> Result<i64, D::Error> {
-        let f = whole(d)?;
-        if f.abs() > 9_007_199_254_740_992.0 {
-            return Err(D::Error::custom(format!("{f} is too large")));
+        let v = serde_json::Number::deserialize(d)?;
+        if let Some(i) = v.as_i64() {
+            return Ok(i);
         }
-        Ok(f as i64)
+        integral(&v).map(|f| f as i64).map_err(D::Error::custom)
     }
 
     /// An optional whole, non-negative number.
@@ -135,13 +132,10 @@ pub mod whole {
         if let Some(u) = v.as_u64() {
             return Ok(Some(u));
         }
-        let f = v.as_f64().unwrap_or(f64::NAN);
-        if f.fract() == 0.0 && (0.0..=9_007_199_254_740_992.0).contains(&f) {
-            Ok(Some(f as u64))
-        } else {
-            Err(D::Error::custom(format!(
-                "{v} is not a whole number of at least 0"
-            )))
+        match integral(&v) {
+            Ok(f) if f >= 0.0 => Ok(Some(f as u64)),
+            Ok(_) => Err(D::Error::custom(format!("{v} is below 0"))),
+            Err(e) => Err(D::Error::custom(e)),
         }
     }
 }

@@ -398,15 +398,6 @@ impl EffortFamily {
             Self::Standard
         }
     }
-    /// The family of a stored lab effort: a preset code, else (a custom effort) by its energy.
-    pub fn of_lab_effort(code: &str, energy_kj_m3: f64) -> Self {
-        EffortPreset::parse_code(code)
-            .map_or_else(|| Self::of_energy(energy_kj_m3), Self::of_preset)
-    }
-    /// The family a clause's effort term names; None for "any" or "custom", which name no family.
-    pub fn of_clause_effort(code: &str) -> Option<Self> {
-        EffortPreset::parse_code(code).map(Self::of_preset)
-    }
 }
 
 /// Wet and dry density of one compacted lab specimen.
@@ -479,15 +470,6 @@ mod tests {
         // Boundary √(600 × 2700) = 1272.8 kJ/m³ (geometric mean, worked by hand).
         assert_eq!(EffortFamily::of_energy(1272.0), EffortFamily::Standard);
         assert_eq!(EffortFamily::of_energy(1273.0), EffortFamily::Modified);
-        assert_eq!(
-            EffortFamily::of_lab_effort("custom: site rammer", 2500.0),
-            EffortFamily::Modified
-        );
-        assert_eq!(EffortFamily::of_clause_effort("any"), None);
-        assert_eq!(
-            EffortFamily::of_clause_effort("aashto_t180"),
-            Some(EffortFamily::Modified)
-        );
     }
 
     #[test]
