@@ -34,8 +34,10 @@ pub struct Inner {
 }
 
 impl AppState {
-    /// Wraps a pool and settings.
+    /// Wraps a pool and settings; inside a tokio runtime it starts the task that settles
+    /// marked lot summaries between views (`ledger::lot_summaries::spawn_settler`).
     pub fn new(db: Pool, settings: Settings) -> Self {
+        crate::ledger::lot_summaries::spawn_settler(&db);
         Self(Arc::new(Inner {
             settings,
             backups: Default::default(),

@@ -1,5 +1,5 @@
 //! The command line: `liftledger serve`, `migrate`, `demo`, `copy`, `import`, `backup`,
-//! `restore`, `archive` and `user`.
+//! `restore`, `archive`, `rejudge` and `user`.
 
 use std::net::SocketAddr;
 
@@ -85,6 +85,15 @@ pub enum Command {
     },
     /// Write a project's handover archive (zip), or check one with `archive verify FILE.zip`.
     Archive(ArchiveArgs),
+    /// Judge every lot again and store its summary (after a reduction-version change),
+    /// with a progress line.
+    Rejudge {
+        #[command(flatten)]
+        db: DbArgs,
+        /// Only this project (its code, e.g. MLR); all projects without it.
+        #[arg(long)]
+        project: Option<String>,
+    },
     /// Manage users: add one, or give one a role in a project.
     #[command(subcommand)]
     User(UserCommand),

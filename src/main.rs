@@ -71,6 +71,7 @@ async fn main() -> anyhow::Result<()> {
         Command::Backup { db, to } => backup(&db, &to).await?,
         Command::Restore { from, db } => restore(&from, &db).await?,
         Command::Archive(a) => archive(a).await?,
+        Command::Rejudge { db, project } => rejudge(&db, project.as_deref()).await?,
         Command::Serve(a) => serve(a).await?,
     }
     Ok(())
@@ -377,4 +378,36 @@ async fn shutdown_signal() {
         () = ctrl_c => {},
         () = term => {},
     }
+}
+
+/// `liftledger rejudge`: every lot (of one project) judged again, one progress line.
+async fn rejudge(a: &liftledger::cli::DbArgs, project: Option<&str>) -> anyhow::Result<()> {
+    use std::io::Write;
+    let pool = db::connect(&a.location()).await?;
+    let project_id = match project {
+        Some(code) => Some(
+            db::projects::get_by_code(&pool, code)
+                .await?
+                .with_context(|| format!("no project has the code {code}"))?
+                .id,
+        ),
+        None => None,
+    };
+    let started = std::time::Instant::now();
+    let mut last = std::time::Instant::now();
+    let judged =
+        liftledger::ledger::lot_summaries::rejudge(&pool, project_id, &mut |p, done, total| {
+            if last.elapsed().as_millis() >= 500 || done == total {
+                last = std::time::Instant::now();
+                eprint!("\rproject {p}: judged {done} of {total} lots");
+                let _ = std::io::stderr().flush();
+            }
+        })
+        .await?;
+    eprintln!();
+    println!(
+        "judged {judged} lots again in {:.1} s; their summaries are stored",
+        started.elapsed().as_secs_f64()
+    );
+    Ok(())
 }

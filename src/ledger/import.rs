@@ -1046,6 +1046,7 @@ async fn finish(
     report.created_ids = Some((first_id, last_id));
     // The ids were given explicitly: move the engine's id generator past them.
     bulk::advance_test_ids(&mut tx).await?;
+    db::numbering::follow_count(&mut tx, project_id).await?;
     audit::record(
         &mut tx,
         &audit::Change {

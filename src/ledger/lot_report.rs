@@ -116,7 +116,7 @@ pub fn instrument_cautions(t: &db::field_tests::FieldTest) -> Vec<String> {
 }
 
 /// The statistics and verdict of a lot under its clause's rule.
-#[derive(Debug, Clone, Serialize)]
+#[derive(Debug, Clone, Serialize, serde::Deserialize)]
 pub struct Verdict {
     pub rule: String,
     pub rule_label: String,

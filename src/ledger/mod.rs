@@ -16,6 +16,7 @@ pub mod instruments;
 pub mod lab_curves;
 pub mod lot_report;
 pub mod lot_split;
+pub mod lot_summaries;
 pub mod moisture_terms;
 pub mod moulds;
 pub mod one_point;

@@ -1,10 +1,11 @@
 //! Whole-project views: every lot judged, one lot's tests in memory at a time.
 //!
 //! [`each_report`] streams a project's tests in lot order and judges each lot as its
-//! tests complete, so memory follows the largest lot, not the project. [`summaries`]
-//! keeps the judged lots without their test lines per project revision (bumped by
-//! every audited change, see `db::projects::revision`), so the lift map and the
-//! project home read one row while nothing has changed.
+//! tests complete, so memory follows the largest lot, not the project; it serves
+//! `liftledger rejudge`, exports and archives, never a view of the lift map or home.
+//! [`summaries`] reads the stored lot summaries (`lot_summaries`) and keeps them per
+//! project revision (moved whenever summaries are judged again), so the lift map and
+//! the project home read one row while nothing has changed.
 
 use std::collections::HashMap;
 use std::sync::{Arc, Mutex};
@@ -78,6 +79,38 @@ impl ProjectRows {
             .get(&lot.lab_test_id)
             .ok_or_else(|| missing("lab test"))?;
         Ok((clause.clone(), source.clone(), lab.clone()))
+    }
+
+    /// A lot's report from its stored judgement, without test lines (each lot once: its
+    /// certificate is handed over).
+    pub fn with_judgement(
+        &mut self,
+        lot: db::lots::Lot,
+        j: super::lot_summaries::StoredJudgement,
+    ) -> Result<LotReport> {
+        let (clause, source, lab_test) = self.rules_of(&lot)?;
+        let certificate = self.certificates.remove(&lot.id);
+        Ok(LotReport {
+            lot,
+            project: self.project.clone(),
+            clause,
+            source,
+            lab_test,
+            tests: Vec::new(),
+            tests_entered: j.tests_entered,
+            verdict: j.verdict,
+            length_m: j.length_m,
+            width_m: j.width_m,
+            area_m2: j.area_m2,
+            tests_required: j.tests_required,
+            tests_owed: j.tests_owed,
+            failing_without_retest: j.failing_without_retest,
+            display_state: j.display_state,
+            submit_blockers: j.submit_blockers,
+            certificate,
+            certificate_current: j.certificate_current,
+            fingerprint: j.fingerprint,
+        })
     }
 
     /// Judges one lot from its tests (each lot once: its certificate is handed over).
@@ -206,24 +239,20 @@ pub async fn project_reports(pool: &Pool, project_id: i64) -> Result<Vec<LotRepo
 /// A project's judged lots without test lines, shared by the readers of one revision.
 pub type Summaries = Arc<Vec<Arc<LotReport>>>;
 
-/// Lots re-judged one by one after a change; beyond this a whole pass is cheaper.
-const MAX_PATCHED_LOTS: usize = 64;
-
-/// One project's judged lots and what they show.
+/// One project's judged lots and the revision they show.
 #[derive(Clone)]
 struct Entry {
     revision: i64,
-    /// The newest audit row the lots reflect (SQLite, where audit ids follow commits).
-    last_audit: i64,
     lots: Summaries,
 }
 
-/// Judged lots without their test lines, per project, tagged with the revision they show.
+/// The stored summaries of a project as last read, per project, tagged with the revision
+/// they show: a view of a project nothing has changed in decodes nothing.
 #[derive(Default)]
 pub struct SummaryCache {
     entries: Mutex<HashMap<i64, Entry>>,
-    /// One project judged at a time: requests that miss together share one pass.
-    computing: tokio::sync::Mutex<()>,
+    /// One project read at a time: requests that miss together share one reading.
+    reading: tokio::sync::Mutex<()>,
 }
 
 impl SummaryCache {
@@ -239,109 +268,40 @@ impl SummaryCache {
 }
 
 /// Every lot of a project judged, without test lines (`tests` is empty; `tests_entered`
-/// counts them), in layer then chainage order; reused while the project's revision holds.
+/// counts them), in layer then chainage order, from the stored lot summaries.
 ///
-/// After a change, on SQLite, only the lots the new audit rows name (a test's lot, a
-/// lot, a certificate's lot) are judged again; any other kind of change, a new lot, or
-/// many changed lots judge the whole project again, as PostgreSQL always does. The
-/// revision is read first, so an entry never claims a revision newer than what it shows.
+/// The marked lots are settled first (judged again: only those changed since the last
+/// settling, see `lot_summaries`); the revision the settling moves is read after it, so
+/// an entry never claims a revision newer than what it shows.
 #[tracing::instrument(skip(pool, cache))]
 pub async fn summaries(pool: &Pool, cache: &SummaryCache, project_id: i64) -> Result<Summaries> {
-    let not_found =
-        || AppError::not_found("project_id", format!("project {project_id} does not exist"));
-    let revision = db::projects::revision(pool, project_id)
-        .await?
-        .ok_or_else(not_found)?;
+    super::lot_summaries::settle(pool, project_id).await?;
+    let revision = revision_of(pool, project_id).await?;
     if let Some(e) = cache.get(project_id).filter(|e| e.revision == revision) {
         return Ok(e.lots);
     }
-    let _turn = cache.computing.lock().await;
-    let revision = db::projects::revision(pool, project_id)
-        .await?
-        .ok_or_else(not_found)?;
-    let cached = cache.get(project_id);
-    if let Some(e) = cached.as_ref().filter(|e| e.revision == revision) {
-        return Ok(e.lots.clone());
+    let _turn = cache.reading.lock().await;
+    let revision = revision_of(pool, project_id).await?;
+    if let Some(e) = cache.get(project_id).filter(|e| e.revision == revision) {
+        return Ok(e.lots);
     }
-    let sqlite = db::engine_of(pool) == db::Engine::Sqlite;
-    if let Some(old) = cached.filter(|_| sqlite)
-        && let Some(entry) = patched(pool, project_id, revision, &old).await?
-    {
-        let lots = entry.lots.clone();
-        cache.store(project_id, entry);
-        return Ok(lots);
-    }
-    let last_audit = db::audit::last_id(pool, project_id).await?;
-    let mut out = Vec::new();
-    each_report(
-        pool,
-        project_id,
-        |_| true,
-        false,
-        |r| {
-            out.push(Arc::new(r));
-            Ok(())
-        },
-    )
-    .await?;
-    let lots: Summaries = Arc::new(out);
+    let reports = super::lot_summaries::read(pool, project_id).await?;
+    let lots: Summaries = Arc::new(reports.into_iter().map(Arc::new).collect());
     cache.store(
         project_id,
         Entry {
             revision,
-            last_audit,
             lots: lots.clone(),
         },
     );
     Ok(lots)
 }
 
-/// The cached lots with those changed since `old` judged again; `None` when a whole
-/// pass is needed (a kind of change that may touch many lots, a new lot, many lots).
-async fn patched(
-    pool: &Pool,
-    project_id: i64,
-    revision: i64,
-    old: &Entry,
-) -> Result<Option<Entry>> {
-    let changes = db::audit::changes_since(pool, project_id, old.last_audit).await?;
-    let mut lots: Vec<i64> = Vec::new();
-    let mut last_audit = old.last_audit;
-    for (id, entity, entity_id) in changes {
-        last_audit = last_audit.max(id);
-        let lot = match (entity.as_str(), entity_id) {
-            // Sign-ins, accounts, API tokens and saved mappings change no verdict.
-            ("session" | "user" | "api_token" | "import_mapping", _) => None,
-            ("lot", Some(lot)) => Some(lot),
-            ("field_test", Some(t)) => match db::scope::lot_of_test(pool, t).await? {
-                Some(lot) => Some(lot),
-                None => return Ok(None),
-            },
-            ("certificate", Some(c)) => match db::scope::lot_of_certificate(pool, c).await? {
-                Some(lot) => Some(lot),
-                None => return Ok(None),
-            },
-            _ => return Ok(None),
-        };
-        if let Some(lot) = lot.filter(|l| !lots.contains(l)) {
-            lots.push(lot);
-            if lots.len() > MAX_PATCHED_LOTS {
-                return Ok(None);
-            }
-        }
-    }
-    let mut next: Vec<Arc<LotReport>> = old.lots.as_ref().clone();
-    for lot_id in lots {
-        let Some(at) = next.iter().position(|r| r.lot.id == lot_id) else {
-            return Ok(None);
-        };
-        let mut r = lot_report::build(pool, lot_id).await?;
-        r.tests = Vec::new();
-        next[at] = Arc::new(r);
-    }
-    Ok(Some(Entry {
-        revision,
-        last_audit,
-        lots: Arc::new(next),
-    }))
+/// The project's revision; 404 naming `project_id` when it does not exist.
+async fn revision_of(pool: &Pool, project_id: i64) -> Result<i64> {
+    db::projects::revision(pool, project_id)
+        .await?
+        .ok_or_else(|| {
+            AppError::not_found("project_id", format!("project {project_id} does not exist"))
+        })
 }

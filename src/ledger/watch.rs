@@ -2,7 +2,8 @@
 //! moving-range control charts of RC and moisture deviation per source, layer or technician.
 //! Both read the lots exactly as their lot sheets judge them (counted tests only).
 
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, HashMap};
+use std::time::{Duration, Instant};
 
 use serde::{Deserialize, Serialize};
 
@@ -293,33 +294,107 @@ impl From<&CurveDrift> for DriftNote {
 }
 
 /// Drift notes per project with the revision they show (held in the app state).
+///
+/// The notes read every counted test of each curve, so they are worked out by a task of
+/// their own, never on a view's path: a view shows the notes of the last finished run and
+/// starts the next when the project's revision moved. It waits for that run only while
+/// runs are quick (a small project sees its notes at once); on a large one it shows the
+/// last notes and says a newer run is under way.
 #[derive(Default)]
-pub struct DriftCache(std::sync::Mutex<std::collections::HashMap<i64, (i64, Vec<DriftNote>)>>);
+pub struct DriftCache(std::sync::Arc<std::sync::Mutex<HashMap<i64, DriftEntry>>>);
 
-/// Drift notes of a project, recomputed only when its revision moved (every audited change
-/// bumps it), so the project home does not judge every test on every view.
+/// One project's notes and the run that brings them up to date.
+#[derive(Default)]
+struct DriftEntry {
+    /// The notes of the last finished run, with the revision it read.
+    shown: Option<(i64, Vec<DriftNote>)>,
+    /// The run under way, which flips to true when it has stored its notes.
+    running: Option<tokio::sync::watch::Receiver<bool>>,
+    /// How long the last run took.
+    last_took: Duration,
+}
+
+/// A view waits for a run at most this long, and only when the last run was shorter.
+const WAIT_FOR_QUICK_RUN: Duration = Duration::from_millis(100);
+
+/// Drift notes as a view shows them.
+#[derive(Debug, Clone, Default)]
+pub struct DriftView {
+    pub notes: Vec<DriftNote>,
+    /// True while a newer run than the notes shown is under way.
+    pub pending: bool,
+}
+
+/// The drift notes of a project for a view (see [`DriftCache`]).
 pub async fn drift_notes_cached(
     pool: &Pool,
     cache: &DriftCache,
     project_id: i64,
-) -> Result<Vec<DriftNote>> {
+) -> Result<DriftView> {
     let revision = db::projects::revision(pool, project_id).await?.unwrap_or(0);
-    if let Some((rev, notes)) = cache
-        .0
-        .lock()
-        .ok()
-        .and_then(|c| c.get(&project_id).cloned())
-        && rev == revision
-    {
-        return Ok(notes);
+    let (run, wait) = {
+        let mut all = cache.0.lock().unwrap_or_else(|e| e.into_inner());
+        let e = all.entry(project_id).or_default();
+        if let Some((rev, notes)) = &e.shown
+            && *rev == revision
+        {
+            return Ok(DriftView {
+                notes: notes.clone(),
+                pending: false,
+            });
+        }
+        let run = match &e.running {
+            Some(run) => run.clone(),
+            None => {
+                let run = start_drift_run(pool, cache, project_id, revision);
+                e.running = Some(run.clone());
+                run
+            }
+        };
+        (run, e.last_took < WAIT_FOR_QUICK_RUN)
+    };
+    if wait {
+        let mut run = run;
+        let _ = tokio::time::timeout(WAIT_FOR_QUICK_RUN, run.wait_for(|done| *done)).await;
     }
-    let notes: Vec<DriftNote> = drift_warnings(pool, project_id)
-        .await?
-        .iter()
-        .map(DriftNote::from)
-        .collect();
-    if let Ok(mut c) = cache.0.lock() {
-        c.insert(project_id, (revision, notes.clone()));
-    }
-    Ok(notes)
+    let all = cache.0.lock().unwrap_or_else(|e| e.into_inner());
+    let shown = all.get(&project_id).and_then(|e| e.shown.clone());
+    Ok(match shown {
+        Some((rev, notes)) => DriftView {
+            notes,
+            pending: rev != revision,
+        },
+        None => DriftView {
+            notes: Vec::new(),
+            pending: true,
+        },
+    })
+}
+
+/// Starts a run working out a project's notes at `revision`; its receiver flips when done.
+fn start_drift_run(
+    pool: &Pool,
+    cache: &DriftCache,
+    project_id: i64,
+    revision: i64,
+) -> tokio::sync::watch::Receiver<bool> {
+    let (done, run) = tokio::sync::watch::channel(false);
+    let pool = pool.clone();
+    let entries = cache.0.clone();
+    tokio::spawn(async move {
+        let started = Instant::now();
+        let notes = drift_warnings(&pool, project_id)
+            .await
+            .map(|d| d.iter().map(DriftNote::from).collect::<Vec<_>>());
+        let mut all = entries.lock().unwrap_or_else(|e| e.into_inner());
+        let e = all.entry(project_id).or_default();
+        e.running = None;
+        e.last_took = started.elapsed();
+        match notes {
+            Ok(notes) => e.shown = Some((revision, notes)),
+            Err(err) => tracing::warn!(error = %err, project_id, "working out drift notes failed"),
+        }
+        let _ = done.send(true);
+    });
+    run
 }

@@ -121,6 +121,8 @@ struct ProjectPage {
     may_setup: bool,
     /// Curves whose field points say the material may have changed.
     drift: Vec<crate::ledger::watch::DriftNote>,
+    /// A newer drift run than the notes shown is under way.
+    drift_pending: bool,
     /// Calibrations, leak tests and licences of the project's instruments due within 30 days.
     calibrations_due: Vec<(i64, String)>,
 }
@@ -243,15 +245,20 @@ async fn calibrations_due(s: &AppState, id: i64) -> crate::error::Result<Vec<(i6
     )
 }
 
-/// Tests taken since midnight (UTC), in the last seven days, and in all.
-async fn test_counts(s: &AppState, id: i64) -> crate::error::Result<(i64, i64, i64)> {
+/// Tests taken since midnight (UTC), in the last seven days, and in all (from the lots'
+/// summaries, which count every test entered).
+async fn test_counts(
+    s: &AppState,
+    id: i64,
+    reports: &[std::sync::Arc<crate::ledger::lot_report::LotReport>],
+) -> crate::error::Result<(i64, i64, i64)> {
     let midnight = time::OffsetDateTime::now_utc().replace_time(time::Time::MIDNIGHT);
     let today = crate::clock::format(midnight);
     let week = crate::clock::format(midnight - time::Duration::days(6));
     Ok((
         db::field_tests::count_since(&s.db, id, &today).await?,
         db::field_tests::count_since(&s.db, id, &week).await?,
-        db::field_tests::count(&s.db, id).await?,
+        reports.iter().map(|r| r.tests_entered as i64).sum(),
     ))
 }
 
@@ -272,7 +279,7 @@ async fn project_home(
     let lists = lot_lists(&reports, &u);
     let activity = recent_activity(&s, id).await?;
     let calibrations_due = calibrations_due(&s, id).await?;
-    let (tests_today, tests_week, tests_total) = test_counts(&s, id).await?;
+    let (tests_today, tests_week, tests_total) = test_counts(&s, id, &reports).await?;
     render(&ProjectPage {
         calibrations_due,
         nav: ProjectNav {
@@ -290,7 +297,8 @@ async fn project_home(
         activity,
         may_import,
         may_setup,
-        drift,
+        drift: drift.notes,
+        drift_pending: drift.pending,
         code: p.code,
         name: p.name,
         contract: p.contract,

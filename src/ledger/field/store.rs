@@ -31,13 +31,20 @@ pub(crate) enum Landing<'b, 'a> {
 }
 
 /// Writes one checked test and its audit row in its own transaction (where there is no
-/// group-commit writer: PostgreSQL, or outside a runtime).
+/// group-commit writer: PostgreSQL, or outside a runtime). On PostgreSQL an automatic
+/// number is drawn before the write, so the counter is not held while it commits.
 pub(crate) async fn store(
     pool: &db::Pool,
     record: FieldTest,
     actor: &Actor,
     action: &str,
 ) -> Result<FieldTest> {
+    let mut record = record;
+    if record.number.is_empty()
+        && let Some(number) = db::numbering::draw_test_number(pool, record.project_id).await?
+    {
+        record.number = number;
+    }
     let mut tx = db::begin_write(pool).await?;
     let record = store_in(&mut tx, record, actor, action).await?;
     tx.commit().await?;
@@ -85,7 +92,7 @@ pub(crate) async fn land<'a>(
             // The count behind automatic numbers moves only as the batch is inserted.
             return Err(anyhow::anyhow!("a queued test has no number").into());
         }
-        record.number = db::field_tests::next_number(tx, record.project_id).await?;
+        record.number = db::numbering::take_test_number(tx, record.project_id).await?;
     }
     match how {
         Landing::Alone => {

@@ -1,0 +1,166 @@
+-- Each lot's judged summary is a row, so the lift map, the home page, the review queue
+-- and the test list read verdicts instead of judging a project's tests on a view.
+--
+-- A change that can alter a lot's verdict marks the lot in `lots_to_judge`, in the
+-- change's own transaction, by the triggers below (the one list of what affects a lot:
+-- its tests, the lot itself, its certificates, its test plan, a one-point check of its
+-- source, and edits of its clause, source or lab curve). The summary is judged again
+-- from the marks (`ledger::lot_summaries::settle`) before any view reads it. A write
+-- then touches no row other writers share: no project row, no counter held to commit.
+CREATE TABLE lot_summaries (
+    lot_id            INTEGER PRIMARY KEY REFERENCES lots(id) ON DELETE CASCADE,
+    project_id        INTEGER NOT NULL REFERENCES projects(id),
+    reduction_version TEXT NOT NULL,
+    display_state     TEXT NOT NULL,
+    accepted          INTEGER NOT NULL,
+    tests_entered     INTEGER NOT NULL,
+    tests_owed        INTEGER NOT NULL,
+    judged_json       TEXT NOT NULL,
+    judged_at         TEXT NOT NULL,
+    -- The newest mark this summary was judged from.
+    judged_mark       INTEGER NOT NULL
+);
+CREATE INDEX lot_summaries_by_project ON lot_summaries (project_id, display_state);
+
+CREATE TABLE lots_to_judge (
+    id         INTEGER PRIMARY KEY AUTOINCREMENT,
+    project_id INTEGER NOT NULL,
+    lot_id     INTEGER NOT NULL
+);
+CREATE INDEX lots_to_judge_by_project ON lots_to_judge (project_id, lot_id);
+CREATE INDEX lots_to_judge_by_lot ON lots_to_judge (lot_id);
+
+-- Every existing lot is judged once, by the first view or by `liftledger rejudge`.
+INSERT INTO lots_to_judge (project_id, lot_id) SELECT project_id, id FROM lots;
+
+-- SQLite has one writer: a lot already marked is not marked twice.
+CREATE TRIGGER field_test_added_marks_lot AFTER INSERT ON field_tests
+BEGIN
+    INSERT INTO lots_to_judge (project_id, lot_id)
+    SELECT NEW.project_id, NEW.lot_id
+    WHERE NOT EXISTS (SELECT 1 FROM lots_to_judge WHERE lot_id = NEW.lot_id);
+END;
+
+CREATE TRIGGER field_test_changed_marks_lots AFTER UPDATE ON field_tests
+BEGIN
+    INSERT INTO lots_to_judge (project_id, lot_id)
+    SELECT NEW.project_id, NEW.lot_id
+    WHERE NOT EXISTS (SELECT 1 FROM lots_to_judge WHERE lot_id = NEW.lot_id);
+    INSERT INTO lots_to_judge (project_id, lot_id)
+    SELECT OLD.project_id, OLD.lot_id
+    WHERE OLD.lot_id <> NEW.lot_id
+      AND NOT EXISTS (SELECT 1 FROM lots_to_judge WHERE lot_id = OLD.lot_id);
+END;
+
+CREATE TRIGGER field_test_removed_marks_lot AFTER DELETE ON field_tests
+BEGIN
+    INSERT INTO lots_to_judge (project_id, lot_id)
+    SELECT OLD.project_id, OLD.lot_id
+    WHERE NOT EXISTS (SELECT 1 FROM lots_to_judge WHERE lot_id = OLD.lot_id);
+END;
+
+CREATE TRIGGER lot_added_marks_lot AFTER INSERT ON lots
+BEGIN
+    INSERT INTO lots_to_judge (project_id, lot_id) VALUES (NEW.project_id, NEW.id);
+END;
+
+CREATE TRIGGER lot_changed_marks_lot AFTER UPDATE ON lots
+BEGIN
+    INSERT INTO lots_to_judge (project_id, lot_id)
+    SELECT NEW.project_id, NEW.id
+    WHERE NOT EXISTS (SELECT 1 FROM lots_to_judge WHERE lot_id = NEW.id);
+END;
+
+CREATE TRIGGER certificate_added_marks_lot AFTER INSERT ON certificates
+BEGIN
+    INSERT INTO lots_to_judge (project_id, lot_id)
+    SELECT NEW.project_id, NEW.lot_id
+    WHERE NOT EXISTS (SELECT 1 FROM lots_to_judge WHERE lot_id = NEW.lot_id);
+END;
+
+CREATE TRIGGER certificate_changed_marks_lot AFTER UPDATE ON certificates
+BEGIN
+    INSERT INTO lots_to_judge (project_id, lot_id)
+    SELECT NEW.project_id, NEW.lot_id
+    WHERE NOT EXISTS (SELECT 1 FROM lots_to_judge WHERE lot_id = NEW.lot_id);
+END;
+
+CREATE TRIGGER test_plan_added_marks_lot AFTER INSERT ON test_plans
+BEGIN
+    INSERT INTO lots_to_judge (project_id, lot_id)
+    SELECT NEW.project_id, NEW.lot_id
+    WHERE NOT EXISTS (SELECT 1 FROM lots_to_judge WHERE lot_id = NEW.lot_id);
+END;
+
+CREATE TRIGGER test_plan_changed_marks_lot AFTER UPDATE ON test_plans
+BEGIN
+    INSERT INTO lots_to_judge (project_id, lot_id)
+    SELECT NEW.project_id, NEW.lot_id
+    WHERE NOT EXISTS (SELECT 1 FROM lots_to_judge WHERE lot_id = NEW.lot_id);
+END;
+
+CREATE TRIGGER one_point_added_marks_lots AFTER INSERT ON one_point_checks
+BEGIN
+    INSERT INTO lots_to_judge (project_id, lot_id)
+    SELECT l.project_id, l.id FROM lots l
+    WHERE l.project_id = NEW.project_id AND l.source_id = NEW.source_id
+      AND l.id NOT IN (SELECT lot_id FROM lots_to_judge);
+END;
+
+CREATE TRIGGER one_point_changed_marks_lots AFTER UPDATE ON one_point_checks
+BEGIN
+    INSERT INTO lots_to_judge (project_id, lot_id)
+    SELECT l.project_id, l.id FROM lots l
+    WHERE l.project_id = NEW.project_id AND l.source_id IN (NEW.source_id, OLD.source_id)
+      AND l.id NOT IN (SELECT lot_id FROM lots_to_judge);
+END;
+
+CREATE TRIGGER one_point_removed_marks_lots AFTER DELETE ON one_point_checks
+BEGIN
+    INSERT INTO lots_to_judge (project_id, lot_id)
+    SELECT l.project_id, l.id FROM lots l
+    WHERE l.project_id = OLD.project_id AND l.source_id = OLD.source_id
+      AND l.id NOT IN (SELECT lot_id FROM lots_to_judge);
+END;
+
+CREATE TRIGGER lab_test_changed_marks_lots AFTER UPDATE ON lab_tests
+BEGIN
+    INSERT INTO lots_to_judge (project_id, lot_id)
+    SELECT l.project_id, l.id FROM lots l
+    WHERE l.lab_test_id = NEW.id AND l.id NOT IN (SELECT lot_id FROM lots_to_judge);
+END;
+
+CREATE TRIGGER clause_changed_marks_lots AFTER UPDATE ON clauses
+BEGIN
+    INSERT INTO lots_to_judge (project_id, lot_id)
+    SELECT l.project_id, l.id FROM lots l
+    WHERE l.clause_id = NEW.id AND l.id NOT IN (SELECT lot_id FROM lots_to_judge);
+END;
+
+CREATE TRIGGER source_changed_marks_lots AFTER UPDATE ON sources
+BEGIN
+    INSERT INTO lots_to_judge (project_id, lot_id)
+    SELECT l.project_id, l.id FROM lots l
+    WHERE l.source_id = NEW.id AND l.id NOT IN (SELECT lot_id FROM lots_to_judge);
+END;
+
+-- The project's revision now moves when its summaries are judged again (the settling
+-- bumps it), not on every audited write: bumping it there put one row lock, held to
+-- the commit, in front of every writer of the project.
+DROP TRIGGER audit_log_bumps_revision;
+
+-- Automatic test numbers come from a counter per project, taken with one short
+-- UPDATE … RETURNING (see `db::numbering`), instead of a count kept on the project row
+-- by a trigger on every insert.
+DROP TRIGGER field_tests_count_up;
+DROP TRIGGER field_tests_count_down;
+CREATE TABLE test_counters (
+    project_id  INTEGER PRIMARY KEY REFERENCES projects(id) ON DELETE CASCADE,
+    last_number INTEGER NOT NULL
+);
+INSERT INTO test_counters (project_id, last_number) SELECT id, field_test_count FROM projects;
+ALTER TABLE projects DROP COLUMN field_test_count;
+CREATE TRIGGER project_added_counts_tests AFTER INSERT ON projects
+BEGIN
+    INSERT INTO test_counters (project_id, last_number) VALUES (NEW.id, 0);
+END;

@@ -1,0 +1,187 @@
+//! Stored lot summaries and the marks of lots to judge again.
+//!
+//! The marks are written by triggers (migration 0012) in the transaction of every change
+//! that can alter a lot's verdict; this module reads and clears them and keeps the
+//! summaries. The one list of such changes is the migration's, repeated in
+//! `ledger::lot_summaries`.
+
+use super::{Engine, Pool, Tx, engine_of};
+
+/// A lot's stored summary: the judged part of its report as JSON, with the few fields
+/// views filter on beside it.
+#[derive(Debug, Clone, sqlx::FromRow)]
+pub struct SummaryRow {
+    pub lot_id: i64,
+    pub project_id: i64,
+    pub reduction_version: String,
+    pub display_state: String,
+    pub accepted: i64,
+    pub tests_entered: i64,
+    pub tests_owed: i64,
+    pub judged_json: String,
+    pub judged_at: String,
+}
+
+/// One mark: a lot to judge again, by the id the mark was given.
+#[derive(Debug, Clone, Copy, sqlx::FromRow)]
+pub struct Mark {
+    pub id: i64,
+    pub lot_id: i64,
+}
+
+/// The marks of a project, oldest first.
+pub async fn marks(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<Mark>> {
+    sqlx::query_as::<_, Mark>(
+        "SELECT id, lot_id FROM lots_to_judge WHERE project_id = $1 ORDER BY id",
+    )
+    .bind(project_id)
+    .fetch_all(pool)
+    .await
+}
+
+/// The marks of a project read inside the settling transaction.
+pub async fn marks_in(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<Vec<Mark>> {
+    sqlx::query_as::<_, Mark>(
+        "SELECT id, lot_id FROM lots_to_judge WHERE project_id = $1 ORDER BY id",
+    )
+    .bind(project_id)
+    .fetch_all(&mut **tx)
+    .await
+}
+
+/// Projects with lots waiting to be judged again.
+pub async fn marked_projects(pool: &Pool) -> sqlx::Result<Vec<i64>> {
+    sqlx::query_scalar("SELECT DISTINCT project_id FROM lots_to_judge ORDER BY project_id")
+        .fetch_all(pool)
+        .await
+}
+
+/// Holds the settling of a project's summaries until the transaction ends: on
+/// PostgreSQL an advisory lock, so two app servers never write a lot's summary from
+/// two different readings; SQLite's write lock already does so for one file.
+pub async fn hold_settling(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<()> {
+    if tx.backend_name() == "PostgreSQL" {
+        sqlx::query("SELECT pg_advisory_xact_lock(1201, CAST($1 AS INTEGER))")
+            .bind(project_id)
+            .execute(&mut **tx)
+            .await?;
+    }
+    Ok(())
+}
+
+/// Writes a lot's summary. With `newer_only` an existing summary is kept when it was
+/// judged from a later mark (SQLite, where mark ids follow commits).
+pub async fn store(
+    tx: &mut Tx<'_>,
+    row: &SummaryRow,
+    judged_mark: i64,
+    newer_only: bool,
+) -> sqlx::Result<()> {
+    let guard = if newer_only {
+        " WHERE excluded.judged_mark >= lot_summaries.judged_mark"
+    } else {
+        ""
+    };
+    let sql = format!(
+        "INSERT INTO lot_summaries (lot_id, project_id, reduction_version, display_state, accepted,
+             tests_entered, tests_owed, judged_json, judged_at, judged_mark)
+         VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10)
+         ON CONFLICT (lot_id) DO UPDATE SET reduction_version = excluded.reduction_version,
+             display_state = excluded.display_state, accepted = excluded.accepted,
+             tests_entered = excluded.tests_entered, tests_owed = excluded.tests_owed,
+             judged_json = excluded.judged_json, judged_at = excluded.judged_at,
+             judged_mark = excluded.judged_mark{guard}"
+    );
+    sqlx::query(sqlx::AssertSqlSafe(sql))
+        .bind(row.lot_id)
+        .bind(row.project_id)
+        .bind(&row.reduction_version)
+        .bind(&row.display_state)
+        .bind(row.accepted)
+        .bind(row.tests_entered)
+        .bind(row.tests_owed)
+        .bind(&row.judged_json)
+        .bind(&row.judged_at)
+        .bind(judged_mark)
+        .execute(&mut **tx)
+        .await?;
+    Ok(())
+}
+
+/// Removes the summary of a lot that no longer exists.
+pub async fn forget(tx: &mut Tx<'_>, lot_id: i64) -> sqlx::Result<()> {
+    sqlx::query("DELETE FROM lot_summaries WHERE lot_id = $1")
+        .bind(lot_id)
+        .execute(&mut **tx)
+        .await?;
+    Ok(())
+}
+
+/// Clears exactly the marks that were read and judged: a mark committed meanwhile,
+/// whatever its id, stays for the next settling.
+pub async fn clear(tx: &mut Tx<'_>, ids: &[i64]) -> sqlx::Result<()> {
+    for chunk in ids.chunks(500) {
+        let list = chunk
+            .iter()
+            .map(i64::to_string)
+            .collect::<Vec<_>>()
+            .join(", ");
+        sqlx::query(sqlx::AssertSqlSafe(format!(
+            "DELETE FROM lots_to_judge WHERE id IN ({list})"
+        )))
+        .execute(&mut **tx)
+        .await?;
+    }
+    Ok(())
+}
+
+/// Moves the project's revision: the in-memory copies of its views are stale.
+pub async fn bump_revision(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<()> {
+    sqlx::query("UPDATE projects SET revision = revision + 1 WHERE id = $1")
+        .bind(project_id)
+        .execute(&mut **tx)
+        .await?;
+    Ok(())
+}
+
+/// Every stored summary of a project.
+pub async fn for_project(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<SummaryRow>> {
+    sqlx::query_as::<_, SummaryRow>(
+        "SELECT lot_id, project_id, reduction_version, display_state, accepted, tests_entered,
+                tests_owed, judged_json, judged_at
+         FROM lot_summaries WHERE project_id = $1",
+    )
+    .bind(project_id)
+    .fetch_all(pool)
+    .await
+}
+
+/// Tests entered on a project, from its summaries (settled first by the caller).
+pub async fn tests_entered(pool: &Pool, project_id: i64) -> sqlx::Result<i64> {
+    let n: Option<i64> = sqlx::query_scalar(
+        "SELECT CAST(SUM(tests_entered) AS BIGINT) FROM lot_summaries WHERE project_id = $1",
+    )
+    .bind(project_id)
+    .fetch_one(pool)
+    .await?;
+    Ok(n.unwrap_or(0))
+}
+
+/// Marks every lot (of one project, or of all) to be judged again; returns how many.
+pub async fn mark_all(pool: &Pool, project_id: Option<i64>) -> sqlx::Result<u64> {
+    let done = sqlx::query(
+        "INSERT INTO lots_to_judge (project_id, lot_id)
+         SELECT project_id, id FROM lots WHERE ($1 IS NULL OR project_id = $2)",
+    )
+    .bind(project_id)
+    .bind(project_id)
+    .execute(pool)
+    .await?;
+    Ok(done.rows_affected())
+}
+
+/// True when mark ids follow commit order (SQLite's one writer), so a summary can be
+/// guarded by the mark it was judged from.
+pub fn marks_follow_commits(pool: &Pool) -> bool {
+    engine_of(pool) == Engine::Sqlite
+}
