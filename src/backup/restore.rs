@@ -81,11 +81,9 @@ pub async fn restore(
         "backup checked: integrity ok, {} certificates match their SHA-256",
         checked.certificates_verified
     ));
-    if let Some((t, _)) = checked
-        .rows
-        .iter()
-        .find(|(t, n)| *n > 0 && !copy::TABLES.contains(&t.as_str()))
-    {
+    if let Some((t, _)) = checked.rows.iter().find(|(t, n)| {
+        *n > 0 && !copy::TABLES.contains(&t.as_str()) && !copy::REBUILT.contains(&t.as_str())
+    }) {
         bail!("the backup holds table {t}, which this build cannot restore; use a newer build");
     }
     let source = db::open(&copy_path).await?;

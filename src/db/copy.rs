@@ -40,6 +40,12 @@ pub const TABLES: [&str; 29] = [
     "gauge_offsets",
 ];
 
+/// Tables a copy does not move row by row: the lot summaries and their marks, which the
+/// target rebuilds (its triggers mark every copied lot, and its first settling judges
+/// them), and the test counters, which the target's project trigger creates and the copy
+/// then sets to the source's values.
+pub const REBUILT: [&str; 3] = ["lot_summaries", "lots_to_judge", "test_counters"];
+
 /// What a copy moved and checked.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct CopyReport {
@@ -138,13 +144,19 @@ pub async fn copy_all_with(
         progress(table, n);
         rows.push((table.to_string(), n));
     }
-    // Inserting the tests ran the counting trigger on top of the copied counts.
-    sqlx::query(
-        "UPDATE projects SET field_test_count =
-            (SELECT COUNT(*) FROM field_tests WHERE field_tests.project_id = projects.id)",
-    )
-    .execute(&mut *tx)
-    .await?;
+    // Each copied project was given a counter at zero; it takes the source's number.
+    let counters: Vec<(i64, i64)> =
+        sqlx::query_as("SELECT project_id, last_number FROM test_counters ORDER BY project_id")
+            .fetch_all(&mut *snapshot)
+            .await
+            .context("reading test_counters")?;
+    for (project_id, last_number) in counters {
+        sqlx::query("UPDATE test_counters SET last_number = $1 WHERE project_id = $2")
+            .bind(last_number)
+            .bind(project_id)
+            .execute(&mut *tx)
+            .await?;
+    }
     tx.commit().await?;
     let report = verify(&mut snapshot, to, rows).await;
     snapshot.rollback().await?;

@@ -17,6 +17,44 @@ pub fn test_label(n: i64) -> String {
     format!("T-{n:04}")
 }
 
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn automatic_numbers_read_back_and_others_are_not_theirs() {
+        assert_eq!(automatic_number(&test_label(42)), Some(42));
+        assert_eq!(automatic_number("T-12345"), Some(12345));
+        for other in ["T-", "T-12a", "S0000001", "t-0001", "T--1", ""] {
+            assert_eq!(automatic_number(other), None, "{other}");
+        }
+    }
+}
+
+/// The counter value of a number written in the automatic form (`T-0042` is 42).
+pub fn automatic_number(label: &str) -> Option<i64> {
+    let digits = label.strip_prefix("T-")?;
+    if digits.is_empty() || !digits.bytes().all(|b| b.is_ascii_digit()) {
+        return None;
+    }
+    digits.parse().ok()
+}
+
+/// Moves the counter to at least `n`, inside the caller's write transaction: a test given
+/// a number of the automatic form by hand (or by a file) is not given it again. The row
+/// is only locked when the counter moves.
+pub async fn follow_number(tx: &mut Tx<'_>, project_id: i64, n: i64) -> sqlx::Result<()> {
+    sqlx::query(
+        "UPDATE test_counters SET last_number = $1 WHERE project_id = $2 AND last_number < $3",
+    )
+    .bind(n)
+    .bind(project_id)
+    .bind(n)
+    .execute(&mut **tx)
+    .await?;
+    Ok(())
+}
+
 /// Takes the next automatic number inside the caller's write transaction.
 pub async fn take_test_number(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<String> {
     let n: i64 = sqlx::query_scalar(
@@ -42,19 +80,4 @@ pub async fn draw_test_number(pool: &Pool, project_id: i64) -> sqlx::Result<Opti
     let number = take_test_number(&mut tx, project_id).await?;
     tx.commit().await?;
     Ok(Some(number))
-}
-
-/// Moves the counter past the project's tests after an import that gave its own numbers,
-/// so the next automatic number follows the count, as before the counter.
-pub async fn follow_count(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<()> {
-    sqlx::query(
-        "UPDATE test_counters SET last_number = c.n
-         FROM (SELECT COUNT(*) AS n FROM field_tests WHERE project_id = $1) c
-         WHERE project_id = $2 AND last_number < c.n",
-    )
-    .bind(project_id)
-    .bind(project_id)
-    .execute(&mut **tx)
-    .await?;
-    Ok(())
 }

@@ -856,7 +856,12 @@ impl<'a> Lander<'a> {
     /// Lands queued tests through the one record path of every new test, the lot's state
     /// the one read with the lots (the import holds the write lock since), and inserts them.
     async fn land(&mut self, tx: &mut db::Tx<'_>, tests: Vec<FieldTest>) -> Result<()> {
+        // The highest number of the automatic form, which the project's counter follows.
+        let mut highest: Option<(i64, i64)> = None;
         for record in tests {
+            if let Some(n) = db::numbering::automatic_number(&record.number) {
+                highest = Some((record.project_id, highest.map_or(n, |(_, h)| h.max(n))));
+            }
             let lot_state = self
                 .lots
                 .by_id(record.lot_id)
@@ -875,6 +880,9 @@ impl<'a> Lander<'a> {
             field::land(tx, record, self.actor, action, how).await?;
         }
         self.batch.flush(tx).await?;
+        if let Some((project_id, n)) = highest {
+            db::numbering::follow_number(tx, project_id, n).await?;
+        }
         Ok(())
     }
 }
@@ -1046,7 +1054,6 @@ async fn finish(
     report.created_ids = Some((first_id, last_id));
     // The ids were given explicitly: move the engine's id generator past them.
     bulk::advance_test_ids(&mut tx).await?;
-    db::numbering::follow_count(&mut tx, project_id).await?;
     audit::record(
         &mut tx,
         &audit::Change {

@@ -93,6 +93,12 @@ pub(crate) async fn land<'a>(
             return Err(anyhow::anyhow!("a queued test has no number").into());
         }
         record.number = db::numbering::take_test_number(tx, record.project_id).await?;
+    } else if let Some(n) = db::numbering::automatic_number(&record.number)
+        && matches!(how, Landing::Alone)
+    {
+        // A number of the automatic form given by hand is not drawn again (a number drawn
+        // before the write is at most the counter: nothing moves, nothing is locked).
+        db::numbering::follow_number(tx, record.project_id, n).await?;
     }
     match how {
         Landing::Alone => {
