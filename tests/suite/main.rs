@@ -25,5 +25,6 @@ mod restart;
 mod setup_pages;
 mod shared_postgres;
 mod signoff;
+mod summaries;
 mod transfer;
 mod verdicts;
