@@ -18,6 +18,8 @@ CREATE TABLE lot_summaries (
     tests_entered     BIGINT NOT NULL,
     tests_owed        BIGINT NOT NULL,
     judged_json       TEXT NOT NULL,
+    -- Each test's result by result code, for the test list's result filter.
+    test_results      TEXT NOT NULL,
     judged_at         TEXT NOT NULL,
     -- The newest mark this summary was judged from.
     judged_mark       BIGINT NOT NULL

@@ -16,6 +16,8 @@ CREATE TABLE lot_summaries (
     tests_entered     INTEGER NOT NULL,
     tests_owed        INTEGER NOT NULL,
     judged_json       TEXT NOT NULL,
+    -- Each test's result by result code, for the test list's result filter.
+    test_results      TEXT NOT NULL,
     judged_at         TEXT NOT NULL,
     -- The newest mark this summary was judged from.
     judged_mark       INTEGER NOT NULL
@@ -33,30 +35,28 @@ CREATE INDEX lots_to_judge_by_lot ON lots_to_judge (lot_id);
 -- Every existing lot is judged once, by the first view or by `liftledger rejudge`.
 INSERT INTO lots_to_judge (project_id, lot_id) SELECT project_id, id FROM lots;
 
--- SQLite has one writer: a lot already marked is not marked twice.
+-- Marks are only appended, never merged into an earlier one: a settling judges the lots
+-- before it takes the write lock and clears exactly the marks it read, so a mark written
+-- meanwhile must stay for the next one.
 CREATE TRIGGER field_test_added_marks_lot AFTER INSERT ON field_tests
 BEGIN
     INSERT INTO lots_to_judge (project_id, lot_id)
-    SELECT NEW.project_id, NEW.lot_id
-    WHERE NOT EXISTS (SELECT 1 FROM lots_to_judge WHERE lot_id = NEW.lot_id);
+    SELECT NEW.project_id, NEW.lot_id;
 END;
 
 CREATE TRIGGER field_test_changed_marks_lots AFTER UPDATE ON field_tests
 BEGIN
     INSERT INTO lots_to_judge (project_id, lot_id)
-    SELECT NEW.project_id, NEW.lot_id
-    WHERE NOT EXISTS (SELECT 1 FROM lots_to_judge WHERE lot_id = NEW.lot_id);
+    SELECT NEW.project_id, NEW.lot_id;
     INSERT INTO lots_to_judge (project_id, lot_id)
     SELECT OLD.project_id, OLD.lot_id
-    WHERE OLD.lot_id <> NEW.lot_id
-      AND NOT EXISTS (SELECT 1 FROM lots_to_judge WHERE lot_id = OLD.lot_id);
+    WHERE OLD.lot_id <> NEW.lot_id;
 END;
 
 CREATE TRIGGER field_test_removed_marks_lot AFTER DELETE ON field_tests
 BEGIN
     INSERT INTO lots_to_judge (project_id, lot_id)
-    SELECT OLD.project_id, OLD.lot_id
-    WHERE NOT EXISTS (SELECT 1 FROM lots_to_judge WHERE lot_id = OLD.lot_id);
+    SELECT OLD.project_id, OLD.lot_id;
 END;
 
 CREATE TRIGGER lot_added_marks_lot AFTER INSERT ON lots
@@ -67,81 +67,73 @@ END;
 CREATE TRIGGER lot_changed_marks_lot AFTER UPDATE ON lots
 BEGIN
     INSERT INTO lots_to_judge (project_id, lot_id)
-    SELECT NEW.project_id, NEW.id
-    WHERE NOT EXISTS (SELECT 1 FROM lots_to_judge WHERE lot_id = NEW.id);
+    SELECT NEW.project_id, NEW.id;
 END;
 
 CREATE TRIGGER certificate_added_marks_lot AFTER INSERT ON certificates
 BEGIN
     INSERT INTO lots_to_judge (project_id, lot_id)
-    SELECT NEW.project_id, NEW.lot_id
-    WHERE NOT EXISTS (SELECT 1 FROM lots_to_judge WHERE lot_id = NEW.lot_id);
+    SELECT NEW.project_id, NEW.lot_id;
 END;
 
 CREATE TRIGGER certificate_changed_marks_lot AFTER UPDATE ON certificates
 BEGIN
     INSERT INTO lots_to_judge (project_id, lot_id)
-    SELECT NEW.project_id, NEW.lot_id
-    WHERE NOT EXISTS (SELECT 1 FROM lots_to_judge WHERE lot_id = NEW.lot_id);
+    SELECT NEW.project_id, NEW.lot_id;
 END;
 
 CREATE TRIGGER test_plan_added_marks_lot AFTER INSERT ON test_plans
 BEGIN
     INSERT INTO lots_to_judge (project_id, lot_id)
-    SELECT NEW.project_id, NEW.lot_id
-    WHERE NOT EXISTS (SELECT 1 FROM lots_to_judge WHERE lot_id = NEW.lot_id);
+    SELECT NEW.project_id, NEW.lot_id;
 END;
 
 CREATE TRIGGER test_plan_changed_marks_lot AFTER UPDATE ON test_plans
 BEGIN
     INSERT INTO lots_to_judge (project_id, lot_id)
-    SELECT NEW.project_id, NEW.lot_id
-    WHERE NOT EXISTS (SELECT 1 FROM lots_to_judge WHERE lot_id = NEW.lot_id);
+    SELECT NEW.project_id, NEW.lot_id;
 END;
 
 CREATE TRIGGER one_point_added_marks_lots AFTER INSERT ON one_point_checks
 BEGIN
     INSERT INTO lots_to_judge (project_id, lot_id)
     SELECT l.project_id, l.id FROM lots l
-    WHERE l.project_id = NEW.project_id AND l.source_id = NEW.source_id
-      AND l.id NOT IN (SELECT lot_id FROM lots_to_judge);
+    WHERE l.project_id = NEW.project_id AND l.source_id = NEW.source_id;
 END;
 
 CREATE TRIGGER one_point_changed_marks_lots AFTER UPDATE ON one_point_checks
 BEGIN
     INSERT INTO lots_to_judge (project_id, lot_id)
     SELECT l.project_id, l.id FROM lots l
-    WHERE l.project_id = NEW.project_id AND l.source_id IN (NEW.source_id, OLD.source_id)
-      AND l.id NOT IN (SELECT lot_id FROM lots_to_judge);
+    WHERE l.project_id = NEW.project_id AND l.source_id IN (NEW.source_id, OLD.source_id);
 END;
 
 CREATE TRIGGER one_point_removed_marks_lots AFTER DELETE ON one_point_checks
 BEGIN
     INSERT INTO lots_to_judge (project_id, lot_id)
     SELECT l.project_id, l.id FROM lots l
-    WHERE l.project_id = OLD.project_id AND l.source_id = OLD.source_id
-      AND l.id NOT IN (SELECT lot_id FROM lots_to_judge);
+    WHERE l.project_id = OLD.project_id AND l.source_id = OLD.source_id;
 END;
 
 CREATE TRIGGER lab_test_changed_marks_lots AFTER UPDATE ON lab_tests
 BEGIN
     INSERT INTO lots_to_judge (project_id, lot_id)
     SELECT l.project_id, l.id FROM lots l
-    WHERE l.lab_test_id = NEW.id AND l.id NOT IN (SELECT lot_id FROM lots_to_judge);
+    WHERE l.lab_test_id = NEW.id;
 END;
 
 CREATE TRIGGER clause_changed_marks_lots AFTER UPDATE ON clauses
 BEGIN
     INSERT INTO lots_to_judge (project_id, lot_id)
     SELECT l.project_id, l.id FROM lots l
-    WHERE l.clause_id = NEW.id AND l.id NOT IN (SELECT lot_id FROM lots_to_judge);
+    WHERE l.clause_id = NEW.id;
 END;
 
 CREATE TRIGGER source_changed_marks_lots AFTER UPDATE ON sources
 BEGIN
     INSERT INTO lots_to_judge (project_id, lot_id)
     SELECT l.project_id, l.id FROM lots l
-    WHERE l.source_id = NEW.id AND l.id NOT IN (SELECT lot_id FROM lots_to_judge);
+    WHERE l.source_id = NEW.id;
 END;
 
 -- The project's revision now moves when its summaries are judged again (the settling

@@ -215,6 +215,20 @@ pub async fn list(pool: &Pool, project_id: i64, f: &TestFilter) -> sqlx::Result<
         .await
 }
 
+/// (id, lot id) of every test of a project matching the filter (its limit and offset
+/// ignored), newest first: the test list's result filter picks from these.
+pub async fn ids_matching(
+    pool: &Pool,
+    project_id: i64,
+    f: &TestFilter,
+) -> sqlx::Result<Vec<(i64, i64)>> {
+    let q = sqlx::query_as::<_, (i64, i64)>(sqlx::AssertSqlSafe(format!(
+        "SELECT t.id, t.lot_id FROM field_tests t {FILTER_WHERE}
+         ORDER BY t.tested_at DESC, t.id DESC"
+    )));
+    bind_filter!(q, project_id, f).fetch_all(pool).await
+}
+
 /// Voids a test with a reason; false when it was already void.
 pub async fn void(
     tx: &mut Tx<'_>,

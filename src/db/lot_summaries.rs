@@ -19,6 +19,8 @@ pub struct SummaryRow {
     pub tests_entered: i64,
     pub tests_owed: i64,
     pub judged_json: String,
+    /// The lot's test ids by result code (JSON); empty when read for a view.
+    pub test_results: String,
     pub judged_at: String,
 }
 
@@ -56,17 +58,18 @@ pub async fn marked_projects(pool: &Pool) -> sqlx::Result<Vec<i64>> {
         .await
 }
 
-/// Holds the settling of a project's summaries until the transaction ends: on
-/// PostgreSQL an advisory lock, so two app servers never write a lot's summary from
-/// two different readings; SQLite's write lock already does so for one file.
-pub async fn hold_settling(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<()> {
-    if tx.backend_name() == "PostgreSQL" {
-        sqlx::query("SELECT pg_advisory_xact_lock(1201, CAST($1 AS INTEGER))")
-            .bind(project_id)
-            .execute(&mut **tx)
-            .await?;
+/// Takes the settling of a project's summaries until the transaction ends, if free: on
+/// PostgreSQL an advisory lock, so two app servers never write a lot's summary from two
+/// different readings (SQLite's write lock already does so for one file). False when
+/// another settling holds it.
+pub async fn try_hold_settling(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<bool> {
+    if tx.backend_name() != "PostgreSQL" {
+        return Ok(true);
     }
-    Ok(())
+    sqlx::query_scalar("SELECT pg_try_advisory_xact_lock(1201, CAST($1 AS INTEGER))")
+        .bind(project_id)
+        .fetch_one(&mut **tx)
+        .await
 }
 
 /// Writes a lot's summary. With `newer_only` an existing summary is kept when it was
@@ -84,12 +87,13 @@ pub async fn store(
     };
     let sql = format!(
         "INSERT INTO lot_summaries (lot_id, project_id, reduction_version, display_state, accepted,
-             tests_entered, tests_owed, judged_json, judged_at, judged_mark)
-         VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10)
+             tests_entered, tests_owed, judged_json, test_results, judged_at, judged_mark)
+         VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11)
          ON CONFLICT (lot_id) DO UPDATE SET reduction_version = excluded.reduction_version,
              display_state = excluded.display_state, accepted = excluded.accepted,
              tests_entered = excluded.tests_entered, tests_owed = excluded.tests_owed,
-             judged_json = excluded.judged_json, judged_at = excluded.judged_at,
+             judged_json = excluded.judged_json, test_results = excluded.test_results,
+             judged_at = excluded.judged_at,
              judged_mark = excluded.judged_mark{guard}"
     );
     sqlx::query(sqlx::AssertSqlSafe(sql))
@@ -101,6 +105,7 @@ pub async fn store(
         .bind(row.tests_entered)
         .bind(row.tests_owed)
         .bind(&row.judged_json)
+        .bind(&row.test_results)
         .bind(&row.judged_at)
         .bind(judged_mark)
         .execute(&mut **tx)
@@ -148,10 +153,27 @@ pub async fn bump_revision(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<()>
 pub async fn for_project(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<SummaryRow>> {
     sqlx::query_as::<_, SummaryRow>(
         "SELECT lot_id, project_id, reduction_version, display_state, accepted, tests_entered,
-                tests_owed, judged_json, judged_at
+                tests_owed, judged_json, '' AS test_results, judged_at
          FROM lot_summaries WHERE project_id = $1",
     )
     .bind(project_id)
+    .fetch_all(pool)
+    .await
+}
+
+/// Each lot's test ids by result (JSON), for the lots of a project (of one layer).
+pub async fn test_results(
+    pool: &Pool,
+    project_id: i64,
+    layer_id: Option<i64>,
+) -> sqlx::Result<Vec<String>> {
+    sqlx::query_scalar(
+        "SELECT s.test_results FROM lot_summaries s JOIN lots l ON l.id = s.lot_id
+         WHERE s.project_id = $1 AND ($2 IS NULL OR l.layer_id = $3)",
+    )
+    .bind(project_id)
+    .bind(layer_id)
+    .bind(layer_id)
     .fetch_all(pool)
     .await
 }

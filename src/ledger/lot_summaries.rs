@@ -88,8 +88,37 @@ fn row_of(r: &LotReport) -> Result<SummaryRow> {
         tests_entered: i64::try_from(r.tests_entered).unwrap_or(i64::MAX),
         tests_owed: i64::from(r.tests_owed),
         judged_json: serde_json::to_string(&judged).map_err(anyhow::Error::from)?,
+        test_results: serde_json::to_string(&results_of(r)).map_err(anyhow::Error::from)?,
         judged_at: crate::clock::now(),
     })
+}
+
+/// The lot's test ids by result code, as the test list's result filter reads them.
+fn results_of(r: &LotReport) -> BTreeMap<&'static str, Vec<i64>> {
+    let mut out: BTreeMap<&'static str, Vec<i64>> = BTreeMap::new();
+    for line in &r.tests {
+        out.entry(line.result().code())
+            .or_default()
+            .push(line.test.id);
+    }
+    out
+}
+
+/// The ids of the project's tests (of one layer) whose stored result is `result`.
+pub async fn tests_with_result(
+    pool: &Pool,
+    project_id: i64,
+    layer_id: Option<i64>,
+    result: &str,
+) -> Result<HashSet<i64>> {
+    settle(pool, project_id).await?;
+    let mut out = HashSet::new();
+    for json in db::lot_summaries::test_results(pool, project_id, layer_id).await? {
+        let mut by_result: HashMap<String, Vec<i64>> = serde_json::from_str(&json)
+            .map_err(|e| anyhow::anyhow!("a stored summary's results cannot be read: {e}"))?;
+        out.extend(by_result.remove(result).unwrap_or_default());
+    }
+    Ok(out)
 }
 
 /// What judging a marked lot gave.
@@ -113,18 +142,27 @@ pub async fn settle(pool: &Pool, project_id: i64) -> Result<usize> {
 }
 
 /// [`settle`], telling `progress` (lots judged, lots marked) as it goes.
+///
+/// Settlings of one server take turns (an in-process lock, waited for without holding a
+/// connection), so concurrent views do not judge the same lots twice; the marks are read
+/// once the turn is taken.
 pub async fn settle_with(
     pool: &Pool,
     project_id: i64,
     progress: &mut (dyn FnMut(usize, usize) + Send),
 ) -> Result<usize> {
-    let marks = db::lot_summaries::marks(pool, project_id).await?;
-    if marks.is_empty() {
+    if db::lot_summaries::marks(pool, project_id).await?.is_empty() {
         return Ok(0);
     }
+    static TURN: tokio::sync::Mutex<()> = tokio::sync::Mutex::const_new(());
+    let _turn = TURN.lock().await;
     if db::lot_summaries::marks_follow_commits(pool) {
         // SQLite: judge before taking the one write lock, so writers do not wait on the
         // judging; a summary judged from an older mark never replaces a newer one.
+        let marks = db::lot_summaries::marks(pool, project_id).await?;
+        if marks.is_empty() {
+            return Ok(0);
+        }
         let judged = judge_marked(pool, project_id, &marks, progress).await?;
         let mut tx = db::begin_write(pool).await?;
         write(&mut tx, project_id, &judged, &marks, true).await?;
@@ -133,8 +171,7 @@ pub async fn settle_with(
     } else {
         // PostgreSQL: one settling per project at a time across app servers, holding an
         // advisory lock (writers of tests never take it), marks read under it.
-        let mut tx = db::begin_write(pool).await?;
-        db::lot_summaries::hold_settling(&mut tx, project_id).await?;
+        let mut tx = hold_settling(pool, project_id).await?;
         let marks = db::lot_summaries::marks_in(&mut tx, project_id).await?;
         if marks.is_empty() {
             tx.rollback().await?;
@@ -144,6 +181,28 @@ pub async fn settle_with(
         write(&mut tx, project_id, &judged, &marks, false).await?;
         tx.commit().await?;
         Ok(judged.len())
+    }
+}
+
+/// A write transaction holding the project's settling lock (PostgreSQL). The lock is
+/// tried, not waited for: a settling on another server may need more connections of
+/// this pool's database than are free while this one waits, so the connection is given
+/// back between tries.
+async fn hold_settling(pool: &Pool, project_id: i64) -> Result<db::Tx<'static>> {
+    let started = Instant::now();
+    loop {
+        let mut tx = db::begin_write(pool).await?;
+        if db::lot_summaries::try_hold_settling(&mut tx, project_id).await? {
+            return Ok(tx);
+        }
+        tx.rollback().await?;
+        if started.elapsed() > Duration::from_secs(20) {
+            return Err(anyhow::anyhow!(
+                "the lot summaries of project {project_id} are being judged elsewhere for over 20 s"
+            )
+            .into());
+        }
+        tokio::time::sleep(Duration::from_millis(5)).await;
     }
 }
 
@@ -210,13 +269,15 @@ async fn judge_marked(
         pool,
         project_id,
         |lot| newest.contains_key(&lot.id),
-        false,
+        // The lines are needed for the stored results, then dropped.
+        true,
         |r| {
             seen.insert(r.lot.id);
+            let row = row_of(&r)?;
             out.push(Judgement {
                 lot_id: r.lot.id,
                 newest_mark: newest[&r.lot.id],
-                outcome: Outcome::Judged(Box::new(row_of(&r)?)),
+                outcome: Outcome::Judged(Box::new(row)),
             });
             progress(out.len(), total);
             Ok(())

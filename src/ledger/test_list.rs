@@ -121,8 +121,8 @@ impl Bounds {
 /// Applies the filters to every judged test of the project, newest first; returns the
 /// first `limit` selected (all when `None`) and how many were selected in all.
 ///
-/// Lots are judged one at a time and only selected lines are kept (at most about
-/// twice `limit` of them), so a large project's list does not hold the project.
+/// A page (`limit` given) judges only the lots of the tests it shows; the whole list
+/// (a download) judges lots one at a time, keeping only selected lines.
 pub async fn select(
     pool: &crate::db::Pool,
     project_id: i64,
@@ -137,8 +137,35 @@ pub async fn select(
         Some(n) if f.verdict.is_empty() => {
             newest_from_database(pool, project_id, f, &bounds, n).await
         }
+        // With one, the stored summaries say which tests have that result.
+        Some(n) => newest_with_result(pool, project_id, f, &bounds, n).await,
         _ => judged_pass(pool, project_id, f, &bounds, limit).await,
     }
+}
+
+/// The database's filter of the typed bounds, `n` at most.
+fn database_filter(
+    f: &Filters,
+    b: &Bounds,
+    n: usize,
+) -> Result<crate::db::field_tests::TestFilter, AppError> {
+    let next_day = |d: &String| -> Result<String, AppError> {
+        let fmt = time::macros::format_description!("[year]-[month]-[day]");
+        let day = time::Date::parse(d, &fmt)
+            .map_err(|_| AppError::invalid("date_to", "not a date like 2026-12-01"))?;
+        Ok(day.next_day().unwrap_or(day).to_string())
+    };
+    Ok(crate::db::field_tests::TestFilter {
+        lot_id: None,
+        layer_id: b.layer,
+        chainage_from_m: b.from,
+        chainage_to_m: b.to,
+        tested_from: b.date_from.clone(),
+        tested_before: b.date_to.as_ref().map(next_day).transpose()?,
+        method: (!f.method.is_empty()).then(|| f.method.clone()),
+        limit: i64::try_from(n).unwrap_or(i64::MAX),
+        offset: 0,
+    })
 }
 
 /// The newest `n` tests the database selects, each judged with its lot, and how many match.
@@ -149,40 +176,57 @@ async fn newest_from_database(
     b: &Bounds,
     n: usize,
 ) -> Result<(Vec<Listed>, usize), AppError> {
-    let next_day = |d: &String| -> Result<String, AppError> {
-        let fmt = time::macros::format_description!("[year]-[month]-[day]");
-        let day = time::Date::parse(d, &fmt)
-            .map_err(|_| AppError::invalid("date_to", "not a date like 2026-12-01"))?;
-        Ok(day.next_day().unwrap_or(day).to_string())
-    };
-    let filter = crate::db::field_tests::TestFilter {
-        lot_id: None,
-        layer_id: b.layer,
-        chainage_from_m: b.from,
-        chainage_to_m: b.to,
-        tested_from: b.date_from.clone(),
-        tested_before: b.date_to.as_ref().map(next_day).transpose()?,
-        method: (!f.method.is_empty()).then(|| f.method.clone()),
-        limit: i64::try_from(n).unwrap_or(i64::MAX),
-        offset: 0,
-    };
+    let filter = database_filter(f, b, n)?;
     let total = crate::db::field_tests::count_matching(pool, project_id, &filter).await?;
     let newest = crate::db::field_tests::list(pool, project_id, &filter).await?;
+    let picked: Vec<(i64, i64)> = newest.iter().map(|t| (t.id, t.lot_id)).collect();
+    let out = lines_of(pool, &picked).await?;
+    Ok((out, usize::try_from(total).unwrap_or(0)))
+}
+
+/// The newest `n` tests with the wanted result, and how many there are: the results come
+/// from the lots' stored summaries (no lot is judged for the choice), the other filters
+/// from the database; only the lots of the tests shown are judged, for their lines.
+async fn newest_with_result(
+    pool: &crate::db::Pool,
+    project_id: i64,
+    f: &Filters,
+    b: &Bounds,
+    n: usize,
+) -> Result<(Vec<Listed>, usize), AppError> {
+    let wanted =
+        super::lot_summaries::tests_with_result(pool, project_id, b.layer, &f.verdict).await?;
+    if wanted.is_empty() {
+        return Ok((Vec::new(), 0));
+    }
+    let filter = database_filter(f, b, n)?;
+    let matching: Vec<(i64, i64)> = crate::db::field_tests::ids_matching(pool, project_id, &filter)
+        .await?
+        .into_iter()
+        .filter(|(id, _)| wanted.contains(id))
+        .collect();
+    let total = matching.len();
+    let out = lines_of(pool, &matching[..n.min(total)]).await?;
+    Ok((out, total))
+}
+
+/// The judged lines of the picked (test, lot) pairs, in their order, each lot judged once.
+async fn lines_of(pool: &crate::db::Pool, picked: &[(i64, i64)]) -> Result<Vec<Listed>, AppError> {
     let mut lots: std::collections::HashMap<i64, LotReport> = Default::default();
-    let mut out = Vec::with_capacity(newest.len());
-    for t in &newest {
-        if let std::collections::hash_map::Entry::Vacant(e) = lots.entry(t.lot_id) {
-            e.insert(crate::ledger::lot_report::build(pool, t.lot_id).await?);
+    let mut out = Vec::with_capacity(picked.len());
+    for &(test_id, lot_id) in picked {
+        if let std::collections::hash_map::Entry::Vacant(e) = lots.entry(lot_id) {
+            e.insert(crate::ledger::lot_report::build(pool, lot_id).await?);
         }
-        let r = &lots[&t.lot_id];
-        if let Some(line) = r.tests.iter().find(|l| l.test.id == t.id) {
+        let r = &lots[&lot_id];
+        if let Some(line) = r.tests.iter().find(|l| l.test.id == test_id) {
             out.push(Listed {
                 lot: r.lot.clone(),
                 line: line.clone(),
             });
         }
     }
-    Ok((out, usize::try_from(total).unwrap_or(0)))
+    Ok(out)
 }
 
 /// Every lot of the project judged in turn, its tests filtered; the newest `limit` kept.
