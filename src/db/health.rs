@@ -133,3 +133,37 @@ async fn applied_on_disk(path: &Path) -> Result<Option<i64>, NotReady> {
     let _ = sqlx::Connection::close(conn).await;
     Ok(applied)
 }
+
+/// The settings an SQLite connection of the pool runs with, as SQLite reports them.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct SqliteSettings {
+    /// `wal` when commits go to the write-ahead log.
+    pub journal_mode: String,
+    /// Whether foreign keys are enforced.
+    pub foreign_keys: bool,
+    /// 2 is `FULL`: a commit that returned survives power loss.
+    pub synchronous: i64,
+}
+
+/// What one of the pool's own connections is set to (`None` on PostgreSQL, which is
+/// configured on its server).
+pub async fn sqlite_settings(pool: &Pool) -> sqlx::Result<Option<SqliteSettings>> {
+    let Pool::Sqlite(pool) = pool else {
+        return Ok(None);
+    };
+    let mut conn = pool.acquire().await?;
+    let journal_mode = sqlx::query_scalar("PRAGMA journal_mode")
+        .fetch_one(&mut *conn)
+        .await?;
+    let foreign_keys: i64 = sqlx::query_scalar("PRAGMA foreign_keys")
+        .fetch_one(&mut *conn)
+        .await?;
+    let synchronous = sqlx::query_scalar("PRAGMA synchronous")
+        .fetch_one(&mut *conn)
+        .await?;
+    Ok(Some(SqliteSettings {
+        journal_mode,
+        foreign_keys: foreign_keys == 1,
+        synchronous,
+    }))
+}

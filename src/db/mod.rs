@@ -100,6 +100,7 @@ impl AsConn for Conn {
 
 /// Runs `body` once per engine with `$p` bound to the native pool (`&SqlitePool` or
 /// `&PgPool`): the statement is written once and compiled for each engine.
+#[macro_export]
 macro_rules! on_pool {
     ($pool:expr, |$p:ident| $body:expr) => {
         match $pool {
@@ -111,6 +112,7 @@ macro_rules! on_pool {
 
 /// Runs `body` once per engine with `$t` bound to the native transaction
 /// (`&mut sqlx::Transaction<'_, Sqlite>` or `<'_, Postgres>`; `&mut **$t` is its connection).
+#[macro_export]
 macro_rules! on_tx {
     ($tx:expr, |$t:ident| $body:expr) => {
         match $tx {
@@ -122,6 +124,7 @@ macro_rules! on_tx {
 
 /// Runs `body` once per engine with `$c` bound to the native connection
 /// (`&mut SqliteConnection` or `&mut PgConnection`) of anything [`AsConn`].
+#[macro_export]
 macro_rules! on_conn {
     ($conn:expr, |$c:ident| $body:expr) => {
         match $crate::db::AsConn::as_conn($conn) {
@@ -131,7 +134,7 @@ macro_rules! on_conn {
     };
 }
 
-pub(crate) use {on_conn, on_pool, on_tx};
+pub use crate::{on_conn, on_pool, on_tx};
 
 impl Pool {
     /// The engine behind the pool.

@@ -194,9 +194,8 @@ pub async fn end_sessions_of(
     keep: Option<i64>,
     now: &str,
 ) -> sqlx::Result<u64> {
-    let done =
-        on_tx!(tx, |tx| {
-            sqlx::query(
+    let done = on_tx!(tx, |tx| {
+        sqlx::query(
         "UPDATE sessions SET ended_at = $1 WHERE user_id = $2 AND ended_at IS NULL AND id <> $3",
     )
     .bind(now)
@@ -205,7 +204,7 @@ pub async fn end_sessions_of(
     .execute(&mut **tx)
     .await
     .map(|r| r.rows_affected())
-        })?;
+    })?;
     Ok(done)
 }
 
