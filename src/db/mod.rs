@@ -83,8 +83,8 @@ pub trait AsConn: Send {
 impl AsConn for Tx<'_> {
     fn as_conn(&mut self) -> ConnRef<'_> {
         match self {
-            Tx::Sqlite(t) => ConnRef::Sqlite(&mut **t),
-            Tx::Postgres(t) => ConnRef::Postgres(&mut **t),
+            Tx::Sqlite(t) => ConnRef::Sqlite(t),
+            Tx::Postgres(t) => ConnRef::Postgres(t),
         }
     }
 }
@@ -92,8 +92,8 @@ impl AsConn for Tx<'_> {
 impl AsConn for Conn {
     fn as_conn(&mut self) -> ConnRef<'_> {
         match self {
-            Conn::Sqlite(c) => ConnRef::Sqlite(&mut **c),
-            Conn::Postgres(c) => ConnRef::Postgres(&mut **c),
+            Conn::Sqlite(c) => ConnRef::Sqlite(c),
+            Conn::Postgres(c) => ConnRef::Postgres(c),
         }
     }
 }
