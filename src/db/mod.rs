@@ -2,9 +2,14 @@
 //!
 //! Functions take the pool (or an open transaction) and return plain row types.
 //! SQL is written once, with `$1`-style placeholders, and runs on SQLite (the
-//! embedded default) and on PostgreSQL through sqlx's `Any` driver. The few
-//! places where the engines differ (connection settings, migrations, the write
-//! lock) are in this file and nowhere else.
+//! embedded default) and on PostgreSQL through each engine's native sqlx driver.
+//! [`Pool`], [`Tx`] and [`Conn`] are enums over the two engines' types; a statement is
+//! written once inside [`on_pool!`], [`on_tx!`] or [`on_conn!`], which expand to a `match`
+//! with the same body in each arm, so the one text is compiled for each engine (no bounds
+//! on every function as a generic `sqlx::Database` would need, no second copy of the SQL
+//! as a trait per engine would). Both engines keep sqlx's prepared-statement cache. The
+//! few places where the engines differ (connection settings, migrations, the write lock)
+//! are in this file and match on the enum.
 
 pub mod audit;
 pub mod bulk;
