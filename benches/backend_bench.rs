@@ -54,11 +54,12 @@ async fn prepare(location: &db::Location) -> (String, i64, f64, f64) {
     let (secret, _) = accounts::create_token(&pool, 1, &input, maker, &Actor::system("bench"))
         .await
         .unwrap();
-    let (id, from, to): (i64, f64, f64) =
-        sqlx::query_as("SELECT id, chainage_from_m, chainage_to_m FROM lots WHERE code = 'EF08-1'")
-            .fetch_one(&pool)
-            .await
-            .unwrap();
+    let (id, from, to): (i64, f64, f64) = db::on_pool!(&pool, |p| sqlx::query_as(
+        "SELECT id, chainage_from_m, chainage_to_m FROM lots WHERE code = 'EF08-1'"
+    )
+    .fetch_one(p)
+    .await)
+    .unwrap();
     pool.close().await;
     (secret, id, from, to)
 }

@@ -208,15 +208,17 @@ async fn overview_figures(pool: &Pool, project_id: i64) -> anyhow::Result<()> {
             "SELECT {} FROM field_tests WHERE project_id = $1 ORDER BY lot_id, tested_at, id",
             db::bulk::VERDICT_COLUMNS
         );
-        let mut stream = sqlx::query(sqlx::AssertSqlSafe(sql))
-            .bind(project_id)
-            .fetch(pool);
-        let mut n = 0usize;
-        while let Some(row) = stream.try_next().await? {
-            std::hint::black_box(&row);
-            n += 1;
-        }
-        drop(stream);
+        let n = db::on_pool!(pool, |pool| {
+            let mut stream = sqlx::query(sqlx::AssertSqlSafe(sql))
+                .bind(project_id)
+                .fetch(pool);
+            let mut n = 0usize;
+            while let Some(row) = stream.try_next().await? {
+                std::hint::black_box(&row);
+                n += 1;
+            }
+            n
+        });
         raw.push(t.elapsed());
         rows = n;
 
@@ -654,9 +656,11 @@ async fn import_figures(dir: &Path) -> anyhow::Result<()> {
                     rate(d),
                     r.skipped_identical
                 );
-                stored = sqlx::query_as("SELECT * FROM field_tests ORDER BY id")
-                    .fetch_all(&pool)
-                    .await?;
+                stored = db::on_pool!(&pool, |p| sqlx::query_as(
+                    "SELECT * FROM field_tests ORDER BY id"
+                )
+                .fetch_all(p)
+                .await)?;
             }
             pool.close().await;
             for ext in ["", "-wal", "-shm"] {
@@ -697,7 +701,8 @@ async fn import_figures(dir: &Path) -> anyhow::Result<()> {
 
 /// One plain INSERT of a stored row (the statement is prepared once and reused by sqlx).
 async fn raw_insert(tx: &mut db::Tx<'_>, r: &db::field_tests::FieldTest) -> sqlx::Result<()> {
-    sqlx::query(
+    db::on_tx!(tx, |tx| {
+        sqlx::query(
         "INSERT INTO field_tests (id, project_id, lot_id, number, tested_at, technician, method,
             instrument_serial, chainage_m, offset_m, depth_mm, coarse_pct, coarse_water_content_pct,
             easting, northing, readings_json, wet_density_kg_m3, water_content_pct, dry_density_kg_m3,
@@ -733,30 +738,32 @@ async fn raw_insert(tx: &mut db::Tx<'_>, r: &db::field_tests::FieldTest) -> sqlx
     .bind(&r.created_at)
     .bind(&r.created_by)
     .execute(&mut **tx)
-    .await?;
-    Ok(())
+    .await
+    .map(|_| ())
+    })
 }
 
 /// The database opened as `db::open` does, but with another durability or page cache (what-ifs).
 async fn open_with(path: &Path, synchronous: &str, cache_kib: Option<i64>) -> anyhow::Result<Pool> {
-    use sqlx::Executor;
-    sqlx::any::install_default_drivers();
-    let pragmas = format!(
-        "PRAGMA journal_mode = WAL; PRAGMA synchronous = {synchronous}; PRAGMA foreign_keys = ON; \
-         PRAGMA busy_timeout = 10000;{}",
-        cache_kib.map_or(String::new(), |k| format!(" PRAGMA cache_size = -{k};"))
+    use std::str::FromStr;
+    let mut options = sqlx::sqlite::SqliteConnectOptions::new()
+        .filename(path)
+        .create_if_missing(true)
+        .journal_mode(sqlx::sqlite::SqliteJournalMode::Wal)
+        .synchronous(
+            sqlx::sqlite::SqliteSynchronous::from_str(synchronous).map_err(anyhow::Error::msg)?,
+        )
+        .foreign_keys(true)
+        .busy_timeout(Duration::from_secs(10));
+    if let Some(k) = cache_kib {
+        options = options.pragma("cache_size", format!("-{k}"));
+    }
+    let pool = Pool::Sqlite(
+        sqlx::sqlite::SqlitePoolOptions::new()
+            .max_connections(8)
+            .connect_with(options)
+            .await?,
     );
-    let pool = sqlx::any::AnyPoolOptions::new()
-        .max_connections(8)
-        .after_connect(move |conn, _| {
-            let pragmas = pragmas.clone();
-            Box::pin(async move {
-                conn.execute(sqlx::AssertSqlSafe(pragmas)).await?;
-                Ok(())
-            })
-        })
-        .connect(&format!("sqlite://{}?mode=rwc", path.display()))
-        .await?;
     db::migrate(&pool).await?;
     Ok(pool)
 }

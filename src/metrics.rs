@@ -174,7 +174,7 @@ pub fn render(pool: &Pool) -> String {
     ::metrics::gauge!(POOL_CONNECTIONS, "state" => "in_use")
         .set(f64::from(size.saturating_sub(idle)));
     ::metrics::gauge!(POOL_CONNECTIONS, "state" => "idle").set(f64::from(idle));
-    ::metrics::gauge!(POOL_MAX).set(f64::from(pool.options().get_max_connections()));
+    ::metrics::gauge!(POOL_MAX).set(f64::from(pool.max_connections()));
     let backup = LAST_GOOD_BACKUP.load(Ordering::Relaxed);
     if backup != i64::MIN {
         let now = time::OffsetDateTime::now_utc().unix_timestamp();

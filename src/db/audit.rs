@@ -3,7 +3,7 @@
 use serde::Serialize;
 
 use super::marks::{Marks, groups};
-use super::{Conn, Pool, Tx};
+use super::{AsConn, Pool, Tx, on_conn, on_pool};
 
 /// One audit row.
 #[derive(Debug, Clone, Serialize, sqlx::FromRow)]
@@ -43,29 +43,32 @@ pub(super) const INSERT_ROWS: usize = 128;
 
 /// Appends changes, each with its time, [`INSERT_ROWS`] to a statement, inside the
 /// transaction that makes them: the one insert of audit rows, single or in bulk.
-pub async fn insert_rows(conn: &mut Conn, rows: &[(&Change<'_>, &str)]) -> sqlx::Result<()> {
-    for part in rows.chunks(INSERT_ROWS) {
-        let values = groups(Marks::of(conn), part.len(), 9);
-        let sql = format!(
-            "INSERT INTO audit_log (at, actor, action, entity, entity_id, project_id, before_json, after_json, origin)
-             VALUES {values}"
-        );
-        let mut q = sqlx::query(sqlx::AssertSqlSafe(sql));
-        for (c, at) in part {
-            q = q
-                .bind(*at)
-                .bind(c.actor)
-                .bind(c.action)
-                .bind(c.entity)
-                .bind(c.entity_id)
-                .bind(c.project_id)
-                .bind(c.before.as_ref().map(|v| v.to_string()))
-                .bind(c.after.as_ref().map(|v| v.to_string()))
-                .bind(c.origin);
+pub async fn insert_rows(conn: &mut impl AsConn, rows: &[(&Change<'_>, &str)]) -> sqlx::Result<()> {
+    let style = Marks::of(conn);
+    on_conn!(conn, |conn| {
+        for part in rows.chunks(INSERT_ROWS) {
+            let values = groups(style, part.len(), 9);
+            let sql = format!(
+                "INSERT INTO audit_log (at, actor, action, entity, entity_id, project_id, before_json, after_json, origin)
+                 VALUES {values}"
+            );
+            let mut q = sqlx::query(sqlx::AssertSqlSafe(sql));
+            for (c, at) in part {
+                q = q
+                    .bind(*at)
+                    .bind(c.actor)
+                    .bind(c.action)
+                    .bind(c.entity)
+                    .bind(c.entity_id)
+                    .bind(c.project_id)
+                    .bind(c.before.as_ref().map(|v| v.to_string()))
+                    .bind(c.after.as_ref().map(|v| v.to_string()))
+                    .bind(c.origin);
+            }
+            q.execute(&mut *conn).await?;
         }
-        q.execute(&mut *conn).await?;
-    }
-    Ok(())
+        Ok(())
+    })
 }
 
 /// Every column of an audit row, in the order of [`AuditEntry`].
@@ -78,14 +81,16 @@ pub async fn for_entity(
     entity: &str,
     entity_id: i64,
 ) -> sqlx::Result<Vec<AuditEntry>> {
-    sqlx::query_as::<_, AuditEntry>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS}
+    on_pool!(pool, |pool| sqlx::query_as::<_, AuditEntry>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {COLUMNS}
          FROM audit_log WHERE entity = $1 AND entity_id = $2 ORDER BY id"
-    )))
+        ))
+    )
     .bind(entity)
     .bind(entity_id)
     .fetch_all(pool)
-    .await
+    .await)
 }
 
 /// The import that created test `test_id` of a project, if any: the newest import row
@@ -96,42 +101,50 @@ pub async fn import_covering(
     project_id: i64,
     test_id: i64,
 ) -> sqlx::Result<Option<AuditEntry>> {
-    sqlx::query_as::<_, AuditEntry>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS}
+    on_pool!(pool, |pool| sqlx::query_as::<_, AuditEntry>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {COLUMNS}
          FROM audit_log WHERE entity = 'field_test_import' AND project_id = $1 AND entity_id <= $2
          ORDER BY entity_id DESC LIMIT 1"
-    )))
+        ))
+    )
     .bind(project_id)
     .bind(test_id)
     .fetch_optional(pool)
-    .await
+    .await)
 }
 
 /// The newest changes in a project.
 pub async fn recent(pool: &Pool, project_id: i64, limit: i64) -> sqlx::Result<Vec<AuditEntry>> {
-    sqlx::query_as::<_, AuditEntry>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS}
+    on_pool!(pool, |pool| sqlx::query_as::<_, AuditEntry>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {COLUMNS}
          FROM audit_log WHERE project_id = $1 ORDER BY id DESC LIMIT $2"
-    )))
+        ))
+    )
     .bind(project_id)
     .bind(limit)
     .fetch_all(pool)
-    .await
+    .await)
 }
 
 /// Total number of audit rows (used by tests that prove nothing was written).
 pub async fn count(pool: &Pool) -> sqlx::Result<i64> {
-    sqlx::query_scalar("SELECT COUNT(*) FROM audit_log")
-        .fetch_one(pool)
-        .await
+    on_pool!(pool, |pool| sqlx::query_scalar(
+        "SELECT COUNT(*) FROM audit_log"
+    )
+    .fetch_one(pool)
+    .await)
 }
 
 /// The newest audit row of a project, 0 when none.
 pub async fn last_id(pool: &Pool, project_id: i64) -> sqlx::Result<i64> {
-    let id: Option<i64> = sqlx::query_scalar("SELECT MAX(id) FROM audit_log WHERE project_id = $1")
-        .bind(project_id)
-        .fetch_one(pool)
-        .await?;
+    let id: Option<i64> = on_pool!(pool, |pool| sqlx::query_scalar(
+        "SELECT MAX(id) FROM audit_log WHERE project_id = $1"
+    )
+    .bind(project_id)
+    .fetch_one(pool)
+    .await)?;
     Ok(id.unwrap_or(0))
 }
 
@@ -141,13 +154,13 @@ pub async fn changes_since(
     project_id: i64,
     after: i64,
 ) -> sqlx::Result<Vec<(i64, String, Option<i64>)>> {
-    sqlx::query_as(
+    on_pool!(pool, |pool| sqlx::query_as(
         "SELECT id, entity, entity_id FROM audit_log WHERE project_id = $1 AND id > $2 ORDER BY id",
     )
     .bind(project_id)
     .bind(after)
     .fetch_all(pool)
-    .await
+    .await)
 }
 
 /// Every audit row of a project, oldest first, streamed (a handover archive holds them all).
@@ -155,10 +168,12 @@ pub fn for_project(
     pool: &Pool,
     project_id: i64,
 ) -> futures_util::stream::BoxStream<'_, sqlx::Result<AuditEntry>> {
-    sqlx::query_as::<_, AuditEntry>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS}
+    on_pool!(pool, |pool| sqlx::query_as::<_, AuditEntry>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {COLUMNS}
          FROM audit_log WHERE project_id = $1 ORDER BY id"
-    )))
+        ))
+    )
     .bind(project_id)
-    .fetch(pool)
+    .fetch(pool))
 }

@@ -2,11 +2,12 @@
 //! multi-row inserts inside one transaction, lookups of many test numbers at once,
 //! and the saved column mappings of a project.
 //!
-//! Functions take a plain connection (`&mut **tx` of a transaction, or a pooled
+//! Functions take anything [`AsConn`] (the import's transaction, or a held pooled
 //! connection) so an import reads and writes through the one transaction it commits.
 
-use super::Conn as SqliteConnection;
 use serde::Serialize;
+
+use super::{AsConn, on_conn, on_pool, on_tx};
 
 use super::marks::{Marks, groups, marks, padded_parts};
 use super::{Pool, Tx};
@@ -23,17 +24,19 @@ pub const INSERT_ROWS: usize = 64;
 /// An import holds the write lock for its whole transaction, so it can number its rows
 /// from here and know every id before it inserts (retests within a file point at ids
 /// inserted in the same statement batch).
-pub async fn max_field_test_id(conn: &mut SqliteConnection) -> sqlx::Result<i64> {
-    sqlx::query_scalar("SELECT COALESCE(MAX(id), 0) FROM field_tests")
-        .fetch_one(conn)
-        .await
+pub async fn max_field_test_id(conn: &mut impl AsConn) -> sqlx::Result<i64> {
+    on_conn!(conn, |conn| sqlx::query_scalar(
+        "SELECT COALESCE(MAX(id), 0) FROM field_tests"
+    )
+    .fetch_one(conn)
+    .await)
 }
 
 /// Makes the transaction the only writer of field tests until it ends, so that ids can
 /// be numbered on from [`max_field_test_id`]. SQLite's `BEGIN IMMEDIATE` already holds
 /// the one write lock; PostgreSQL takes a table lock that still lets readers read.
 pub async fn lock_tests_for_numbering(tx: &mut Tx<'_>) -> sqlx::Result<()> {
-    if tx.backend_name() == "PostgreSQL" {
+    if let Tx::Postgres(tx) = tx {
         sqlx::query("LOCK TABLE field_tests IN EXCLUSIVE MODE")
             .execute(&mut **tx)
             .await?;
@@ -44,7 +47,7 @@ pub async fn lock_tests_for_numbering(tx: &mut Tx<'_>) -> sqlx::Result<()> {
 /// Moves the id generator past ids inserted explicitly (a PostgreSQL identity column
 /// does not see them; SQLite takes the next id from the largest one anyway).
 pub async fn advance_test_ids(tx: &mut Tx<'_>) -> sqlx::Result<()> {
-    if tx.backend_name() == "PostgreSQL" {
+    if let Tx::Postgres(tx) = tx {
         sqlx::query(
             "SELECT setval(pg_get_serial_sequence('field_tests', 'id'), (SELECT MAX(id) FROM field_tests))",
         )
@@ -56,55 +59,60 @@ pub async fn advance_test_ids(tx: &mut Tx<'_>) -> sqlx::Result<()> {
 
 /// Tests of a project whose numbers are among `numbers` (any order; missing numbers are absent).
 pub async fn tests_by_numbers(
-    conn: &mut SqliteConnection,
+    conn: &mut impl AsConn,
     project_id: i64,
     numbers: &[&str],
 ) -> sqlx::Result<Vec<FieldTest>> {
     let mut out = Vec::new();
     for part in padded_parts(numbers) {
-        let style = Marks::of(conn);
+        let style = Marks::of(&mut *conn);
         let marks = marks(style, 2, part.len());
         let project = if style == Marks::Numbered { "$1" } else { "?" };
         let sql = format!(
             "SELECT {TEST_COLUMNS} FROM field_tests WHERE project_id = {project} AND number IN ({marks})"
         );
-        let mut q = sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(sql)).bind(project_id);
-        for n in part {
-            q = q.bind(n);
-        }
-        out.extend(q.fetch_all(&mut *conn).await?);
+        out.extend(on_conn!(conn, |conn| {
+            let mut q = sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(sql)).bind(project_id);
+            for n in part {
+                q = q.bind(n);
+            }
+            q.fetch_all(conn).await?
+        }));
     }
     Ok(out)
 }
 
 /// Smallest and largest id of a project's tests (None when it has none).
 pub async fn test_id_range(pool: &Pool, project_id: i64) -> sqlx::Result<Option<(i64, i64)>> {
-    let r: (Option<i64>, Option<i64>) =
-        sqlx::query_as("SELECT MIN(id), MAX(id) FROM field_tests WHERE project_id = $1")
-            .bind(project_id)
-            .fetch_one(pool)
-            .await?;
+    let r: (Option<i64>, Option<i64>) = on_pool!(pool, |pool| sqlx::query_as(
+        "SELECT MIN(id), MAX(id) FROM field_tests WHERE project_id = $1"
+    )
+    .bind(project_id)
+    .fetch_one(pool)
+    .await)?;
     Ok(r.0.zip(r.1))
 }
 
 /// (failed test id, retest number) of every live (not void) retest of the given tests,
 /// the latest first (collected into a map, the earliest retest of each test wins).
 pub async fn live_retests_of(
-    conn: &mut SqliteConnection,
+    conn: &mut impl AsConn,
     ids: &[i64],
 ) -> sqlx::Result<Vec<(i64, String)>> {
     let mut out = Vec::new();
     for part in padded_parts(ids) {
-        let marks = marks(Marks::of(conn), 1, part.len());
+        let marks = marks(Marks::of(&mut *conn), 1, part.len());
         let sql = format!(
             "SELECT retest_of, number FROM field_tests
              WHERE void_reason IS NULL AND retest_of IN ({marks}) ORDER BY id DESC"
         );
-        let mut q = sqlx::query_as::<_, (i64, String)>(sqlx::AssertSqlSafe(sql));
-        for id in part {
-            q = q.bind(id);
-        }
-        out.extend(q.fetch_all(&mut *conn).await?);
+        out.extend(on_conn!(conn, |conn| {
+            let mut q = sqlx::query_as::<_, (i64, String)>(sqlx::AssertSqlSafe(sql));
+            for id in part {
+                q = q.bind(id);
+            }
+            q.fetch_all(conn).await?
+        }));
     }
     Ok(out)
 }
@@ -113,18 +121,17 @@ pub async fn live_retests_of(
 ///
 /// Statements are prepared once per connection and reused (sqlx caches them by text),
 /// so a long import pays for two statement shapes at most.
-pub async fn insert_field_tests(
-    conn: &mut SqliteConnection,
-    rows: &[FieldTest],
-) -> sqlx::Result<()> {
+pub async fn insert_field_tests(conn: &mut impl AsConn, rows: &[FieldTest]) -> sqlx::Result<()> {
     for part in rows.chunks(INSERT_ROWS) {
-        let values = groups(Marks::of(conn), part.len(), field_tests::WIDTH);
+        let values = groups(Marks::of(&mut *conn), part.len(), field_tests::WIDTH);
         let sql = format!("INSERT INTO field_tests ({TEST_COLUMNS}) VALUES {values}");
-        let mut q = sqlx::query(sqlx::AssertSqlSafe(sql));
-        for t in part {
-            q = field_tests::bind_after_id!(q.bind(t.id), t);
-        }
-        q.execute(&mut *conn).await?;
+        on_conn!(conn, |conn| {
+            let mut q = sqlx::query(sqlx::AssertSqlSafe(sql));
+            for t in part {
+                q = field_tests::bind_after_id!(q.bind(t.id), t);
+            }
+            q.execute(conn).await?;
+        });
     }
     Ok(())
 }
@@ -142,11 +149,7 @@ pub struct Batch<'a> {
 
 impl<'a> Batch<'a> {
     /// Queues a test; inserts the queue once it fills a statement.
-    pub async fn push_test(
-        &mut self,
-        conn: &mut SqliteConnection,
-        t: FieldTest,
-    ) -> sqlx::Result<()> {
+    pub async fn push_test(&mut self, conn: &mut impl AsConn, t: FieldTest) -> sqlx::Result<()> {
         self.tests.push(t);
         if self.tests.len() >= INSERT_ROWS {
             self.flush_tests(conn).await?;
@@ -157,7 +160,7 @@ impl<'a> Batch<'a> {
     /// Queues an audit row made at `at`; inserts the queue once it fills a statement.
     pub async fn push_audit(
         &mut self,
-        conn: &mut SqliteConnection,
+        conn: &mut impl AsConn,
         change: audit::Change<'a>,
         at: &str,
     ) -> sqlx::Result<()> {
@@ -169,12 +172,12 @@ impl<'a> Batch<'a> {
     }
 
     /// Inserts everything queued.
-    pub async fn flush(&mut self, conn: &mut SqliteConnection) -> sqlx::Result<()> {
+    pub async fn flush(&mut self, conn: &mut impl AsConn) -> sqlx::Result<()> {
         self.flush_tests(conn).await?;
         self.flush_audits(conn).await
     }
 
-    async fn flush_tests(&mut self, conn: &mut SqliteConnection) -> sqlx::Result<()> {
+    async fn flush_tests(&mut self, conn: &mut impl AsConn) -> sqlx::Result<()> {
         if !self.tests.is_empty() {
             insert_field_tests(conn, &self.tests).await?;
             self.tests.clear();
@@ -182,7 +185,7 @@ impl<'a> Batch<'a> {
         Ok(())
     }
 
-    async fn flush_audits(&mut self, conn: &mut SqliteConnection) -> sqlx::Result<()> {
+    async fn flush_audits(&mut self, conn: &mut impl AsConn) -> sqlx::Result<()> {
         if !self.audits.is_empty() {
             let rows: Vec<(&audit::Change<'_>, &str)> =
                 self.audits.iter().map(|(c, at)| (c, at.as_str())).collect();
@@ -225,7 +228,7 @@ pub async fn insert_mapping(
     actor: &str,
     now: &str,
 ) -> sqlx::Result<i64> {
-    sqlx::query_scalar(
+    on_tx!(tx, |tx| sqlx::query_scalar(
         "INSERT INTO import_mappings (project_id, name, mapping_json, created_at, created_by)
          VALUES ($1, $2, $3, $4, $5) RETURNING id",
     )
@@ -235,7 +238,7 @@ pub async fn insert_mapping(
     .bind(now)
     .bind(actor)
     .fetch_one(&mut **tx)
-    .await
+    .await)
 }
 
 /// Replaces the content of a named mapping; false when there is none by that name.
@@ -245,13 +248,16 @@ pub async fn update_mapping(
     name: &str,
     mapping_json: &str,
 ) -> sqlx::Result<bool> {
-    let q = sqlx::query(
+    let n = on_tx!(tx, |tx| sqlx::query(
         "UPDATE import_mappings SET mapping_json = $1 WHERE project_id = $2 AND name = $3",
     )
     .bind(mapping_json)
     .bind(project_id)
-    .bind(name);
-    super::changed_one(tx, q).await
+    .bind(name)
+    .execute(&mut **tx)
+    .await?
+    .rows_affected());
+    Ok(super::changed_one(n))
 }
 
 /// One saved mapping by name.
@@ -260,23 +266,27 @@ pub async fn get_mapping(
     project_id: i64,
     name: &str,
 ) -> sqlx::Result<Option<SavedMapping>> {
-    sqlx::query_as::<_, SavedMapping>(sqlx::AssertSqlSafe(format!(
-        "SELECT {MAPPING_COLUMNS}
+    on_pool!(pool, |pool| sqlx::query_as::<_, SavedMapping>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {MAPPING_COLUMNS}
          FROM import_mappings WHERE project_id = $1 AND name = $2"
-    )))
+        ))
+    )
     .bind(project_id)
     .bind(name)
     .fetch_optional(pool)
-    .await
+    .await)
 }
 
 /// Every saved mapping of a project, by name.
 pub async fn list_mappings(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<SavedMapping>> {
-    sqlx::query_as::<_, SavedMapping>(sqlx::AssertSqlSafe(format!(
-        "SELECT {MAPPING_COLUMNS}
+    on_pool!(pool, |pool| sqlx::query_as::<_, SavedMapping>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {MAPPING_COLUMNS}
          FROM import_mappings WHERE project_id = $1 ORDER BY name"
-    )))
+        ))
+    )
     .bind(project_id)
     .fetch_all(pool)
-    .await
+    .await)
 }

@@ -3,6 +3,19 @@
 use serde::Serialize;
 
 use super::{Pool, Tx};
+use super::{on_pool, on_tx};
+
+/// Every revision for a lot, newest first, through a pool or a connection of one engine.
+macro_rules! revisions_of {
+    ($on:expr, $lot_id:expr) => {
+        sqlx::query_as::<_, Certificate>(sqlx::AssertSqlSafe(format!(
+            "SELECT {COLUMNS} FROM certificates WHERE lot_id = $1 ORDER BY revision DESC"
+        )))
+        .bind($lot_id)
+        .fetch_all($on)
+        .await
+    };
+}
 
 /// A certificate revision without its PDF bytes.
 #[derive(Debug, Clone, Serialize, sqlx::FromRow)]
@@ -53,22 +66,24 @@ pub struct NewCertificate<'a> {
 
 /// The next free certificate sequence number of a project (inside the issuing transaction).
 pub async fn next_sequence(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<i64> {
-    sqlx::query_scalar(
+    on_tx!(tx, |tx| sqlx::query_scalar(
         "SELECT COALESCE(MAX(sequence), 0) + 1 FROM certificates WHERE project_id = $1",
     )
     .bind(project_id)
     .fetch_one(&mut **tx)
-    .await
+    .await)
 }
 
 /// The current (not superseded) certificate of a lot, read inside a transaction.
 pub async fn current_for_lot_tx(tx: &mut Tx<'_>, lot_id: i64) -> sqlx::Result<Option<Certificate>> {
-    sqlx::query_as::<_, Certificate>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM certificates WHERE lot_id = $1 AND superseded_at IS NULL"
-    )))
+    on_tx!(tx, |tx| sqlx::query_as::<_, Certificate>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {COLUMNS} FROM certificates WHERE lot_id = $1 AND superseded_at IS NULL"
+        ))
+    )
     .bind(lot_id)
     .fetch_optional(&mut **tx)
-    .await
+    .await)
 }
 
 /// Withdraws a lot's live certificate (its lot was reopened); returns the id withdrawn.
@@ -79,7 +94,7 @@ pub async fn withdraw_for_lot(
     reason: &str,
     now: &str,
 ) -> sqlx::Result<Option<i64>> {
-    sqlx::query_scalar(
+    on_tx!(tx, |tx| sqlx::query_scalar(
         "UPDATE certificates SET withdrawn_at = $1, withdrawn_by = $2, withdrawn_reason = $3
          WHERE lot_id = $4 AND superseded_at IS NULL AND withdrawn_at IS NULL RETURNING id",
     )
@@ -88,24 +103,26 @@ pub async fn withdraw_for_lot(
     .bind(reason)
     .bind(lot_id)
     .fetch_optional(&mut **tx)
-    .await
+    .await)
 }
 
 /// Marks a certificate superseded.
 pub async fn supersede(tx: &mut Tx<'_>, id: i64, now: &str) -> sqlx::Result<()> {
-    sqlx::query(
+    on_tx!(tx, |tx| sqlx::query(
         "UPDATE certificates SET superseded_at = $1 WHERE id = $2 AND superseded_at IS NULL",
     )
     .bind(now)
     .bind(id)
     .execute(&mut **tx)
-    .await?;
+    .await
+    .map(|r| r.rows_affected()))?;
     Ok(())
 }
 
 /// Stores a new certificate revision.
 pub async fn insert(tx: &mut Tx<'_>, c: &NewCertificate<'_>) -> sqlx::Result<i64> {
-    sqlx::query_scalar(
+    on_tx!(tx, |tx| {
+        sqlx::query_scalar(
         "INSERT INTO certificates (project_id, lot_id, sequence, revision, number, verification_code, sha256,
              record_fingerprint, pdf, issued_at, issued_by)
          VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11) RETURNING id",
@@ -123,66 +140,60 @@ pub async fn insert(tx: &mut Tx<'_>, c: &NewCertificate<'_>) -> sqlx::Result<i64
     .bind(c.issued_by)
     .fetch_one(&mut **tx)
     .await
+    })
 }
 
 /// Every revision for a lot, newest first.
 pub async fn for_lot(pool: &Pool, lot_id: i64) -> sqlx::Result<Vec<Certificate>> {
-    revisions_of(pool, lot_id).await
-}
-
-/// Every revision for a lot, newest first, through the pool or a connection.
-async fn revisions_of<'e, E>(on: E, lot_id: i64) -> sqlx::Result<Vec<Certificate>>
-where
-    E: sqlx::Executor<'e, Database = sqlx::Any>,
-{
-    sqlx::query_as::<_, Certificate>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM certificates WHERE lot_id = $1 ORDER BY revision DESC"
-    )))
-    .bind(lot_id)
-    .fetch_all(on)
-    .await
+    on_pool!(pool, |pool| revisions_of!(pool, lot_id))
 }
 
 /// Every certificate revision of a project, by number then revision.
 pub async fn for_project(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<Certificate>> {
-    sqlx::query_as::<_, Certificate>(sqlx::AssertSqlSafe(format!(
+    on_pool!(pool, |pool| {
+        sqlx::query_as::<_, Certificate>(sqlx::AssertSqlSafe(format!(
         "SELECT {COLUMNS} FROM certificates WHERE project_id = $1 ORDER BY sequence DESC, revision DESC"
     )))
     .bind(project_id)
     .fetch_all(pool)
     .await
+    })
 }
 
 /// One revision by id.
 pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Certificate>> {
-    sqlx::query_as::<_, Certificate>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM certificates WHERE id = $1"
-    )))
+    on_pool!(pool, |pool| sqlx::query_as::<_, Certificate>(
+        sqlx::AssertSqlSafe(format!("SELECT {COLUMNS} FROM certificates WHERE id = $1"))
+    )
     .bind(id)
     .fetch_optional(pool)
-    .await
+    .await)
 }
 
 /// The stored PDF bytes of a revision.
 pub async fn pdf(pool: &Pool, id: i64) -> sqlx::Result<Option<Vec<u8>>> {
-    sqlx::query_scalar("SELECT pdf FROM certificates WHERE id = $1")
-        .bind(id)
-        .fetch_optional(pool)
-        .await
+    on_pool!(pool, |pool| sqlx::query_scalar(
+        "SELECT pdf FROM certificates WHERE id = $1"
+    )
+    .bind(id)
+    .fetch_optional(pool)
+    .await)
 }
 
 /// Finds a revision by verification code or SHA-256 (both stored lower/upper-case normalised).
 pub async fn find(pool: &Pool, code_or_hash: &str) -> sqlx::Result<Option<Certificate>> {
-    sqlx::query_as::<_, Certificate>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM certificates WHERE verification_code = $1 OR sha256 = $2"
-    )))
+    on_pool!(pool, |pool| sqlx::query_as::<_, Certificate>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {COLUMNS} FROM certificates WHERE verification_code = $1 OR sha256 = $2"
+        ))
+    )
     .bind(code_or_hash.to_ascii_uppercase())
     .bind(code_or_hash.to_ascii_lowercase())
     .fetch_optional(pool)
-    .await
+    .await)
 }
 
 /// Every revision for a lot, newest first, read inside the issuing transaction.
 pub async fn for_lot_tx(tx: &mut Tx<'_>, lot_id: i64) -> sqlx::Result<Vec<Certificate>> {
-    revisions_of(&mut **tx, lot_id).await
+    on_tx!(tx, |tx| revisions_of!(&mut **tx, lot_id))
 }

@@ -3,6 +3,7 @@
 use serde::Serialize;
 
 use super::{Pool, Tx};
+use super::{on_pool, on_tx};
 use crate::domain::{ClauseEffort, MoistureBasis, MoistureMode, Rule};
 use crate::reduction::rounding::RoundingMethod;
 
@@ -57,7 +58,8 @@ const COLUMNS: &str = "id, project_id, code, title, rc_min_pct, moisture_below_p
 
 /// Inserts a clause; `c.id` and `c.created_at` are ignored and filled by the database.
 pub async fn insert(tx: &mut Tx<'_>, c: &Clause) -> sqlx::Result<Clause> {
-    sqlx::query_as::<_, Clause>(sqlx::AssertSqlSafe(format!(
+    on_tx!(tx, |tx| {
+        sqlx::query_as::<_, Clause>(sqlx::AssertSqlSafe(format!(
         "INSERT INTO clauses (project_id, code, title, rc_min_pct, moisture_below_pct, moisture_above_pct, effort, rule,
              allowance_pct, min_pwl_pct, area_per_test_m2, length_per_test_m, min_tests_per_lot, oversize_limit_pct, created_at,
              moisture_judgement, moisture_min_pwl_pct, rc_plausible_max_pct, rounding, limit_decimals,
@@ -95,24 +97,27 @@ pub async fn insert(tx: &mut Tx<'_>, c: &Clause) -> sqlx::Result<Clause> {
     .bind(c.max_air_voids_pct)
     .fetch_one(&mut **tx)
     .await
+    })
 }
 
 /// Every clause of a project.
 pub async fn list(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<Clause>> {
-    sqlx::query_as::<_, Clause>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM clauses WHERE project_id = $1 ORDER BY code"
-    )))
+    on_pool!(pool, |pool| sqlx::query_as::<_, Clause>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {COLUMNS} FROM clauses WHERE project_id = $1 ORDER BY code"
+        ))
+    )
     .bind(project_id)
     .fetch_all(pool)
-    .await
+    .await)
 }
 
 /// One clause by id.
 pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Clause>> {
-    sqlx::query_as::<_, Clause>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM clauses WHERE id = $1"
-    )))
+    on_pool!(pool, |pool| sqlx::query_as::<_, Clause>(
+        sqlx::AssertSqlSafe(format!("SELECT {COLUMNS} FROM clauses WHERE id = $1"))
+    )
     .bind(id)
     .fetch_optional(pool)
-    .await
+    .await)
 }

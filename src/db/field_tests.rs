@@ -3,6 +3,7 @@
 use serde::Serialize;
 
 use super::{Pool, Tx};
+use super::{on_pool, on_tx};
 use crate::domain::Method;
 use crate::reduction::instruments::InstrumentCheck;
 
@@ -133,33 +134,37 @@ pub(super) const WIDTH: usize = 32;
 
 /// Inserts a test (`id` ignored) and returns its id.
 pub async fn insert(tx: &mut Tx<'_>, t: &FieldTest) -> sqlx::Result<i64> {
-    let q = sqlx::query_scalar(concat!(
-        "INSERT INTO field_tests (",
-        columns_after_id!("readings_json"),
-        ") VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18, $19, $20,
-             $21, $22, $23, $24, $25, $26, $27, $28, $29, $30, $31) RETURNING id"
-    ));
-    bind_after_id!(q, t).fetch_one(&mut **tx).await
+    on_tx!(tx, |tx| {
+        let q = sqlx::query_scalar(concat!(
+            "INSERT INTO field_tests (",
+            columns_after_id!("readings_json"),
+            ") VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18, $19, $20,
+                 $21, $22, $23, $24, $25, $26, $27, $28, $29, $30, $31) RETURNING id"
+        ));
+        bind_after_id!(q, t).fetch_one(&mut **tx).await
+    })
 }
 
 /// One test by id.
 pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<FieldTest>> {
-    sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM field_tests WHERE id = $1"
-    )))
+    on_pool!(pool, |pool| sqlx::query_as::<_, FieldTest>(
+        sqlx::AssertSqlSafe(format!("SELECT {COLUMNS} FROM field_tests WHERE id = $1"))
+    )
     .bind(id)
     .fetch_optional(pool)
-    .await
+    .await)
 }
 
 /// Every test of a lot in the order they were taken.
 pub async fn for_lot(pool: &Pool, lot_id: i64) -> sqlx::Result<Vec<FieldTest>> {
-    sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM field_tests WHERE lot_id = $1 ORDER BY tested_at, id"
-    )))
+    on_pool!(pool, |pool| sqlx::query_as::<_, FieldTest>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {COLUMNS} FROM field_tests WHERE lot_id = $1 ORDER BY tested_at, id"
+        ))
+    )
     .bind(lot_id)
     .fetch_all(pool)
-    .await
+    .await)
 }
 
 /// Where a [`TestFilter`] selects: `$1` is the project, `$2`..`$15` come from
@@ -196,23 +201,27 @@ macro_rules! bind_filter {
 
 /// How many tests of a project match the filter (its limit and offset ignored).
 pub async fn count_matching(pool: &Pool, project_id: i64, f: &TestFilter) -> sqlx::Result<i64> {
-    let q = sqlx::query_scalar(sqlx::AssertSqlSafe(format!(
-        "SELECT COUNT(*) FROM field_tests t {FILTER_WHERE}"
-    )));
-    bind_filter!(q, project_id, f).fetch_one(pool).await
+    on_pool!(pool, |pool| {
+        let q = sqlx::query_scalar(sqlx::AssertSqlSafe(format!(
+            "SELECT COUNT(*) FROM field_tests t {FILTER_WHERE}"
+        )));
+        bind_filter!(q, project_id, f).fetch_one(pool).await
+    })
 }
 
 /// Tests of a project matching the filter, newest first.
 pub async fn list(pool: &Pool, project_id: i64, f: &TestFilter) -> sqlx::Result<Vec<FieldTest>> {
-    let q = sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM field_tests t {FILTER_WHERE}
-         ORDER BY t.tested_at DESC, t.id DESC LIMIT $16 OFFSET $17"
-    )));
-    bind_filter!(q, project_id, f)
-        .bind(f.limit)
-        .bind(f.offset)
-        .fetch_all(pool)
-        .await
+    on_pool!(pool, |pool| {
+        let q = sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
+            "SELECT {COLUMNS} FROM field_tests t {FILTER_WHERE}
+             ORDER BY t.tested_at DESC, t.id DESC LIMIT $16 OFFSET $17"
+        )));
+        bind_filter!(q, project_id, f)
+            .bind(f.limit)
+            .bind(f.offset)
+            .fetch_all(pool)
+            .await
+    })
 }
 
 /// (id, lot id) of every test of a project matching the filter (its limit and offset
@@ -222,11 +231,13 @@ pub async fn ids_matching(
     project_id: i64,
     f: &TestFilter,
 ) -> sqlx::Result<Vec<(i64, i64)>> {
-    let q = sqlx::query_as::<_, (i64, i64)>(sqlx::AssertSqlSafe(format!(
-        "SELECT t.id, t.lot_id FROM field_tests t {FILTER_WHERE}
-         ORDER BY t.tested_at DESC, t.id DESC"
-    )));
-    bind_filter!(q, project_id, f).fetch_all(pool).await
+    on_pool!(pool, |pool| {
+        let q = sqlx::query_as::<_, (i64, i64)>(sqlx::AssertSqlSafe(format!(
+            "SELECT t.id, t.lot_id FROM field_tests t {FILTER_WHERE}
+             ORDER BY t.tested_at DESC, t.id DESC"
+        )));
+        bind_filter!(q, project_id, f).fetch_all(pool).await
+    })
 }
 
 /// Voids a test with a reason; false when it was already void.
@@ -237,54 +248,42 @@ pub async fn void(
     actor: &str,
     now: &str,
 ) -> sqlx::Result<bool> {
-    let q = sqlx::query(
+    let q = on_tx!(tx, |tx| {
+        sqlx::query(
         "UPDATE field_tests SET void_reason = $1, voided_by = $2, voided_at = $3 WHERE id = $4 AND void_reason IS NULL",
     )
     .bind(reason)
     .bind(actor)
     .bind(now)
-    .bind(id);
-    super::changed_one(tx, q).await
+    .bind(id)
+        .execute(&mut **tx)
+        .await?
+        .rows_affected()
+    });
+    Ok(super::changed_one(q))
 }
 
 /// Counts of tests in a project taken at or after each of the given times.
 pub async fn count_since(pool: &Pool, project_id: i64, since: &str) -> sqlx::Result<i64> {
-    sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE project_id = $1 AND tested_at >= $2")
-        .bind(project_id)
-        .bind(since)
-        .fetch_one(pool)
-        .await
-}
-
-/// Total number of tests in a project.
-pub async fn count(pool: &Pool, project_id: i64) -> sqlx::Result<i64> {
-    let n: Option<i64> = sqlx::query_scalar("SELECT field_test_count FROM projects WHERE id = $1")
-        .bind(project_id)
-        .fetch_optional(pool)
-        .await?;
-    Ok(n.unwrap_or(0))
+    on_pool!(pool, |pool| sqlx::query_scalar(
+        "SELECT COUNT(*) FROM field_tests WHERE project_id = $1 AND tested_at >= $2"
+    )
+    .bind(project_id)
+    .bind(since)
+    .fetch_one(pool)
+    .await)
 }
 
 /// The newest test in a project, if any.
 pub async fn latest(pool: &Pool, project_id: i64) -> sqlx::Result<Option<FieldTest>> {
-    sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
+    on_pool!(pool, |pool| {
+        sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
         "SELECT {COLUMNS} FROM field_tests WHERE project_id = $1 ORDER BY created_at DESC, id DESC LIMIT 1"
     )))
     .bind(project_id)
     .fetch_optional(pool)
     .await
-}
-
-/// The next automatic test number of a project (`T-0001`, …), taken under the project lock
-/// so that concurrent writers on any engine never draw the same number.
-pub async fn next_number(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<String> {
-    super::lock_project(tx, project_id).await?;
-    // Kept by a trigger on every insert (migration 0003): no count over the project's tests.
-    let count: i64 = sqlx::query_scalar("SELECT field_test_count FROM projects WHERE id = $1")
-        .bind(project_id)
-        .fetch_one(&mut **tx)
-        .await?;
-    Ok(format!("T-{:04}", count + 1))
+    })
 }
 
 /// Every test of a project by lot then time, without `readings_json` (and with only the
@@ -300,9 +299,11 @@ pub fn stream_for_views(
     } else {
         VIEW_COLUMNS
     };
-    sqlx::query_as::<_, FieldTest>(sqlx::AssertSqlSafe(format!(
-        "SELECT {columns} FROM field_tests WHERE project_id = $1 ORDER BY lot_id, tested_at, id"
-    )))
+    on_pool!(pool, |pool| sqlx::query_as::<_, FieldTest>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {columns} FROM field_tests WHERE project_id = $1 ORDER BY lot_id, tested_at, id"
+        ))
+    )
     .bind(project_id)
-    .fetch(pool)
+    .fetch(pool))
 }

@@ -12,7 +12,7 @@ use std::time::Duration;
 
 use sqlx::ConnectOptions;
 
-use super::{Engine, Location, Pool, engine_of, migrator};
+use super::{Engine, Pool, engine_of, migrator, on_pool};
 
 /// Why the database cannot serve requests now.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -72,22 +72,24 @@ const NEWEST_APPLIED: &str = "SELECT MAX(version) FROM _sqlx_migrations WHERE su
 /// Errors are logged at warn level with their detail; the caller bounds the time.
 pub async fn readiness(pool: &Pool) -> Result<i64, NotReady> {
     let engine = engine_of(pool);
-    sqlx::query_scalar::<_, i32>("SELECT 1")
+    on_pool!(pool, |pool| sqlx::query_scalar::<_, i32>("SELECT 1")
         .fetch_one(pool)
-        .await
-        .map_err(|e| {
-            tracing::warn!(error = %e, "readiness: the pool's query failed");
-            NotReady::Unreachable
-        })?;
+        .await)
+    .map_err(|e| {
+        tracing::warn!(error = %e, "readiness: the pool's query failed");
+        NotReady::Unreachable
+    })?;
     let applied = match sqlite_file(pool) {
         Some(path) => applied_on_disk(&path).await?,
-        None => sqlx::query_scalar::<_, Option<i64>>(NEWEST_APPLIED)
-            .fetch_one(pool)
-            .await
-            .unwrap_or_else(|e| {
-                tracing::warn!(error = %e, "readiness: the migrations table cannot be read");
-                None
-            }),
+        None => on_pool!(pool, |pool| sqlx::query_scalar::<_, Option<i64>>(
+            NEWEST_APPLIED
+        )
+        .fetch_one(pool)
+        .await)
+        .unwrap_or_else(|e| {
+            tracing::warn!(error = %e, "readiness: the migrations table cannot be read");
+            None
+        }),
     };
     let expected = expected_version(engine);
     match applied {
@@ -98,10 +100,10 @@ pub async fn readiness(pool: &Pool) -> Result<i64, NotReady> {
 
 /// The file of an SQLite pool.
 fn sqlite_file(pool: &Pool) -> Option<PathBuf> {
-    if engine_of(pool) != Engine::Sqlite {
-        return None;
+    match pool {
+        Pool::Sqlite(p) => Some(p.connect_options().get_filename().to_path_buf()),
+        Pool::Postgres(_) => None,
     }
-    Location::parse(pool.connect_options().database_url.as_str(), 1).sqlite_path()
 }
 
 /// The newest applied migration as read by a new read-only connection to the file.
@@ -130,4 +132,38 @@ async fn applied_on_disk(path: &Path) -> Result<Option<i64>, NotReady> {
         .unwrap_or(None);
     let _ = sqlx::Connection::close(conn).await;
     Ok(applied)
+}
+
+/// The settings an SQLite connection of the pool runs with, as SQLite reports them.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct SqliteSettings {
+    /// `wal` when commits go to the write-ahead log.
+    pub journal_mode: String,
+    /// Whether foreign keys are enforced.
+    pub foreign_keys: bool,
+    /// 2 is `FULL`: a commit that returned survives power loss.
+    pub synchronous: i64,
+}
+
+/// What one of the pool's own connections is set to (`None` on PostgreSQL, which is
+/// configured on its server).
+pub async fn sqlite_settings(pool: &Pool) -> sqlx::Result<Option<SqliteSettings>> {
+    let Pool::Sqlite(pool) = pool else {
+        return Ok(None);
+    };
+    let mut conn = pool.acquire().await?;
+    let journal_mode = sqlx::query_scalar("PRAGMA journal_mode")
+        .fetch_one(&mut *conn)
+        .await?;
+    let foreign_keys: i64 = sqlx::query_scalar("PRAGMA foreign_keys")
+        .fetch_one(&mut *conn)
+        .await?;
+    let synchronous = sqlx::query_scalar("PRAGMA synchronous")
+        .fetch_one(&mut *conn)
+        .await?;
+    Ok(Some(SqliteSettings {
+        journal_mode,
+        foreign_keys: foreign_keys == 1,
+        synchronous,
+    }))
 }

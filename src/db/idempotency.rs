@@ -1,6 +1,19 @@
 //! Idempotency keys of field tests (the `Idempotency-Key` header of a test POST).
 
 use super::{Pool, Tx};
+use super::{on_pool, on_tx};
+
+/// The key as stored, through a pool or a connection of one engine.
+macro_rules! read {
+    ($on:expr, $key:expr) => {
+        sqlx::query_as::<_, StoredKey>(
+            "SELECT lot_id, field_test_id, request_sha256 FROM idempotency_keys WHERE idempotency_key = $1",
+        )
+        .bind($key)
+        .fetch_optional($on)
+        .await
+    };
+}
 
 /// A stored key: what it was sent with and the test it made.
 #[derive(Debug, Clone, PartialEq, sqlx::FromRow)]
@@ -12,25 +25,12 @@ pub struct StoredKey {
 
 /// The key as stored, read through the pool (after a lost race, outside the writer).
 pub async fn get(pool: &Pool, key: &str) -> sqlx::Result<Option<StoredKey>> {
-    read(pool, key).await
+    on_pool!(pool, |pool| read!(pool, key))
 }
 
 /// The key as stored, read inside the write transaction.
 pub async fn get_in(tx: &mut Tx<'_>, key: &str) -> sqlx::Result<Option<StoredKey>> {
-    read(&mut **tx, key).await
-}
-
-/// The key as stored, through the pool or a connection.
-async fn read<'e, E>(on: E, key: &str) -> sqlx::Result<Option<StoredKey>>
-where
-    E: sqlx::Executor<'e, Database = sqlx::Any>,
-{
-    sqlx::query_as::<_, StoredKey>(
-        "SELECT lot_id, field_test_id, request_sha256 FROM idempotency_keys WHERE idempotency_key = $1",
-    )
-    .bind(key)
-    .fetch_optional(on)
-    .await
+    on_tx!(tx, |tx| read!(&mut **tx, key))
 }
 
 /// Claims a key before its test is written: a second writer of the same key fails here
@@ -43,7 +43,8 @@ pub async fn claim(
     created_by: &str,
     created_at: &str,
 ) -> sqlx::Result<()> {
-    sqlx::query(
+    on_tx!(tx, |tx| {
+        sqlx::query(
         "INSERT INTO idempotency_keys (idempotency_key, lot_id, request_sha256, created_by, created_at)
          VALUES ($1, $2, $3, $4, $5)",
     )
@@ -53,16 +54,21 @@ pub async fn claim(
     .bind(created_by)
     .bind(created_at)
     .execute(&mut **tx)
-    .await?;
+    .await
+    .map(|r| r.rows_affected())
+    })?;
     Ok(())
 }
 
 /// Points a claimed key at the test it made (same transaction).
 pub async fn settle(tx: &mut Tx<'_>, key: &str, field_test_id: i64) -> sqlx::Result<()> {
-    sqlx::query("UPDATE idempotency_keys SET field_test_id = $1 WHERE idempotency_key = $2")
-        .bind(field_test_id)
-        .bind(key)
-        .execute(&mut **tx)
-        .await?;
+    on_tx!(tx, |tx| sqlx::query(
+        "UPDATE idempotency_keys SET field_test_id = $1 WHERE idempotency_key = $2"
+    )
+    .bind(field_test_id)
+    .bind(key)
+    .execute(&mut **tx)
+    .await
+    .map(|r| r.rows_affected()))?;
     Ok(())
 }

@@ -4,6 +4,7 @@
 use serde::Serialize;
 
 use super::{Pool, Tx};
+use super::{on_pool, on_tx};
 
 /// A registered instrument (organisation-wide).
 #[derive(Debug, Clone, Serialize, sqlx::FromRow)]
@@ -129,46 +130,54 @@ const OFFSET: &str = "id, instrument_id, source_id, mode, effective_on, density_
 
 /// Inserts an instrument; `id` ignored.
 pub async fn insert_instrument(tx: &mut Tx<'_>, i: &Instrument) -> sqlx::Result<Instrument> {
-    sqlx::query_as::<_, Instrument>(sqlx::AssertSqlSafe(format!(
-        "INSERT INTO instruments (kind, serial, description, created_at, created_by)
+    on_tx!(tx, |tx| sqlx::query_as::<_, Instrument>(
+        sqlx::AssertSqlSafe(format!(
+            "INSERT INTO instruments (kind, serial, description, created_at, created_by)
          VALUES ($1, $2, $3, $4, $5) RETURNING {INSTRUMENT}"
-    )))
+        ))
+    )
     .bind(i.kind)
     .bind(&i.serial)
     .bind(&i.description)
     .bind(&i.created_at)
     .bind(&i.created_by)
     .fetch_one(&mut **tx)
-    .await
+    .await)
 }
 
 /// Every instrument, by kind and serial.
 pub async fn list_instruments(pool: &Pool) -> sqlx::Result<Vec<Instrument>> {
-    sqlx::query_as::<_, Instrument>(sqlx::AssertSqlSafe(format!(
-        "SELECT {INSTRUMENT} FROM instruments ORDER BY kind, serial"
-    )))
+    on_pool!(pool, |pool| sqlx::query_as::<_, Instrument>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {INSTRUMENT} FROM instruments ORDER BY kind, serial"
+        ))
+    )
     .fetch_all(pool)
-    .await
+    .await)
 }
 
 /// One instrument by id.
 pub async fn get_instrument(pool: &Pool, id: i64) -> sqlx::Result<Option<Instrument>> {
-    sqlx::query_as::<_, Instrument>(sqlx::AssertSqlSafe(format!(
-        "SELECT {INSTRUMENT} FROM instruments WHERE id = $1"
-    )))
+    on_pool!(pool, |pool| sqlx::query_as::<_, Instrument>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {INSTRUMENT} FROM instruments WHERE id = $1"
+        ))
+    )
     .bind(id)
     .fetch_optional(pool)
-    .await
+    .await)
 }
 
 /// One instrument by serial.
 pub async fn by_serial(pool: &Pool, serial: &str) -> sqlx::Result<Option<Instrument>> {
-    sqlx::query_as::<_, Instrument>(sqlx::AssertSqlSafe(format!(
-        "SELECT {INSTRUMENT} FROM instruments WHERE serial = $1"
-    )))
+    on_pool!(pool, |pool| sqlx::query_as::<_, Instrument>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {INSTRUMENT} FROM instruments WHERE serial = $1"
+        ))
+    )
     .bind(serial)
     .fetch_optional(pool)
-    .await
+    .await)
 }
 
 /// Inserts a dated record; `id` ignored.
@@ -176,7 +185,8 @@ pub async fn insert_record(
     tx: &mut Tx<'_>,
     r: &InstrumentRecord,
 ) -> sqlx::Result<InstrumentRecord> {
-    sqlx::query_as::<_, InstrumentRecord>(sqlx::AssertSqlSafe(format!(
+    on_tx!(tx, |tx| {
+        sqlx::query_as::<_, InstrumentRecord>(sqlx::AssertSqlSafe(format!(
         "INSERT INTO instrument_records (instrument_id, kind, done_on, due_on, reference, cone_sand_mass_g,
              sand_density_kg_m3, volume_cm3, created_at, created_by)
          VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10) RETURNING {RECORD}"
@@ -193,6 +203,7 @@ pub async fn insert_record(
     .bind(&r.created_by)
     .fetch_one(&mut **tx)
     .await
+    })
 }
 
 /// Every record of one instrument (or of all, with `None`), oldest first.
@@ -205,13 +216,15 @@ pub async fn records(
     } else {
         ""
     };
-    let q = sqlx::query_as::<_, InstrumentRecord>(sqlx::AssertSqlSafe(format!(
-        "SELECT {RECORD} FROM instrument_records {filter} ORDER BY done_on, id"
-    )));
-    match instrument_id {
-        Some(id) => q.bind(id).fetch_all(pool).await,
-        None => q.fetch_all(pool).await,
-    }
+    on_pool!(pool, |pool| {
+        let q = sqlx::query_as::<_, InstrumentRecord>(sqlx::AssertSqlSafe(format!(
+            "SELECT {RECORD} FROM instrument_records {filter} ORDER BY done_on, id"
+        )));
+        match instrument_id {
+            Some(id) => q.bind(id).fetch_all(pool).await,
+            None => q.fetch_all(pool).await,
+        }
+    })
 }
 
 /// The filter on one instrument (`Some`) or on one project, by the column naming the project.
@@ -224,7 +237,8 @@ fn by_instrument_or_project(instrument_id: Option<i64>, project_clause: &str) ->
 
 /// Inserts an assignment; `id` ignored.
 pub async fn insert_assignment(tx: &mut Tx<'_>, a: &Assignment) -> sqlx::Result<Assignment> {
-    sqlx::query_as::<_, Assignment>(sqlx::AssertSqlSafe(format!(
+    on_tx!(tx, |tx| {
+        sqlx::query_as::<_, Assignment>(sqlx::AssertSqlSafe(format!(
         "INSERT INTO instrument_assignments (instrument_id, project_id, from_on, to_on, created_at, created_by)
          VALUES ($1, $2, $3, $4, $5, $6) RETURNING {ASSIGNMENT}"
     )))
@@ -236,6 +250,7 @@ pub async fn insert_assignment(tx: &mut Tx<'_>, a: &Assignment) -> sqlx::Result<
     .bind(&a.created_by)
     .fetch_one(&mut **tx)
     .await
+    })
 }
 
 /// Ends an instrument's open assignments on `to_on` (it moves to another contract).
@@ -244,7 +259,7 @@ pub async fn close_open_assignments(
     instrument_id: i64,
     to_on: &str,
 ) -> sqlx::Result<u64> {
-    let done = sqlx::query(
+    let done = on_tx!(tx, |tx| sqlx::query(
         "UPDATE instrument_assignments SET to_on = $1
          WHERE instrument_id = $2 AND to_on IS NULL AND from_on <= $3",
     )
@@ -252,8 +267,9 @@ pub async fn close_open_assignments(
     .bind(instrument_id)
     .bind(to_on)
     .execute(&mut **tx)
-    .await?;
-    Ok(done.rows_affected())
+    .await
+    .map(|r| r.rows_affected()))?;
+    Ok(done)
 }
 
 /// Assignments of one instrument (`Some(id)`) or of one project, oldest first.
@@ -263,20 +279,24 @@ pub async fn assignments(
     project_id: Option<i64>,
 ) -> sqlx::Result<Vec<Assignment>> {
     let (filter, id) = by_instrument_or_project(instrument_id, "project_id = $1");
-    sqlx::query_as::<_, Assignment>(sqlx::AssertSqlSafe(format!(
-        "SELECT {ASSIGNMENT} FROM instrument_assignments {filter} ORDER BY from_on, id"
-    )))
+    on_pool!(pool, |pool| sqlx::query_as::<_, Assignment>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {ASSIGNMENT} FROM instrument_assignments {filter} ORDER BY from_on, id"
+        ))
+    )
     .bind(instrument_id.map_or(project_id.unwrap_or(0), |_| id))
     .fetch_all(pool)
-    .await
+    .await)
 }
 
 /// Inserts an operator; `id` ignored.
 pub async fn insert_operator(tx: &mut Tx<'_>, o: &Operator) -> sqlx::Result<Operator> {
-    sqlx::query_as::<_, Operator>(sqlx::AssertSqlSafe(format!(
+    on_tx!(tx, |tx| sqlx::query_as::<_, Operator>(sqlx::AssertSqlSafe(
+        format!(
         "INSERT INTO gauge_operators (code, name, certification, expires_on, created_at, created_by)
          VALUES ($1, $2, $3, $4, $5, $6) RETURNING {OPERATOR}"
-    )))
+    )
+    ))
     .bind(&o.code)
     .bind(&o.name)
     .bind(&o.certification)
@@ -284,21 +304,24 @@ pub async fn insert_operator(tx: &mut Tx<'_>, o: &Operator) -> sqlx::Result<Oper
     .bind(&o.created_at)
     .bind(&o.created_by)
     .fetch_one(&mut **tx)
-    .await
+    .await)
 }
 
 /// Every operator, by name.
 pub async fn operators(pool: &Pool) -> sqlx::Result<Vec<Operator>> {
-    sqlx::query_as::<_, Operator>(sqlx::AssertSqlSafe(format!(
-        "SELECT {OPERATOR} FROM gauge_operators ORDER BY name, id"
-    )))
+    on_pool!(pool, |pool| sqlx::query_as::<_, Operator>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {OPERATOR} FROM gauge_operators ORDER BY name, id"
+        ))
+    )
     .fetch_all(pool)
-    .await
+    .await)
 }
 
 /// Inserts a standard count; `id` ignored.
 pub async fn insert_count(tx: &mut Tx<'_>, c: &StandardCount) -> sqlx::Result<StandardCount> {
-    sqlx::query_as::<_, StandardCount>(sqlx::AssertSqlSafe(format!(
+    on_tx!(tx, |tx| {
+        sqlx::query_as::<_, StandardCount>(sqlx::AssertSqlSafe(format!(
         "INSERT INTO standard_counts (instrument_id, project_id, counted_on, density_count, moisture_count, outcome,
              density_mean, moisture_mean, density_deviation_pct, moisture_deviation_pct, density_tolerance_pct,
              moisture_tolerance_pct, created_at, created_by)
@@ -320,16 +343,19 @@ pub async fn insert_count(tx: &mut Tx<'_>, c: &StandardCount) -> sqlx::Result<St
     .bind(&c.created_by)
     .fetch_one(&mut **tx)
     .await
+    })
 }
 
 /// A gauge's counts in the order they were taken, read inside the write that adds the next.
 pub async fn counts_in(tx: &mut Tx<'_>, instrument_id: i64) -> sqlx::Result<Vec<StandardCount>> {
-    sqlx::query_as::<_, StandardCount>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COUNT} FROM standard_counts WHERE instrument_id = $1 ORDER BY counted_on, id"
-    )))
+    on_tx!(tx, |tx| sqlx::query_as::<_, StandardCount>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {COUNT} FROM standard_counts WHERE instrument_id = $1 ORDER BY counted_on, id"
+        ))
+    )
     .bind(instrument_id)
     .fetch_all(&mut **tx)
-    .await
+    .await)
 }
 
 /// A gauge's counts (or every count of gauges on a project's register), oldest first.
@@ -342,12 +368,14 @@ pub async fn counts(
         instrument_id,
         "instrument_id IN (SELECT instrument_id FROM instrument_assignments WHERE project_id = $1)",
     );
-    sqlx::query_as::<_, StandardCount>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COUNT} FROM standard_counts {filter} ORDER BY counted_on, id"
-    )))
+    on_pool!(pool, |pool| sqlx::query_as::<_, StandardCount>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {COUNT} FROM standard_counts {filter} ORDER BY counted_on, id"
+        ))
+    )
     .bind(instrument_id.map_or(project_id.unwrap_or(0), |_| id))
     .fetch_all(pool)
-    .await
+    .await)
 }
 
 /// The latest calibration record of an instrument taken inside a write.
@@ -356,20 +384,23 @@ pub async fn latest_calibration_in(
     instrument_id: i64,
     on_or_before: &str,
 ) -> sqlx::Result<Option<InstrumentRecord>> {
-    sqlx::query_as::<_, InstrumentRecord>(sqlx::AssertSqlSafe(format!(
-        "SELECT {RECORD} FROM instrument_records
+    on_tx!(tx, |tx| sqlx::query_as::<_, InstrumentRecord>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {RECORD} FROM instrument_records
          WHERE instrument_id = $1 AND kind = 'calibration' AND done_on <= $2
          ORDER BY done_on DESC, id DESC LIMIT 1"
-    )))
+        ))
+    )
     .bind(instrument_id)
     .bind(on_or_before)
     .fetch_optional(&mut **tx)
-    .await
+    .await)
 }
 
 /// Inserts an offset; `id` ignored.
 pub async fn insert_offset(tx: &mut Tx<'_>, o: &GaugeOffset) -> sqlx::Result<GaugeOffset> {
-    sqlx::query_as::<_, GaugeOffset>(sqlx::AssertSqlSafe(format!(
+    on_tx!(tx, |tx| {
+        sqlx::query_as::<_, GaugeOffset>(sqlx::AssertSqlSafe(format!(
         "INSERT INTO gauge_offsets (instrument_id, source_id, mode, effective_on, density_offset_kg_m3,
              moisture_offset_pct, pairs, pairs_json, created_at, created_by)
          VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10) RETURNING {OFFSET}"
@@ -386,6 +417,7 @@ pub async fn insert_offset(tx: &mut Tx<'_>, o: &GaugeOffset) -> sqlx::Result<Gau
     .bind(&o.created_by)
     .fetch_one(&mut **tx)
     .await
+    })
 }
 
 /// Offsets of one gauge, or of every source of a project, oldest first.
@@ -398,32 +430,34 @@ pub async fn offsets(
         instrument_id,
         "source_id IN (SELECT id FROM sources WHERE project_id = $1)",
     );
-    sqlx::query_as::<_, GaugeOffset>(sqlx::AssertSqlSafe(format!(
-        "SELECT {OFFSET} FROM gauge_offsets {filter} ORDER BY effective_on, id"
-    )))
+    on_pool!(pool, |pool| sqlx::query_as::<_, GaugeOffset>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {OFFSET} FROM gauge_offsets {filter} ORDER BY effective_on, id"
+        ))
+    )
     .bind(instrument_id.map_or(project_id.unwrap_or(0), |_| id))
     .fetch_all(pool)
-    .await
+    .await)
 }
 
 /// A project's tolerances, when it set its own: (density %, moisture %).
 pub async fn tolerances(pool: &Pool, project_id: i64) -> sqlx::Result<Option<(f64, f64)>> {
-    sqlx::query_as(
+    on_pool!(pool, |pool| sqlx::query_as(
         "SELECT density_pct, moisture_pct FROM instrument_tolerances WHERE project_id = $1",
     )
     .bind(project_id)
     .fetch_optional(pool)
-    .await
+    .await)
 }
 
 /// A project's tolerances read inside a write.
 pub async fn tolerances_in(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<Option<(f64, f64)>> {
-    sqlx::query_as(
+    on_tx!(tx, |tx| sqlx::query_as(
         "SELECT density_pct, moisture_pct FROM instrument_tolerances WHERE project_id = $1",
     )
     .bind(project_id)
     .fetch_optional(&mut **tx)
-    .await
+    .await)
 }
 
 /// Sets a project's tolerances (replacing earlier ones).
@@ -435,11 +469,15 @@ pub async fn set_tolerances(
     actor: &str,
     now: &str,
 ) -> sqlx::Result<()> {
-    sqlx::query("DELETE FROM instrument_tolerances WHERE project_id = $1")
-        .bind(project_id)
-        .execute(&mut **tx)
-        .await?;
-    sqlx::query(
+    on_tx!(tx, |tx| sqlx::query(
+        "DELETE FROM instrument_tolerances WHERE project_id = $1"
+    )
+    .bind(project_id)
+    .execute(&mut **tx)
+    .await
+    .map(|r| r.rows_affected()))?;
+    on_tx!(tx, |tx| {
+        sqlx::query(
         "INSERT INTO instrument_tolerances (project_id, density_pct, moisture_pct, updated_at, updated_by)
          VALUES ($1, $2, $3, $4, $5)",
     )
@@ -449,7 +487,9 @@ pub async fn set_tolerances(
     .bind(now)
     .bind(actor)
     .execute(&mut **tx)
-    .await?;
+    .await
+    .map(|r| r.rows_affected())
+    })?;
     Ok(())
 }
 
@@ -458,13 +498,13 @@ pub async fn clauses_recording_out_of_check(
     pool: &Pool,
     project_id: i64,
 ) -> sqlx::Result<Vec<i64>> {
-    sqlx::query_scalar(
+    on_pool!(pool, |pool| sqlx::query_scalar(
         "SELECT p.clause_id FROM clause_instrument_policy p JOIN clauses c ON c.id = p.clause_id
          WHERE c.project_id = $1 AND p.record_out_of_check = 1",
     )
     .bind(project_id)
     .fetch_all(pool)
-    .await
+    .await)
 }
 
 /// Sets a clause's policy for tests from an instrument out of check.
@@ -475,11 +515,15 @@ pub async fn set_policy(
     actor: &str,
     now: &str,
 ) -> sqlx::Result<()> {
-    sqlx::query("DELETE FROM clause_instrument_policy WHERE clause_id = $1")
-        .bind(clause_id)
-        .execute(&mut **tx)
-        .await?;
-    sqlx::query(
+    on_tx!(tx, |tx| sqlx::query(
+        "DELETE FROM clause_instrument_policy WHERE clause_id = $1"
+    )
+    .bind(clause_id)
+    .execute(&mut **tx)
+    .await
+    .map(|r| r.rows_affected()))?;
+    on_tx!(tx, |tx| {
+        sqlx::query(
         "INSERT INTO clause_instrument_policy (clause_id, record_out_of_check, updated_at, updated_by)
          VALUES ($1, $2, $3, $4)",
     )
@@ -488,7 +532,9 @@ pub async fn set_policy(
     .bind(now)
     .bind(actor)
     .execute(&mut **tx)
-    .await?;
+    .await
+    .map(|r| r.rows_affected())
+    })?;
     Ok(())
 }
 
@@ -502,19 +548,21 @@ pub async fn tests_for_offset(
     effective_day: &str,
 ) -> sqlx::Result<Vec<super::field_tests::FieldTest>> {
     let cols = super::field_tests::COLUMNS;
-    sqlx::query_as::<_, super::field_tests::FieldTest>(sqlx::AssertSqlSafe(format!(
-        "SELECT {cols} FROM field_tests WHERE id IN (
+    on_tx!(tx, |tx| sqlx::query_as::<_, super::field_tests::FieldTest>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {cols} FROM field_tests WHERE id IN (
              SELECT t.id FROM field_tests t JOIN lots l ON l.id = t.lot_id
              WHERE t.instrument_serial = $1 AND l.source_id = $2 AND t.tested_at >= $3
                AND t.method = 'nuclear' AND t.instrument_check <> 'not_recorded'
                AND l.state IN ('open', 'rejected'))
          ORDER BY id"
-    )))
+        ))
+    )
     .bind(serial)
     .bind(source_id)
     .bind(effective_day)
     .fetch_all(&mut **tx)
-    .await
+    .await)
 }
 
 /// Stores a test's re-reduced figures and the offsets they carry.
@@ -522,7 +570,8 @@ pub async fn set_offset_reduction(
     tx: &mut Tx<'_>,
     t: &super::field_tests::FieldTest,
 ) -> sqlx::Result<()> {
-    sqlx::query(
+    on_tx!(tx, |tx| {
+        sqlx::query(
         "UPDATE field_tests SET wet_density_kg_m3 = $1, water_content_pct = $2, dry_density_kg_m3 = $3,
              density_offset_kg_m3 = $4, moisture_offset_pct = $5 WHERE id = $6",
     )
@@ -533,18 +582,20 @@ pub async fn set_offset_reduction(
     .bind(t.moisture_offset_pct)
     .bind(t.id)
     .execute(&mut **tx)
-    .await?;
+    .await
+    .map(|r| r.rows_affected())
+    })?;
     Ok(())
 }
 
 /// Whether a user holds the QC manager's role in any project (the register's editors are
 /// admins and QC managers).
 pub async fn is_qc_manager_anywhere(pool: &Pool, user_id: i64) -> sqlx::Result<bool> {
-    let n: i64 = sqlx::query_scalar(
+    let n: i64 = on_pool!(pool, |pool| sqlx::query_scalar(
         "SELECT COUNT(*) FROM memberships WHERE user_id = $1 AND role = 'qc_manager'",
     )
     .bind(user_id)
     .fetch_one(pool)
-    .await?;
+    .await)?;
     Ok(n > 0)
 }

@@ -3,6 +3,7 @@
 use serde::Serialize;
 
 use super::{Pool, Tx};
+use super::{on_pool, on_tx};
 
 /// A stored lab compaction test with its fitted MDD and OMC.
 #[derive(Debug, Clone, Serialize, sqlx::FromRow)]
@@ -45,7 +46,8 @@ const COLUMNS: &str = "id, source_id, code, tested_on, effort, effort_energy_kj_
 
 /// Inserts a lab test; `id` is ignored.
 pub async fn insert(tx: &mut Tx<'_>, t: &LabTest) -> sqlx::Result<LabTest> {
-    sqlx::query_as::<_, LabTest>(sqlx::AssertSqlSafe(format!(
+    on_tx!(tx, |tx| {
+        sqlx::query_as::<_, LabTest>(sqlx::AssertSqlSafe(format!(
         "INSERT INTO lab_tests (source_id, code, tested_on, effort, effort_energy_kj_m3, specific_gravity, points_json,
              max_dry_density_kg_m3, optimum_water_content_pct, fit_method, warnings_json, reduction_version, status,
              superseded_reason, superseded_at, created_at, created_by, approval, approval_concerns_json, quality_checked)
@@ -73,31 +75,34 @@ pub async fn insert(tx: &mut Tx<'_>, t: &LabTest) -> sqlx::Result<LabTest> {
     .bind(&t.approval_concerns_json)
     .fetch_one(&mut **tx)
     .await
+    })
 }
 
 /// Every lab test of a source, newest first.
 pub async fn list_for_source(pool: &Pool, source_id: i64) -> sqlx::Result<Vec<LabTest>> {
-    sqlx::query_as::<_, LabTest>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM lab_tests WHERE source_id = $1 ORDER BY tested_on DESC, id DESC"
-    )))
+    on_pool!(pool, |pool| sqlx::query_as::<_, LabTest>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {COLUMNS} FROM lab_tests WHERE source_id = $1 ORDER BY tested_on DESC, id DESC"
+        ))
+    )
     .bind(source_id)
     .fetch_all(pool)
-    .await
+    .await)
 }
 
 /// One lab test by id.
 pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<LabTest>> {
-    sqlx::query_as::<_, LabTest>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM lab_tests WHERE id = $1"
-    )))
+    on_pool!(pool, |pool| sqlx::query_as::<_, LabTest>(
+        sqlx::AssertSqlSafe(format!("SELECT {COLUMNS} FROM lab_tests WHERE id = $1"))
+    )
     .bind(id)
     .fetch_optional(pool)
-    .await
+    .await)
 }
 
 /// Marks an active lab test superseded with a reason; returns false if it was not active.
 pub async fn supersede(tx: &mut Tx<'_>, id: i64, reason: &str, now: &str) -> sqlx::Result<bool> {
-    let done = sqlx::query(
+    let done = on_tx!(tx, |tx| sqlx::query(
         "UPDATE lab_tests SET status = 'superseded', superseded_reason = $1, superseded_at = $2
          WHERE id = $3 AND status = 'active'",
     )
@@ -105,20 +110,23 @@ pub async fn supersede(tx: &mut Tx<'_>, id: i64, reason: &str, now: &str) -> sql
     .bind(now)
     .bind(id)
     .execute(&mut **tx)
-    .await?;
-    Ok(done.rows_affected() == 1)
+    .await
+    .map(|r| r.rows_affected()))?;
+    Ok(done == 1)
 }
 
 /// Every lab test of a project's sources.
 pub async fn list_for_project(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<LabTest>> {
-    sqlx::query_as::<_, LabTest>(sqlx::AssertSqlSafe(format!(
+    on_pool!(pool, |pool| sqlx::query_as::<_, LabTest>(
+        sqlx::AssertSqlSafe(format!(
         "SELECT {} FROM lab_tests t JOIN sources s ON s.id = t.source_id WHERE s.project_id = $1
          ORDER BY s.code, t.tested_on, t.id",
         prefixed("t.")
-    )))
+    ))
+    )
     .bind(project_id)
     .fetch_all(pool)
-    .await
+    .await)
 }
 
 /// The column list with every name prefixed by a table alias.
@@ -132,11 +140,13 @@ fn prefixed(alias: &str) -> String {
 
 /// Lab tests not yet checked by the curve-quality rules (stored before them).
 pub async fn unchecked(pool: &Pool) -> sqlx::Result<Vec<LabTest>> {
-    sqlx::query_as::<_, LabTest>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM lab_tests WHERE quality_checked = 0 ORDER BY id"
-    )))
+    on_pool!(pool, |pool| sqlx::query_as::<_, LabTest>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {COLUMNS} FROM lab_tests WHERE quality_checked = 0 ORDER BY id"
+        ))
+    )
     .fetch_all(pool)
-    .await
+    .await)
 }
 
 /// Records the outcome of the curve-quality re-check of a stored curve.
@@ -146,14 +156,17 @@ pub async fn mark_checked(
     approval: &str,
     concerns_json: &str,
 ) -> sqlx::Result<()> {
-    sqlx::query(
+    on_tx!(tx, |tx| {
+        sqlx::query(
         "UPDATE lab_tests SET approval = $1, approval_concerns_json = $2, quality_checked = 1 WHERE id = $3",
     )
     .bind(approval)
     .bind(concerns_json)
     .bind(id)
     .execute(&mut **tx)
-    .await?;
+    .await
+    .map(|r| r.rows_affected())
+    })?;
     Ok(())
 }
 
@@ -165,7 +178,8 @@ pub async fn approve(
     by: &str,
     now: &str,
 ) -> sqlx::Result<bool> {
-    let done = sqlx::query(
+    let done = on_tx!(tx, |tx| {
+        sqlx::query(
         "UPDATE lab_tests SET approval = 'approved', approval_reason = $1, approved_by = $2, approved_at = $3
          WHERE id = $4 AND approval = 'needs_approval'",
     )
@@ -174,6 +188,8 @@ pub async fn approve(
     .bind(now)
     .bind(id)
     .execute(&mut **tx)
-    .await?;
-    Ok(done.rows_affected() == 1)
+    .await
+    .map(|r| r.rows_affected())
+    })?;
+    Ok(done == 1)
 }

@@ -3,6 +3,7 @@
 use serde::Serialize;
 
 use super::{Pool, Tx};
+use super::{on_pool, on_tx};
 
 /// A zone (embankment fill, subgrade, capping…) in its position from the bottom.
 #[derive(Debug, Clone, Serialize, sqlx::FromRow)]
@@ -38,17 +39,17 @@ pub async fn zone_by_name_or_insert(
     project_id: i64,
     name: &str,
 ) -> sqlx::Result<Zone> {
-    if let Some(z) = sqlx::query_as::<_, Zone>(
+    if let Some(z) = on_tx!(tx, |tx| sqlx::query_as::<_, Zone>(
         "SELECT id, project_id, name, position FROM zones WHERE project_id = $1 AND name = $2",
     )
     .bind(project_id)
     .bind(name)
     .fetch_optional(&mut **tx)
-    .await?
+    .await)?
     {
         return Ok(z);
     }
-    sqlx::query_as::<_, Zone>(
+    on_tx!(tx, |tx| sqlx::query_as::<_, Zone>(
         "INSERT INTO zones (project_id, name, position)
          VALUES ($1, $2, (SELECT COALESCE(MAX(position), 0) + 1 FROM zones WHERE project_id = $3))
          RETURNING id, project_id, name, position",
@@ -57,7 +58,7 @@ pub async fn zone_by_name_or_insert(
     .bind(name)
     .bind(project_id)
     .fetch_one(&mut **tx)
-    .await
+    .await)
 }
 
 /// Inserts a layer in a zone.
@@ -69,7 +70,7 @@ pub async fn insert(
     thickness_mm: Option<f64>,
     now: &str,
 ) -> sqlx::Result<i64> {
-    let id: i64 = sqlx::query_scalar(
+    let id: i64 = on_tx!(tx, |tx| sqlx::query_scalar(
         "INSERT INTO layers (project_id, zone_id, number, thickness_mm, created_at)
          VALUES ($1, $2, $3, $4, $5) RETURNING id",
     )
@@ -79,24 +80,28 @@ pub async fn insert(
     .bind(thickness_mm)
     .bind(now)
     .fetch_one(&mut **tx)
-    .await?;
+    .await)?;
     Ok(id)
 }
 
 /// Every layer of a project, bottom zone first, bottom layer first.
 pub async fn list(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<Layer>> {
-    sqlx::query_as::<_, Layer>(sqlx::AssertSqlSafe(format!(
-        "{SELECT} WHERE l.project_id = $1 ORDER BY z.position, l.number"
-    )))
+    on_pool!(pool, |pool| sqlx::query_as::<_, Layer>(
+        sqlx::AssertSqlSafe(format!(
+            "{SELECT} WHERE l.project_id = $1 ORDER BY z.position, l.number"
+        ))
+    )
     .bind(project_id)
     .fetch_all(pool)
-    .await
+    .await)
 }
 
 /// One layer by id.
 pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Layer>> {
-    sqlx::query_as::<_, Layer>(sqlx::AssertSqlSafe(format!("{SELECT} WHERE l.id = $1")))
-        .bind(id)
-        .fetch_optional(pool)
-        .await
+    on_pool!(pool, |pool| sqlx::query_as::<_, Layer>(
+        sqlx::AssertSqlSafe(format!("{SELECT} WHERE l.id = $1"))
+    )
+    .bind(id)
+    .fetch_optional(pool)
+    .await)
 }

@@ -5,7 +5,7 @@
 //! summaries. The one list of such changes is the migration's, repeated in
 //! `ledger::lot_summaries`.
 
-use super::{Engine, Pool, Tx, engine_of};
+use super::{Engine, Pool, Tx, on_pool, on_tx};
 
 /// A lot's stored summary: the judged part of its report as JSON, with the few fields
 /// views filter on beside it.
@@ -31,31 +31,31 @@ pub struct Mark {
     pub lot_id: i64,
 }
 
+const MARKS: &str = "SELECT id, lot_id FROM lots_to_judge WHERE project_id = $1 ORDER BY id";
+
 /// The marks of a project, oldest first.
 pub async fn marks(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<Mark>> {
-    sqlx::query_as::<_, Mark>(
-        "SELECT id, lot_id FROM lots_to_judge WHERE project_id = $1 ORDER BY id",
-    )
-    .bind(project_id)
-    .fetch_all(pool)
-    .await
+    on_pool!(pool, |p| sqlx::query_as::<_, Mark>(MARKS)
+        .bind(project_id)
+        .fetch_all(p)
+        .await)
 }
 
 /// The marks of a project read inside the settling transaction.
 pub async fn marks_in(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<Vec<Mark>> {
-    sqlx::query_as::<_, Mark>(
-        "SELECT id, lot_id FROM lots_to_judge WHERE project_id = $1 ORDER BY id",
-    )
-    .bind(project_id)
-    .fetch_all(&mut **tx)
-    .await
+    on_tx!(tx, |t| sqlx::query_as::<_, Mark>(MARKS)
+        .bind(project_id)
+        .fetch_all(&mut **t)
+        .await)
 }
 
 /// Projects with lots waiting to be judged again.
 pub async fn marked_projects(pool: &Pool) -> sqlx::Result<Vec<i64>> {
-    sqlx::query_scalar("SELECT DISTINCT project_id FROM lots_to_judge ORDER BY project_id")
-        .fetch_all(pool)
-        .await
+    on_pool!(pool, |p| sqlx::query_scalar(
+        "SELECT DISTINCT project_id FROM lots_to_judge ORDER BY project_id"
+    )
+    .fetch_all(p)
+    .await)
 }
 
 /// Takes the settling of a project's summaries until the transaction ends, if free: on
@@ -63,13 +63,15 @@ pub async fn marked_projects(pool: &Pool) -> sqlx::Result<Vec<i64>> {
 /// different readings (SQLite's write lock already does so for one file). False when
 /// another settling holds it.
 pub async fn try_hold_settling(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<bool> {
-    if tx.backend_name() != "PostgreSQL" {
-        return Ok(true);
+    match tx {
+        Tx::Sqlite(_) => Ok(true),
+        Tx::Postgres(t) => {
+            sqlx::query_scalar("SELECT pg_try_advisory_xact_lock(1201, CAST($1 AS INTEGER))")
+                .bind(project_id)
+                .fetch_one(&mut **t)
+                .await
+        }
     }
-    sqlx::query_scalar("SELECT pg_try_advisory_xact_lock(1201, CAST($1 AS INTEGER))")
-        .bind(project_id)
-        .fetch_one(&mut **tx)
-        .await
 }
 
 /// Writes a lot's summary. With `newer_only` an existing summary is kept when it was
@@ -93,10 +95,9 @@ pub async fn store(
              display_state = excluded.display_state, accepted = excluded.accepted,
              tests_entered = excluded.tests_entered, tests_owed = excluded.tests_owed,
              judged_json = excluded.judged_json, test_results = excluded.test_results,
-             judged_at = excluded.judged_at,
-             judged_mark = excluded.judged_mark{guard}"
+             judged_at = excluded.judged_at, judged_mark = excluded.judged_mark{guard}"
     );
-    sqlx::query(sqlx::AssertSqlSafe(sql))
+    on_tx!(tx, |t| sqlx::query(sqlx::AssertSqlSafe(sql))
         .bind(row.lot_id)
         .bind(row.project_id)
         .bind(&row.reduction_version)
@@ -108,22 +109,24 @@ pub async fn store(
         .bind(&row.test_results)
         .bind(&row.judged_at)
         .bind(judged_mark)
-        .execute(&mut **tx)
-        .await?;
-    Ok(())
+        .execute(&mut **t)
+        .await
+        .map(|_| ()))
 }
 
 /// Removes the summary of a lot that no longer exists.
 pub async fn forget(tx: &mut Tx<'_>, lot_id: i64) -> sqlx::Result<()> {
-    sqlx::query("DELETE FROM lot_summaries WHERE lot_id = $1")
-        .bind(lot_id)
-        .execute(&mut **tx)
-        .await?;
-    Ok(())
+    on_tx!(tx, |t| sqlx::query(
+        "DELETE FROM lot_summaries WHERE lot_id = $1"
+    )
+    .bind(lot_id)
+    .execute(&mut **t)
+    .await
+    .map(|_| ()))
 }
 
 /// Clears exactly the marks that were read and judged: a mark committed meanwhile,
-/// whatever its id, stays for the next settling.
+/// whatever its id, stays for the next settling. The ids are the store's own integers.
 pub async fn clear(tx: &mut Tx<'_>, ids: &[i64]) -> sqlx::Result<()> {
     for chunk in ids.chunks(500) {
         let list = chunk
@@ -131,34 +134,36 @@ pub async fn clear(tx: &mut Tx<'_>, ids: &[i64]) -> sqlx::Result<()> {
             .map(i64::to_string)
             .collect::<Vec<_>>()
             .join(", ");
-        sqlx::query(sqlx::AssertSqlSafe(format!(
-            "DELETE FROM lots_to_judge WHERE id IN ({list})"
-        )))
-        .execute(&mut **tx)
-        .await?;
+        let sql = format!("DELETE FROM lots_to_judge WHERE id IN ({list})");
+        on_tx!(&mut *tx, |t| sqlx::query(sqlx::AssertSqlSafe(sql))
+            .execute(&mut **t)
+            .await
+            .map(|_| ()))?;
     }
     Ok(())
 }
 
 /// Moves the project's revision: the in-memory copies of its views are stale.
 pub async fn bump_revision(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<()> {
-    sqlx::query("UPDATE projects SET revision = revision + 1 WHERE id = $1")
-        .bind(project_id)
-        .execute(&mut **tx)
-        .await?;
-    Ok(())
+    on_tx!(tx, |t| sqlx::query(
+        "UPDATE projects SET revision = revision + 1 WHERE id = $1"
+    )
+    .bind(project_id)
+    .execute(&mut **t)
+    .await
+    .map(|_| ()))
 }
 
-/// Every stored summary of a project.
+/// Every stored summary of a project (without the per-test results).
 pub async fn for_project(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<SummaryRow>> {
-    sqlx::query_as::<_, SummaryRow>(
+    on_pool!(pool, |p| sqlx::query_as::<_, SummaryRow>(
         "SELECT lot_id, project_id, reduction_version, display_state, accepted, tests_entered,
                 tests_owed, judged_json, '' AS test_results, judged_at
          FROM lot_summaries WHERE project_id = $1",
     )
     .bind(project_id)
-    .fetch_all(pool)
-    .await
+    .fetch_all(p)
+    .await)
 }
 
 /// Each lot's test ids by result (JSON), for the lots of a project (of one layer).
@@ -167,43 +172,32 @@ pub async fn test_results(
     project_id: i64,
     layer_id: Option<i64>,
 ) -> sqlx::Result<Vec<String>> {
-    sqlx::query_scalar(
+    on_pool!(pool, |p| sqlx::query_scalar(
         "SELECT s.test_results FROM lot_summaries s JOIN lots l ON l.id = s.lot_id
          WHERE s.project_id = $1 AND ($2 IS NULL OR l.layer_id = $3)",
     )
     .bind(project_id)
     .bind(layer_id)
     .bind(layer_id)
-    .fetch_all(pool)
-    .await
-}
-
-/// Tests entered on a project, from its summaries (settled first by the caller).
-pub async fn tests_entered(pool: &Pool, project_id: i64) -> sqlx::Result<i64> {
-    let n: Option<i64> = sqlx::query_scalar(
-        "SELECT CAST(SUM(tests_entered) AS BIGINT) FROM lot_summaries WHERE project_id = $1",
-    )
-    .bind(project_id)
-    .fetch_one(pool)
-    .await?;
-    Ok(n.unwrap_or(0))
+    .fetch_all(p)
+    .await)
 }
 
 /// Marks every lot (of one project, or of all) to be judged again; returns how many.
 pub async fn mark_all(pool: &Pool, project_id: Option<i64>) -> sqlx::Result<u64> {
-    let done = sqlx::query(
+    on_pool!(pool, |p| sqlx::query(
         "INSERT INTO lots_to_judge (project_id, lot_id)
          SELECT project_id, id FROM lots WHERE ($1 IS NULL OR project_id = $2)",
     )
     .bind(project_id)
     .bind(project_id)
-    .execute(pool)
-    .await?;
-    Ok(done.rows_affected())
+    .execute(p)
+    .await
+    .map(|r| r.rows_affected()))
 }
 
 /// True when mark ids follow commit order (SQLite's one writer), so a summary can be
 /// guarded by the mark it was judged from.
 pub fn marks_follow_commits(pool: &Pool) -> bool {
-    engine_of(pool) == Engine::Sqlite
+    pool.engine() == Engine::Sqlite
 }

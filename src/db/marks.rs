@@ -1,7 +1,7 @@
 //! Placeholders of statements whose length depends on the data: multi-row inserts and
 //! look-ups of many values at once (`bulk`, `audit`).
 
-use super::Conn;
+use super::{AsConn, ConnRef};
 
 /// How a connection's engine wants long parameter lists written.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -16,11 +16,10 @@ pub(crate) enum Marks {
 
 impl Marks {
     /// The form `conn`'s engine reads fastest.
-    pub(crate) fn of(conn: &Conn) -> Self {
-        if conn.backend_name() == "PostgreSQL" {
-            Marks::Numbered
-        } else {
-            Marks::Positional
+    pub(crate) fn of(conn: &mut impl AsConn) -> Self {
+        match conn.as_conn() {
+            ConnRef::Postgres(_) => Marks::Numbered,
+            ConnRef::Sqlite(_) => Marks::Positional,
         }
     }
 }

@@ -3,6 +3,7 @@
 use serde::Serialize;
 
 use super::{Pool, Tx};
+use super::{on_pool, on_tx};
 
 /// A registered mould.
 #[derive(Debug, Clone, Serialize, sqlx::FromRow)]
@@ -22,7 +23,8 @@ const COLUMNS: &str =
 
 /// Inserts a mould; `id` is ignored.
 pub async fn insert(tx: &mut Tx<'_>, m: &Mould) -> sqlx::Result<Mould> {
-    sqlx::query_as::<_, Mould>(sqlx::AssertSqlSafe(format!(
+    on_tx!(tx, |tx| {
+        sqlx::query_as::<_, Mould>(sqlx::AssertSqlSafe(format!(
         "INSERT INTO moulds (project_id, code, volume_cm3, mass_g, calibrated_on, created_at, created_by)
          VALUES ($1, $2, $3, $4, $5, $6, $7) RETURNING {COLUMNS}"
     )))
@@ -35,14 +37,17 @@ pub async fn insert(tx: &mut Tx<'_>, m: &Mould) -> sqlx::Result<Mould> {
     .bind(&m.created_by)
     .fetch_one(&mut **tx)
     .await
+    })
 }
 
 /// Every mould of a project, by code.
 pub async fn list(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<Mould>> {
-    sqlx::query_as::<_, Mould>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS} FROM moulds WHERE project_id = $1 ORDER BY code"
-    )))
+    on_pool!(pool, |pool| sqlx::query_as::<_, Mould>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {COLUMNS} FROM moulds WHERE project_id = $1 ORDER BY code"
+        ))
+    )
     .bind(project_id)
     .fetch_all(pool)
-    .await
+    .await)
 }

@@ -10,7 +10,7 @@
 //! with its one writer, the number is taken inside the write ([`take_test_number`]).
 //! Certificate numbers, which must have no gaps, are not drawn here.
 
-use super::{Engine, Pool, Tx, engine_of};
+use super::{Engine, Pool, Tx, on_tx};
 
 /// The label of automatic test number `n` of a project.
 pub fn test_label(n: i64) -> String {
@@ -44,39 +44,42 @@ pub fn automatic_number(label: &str) -> Option<i64> {
 /// a number of the automatic form by hand (or by a file) is not given it again. The row
 /// is only locked when the counter moves.
 pub async fn follow_number(tx: &mut Tx<'_>, project_id: i64, n: i64) -> sqlx::Result<()> {
-    sqlx::query(
+    on_tx!(tx, |t| sqlx::query(
         "UPDATE test_counters SET last_number = $1 WHERE project_id = $2 AND last_number < $3",
     )
     .bind(n)
     .bind(project_id)
     .bind(n)
-    .execute(&mut **tx)
-    .await?;
-    Ok(())
+    .execute(&mut **t)
+    .await
+    .map(|_| ()))
 }
 
 /// Takes the next automatic number inside the caller's write transaction.
 pub async fn take_test_number(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<String> {
-    let n: i64 = sqlx::query_scalar(
+    let n: i64 = on_tx!(tx, |t| sqlx::query_scalar(
         "UPDATE test_counters SET last_number = last_number + 1 WHERE project_id = $1
          RETURNING last_number",
     )
     .bind(project_id)
-    .fetch_one(&mut **tx)
-    .await?;
+    .fetch_one(&mut **t)
+    .await)?;
     Ok(test_label(n))
 }
 
 /// Draws the next automatic number in a transaction of its own, on PostgreSQL; `None`
 /// on SQLite, where [`take_test_number`] inside the write costs no waiting.
 pub async fn draw_test_number(pool: &Pool, project_id: i64) -> sqlx::Result<Option<String>> {
-    if engine_of(pool) != Engine::Postgres {
+    if pool.engine() != Engine::Postgres {
         return Ok(None);
     }
     let mut tx = pool.begin().await?;
-    sqlx::query("SET LOCAL synchronous_commit = off")
-        .execute(&mut *tx)
-        .await?;
+    on_tx!(&mut tx, |t| sqlx::query(
+        "SET LOCAL synchronous_commit = off"
+    )
+    .execute(&mut **t)
+    .await
+    .map(|_| ()))?;
     let number = take_test_number(&mut tx, project_id).await?;
     tx.commit().await?;
     Ok(Some(number))

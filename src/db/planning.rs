@@ -3,6 +3,7 @@
 use serde::Serialize;
 
 use super::{Pool, Tx};
+use super::{on_pool, on_tx};
 
 /// A stored plan (the current one has no `superseded_at`).
 #[derive(Debug, Clone, Serialize, sqlx::FromRow)]
@@ -28,25 +29,29 @@ const PLAN_COLUMNS: &str =
 
 /// Every plan of a lot, newest first.
 pub async fn plans_for_lot(pool: &Pool, lot_id: i64) -> sqlx::Result<Vec<TestPlan>> {
-    sqlx::query_as::<_, TestPlan>(sqlx::AssertSqlSafe(format!(
-        "SELECT {PLAN_COLUMNS} FROM test_plans WHERE lot_id = $1 ORDER BY revision DESC"
-    )))
+    on_pool!(pool, |pool| sqlx::query_as::<_, TestPlan>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {PLAN_COLUMNS} FROM test_plans WHERE lot_id = $1 ORDER BY revision DESC"
+        ))
+    )
     .bind(lot_id)
     .fetch_all(pool)
-    .await
+    .await)
 }
 
 /// The current plan's revision of a lot, read inside the write.
 pub async fn current_revision(tx: &mut Tx<'_>, lot_id: i64) -> sqlx::Result<Option<i64>> {
-    sqlx::query_scalar("SELECT MAX(revision) FROM test_plans WHERE lot_id = $1")
-        .bind(lot_id)
-        .fetch_one(&mut **tx)
-        .await
+    on_tx!(tx, |tx| sqlx::query_scalar(
+        "SELECT MAX(revision) FROM test_plans WHERE lot_id = $1"
+    )
+    .bind(lot_id)
+    .fetch_one(&mut **tx)
+    .await)
 }
 
 /// Marks the current plan of a lot superseded.
 pub async fn supersede(tx: &mut Tx<'_>, lot_id: i64, reason: &str, now: &str) -> sqlx::Result<u64> {
-    Ok(sqlx::query(
+    Ok(on_tx!(tx, |tx| sqlx::query(
         "UPDATE test_plans SET superseded_at = $1, superseded_reason = $2
           WHERE lot_id = $3 AND superseded_at IS NULL",
     )
@@ -54,13 +59,14 @@ pub async fn supersede(tx: &mut Tx<'_>, lot_id: i64, reason: &str, now: &str) ->
     .bind(reason)
     .bind(lot_id)
     .execute(&mut **tx)
-    .await?
-    .rows_affected())
+    .await
+    .map(|r| r.rows_affected()))?)
 }
 
 /// Inserts a plan; `id`, `superseded_*` are ignored.
 pub async fn insert_plan(tx: &mut Tx<'_>, p: &TestPlan) -> sqlx::Result<i64> {
-    sqlx::query_scalar(
+    on_tx!(tx, |tx| {
+        sqlx::query_scalar(
         "INSERT INTO test_plans (project_id, lot_id, revision, seed, location_count, edge_m, exclusions_json,
              locations_json, created_at, created_by)
          VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10) RETURNING id",
@@ -77,6 +83,7 @@ pub async fn insert_plan(tx: &mut Tx<'_>, p: &TestPlan) -> sqlx::Result<i64> {
     .bind(&p.created_by)
     .fetch_one(&mut **tx)
     .await
+    })
 }
 
 /// A clause's planning terms.
@@ -90,12 +97,14 @@ pub struct ClauseTerms {
 
 /// The planning terms of a clause.
 pub async fn clause_terms(pool: &Pool, clause_id: i64) -> sqlx::Result<Option<ClauseTerms>> {
-    sqlx::query_as::<_, ClauseTerms>(
+    on_pool!(pool, |pool| {
+        sqlx::query_as::<_, ClauseTerms>(
         "SELECT plan_tolerance_m, one_point_allowed, one_point_dry_window_pct FROM clauses WHERE id = $1",
     )
     .bind(clause_id)
     .fetch_optional(pool)
     .await
+    })
 }
 
 /// Sets the planning terms of a clause.
@@ -104,7 +113,8 @@ pub async fn set_clause_terms(
     clause_id: i64,
     t: &ClauseTerms,
 ) -> sqlx::Result<()> {
-    sqlx::query(
+    on_tx!(tx, |tx| {
+        sqlx::query(
         "UPDATE clauses SET plan_tolerance_m = $1, one_point_allowed = $2, one_point_dry_window_pct = $3
           WHERE id = $4",
     )
@@ -113,7 +123,9 @@ pub async fn set_clause_terms(
     .bind(t.one_point_dry_window_pct)
     .bind(clause_id)
     .execute(&mut **tx)
-    .await?;
+    .await
+    .map(|r| r.rows_affected())
+    })?;
     Ok(())
 }
 
@@ -146,7 +158,8 @@ const OP_COLUMNS: &str = "id, project_id, source_id, field_test_id, code, tested
 
 /// Inserts a one-point check; `id` is ignored.
 pub async fn insert_one_point(tx: &mut Tx<'_>, c: &OnePointCheck) -> sqlx::Result<i64> {
-    sqlx::query_scalar(
+    on_tx!(tx, |tx| {
+        sqlx::query_scalar(
         "INSERT INTO one_point_checks (project_id, source_id, field_test_id, code, tested_on, effort,
              water_content_pct, dry_density_kg_m3, dry_window_pct, max_dry_density_kg_m3,
              optimum_water_content_pct, lower_lab_test_id, upper_lab_test_id, fraction, created_at, created_by)
@@ -170,6 +183,7 @@ pub async fn insert_one_point(tx: &mut Tx<'_>, c: &OnePointCheck) -> sqlx::Resul
     .bind(&c.created_by)
     .fetch_one(&mut **tx)
     .await
+    })
 }
 
 /// One-point checks of a source, oldest first.
@@ -177,12 +191,14 @@ pub async fn one_points_for_source(
     pool: &Pool,
     source_id: i64,
 ) -> sqlx::Result<Vec<OnePointCheck>> {
-    sqlx::query_as::<_, OnePointCheck>(sqlx::AssertSqlSafe(format!(
-        "SELECT {OP_COLUMNS} FROM one_point_checks WHERE source_id = $1 ORDER BY id"
-    )))
+    on_pool!(pool, |pool| sqlx::query_as::<_, OnePointCheck>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {OP_COLUMNS} FROM one_point_checks WHERE source_id = $1 ORDER BY id"
+        ))
+    )
     .bind(source_id)
     .fetch_all(pool)
-    .await
+    .await)
 }
 
 /// The one-point checks that are their paired test's reference (the test's lot's clause allows
@@ -193,19 +209,21 @@ pub async fn reference_one_points(
     lot_id: Option<i64>,
 ) -> sqlx::Result<Vec<(i64, OnePointCheck)>> {
     let cols = qualified(OP_COLUMNS, "op");
-    let rows = sqlx::query_as::<_, LotOnePoint>(sqlx::AssertSqlSafe(format!(
-        "SELECT ft.lot_id AS paired_lot_id, {cols} FROM one_point_checks op
+    let rows = on_pool!(pool, |pool| sqlx::query_as::<_, LotOnePoint>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT ft.lot_id AS paired_lot_id, {cols} FROM one_point_checks op
            JOIN field_tests ft ON ft.id = op.field_test_id
            JOIN lots lo ON lo.id = ft.lot_id
            JOIN clauses c ON c.id = lo.clause_id
           WHERE op.project_id = $1 AND c.one_point_allowed = 1 AND ($2 IS NULL OR ft.lot_id = $3)
           ORDER BY op.id"
-    )))
+        ))
+    )
     .bind(project_id)
     .bind(lot_id)
     .bind(lot_id)
     .fetch_all(pool)
-    .await?;
+    .await)?;
     Ok(rows
         .into_iter()
         .map(|r| (r.paired_lot_id, r.check))
@@ -226,17 +244,19 @@ pub async fn current_plans(
     lot_id: Option<i64>,
 ) -> sqlx::Result<Vec<(TestPlan, f64)>> {
     let cols = qualified(PLAN_COLUMNS, "p");
-    let rows = sqlx::query_as::<_, PlanWithTolerance>(sqlx::AssertSqlSafe(format!(
-        "SELECT c.plan_tolerance_m AS tolerance_m, {cols} FROM test_plans p
+    let rows = on_pool!(pool, |pool| sqlx::query_as::<_, PlanWithTolerance>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT c.plan_tolerance_m AS tolerance_m, {cols} FROM test_plans p
            JOIN lots lo ON lo.id = p.lot_id JOIN clauses c ON c.id = lo.clause_id
           WHERE p.project_id = $1 AND p.superseded_at IS NULL AND ($2 IS NULL OR p.lot_id = $3)
           ORDER BY p.lot_id"
-    )))
+        ))
+    )
     .bind(project_id)
     .bind(lot_id)
     .bind(lot_id)
     .fetch_all(pool)
-    .await?;
+    .await)?;
     Ok(rows.into_iter().map(|r| (r.plan, r.tolerance_m)).collect())
 }
 

@@ -3,6 +3,7 @@
 use serde::Serialize;
 
 use super::{Pool, Tx};
+use super::{on_pool, on_tx};
 
 /// A stored project.
 #[derive(Debug, Clone, Serialize, sqlx::FromRow)]
@@ -36,7 +37,8 @@ pub struct NewProject {
 
 /// Inserts a project and returns it.
 pub async fn insert(tx: &mut Tx<'_>, new: &NewProject, now: &str) -> sqlx::Result<Project> {
-    sqlx::query_as::<_, Project>(sqlx::AssertSqlSafe(format!(
+    on_tx!(tx, |tx| {
+        sqlx::query_as::<_, Project>(sqlx::AssertSqlSafe(format!(
         "INSERT INTO projects (code, name, contract, client, contractor, unit_system, chainage_style, created_at)
          VALUES ($1, $2, $3, $4, $5, $6, $7, $8)
          RETURNING {COLUMNS}"
@@ -51,45 +53,54 @@ pub async fn insert(tx: &mut Tx<'_>, new: &NewProject, now: &str) -> sqlx::Resul
     .bind(now)
     .fetch_one(&mut **tx)
     .await
+    })
 }
 
 /// Every project, by name.
 pub async fn list(pool: &Pool) -> sqlx::Result<Vec<Project>> {
-    sqlx::query_as::<_, Project>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS}
+    on_pool!(pool, |pool| sqlx::query_as::<_, Project>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {COLUMNS}
          FROM projects ORDER BY name, id"
-    )))
+        ))
+    )
     .fetch_all(pool)
-    .await
+    .await)
 }
 
 /// One project by id.
 pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Project>> {
-    sqlx::query_as::<_, Project>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS}
+    on_pool!(pool, |pool| sqlx::query_as::<_, Project>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {COLUMNS}
          FROM projects WHERE id = $1"
-    )))
+        ))
+    )
     .bind(id)
     .fetch_optional(pool)
-    .await
+    .await)
 }
 
 /// One project by its short code.
 pub async fn get_by_code(pool: &Pool, code: &str) -> sqlx::Result<Option<Project>> {
-    sqlx::query_as::<_, Project>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS}
+    on_pool!(pool, |pool| sqlx::query_as::<_, Project>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {COLUMNS}
          FROM projects WHERE code = $1"
-    )))
+        ))
+    )
     .bind(code)
     .fetch_optional(pool)
-    .await
+    .await)
 }
 
 /// The project's revision: bumped by every audited change to it (see migration 0003),
 /// so a cached whole-project view is current exactly when its revision still matches.
 pub async fn revision(pool: &Pool, id: i64) -> sqlx::Result<Option<i64>> {
-    sqlx::query_scalar("SELECT revision FROM projects WHERE id = $1")
-        .bind(id)
-        .fetch_optional(pool)
-        .await
+    on_pool!(pool, |pool| sqlx::query_scalar(
+        "SELECT revision FROM projects WHERE id = $1"
+    )
+    .bind(id)
+    .fetch_optional(pool)
+    .await)
 }

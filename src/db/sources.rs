@@ -3,6 +3,7 @@
 use serde::Serialize;
 
 use super::{Pool, Tx};
+use super::{on_pool, on_tx};
 
 /// A stored borrow source.
 #[derive(Debug, Clone, Serialize, sqlx::FromRow)]
@@ -24,7 +25,8 @@ const COLUMNS: &str = "id, project_id, code, name, description, uscs_class, aash
 
 /// Inserts a source; `id` is ignored.
 pub async fn insert(tx: &mut Tx<'_>, s: &Source) -> sqlx::Result<Source> {
-    sqlx::query_as::<_, Source>(sqlx::AssertSqlSafe(format!(
+    on_tx!(tx, |tx| {
+        sqlx::query_as::<_, Source>(sqlx::AssertSqlSafe(format!(
         "INSERT INTO sources (project_id, code, name, description, uscs_class, aashto_class, gs_fines, gs_coarse, created_at)
          VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9)
          RETURNING {COLUMNS}"
@@ -40,26 +42,31 @@ pub async fn insert(tx: &mut Tx<'_>, s: &Source) -> sqlx::Result<Source> {
     .bind(&s.created_at)
     .fetch_one(&mut **tx)
     .await
+    })
 }
 
 /// Every source of a project.
 pub async fn list(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<Source>> {
-    sqlx::query_as::<_, Source>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS}
+    on_pool!(pool, |pool| sqlx::query_as::<_, Source>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {COLUMNS}
          FROM sources WHERE project_id = $1 ORDER BY code"
-    )))
+        ))
+    )
     .bind(project_id)
     .fetch_all(pool)
-    .await
+    .await)
 }
 
 /// One source by id.
 pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<Source>> {
-    sqlx::query_as::<_, Source>(sqlx::AssertSqlSafe(format!(
-        "SELECT {COLUMNS}
+    on_pool!(pool, |pool| sqlx::query_as::<_, Source>(
+        sqlx::AssertSqlSafe(format!(
+            "SELECT {COLUMNS}
          FROM sources WHERE id = $1"
-    )))
+        ))
+    )
     .bind(id)
     .fetch_optional(pool)
-    .await
+    .await)
 }

@@ -3,6 +3,7 @@
 use serde::Serialize;
 
 use super::{Pool, Tx};
+use super::{on_pool, on_tx};
 use crate::auth::Role;
 
 /// A stored user (the password hash is never serialised).
@@ -43,7 +44,7 @@ pub async fn insert(
     is_demo: bool,
     now: &str,
 ) -> sqlx::Result<i64> {
-    sqlx::query_scalar(
+    on_tx!(tx, |tx| sqlx::query_scalar(
         "INSERT INTO users (username, display_name, password_hash, is_admin, is_demo, created_at)
          VALUES ($1, $2, $3, $4, $5, $6) RETURNING id",
     )
@@ -54,37 +55,45 @@ pub async fn insert(
     .bind(i64::from(is_demo))
     .bind(now)
     .fetch_one(&mut **tx)
-    .await
+    .await)
 }
 
 /// A user by name.
 pub async fn by_username(pool: &Pool, username: &str) -> sqlx::Result<Option<User>> {
-    sqlx::query_as::<_, User>(sqlx::AssertSqlSafe(format!("{USER} WHERE username = $1")))
-        .bind(username)
-        .fetch_optional(pool)
-        .await
+    on_pool!(pool, |pool| sqlx::query_as::<_, User>(sqlx::AssertSqlSafe(
+        format!("{USER} WHERE username = $1")
+    ))
+    .bind(username)
+    .fetch_optional(pool)
+    .await)
 }
 
 /// A user by id.
 pub async fn get(pool: &Pool, id: i64) -> sqlx::Result<Option<User>> {
-    sqlx::query_as::<_, User>(sqlx::AssertSqlSafe(format!("{USER} WHERE id = $1")))
-        .bind(id)
-        .fetch_optional(pool)
-        .await
+    on_pool!(pool, |pool| sqlx::query_as::<_, User>(sqlx::AssertSqlSafe(
+        format!("{USER} WHERE id = $1")
+    ))
+    .bind(id)
+    .fetch_optional(pool)
+    .await)
 }
 
 /// How many users exist (zero on a new database).
 pub async fn count(pool: &Pool) -> sqlx::Result<i64> {
-    sqlx::query_scalar("SELECT COUNT(*) FROM users")
-        .fetch_one(pool)
-        .await
+    on_pool!(pool, |pool| sqlx::query_scalar(
+        "SELECT COUNT(*) FROM users"
+    )
+    .fetch_one(pool)
+    .await)
 }
 
 /// Every user, by name.
 pub async fn list(pool: &Pool) -> sqlx::Result<Vec<User>> {
-    sqlx::query_as::<_, User>(sqlx::AssertSqlSafe(format!("{USER} ORDER BY username")))
-        .fetch_all(pool)
-        .await
+    on_pool!(pool, |pool| sqlx::query_as::<_, User>(sqlx::AssertSqlSafe(
+        format!("{USER} ORDER BY username")
+    ))
+    .fetch_all(pool)
+    .await)
 }
 
 /// Grants (or changes) a user's role in a project.
@@ -95,7 +104,7 @@ pub async fn grant(
     role: Role,
     now: &str,
 ) -> sqlx::Result<()> {
-    sqlx::query(
+    on_tx!(tx, |tx| sqlx::query(
         "INSERT INTO memberships (user_id, project_id, role, created_at) VALUES ($1, $2, $3, $4)
          ON CONFLICT (user_id, project_id) DO UPDATE SET role = excluded.role",
     )
@@ -104,7 +113,8 @@ pub async fn grant(
     .bind(role)
     .bind(now)
     .execute(&mut **tx)
-    .await?;
+    .await
+    .map(|r| r.rows_affected()))?;
     Ok(())
 }
 
@@ -114,13 +124,13 @@ pub async fn remove_membership(
     user_id: i64,
     project_id: i64,
 ) -> sqlx::Result<Option<Role>> {
-    sqlx::query_scalar(
+    on_tx!(tx, |tx| sqlx::query_scalar(
         "DELETE FROM memberships WHERE user_id = $1 AND project_id = $2 RETURNING role",
     )
     .bind(user_id)
     .bind(project_id)
     .fetch_optional(&mut **tx)
-    .await
+    .await)
 }
 
 /// Disables (`Some(now)`) or re-enables (`None`) a user; false when nothing changed.
@@ -129,7 +139,7 @@ pub async fn set_disabled(
     user_id: i64,
     disabled_at: Option<&str>,
 ) -> sqlx::Result<bool> {
-    let q = match disabled_at {
+    let q = on_tx!(tx, |tx| (match disabled_at {
         Some(at) => {
             sqlx::query("UPDATE users SET disabled_at = $1 WHERE id = $2 AND disabled_at IS NULL")
                 .bind(at)
@@ -139,8 +149,11 @@ pub async fn set_disabled(
             "UPDATE users SET disabled_at = NULL WHERE id = $1 AND disabled_at IS NOT NULL",
         )
         .bind(user_id),
-    };
-    super::changed_one(tx, q).await
+    })
+    .execute(&mut **tx)
+    .await?
+    .rows_affected());
+    Ok(super::changed_one(q))
 }
 
 /// Stores a new password hash; `must_change` makes the next sign-in ask for a new one.
@@ -150,21 +163,27 @@ pub async fn set_password(
     password_hash: &str,
     must_change: bool,
 ) -> sqlx::Result<()> {
-    sqlx::query("UPDATE users SET password_hash = $1, must_change_password = $2 WHERE id = $3")
-        .bind(password_hash)
-        .bind(i64::from(must_change))
-        .bind(user_id)
-        .execute(&mut **tx)
-        .await?;
+    on_tx!(tx, |tx| sqlx::query(
+        "UPDATE users SET password_hash = $1, must_change_password = $2 WHERE id = $3"
+    )
+    .bind(password_hash)
+    .bind(i64::from(must_change))
+    .bind(user_id)
+    .execute(&mut **tx)
+    .await
+    .map(|r| r.rows_affected()))?;
     Ok(())
 }
 
 /// Marks a user's password as one to change at next sign-in (the first admin's).
 pub async fn require_password_change(tx: &mut Tx<'_>, user_id: i64) -> sqlx::Result<()> {
-    sqlx::query("UPDATE users SET must_change_password = 1 WHERE id = $1")
-        .bind(user_id)
-        .execute(&mut **tx)
-        .await?;
+    on_tx!(tx, |tx| sqlx::query(
+        "UPDATE users SET must_change_password = 1 WHERE id = $1"
+    )
+    .bind(user_id)
+    .execute(&mut **tx)
+    .await
+    .map(|r| r.rows_affected()))?;
     Ok(())
 }
 
@@ -175,43 +194,52 @@ pub async fn end_sessions_of(
     keep: Option<i64>,
     now: &str,
 ) -> sqlx::Result<u64> {
-    let done = sqlx::query(
+    let done = on_tx!(tx, |tx| {
+        sqlx::query(
         "UPDATE sessions SET ended_at = $1 WHERE user_id = $2 AND ended_at IS NULL AND id <> $3",
     )
     .bind(now)
     .bind(user_id)
     .bind(keep.unwrap_or(0))
     .execute(&mut **tx)
-    .await?;
-    Ok(done.rows_affected())
+    .await
+    .map(|r| r.rows_affected())
+    })?;
+    Ok(done)
 }
 
 /// A user's role in a project, if a member.
 pub async fn role_in(pool: &Pool, user_id: i64, project_id: i64) -> sqlx::Result<Option<Role>> {
-    sqlx::query_scalar("SELECT role FROM memberships WHERE user_id = $1 AND project_id = $2")
-        .bind(user_id)
-        .bind(project_id)
-        .fetch_optional(pool)
-        .await
+    on_pool!(pool, |pool| sqlx::query_scalar(
+        "SELECT role FROM memberships WHERE user_id = $1 AND project_id = $2"
+    )
+    .bind(user_id)
+    .bind(project_id)
+    .fetch_optional(pool)
+    .await)
 }
 
 /// Ids of the projects a user belongs to.
 pub async fn project_ids(pool: &Pool, user_id: i64) -> sqlx::Result<Vec<i64>> {
-    sqlx::query_scalar("SELECT project_id FROM memberships WHERE user_id = $1 ORDER BY project_id")
-        .bind(user_id)
-        .fetch_all(pool)
-        .await
+    on_pool!(pool, |pool| sqlx::query_scalar(
+        "SELECT project_id FROM memberships WHERE user_id = $1 ORDER BY project_id"
+    )
+    .bind(user_id)
+    .fetch_all(pool)
+    .await)
 }
 
 /// Members of a project with their roles.
 pub async fn members(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<(String, String, Role)>> {
-    sqlx::query_as(
+    on_pool!(pool, |pool| {
+        sqlx::query_as(
         "SELECT u.username, u.display_name, m.role FROM memberships m JOIN users u ON u.id = m.user_id
          WHERE m.project_id = $1 ORDER BY u.username",
     )
     .bind(project_id)
     .fetch_all(pool)
     .await
+    })
 }
 
 /// A live session found by its token hash.
@@ -230,7 +258,8 @@ pub async fn start_session(
     user_id: i64,
     now: &str,
 ) -> sqlx::Result<i64> {
-    sqlx::query_scalar(
+    on_tx!(tx, |tx| {
+        sqlx::query_scalar(
         "INSERT INTO sessions (token_hash, user_id, created_at, last_seen_at) VALUES ($1, $2, $3, $4) RETURNING id",
     )
     .bind(token_hash)
@@ -239,16 +268,19 @@ pub async fn start_session(
     .bind(now)
     .fetch_one(&mut **tx)
     .await
+    })
 }
 
 /// The live session with this token hash.
 pub async fn session(pool: &Pool, token_hash: &str) -> sqlx::Result<Option<Session>> {
-    sqlx::query_as::<_, Session>(
+    on_pool!(pool, |pool| {
+        sqlx::query_as::<_, Session>(
         "SELECT id, user_id, created_at, last_seen_at FROM sessions WHERE token_hash = $1 AND ended_at IS NULL",
     )
     .bind(token_hash)
     .fetch_optional(pool)
     .await
+    })
 }
 
 /// A live session with its user, read in one query (every signed-in request needs both).
@@ -263,7 +295,8 @@ pub struct SessionUser {
 
 /// The live session with this token hash, and its user.
 pub async fn session_user(pool: &Pool, token_hash: &str) -> sqlx::Result<Option<SessionUser>> {
-    sqlx::query_as::<_, SessionUser>(
+    on_pool!(pool, |pool| {
+        sqlx::query_as::<_, SessionUser>(
         "SELECT s.id AS session_id, s.created_at AS session_created_at, s.last_seen_at AS session_last_seen_at,
                 u.id, u.username, u.display_name, u.password_hash, u.is_admin, u.is_demo, u.disabled_at,
                 u.created_at, u.must_change_password
@@ -273,34 +306,46 @@ pub async fn session_user(pool: &Pool, token_hash: &str) -> sqlx::Result<Option<
     .bind(token_hash)
     .fetch_optional(pool)
     .await
+    })
 }
 
 /// Records that a session was used now.
 pub async fn touch_session(pool: &Pool, id: i64, now: &str) -> sqlx::Result<()> {
-    sqlx::query("UPDATE sessions SET last_seen_at = $1 WHERE id = $2")
-        .bind(now)
-        .bind(id)
-        .execute(pool)
-        .await?;
+    on_pool!(pool, |pool| sqlx::query(
+        "UPDATE sessions SET last_seen_at = $1 WHERE id = $2"
+    )
+    .bind(now)
+    .bind(id)
+    .execute(pool)
+    .await
+    .map(|r| r.rows_affected()))?;
     Ok(())
 }
 
 /// Ends a session (sign-out, idle expiry or rotation).
 pub async fn end_session(pool: &Pool, id: i64, now: &str) -> sqlx::Result<()> {
-    sqlx::query("UPDATE sessions SET ended_at = $1 WHERE id = $2 AND ended_at IS NULL")
-        .bind(now)
-        .bind(id)
-        .execute(pool)
-        .await?;
+    on_pool!(pool, |pool| sqlx::query(
+        "UPDATE sessions SET ended_at = $1 WHERE id = $2 AND ended_at IS NULL"
+    )
+    .bind(now)
+    .bind(id)
+    .execute(pool)
+    .await
+    .map(|r| r.rows_affected()))?;
     Ok(())
 }
 
 /// Ends a session inside a transaction; false when it had already ended.
 pub async fn end_session_tx(tx: &mut Tx<'_>, id: i64, now: &str) -> sqlx::Result<bool> {
-    let q = sqlx::query("UPDATE sessions SET ended_at = $1 WHERE id = $2 AND ended_at IS NULL")
-        .bind(now)
-        .bind(id);
-    super::changed_one(tx, q).await
+    let q = on_tx!(tx, |tx| sqlx::query(
+        "UPDATE sessions SET ended_at = $1 WHERE id = $2 AND ended_at IS NULL"
+    )
+    .bind(now)
+    .bind(id)
+    .execute(&mut **tx)
+    .await?
+    .rows_affected());
+    Ok(super::changed_one(q))
 }
 
 /// A stored API token (without its secret).
@@ -335,7 +380,7 @@ pub struct NewToken<'a> {
 
 /// Stores a new token's hash.
 pub async fn insert_token(tx: &mut Tx<'_>, t: &NewToken<'_>, now: &str) -> sqlx::Result<i64> {
-    sqlx::query_scalar(
+    on_tx!(tx, |tx| sqlx::query_scalar(
         "INSERT INTO api_tokens (project_id, role, name, token_hash, created_by, created_at,
                                  created_by_user_id, expires_at)
          VALUES ($1, $2, $3, $4, $5, $6, $7, $8) RETURNING id",
@@ -349,7 +394,7 @@ pub async fn insert_token(tx: &mut Tx<'_>, t: &NewToken<'_>, now: &str) -> sqlx:
     .bind(t.created_by_user_id)
     .bind(t.expires_at)
     .fetch_one(&mut **tx)
-    .await
+    .await)
 }
 
 /// A live token by the hash of its secret, with its creator's current role in the token's
@@ -359,7 +404,8 @@ pub async fn live_token(
     token_hash: &str,
     now: &str,
 ) -> sqlx::Result<Option<(ApiToken, Role)>> {
-    let row: Option<TokenWithCreator> = sqlx::query_as(
+    let row: Option<TokenWithCreator> = on_pool!(pool, |pool| {
+        sqlx::query_as(
         "SELECT t.id, t.project_id, t.role, t.name, t.created_by, t.created_by_user_id, t.created_at,
                 t.expires_at, t.last_used_at, t.revoked_at, m.role AS creator_role
          FROM api_tokens t
@@ -371,7 +417,8 @@ pub async fn live_token(
     .bind(token_hash)
     .bind(now)
     .fetch_optional(pool)
-    .await?;
+    .await
+    })?;
     Ok(row.map(|r| (r.token, r.creator_role)))
 }
 
@@ -389,7 +436,8 @@ pub async fn revoke_tokens_of(
     project_id: Option<i64>,
     now: &str,
 ) -> sqlx::Result<u64> {
-    let done = match project_id {
+    let done = on_tx!(tx, |tx| {
+        match project_id {
         Some(p) => sqlx::query(
             "UPDATE api_tokens SET revoked_at = $1
              WHERE created_by_user_id = $2 AND revoked_at IS NULL AND project_id = $3",
@@ -404,45 +452,56 @@ pub async fn revoke_tokens_of(
         .bind(user_id),
     }
     .execute(&mut **tx)
-    .await?;
-    Ok(done.rows_affected())
+    .await?
+    .rows_affected()
+    });
+    Ok(done)
 }
 
 /// One token by id.
 pub async fn token(pool: &Pool, id: i64) -> sqlx::Result<Option<ApiToken>> {
-    sqlx::query_as::<_, ApiToken>(sqlx::AssertSqlSafe(format!("{TOKEN} WHERE id = $1")))
-        .bind(id)
-        .fetch_optional(pool)
-        .await
+    on_pool!(pool, |pool| sqlx::query_as::<_, ApiToken>(
+        sqlx::AssertSqlSafe(format!("{TOKEN} WHERE id = $1"))
+    )
+    .bind(id)
+    .fetch_optional(pool)
+    .await)
 }
 
 /// Tokens of a project.
 pub async fn tokens(pool: &Pool, project_id: i64) -> sqlx::Result<Vec<ApiToken>> {
-    sqlx::query_as::<_, ApiToken>(sqlx::AssertSqlSafe(format!(
-        "{TOKEN} WHERE project_id = $1 ORDER BY id"
-    )))
+    on_pool!(pool, |pool| sqlx::query_as::<_, ApiToken>(
+        sqlx::AssertSqlSafe(format!("{TOKEN} WHERE project_id = $1 ORDER BY id"))
+    )
     .bind(project_id)
     .fetch_all(pool)
-    .await
+    .await)
 }
 
 /// Records a token's use.
 pub async fn touch_token(pool: &Pool, id: i64, now: &str) -> sqlx::Result<()> {
-    sqlx::query("UPDATE api_tokens SET last_used_at = $1 WHERE id = $2")
-        .bind(now)
-        .bind(id)
-        .execute(pool)
-        .await?;
+    on_pool!(pool, |pool| sqlx::query(
+        "UPDATE api_tokens SET last_used_at = $1 WHERE id = $2"
+    )
+    .bind(now)
+    .bind(id)
+    .execute(pool)
+    .await
+    .map(|r| r.rows_affected()))?;
     Ok(())
 }
 
 /// Revokes a token; false when it was already revoked.
 pub async fn revoke_token(tx: &mut Tx<'_>, id: i64, now: &str) -> sqlx::Result<bool> {
-    let q =
-        sqlx::query("UPDATE api_tokens SET revoked_at = $1 WHERE id = $2 AND revoked_at IS NULL")
-            .bind(now)
-            .bind(id);
-    super::changed_one(tx, q).await
+    let q = on_tx!(tx, |tx| sqlx::query(
+        "UPDATE api_tokens SET revoked_at = $1 WHERE id = $2 AND revoked_at IS NULL"
+    )
+    .bind(now)
+    .bind(id)
+    .execute(&mut **tx)
+    .await?
+    .rows_affected());
+    Ok(super::changed_one(q))
 }
 
 /// Holds the throttle of one key until the transaction ends, so counting a key's
@@ -450,15 +509,11 @@ pub async fn revoke_token(tx: &mut Tx<'_>, id: i64, now: &str) -> sqlx::Result<b
 /// database (PostgreSQL: a transaction-scoped advisory lock; SQLite's `BEGIN IMMEDIATE`
 /// already holds the only write lock).
 pub async fn lock_throttle_key(tx: &mut Tx<'_>, key: &str) -> sqlx::Result<()> {
-    if tx.backend_name() == "PostgreSQL" {
-        // Wrapped so the statement returns an integer column, not `void` (which the
-        // `Any` driver cannot describe).
-        sqlx::query(
-            "SELECT 1 FROM (SELECT pg_advisory_xact_lock(hashtextextended($1, 0))) AS held",
-        )
-        .bind(key)
-        .execute(&mut **tx)
-        .await?;
+    if let Tx::Postgres(tx) = tx {
+        sqlx::query("SELECT pg_advisory_xact_lock(hashtextextended($1, 0))")
+            .bind(key)
+            .execute(&mut **tx)
+            .await?;
     }
     Ok(())
 }
@@ -469,48 +524,61 @@ pub async fn failures_since_tx(
     key: &str,
     since: &str,
 ) -> sqlx::Result<(i64, Option<String>)> {
-    sqlx::query_as("SELECT COUNT(*), MAX(at) FROM sign_in_failures WHERE key = $1 AND at >= $2")
-        .bind(key)
-        .bind(since)
-        .fetch_one(&mut **tx)
-        .await
+    on_tx!(tx, |tx| sqlx::query_as(
+        "SELECT COUNT(*), MAX(at) FROM sign_in_failures WHERE key = $1 AND at >= $2"
+    )
+    .bind(key)
+    .bind(since)
+    .fetch_one(&mut **tx)
+    .await)
 }
 
 /// Counts an attempt as a failure before its password is checked; returns the row's id.
 pub async fn reserve_attempt(tx: &mut Tx<'_>, key: &str, now: &str) -> sqlx::Result<i64> {
-    sqlx::query_scalar("INSERT INTO sign_in_failures (key, at) VALUES ($1, $2) RETURNING id")
-        .bind(key)
-        .bind(now)
-        .fetch_one(&mut **tx)
-        .await
+    on_tx!(tx, |tx| sqlx::query_scalar(
+        "INSERT INTO sign_in_failures (key, at) VALUES ($1, $2) RETURNING id"
+    )
+    .bind(key)
+    .bind(now)
+    .fetch_one(&mut **tx)
+    .await)
 }
 
 /// A reserved attempt that failed: its time becomes when the failure was answered.
 pub async fn settle_failure(pool: &Pool, id: i64, now: &str) -> sqlx::Result<()> {
-    sqlx::query("UPDATE sign_in_failures SET at = $1 WHERE id = $2")
-        .bind(now)
-        .bind(id)
-        .execute(pool)
-        .await?;
+    on_pool!(pool, |pool| sqlx::query(
+        "UPDATE sign_in_failures SET at = $1 WHERE id = $2"
+    )
+    .bind(now)
+    .bind(id)
+    .execute(pool)
+    .await
+    .map(|r| r.rows_affected()))?;
     Ok(())
 }
 
 /// A reserved attempt that succeeded is not a failure.
 pub async fn forget_attempt(pool: &Pool, id: i64) -> sqlx::Result<()> {
-    sqlx::query("DELETE FROM sign_in_failures WHERE id = $1")
-        .bind(id)
-        .execute(pool)
-        .await?;
+    on_pool!(pool, |pool| sqlx::query(
+        "DELETE FROM sign_in_failures WHERE id = $1"
+    )
+    .bind(id)
+    .execute(pool)
+    .await
+    .map(|r| r.rows_affected()))?;
     Ok(())
 }
 
 /// Records a failed sign-in under a key (`user:…` or `addr:…`).
 pub async fn record_failure(pool: &Pool, key: &str, now: &str) -> sqlx::Result<()> {
-    sqlx::query("INSERT INTO sign_in_failures (key, at) VALUES ($1, $2)")
-        .bind(key)
-        .bind(now)
-        .execute(pool)
-        .await?;
+    on_pool!(pool, |pool| sqlx::query(
+        "INSERT INTO sign_in_failures (key, at) VALUES ($1, $2)"
+    )
+    .bind(key)
+    .bind(now)
+    .execute(pool)
+    .await
+    .map(|r| r.rows_affected()))?;
     Ok(())
 }
 
@@ -520,18 +588,23 @@ pub async fn failures_since(
     key: &str,
     since: &str,
 ) -> sqlx::Result<(i64, Option<String>)> {
-    sqlx::query_as("SELECT COUNT(*), MAX(at) FROM sign_in_failures WHERE key = $1 AND at >= $2")
-        .bind(key)
-        .bind(since)
-        .fetch_one(pool)
-        .await
+    on_pool!(pool, |pool| sqlx::query_as(
+        "SELECT COUNT(*), MAX(at) FROM sign_in_failures WHERE key = $1 AND at >= $2"
+    )
+    .bind(key)
+    .bind(since)
+    .fetch_one(pool)
+    .await)
 }
 
 /// Forgets a user name's failures after a successful sign-in.
 pub async fn clear_failures(pool: &Pool, key: &str) -> sqlx::Result<()> {
-    sqlx::query("DELETE FROM sign_in_failures WHERE key = $1")
-        .bind(key)
-        .execute(pool)
-        .await?;
+    on_pool!(pool, |pool| sqlx::query(
+        "DELETE FROM sign_in_failures WHERE key = $1"
+    )
+    .bind(key)
+    .execute(pool)
+    .await
+    .map(|r| r.rows_affected()))?;
     Ok(())
 }

@@ -23,7 +23,7 @@ impl std::fmt::Display for UnknownCode {
 impl std::error::Error for UnknownCode {}
 
 /// Gives a fieldless enum its stored code: `code()`, `ALL`, `parse_code`, `FromStr`,
-/// `Display`, and sqlx `Type`/`Encode`/`Decode` for the `Any` driver (as text). Decoding
+/// `Display`, and sqlx `Type`/`Encode`/`Decode` for both engines (as text). Decoding
 /// an unknown code is an error (sqlx wraps it with the column's name), never a default.
 macro_rules! stored_code {
     ($ty:ident, $kind:literal, { $($variant:ident => $code:literal),+ $(,)? }) => {
@@ -67,31 +67,44 @@ macro_rules! stored_code {
     };
 }
 
-/// sqlx `Type`/`Encode`/`Decode` for the `Any` driver of a type with `code()` (a `&str` or
-/// a `String`) and `FromStr` (stored as its code; an unknown code fails the decode, and sqlx
-/// names the column beside it).
+/// sqlx `Type`/`Encode`/`Decode` of a type with `code()` (a `&str` or a `String`) and
+/// `FromStr`, for every engine that stores text (SQLite and PostgreSQL): stored as its code;
+/// an unknown code fails the decode, and sqlx names the column beside it.
 macro_rules! stored_as_text {
     ($ty:ty) => {
-        impl sqlx::Type<sqlx::Any> for $ty {
-            fn type_info() -> sqlx::any::AnyTypeInfo {
-                <str as sqlx::Type<sqlx::Any>>::type_info()
+        impl<DB: sqlx::Database> sqlx::Type<DB> for $ty
+        where
+            str: sqlx::Type<DB>,
+        {
+            fn type_info() -> <DB as sqlx::Database>::TypeInfo {
+                <str as sqlx::Type<DB>>::type_info()
+            }
+
+            fn compatible(ty: &<DB as sqlx::Database>::TypeInfo) -> bool {
+                <str as sqlx::Type<DB>>::compatible(ty)
             }
         }
 
-        impl<'q> sqlx::Encode<'q, sqlx::Any> for $ty {
+        impl<'q, DB: sqlx::Database> sqlx::Encode<'q, DB> for $ty
+        where
+            String: sqlx::Encode<'q, DB>,
+        {
             fn encode_by_ref(
                 &self,
-                buf: &mut <sqlx::Any as sqlx::Database>::ArgumentBuffer,
+                buf: &mut <DB as sqlx::Database>::ArgumentBuffer,
             ) -> Result<sqlx::encode::IsNull, sqlx::error::BoxDynError> {
-                <String as sqlx::Encode<'q, sqlx::Any>>::encode(String::from(self.code()), buf)
+                <String as sqlx::Encode<'q, DB>>::encode(String::from(self.code()), buf)
             }
         }
 
-        impl<'r> sqlx::Decode<'r, sqlx::Any> for $ty {
+        impl<'r, DB: sqlx::Database> sqlx::Decode<'r, DB> for $ty
+        where
+            &'r str: sqlx::Decode<'r, DB>,
+        {
             fn decode(
-                value: <sqlx::Any as sqlx::Database>::ValueRef<'r>,
+                value: <DB as sqlx::Database>::ValueRef<'r>,
             ) -> Result<Self, sqlx::error::BoxDynError> {
-                let code = <&str as sqlx::Decode<'r, sqlx::Any>>::decode(value)?;
+                let code = <&'r str as sqlx::Decode<'r, DB>>::decode(value)?;
                 Ok(code.parse::<$ty>()?)
             }
         }

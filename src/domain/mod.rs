@@ -4,8 +4,8 @@
 //!
 //! Why here and not in `reduction/`: these are values of the records (what a row says),
 //! not math. They are decoded once where rows leave `src/db/` (each implements sqlx's
-//! `Type`/`Encode`/`Decode` for the `Any` driver, so a row struct carries the enum and an
-//! unknown stored code fails the read naming the column and the code) and pages, charts,
+//! `Type`/`Encode`/`Decode` for SQLite and PostgreSQL alike, so a row struct carries the
+//! enum and an unknown stored code fails the read naming the column and the code) and pages, charts,
 //! the PDF and the API compare enums, never strings. `reduction/` stays pure and free of
 //! sqlx (it is also compiled to WebAssembly); where it has its own richer enum
 //! ([`crate::reduction::acceptance::AcceptanceRule`], `TestStanding`) the code here

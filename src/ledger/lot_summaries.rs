@@ -338,12 +338,6 @@ fn judgement_of(s: &SummaryRow) -> Result<StoredJudgement> {
     })
 }
 
-/// Tests entered on a project, counted from its settled summaries.
-pub async fn tests_entered(pool: &Pool, project_id: i64) -> Result<i64> {
-    settle(pool, project_id).await?;
-    Ok(db::lot_summaries::tests_entered(pool, project_id).await?)
-}
-
 /// Judges every lot again (of one project, or all) and stores the summaries: after a
 /// change of the reduction library's version. `progress` hears (project id, lots judged,
 /// lots marked).

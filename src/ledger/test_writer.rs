@@ -98,7 +98,7 @@ async fn write_group(pool: &Pool, group: Vec<Pending>, stored: &AtomicU64) {
     let written: std::result::Result<(), AppError> = async {
         let mut tx = db::begin_write(pool).await?;
         for p in &group {
-            let mut savepoint = sqlx::Acquire::begin(&mut tx).await?;
+            let mut savepoint = tx.begin().await?;
             match store_in(&mut savepoint, p.record.clone(), &p.actor, p.action).await {
                 Ok(stored) => {
                     savepoint.commit().await?;

@@ -82,7 +82,7 @@ async fn the_api_page_lists_the_document_and_sends_a_signed_in_get() {
     let (name, code): (String, String) =
         sqlx::query_as("SELECT name, code FROM projects WHERE id = $1")
             .bind(PROJECT)
-            .fetch_one(&rig.app.pool)
+            .fetch_one(&rig.app.sql)
             .await
             .expect("the demo project");
 

@@ -16,6 +16,8 @@ pub struct DemoApp {
     pub addr: SocketAddr,
     /// The server's own database, for checking what a form really saved.
     pub pool: db::Pool,
+    /// A raw pool on the same file for the tests' own SQL ([`crate::raw_sql`]).
+    pub sql: sqlx::AnyPool,
     _dir: tempfile::TempDir,
     stop: Option<oneshot::Sender<()>>,
 }
@@ -75,10 +77,12 @@ impl DemoApp {
             .expect("bind");
         let addr = listener.local_addr().expect("addr");
         let tx = Self::serve_on(listener, pool.clone(), demo);
+        let sql = crate::raw_sql::raw_of(&pool).await;
         (
             DemoApp {
                 addr,
                 pool,
+                sql,
                 _dir: dir,
                 stop: Some(tx),
             },
@@ -148,7 +152,7 @@ impl DemoApp {
     pub async fn field_test_count(&self) -> i64 {
         sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE project_id = $1")
             .bind(PROJECT)
-            .fetch_one(&self.pool)
+            .fetch_one(&self.sql)
             .await
             .expect("count field tests")
     }
@@ -157,7 +161,7 @@ impl DemoApp {
     pub async fn lot_test_count(&self, lot_id: i64) -> i64 {
         sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE lot_id = $1")
             .bind(lot_id)
-            .fetch_one(&self.pool)
+            .fetch_one(&self.sql)
             .await
             .expect("count lot tests")
     }
@@ -172,7 +176,7 @@ impl DemoApp {
                  WHERE l.id = $1",
             )
             .bind(lot_id)
-            .fetch_one(&self.pool)
+            .fetch_one(&self.sql)
             .await
             .expect("lot facts");
         LotFacts {
@@ -193,7 +197,7 @@ impl DemoApp {
         )
         .bind(PROJECT)
         .bind(number)
-        .fetch_all(&self.pool)
+        .fetch_all(&self.sql)
         .await
         .expect("field tests by number");
         rows.into_iter()

@@ -133,7 +133,7 @@ async fn open_lot_with_mapping(rig: &Rig) -> (i64, LotFacts) {
         "SELECT id FROM lots WHERE project_id = $1 AND state = 'open' ORDER BY id LIMIT 1",
     )
     .bind(PROJECT)
-    .fetch_one(&rig.app.pool)
+    .fetch_one(&rig.app.sql)
     .await
     .expect("the demo has an open lot");
     let lot = rig.app.lot(lot_id).await;

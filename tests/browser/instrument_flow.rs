@@ -9,7 +9,7 @@ async fn counts_of(rig: &Rig, serial: &str) -> i64 {
         "SELECT COUNT(*) FROM standard_counts WHERE instrument_id = (SELECT id FROM instruments WHERE serial = $1)",
     )
     .bind(serial)
-    .fetch_one(&rig.app.pool)
+    .fetch_one(&rig.app.sql)
     .await
     .expect("count")
 }

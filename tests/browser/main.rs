@@ -7,6 +7,8 @@
 
 mod app;
 mod pages;
+#[path = "../suite/raw_sql.rs"]
+mod raw_sql;
 mod webdriver;
 
 mod api_docs;

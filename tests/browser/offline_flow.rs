@@ -294,7 +294,7 @@ async fn three_tests_entered_offline_are_stored_exactly_once_when_the_network_is
         "SELECT number FROM field_tests WHERE lot_id = $1 ORDER BY id DESC LIMIT 3",
     )
     .bind(lot_id)
-    .fetch_all(&rig.app.pool)
+    .fetch_all(&rig.app.sql)
     .await
     .unwrap();
     let mut distinct = numbers.clone();
@@ -329,7 +329,7 @@ async fn a_server_restart_in_the_middle_of_the_sync_still_stores_each_test_once(
     assert_eq!(rig.app.lot_test_count(lot_id).await, before + 3);
     let keys: i64 = sqlx::query_scalar("SELECT COUNT(*) FROM idempotency_keys WHERE lot_id = $1")
         .bind(lot_id)
-        .fetch_one(&rig.app.pool)
+        .fetch_one(&rig.app.sql)
         .await
         .unwrap();
     assert_eq!(keys, 3);
@@ -348,7 +348,7 @@ async fn a_refused_queued_test_stays_with_its_reason_and_a_signed_out_queue_wait
         "SELECT number FROM field_tests WHERE project_id = $1 ORDER BY id LIMIT 1",
     )
     .bind(PROJECT)
-    .fetch_one(&rig.app.pool)
+    .fetch_one(&rig.app.sql)
     .await
     .unwrap();
 

@@ -309,7 +309,7 @@ async fn tech_first_test(b: &Session, app: &DemoApp, project: &str) {
     wait_for_new_page(b).await;
     let after = b.find("main").await.text().await;
     let saved: i64 = sqlx::query_scalar("SELECT COUNT(*) FROM field_tests")
-        .fetch_one(&app.pool)
+        .fetch_one(&app.sql)
         .await
         .expect("count");
     assert_eq!(saved, 1, "the entry form saved the test: {after}");
@@ -350,12 +350,12 @@ async fn a_contract_is_started_in_the_browser_from_an_empty_database() {
     tech.quit().await;
 
     let tests: i64 = sqlx::query_scalar("SELECT COUNT(*) FROM field_tests")
-        .fetch_one(&app.pool)
+        .fetch_one(&app.sql)
         .await
         .expect("count");
     assert_eq!(tests, 1, "one test, entered through the form");
     let lots: i64 = sqlx::query_scalar("SELECT COUNT(*) FROM lots")
-        .fetch_one(&app.pool)
+        .fetch_one(&app.sql)
         .await
         .expect("count");
     assert_eq!(lots, 3);

@@ -728,7 +728,7 @@ async fn sign_in_sets_a_guarded_cookie_rotates_it_and_idle_sessions_expire() {
     sqlx::query("UPDATE sessions SET last_seen_at = $1 WHERE token_hash = $2")
         .bind(stale)
         .bind(liftledger::auth::secret::digest(&second))
-        .execute(&app.pool)
+        .execute(&app.sql)
         .await
         .unwrap();
     let r = with_second.get(app.url("/api/v1/me")).send().await.unwrap();
@@ -777,13 +777,13 @@ async fn wrong_passwords_slow_down_and_are_audited() {
     let failures: i64 = sqlx::query_scalar(
         "SELECT COUNT(*) FROM audit_log WHERE action = 'sign_in_failed' AND actor = 't.tech'",
     )
-    .fetch_one(&app.pool)
+    .fetch_one(&app.sql)
     .await
     .unwrap();
     assert_eq!(failures, 5);
     // The wait is bounded: failures older than the window stop counting, and the real user gets in.
     sqlx::query("UPDATE sign_in_failures SET at = '2000-01-01T00:00:00Z'")
-        .execute(&app.pool)
+        .execute(&app.sql)
         .await
         .unwrap();
     let r = form_sign_in(&app, "t.tech", crate::helpers::TEST_PASSWORD, &[]).await;
@@ -854,12 +854,10 @@ async fn the_audit_trail_cannot_be_changed_even_with_raw_sql() {
     let n = app.count("audit_log").await;
     assert!(n >= 6);
     let upd = sqlx::query("UPDATE audit_log SET actor = 'someone else'")
-        .execute(&app.pool)
+        .execute(&app.sql)
         .await;
     assert!(upd.unwrap_err().to_string().contains("append-only"));
-    let del = sqlx::query("DELETE FROM audit_log")
-        .execute(&app.pool)
-        .await;
+    let del = sqlx::query("DELETE FROM audit_log").execute(&app.sql).await;
     assert!(del.unwrap_err().to_string().contains("append-only"));
     assert_eq!(app.count("audit_log").await, n);
 }
@@ -869,7 +867,7 @@ async fn a_broken_database_answers_a_plain_500_without_internals() {
     let app = spawn_app().await;
     let f = build_frame(&app, json!({"rule": "every_test"})).await;
     sqlx::query("DROP TABLE lot_transitions")
-        .execute(&app.pool)
+        .execute(&app.sql)
         .await
         .unwrap();
     let (s, e) = app.get(&format!("/api/v1/lots/{}/history", f.lot)).await;

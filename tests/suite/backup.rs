@@ -22,7 +22,7 @@ use crate::helpers::{
 /// Field-test numbers of a database, straight from its table.
 async fn numbers(pool: &db::Pool) -> BTreeSet<String> {
     sqlx::query_scalar::<_, String>("SELECT number FROM field_tests")
-        .fetch_all(pool)
+        .fetch_all(&crate::raw_sql::raw_of(pool).await)
         .await
         .expect("numbers")
         .into_iter()
@@ -106,7 +106,7 @@ async fn a_backup_taken_under_sixteen_writers_restores_every_acknowledged_test()
     .await
     .unwrap();
     let integrity: String = sqlx::query_scalar("PRAGMA integrity_check")
-        .fetch_one(&copy)
+        .fetch_one(&crate::raw_sql::raw_of(&copy).await)
         .await
         .unwrap();
     assert_eq!(integrity, "ok");
@@ -134,7 +134,7 @@ async fn a_backup_taken_under_sixteen_writers_restores_every_acknowledged_test()
     let audit: i64 = sqlx::query_scalar(
         "SELECT COUNT(*) FROM audit_log WHERE entity = 'field_test' AND action = 'create'",
     )
-    .fetch_one(&restored)
+    .fetch_one(&crate::raw_sql::raw_of(&restored).await)
     .await
     .unwrap();
     assert_eq!(
@@ -144,7 +144,7 @@ async fn a_backup_taken_under_sixteen_writers_restores_every_acknowledged_test()
     );
     if engine() == db::Engine::Sqlite {
         let integrity: String = sqlx::query_scalar("PRAGMA integrity_check")
-            .fetch_one(&restored)
+            .fetch_one(&crate::raw_sql::raw_of(&restored).await)
             .await
             .unwrap();
         assert_eq!(integrity, "ok");
@@ -198,7 +198,7 @@ async fn the_archive_holds_every_certificate_revision_the_records_and_the_audit_
     let certs: Vec<(String, i64, String, Vec<u8>)> = sqlx::query_as(
         "SELECT number, revision, sha256, pdf FROM certificates WHERE project_id = 1",
     )
-    .fetch_all(&app.pool)
+    .fetch_all(&app.sql)
     .await
     .unwrap();
     assert!(certs.iter().any(|c| c.1 == 2), "the demo has a revision 2");
@@ -219,7 +219,7 @@ async fn the_archive_holds_every_certificate_revision_the_records_and_the_audit_
         let pool = app.pool.clone();
         async move {
             sqlx::query_scalar::<_, i64>(sql)
-                .fetch_one(&pool)
+                .fetch_one(&crate::raw_sql::raw_of(&pool).await)
                 .await
                 .unwrap() as usize
         }
@@ -945,12 +945,12 @@ async fn scheduled_backups_are_checked_pruned_and_a_failure_is_shown_to_admins_o
         .await
         .unwrap();
         let integrity: String = sqlx::query_scalar("PRAGMA integrity_check")
-            .fetch_one(&copy)
+            .fetch_one(&crate::raw_sql::raw_of(&copy).await)
             .await
             .unwrap();
         assert_eq!(integrity, "ok", "{}", f.display());
         let tests: i64 = sqlx::query_scalar("SELECT COUNT(*) FROM field_tests")
-            .fetch_one(&copy)
+            .fetch_one(&crate::raw_sql::raw_of(&copy).await)
             .await
             .unwrap();
         assert!(tests > 400, "the demo's tests are in {}", f.display());

@@ -42,13 +42,13 @@ async fn sixteen_concurrent_writers_all_succeed() {
     assert_eq!(ok, 160);
     assert_eq!(app.count("field_tests").await, 160);
     let distinct: i64 = sqlx::query_scalar("SELECT COUNT(DISTINCT number) FROM field_tests")
-        .fetch_one(&app.pool)
+        .fetch_one(&app.sql)
         .await
         .unwrap();
     assert_eq!(distinct, 160);
     let audit: i64 =
         sqlx::query_scalar("SELECT COUNT(*) FROM audit_log WHERE entity = 'field_test'")
-            .fetch_one(&app.pool)
+            .fetch_one(&app.sql)
             .await
             .unwrap();
     assert_eq!(audit, 160);
@@ -99,7 +99,7 @@ async fn a_refused_test_among_simultaneous_ones_is_refused_alone() {
     assert_eq!(app.count("field_tests").await, 20);
     let audit: i64 =
         sqlx::query_scalar("SELECT COUNT(*) FROM audit_log WHERE entity = 'field_test'")
-            .fetch_one(&app.pool)
+            .fetch_one(&app.sql)
             .await
             .unwrap();
     assert_eq!(

@@ -56,7 +56,7 @@ async fn burst(apps: &[&TestApp], n: usize) -> (usize, usize, usize) {
 
 async fn failed_sign_ins(app: &TestApp) -> i64 {
     sqlx::query_scalar("SELECT COUNT(*) FROM audit_log WHERE action = 'sign_in_failed'")
-        .fetch_one(&app.pool)
+        .fetch_one(&app.sql)
         .await
         .unwrap()
 }
@@ -141,7 +141,7 @@ async fn forwarded_addresses_count_only_behind_a_trusted_proxy() {
     let origins: Vec<String> = sqlx::query_scalar(
         "SELECT origin FROM audit_log WHERE action = 'sign_in_failed' ORDER BY id",
     )
-    .fetch_all(&proxied.pool)
+    .fetch_all(&proxied.sql)
     .await
     .unwrap();
     assert_eq!(origins[6], "203.0.113.6", "{origins:?}");
@@ -421,7 +421,7 @@ async fn a_slow_client_is_cut_off_and_no_header_names_the_actor() {
     assert_eq!(r.status().as_u16(), 201);
     let actors: Vec<String> =
         sqlx::query_scalar("SELECT actor FROM audit_log WHERE entity = 'field_test'")
-            .fetch_all(&app.pool)
+            .fetch_all(&app.sql)
             .await
             .unwrap();
     assert_eq!(actors, vec!["T. Quality (t.qc)".to_string()]);

@@ -117,7 +117,7 @@ async fn an_unknown_stored_code_fails_the_read_naming_column_and_code() {
         .await;
     assert_eq!(s, 201, "{t}");
     sqlx::query("UPDATE field_tests SET instrument_check = 'gauge_on_holiday'")
-        .execute(&app.pool)
+        .execute(&app.sql)
         .await
         .unwrap();
 

@@ -50,7 +50,10 @@ pub struct TestApp {
     pub clients: Vec<(As, reqwest::Client)>,
     /// A client with no session at all.
     pub anonymous: reqwest::Client,
+    /// The server's pool (native drivers): for calling `liftledger::db` functions.
     pub pool: db::Pool,
+    /// A raw pool on the same database for the tests' own SQL ([`crate::raw_sql`]).
+    pub sql: sqlx::AnyPool,
     /// The server's own state (its ledger handle: writer and caches).
     pub state: AppState,
     /// Where the database is (an SQLite file, or a fresh PostgreSQL database).
@@ -169,6 +172,7 @@ impl TestApp {
         if let Some(h) = self.handle.take() {
             let _ = h.await;
         }
+        self.sql.close().await;
         self.pool.close().await;
         (self._dir.clone(), self.location.clone())
     }
@@ -177,7 +181,7 @@ impl TestApp {
     pub async fn count(&self, table: &str) -> i64 {
         let sql = format!("SELECT COUNT(*) FROM {table}");
         sqlx::query_scalar(sqlx::AssertSqlSafe(sql))
-            .fetch_one(&self.pool)
+            .fetch_one(&self.sql)
             .await
             .expect("count")
     }
@@ -267,6 +271,7 @@ pub async fn spawn_with(
         let _ = tracing_subscriber::fmt().with_env_filter("info").try_init();
     }
     let pool = db::connect(&location).await.expect("open db");
+    let sql = crate::raw_sql::raw_pool(&location).await;
     let listener = tokio::net::TcpListener::bind("127.0.0.1:0")
         .await
         .expect("bind");
@@ -305,6 +310,7 @@ pub async fn spawn_with(
         clients,
         anonymous: client_with(&origin, None),
         pool,
+        sql,
         state,
         location,
         _dir: dir,

@@ -31,7 +31,7 @@ async fn post_keyed(app: &TestApp, lot: i64, key: &str, body: &Value) -> (u16, S
 
 async fn count(app: &TestApp, sql: &str) -> i64 {
     sqlx::query_scalar::<_, i64>(sqlx::AssertSqlSafe(sql.to_string()))
-        .fetch_one(&app.pool)
+        .fetch_one(&app.sql)
         .await
         .expect("count")
 }

@@ -236,7 +236,7 @@ async fn the_import_page_checks_a_file_lists_its_bad_rows_then_imports_the_fixed
     let numbers: Vec<String> =
         sqlx::query_scalar("SELECT number FROM field_tests WHERE project_id = $1 ORDER BY number")
             .bind(f.project)
-            .fetch_all(&app.pool)
+            .fetch_all(&app.sql)
             .await
             .unwrap();
     assert_eq!(numbers, ["P-00", "P-01", "P-02", "P-03", "P-04", "P-05"]);
@@ -259,7 +259,7 @@ async fn the_import_page_checks_a_file_lists_its_bad_rows_then_imports_the_fixed
     let who: String = sqlx::query_scalar(
         "SELECT actor FROM audit_log WHERE entity = 'field_test_import' ORDER BY id DESC",
     )
-    .fetch_one(&app.pool)
+    .fetch_one(&app.sql)
     .await
     .unwrap();
     assert!(

@@ -615,7 +615,7 @@ async fn the_register_imports_from_csv_all_or_nothing_and_lists_calibrations_due
     );
     // Every register change is audited.
     let audited: i64 = sqlx::query_scalar("SELECT COUNT(*) FROM audit_log WHERE entity IN ('instrument', 'instrument_record', 'instrument_assignment')")
-        .fetch_one(&app.pool)
+        .fetch_one(&app.sql)
         .await
         .unwrap();
     assert_eq!(audited, 2 + 2 + 1);

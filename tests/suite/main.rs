@@ -1,6 +1,7 @@
 //! liftledger's integration tests: one binary, real SQLite files, real servers on loopback.
 
 mod helpers;
+mod raw_sql;
 
 mod access;
 mod api_flow;

@@ -98,7 +98,7 @@ async fn schema_ahead_is_not_ready(app: &crate::helpers::TestApp, base: &str) {
              VALUES (9999, 'from a newer build', true, '\\x00', 0)"
         }
     };
-    sqlx::query(insert).execute(&app.pool).await.unwrap();
+    sqlx::query(insert).execute(&app.sql).await.unwrap();
     let (s, v) = readyz(&app.anonymous, base).await;
     assert_eq!(s, 503, "{v}");
     assert_eq!(v["check"], "migrations", "{v}");
@@ -107,7 +107,7 @@ async fn schema_ahead_is_not_ready(app: &crate::helpers::TestApp, base: &str) {
         "the reason names the schema's migration: {v}"
     );
     sqlx::query("DELETE FROM _sqlx_migrations WHERE version = 9999")
-        .execute(&app.pool)
+        .execute(&app.sql)
         .await
         .unwrap();
     assert_eq!(readyz(&app.anonymous, base).await.0, 200);
@@ -124,7 +124,7 @@ async fn sqlite_file_goes_away(app: &crate::helpers::TestApp, base: &str) {
     assert_eq!(v["check"], "database", "{v}");
     assert!(!path.exists(), "the probe must not create the file again");
     let still: i64 = sqlx::query_scalar("SELECT COUNT(*) FROM users")
-        .fetch_one(&app.pool)
+        .fetch_one(&app.sql)
         .await
         .expect("a pooled connection still reads the moved file");
     assert!(still > 0);

@@ -36,19 +36,12 @@ async fn restart_keeps_every_record() {
     if crate::helpers::engine() != liftledger::db::Engine::Sqlite {
         return;
     }
-    let mode: String = sqlx::query_scalar("PRAGMA journal_mode")
-        .fetch_one(&app.pool)
+    // Read on one of the server's own connections: the settings it runs with.
+    let settings = liftledger::db::health::sqlite_settings(&app.pool)
         .await
-        .unwrap();
-    assert_eq!(mode, "wal");
-    let fk: i64 = sqlx::query_scalar("PRAGMA foreign_keys")
-        .fetch_one(&app.pool)
-        .await
-        .unwrap();
-    assert_eq!(fk, 1);
-    let sync: i64 = sqlx::query_scalar("PRAGMA synchronous")
-        .fetch_one(&app.pool)
-        .await
-        .unwrap();
-    assert_eq!(sync, 2, "synchronous=FULL");
+        .unwrap()
+        .expect("an SQLite pool");
+    assert_eq!(settings.journal_mode, "wal");
+    assert!(settings.foreign_keys);
+    assert_eq!(settings.synchronous, 2, "synchronous=FULL");
 }

@@ -203,7 +203,7 @@ async fn two_servers_on_one_postgres_take_tests_and_issue_consecutive_certificat
         }
     }
     let certs_before: i64 = sqlx::query_scalar("SELECT COUNT(*) FROM certificates")
-        .fetch_one(&pool)
+        .fetch_one(&crate::raw_sql::raw_of(&pool).await)
         .await
         .unwrap();
 
@@ -263,7 +263,7 @@ async fn two_servers_on_one_postgres_take_tests_and_issue_consecutive_certificat
     let seqs: Vec<i64> = sqlx::query_scalar(
         "SELECT sequence FROM certificates WHERE revision = 1 ORDER BY sequence",
     )
-    .fetch_all(&pool)
+    .fetch_all(&crate::raw_sql::raw_of(&pool).await)
     .await
     .unwrap();
     assert_eq!(
@@ -272,14 +272,14 @@ async fn two_servers_on_one_postgres_take_tests_and_issue_consecutive_certificat
         "no gap, no duplicate"
     );
     let certs_after: i64 = sqlx::query_scalar("SELECT COUNT(*) FROM certificates")
-        .fetch_one(&pool)
+        .fetch_one(&crate::raw_sql::raw_of(&pool).await)
         .await
         .unwrap();
     assert_eq!(certs_after - certs_before, 16);
     // Every test has a unique number and its audit row; nothing was lost.
     let (n, distinct): (i64, i64) =
         sqlx::query_as("SELECT COUNT(*), COUNT(DISTINCT number) FROM field_tests")
-            .fetch_one(&pool)
+            .fetch_one(&crate::raw_sql::raw_of(&pool).await)
             .await
             .unwrap();
     assert_eq!(n, distinct);
@@ -288,14 +288,14 @@ async fn two_servers_on_one_postgres_take_tests_and_issue_consecutive_certificat
     let audited: i64 = sqlx::query_scalar(
         "SELECT COUNT(DISTINCT entity_id) FROM audit_log WHERE entity = 'field_test' AND action IN ('create', 'retest')",
     )
-    .fetch_one(&pool)
+    .fetch_one(&crate::raw_sql::raw_of(&pool).await)
     .await
     .unwrap();
     assert_eq!(audited, n);
     let issued: i64 = sqlx::query_scalar(
         "SELECT COUNT(*) FROM audit_log WHERE entity = 'certificate' AND action = 'issue'",
     )
-    .fetch_one(&pool)
+    .fetch_one(&crate::raw_sql::raw_of(&pool).await)
     .await
     .unwrap();
     assert_eq!(issued, certs_after);
@@ -329,7 +329,7 @@ async fn when_one_server_dies_mid_load_the_other_keeps_serving_and_nothing_is_ha
     .unwrap();
     let mut servers = [Server::start(&location), Server::start(&location)];
     let lot: i64 = sqlx::query_scalar("SELECT id FROM lots WHERE code = 'EF08-1'")
-        .fetch_one(&pool)
+        .fetch_one(&crate::raw_sql::raw_of(&pool).await)
         .await
         .unwrap();
     let bases: Vec<String> = servers.iter().map(|s| s.base.clone()).collect();
@@ -379,14 +379,14 @@ async fn when_one_server_dies_mid_load_the_other_keeps_serving_and_nothing_is_ha
     // Every stored test is whole: it has its audit row, and numbers are unique.
     let (n, distinct): (i64, i64) =
         sqlx::query_as("SELECT COUNT(*), COUNT(DISTINCT number) FROM field_tests")
-            .fetch_one(&pool)
+            .fetch_one(&crate::raw_sql::raw_of(&pool).await)
             .await
             .unwrap();
     assert_eq!(n, distinct);
     let audited: i64 = sqlx::query_scalar(
         "SELECT COUNT(DISTINCT entity_id) FROM audit_log WHERE entity = 'field_test' AND action IN ('create', 'retest')",
     )
-    .fetch_one(&pool)
+    .fetch_one(&crate::raw_sql::raw_of(&pool).await)
     .await
     .unwrap();
     assert_eq!(audited, n, "no test without its audit row");
@@ -427,7 +427,7 @@ async fn copy_round_trips_sqlite_postgres_sqlite_with_identical_verdicts_and_cer
         }
         let pdfs = |p: db::Pool| async move {
             sqlx::query_as::<_, (i64, Vec<u8>)>("SELECT id, pdf FROM certificates ORDER BY id")
-                .fetch_all(&p)
+                .fetch_all(&crate::raw_sql::raw_of(&p).await)
                 .await
                 .unwrap()
         };
@@ -441,7 +441,7 @@ async fn copy_round_trips_sqlite_postgres_sqlite_with_identical_verdicts_and_cer
     }
     // The copy keeps working: a new lot gets the next id on PostgreSQL.
     let before: i64 = sqlx::query_scalar("SELECT MAX(id) FROM audit_log")
-        .fetch_one(&pg_pool)
+        .fetch_one(&crate::raw_sql::raw_of(&pg_pool).await)
         .await
         .unwrap();
     let _ = As::Qc;
@@ -458,7 +458,7 @@ async fn copy_round_trips_sqlite_postgres_sqlite_with_identical_verdicts_and_cer
     .await
     .unwrap();
     let after: i64 = sqlx::query_scalar("SELECT MAX(id) FROM audit_log")
-        .fetch_one(&pg_pool)
+        .fetch_one(&crate::raw_sql::raw_of(&pg_pool).await)
         .await
         .unwrap();
     assert_eq!(after, before + 1);

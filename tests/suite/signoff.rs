@@ -144,7 +144,7 @@ async fn no_contractor_can_sign_and_tokens_die_with_their_maker() {
     let (s, _) = answer(short.get(app.url(&format!("/api/v1/lots/{}", f.lot)))).await;
     assert_eq!(s, 200);
     sqlx::query("UPDATE api_tokens SET expires_at = '2020-01-01T00:00:00Z' WHERE name = 'short'")
-        .execute(&app.pool)
+        .execute(&app.sql)
         .await
         .unwrap();
     let (s, _) = answer(short.get(app.url(&format!("/api/v1/lots/{}", f.lot)))).await;
@@ -403,14 +403,14 @@ async fn imported_tests_show_their_import_and_sessions_end_on_the_record() {
         "UPDATE sessions SET last_seen_at = '2020-01-01T00:00:00Z' WHERE ended_at IS NULL AND user_id = $1",
     )
     .bind(db_user(&app, "t.tech").await)
-    .execute(&app.pool)
+    .execute(&app.sql)
     .await
     .unwrap();
     let (s, _) = app.get_as(As::Tech, "/api/v1/me").await;
     assert_eq!(s, 401);
     let actions: Vec<String> =
         sqlx::query_scalar("SELECT action FROM audit_log WHERE entity = 'session' ORDER BY id")
-            .fetch_all(&app.pool)
+            .fetch_all(&app.sql)
             .await
             .unwrap();
     assert!(actions.contains(&"sign_out".to_string()), "{actions:?}");
@@ -433,7 +433,7 @@ async fn sessions_end_after_seven_days_however_busy() {
         .bind(&eight_days_ago)
         .bind(&now)
         .bind(db_user(&app, "t.viewer").await)
-        .execute(&app.pool)
+        .execute(&app.sql)
         .await
         .unwrap();
     let (s, _) = app.get_as(As::Viewer, "/api/v1/me").await;

@@ -10,7 +10,7 @@ use crate::helpers::{TestApp, build_frame, nuclear_test, page, spawn_app};
 async fn stored(app: &TestApp, lot: i64) -> (String, i64) {
     sqlx::query_as("SELECT display_state, tests_entered FROM lot_summaries WHERE lot_id = $1")
         .bind(lot)
-        .fetch_one(&app.pool)
+        .fetch_one(&app.sql)
         .await
         .expect("a stored summary")
 }
@@ -74,7 +74,7 @@ async fn every_kind_of_change_marks_its_lot_and_views_show_the_stored_summary() 
     // A write that bypasses the application still marks the lot (the trigger does).
     sqlx::query("UPDATE lots SET state = 'submitted' WHERE id = $1")
         .bind(f.lot)
-        .execute(&app.pool)
+        .execute(&app.sql)
         .await
         .unwrap();
     assert!(marks(&app).await > 0, "a change of the lot's row marks it");
@@ -85,7 +85,7 @@ async fn every_kind_of_change_marks_its_lot_and_views_show_the_stored_summary() 
     // An edit of the lot's curve marks every lot judged against it.
     sqlx::query("UPDATE lab_tests SET code = code WHERE id = $1")
         .bind(f.lab_test)
-        .execute(&app.pool)
+        .execute(&app.sql)
         .await
         .unwrap();
     assert!(
@@ -115,7 +115,7 @@ async fn the_map_reads_the_stored_rows_and_rejudge_rebuilds_them() {
     let judged: String =
         sqlx::query_scalar("SELECT judged_json FROM lot_summaries WHERE lot_id = $1")
             .bind(f.lot)
-            .fetch_one(&app.pool)
+            .fetch_one(&app.sql)
             .await
             .unwrap();
     let altered = judged.replacen("\"tests_entered\":2", "\"tests_entered\":777", 1);
@@ -123,7 +123,7 @@ async fn the_map_reads_the_stored_rows_and_rejudge_rebuilds_them() {
     sqlx::query("UPDATE lot_summaries SET judged_json = $1 WHERE lot_id = $2")
         .bind(&altered)
         .bind(f.lot)
-        .execute(&app.pool)
+        .execute(&app.sql)
         .await
         .unwrap();
     // The revision moves only when summaries are settled; start a new server to drop the
@@ -204,7 +204,7 @@ async fn concurrent_tests_and_views_leave_the_summary_equal_to_the_record() {
     assert_eq!(marks(&app).await, 0);
     // Forty automatic numbers, each once, T-0001 to T-0040.
     let mut numbers: Vec<String> = sqlx::query_scalar("SELECT number FROM field_tests")
-        .fetch_all(&app.pool)
+        .fetch_all(&app.sql)
         .await
         .unwrap();
     numbers.sort();

@@ -165,27 +165,27 @@ async fn comma_semicolon_and_tab_files_with_bom_and_quotes_import() {
     let t: (String, f64, f64) = sqlx::query_as(
         "SELECT technician, chainage_m, offset_m FROM field_tests WHERE number = 'C-1'",
     )
-    .fetch_one(&app.pool)
+    .fetch_one(&app.sql)
     .await
     .unwrap();
     assert_eq!(t, ("O'Neil, \"Jr.\"".to_string(), 1010.0, 1.5));
     let (tech, tested_at): (String, String) =
         sqlx::query_as("SELECT technician, tested_at FROM field_tests WHERE number = 'C-3'")
-            .fetch_one(&app.pool)
+            .fetch_one(&app.sql)
             .await
             .unwrap();
     assert_eq!(tech, "two\nlines");
     assert_eq!(tested_at, "2026-11-20T10:30:00Z");
     let (ch, off): (f64, f64) =
         sqlx::query_as("SELECT chainage_m, offset_m FROM field_tests WHERE number = 'S-1'")
-            .fetch_one(&app.pool)
+            .fetch_one(&app.sql)
             .await
             .unwrap();
     assert_eq!((ch, off), (1040.25, 1.5));
     let (ch, wet, dry): (f64, f64, f64) = sqlx::query_as(
         "SELECT chainage_m, wet_density_kg_m3, dry_density_kg_m3 FROM field_tests WHERE number = 'U-1'",
     )
-    .fetch_one(&app.pool)
+    .fetch_one(&app.sql)
     .await
     .unwrap();
     // 33+46.46 = 3346.46 ft × 0.3048 m/ft = 1020.001008 m (international foot).
@@ -196,7 +196,7 @@ async fn comma_semicolon_and_tab_files_with_bom_and_quotes_import() {
     let audits: Vec<String> = sqlx::query_scalar(
         "SELECT after_json FROM audit_log WHERE entity = 'field_test_import' ORDER BY id",
     )
-    .fetch_all(&app.pool)
+    .fetch_all(&app.sql)
     .await
     .unwrap();
     assert_eq!(audits.len(), 4);
@@ -316,7 +316,7 @@ async fn a_large_file_is_checked_row_by_row_then_committed_at_once() {
     );
     let per_lot: i64 = sqlx::query_scalar("SELECT COUNT(*) FROM field_tests WHERE lot_id = $1")
         .bind(f.lot)
-        .fetch_one(&app.pool)
+        .fetch_one(&app.sql)
         .await
         .unwrap();
     assert_eq!(per_lot, n as i64);
@@ -378,11 +378,11 @@ async fn repeated_rows_retests_and_their_rules() {
     let (ch, off, retest_of): (f64, f64, Option<i64>) = sqlx::query_as(
         "SELECT chainage_m, offset_m, retest_of FROM field_tests WHERE number = 'R-1A'",
     )
-    .fetch_one(&app.pool)
+    .fetch_one(&app.sql)
     .await
     .unwrap();
     let failed_id: i64 = sqlx::query_scalar("SELECT id FROM field_tests WHERE number = 'R-1'")
-        .fetch_one(&app.pool)
+        .fetch_one(&app.sql)
         .await
         .unwrap();
     assert_eq!((ch, off, retest_of), (1010.0, 1.5, Some(failed_id)));
@@ -458,7 +458,7 @@ async fn mappings_are_saved_per_project_by_name() {
     let app = spawn_app().await;
     let f = build_frame(&app, json!({"rule": "every_test"})).await;
     sqlx::query(IMPORT_MAPPINGS_SQL)
-        .execute(&app.pool)
+        .execute(&app.sql)
         .await
         .unwrap();
     let actor = Actor::system("T. Quality");
@@ -588,7 +588,7 @@ async fn exported_project(app: &TestApp) -> Frame {
     let r = run(app, &f, &csv_bytes(b',', false, &rows), &mapping(), true).await;
     assert!(r.committed, "{:?}", r.problems);
     let id: i64 = sqlx::query_scalar("SELECT id FROM field_tests WHERE number = 'X-4'")
-        .fetch_one(&app.pool)
+        .fetch_one(&app.sql)
         .await
         .unwrap();
     liftledger::ledger::field::void_test(
@@ -795,7 +795,7 @@ async fn digest_of(pool: &db::Pool, prefix: &str) -> (i64, String) {
         "SELECT id, number, dry_density_kg_m3, readings_json FROM field_tests WHERE number LIKE $1 ORDER BY id",
     )
     .bind(format!("{prefix}%"))
-    .fetch_all(pool)
+    .fetch_all(&crate::raw_sql::raw_of(pool).await)
     .await
     .unwrap();
     let mut h = sha2::Sha256::new();
@@ -863,12 +863,12 @@ async fn killed_mid_commit(child: impl FnOnce(&Path, &Path, &Path) -> std::proce
 
     let pool = db::open(&db_path).await.expect("reopens");
     let check: String = sqlx::query_scalar("PRAGMA integrity_check")
-        .fetch_one(&pool)
+        .fetch_one(&crate::raw_sql::raw_of(&pool).await)
         .await
         .unwrap();
     assert_eq!(check, "ok");
     let total: i64 = sqlx::query_scalar("SELECT COUNT(*) FROM field_tests")
-        .fetch_one(&pool)
+        .fetch_one(&crate::raw_sql::raw_of(&pool).await)
         .await
         .unwrap();
     assert!(

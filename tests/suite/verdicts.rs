@@ -281,7 +281,7 @@ async fn a_curve_with_a_concern_is_a_reference_only_once_approved() {
         "SELECT COUNT(*) FROM audit_log WHERE entity = 'lab_test' AND action = 'approve' AND entity_id = $1",
     )
     .bind(id)
-    .fetch_one(&app.pool)
+    .fetch_one(&app.sql)
     .await
     .unwrap();
     assert_eq!(approvals, 1);
@@ -631,7 +631,7 @@ async fn a_test_that_cannot_be_judged_is_out_of_the_statistics_and_blocks_submis
     )
     .bind(80.0)
     .bind("J-1")
-    .execute(&app.pool)
+    .execute(&app.sql)
     .await
     .unwrap();
     let (_, r) = app.get(&format!("/api/v1/lots/{}", f.lot)).await;
@@ -950,7 +950,7 @@ async fn curves_stored_before_the_rules_are_rechecked_at_start_and_certificates_
     sqlx::query("UPDATE lab_tests SET points_json = $1, approval = 'not_needed', quality_checked = 0 WHERE id = $2")
         .bind(unbracketed_points().to_string())
         .bind(f.lab_test)
-        .execute(&app.pool)
+        .execute(&app.sql)
         .await
         .unwrap();
     // And a curve whose points today's fit refuses (three distinct water contents).
@@ -972,7 +972,7 @@ async fn curves_stored_before_the_rules_are_rechecked_at_start_and_certificates_
     sqlx::query("UPDATE lab_tests SET points_json = $1, quality_checked = 0 WHERE id = $2")
         .bind(three.to_string())
         .bind(old["id"].as_i64().unwrap())
-        .execute(&app.pool)
+        .execute(&app.sql)
         .await
         .unwrap();
     let (dir, location) = app.stop().await;
@@ -992,7 +992,7 @@ async fn curves_stored_before_the_rules_are_rechecked_at_start_and_certificates_
         "SELECT COUNT(*) FROM audit_log WHERE action = 'quality_check' AND entity_id = $1",
     )
     .bind(f.lab_test)
-    .fetch_one(&app.pool)
+    .fetch_one(&app.sql)
     .await
     .unwrap();
     assert_eq!(checks, 1, "the change is on record");
@@ -1016,7 +1016,7 @@ async fn curves_stored_before_the_rules_are_rechecked_at_start_and_certificates_
     let app = crate::helpers::spawn_on(dir, location).await;
     let checks: i64 =
         sqlx::query_scalar("SELECT COUNT(*) FROM audit_log WHERE action = 'quality_check'")
-            .fetch_one(&app.pool)
+            .fetch_one(&app.sql)
             .await
             .unwrap();
     assert_eq!(checks, 2, "one per curve, once");
