@@ -45,8 +45,17 @@ async fn plan_drift_and_charts_in_a_browser() {
     };
     let b = &rig.browser;
 
-    // The project home warns that the Halvery cut material may have changed.
-    rig.open(&format!("/projects/{PROJECT}")).await;
+    // The project home warns that the Halvery cut material may have changed. The drift
+    // checks run apart from the view; while one is under way the page says so, and a
+    // reload shows its notes.
+    for _ in 0..50 {
+        rig.open(&format!("/projects/{PROJECT}")).await;
+        if b.try_find("#drift-pending").await.is_none() {
+            break;
+        }
+        tokio::time::sleep(std::time::Duration::from_millis(200)).await;
+    }
+    assert!(b.try_find("#drift-pending").await.is_none(), "the drift run finishes");
     let warn = b.wait_for(".drift-warning").await;
     let text = warn.text().await;
     assert!(
