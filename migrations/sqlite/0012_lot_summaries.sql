@@ -156,3 +156,109 @@ CREATE TRIGGER project_added_counts_tests AFTER INSERT ON projects
 BEGIN
     INSERT INTO test_counters (project_id, last_number) VALUES (NEW.id, 0);
 END;
+
+-- The instrument register's revision: every change of a register table moves it, so a
+-- server keeps the register a project's tests are checked against and reads one number
+-- per test instead of the register's seven tables. Register changes are rare; the row
+-- they update is nobody else's.
+CREATE TABLE register_revision (
+    id       INTEGER PRIMARY KEY CHECK (id = 1),
+    revision INTEGER NOT NULL
+);
+INSERT INTO register_revision (id, revision) VALUES (1, 0);
+CREATE TRIGGER instruments_insert_moves_register AFTER INSERT ON instruments
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;
+CREATE TRIGGER instruments_update_moves_register AFTER UPDATE ON instruments
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;
+CREATE TRIGGER instruments_delete_moves_register AFTER DELETE ON instruments
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;
+CREATE TRIGGER instrument_records_insert_moves_register AFTER INSERT ON instrument_records
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;
+CREATE TRIGGER instrument_records_update_moves_register AFTER UPDATE ON instrument_records
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;
+CREATE TRIGGER instrument_records_delete_moves_register AFTER DELETE ON instrument_records
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;
+CREATE TRIGGER instrument_assignments_insert_moves_register AFTER INSERT ON instrument_assignments
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;
+CREATE TRIGGER instrument_assignments_update_moves_register AFTER UPDATE ON instrument_assignments
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;
+CREATE TRIGGER instrument_assignments_delete_moves_register AFTER DELETE ON instrument_assignments
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;
+CREATE TRIGGER gauge_operators_insert_moves_register AFTER INSERT ON gauge_operators
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;
+CREATE TRIGGER gauge_operators_update_moves_register AFTER UPDATE ON gauge_operators
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;
+CREATE TRIGGER gauge_operators_delete_moves_register AFTER DELETE ON gauge_operators
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;
+CREATE TRIGGER standard_counts_insert_moves_register AFTER INSERT ON standard_counts
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;
+CREATE TRIGGER standard_counts_update_moves_register AFTER UPDATE ON standard_counts
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;
+CREATE TRIGGER standard_counts_delete_moves_register AFTER DELETE ON standard_counts
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;
+CREATE TRIGGER instrument_tolerances_insert_moves_register AFTER INSERT ON instrument_tolerances
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;
+CREATE TRIGGER instrument_tolerances_update_moves_register AFTER UPDATE ON instrument_tolerances
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;
+CREATE TRIGGER instrument_tolerances_delete_moves_register AFTER DELETE ON instrument_tolerances
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;
+CREATE TRIGGER clause_instrument_policy_insert_moves_register AFTER INSERT ON clause_instrument_policy
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;
+CREATE TRIGGER clause_instrument_policy_update_moves_register AFTER UPDATE ON clause_instrument_policy
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;
+CREATE TRIGGER clause_instrument_policy_delete_moves_register AFTER DELETE ON clause_instrument_policy
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;
+CREATE TRIGGER gauge_offsets_insert_moves_register AFTER INSERT ON gauge_offsets
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;
+CREATE TRIGGER gauge_offsets_update_moves_register AFTER UPDATE ON gauge_offsets
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;
+CREATE TRIGGER gauge_offsets_delete_moves_register AFTER DELETE ON gauge_offsets
+BEGIN
+    UPDATE register_revision SET revision = revision + 1 WHERE id = 1;
+END;

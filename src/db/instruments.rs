@@ -599,3 +599,12 @@ pub async fn is_qc_manager_anywhere(pool: &Pool, user_id: i64) -> sqlx::Result<b
     .await)?;
     Ok(n > 0)
 }
+
+/// The register's revision (migration 0012): moved by every change of a register table.
+pub async fn register_revision(pool: &Pool) -> sqlx::Result<i64> {
+    on_pool!(pool, |p| sqlx::query_scalar(
+        "SELECT revision FROM register_revision WHERE id = 1"
+    )
+    .fetch_one(p)
+    .await)
+}

@@ -15,7 +15,7 @@ use super::field::{
     self, FieldTestInput, LotContext, RetestTarget, RuleCache, Spot, require_lot,
     require_lot_takes_tests, require_test, retest_refusal, sampled_lot_refusal,
 };
-use super::instruments::check::{Arrival, InstrumentBook, check_with_instruments};
+use super::instruments::check::{Arrival, check_with_instruments};
 use super::lot_report::{self, TestLine};
 use super::overview::SummaryCache;
 use super::test_writer::TestWriter;
@@ -40,6 +40,8 @@ struct Parts {
     views: SummaryCache,
     /// Drift warnings per project, reused while the project's revision holds.
     drift: DriftCache,
+    /// The instrument register per project, reused while the register's revision holds.
+    books: super::instruments::check::BookCache,
 }
 
 impl Ledger {
@@ -51,6 +53,7 @@ impl Ledger {
             rules: RuleCache::default(),
             views: SummaryCache::default(),
             drift: DriftCache::default(),
+            books: Default::default(),
         }))
     }
 
@@ -113,7 +116,15 @@ impl Ledger {
         actor: &Actor,
         key: &str,
     ) -> Result<super::idempotent::Keyed> {
-        super::idempotent::record_once(self.pool(), self.rules(), lot_id, input, actor, key).await
+        super::idempotent::record_once(
+            self.pool(),
+            (self.rules(), &self.0.books),
+            lot_id,
+            input,
+            actor,
+            key,
+        )
+        .await
     }
 
     /// Records a retest of a failed test at the same spot; the failure stays on record.
@@ -196,7 +207,7 @@ impl Ledger {
         retest_of: Option<&db::field_tests::FieldTest>,
         actor: &Actor,
     ) -> Result<db::field_tests::FieldTest> {
-        let book = InstrumentBook::load(self.pool(), ctx.lot.project_id).await?;
+        let book = self.0.books.book(self.pool(), ctx.lot.project_id).await?;
         let fallback = retest_of.map(Spot::of);
         let checked = check_with_instruments(
             &book,

@@ -8,7 +8,7 @@ use sha2::{Digest, Sha256};
 use super::Actor;
 use super::field::{FieldTestInput, LotContext, RuleCache, require_lot};
 use super::field::{require_lot_takes_tests, require_test, store_in};
-use super::instruments::check::{Arrival, InstrumentBook, check_with_instruments};
+use super::instruments::check::{Arrival, BookCache, check_with_instruments};
 use crate::clock;
 use crate::db::{self, Pool};
 use crate::error::{AppError, Result};
@@ -101,7 +101,7 @@ async fn replay(
 /// Records a new field test once per key; a repeat of the key answers the stored test.
 pub async fn record_once(
     pool: &Pool,
-    rules: &RuleCache,
+    (rules, books): (&RuleCache, &BookCache),
     lot_id: i64,
     input: &FieldTestInput,
     actor: &Actor,
@@ -116,7 +116,7 @@ pub async fn record_once(
     let ctx = LotContext::load_with(pool, rules, &lot).await?;
     let now = clock::now();
     // The same checks as an unkeyed entry, the instrument register's included.
-    let book = InstrumentBook::load(pool, lot.project_id).await?;
+    let book = books.book(pool, lot.project_id).await?;
     let checked = check_with_instruments(&book, &ctx, input, None, actor, &now, Arrival::Single)?;
     store_once(pool, target, input, checked.record, actor, key).await
 }

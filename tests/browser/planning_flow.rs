@@ -55,7 +55,10 @@ async fn plan_drift_and_charts_in_a_browser() {
         }
         tokio::time::sleep(std::time::Duration::from_millis(200)).await;
     }
-    assert!(b.try_find("#drift-pending").await.is_none(), "the drift run finishes");
+    assert!(
+        b.try_find("#drift-pending").await.is_none(),
+        "the drift run finishes"
+    );
     let warn = b.wait_for(".drift-warning").await;
     let text = warn.text().await;
     assert!(

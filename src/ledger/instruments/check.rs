@@ -66,6 +66,38 @@ impl InstrumentBook {
     }
 }
 
+/// The register a project's tests are checked against, kept per project with the
+/// register revision it was read at: a test reads one number, not seven tables, while
+/// nothing in the register changed (on any server: the revision is in the database).
+#[derive(Default)]
+pub struct BookCache(
+    std::sync::Mutex<std::collections::HashMap<i64, (i64, std::sync::Arc<InstrumentBook>)>>,
+);
+
+impl BookCache {
+    /// The project's register as of now.
+    pub async fn book(
+        &self,
+        pool: &Pool,
+        project_id: i64,
+    ) -> Result<std::sync::Arc<InstrumentBook>> {
+        // Read before the register, so a change made meanwhile moves it past this copy.
+        let revision = db::instruments::register_revision(pool).await?;
+        {
+            let kept = self.0.lock().unwrap_or_else(|e| e.into_inner());
+            if let Some((rev, book)) = kept.get(&project_id)
+                && *rev == revision
+            {
+                return Ok(book.clone());
+            }
+        }
+        let book = std::sync::Arc::new(InstrumentBook::load(pool, project_id).await?);
+        let mut kept = self.0.lock().unwrap_or_else(|e| e.into_inner());
+        kept.insert(project_id, (revision, book.clone()));
+        Ok(book)
+    }
+}
+
 /// What the site app keeps of the register for one lot: the project's register with the
 /// lot's clause and source, so the phone checks instruments as the server does.
 pub async fn lot_instruments(pool: &Pool, lot: &db::lots::Lot) -> Result<LotInstruments> {
