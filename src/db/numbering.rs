@@ -55,6 +55,23 @@ pub async fn follow_number(tx: &mut Tx<'_>, project_id: i64, n: i64) -> sqlx::Re
     .map(|_| ()))
 }
 
+/// True when the counter is taken inside the write (SQLite); false when it is drawn
+/// apart, before the write (PostgreSQL).
+pub fn counter_in_write(tx: &Tx<'_>) -> bool {
+    matches!(tx, Tx::Sqlite(_))
+}
+
+/// [`follow_number`] in a short transaction of its own, on PostgreSQL (as
+/// [`draw_test_number`]); nothing on SQLite, where the write follows it.
+pub async fn follow_apart(pool: &Pool, project_id: i64, n: i64) -> sqlx::Result<()> {
+    if pool.engine() != Engine::Postgres {
+        return Ok(());
+    }
+    let mut tx = pool.begin().await?;
+    follow_number(&mut tx, project_id, n).await?;
+    tx.commit().await
+}
+
 /// Takes the next automatic number inside the caller's write transaction.
 pub async fn take_test_number(tx: &mut Tx<'_>, project_id: i64) -> sqlx::Result<String> {
     let n: i64 = on_tx!(tx, |t| sqlx::query_scalar(
