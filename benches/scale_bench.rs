@@ -28,7 +28,7 @@ use serde_json::json;
 #[path = "../src/scale.rs"]
 mod scale;
 
-use scale::{ScaleOptions, generate};
+use scale::{Progress, ScaleOptions, generate, generate_with};
 
 /// Percentiles of a set of timings, milliseconds.
 struct Stats {
@@ -130,6 +130,22 @@ async fn run() -> anyhow::Result<()> {
     Ok(())
 }
 
+/// The generator's progress on standard error, a line every tenth of the tests.
+fn progress_lines() -> impl FnMut(&Progress) + Send {
+    let mut next = 0;
+    move |p: &Progress| {
+        if p.generated >= next {
+            eprintln!(
+                "  generated {} of {} tests, {:.0} s",
+                p.generated,
+                p.wanted,
+                p.elapsed.as_secs_f64()
+            );
+            next = p.generated + (p.wanted / 10).max(1);
+        }
+    }
+}
+
 /// Opens (building when missing) the large project; returns (file, pool, project id).
 async fn big_project(dir: &Path) -> anyhow::Result<(PathBuf, Pool, i64)> {
     let tests: u64 = std::env::var("SCALE_TESTS")
@@ -151,14 +167,8 @@ async fn big_project(dir: &Path) -> anyhow::Result<(PathBuf, Pool, i64)> {
                 "building the large project ({tests} tests) in {}",
                 path.display()
             );
-            let summary = generate(
-                &pool,
-                ScaleOptions {
-                    tests,
-                    ..Default::default()
-                },
-            )
-            .await?;
+            let summary =
+                generate_with(&pool, ScaleOptions::for_tests(tests), &mut progress_lines()).await?;
             println!("  {summary}");
             db::projects::get_by_code(&pool, "BIG")
                 .await?

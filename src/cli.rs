@@ -1,5 +1,5 @@
-//! The command line: `liftledger serve`, `migrate`, `demo`, `copy`, `import`, `backup`,
-//! `restore`, `archive`, `rejudge` and `user`.
+//! The command line: `liftledger serve`, `migrate`, `demo`, `generate`, `copy`, `import`,
+//! `backup`, `restore`, `archive`, `rejudge` and `user`.
 
 use std::net::SocketAddr;
 
@@ -34,6 +34,8 @@ pub enum Command {
     Migrate(DbArgs),
     /// Load the invented demo project into a database file.
     Demo(DbArgs),
+    /// Build an invented large project (for load and scale trials) with a progress line.
+    Generate(GenerateArgs),
     /// Copy a whole database into a new, empty one on another engine, then verify it.
     Copy {
         /// Source: an SQLite file, `sqlite://FILE` or `postgres://…`.
@@ -97,6 +99,23 @@ pub enum Command {
     /// Manage users: add one, or give one a role in a project.
     #[command(subcommand)]
     User(UserCommand),
+}
+
+/// Options of `generate`.
+#[derive(Debug, clap::Args)]
+pub struct GenerateArgs {
+    #[command(flatten)]
+    pub db: DbArgs,
+    /// Field tests to make, retests included (the result lands within a few percent);
+    /// from 100 to 5,000,000.
+    #[arg(long, value_name = "N")]
+    pub tests: u64,
+    /// Code of the new project (the database must not hold it yet).
+    #[arg(long, default_value = "BIG")]
+    pub code: String,
+    /// Seed of the invented readings: one seed gives the same project.
+    #[arg(long, default_value_t = 20_261_201)]
+    pub seed: u64,
 }
 
 /// `liftledger archive …`: write one (`--db --project --to`) or `verify` one.

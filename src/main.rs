@@ -11,6 +11,9 @@ use liftledger::ledger::{Actor, accounts};
 use liftledger::{AppState, Settings, db, demo};
 use tracing_subscriber::EnvFilter;
 
+mod generate;
+mod scale;
+
 #[tokio::main]
 async fn main() -> anyhow::Result<()> {
     let cli = Cli::parse();
@@ -28,6 +31,7 @@ async fn main() -> anyhow::Result<()> {
                 a.location().redacted()
             );
         }
+        Command::Generate(a) => generate::run(&a).await?,
         Command::User(UserCommand::Add {
             db,
             username,

@@ -111,6 +111,19 @@ pub fn signed(v: Option<f64>) -> String {
     v.map_or_else(|| "–".to_string(), |v| format!("{v:+.1}"))
 }
 
+/// A count with its thousands separated by commas: 90000 → "90,000".
+pub fn grouped(n: u64) -> String {
+    let digits = n.to_string();
+    let mut out = String::with_capacity(digits.len() + digits.len() / 3);
+    for (i, c) in digits.chars().enumerate() {
+        if i > 0 && (digits.len() - i).is_multiple_of(3) {
+            out.push(',');
+        }
+        out.push(c);
+    }
+    out
+}
+
 /// The cautions shown wherever a verdict is shown.
 pub const CAUTIONS: [&str; 3] = [
     "Results describe the tested points only.",

@@ -6,11 +6,12 @@
 //! Deterministic: one seed gives the same project, byte for byte except the times it
 //! was made. Relative compaction is drawn from N(RC_min + 2.5, 1.5) and moisture from
 //! N(OMC, 0.8), which fails about 6 % of first tests; every failure gets a retest at
-//! the same spot a day later (itself failing now and then, then retested again).
+//! the same spot a day later (itself failing now and then, then retested again), except
+//! under the quality-index rule, which judges the lot's sample as it stands.
 //!
 //! Not part of the library: it drives the library from outside, as a client would, so
 //! it names it `liftledger::`. `benches/scale_bench.rs` mounts this file with `#[path]`;
-//! a command of the binary can mount it with `mod scale;` in `src/main.rs`.
+//! the binary mounts it with `mod scale;` in `src/main.rs` for `liftledger generate`.
 
 use std::time::Instant;
 
@@ -26,6 +27,7 @@ use liftledger::ledger::import::{
 };
 use liftledger::ledger::{self, Actor, setup};
 use liftledger::reduction::field::{FieldReadings, reduce_field};
+use liftledger::reduction::plausibility::refusal_without_confirmation;
 use liftledger::reduction::verdict::{
     Reference, SpecLimits, judge_test, reference_for_coarse_fraction,
 };
@@ -77,6 +79,43 @@ impl Default for ScaleOptions {
             audit: AuditMode::PerImport,
         }
     }
+}
+
+impl ScaleOptions {
+    /// The default job resized for about `tests` tests: the same lot lengths and tests per
+    /// lot (about 58), with fewer layers and a shorter alignment for a smaller project, so a
+    /// few thousand tests still make a project of several lots in every zone.
+    pub fn for_tests(tests: u64) -> Self {
+        let d = Self::default();
+        let per_lot = d.tests as f64 / d.lots_planned();
+        let lots = (tests as f64 / per_lot).max(6.0);
+        let layers = (tests / 10_000).clamp(3, u64::from(d.layers)) as u32;
+        let mean_lot_m = (d.lot_min_m + d.lot_max_m) / 2.0;
+        Self {
+            tests,
+            layers,
+            length_m: (lots / f64::from(layers) * mean_lot_m)
+                .round()
+                .max(d.lot_max_m * 2.0),
+            ..d
+        }
+    }
+
+    /// Lots the layout makes, about (layers × length / mean lot length).
+    fn lots_planned(&self) -> f64 {
+        f64::from(self.layers) * self.length_m / ((self.lot_min_m + self.lot_max_m) / 2.0)
+    }
+}
+
+/// How far a generation has come, told after each lot's rows are made.
+#[derive(Debug, Clone, Copy)]
+pub struct Progress {
+    /// Tests (retests included) handed to the import so far.
+    pub generated: u64,
+    /// Tests asked for (the result lands within a few percent).
+    pub wanted: u64,
+    /// Since the import began.
+    pub elapsed: std::time::Duration,
 }
 
 /// What was generated and how long it took.
@@ -183,6 +222,9 @@ struct LotPlan {
     gs_coarse: f64,
     oversize_limit: f64,
     tests: u32,
+    /// False under the quality-index rule: a failed lot there is resampled, not patched
+    /// test by test, so its failures stand without retests.
+    retests: bool,
 }
 
 const TECHNICIANS: [&str; 6] = [
@@ -253,6 +295,10 @@ struct TestGenerator {
     retests: u64,
     length_m: f64,
     start: time::OffsetDateTime,
+    /// Rows handed to the import, and rows asked for.
+    handed_out: u64,
+    wanted: u64,
+    started: Instant,
 }
 
 impl TestGenerator {
@@ -277,6 +323,38 @@ impl TestGenerator {
                 sand_density_kg_m3: sand,
                 mass_wet_soil_g: round1(dry * (1.0 + w / 100.0) * volume_cm3 / 1000.0),
                 water_content_pct: round1(w * 10.0) / 10.0,
+            }
+        }
+    }
+
+    /// Readings drawn around the means, drawn again while the point lies further above zero
+    /// air voids than entry accepts unconfirmed (a gauge cannot read it); true in the second
+    /// place when the test fails, judged exactly as the record will judge it.
+    fn plausible_readings(
+        &mut self,
+        reference: &Reference,
+        limits: &SpecLimits,
+        rc_mean: f64,
+        rc_sd: f64,
+        w_sd: f64,
+    ) -> (FieldReadings, bool) {
+        let mut attempt = 0;
+        loop {
+            attempt += 1;
+            let rc = self.rng.normal(rc_mean, rc_sd);
+            let dev = self.rng.normal(0.0, w_sd);
+            let dry = rc / 100.0 * reference.max_dry_density.kg_m3();
+            let w = (reference.optimum_water_content.pct() + dev).max(1.0);
+            let readings = self.readings(dry, w);
+            let Ok(r) = reduce_field(&readings) else {
+                return (readings, true);
+            };
+            let refused = reference.specific_gravity.and_then(|gs| {
+                refusal_without_confirmation(gs, r.water_content.pct(), r.dry_density.kg_m3())
+            });
+            if refused.is_none() || attempt >= 50 {
+                let passed = judge_test(r.dry_density, r.water_content, reference, limits).passed;
+                return (readings, !passed);
             }
         }
     }
@@ -307,16 +385,8 @@ impl TestGenerator {
             .unwrap_or(lot.reference),
             None => lot.reference,
         };
-        let rc = self.rng.normal(rc_mean, rc_sd);
-        let dev = self.rng.normal(0.0, w_sd);
-        let dry = rc / 100.0 * reference.max_dry_density.kg_m3();
-        let w = (reference.optimum_water_content.pct() + dev).max(1.0);
-        let readings = self.readings(dry, w);
-        // Judged exactly as the record will judge it (after rounding of the readings).
-        let failed = match reduce_field(&readings) {
-            Ok(r) => !judge_test(r.dry_density, r.water_content, &reference, &lot.limits).passed,
-            Err(_) => true,
-        };
+        let (readings, failed) =
+            self.plausible_readings(&reference, &lot.limits, rc_mean, rc_sd, w_sd);
         let when = self.start
             + time::Duration::seconds(
                 (day * 86_400.0 + self.rng.between(0.0, 9.0 * 3600.0)) as i64,
@@ -382,7 +452,7 @@ impl TestGenerator {
             self.queue.push_back(row);
             let mut failed_number = number.clone();
             let mut round = 1;
-            while failed && round <= 3 {
+            while failed && lot.retests && round <= 3 {
                 self.failures += 1;
                 self.retests += 1;
                 let retest = format!("{number}-R{round}");
@@ -410,21 +480,31 @@ impl TestGenerator {
     }
 }
 
+/// Told of each lot's rows as they are made.
+pub type ProgressFn<'a> = dyn FnMut(&Progress) + Send + 'a;
+
 /// The generator seen as an import source, stopping at a lot end once `limit` rows are out.
-struct ImportSlice<'a> {
+struct ImportSlice<'a, 'p> {
     generator: &'a mut TestGenerator,
     limit: u64,
     given: u64,
+    progress: &'a mut ProgressFn<'p>,
 }
 
-impl RowSource for ImportSlice<'_> {
+impl RowSource for ImportSlice<'_, '_> {
     fn next_row(&mut self) -> Option<RowResult> {
-        if self.generator.queue.is_empty()
-            && (self.given >= self.limit || !self.generator.fill_next_lot())
-        {
-            return None;
+        if self.generator.queue.is_empty() {
+            if self.given >= self.limit || !self.generator.fill_next_lot() {
+                return None;
+            }
+            (self.progress)(&Progress {
+                generated: self.generator.handed_out,
+                wanted: self.generator.wanted,
+                elapsed: self.generator.started.elapsed(),
+            });
         }
         self.given += 1;
+        self.generator.handed_out += 1;
         let mut row = self.generator.queue.pop_front()?;
         row.row = self.given + 1;
         Some(Ok(row))
@@ -555,6 +635,7 @@ async fn plan_lots(
             gs_coarse: frame.sources[z.source].gs_coarse.unwrap_or(2.65),
             oversize_limit: clause.oversize_limit_pct,
             tests: 0,
+            retests: clause.rule != liftledger::domain::Rule::QualityIndex,
         };
         for n in 1..=z.layers {
             let layer = setup::create_layer(
@@ -619,6 +700,7 @@ async fn import_all(
     generator: &mut TestGenerator,
     opts: &ScaleOptions,
     actor: &Actor,
+    progress: &mut ProgressFn<'_>,
 ) -> anyhow::Result<(u64, u32)> {
     let import_opts = ImportOptions {
         commit: true,
@@ -632,6 +714,7 @@ async fn import_all(
             generator: &mut *generator,
             limit: opts.rows_per_import.max(1),
             given: 0,
+            progress: &mut *progress,
         };
         let report: ImportReport = import_field_tests(pool, pid, &mut slice, &import_opts)
             .await
@@ -706,7 +789,17 @@ async fn review_some(
 }
 
 /// Builds the invented large project in `pool` and returns what was made.
+#[allow(dead_code)] // the binary mounts this file too and calls `generate_with`
 pub async fn generate(pool: &Pool, opts: ScaleOptions) -> anyhow::Result<ScaleSummary> {
+    generate_with(pool, opts, &mut |_| {}).await
+}
+
+/// [`generate`], telling `progress` after each lot's tests are made.
+pub async fn generate_with(
+    pool: &Pool,
+    opts: ScaleOptions,
+    progress: &mut ProgressFn<'_>,
+) -> anyhow::Result<ScaleSummary> {
     let started = Instant::now();
     let actor = Actor::system("scale generator");
     let mut rng = Rng::new(opts.seed);
@@ -736,8 +829,11 @@ pub async fn generate(pool: &Pool, opts: ScaleOptions) -> anyhow::Result<ScaleSu
         retests: 0,
         length_m: opts.length_m,
         start: time::macros::datetime!(2026-02-02 07:00 UTC),
+        handed_out: 0,
+        wanted: opts.tests,
+        started: import_started,
     };
-    let (tests, imports) = import_all(pool, pid, &mut generator, &opts, &actor).await?;
+    let (tests, imports) = import_all(pool, pid, &mut generator, &opts, &actor, progress).await?;
     let import_ms = import_started.elapsed().as_millis() as u64;
 
     let actions_started = Instant::now();

@@ -351,7 +351,8 @@ pub fn rc_chart(input: &RcChartInput) -> String {
     } else {
         input.title.as_str()
     };
-    let open = if input.tests.iter().any(|t| t.href.is_some()) {
+    // A dense chart draws no per-test links.
+    let open = if n < DENSE_FROM && input.tests.iter().any(|t| t.href.is_some()) {
         frame::open_linked_root
     } else {
         frame::open_root
@@ -376,7 +377,15 @@ pub fn rc_chart(input: &RcChartInput) -> String {
     draw_line_labels(&mut w, &l, &mut obstacles);
     // Markers after the labels, so a label never hides a test.
     w.start("g").attr("class", "ll-tests").open();
-    for (i, test) in input.tests.iter().enumerate() {
+    if n >= DENSE_FROM {
+        draw_dense(&mut w, input, &l);
+    }
+    for (i, test) in input
+        .tests
+        .iter()
+        .enumerate()
+        .take_while(|_| n < DENSE_FROM)
+    {
         let (x, slot, radius) = (l.x_of(i), l.slot, l.radius);
         draw_test(
             &mut w,
@@ -458,6 +467,50 @@ fn reference_line(w: &mut SvgWriter, plot: &Plot, y: f64, colour: &str, dash: &s
         .num("stroke-width", 1.6)
         .attr("stroke-dasharray", dash)
         .leaf();
+}
+
+/// From this many tests on, each status's tests are drawn as one path of dots: a mark and
+/// a tooltip per test would weigh megabytes on a lot of tens of thousands of tests.
+const DENSE_FROM: usize = 2_000;
+
+/// Every test as a dot in one path per status (its colour; the legend names them), with
+/// the status's count as the path's title.
+fn draw_dense(w: &mut SvgWriter, input: &RcChartInput, l: &Layout) {
+    for status in RcStatus::ALL {
+        let mut d = String::new();
+        let mut count = 0usize;
+        for (i, test) in input.tests.iter().enumerate() {
+            if test.status != status || !test.rc_pct.is_finite() {
+                continue;
+            }
+            let y = l.y_scale.map(test.rc_pct).clamp(l.plot.top, l.plot.bottom);
+            d.push('M');
+            svg::push_num(&mut d, l.x_of(i));
+            d.push(' ');
+            svg::push_num(&mut d, y);
+            d.push_str("h0");
+            count += 1;
+        }
+        if count == 0 {
+            continue;
+        }
+        let paint = status.paint();
+        let colour = if paint.fill == "none" || paint.fill == palette::PAPER {
+            paint.stroke
+        } else {
+            paint.fill
+        };
+        w.start("path")
+            .attr("class", &format!("ll-test-cloud ll-{}", status.code()))
+            .attr("d", &d)
+            .attr("fill", "none")
+            .attr("stroke", colour)
+            .num("stroke-width", (l.radius * 2.0).max(2.0))
+            .attr("stroke-linecap", "round")
+            .open();
+        w.simple("title", &format!("{count} tests: {}", status.label()));
+        w.close();
+    }
 }
 
 fn draw_stems(

@@ -149,6 +149,35 @@ fn lot_sheet() -> RcChartInput {
 }
 
 #[test]
+fn a_lot_of_many_thousand_tests_draws_one_path_of_dots_per_status() {
+    let statuses = RcStatus::ALL;
+    let tests = (0..90_000)
+        .map(|i| {
+            rc(
+                &format!("T{i}"),
+                93.0 + (i % 70) as f64 / 10.0,
+                statuses[i % 4],
+            )
+        })
+        .collect();
+    let svg = rc_chart(&RcChartInput {
+        title: "Lot 90".to_string(),
+        tests,
+        limit_pct: 95.0,
+        mean_pct: Some(96.0),
+    });
+    assert!(svg.len() < 2_500_000, "{} bytes", svg.len());
+    let doc = parse(&svg);
+    assert!(by_class(&doc, "ll-test").is_empty());
+    for status in statuses {
+        let cloud = by_class(&doc, &format!("ll-{}", status.code()));
+        assert_eq!(cloud.len(), 1, "{status:?}");
+        let d = cloud[0].attribute("d").unwrap();
+        assert_eq!(d.matches('M').count(), 22_500, "{status:?}");
+    }
+}
+
+#[test]
 fn rc_chart_draws_one_mark_per_test_with_status_classes() {
     let svg = rc_chart(&lot_sheet());
     let doc = parse(&svg);

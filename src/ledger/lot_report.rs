@@ -2,6 +2,8 @@
 //! lot's reference curve and clause, the lot verdict, tests owed, and whether
 //! its certificate still matches the record.
 
+use std::collections::{HashMap, HashSet};
+
 use serde::Serialize;
 use sha2::{Digest, Sha256};
 
@@ -113,6 +115,59 @@ pub fn instrument_cautions(t: &db::field_tests::FieldTest) -> Vec<String> {
         ));
     }
     out
+}
+
+/// Which of a lot's test lines a sheet page or an API answer lists; the verdict, statistics,
+/// chart and counts always cover every line.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct TestWindow {
+    /// Lines skipped from the first.
+    pub offset: usize,
+    /// Most lines listed.
+    pub limit: usize,
+}
+
+impl TestWindow {
+    /// Rows on one page of the lot sheet.
+    pub const SHEET_ROWS: usize = 500;
+    /// Lines of an API lot report when the caller names no limit (a lot of up to this many
+    /// tests is answered whole, as before the limit).
+    pub const API_DEFAULT: Self = Self {
+        offset: 0,
+        limit: 1000,
+    };
+    /// The most lines one API lot report lists.
+    pub const API_MAX_LIMIT: usize = 10_000;
+
+    /// Page `page` (from 1) of the lot sheet.
+    pub fn sheet_page(page: usize) -> Self {
+        Self {
+            offset: page.saturating_sub(1).saturating_mul(Self::SHEET_ROWS),
+            limit: Self::SHEET_ROWS,
+        }
+    }
+
+    /// The lines of `total` inside the window (empty when it starts past the end).
+    pub fn range(self, total: usize) -> std::ops::Range<usize> {
+        let from = self.offset.min(total);
+        from..from.saturating_add(self.limit).min(total)
+    }
+}
+
+impl LotReport {
+    /// The lines inside a window.
+    pub fn lines_in(&self, w: TestWindow) -> &[TestLine] {
+        &self.tests[w.range(self.tests.len())]
+    }
+
+    /// Ids of the tests that have a retest not voided (the sheet offers no second retest).
+    pub fn tests_with_live_retest(&self) -> HashSet<i64> {
+        self.tests
+            .iter()
+            .filter(|l| l.test.void_reason.is_none())
+            .filter_map(|l| l.test.retest_of)
+            .collect()
+    }
 }
 
 /// The statistics and verdict of a lot under its clause's rule.
@@ -386,35 +441,25 @@ fn lot_inputs(
         .collect()
 }
 
-/// The rows a lot's set-up gives every test line.
+/// The rows a lot's set-up gives every test line, and its tests' numbers and standings
+/// by id (looked up once per line: a lot may hold tens of thousands of tests).
 struct LineContext<'a> {
     lot: &'a db::lots::Lot,
     lab_test: &'a db::lab_tests::LabTest,
     clause: &'a db::clauses::Clause,
-    tests: &'a [db::field_tests::FieldTest],
+    numbers: HashMap<i64, &'a str>,
+    standings: HashMap<i64, &'a TestStanding>,
     extras: &'a super::planning::LotExtras,
 }
 
 impl LineContext<'_> {
     fn number_of(&self, id: i64) -> Option<String> {
-        self.tests
-            .iter()
-            .find(|t| t.id == id)
-            .map(|t| t.number.clone())
+        self.numbers.get(&id).map(|n| n.to_string())
     }
 
     /// How a test stands in the lot's verdict, and the retest superseding it.
-    fn standing(
-        &self,
-        t: &db::field_tests::FieldTest,
-        lv: &LotVerdict,
-    ) -> (Standing, Option<String>) {
-        let standing = lv
-            .standings
-            .iter()
-            .find(|(id, _)| *id == t.id)
-            .map(|(_, s)| s);
-        match standing {
+    fn standing(&self, t: &db::field_tests::FieldTest) -> (Standing, Option<String>) {
+        match self.standings.get(&t.id).copied() {
             Some(TestStanding::Voided) => (Standing::Voided, None),
             Some(TestStanding::Superseded { by }) => (Standing::Superseded, self.number_of(*by)),
             Some(TestStanding::CannotBeJudged) => (Standing::CannotBeJudged, None),
@@ -424,9 +469,9 @@ impl LineContext<'_> {
         }
     }
 
-    fn line(&self, t: &db::field_tests::FieldTest, judged: Judged, lv: &LotVerdict) -> TestLine {
+    fn line(&self, t: &db::field_tests::FieldTest, judged: Judged) -> TestLine {
         let (r, v, reasons) = judged;
-        let (standing, superseded_by) = self.standing(t, lv);
+        let (standing, superseded_by) = self.standing(t);
         let rc = v.as_ref().map(|v| v.relative_compaction_pct);
         TestLine {
             unjudged_reason: v.is_none().then(|| reasons.join("; ")),
@@ -631,13 +676,14 @@ pub fn assemble(
         lot: &lot,
         lab_test: &lab_test,
         clause: &clause,
-        tests: &tests,
+        numbers: tests.iter().map(|t| (t.id, t.number.as_str())).collect(),
+        standings: lv.standings.iter().map(|(id, s)| (*id, s)).collect(),
         extras,
     };
     let lines: Vec<TestLine> = tests
         .iter()
         .zip(judged)
-        .map(|(t, j)| cx.line(t, j, &lv))
+        .map(|(t, j)| cx.line(t, j))
         .collect();
 
     let length_m = lot.chainage_to_m - lot.chainage_from_m;

@@ -21,6 +21,7 @@ use crate::db;
 use crate::error::{AppError, Result};
 use crate::http::caller::{Caller, Scope, require, require_admin};
 use crate::http::extract::{ApiJson, ApiPath, ApiQuery};
+use crate::ledger::lot_report::TestWindow;
 use crate::ledger::{self, setup};
 
 /// Routes of this module.
@@ -387,18 +388,55 @@ async fn create_lot(
     Ok((StatusCode::CREATED, Json(lot.into())))
 }
 
+/// Which of a lot's test lines its report lists.
+#[derive(Debug, Deserialize, IntoParams)]
+#[serde(deny_unknown_fields)]
+#[into_params(parameter_in = Query)]
+struct LotLinesQuery {
+    /// Test lines to skip (default 0).
+    #[param(minimum = 0)]
+    offset: Option<usize>,
+    /// Most test lines to list (default 1000, at most 10000); the verdict and statistics
+    /// cover every test whatever the window.
+    #[param(minimum = 1, maximum = 10000)]
+    limit: Option<usize>,
+}
+
+impl LotLinesQuery {
+    /// The window asked for, its limit checked.
+    fn window(&self) -> Result<TestWindow> {
+        let limit = self.limit.unwrap_or(TestWindow::API_DEFAULT.limit);
+        if !(1..=TestWindow::API_MAX_LIMIT).contains(&limit) {
+            return Err(AppError::invalid(
+                "limit",
+                format!("must be between 1 and {}", TestWindow::API_MAX_LIMIT),
+            ));
+        }
+        Ok(TestWindow {
+            offset: self.offset.unwrap_or(0),
+            limit,
+        })
+    }
+}
+
 /// A lot with its tests, verdict, statistics and tests owed.
+///
+/// The tests are listed from `offset`, at most `limit` of them (default the first 1000);
+/// `tests_entered` counts them all, and the verdict and statistics cover every test.
 #[utoipa::path(get, path = "/api/v1/lots/{id}", tag = "lots",
-    params(IdPath),
+    params(IdPath, LotLinesQuery),
     responses((status = 200, description = "The lot judged now", body = LotReportAnswer), Refusals))]
 async fn get_lot(
     State(s): State<AppState>,
     caller: Caller,
     ApiPath(id): ApiPath<i64>,
+    ApiQuery(q): ApiQuery<LotLinesQuery>,
 ) -> Result<Json<LotReportAnswer>> {
     require(&s.db, &caller, Scope::Lot(id), Action::Read).await?;
 
-    Ok(Json(ledger::lot_report::build(&s.db, id).await?.into()))
+    let window = q.window()?;
+    let report = ledger::lot_report::build(&s.db, id).await?;
+    Ok(Json(LotReportAnswer::windowed(report, window)))
 }
 
 /// A lot's state changes and audit trail.

@@ -14,8 +14,9 @@ use crate::charts::{RcBar, RcChartInput, RcStatus, rc_chart};
 use crate::db;
 use crate::error::AppError;
 use crate::http::caller::{Caller, Scope, require};
+use crate::http::extract::ApiQuery;
 use crate::http::extract::parse_form;
-use crate::ledger::lot_report::LotReport;
+use crate::ledger::lot_report::{LotReport, TestLine, TestWindow};
 use crate::ledger::{self, lot_report};
 use crate::present::{self, Units};
 
@@ -49,67 +50,118 @@ pub struct Row {
     pub can_void: bool,
 }
 
-/// Formats a lot's tests as sheet rows.
-pub fn rows(r: &LotReport, u: &Units, may_retest: bool, may_void: bool) -> Vec<Row> {
+/// Formats the lot's tests inside `window` as sheet rows.
+pub fn rows(
+    r: &LotReport,
+    window: TestWindow,
+    u: &Units,
+    may_retest: bool,
+    may_void: bool,
+) -> Vec<Row> {
     let takes_changes = r.lot.state != LotState::Submitted;
-    r.tests
+    let retested = r.tests_with_live_retest();
+    r.lines_in(window)
         .iter()
-        .map(|t| {
-            let result = t.result();
-            let mut notes = Vec::new();
-            notes.extend(t.cautions());
-            if t.standing == Standing::EarlierSample {
-                notes.push("earlier sample: on record, out of the statistics".to_string());
-            }
-            if let Some(n) = &t.retest_of_number {
-                notes.push(format!("retest of {n}"));
-            }
-            if let Some(v) = &t.test.void_reason {
-                notes.push(format!(
-                    "void: {v} ({})",
-                    t.test.voided_by.clone().unwrap_or_default()
-                ));
-            }
-            if let Some(b) = &t.superseded_by {
-                notes.push(format!("superseded by {b}"));
-            }
-            if t.standing.counted() && !t.passed {
-                notes.extend(t.reasons.iter().cloned());
-            }
-            if let Some(c) = t.test.coarse_pct.filter(|c| *c > 0.0) {
-                notes.push(format!(
-                    "oversize {c:.0} %, reference {}",
-                    u.density_with_unit(t.reference_mdd_kg_m3.unwrap_or(0.0))
-                ));
-            }
-            let has_live_retest = r
-                .tests
-                .iter()
-                .any(|o| o.test.retest_of == Some(t.test.id) && o.test.void_reason.is_none());
-            Row {
-                id: t.test.id,
-                number: t.test.number.clone(),
-                date: crate::clock::display(&t.test.tested_at),
-                chainage: u.chainage(t.test.chainage_m),
-                offset: u.offset(t.test.offset_m),
-                method: t.test.method.words(),
-                wet: u.density(t.test.wet_density_kg_m3),
-                water: format!("{:.1}", t.test.water_content_pct),
-                dry: u.density(t.test.dry_density_kg_m3),
-                rc: present::pct(t.relative_compaction_pct),
-                dev: present::signed(t.moisture_deviation_pct),
-                result: result.to_string(),
-                struck: !t.standing.counted(),
-                note: notes.join("; "),
-                can_retest: may_retest
-                    && takes_changes
-                    && !t.passed
-                    && t.test.void_reason.is_none()
-                    && !has_live_retest,
-                can_void: may_void && takes_changes && t.test.void_reason.is_none(),
-            }
+        .map(|t| Row {
+            id: t.test.id,
+            number: t.test.number.clone(),
+            date: crate::clock::display(&t.test.tested_at),
+            chainage: u.chainage(t.test.chainage_m),
+            offset: u.offset(t.test.offset_m),
+            method: t.test.method.words(),
+            wet: u.density(t.test.wet_density_kg_m3),
+            water: format!("{:.1}", t.test.water_content_pct),
+            dry: u.density(t.test.dry_density_kg_m3),
+            rc: present::pct(t.relative_compaction_pct),
+            dev: present::signed(t.moisture_deviation_pct),
+            result: t.result().to_string(),
+            struck: !t.standing.counted(),
+            note: note(t, u),
+            can_retest: may_retest
+                && takes_changes
+                && !t.passed
+                && t.test.void_reason.is_none()
+                && !retested.contains(&t.test.id),
+            can_void: may_void && takes_changes && t.test.void_reason.is_none(),
         })
         .collect()
+}
+
+/// What the sheet says beside a test: cautions, standing, retest, void, failure reasons.
+fn note(t: &TestLine, u: &Units) -> String {
+    let mut notes = Vec::new();
+    notes.extend(t.cautions());
+    if t.standing == Standing::EarlierSample {
+        notes.push("earlier sample: on record, out of the statistics".to_string());
+    }
+    if let Some(n) = &t.retest_of_number {
+        notes.push(format!("retest of {n}"));
+    }
+    if let Some(v) = &t.test.void_reason {
+        notes.push(format!(
+            "void: {v} ({})",
+            t.test.voided_by.clone().unwrap_or_default()
+        ));
+    }
+    if let Some(b) = &t.superseded_by {
+        notes.push(format!("superseded by {b}"));
+    }
+    if t.standing.counted() && !t.passed {
+        notes.extend(t.reasons.iter().cloned());
+    }
+    if let Some(c) = t.test.coarse_pct.filter(|c| *c > 0.0) {
+        notes.push(format!(
+            "oversize {c:.0} %, reference {}",
+            u.density_with_unit(t.reference_mdd_kg_m3.unwrap_or(0.0))
+        ));
+    }
+    notes.join("; ")
+}
+
+/// The sheet's page of the test table: which rows, in words, and the links either side.
+struct Pager {
+    /// "Tests 501–1,000 of 90,000 (page 2 of 180)".
+    words: String,
+    prev: Option<String>,
+    next: Option<String>,
+    /// More than one page: the pager is shown.
+    paged: bool,
+}
+
+impl Pager {
+    /// Page `page` (from 1) of a lot of `total` tests; refused past the last page.
+    fn new(lot_id: i64, page: usize, total: usize) -> crate::error::Result<Self> {
+        let per = TestWindow::SHEET_ROWS;
+        let pages = total.div_ceil(per).max(1);
+        if page == 0 || page > pages {
+            return Err(AppError::invalid(
+                "page",
+                format!(
+                    "must be between 1 and {pages}: the lot's {} tests fill {pages} page{} of {per}",
+                    present::grouped(total as u64),
+                    if pages == 1 { "" } else { "s" }
+                ),
+            ));
+        }
+        let range = TestWindow::sheet_page(page).range(total);
+        let href = |p: usize| format!("/lots/{lot_id}?page={p}#tests-heading");
+        let words = if range.is_empty() {
+            "No tests yet".to_string()
+        } else {
+            format!(
+                "Tests {}–{} of {} (page {page} of {pages})",
+                present::grouped(range.start as u64 + 1),
+                present::grouped(range.end as u64),
+                present::grouped(total as u64)
+            )
+        };
+        Ok(Self {
+            words,
+            prev: (page > 1).then(|| href(page - 1)),
+            next: (page < pages).then(|| href(page + 1)),
+            paged: pages > 1,
+        })
+    }
 }
 
 /// The RC-per-test chart of a lot.
@@ -189,6 +241,7 @@ struct LotPage {
     effort: String,
     density_unit: String,
     rows: Vec<Row>,
+    pager: Pager,
     accepted: bool,
     n: usize,
     mean: String,
@@ -215,24 +268,42 @@ struct LotPage {
     cautions: Vec<String>,
 }
 
-async fn sheet(State(s): State<AppState>, caller: Caller, Path(id): Path<i64>) -> PageResult {
-    require(&s.db, &caller, Scope::Lot(id), Action::Read).await?;
-    sheet_with(&s, &caller, id, String::new(), StatusCode::OK).await
+/// The sheet's query: which page of the test table (from 1; the first when not given).
+#[derive(Debug, Default, serde::Deserialize)]
+#[serde(deny_unknown_fields)]
+struct SheetQuery {
+    page: Option<usize>,
 }
 
-/// The lot sheet with `message` above it (a refused action's reasons), answered with `status`.
+async fn sheet(
+    State(s): State<AppState>,
+    caller: Caller,
+    Path(id): Path<i64>,
+    ApiQuery(q): ApiQuery<SheetQuery>,
+) -> PageResult {
+    require(&s.db, &caller, Scope::Lot(id), Action::Read).await?;
+    let page = q.page.unwrap_or(1);
+    sheet_with(&s, &caller, id, page, String::new(), StatusCode::OK).await
+}
+
+/// Page `page` of the lot sheet with `message` above it (a refused action's reasons),
+/// answered with `status`.
 async fn sheet_with(
     s: &AppState,
     caller: &Caller,
     id: i64,
+    page: usize,
     message: String,
     status: StatusCode,
 ) -> PageResult {
     let r = lot_report::build(&s.db, id).await?;
+    let pager = Pager::new(id, page, r.tests.len())?;
     let role = caller.role_in(&s.db, r.project.id).await?;
     let records = Records {
         certs: cert_lines(s, id).await?,
         history: history_lines(s, id).await?,
+        pager,
+        window: TestWindow::sheet_page(page),
     };
     let page = LotPage::new(&r, role, records, message);
     super::render_status(status, &page)
@@ -271,10 +342,12 @@ async fn history_lines(s: &AppState, lot_id: i64) -> crate::error::Result<Vec<Hi
         .collect())
 }
 
-/// What the sheet lists under the lot besides its report.
+/// What the sheet lists under the lot besides its report, and which tests it shows.
 struct Records {
     certs: Vec<CertLine>,
     history: Vec<HistoryLine>,
+    pager: Pager,
+    window: TestWindow,
 }
 
 /// The clause's test frequency in words: "at least 3 per lot, one per 500 m²".
@@ -337,7 +410,14 @@ impl LotPage {
             gs: format!("{:.2}", r.lab_test.specific_gravity),
             effort: r.lab_test.effort.label(),
             density_unit: u.density_unit().to_string(),
-            rows: rows(r, &u, may(Action::EnterTests), may(Action::VoidTest)),
+            rows: rows(
+                r,
+                records.window,
+                &u,
+                may(Action::EnterTests),
+                may(Action::VoidTest),
+            ),
+            pager: records.pager,
             accepted: v.accepted,
             n: v.n,
             mean: present::pct(v.mean),
@@ -415,7 +495,7 @@ async fn act(s: AppState, caller: Caller, id: i64, body: &[u8], step: Step) -> P
             if !e.reasons().is_empty() {
                 msg = format!("{msg}: {}", e.reasons().join("; "));
             }
-            sheet_with(&s, &caller, id, msg, e.status()).await
+            sheet_with(&s, &caller, id, 1, msg, e.status()).await
         }
         Err(e) => Err(e.into()),
     }
@@ -472,6 +552,7 @@ async fn void(
                 &s,
                 &caller,
                 test.lot_id,
+                1,
                 format!("void {}: {}", test.number, e.user_message()),
                 e.status(),
             )

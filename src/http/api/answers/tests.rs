@@ -8,7 +8,7 @@ use super::json_column;
 use super::setup::{ClauseAnswer, LabTestAnswer, LotAnswer, ProjectAnswer, SourceAnswer};
 use crate::db;
 use crate::http::api::codes;
-use crate::ledger::lot_report::{LotReport, TestLine, Verdict};
+use crate::ledger::lot_report::{LotReport, TestLine, TestWindow, Verdict};
 
 /// A stored field test with its readings as entered.
 #[derive(Debug, Serialize, ToSchema)]
@@ -309,7 +309,13 @@ pub struct LotReportAnswer {
     pub clause: ClauseAnswer,
     pub source: SourceAnswer,
     pub lab_test: LabTestAnswer,
+    /// The lot's test lines from `tests_offset`, at most `tests_limit` of them (the verdict,
+    /// statistics and counts cover every test).
     pub tests: Vec<TestLineAnswer>,
+    /// Lines skipped before the first listed.
+    pub tests_offset: usize,
+    /// Most lines listed in this answer.
+    pub tests_limit: usize,
     /// Tests entered on the lot, voided and superseded ones included.
     pub tests_entered: usize,
     pub verdict: VerdictAnswer,
@@ -332,9 +338,19 @@ pub struct LotReportAnswer {
 }
 
 impl From<LotReport> for LotReportAnswer {
+    /// The answer with the lot's first [`TestWindow::API_DEFAULT`] lines.
     fn from(r: LotReport) -> Self {
+        Self::windowed(r, TestWindow::API_DEFAULT)
+    }
+}
+
+impl LotReportAnswer {
+    /// The answer listing the lines inside `w`.
+    pub fn windowed(r: LotReport, w: TestWindow) -> Self {
         Self {
-            tests: r.tests.iter().map(TestLineAnswer::from).collect(),
+            tests: r.lines_in(w).iter().map(TestLineAnswer::from).collect(),
+            tests_offset: w.offset,
+            tests_limit: w.limit,
             verdict: (&r.verdict).into(),
             lot: r.lot.into(),
             project: r.project.into(),
