@@ -42,8 +42,14 @@ pub const TABLES: [&str; 29] = [
 /// Tables a copy does not move row by row: the lot summaries and their marks, which the
 /// target rebuilds (its triggers mark every copied lot, and its first settling judges
 /// them), and the test counters, which the target's project trigger creates and the copy
-/// then sets to the source's values.
-pub const REBUILT: [&str; 3] = ["lot_summaries", "lots_to_judge", "test_counters"];
+/// then sets to the source's values; and the register's revision, a number the target's
+/// own migration starts and its triggers move (only caches read it).
+pub const REBUILT: [&str; 4] = [
+    "lot_summaries",
+    "lots_to_judge",
+    "test_counters",
+    "register_revision",
+];
 
 /// What a copy moved and checked.
 #[derive(Debug, Clone, PartialEq, Eq)]
