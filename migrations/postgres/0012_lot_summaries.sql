@@ -211,3 +211,28 @@ CREATE TRIGGER clause_instrument_policy_moves_register AFTER INSERT OR UPDATE OR
     FOR EACH STATEMENT EXECUTE FUNCTION bump_register_revision();
 CREATE TRIGGER gauge_offsets_moves_register AFTER INSERT OR UPDATE OR DELETE ON gauge_offsets
     FOR EACH STATEMENT EXECUTE FUNCTION bump_register_revision();
+
+-- PostgreSQL numbers a project's tests from a sequence of its own (see `db::numbering`):
+-- `nextval` takes no lock another writer waits for; the counter table stays for SQLite.
+DO $$
+DECLARE r RECORD;
+BEGIN
+    FOR r IN SELECT project_id, last_number FROM test_counters LOOP
+        EXECUTE format('CREATE SEQUENCE test_numbers_%s', r.project_id);
+        IF r.last_number > 0 THEN
+            PERFORM setval(format('test_numbers_%s', r.project_id), r.last_number);
+        END IF;
+    END LOOP;
+END;
+$$;
+
+CREATE OR REPLACE FUNCTION count_tests_of_new_projects() RETURNS trigger LANGUAGE plpgsql AS $$
+DECLARE r RECORD;
+BEGIN
+    INSERT INTO test_counters (project_id, last_number) SELECT id, 0 FROM new_rows;
+    FOR r IN SELECT id FROM new_rows LOOP
+        EXECUTE format('CREATE SEQUENCE test_numbers_%s', r.id);
+    END LOOP;
+    RETURN NULL;
+END;
+$$;

@@ -42,7 +42,7 @@ pub const TABLES: [&str; 29] = [
 /// Tables a copy does not move row by row: the lot summaries and their marks, which the
 /// target rebuilds (its triggers mark every copied lot, and its first settling judges
 /// them), and the test counters, which the target's project trigger creates and the copy
-/// then sets to the source's values; and the register's revision, a number the target's
+/// then sets to the source's numbers (`db::numbering::counters`); and the register's revision, a number the target's
 /// own migration starts and its triggers move (only caches read it).
 pub const REBUILT: [&str; 4] = [
     "lot_summaries",
@@ -263,21 +263,11 @@ pub async fn copy_all_with(
         rows.push((table.to_string(), n));
     }
     // Each copied project was given a counter at zero; it takes the source's number.
-    let counters: Vec<(i64, i64)> = on_tx!(&mut snapshot, |t| sqlx::query_as(
-        "SELECT project_id, last_number FROM test_counters ORDER BY project_id"
-    )
-    .fetch_all(&mut **t)
-    .await)
-    .context("reading test_counters")?;
-    for (project_id, last_number) in counters {
-        on_tx!(&mut tx, |t| sqlx::query(
-            "UPDATE test_counters SET last_number = $1 WHERE project_id = $2"
-        )
-        .bind(last_number)
-        .bind(project_id)
-        .execute(&mut **t)
+    for (project_id, last_number) in super::numbering::counters(&mut snapshot)
         .await
-        .map(|r| r.rows_affected()))?;
+        .context("reading the test counters")?
+    {
+        super::numbering::follow_number(&mut tx, project_id, last_number).await?;
     }
     tx.commit().await?;
     let report = verify(&mut snapshot, to, rows).await;

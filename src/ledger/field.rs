@@ -16,7 +16,7 @@ use crate::reduction::{self, field::FieldReadings};
 
 mod store;
 pub(super) use store::store;
-pub(crate) use store::{Landing, land, number_before_write, store_in, test_source};
+pub(crate) use store::{Landing, land, store_in, test_source};
 
 pub use crate::reduction::site::FieldTestInput;
 use crate::reduction::site::{LotRules, SiteError};

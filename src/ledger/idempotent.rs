@@ -134,8 +134,6 @@ pub async fn store_once(
     let sha = fingerprint(target, input)?;
     let lot_id = target.lot_id();
     let now = clock::now();
-    let mut record = record;
-    super::field::number_before_write(pool, &mut record).await?;
     let mut tx = db::begin_write(pool).await?;
     if let Some(found) = db::idempotency::get_in(&mut tx, key).await? {
         drop(tx);

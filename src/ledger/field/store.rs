@@ -31,35 +31,18 @@ pub(crate) enum Landing<'b, 'a> {
 }
 
 /// Writes one checked test and its audit row in its own transaction (where there is no
-/// group-commit writer: PostgreSQL, or outside a runtime). On PostgreSQL an automatic
-/// number is drawn before the write, so the counter is not held while it commits.
+/// group-commit writer: PostgreSQL, or outside a runtime).
 pub(crate) async fn store(
     pool: &db::Pool,
     record: FieldTest,
     actor: &Actor,
     action: &str,
 ) -> Result<FieldTest> {
-    let mut record = record;
-    number_before_write(pool, &mut record).await?;
     let mut tx = db::begin_write(pool).await?;
     let record = store_in(&mut tx, record, actor, action).await?;
     tx.commit().await?;
     crate::metrics::field_tests_recorded(test_source(action), 1);
     Ok(record)
-}
-
-/// On PostgreSQL the counter is settled before a single test's write begins: a missing
-/// number drawn, a number of the automatic form given by hand followed (see
-/// `db::numbering`), so the write holds no row other writers need. Nothing on SQLite.
-pub(crate) async fn number_before_write(pool: &db::Pool, record: &mut FieldTest) -> Result<()> {
-    if record.number.is_empty() {
-        if let Some(number) = db::numbering::draw_test_number(pool, record.project_id).await? {
-            record.number = number;
-        }
-    } else if let Some(n) = db::numbering::automatic_number(&record.number) {
-        db::numbering::follow_apart(pool, record.project_id, n).await?;
-    }
-    Ok(())
 }
 
 /// The metrics label of a store action ("retest", else an entry).
@@ -105,10 +88,8 @@ pub(crate) async fn land<'a>(
         record.number = db::numbering::take_test_number(tx, record.project_id).await?;
     } else if let Some(n) = db::numbering::automatic_number(&record.number)
         && matches!(how, Landing::Alone)
-        && db::numbering::counter_in_write(tx)
     {
-        // A number of the automatic form given by hand is not drawn again (on PostgreSQL
-        // the counter followed it before the write, see `store`).
+        // A number of the automatic form given by hand is not drawn again.
         db::numbering::follow_number(tx, record.project_id, n).await?;
     }
     match how {
