@@ -274,6 +274,17 @@ pub async fn count_since(pool: &Pool, project_id: i64, since: &str) -> sqlx::Res
     .await)
 }
 
+/// Every test of a project, counted row by row: for tools and benches (views count from
+/// the lots' stored summaries).
+pub async fn count(pool: &Pool, project_id: i64) -> sqlx::Result<i64> {
+    on_pool!(pool, |pool| sqlx::query_scalar(
+        "SELECT COUNT(*) FROM field_tests WHERE project_id = $1"
+    )
+    .bind(project_id)
+    .fetch_one(pool)
+    .await)
+}
+
 /// The newest test in a project, if any.
 pub async fn latest(pool: &Pool, project_id: i64) -> sqlx::Result<Option<FieldTest>> {
     on_pool!(pool, |pool| {

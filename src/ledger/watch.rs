@@ -381,10 +381,13 @@ fn start_drift_run(
     let (done, run) = tokio::sync::watch::channel(false);
     let pool = pool.clone();
     let entries = cache.0.clone();
-    tokio::spawn(async move {
+    // On a thread of its own: judging every counted test is long stretches of CPU between
+    // awaits, which on a runtime worker would hold back the requests queued behind it.
+    let runtime = tokio::runtime::Handle::current();
+    tokio::task::spawn_blocking(move || {
         let started = Instant::now();
-        let notes = drift_warnings(&pool, project_id)
-            .await
+        let notes = runtime
+            .block_on(drift_warnings(&pool, project_id))
             .map(|d| d.iter().map(DriftNote::from).collect::<Vec<_>>());
         let mut all = entries.lock().unwrap_or_else(|e| e.into_inner());
         let e = all.entry(project_id).or_default();
