@@ -137,32 +137,6 @@ pub async fn count(pool: &Pool) -> sqlx::Result<i64> {
     .await)
 }
 
-/// The newest audit row of a project, 0 when none.
-pub async fn last_id(pool: &Pool, project_id: i64) -> sqlx::Result<i64> {
-    let id: Option<i64> = on_pool!(pool, |pool| sqlx::query_scalar(
-        "SELECT MAX(id) FROM audit_log WHERE project_id = $1"
-    )
-    .bind(project_id)
-    .fetch_one(pool)
-    .await)?;
-    Ok(id.unwrap_or(0))
-}
-
-/// What changed in a project after audit row `after`: (id, entity, entity_id), oldest first.
-pub async fn changes_since(
-    pool: &Pool,
-    project_id: i64,
-    after: i64,
-) -> sqlx::Result<Vec<(i64, String, Option<i64>)>> {
-    on_pool!(pool, |pool| sqlx::query_as(
-        "SELECT id, entity, entity_id FROM audit_log WHERE project_id = $1 AND id > $2 ORDER BY id",
-    )
-    .bind(project_id)
-    .bind(after)
-    .fetch_all(pool)
-    .await)
-}
-
 /// Every audit row of a project, oldest first, streamed (a handover archive holds them all).
 pub fn for_project(
     pool: &Pool,

@@ -72,23 +72,3 @@ pub async fn project_of_token(pool: &Pool, id: i64) -> sqlx::Result<Option<i64>>
     .fetch_optional(pool)
     .await)
 }
-
-/// The lot a field test belongs to.
-pub async fn lot_of_test(pool: &Pool, id: i64) -> sqlx::Result<Option<i64>> {
-    on_pool!(pool, |pool| sqlx::query_scalar(
-        "SELECT lot_id FROM field_tests WHERE id = $1"
-    )
-    .bind(id)
-    .fetch_optional(pool)
-    .await)
-}
-
-/// The lot a certificate was issued for.
-pub async fn lot_of_certificate(pool: &Pool, id: i64) -> sqlx::Result<Option<i64>> {
-    on_pool!(pool, |pool| sqlx::query_scalar(
-        "SELECT lot_id FROM certificates WHERE id = $1"
-    )
-    .bind(id)
-    .fetch_optional(pool)
-    .await)
-}

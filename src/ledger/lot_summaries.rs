@@ -295,19 +295,11 @@ async fn judge_marked(
 }
 
 /// Every lot of a project with its stored judgement, without test lines, in layer then
-/// chainage order: the lift map's and the home page's reading. Settles first.
+/// chainage order: the lift map's and the home page's reading, after the caller settled
+/// the project (`overview::summaries`).
 pub async fn read(pool: &Pool, project_id: i64) -> Result<Vec<LotReport>> {
-    settle(pool, project_id).await?;
     let mut rows = ProjectRows::load(pool, project_id).await?;
-    let lots = db::lots::list(
-        pool,
-        project_id,
-        &db::lots::LotFilter {
-            limit: i64::MAX,
-            ..Default::default()
-        },
-    )
-    .await?;
+    let lots = overview::every_lot(pool, project_id).await?;
     let mut stored: HashMap<i64, SummaryRow> = db::lot_summaries::for_project(pool, project_id)
         .await?
         .into_iter()

@@ -135,6 +135,15 @@ impl ProjectRows {
     }
 }
 
+/// Every lot of a project, in layer then chainage order.
+pub(super) async fn every_lot(pool: &Pool, project_id: i64) -> Result<Vec<db::lots::Lot>> {
+    let all = db::lots::LotFilter {
+        limit: i64::MAX,
+        ..Default::default()
+    };
+    Ok(db::lots::list(pool, project_id, &all).await?)
+}
+
 /// Judges every lot of the project that `keep` accepts, calling `each` with the lots
 /// in layer then chainage order.
 ///
@@ -149,15 +158,7 @@ pub async fn each_report(
     mut each: impl FnMut(LotReport) -> Result<()>,
 ) -> Result<()> {
     let mut shared = ProjectRows::load(pool, project_id).await?;
-    let lots = db::lots::list(
-        pool,
-        project_id,
-        &db::lots::LotFilter {
-            limit: i64::MAX,
-            ..Default::default()
-        },
-    )
-    .await?;
+    let lots = every_lot(pool, project_id).await?;
     // Position of each kept lot in display order, and the lot rows by id.
     let mut order: HashMap<i64, usize> = HashMap::new();
     let mut rows: HashMap<i64, db::lots::Lot> = HashMap::new();
